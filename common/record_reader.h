@@ -1,0 +1,49 @@
+// ReadRecords: turns a shard's decompressed byte stream into records. For
+// each well-formed record it fills the raw-field slots of a FieldTable (the
+// rest stay Missing) and calls the sink; malformed records are skipped,
+// counted, and the first few kept as samples with their line numbers.
+// NDJSON: one JSON value per line, fields by JSON Pointer (RFC 6901).
+// CSV/TSV: header row, RFC 4180 quoting, fields by column name; an empty
+// cell is Missing. Strings in slots stay valid only during the sink call.
+#pragma once
+
+#include <cstdint>
+#include <string>
+#include <vector>
+
+#include "common/byte_source.h"
+#include "common/field_table.h"
+#include "common/status.h"
+#include "common/value.h"
+
+namespace fanfold {
+
+enum class RecordFormat { kNdjson, kCsv, kTsv };
+
+struct MalformedSample {
+  uint64_t line = 0;   // 1-based line where the record starts
+  std::string reason;  // e.g. "unclosed string", "expected 7 fields, found 6"
+};
+
+struct ReadStats {
+  static constexpr size_t kMaxSamples = 5;
+  uint64_t records = 0;    // well-formed records passed to the sink
+  uint64_t malformed = 0;  // records skipped as malformed
+  uint64_t raw_bytes = 0;  // decompressed bytes read
+  std::vector<MalformedSample> samples;  // the first kMaxSamples malformed
+};
+
+class RecordSink {
+ public:
+  virtual ~RecordSink() = default;
+  // slots has fields.size() entries. Return false to stop reading early.
+  virtual bool OnRecord(Value* slots) = 0;
+};
+
+// Reads every record of src. Returns an error for an unreadable/corrupt
+// stream, or (CSV/TSV) a referenced column missing from the header; records
+// read before the error have already reached the sink.
+Status ReadRecords(RecordFormat format, ByteSource& src, const FieldTable& fields, RecordSink& sink,
+                   ReadStats* stats);
+
+}  // namespace fanfold
