@@ -1,0 +1,136 @@
+#include "common/partial_codec.h"
+
+#include <cstring>
+
+#include <xxhash.h>
+#include <zstd.h>
+
+#include "common/byte_io.h"
+
+namespace fanfold {
+namespace {
+
+constexpr char kMagic[4] = {'F', 'F', 'P', 'S'};
+constexpr size_t kChecksumOffset = 120;
+
+uint64_t Checksum(std::string_view header_prefix, std::string_view body) {
+  XXH3_state_t* st = XXH3_createState();
+  XXH3_64bits_reset(st);
+  XXH3_64bits_update(st, header_prefix.data(), header_prefix.size());
+  XXH3_64bits_update(st, body.data(), body.size());
+  uint64_t h = XXH3_64bits_digest(st);
+  XXH3_freeState(st);
+  return h;
+}
+
+}  // namespace
+
+uint64_t PathHash(std::string_view path) { return XXH3_64bits(path.data(), path.size()); }
+
+void EncodePartial(const PartialState& p, std::string* out) {
+  std::string body;
+  ByteWriter bw(&body);
+  bw.Varint(p.samples.size());
+  for (const auto& s : p.samples) {
+    bw.Varint(s.line);
+    bw.Str(s.reason);
+  }
+  p.groups.Encode(bw);
+
+  std::string z(ZSTD_compressBound(body.size()), '\0');
+  size_t zn = ZSTD_compress(z.data(), z.size(), body.data(), body.size(), 1);
+  z.resize(ZSTD_isError(zn) ? 0 : zn);  // compressBound makes an error impossible
+
+  const PartialHeader& h = p.header;
+  out->clear();
+  ByteWriter w(out);
+  w.Bytes(std::string_view(kMagic, 4));
+  w.U16(kPartialFormatVersion);
+  w.U16(kPartialHeaderSize);
+  w.U64(h.fingerprint);
+  w.U32(h.shard_index);
+  w.U32(0);
+  w.U64(h.file_size);
+  w.I64(h.mtime_ns);
+  w.U64(h.offset);
+  w.U64(h.length);
+  w.U64(h.path_hash);
+  w.U64(h.records);
+  w.U64(h.kept);
+  w.U64(h.malformed);
+  w.U64(h.raw_bytes);
+  w.U64(h.compressed_bytes);
+  w.U64(body.size());
+  w.U64(z.size());
+  w.U64(Checksum(std::string_view(*out).substr(0, kChecksumOffset), z));
+  w.Bytes(z);
+}
+
+Status DecodePartialHeader(std::string_view bytes, PartialHeader* h) {
+  if (bytes.size() < kPartialHeaderSize)
+    return Status::Corrupt("partial state is " + std::to_string(bytes.size()) + " bytes; expected at least " +
+                           std::to_string(kPartialHeaderSize));
+  if (std::memcmp(bytes.data(), kMagic, 4) != 0) return Status::Corrupt("not a partial state (bad magic)");
+  ByteReader r(bytes.substr(4));
+  uint16_t version = r.U16();
+  uint16_t header_size = r.U16();
+  if (version != kPartialFormatVersion)
+    return Status::Corrupt("partial state format version " + std::to_string(version) + "; expected " +
+                           std::to_string(kPartialFormatVersion));
+  if (header_size != kPartialHeaderSize) return Status::Corrupt("partial state header size mismatch");
+  h->fingerprint = r.U64();
+  h->shard_index = r.U32();
+  (void)r.U32();
+  h->file_size = r.U64();
+  h->mtime_ns = r.I64();
+  h->offset = r.U64();
+  h->length = r.U64();
+  h->path_hash = r.U64();
+  h->records = r.U64();
+  h->kept = r.U64();
+  h->malformed = r.U64();
+  h->raw_bytes = r.U64();
+  h->compressed_bytes = r.U64();
+  uint64_t raw_len = r.U64();
+  uint64_t z_len = r.U64();
+  uint64_t checksum = r.U64();
+  if (!r.ok()) return Status::Corrupt("partial state header is truncated");
+  if (z_len != bytes.size() - kPartialHeaderSize)
+    return Status::Corrupt("partial state body is " + std::to_string(bytes.size() - kPartialHeaderSize) +
+                           " bytes; header says " + std::to_string(z_len));
+  if (raw_len > kMaxPartialBodyBytes) return Status::Corrupt("partial state body length is implausible");
+  if (Checksum(bytes.substr(0, kChecksumOffset), bytes.substr(kPartialHeaderSize)) != checksum)
+    return Status::Corrupt("partial state checksum mismatch");
+  return Status::Ok();
+}
+
+Status DecodePartial(std::string_view bytes, PartialState* out) {
+  FF_RETURN_IF_ERROR(DecodePartialHeader(bytes, &out->header));
+  ByteReader lens(bytes.substr(104, 8));
+  uint64_t raw_len = lens.U64();
+  std::string_view z = bytes.substr(kPartialHeaderSize);
+  unsigned long long frame = ZSTD_getFrameContentSize(z.data(), z.size());
+  if (frame == ZSTD_CONTENTSIZE_ERROR || frame == ZSTD_CONTENTSIZE_UNKNOWN || frame != raw_len)
+    return Status::Corrupt("partial state body is not the zstd frame its header describes");
+  std::string body(raw_len, '\0');
+  size_t n = ZSTD_decompress(body.data(), body.size(), z.data(), z.size());
+  if (ZSTD_isError(n) || n != raw_len)
+    return Status::Corrupt(std::string("partial state body does not decompress: ") +
+                           (ZSTD_isError(n) ? ZSTD_getErrorName(n) : "short"));
+  ByteReader r(body);
+  uint64_t ns = r.Count(2);
+  if (!r.ok() || ns > ReadStats::kMaxSamples) return Status::Corrupt("partial state has a bad sample count");
+  out->samples.clear();
+  for (uint64_t i = 0; i < ns; ++i) {
+    MalformedSample s;
+    s.line = r.Varint();
+    s.reason = std::string(r.Str());
+    if (!r.ok()) return Status::Corrupt("partial state samples are truncated");
+    out->samples.push_back(std::move(s));
+  }
+  FF_RETURN_IF_ERROR(out->groups.Decode(r));
+  if (!r.at_end()) return Status::Corrupt("partial state body has trailing bytes");
+  return Status::Ok();
+}
+
+}  // namespace fanfold

@@ -1,0 +1,115 @@
+#include "common/shard_processor.h"
+
+#include <sys/stat.h>
+
+#include <cmath>
+#include <cstdio>
+
+#include "common/group_key.h"
+#include "common/record_reader.h"
+#include "common/scratch_arena.h"
+
+namespace fanfold {
+namespace {
+
+// Receives records from the reader and applies the plan to them.
+class Aggregator final : public RecordSink {
+ public:
+  Aggregator(const Plan& plan, GroupTable* table, const std::function<void(uint64_t)>& hook)
+      : plan_(plan), table_(table), hook_(hook) {}
+
+  bool OnRecord(Value* slots) override {
+    arena_.Reset();
+    ++seen_;
+    if (hook_) hook_(seen_);
+    for (const CompiledDerive& d : plan_.derive) slots[d.slot] = d.expr.Eval(slots, &arena_);
+    if (plan_.keep && !plan_.keep->Eval(slots, &arena_).Truthy()) return true;
+    ++kept_;
+    key_.clear();
+    for (const Expr& g : plan_.group) AppendKeyValue(g.Eval(slots, &arena_), &key_);
+    MeasureState* const* states = table_->FindOrAdd(key_);
+    Value args[2];
+    for (size_t m = 0; m < plan_.measures.size(); ++m) {
+      const CompiledMeasure& cm = plan_.measures[m];
+      for (size_t a = 0; a < cm.args.size(); ++a) args[a] = cm.args[a].Eval(slots, &arena_);
+      if (!states[m]->Add(args)) {
+        over_limit_ = static_cast<int>(m);
+        return false;
+      }
+    }
+    return true;
+  }
+
+  uint64_t kept() const { return kept_; }
+  int over_limit() const { return over_limit_; }
+
+ private:
+  const Plan& plan_;
+  GroupTable* table_;
+  const std::function<void(uint64_t)>& hook_;
+  ScratchArena arena_;
+  std::string key_;
+  uint64_t seen_ = 0;
+  uint64_t kept_ = 0;
+  int over_limit_ = -1;
+};
+
+std::string Percent(double f) {
+  char buf[32];
+  snprintf(buf, sizeof buf, "%.3g%%", f * 100);
+  return buf;
+}
+
+}  // namespace
+
+ShardProcessor::ShardProcessor(const Plan* plan) : plan_(plan) {
+  for (const auto& m : plan->measures) configs_.push_back(m.config);
+}
+
+Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
+  const std::string where = "shard " + std::to_string(task.index) + " '" + task.path + "'";
+  struct stat st;
+  if (stat(task.path.c_str(), &st) != 0) return Status::IoError(where + ": cannot stat the file");
+
+  Result<std::unique_ptr<ByteSource>> src = OpenShardSource(task.path, task.compression, task.offset, task.length);
+  if (!src.ok()) return src.status().WithContext(where);
+
+  PartialState state(&configs_);
+  Aggregator agg(*plan_, &state.groups, on_record);
+  ReadStats stats;
+  Status s = ReadRecords(plan_->format, **src, plan_->fields, agg, &stats);
+  if (!s.ok()) return s.WithContext(where);
+  if (agg.over_limit() >= 0) {
+    const CompiledMeasure& m = plan_->measures[agg.over_limit()];
+    return Status::LimitExceeded(where + ": measure \"" + m.name + "\" kept more than its limit of " +
+                                 std::to_string(m.config.limit) +
+                                 " values in one group; raise \"limit\" or use an approximate measure");
+  }
+  const uint64_t total = stats.records + stats.malformed;
+  if (plan_->spec.bad_record_limit && total > 0) {
+    double frac = static_cast<double>(stats.malformed) / static_cast<double>(total);
+    if (frac > *plan_->spec.bad_record_limit)
+      return Status::Corrupt(where + ": " + std::to_string(stats.malformed) + " of " + std::to_string(total) +
+                             " records malformed (" + Percent(frac) + "), above the job's bad_record_limit of " +
+                             Percent(*plan_->spec.bad_record_limit));
+  }
+
+  PartialHeader& h = state.header;
+  h.fingerprint = plan_->fingerprint;
+  h.shard_index = task.index;
+  h.file_size = static_cast<uint64_t>(st.st_size);
+  h.mtime_ns = static_cast<int64_t>(st.st_mtim.tv_sec) * 1'000'000'000 + st.st_mtim.tv_nsec;
+  h.offset = task.offset;
+  h.length = task.length;
+  h.path_hash = PathHash(task.path);
+  h.records = stats.records + stats.malformed;
+  h.kept = agg.kept();
+  h.malformed = stats.malformed;
+  h.raw_bytes = stats.raw_bytes;
+  h.compressed_bytes = (*src)->compressed_bytes();
+  state.samples = std::move(stats.samples);
+  EncodePartial(state, partial);
+  return Status::Ok();
+}
+
+}  // namespace fanfold

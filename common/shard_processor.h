@@ -1,0 +1,39 @@
+// ShardProcessor: the whole of a worker's job for one shard — open and
+// decompress it, read records, derive fields, filter, group and feed the
+// measures — producing the shard's encoded partial state. Holds the
+// per-worker buffers (arena, key scratch) so they are reused across shards.
+// One instance per worker thread/process; the Plan must outlive it.
+#pragma once
+
+#include <cstdint>
+#include <functional>
+#include <string>
+#include <vector>
+
+#include "common/partial_codec.h"
+#include "common/plan.h"
+#include "common/shard_task.h"
+#include "common/status.h"
+
+namespace fanfold {
+
+class ShardProcessor {
+ public:
+  explicit ShardProcessor(const Plan* plan);
+
+  // Processes task and writes its encoded partial state to *partial.
+  // Fails (naming the shard's path) on an unreadable, truncated or corrupt
+  // shard, a bounded measure past its limit, or a malformed fraction above
+  // the job's bad_record_limit.
+  Status Process(const ShardTask& task, std::string* partial);
+
+  // Test-only fault injection hook, called with the running record count
+  // after each record; set by the worker from its test switches.
+  std::function<void(uint64_t records)> on_record;
+
+ private:
+  const Plan* plan_;
+  std::vector<MeasureConfig> configs_;
+};
+
+}  // namespace fanfold

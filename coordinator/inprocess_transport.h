@@ -1,0 +1,33 @@
+// InProcessTransport: a Transport that runs shards on the coordinator's own
+// thread, one at a time, with a ShardProcessor — no processes, no shared
+// memory. Used by tests as the reference transport (and by `--in-process`
+// for debugging). Each Wait() processes one assigned shard. Not thread-safe.
+#pragma once
+
+#include <deque>
+#include <vector>
+
+#include "common/plan.h"
+#include "common/shard_processor.h"
+#include "coordinator/transport.h"
+
+namespace fanfold {
+
+class InProcessTransport final : public Transport {
+ public:
+  // workers: how many virtual workers to offer (they run one after another).
+  InProcessTransport(const Plan* plan, int workers);
+
+  int worker_count() const override { return static_cast<int>(busy_.size()); }
+  bool idle(int w) const override { return !busy_[w]; }
+  Status Assign(int w, const ShardTask& task) override;
+  Status Wait(int timeout_ms, TransportEvent* event, bool* got) override;
+  void Shutdown() override {}
+
+ private:
+  ShardProcessor processor_;
+  std::vector<bool> busy_;
+  std::deque<std::pair<int, ShardTask>> queue_;
+};
+
+}  // namespace fanfold

@@ -1,0 +1,36 @@
+// `fanfold run`: load and check the job, expand its shards, fan them out to
+// workers, merge in shard order, write the result table and the run summary.
+// `fanfold check`: the same up to the shard list, then print the plan and
+// the shards and run nothing. Each returns a CommandOutcome; main() maps it
+// to the exit status.
+#pragma once
+
+#include <string>
+
+#include "common/status.h"
+
+namespace fanfold {
+
+struct CommandOutcome {
+  Status status;               // not ok: usage, job-file or system error
+  bool shards_failed = false;  // finished, but some shards failed
+};
+
+struct RunOptions {
+  std::string job_path;
+  int workers = 0;            // 0 = one per available core
+  std::string output_path;    // "" = the job's emit.path, else stdout
+  std::string run_dir;        // "" = default location
+  bool in_process = false;    // debugging: no worker processes
+  bool quiet = false;         // only errors on stderr
+};
+
+CommandOutcome RunJob(const RunOptions& options);
+
+struct CheckOptions {
+  std::string job_path;
+};
+
+CommandOutcome CheckJob(const CheckOptions& options);
+
+}  // namespace fanfold

@@ -1,0 +1,17 @@
+// MakeTransport: picks and builds the Transport for a run — worker processes
+// over shared memory normally, the in-process one for `--in-process`.
+// The one place the coordinator names a concrete transport.
+#pragma once
+
+#include <memory>
+
+#include "common/plan.h"
+#include "common/status.h"
+#include "coordinator/run_command.h"
+#include "coordinator/transport.h"
+
+namespace fanfold {
+
+Result<std::unique_ptr<Transport>> MakeTransport(const Plan& plan, const RunOptions& options, int workers);
+
+}  // namespace fanfold
