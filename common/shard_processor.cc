@@ -5,6 +5,7 @@
 #include <cmath>
 #include <cstdio>
 
+#include "common/chunk_source.h"
 #include "common/group_key.h"
 #include "common/record_reader.h"
 #include "common/scratch_arena.h"
@@ -71,7 +72,9 @@ Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
   struct stat st;
   if (stat(task.path.c_str(), &st) != 0) return Status::IoError(where + ": cannot stat the file");
 
-  Result<std::unique_ptr<ByteSource>> src = OpenShardSource(task.path, task.compression, task.offset, task.length);
+  Result<std::unique_ptr<ByteSource>> src = task.length == UINT64_MAX
+                                                ? OpenShardSource(task.path, task.compression)
+                                                : OpenChunkSource(task.path, task.offset, task.length);
   if (!src.ok()) return src.status().WithContext(where);
 
   PartialState state(&configs_);
