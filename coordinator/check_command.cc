@@ -4,7 +4,7 @@
 
 #include "common/byte_source.h"
 #include "common/job_spec.h"
-#include "coordinator/job_loader.h"
+#include "common/job_loader.h"
 #include "coordinator/run_command.h"
 #include "coordinator/run_summary.h"
 

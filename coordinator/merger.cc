@@ -4,7 +4,7 @@
 
 namespace fanfold {
 namespace {
-constexpr size_t kMaxReportedSamples = 20;
+constexpr size_t kMaxReportedSamples = ReadStats::kMaxSamples;
 }
 
 Merger::Merger(const Plan* plan, uint32_t shard_count)

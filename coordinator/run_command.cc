@@ -11,7 +11,7 @@
 #include "common/file_util.h"
 #include "common/output_table.h"
 #include "coordinator/inprocess_transport.h"
-#include "coordinator/job_loader.h"
+#include "common/job_loader.h"
 #include "coordinator/merger.h"
 #include "coordinator/run_loop.h"
 #include "coordinator/run_summary.h"
@@ -63,7 +63,20 @@ CommandOutcome RunJob(const RunOptions& o) {
 
   int workers = o.workers > 0 ? o.workers : static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
   workers = std::min<int>(workers, std::max<size_t>(1, list.shards.size()));
-  Result<std::unique_ptr<Transport>> transport = MakeTransport(plan, o, workers);
+  // Until the run directory exists, oversized partials spill to a private
+  // temporary directory removed at the end of the run.
+  std::error_code ec;
+  std::filesystem::path spill = std::filesystem::temp_directory_path(ec) /
+                                ("fanfold-spill-" + std::to_string(::getpid()));
+  std::filesystem::create_directories(spill, ec);
+  struct RemoveDir {
+    std::filesystem::path p;
+    ~RemoveDir() {
+      std::error_code e;
+      std::filesystem::remove_all(p, e);
+    }
+  } remove_spill{spill};
+  Result<std::unique_ptr<Transport>> transport = MakeTransport(plan, o, workers, spill.string());
   if (!transport.ok()) {
     out.status = transport.status();
     return out;

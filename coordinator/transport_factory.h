@@ -4,6 +4,7 @@
 #pragma once
 
 #include <memory>
+#include <string>
 
 #include "common/plan.h"
 #include "common/status.h"
@@ -12,6 +13,8 @@
 
 namespace fanfold {
 
-Result<std::unique_ptr<Transport>> MakeTransport(const Plan& plan, const RunOptions& options, int workers);
+// spill_dir: where partials too big for shared memory are written.
+Result<std::unique_ptr<Transport>> MakeTransport(const Plan& plan, const RunOptions& options, int workers,
+                                                 const std::string& spill_dir);
 
 }  // namespace fanfold

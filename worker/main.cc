@@ -1,6 +1,51 @@
-// The `fanfold-worker` process: started by the coordinator, never by hand.
+// The `fanfold-worker` process: started by the coordinator, never by hand,
+// as `fanfold-worker --segment NAME --slot I JOB FORMAT PLAN_FINGERPRINT`.
+// It compiles the job's plan, then serves shards over shared memory until
+// the coordinator says quit or dies.
 #include <iostream>
-int main() {
-  std::cerr << "fanfold-worker: the worker pool is not wired in yet\n";
-  return 2;
+
+#include "common/exit_codes.h"
+#include "common/job_loader.h"
+#include "common/shard_processor.h"
+#include "worker/fault_injection.h"
+#include "worker/worker_loop.h"
+
+int main(int argc, char** argv) {
+  using namespace fanfold;
+  Result<WorkerLaunch> launch = ParseWorkerLaunch(argc, argv);
+  if (!launch.ok() || launch->extra.size() != 3) {
+    std::cerr << "fanfold-worker: started by fanfold itself; "
+              << (launch.ok() ? "expected JOB FORMAT PLAN after the slot" : launch.status().message()) << "\n";
+    return kExitUsage;
+  }
+  Result<std::unique_ptr<Plan>> plan = LoadWorkerPlan(launch->extra[0], launch->extra[1], launch->extra[2]);
+  if (!plan.ok()) {
+    std::cerr << "fanfold-worker: " << plan.status().message() << "\n";
+    return ExitCodeFor(plan.status());
+  }
+  Result<FaultPlan> faults = FaultPlan::FromEnvironment();
+  if (!faults.ok()) {
+    std::cerr << "fanfold-worker: " << faults.status().message() << "\n";
+    return kExitUsage;
+  }
+  ShardProcessor processor(plan->get());
+  ProcessFn process = [&](const ShardTask& task, ProgressFn progress) -> Result<std::string> {
+    const FaultPlan& f = *faults;
+    processor.on_record = [&](uint64_t n) {
+      if ((n & 4095) == 0) progress(n, 0);
+      f.OnRecord(task, n);
+    };
+    f.OnStart(task);
+    std::string partial;
+    Status s = processor.Process(task, &partial);
+    if (!s.ok()) return s;
+    f.OnFinish(task, &partial);
+    return partial;
+  };
+  Status s = RunWorkerLoop(launch->segment, launch->slot, process);
+  if (!s.ok() && s.code() != Status::Code::kInterrupted) {
+    std::cerr << "fanfold-worker: " << s.message() << "\n";
+    return ExitCodeFor(s);
+  }
+  return kExitOk;
 }

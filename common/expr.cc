@@ -1,0 +1,31 @@
+#include "common/expr.h"
+
+#include <utility>
+
+#include "common/expr_compiler.h"
+#include "common/expr_parser.h"
+#include "common/expr_program.h"
+
+namespace fanfold {
+
+Result<Expr> Expr::Compile(std::string_view text, FieldTable* fields) {
+  Result<AstNode> ast = ParseExpr(text);
+  if (!ast.ok()) return ast.status();
+  auto program = std::make_unique<Program>();
+  program->text = std::string(text);
+  FF_RETURN_IF_ERROR(CompileExprAst(ast.value(), fields, program.get()));
+  return Expr(std::move(program));
+}
+
+Value Expr::Eval(const Value* slots, ScratchArena* arena) const {
+  return program_->Eval(slots, arena);
+}
+
+const std::string& Expr::text() const { return program_->text; }
+
+Expr::Expr(std::unique_ptr<Program> p) : program_(std::move(p)) {}
+Expr::Expr(Expr&&) noexcept = default;
+Expr& Expr::operator=(Expr&&) noexcept = default;
+Expr::~Expr() = default;
+
+}  // namespace fanfold

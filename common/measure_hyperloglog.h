@@ -1,0 +1,65 @@
+// HyperLogLogState: the state of `approx_distinct`, a HyperLogLog sketch
+// (Flajolet, Fusy, Gandouet & Meunier 2007) with m = 2^precision one-byte
+// registers over a 64-bit hash (XXH3 of the value's ValueKey), so no
+// large-range correction is needed (Heule, Nunkesser & Hall 2013). Relative
+// standard error about 1.04/sqrt(m): 0.81% at the default precision 14.
+// Merge is register-wise max: exact and order-independent. Registers are
+// allocated on first use, so an empty state is small. Single-threaded.
+#pragma once
+
+#include <cstdint>
+#include <vector>
+
+#include "common/measure.h"
+#include "common/value_key.h"
+
+namespace fanfold {
+
+class HyperLogLogState final : public MeasureState {
+ public:
+  // Uses config.precision (REQUIRES 4..18; clamped there).
+  explicit HyperLogLogState(const MeasureConfig& config);
+
+  bool Add(const Value* args) override {
+    if (!IsCountable(args[0])) {
+      ++skipped_;
+      return true;
+    }
+    InsertHash(HashValueKey(args[0]));
+    return true;
+  }
+  Status Merge(const MeasureState& other) override;
+  // Encoding: varint skipped, u8 form, then
+  //   form 0 (dense):  m bytes, one register each;
+  //   form 1 (sparse): varint k, k x (varint index gap, u8 register) for the
+  //                    non-zero registers in index order (gap from the
+  //                    previous index + 1, the first from 0).
+  // Sparse iff 4k < m, so every state has exactly one encoding.
+  void Encode(ByteWriter& w) const override;
+  Status Decode(ByteReader& r) override;
+  // Int(round(Estimate())).
+  void Finalize(std::vector<Cell>* out) const override;
+  uint64_t skipped() const override { return skipped_; }
+
+  // Updates the register the hash selects: its top `precision` bits pick
+  // the register, the rest give the rank (position of the first 1 bit).
+  void InsertHash(uint64_t hash) {
+    if (registers_.empty()) registers_.assign(size_t{1} << p_, 0);
+    const uint64_t w = (hash << p_) | (uint64_t{1} << (p_ - 1));  // never 0
+    const uint8_t rank = static_cast<uint8_t>(__builtin_clzll(w) + 1);
+    uint8_t& reg = registers_[hash >> (64 - p_)];
+    if (rank > reg) reg = rank;
+  }
+  // The cardinality estimate: linear counting m ln(m/V) while it is below
+  // the threshold for this precision (Heule et al. 2013) and V > 0 registers
+  // are empty; the raw HyperLogLog estimate otherwise. See docs/measures.md.
+  double Estimate() const;
+  int precision() const { return p_; }
+
+ private:
+  int p_;
+  uint64_t skipped_ = 0;
+  std::vector<uint8_t> registers_;  // empty (all zero) or 2^p_ bytes
+};
+
+}  // namespace fanfold

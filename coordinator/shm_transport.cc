@@ -1,0 +1,336 @@
+#include "coordinator/shm_transport.h"
+
+#include <algorithm>
+#include <chrono>
+#include <cstring>
+#include <filesystem>
+#include <system_error>
+
+#include "common/process_control.h"
+#include "common/process_spawner.h"
+#include "common/shm_segment.h"
+#include "common/spill_file.h"
+
+namespace fanfold {
+namespace {
+
+// Upper bound on how long a dead worker goes unnoticed while Wait runs; a
+// waitpid(WNOHANG) per worker this often costs nothing measurable.
+constexpr uint64_t kExitScanNs = 10'000'000;
+constexpr int kWaitSliceMs = 10;
+constexpr int kReadySliceMs = 5;
+
+int64_t MillisUntil(std::chrono::steady_clock::time_point deadline) {
+  auto left = deadline - std::chrono::steady_clock::now();
+  // Rounded up, so a sub-millisecond remainder still waits instead of spinning.
+  return std::chrono::ceil<std::chrono::milliseconds>(left).count();
+}
+
+std::string DescribeOutput(const ChildProcess& child) {
+  std::string out = child.LastOutput();
+  return out.empty() ? "; it printed nothing" : "; last output:\n" + out;
+}
+
+}  // namespace
+
+struct ShmTransport::Slot {
+  std::unique_ptr<ChildProcess> child;
+  bool ready = false;  // reported ready, and not since found dead
+  bool busy = false;   // an assignment is outstanding
+  uint64_t seq = 0;    // our copy of the channel's assign_seq
+  uint32_t shard = 0;  // index of the outstanding shard
+  uint64_t token = 0;  // spawn_token of the current process
+  std::string down;    // non-empty: no worker could be kept here; why
+};
+
+ShmTransport::ShmTransport(const ShmTransportOptions& options) : options_(options) {}
+
+ShmTransport::~ShmTransport() { Shutdown(); }
+
+Result<std::unique_ptr<ShmTransport>> ShmTransport::Create(const ShmTransportOptions& options) {
+  if (options.worker_binary.empty()) return Status::InvalidArgument("no worker program given");
+  if (!options.spill_dir.empty()) {
+    std::error_code ec;
+    if (!std::filesystem::is_directory(options.spill_dir, ec)) {
+      return Status::InvalidArgument("spill directory '" + options.spill_dir + "' is not a directory");
+    }
+  }
+  if (options.worker_count < 1) {
+    return Status::InvalidArgument("worker count must be at least 1, got " +
+                                   std::to_string(options.worker_count));
+  }
+  Result<ShmGeometry> geometry = ShmGeometry::Make(static_cast<uint32_t>(options.worker_count),
+                                                   options.result_area_bytes);
+  if (!geometry.ok()) return geometry.status();
+
+  ShmSegment::RemoveStaleSegments();
+  Result<std::unique_ptr<ShmSegment>> segment = ShmSegment::Create(geometry->total_bytes());
+  if (!segment.ok()) return segment.status();
+  Result<ShmView> view = ShmView::Initialize((*segment)->data(), (*segment)->size(), *geometry,
+                                             static_cast<uint64_t>(CurrentPid()), options.spill_dir);
+  if (!view.ok()) return view.status();
+
+  std::unique_ptr<ShmTransport> t(new ShmTransport(options));
+  t->segment_ = std::move(segment).value();
+  t->view_ = *view;
+  t->slots_.resize(static_cast<size_t>(options.worker_count));
+  std::vector<int> all;
+  for (int w = 0; w < options.worker_count; ++w) {
+    FF_RETURN_IF_ERROR(t->StartWorker(w));  // on error ~ShmTransport cleans up
+    all.push_back(w);
+  }
+  FF_RETURN_IF_ERROR(t->AwaitReady(all));
+  return t;
+}
+
+Status ShmTransport::StartWorker(int w) {
+  Slot& slot = slots_[static_cast<size_t>(w)];
+  ShmChannel& ch = view_.channel(static_cast<uint32_t>(w));
+  slot.token = ch.spawn_token.load(std::memory_order_relaxed) + 1;
+  ch.spawn_token.store(slot.token, std::memory_order_release);
+  SpawnOptions spawn;
+  spawn.executable = options_.worker_binary;
+  spawn.args = {kSegmentFlag, segment_->name(), kSlotFlag, std::to_string(w)};
+  spawn.args.insert(spawn.args.end(), options_.worker_args.begin(), options_.worker_args.end());
+  spawn.echo_output = options_.echo_worker_output;
+  Result<std::unique_ptr<ChildProcess>> child = ChildProcess::Spawn(spawn);
+  if (!child.ok()) return child.status().WithContext("worker " + std::to_string(w));
+  slot.child = std::move(child).value();
+  slot.ready = false;
+  slot.busy = false;
+  slot.down.clear();
+  return Status::Ok();
+}
+
+Status ShmTransport::AwaitReady(const std::vector<int>& starting) {
+  const auto deadline =
+      std::chrono::steady_clock::now() + std::chrono::milliseconds(options_.ready_timeout_ms);
+  std::vector<int> pending = starting;
+  for (;;) {
+    for (auto it = pending.begin(); it != pending.end();) {
+      Slot& slot = slots_[static_cast<size_t>(*it)];
+      const ShmChannel& ch = view_.channel(static_cast<uint32_t>(*it));
+      if (ch.ready_token.load(std::memory_order_acquire) == slot.token) {
+        slot.ready = true;
+        it = pending.erase(it);
+        continue;
+      }
+      if (slot.child->Poll()) {
+        return Status::IoError("worker " + std::to_string(*it) + " (pid " +
+                               std::to_string(slot.child->pid()) + ") " +
+                               slot.child->exit_info().Describe() + " before it was ready" +
+                               DescribeOutput(*slot.child));
+      }
+      ++it;
+    }
+    if (pending.empty()) return Status::Ok();
+    if (MillisUntil(deadline) <= 0) {
+      const Slot& slot = slots_[static_cast<size_t>(pending.front())];
+      return Status::IoError("worker " + std::to_string(pending.front()) + " (pid " +
+                             std::to_string(slot.child->pid()) + ") did not report ready within " +
+                             std::to_string(options_.ready_timeout_ms) + " ms" +
+                             DescribeOutput(*slot.child));
+    }
+    // Workers post done_sem when ready; a post meant for a completion is not
+    // lost by this (Wait scans the channels before it blocks).
+    SemWaitFor(view_.done_sem(), kReadySliceMs);
+  }
+}
+
+void ShmTransport::Restart(int w) {
+  Slot& slot = slots_[static_cast<size_t>(w)];
+  slot.child.reset();  // already reaped; closes its pipe
+  slot.ready = false;
+  Status st = StartWorker(w);
+  if (st.ok()) st = AwaitReady({w});
+  if (!st.ok()) {
+    slot.child.reset();  // kills and reaps one that never became ready
+    slot.down = st.message();
+  }
+}
+
+int ShmTransport::worker_count() const { return static_cast<int>(slots_.size()); }
+
+bool ShmTransport::idle(int w) const {
+  if (shut_down_ || w < 0 || w >= worker_count()) return false;
+  const Slot& slot = slots_[static_cast<size_t>(w)];
+  return slot.ready && !slot.busy && slot.down.empty();
+}
+
+Status ShmTransport::Assign(int w, const ShardTask& task) {
+  if (!idle(w)) return Status::Internal("Assign to worker " + std::to_string(w) + ", which is not idle");
+  if (task.path.size() > kMaxPathBytes) {
+    return Status::InvalidArgument("shard path is " + std::to_string(task.path.size()) +
+                                   " bytes long; a worker channel holds at most " +
+                                   std::to_string(kMaxPathBytes) + ": " + task.path.substr(0, 80) +
+                                   "...");
+  }
+  Slot& slot = slots_[static_cast<size_t>(w)];
+  ShmChannel& ch = view_.channel(static_cast<uint32_t>(w));
+  ch.task_index = task.index;
+  ch.task_attempt = task.attempt;
+  ch.task_offset = task.offset;
+  ch.task_length = task.length;
+  ch.task_compression = static_cast<uint32_t>(task.compression);
+  ch.task_path_length = static_cast<uint32_t>(task.path.size());
+  std::memcpy(ch.task_path, task.path.data(), task.path.size());
+  ch.assign_seq.store(++slot.seq, std::memory_order_release);  // publishes the task fields
+  SemPost(view_.work_sem(static_cast<uint32_t>(w)));
+  slot.busy = true;
+  slot.shard = task.index;
+  return Status::Ok();
+}
+
+bool ShmTransport::TakeCompletion(int w, TransportEvent* event) {
+  Slot& slot = slots_[static_cast<size_t>(w)];
+  const ShmChannel& ch = view_.channel(static_cast<uint32_t>(w));
+  slot.busy = false;
+  event->worker = w;
+  event->shard = slot.shard;
+  event->partial.clear();
+  event->message.clear();
+  if (ch.result_status != kResultOk) {
+    event->kind = TransportEvent::Kind::kFailed;
+    event->message.assign(ch.error, std::min<size_t>(ch.error_length, kMaxErrorBytes));
+    return true;
+  }
+  event->kind = TransportEvent::Kind::kDone;
+  const uint64_t length = ch.result_length;
+  Status st;
+  if (ch.result_in_file != 0) {
+    std::string name(ch.spill_name, std::min<size_t>(ch.spill_name_length, kMaxSpillNameBytes));
+    st = TakeSpillFile(options_.spill_dir, name, length, &event->partial);
+  } else if (length > view_.result_area_bytes()) {
+    st = Status::Corrupt("worker reported a " + std::to_string(length) +
+                         "-byte partial, larger than its result area");
+  } else {
+    event->partial.assign(view_.result_area(static_cast<uint32_t>(w)), length);
+  }
+  if (!st.ok()) {
+    event->kind = TransportEvent::Kind::kFailed;
+    event->partial.clear();
+    event->message = "shard " + std::to_string(slot.shard) + ": " + st.message();
+  }
+  return true;
+}
+
+bool ShmTransport::ScanCompletions(TransportEvent* event) {
+  const int n = worker_count();
+  for (int k = 0; k < n; ++k) {
+    const int w = (scan_start_ + k) % n;
+    const Slot& slot = slots_[static_cast<size_t>(w)];
+    if (!slot.busy) continue;
+    if (view_.channel(static_cast<uint32_t>(w)).done_seq.load(std::memory_order_acquire) != slot.seq) {
+      continue;
+    }
+    scan_start_ = (w + 1) % n;
+    return TakeCompletion(w, event);
+  }
+  return false;
+}
+
+bool ShmTransport::ScanExits(TransportEvent* event) {
+  last_exit_scan_ns_ = MonotonicNanos();
+  const int n = worker_count();
+  for (int k = 0; k < n; ++k) {
+    const int w = (scan_start_ + k) % n;
+    Slot& slot = slots_[static_cast<size_t>(w)];
+    if (!slot.child || !slot.down.empty() || !slot.child->Poll()) continue;
+    // Reaped: nothing writes this channel any more.
+    bool reported = false;
+    if (slot.busy) {
+      reported = true;
+      if (view_.channel(static_cast<uint32_t>(w)).done_seq.load(std::memory_order_acquire) == slot.seq) {
+        TakeCompletion(w, event);  // it finished, then died: the result stands
+      } else {
+        slot.busy = false;
+        event->kind = TransportEvent::Kind::kDied;
+        event->worker = w;
+        event->shard = slot.shard;
+        event->partial.clear();
+        event->message = "worker " + std::to_string(w) + " (pid " + std::to_string(slot.child->pid()) +
+                         ") " + slot.child->exit_info().Describe() + " while processing shard " +
+                         std::to_string(slot.shard) + DescribeOutput(*slot.child);
+      }
+    }
+    Restart(w);
+    if (!reported) continue;
+    if (!slot.down.empty() && event->kind == TransportEvent::Kind::kDied) {
+      event->message += "\n(it could not be restarted: " + slot.down + ")";
+    }
+    scan_start_ = (w + 1) % n;
+    return true;
+  }
+  return false;
+}
+
+Status ShmTransport::Wait(int timeout_ms, TransportEvent* event, bool* got) {
+  *got = false;
+  if (shut_down_) return Status::Internal("Wait on a transport that was shut down");
+  const auto deadline = std::chrono::steady_clock::now() + std::chrono::milliseconds(timeout_ms);
+  for (;;) {
+    // Channels first: the sequence numbers, not the semaphore count, say what is done.
+    if (ScanCompletions(event)) {
+      *got = true;
+      return Status::Ok();
+    }
+    const int64_t left_ms = MillisUntil(deadline);
+    if ((left_ms <= 0 || MonotonicNanos() - last_exit_scan_ns_ >= kExitScanNs) && ScanExits(event)) {
+      *got = true;
+      return Status::Ok();
+    }
+    if (std::all_of(slots_.begin(), slots_.end(), [](const Slot& s) { return !s.down.empty(); })) {
+      return Status::IoError("no worker is running; worker 0: " + slots_[0].down);
+    }
+    if (left_ms <= 0) return Status::Ok();
+    SemWaitFor(view_.done_sem(), static_cast<int>(std::min<int64_t>(left_ms, kWaitSliceMs)));
+  }
+}
+
+void ShmTransport::Shutdown() {
+  if (shut_down_) return;
+  shut_down_ = true;
+  if (view_.valid()) {
+    view_.header().quit.store(1, std::memory_order_release);
+    for (uint32_t w = 0; w < view_.worker_count(); ++w) SemPost(view_.work_sem(w));
+  }
+  const auto deadline =
+      std::chrono::steady_clock::now() + std::chrono::milliseconds(options_.shutdown_grace_ms);
+  for (Slot& slot : slots_) {
+    if (slot.child) slot.child->WaitExit(static_cast<int>(std::max<int64_t>(0, MillisUntil(deadline))));
+  }
+  for (Slot& slot : slots_) {
+    if (!slot.child) continue;
+    slot.child->Kill();  // no-op for those that already exited
+    slot.child->WaitExit(-1);
+    slot.child.reset();
+  }
+  // Every worker is reaped: nothing can touch the semaphores any more.
+  view_.Destroy();
+  segment_.reset();
+}
+
+const std::string& ShmTransport::segment_name() const {
+  static const std::string kNone;
+  return segment_ ? segment_->name() : kNone;
+}
+
+int ShmTransport::worker_pid(int w) const {
+  if (w < 0 || w >= worker_count()) return 0;
+  const Slot& slot = slots_[static_cast<size_t>(w)];
+  return slot.child && !slot.child->exited() ? slot.child->pid() : 0;
+}
+
+uint64_t ShmTransport::records_done(int w) const {
+  if (!view_.valid() || w < 0 || w >= worker_count()) return 0;
+  return view_.channel(static_cast<uint32_t>(w)).records_done.load(std::memory_order_relaxed);
+}
+
+uint64_t ShmTransport::heartbeat_age_ms(int w) const {
+  if (!view_.valid() || w < 0 || w >= worker_count()) return 0;
+  uint64_t then = view_.channel(static_cast<uint32_t>(w)).heartbeat_ns.load(std::memory_order_relaxed);
+  uint64_t now = MonotonicNanos();
+  return now > then ? (now - then) / 1'000'000 : 0;
+}
+
+}  // namespace fanfold

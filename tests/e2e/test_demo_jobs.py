@@ -1,0 +1,228 @@
+"""Every example job in jobs/ against the committed demo data:
+`fanfold check` and `fanfold run` succeed, the run's malformed count equals
+the generator's manifest, and every result cell equals an independent
+Python-stdlib computation (reference.py) written out by hand per job below.
+"""
+
+import glob
+import json
+import os
+import sys
+
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+import e2e_lib as lib  # noqa: E402
+import reference as ref  # noqa: E402
+from reference import Measure as M, RefJob, ptr, col, coalesce, time_of, time_ms_of  # noqa: E402
+
+
+# ---- the jobs, re-stated as Python (one lambda per expression of the job file)
+
+def t_json(r):  # coalesce(time({/ts}), time_ms({/ts_ms}))
+    return coalesce(time_of(ptr(r, "/ts")), time_ms_of(ptr(r, "/ts_ms")))
+
+
+def t_csv(r):  # coalesce(time({ts}), time_ms({ts_ms}))
+    return coalesce(time_of(col(r, "ts")), time_ms_of(col(r, "ts_ms")))
+
+
+def p(pointer):
+    return lambda r: ptr(r, pointer)
+
+
+def c(name):
+    return lambda r: col(r, name)
+
+
+# Group column names follow docs/job-file.md: a derived field's name, the last
+# token of a lone field reference ({/district} -> district), else the text.
+REFS = {
+    "district_hourly.json": RefJob(
+        group=[("district", p("/district")), ("hour", lambda r: ref.floor_time(t_json(r), "hour"))],
+        measures=[
+            M("events", "count"),
+            M("power_sum_w", "sum", of=p("/power_w")),
+            M("avg_w", "mean", of=p("/power_w")),
+            M("peak_w", "max", of=p("/power_w")),
+            M("lat", "quantile", of=p("/latency_ms"), at=[0.5, 0.9, 0.99]),
+            M("lat_apx", "approx_quantile", of=p("/latency_ms"), at=[0.99], alpha=0.01),
+        ]),
+    "fault_watch.json": RefJob(
+        keep=lambda r: ptr(r, "/event") in ("fault", "reboot"),  # {/event} in ['fault', 'reboot']
+        group=[("day", lambda r: ref.floor_time(t_json(r), "day")), ("district", p("/district"))],
+        measures=[
+            M("incidents", "count"),
+            M("faults", "count_present", of=p("/fault")),
+            M("codes", "top", of=p("/fault"), k=3),
+            M("lamps", "distinct", of=p("/lamp")),
+            M("lamps_apx", "approx_distinct", of=p("/lamp"), precision=12),
+            M("min_w", "min", of=p("/power_w")),
+        ]),
+    "firmware_rollout.json": RefJob(
+        keep=lambda r: ptr(r, "/fw/channel") == "beta",  # {/fw/channel} == 'beta'
+        group=[("lamp", p("/lamp"))],
+        measures=[
+            M("reports", "count"),
+            M("first_fw", "first", of=p("/fw/version"), by=t_json),
+            M("last_fw", "last", of=p("/fw/version"), by=t_json),
+            M("versions", "distinct", of=p("/fw/version")),
+        ]),
+    "night_profile.json": RefJob(
+        # {/event} == 'heartbeat' and has({/readings/0})
+        keep=lambda r: ptr(r, "/event") == "heartbeat" and ref.present(ptr(r, "/readings/0")),
+        group=[("week", lambda r: ref.floor_time(t_json(r), "week")), ("hod", lambda r: ref.hour_of_day(t_json(r)))],
+        measures=[
+            M("heartbeats", "count"),
+            M("temp_mean", "mean", of=p("/readings/0")),
+            M("temp_sd", "stddev", of=p("/readings/0")),
+            M("temp_min", "min", of=p("/readings/0")),
+            M("temp_max", "max", of=p("/readings/0")),
+            M("humidity_var", "variance", of=p("/readings/1")),
+            M("power_med", "approx_quantile", of=p("/power_w"), at=[0.5], alpha=0.02),
+            M("lamps_apx", "approx_distinct", of=p("/lamp"), precision=10),
+        ]),
+    "csv_daily.json": RefJob(
+        group=[("day", lambda r: ref.floor_time(t_csv(r), "day")), ("weekday", lambda r: ref.weekday(t_csv(r))),
+               ("fw_channel", c("fw_channel"))],
+        measures=[
+            M("events", "count"),
+            M("faults", "count_present", of=c("fault")),
+            M("power_sum_w", "sum", of=c("power_w")),
+            M("power_var", "variance", of=c("power_w")),
+            M("power_sd", "stddev", of=c("power_w")),
+            M("latency_mean", "mean", of=c("latency_ms")),
+            M("temp_min", "min", of=c("reading_0")),
+            M("lamps", "distinct", of=c("lamp")),
+            M("lamps_apx", "approx_distinct", of=c("lamp"), precision=14),
+        ]),
+}
+
+# Every measure fn of the spec must appear in some example job.
+ALL_FNS = {"count", "count_present", "sum", "mean", "variance", "stddev", "min", "max", "quantile",
+           "approx_quantile", "distinct", "approx_distinct", "top", "first", "last"}
+
+
+def expand_inputs(job_path, job):
+    """The job's shard files as the spec says: patterns relative to the job
+    file's directory, sorted and de-duplicated (Python glob as the reference)."""
+    base = os.path.dirname(os.path.abspath(job_path))
+    files = set()
+    for pat in job["inputs"]["files"]:
+        full = pat if os.path.isabs(pat) else os.path.join(base, pat)
+        files.update(os.path.normpath(f) for f in glob.glob(full, recursive=True))
+    return sorted(files)
+
+
+def manifest_malformed(files):
+    """Malformed lines per file according to the generator's manifest.json."""
+    out = {}
+    for f in files:
+        with open(os.path.join(os.path.dirname(f), "manifest.json")) as m:
+            man = json.load(m)
+        out[f] = {e["name"]: e for e in man["files"]}[os.path.basename(f)]
+    return out
+
+
+def main():
+    args = lib.parse_args(__doc__)
+    checks = lib.Checks("test_demo_jobs")
+    with lib.Env(args) as env:
+        job_paths = sorted(glob.glob(os.path.join(env.src, "jobs", "*.json")))
+        checks.check(len(job_paths) >= 4, "jobs/ holds at least four example jobs (found %d)" % len(job_paths))
+        used_fns = set()
+        cache = {}
+        for job_path in job_paths:
+            name = os.path.basename(job_path)
+            with open(job_path) as f:
+                job = json.load(f)
+            used_fns.update(m["fn"] for m in job["measures"])
+            # Intent: each example job says what it is for.
+            checks.check(isinstance(job.get("about"), str) and job["about"].strip(), "%s: has an about text" % name)
+            files = expand_inputs(job_path, job)
+            checks.check(len(files) > 0, "%s: inputs match files" % name)
+
+            # Intent: `fanfold check` accepts the job and lists every shard.
+            rc, out, err = env.fanfold_run("check", job_path)
+            checks.check(rc == 0, "%s: fanfold check exit %d, stderr: %s" % (name, rc, lib.tail(err)))
+            listed = out + err
+            missing = [os.path.basename(f) for f in files if os.path.basename(f) not in listed]
+            checks.check(not missing, "%s: fanfold check does not list shards %s" % (name, missing[:3]))
+
+            # Intent: the job runs as shipped (its own emit format) with exit 0.
+            shipped_out = env.path(name, "shipped.out")
+            rc, out, err = env.fanfold_run("run", job_path, "-j", args.workers, "-o", shipped_out)
+            checks.check(rc == 0, "%s: fanfold run exit %d, stderr: %s" % (name, rc, lib.tail(err)))
+            checks.check(os.path.exists(shipped_out) and os.path.getsize(shipped_out) > 0,
+                         "%s: run -o wrote a non-empty result" % name)
+
+            # Intent: malformed count in the summary == the generator's manifest (exact).
+            man = manifest_malformed(files)
+            want_bad = sum(e["malformed"] for e in man.values())
+            got_bad = lib.summary_malformed_total(err)
+            checks.check(got_bad == want_bad, "%s: summary malformed total %r, manifest says %d; stderr: %s"
+                         % (name, got_bad, want_bad, lib.tail(err, 600)))
+
+            # Reference data: parse each shard with the stdlib.
+            records = []
+            for f in files:
+                if f not in cache:
+                    cache[f] = ref.load_shard(f, job["inputs"].get("format"))
+                recs, bad = cache[f]
+                # Intent: harness sanity: the reference parser agrees with the manifest.
+                checks.check(bad == man[f]["malformed"] and len(recs) == man[f]["records"],
+                             "%s: reference parse of %s: %d records / %d malformed, manifest %d / %d"
+                             % (name, f, len(recs), bad, man[f]["records"], man[f]["malformed"]))
+                records.extend(recs)
+
+            rjob = REFS.get(name)
+            if rjob is None:
+                checks.fail("%s: no hand-written reference in test_demo_jobs.py" % name)
+                continue
+            # Intent: the reference re-states this job (same measure names and fns).
+            checks.check([(m["name"], m["fn"]) for m in job["measures"]] == [(m.name, m.fn) for m in rjob.measures],
+                         "%s: measures differ from the reference's" % name)
+
+            # A copy of the job with absolute inputs and JSON output, to read typed values.
+            copy = json.loads(json.dumps(job))
+            copy["inputs"]["files"] = files
+            emit = copy.get("emit", {})
+            emit.pop("path", None)
+            emit["format"] = "json"
+            copy["emit"] = emit
+            copy_path = lib.write_job(env.path(name, "as-json.json"), copy)
+            out_path = env.path(name, "result.json")
+            rc, _, err = env.fanfold_run("run", copy_path, "-j", args.workers, "-o", out_path)
+            if not checks.check(rc == 0, "%s (json copy): exit %d: %s" % (name, rc, lib.tail(err))):
+                continue
+            try:
+                rows = lib.read_rows(out_path, "json")
+            except (OSError, ValueError) as e:
+                checks.fail("%s: cannot read JSON result: %s" % (name, e))
+                continue
+            expected = ref.evaluate(rjob, records)
+            # Intent: every group and cell equals the reference (tolerances in e2e_lib.compare_cell).
+            lib.compare_results(checks, name, rows, expected, rjob, emit.get("order"), emit.get("limit"))
+
+            # Intent: the shipped output format carries the same rows (CSV/JSON readable back).
+            fmt = job.get("emit", {}).get("format", "table")
+            if fmt in ("csv", "json", "ndjson") and os.path.exists(shipped_out):
+                shipped = lib.read_rows(shipped_out, fmt)
+                checks.check(len(shipped) == len(rows), "%s: shipped %s output has %d rows, JSON copy %d"
+                             % (name, fmt, len(shipped), len(rows)))
+
+        # Intent: together the example jobs use every measure fn of the spec.
+        checks.check(ALL_FNS <= used_fns, "example jobs miss measure fns %s" % sorted(ALL_FNS - used_fns))
+
+        # Intent: results are byte-identical for any worker count (DESIGN: merge in shard order).
+        job_path = os.path.join(env.src, "jobs", "district_hourly.json")
+        outs = []
+        for j in (1, 3):
+            o = env.path("workers", "j%d.out" % j)
+            rc, _, err = env.fanfold_run("run", job_path, "-j", j, "-o", o)
+            checks.check(rc == 0, "district_hourly -j %d: exit %d: %s" % (j, rc, lib.tail(err)))
+            outs.append(open(o, "rb").read() if os.path.exists(o) else b"")
+        checks.check(outs[0] == outs[1] and outs[0], "district_hourly: output differs between -j 1 and -j 3")
+    checks.exit()
+
+
+if __name__ == "__main__":
+    main()

@@ -1,0 +1,164 @@
+"""Malformed records are skipped and counted exactly: hand-written shards with
+known broken lines, generated shards (NDJSON plain/gz/zst, CSV, TSV) with the
+generator's manifest as the count to match, the line numbers named on
+stderr, and "bad_record_limit" turning a too-broken shard into a failed one
+(exit status 1) while the other shards still count.
+"""
+
+import gzip
+import os
+import re
+import sys
+
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+import e2e_lib as lib  # noqa: E402
+import reference as ref  # noqa: E402
+
+GOOD = '{"ts":"2026-03-01T00:%02d:00Z","lamp":"L-%05d","district":"Quillmoor","event":"heartbeat","power_w":%d}'
+BROKEN = [
+    b'{"ts":"2026-03-01T00:59:00Z","lamp":"L-00001"',        # truncated object
+    b'"ts":"2026-03-01T00:59:00Z","lamp":"L-00002"}',         # missing opening brace
+    b'#\xff\xfe\x80 not json at all',                          # garbage bytes, invalid UTF-8
+    b'{"ts":"2026-03-01T00:59:00Z",,"lamp":"L-00003"}',       # doubled comma
+]
+
+
+def good_lines(n, start=0):
+    return [(GOOD % (i % 60, start + i, 10 + i)).encode() for i in range(n)]
+
+
+def write(path, lines, final_newline=True, compress=None):
+    data = b"\n".join(lines) + (b"\n" if final_newline else b"")
+    if compress == "gz":
+        data = gzip.compress(data, mtime=0)
+    os.makedirs(os.path.dirname(path), exist_ok=True)
+    with open(path, "wb") as f:
+        f.write(data)
+    return path
+
+
+def count_job(files, extra_inputs=None):
+    inputs = {"files": files}
+    inputs.update(extra_inputs or {})
+    return {"about": "e2e: count records", "inputs": inputs,
+            "measures": [{"name": "n", "fn": "count"}], "emit": {"format": "json"}}
+
+
+def global_count(path):
+    rows = lib.read_rows(path, "json")
+    return rows[0].get("n") if len(rows) == 1 else rows
+
+
+SAMPLE = re.compile(r"malformed record: (\S+) line (\d+)")
+
+
+def check_samples(checks, label, err, files):
+    """Every "malformed record: FILE line N" on stderr names a line that the
+    Python reference (json module / csv module) also rejects."""
+    bad_lines = {}
+    for f in files:
+        data = ref.read_shard_bytes(f)
+        lines = ref.split_lines(data)
+        if ".csv" in f or ".tsv" in f:
+            sep = "\t" if ".tsv" in f else ","
+            # Our CSV shards have no quoted line breaks, so a row is a line;
+            # line 1 is the header.
+            bad = {i for i, line in enumerate(lines[1:], start=2)
+                   if ref.parse_csv(lines[0] + b"\n" + line + b"\n", sep)[1]}
+        else:
+            bad = {i for i, line in enumerate(lines, start=1) if ref.parse_ndjson(line)[1]}
+        bad_lines[os.path.basename(f)] = bad
+    named = 0
+    for path, line in SAMPLE.findall(err):
+        name = os.path.basename(path.rstrip(":"))
+        if name in bad_lines:
+            named += 1
+            checks.check(int(line) in bad_lines[name], "%s: stderr names %s line %s, which the reference parses fine"
+                         % (label, name, line))
+    return named
+
+
+def main():
+    args = lib.parse_args(__doc__)
+    checks = lib.Checks("test_malformed_counts")
+    with lib.Env(args) as env:
+        d = os.path.join(env.tmp, "hand")
+        # a: 10 good, 3 broken, the last good line has no final newline.
+        a = write(os.path.join(d, "a.ndjson"),
+                  good_lines(4) + BROKEN[:1] + good_lines(3, 100) + BROKEN[1:3] + good_lines(3, 200),
+                  final_newline=False)
+        # b: 5 good, 1 broken, gzip.
+        b = write(os.path.join(d, "b.ndjson.gz"), good_lines(2, 300) + BROKEN[3:] + good_lines(3, 400), compress="gz")
+        job = lib.write_job(env.path("hand.json"), count_job([os.path.join(d, "*.ndjson*")]))
+        out = env.path("hand.out")
+        rc, _, err = env.fanfold_run("run", job, "-j", args.workers, "-o", out)
+        if checks.check(rc == 0, "hand-written shards: exit %d: %s" % (rc, lib.tail(err))):
+            # Intent: 15 well-formed records counted, the unterminated last line included.
+            checks.check(global_count(out) == 15, "hand-written shards: count %r, want 15" % global_count(out))
+            # Intent: exactly the 4 broken lines are counted as malformed.
+            checks.check(lib.summary_malformed_total(err) == 4,
+                         "hand-written shards: summary malformed %r, want 4" % lib.summary_malformed_total(err))
+            # Intent: the sampled line numbers point at broken lines (a: 5, 9, 10; b: 3).
+            named = check_samples(checks, "hand-written", err, [a, b])
+            checks.check(named >= 1, "hand-written: no 'malformed record: FILE line N' samples on stderr")
+
+        # Generated shards in every format/compression, 5 % broken lines.
+        variants = [("ndjson", "none"), ("ndjson", "gz"), ("ndjson", "zst"), ("csv", "gz"), ("tsv", "none")]
+        for fmt, comp in variants:
+            gdir = os.path.join(env.tmp, "gen-%s-%s" % (fmt, comp))
+            man = env.generate(gdir, "--shards", 6, "--records", 300, "--seed", 77, "--bad-rate", 0.05,
+                               "--format", fmt, "--compress", comp)
+            files = [os.path.join(gdir, e["name"]) for e in man["files"]]
+            job = lib.write_job(env.path("gen-%s-%s.json" % (fmt, comp)), count_job(files))
+            out = env.path("gen-%s-%s.out" % (fmt, comp))
+            label = "generated %s/%s" % (fmt, comp)
+            rc, _, err = env.fanfold_run("run", job, "-j", args.workers, "-o", out)
+            if not checks.check(rc == 0, "%s: exit %d: %s" % (label, rc, lib.tail(err))):
+                continue
+            # Intent: well-formed records == the generator's manifest (exact).
+            checks.check(global_count(out) == man["totals"]["records"],
+                         "%s: count %r, manifest %d" % (label, global_count(out), man["totals"]["records"]))
+            # Intent: malformed total in the summary == the generator's manifest (exact).
+            checks.check(lib.summary_malformed_total(err) == man["totals"]["malformed"],
+                         "%s: summary malformed %r, manifest %d"
+                         % (label, lib.summary_malformed_total(err), man["totals"]["malformed"]))
+            # Intent: harness sanity: the stdlib reference agrees with the manifest.
+            checks.check(sum(ref.load_shard(f)[1] for f in files) == man["totals"]["malformed"],
+                         "%s: reference parse disagrees with the manifest" % label)
+            check_samples(checks, label, err, files)
+
+        # bad_record_limit: malformed / (records + malformed) above the limit fails the shard.
+        d = os.path.join(env.tmp, "limit")
+        ok1 = write(os.path.join(d, "ok1.ndjson"), good_lines(20) + BROKEN[:1])                 # 1/21 = 4.8 %
+        edge = write(os.path.join(d, "edge.ndjson"), good_lines(3, 50) + BROKEN[1:2])           # 1/4 = 25 %, not above
+        bad = write(os.path.join(d, "toobad.ndjson"), good_lines(10, 100) + BROKEN[:3])         # 3/13 = 23 % > 20 %
+        del ok1, edge
+        job = lib.write_job(env.path("limit20.json"),
+                            count_job([os.path.join(d, "ok1.ndjson"), bad], {"bad_record_limit": 0.2}))
+        out = env.path("limit20.out")
+        rc, _, err = env.fanfold_run("run", job, "-j", args.workers, "-o", out)
+        # Intent: a shard past bad_record_limit fails: exit status 1, and stderr names it.
+        checks.check(rc == 1, "bad_record_limit 0.2: exit %d, want 1: %s" % (rc, lib.tail(err)))
+        checks.check("toobad.ndjson" in err, "bad_record_limit: stderr does not name toobad.ndjson: %s" % lib.tail(err))
+        # Intent: the shard within the limit still counts (20 records), the failed one not at all.
+        if checks.check(os.path.exists(out), "bad_record_limit: no result written"):
+            checks.check(global_count(out) == 20, "bad_record_limit: count %r, want 20" % global_count(out))
+
+        job = lib.write_job(env.path("limit25.json"),
+                            count_job([os.path.join(d, "edge.ndjson")], {"bad_record_limit": 0.25}))
+        out = env.path("limit25.out")
+        rc, _, err = env.fanfold_run("run", job, "-j", args.workers, "-o", out)
+        # Intent: exactly at the limit (1 of 4 lines = 0.25, spec: fails only when it exceeds) passes.
+        checks.check(rc == 0, "bad_record_limit 0.25 with 1 of 4 lines broken: exit %d, want 0: %s"
+                     % (rc, lib.tail(err)))
+
+        job = lib.write_job(env.path("limit0.json"),
+                            count_job([os.path.join(d, "ok1.ndjson")], {"bad_record_limit": 0}))
+        rc, _, err = env.fanfold_run("run", job, "-j", args.workers, "-o", env.path("limit0.out"))
+        # Intent: limit 0 tolerates no malformed line at all.
+        checks.check(rc == 1, "bad_record_limit 0 with one broken line: exit %d, want 1: %s" % (rc, lib.tail(err)))
+    checks.exit()
+
+
+if __name__ == "__main__":
+    main()

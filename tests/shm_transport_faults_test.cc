@@ -1,0 +1,218 @@
+// ShmTransport under faults: workers killed mid-shard, workers that exit,
+// shutdown with a busy worker, segment cleanup and permissions, stale
+// segments of dead coordinators, and a coordinator killed without cleanup.
+#include <doctest/doctest.h>
+#include <sys/stat.h>
+#include <sys/wait.h>
+#include <unistd.h>
+
+#include <boost/interprocess/shared_memory_object.hpp>
+#include <algorithm>
+#include <chrono>
+#include <csignal>
+#include <filesystem>
+#include <thread>
+#include <vector>
+
+#include "common/process_control.h"
+#include "common/shm_segment.h"
+#include "tests/shm_transport_test_util.h"
+#include "tests/transport_test_payload.h"
+
+namespace fanfold {
+namespace {
+
+namespace bip = boost::interprocess;
+
+bool SegmentExists(const std::string& name) {
+  return std::filesystem::exists(ShmSegment::FilePath(name));
+}
+
+// A pid that certainly belongs to no process now: a child we forked and reaped.
+int DeadPid() {
+  pid_t pid = ::fork();
+  if (pid == 0) ::_exit(0);
+  REQUIRE(pid > 0);
+  REQUIRE(Reap(pid).ok());
+  return pid;
+}
+
+void MakeSegment(const std::string& name) {
+  bip::shared_memory_object shm(bip::create_only, name.c_str(), bip::read_write);
+  shm.truncate(4096);
+}
+
+// Intent: a worker that dies by SIGKILL mid-shard yields kDied promptly, naming the signal, the
+// shard and its last stderr line; a fresh worker takes the slot and serves the next shard.
+TEST_CASE("ShmTransport reports a worker killed mid-shard and replaces it") {
+  auto t = ShmTransport::Create(TestWorkerOptions(2));
+  REQUIRE_MESSAGE(t.ok(), t.status().message());
+  const int old_pid = (*t)->worker_pid(0);
+  const int other_pid = (*t)->worker_pid(1);
+  const auto start = std::chrono::steady_clock::now();
+  REQUIRE((*t)->Assign(0, TestTask(17, "crash:")).ok());
+  TransportEvent ev = WaitEvent(**t, 3000);
+  const double ms = MillisSince(start);
+  MESSAGE("crash noticed (and worker restarted) after ", ms, " ms");
+  CHECK(ms < 1000);
+  CHECK(ev.kind == TransportEvent::Kind::kDied);
+  CHECK(ev.worker == 0);
+  CHECK(ev.shard == 17);
+  const std::string head = "worker 0 (pid " + std::to_string(old_pid) +
+                           ") was killed by signal 9 (SIGKILL) while processing shard 17";
+  CHECK_MESSAGE(ev.message.rfind(head, 0) == 0, ev.message);
+  CHECK(ev.message.find("test worker: crashing on shard 17") != std::string::npos);
+  CHECK((*t)->idle(0));
+  CHECK((*t)->worker_pid(0) != 0);
+  CHECK((*t)->worker_pid(0) != old_pid);
+  CHECK((*t)->worker_pid(1) == other_pid);
+  REQUIRE((*t)->Assign(0, TestTask(18, "echo:100")).ok());
+  ev = WaitEvent(**t);
+  CHECK(ev.kind == TransportEvent::Kind::kDone);
+  CHECK(ev.partial == TestPayload(18, 100));
+}
+
+// Intent: a SIGKILL from outside (the OOM killer, an operator) is noticed within a second even
+// though the worker was asleep in its shard, and later shards still run.
+TEST_CASE("ShmTransport notices a worker killed from outside") {
+  auto t = ShmTransport::Create(TestWorkerOptions(1));
+  REQUIRE_MESSAGE(t.ok(), t.status().message());
+  REQUIRE((*t)->Assign(0, TestTask(5, "sleep:20000")).ok());
+  std::this_thread::sleep_for(std::chrono::milliseconds(50));
+  const int pid = (*t)->worker_pid(0);
+  REQUIRE(KillProcess(pid).ok());
+  const auto start = std::chrono::steady_clock::now();
+  TransportEvent ev = WaitEvent(**t, 3000);
+  CHECK(MillisSince(start) < 1000);
+  CHECK(ev.kind == TransportEvent::Kind::kDied);
+  CHECK(ev.shard == 5);
+  CHECK(ev.message.find("killed by signal 9 (SIGKILL)") != std::string::npos);
+  REQUIRE((*t)->Assign(0, TestTask(6, "echo:3")).ok());
+  ev = WaitEvent(**t);
+  CHECK(ev.kind == TransportEvent::Kind::kDone);
+  CHECK(ev.partial == TestPayload(6, 3));
+}
+
+// Intent: a worker that exits mid-shard is reported with its exit status.
+TEST_CASE("ShmTransport reports a worker's exit status") {
+  auto t = ShmTransport::Create(TestWorkerOptions(1));
+  REQUIRE_MESSAGE(t.ok(), t.status().message());
+  REQUIRE((*t)->Assign(0, TestTask(8, "exit:3")).ok());
+  TransportEvent ev = WaitEvent(**t, 3000);
+  CHECK(ev.kind == TransportEvent::Kind::kDied);
+  CHECK(ev.message.find(") exited with status 3 while processing shard 8") != std::string::npos);
+  CHECK(ev.message.find("test worker: exiting on shard 8") != std::string::npos);
+  CHECK((*t)->idle(0));
+}
+
+// Intent: Shutdown removes the segment, which existed with mode 0600 while the transport lived,
+// and no worker process outlives it.
+TEST_CASE("ShmTransport segment is owner-only and gone after Shutdown") {
+  auto t = ShmTransport::Create(TestWorkerOptions(2));
+  REQUIRE_MESSAGE(t.ok(), t.status().message());
+  const std::string name = (*t)->segment_name();
+  CHECK(name.rfind("fanfold-" + std::to_string(CurrentPid()) + "-", 0) == 0);
+  struct stat st;
+  REQUIRE(::stat(ShmSegment::FilePath(name).c_str(), &st) == 0);
+  CHECK((st.st_mode & 0777) == 0600);
+  const int pid0 = (*t)->worker_pid(0), pid1 = (*t)->worker_pid(1);
+  (*t)->Shutdown();
+  CHECK_FALSE(SegmentExists(name));
+  CHECK(ShmSegment::ListSegmentsOf(CurrentPid()).empty());
+  CHECK_FALSE(ProcessAlive(pid0));
+  CHECK_FALSE(ProcessAlive(pid1));
+  CHECK_FALSE((*t)->idle(0));
+  (*t)->Shutdown();  // idempotent
+}
+
+// Intent: Shutdown does not hang on a worker stuck in a long shard: after the grace period it
+// is SIGKILLed and reaped.
+TEST_CASE("ShmTransport Shutdown kills a worker that does not quit in time") {
+  ShmTransportOptions o = TestWorkerOptions(1);
+  o.shutdown_grace_ms = 300;
+  auto t = ShmTransport::Create(o);
+  REQUIRE_MESSAGE(t.ok(), t.status().message());
+  REQUIRE((*t)->Assign(0, TestTask(1, "sleep:60000")).ok());
+  // Let it start the shard: a quit that arrives first wins over a pending task.
+  std::this_thread::sleep_for(std::chrono::milliseconds(50));
+  const int pid = (*t)->worker_pid(0);
+  const auto start = std::chrono::steady_clock::now();
+  (*t)->Shutdown();
+  const double ms = MillisSince(start);
+  CHECK(ms >= 250);
+  CHECK(ms < 2000);
+  CHECK_FALSE(ProcessAlive(pid));
+}
+
+// Intent: a segment left by a dead coordinator is removed at the next start; one whose
+// (live) owner is still running is left alone.
+TEST_CASE("ShmTransport::Create removes stale segments of dead coordinators only") {
+  const std::string stale = "fanfold-" + std::to_string(DeadPid()) + "-0123456789abcdef";
+  const std::string live = "fanfold-1-fedcba9876543210";  // pid 1 always exists
+  MakeSegment(stale);
+  MakeSegment(live);
+  REQUIRE(SegmentExists(stale));
+  {
+    auto t = ShmTransport::Create(TestWorkerOptions(1));
+    REQUIRE_MESSAGE(t.ok(), t.status().message());
+  }
+  CHECK_FALSE(SegmentExists(stale));
+  CHECK(SegmentExists(live));
+  bip::shared_memory_object::remove(live.c_str());
+}
+
+// Intent: when the coordinator is SIGKILLed (no cleanup at all), its workers exit on their own
+// within ~2 s, and the segment it left is removed by the next start.
+TEST_CASE("workers exit on their own when the coordinator is killed") {
+  REQUIRE(SetChildSubreaper(true).ok());  // orphaned workers come to us, so we can reap them
+  int fds[2];
+  REQUIRE(::pipe(fds) == 0);
+  pid_t coordinator = ::fork();
+  REQUIRE(coordinator >= 0);
+  if (coordinator == 0) {
+    ::close(fds[0]);
+    auto t = ShmTransport::Create(TestWorkerOptions(2));
+    if (!t.ok()) ::_exit(1);
+    std::string report = (*t)->segment_name() + " " + std::to_string((*t)->worker_pid(0)) + " " +
+                         std::to_string((*t)->worker_pid(1)) + "\n";
+    if (::write(fds[1], report.data(), report.size()) != static_cast<ssize_t>(report.size())) ::_exit(1);
+    std::raise(SIGKILL);
+  }
+  ::close(fds[1]);
+  char buf[256] = {};
+  ssize_t n = ::read(fds[0], buf, sizeof buf - 1);
+  ::close(fds[0]);
+  Result<ExitInfo> exit = Reap(coordinator);
+  REQUIRE(exit.ok());
+  CHECK(exit->signaled);
+  REQUIRE(n > 0);
+  char name[128] = {};
+  int pids[2] = {0, 0};
+  REQUIRE(std::sscanf(buf, "%127s %d %d", name, &pids[0], &pids[1]) == 3);
+  const auto start = std::chrono::steady_clock::now();
+  int reaped = 0;
+  while (reaped < 2 && MillisSince(start) < 2500) {
+    for (int& pid : pids) {
+      ExitInfo info;
+      Result<bool> r = pid > 0 ? TryReap(pid, &info) : Result<bool>(false);
+      if (r.ok() && *r) pid = 0, ++reaped;
+    }
+    std::this_thread::sleep_for(std::chrono::milliseconds(5));
+  }
+  const double ms = MillisSince(start);
+  MESSAGE("orphaned workers gone after ", ms, " ms");
+  CHECK(reaped == 2);
+  CHECK(ms < 2000);
+  for (int pid : pids) {
+    if (pid > 0) (void)KillProcess(pid), (void)Reap(pid);  // only if the check above failed
+  }
+  REQUIRE(SetChildSubreaper(false).ok());
+  CHECK(SegmentExists(name));  // the killed coordinator could not remove it
+  std::vector<std::string> removed;
+  ShmSegment::RemoveStaleSegments(&removed);
+  CHECK(std::find(removed.begin(), removed.end(), std::string(name)) != removed.end());
+  CHECK_FALSE(SegmentExists(name));
+}
+
+}  // namespace
+}  // namespace fanfold
