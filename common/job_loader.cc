@@ -35,10 +35,7 @@ std::string FingerprintHex(uint64_t fingerprint) {
 Result<std::unique_ptr<Plan>> LoadWorkerPlan(const std::string& job_path, const std::string& format,
                                              const std::string& fingerprint_hex) {
   RecordFormat f;
-  if (format == "ndjson") f = RecordFormat::kNdjson;
-  else if (format == "csv") f = RecordFormat::kCsv;
-  else if (format == "tsv") f = RecordFormat::kTsv;
-  else return Status::InvalidArgument("unknown record format '" + format + "'");
+  if (!FormatFromText(format, &f)) return Status::InvalidArgument("unknown record format '" + format + "'");
   Result<JobSpec> spec = LoadJobSpec(job_path);
   if (!spec.ok()) return spec.status();
   Result<std::unique_ptr<Plan>> plan = CompilePlan(std::move(spec.value()), f);

@@ -132,10 +132,9 @@ Status ParseInputs(Checker& c, const json& in, JobSpec* job) {
   if (in.contains("format")) {
     std::string f;
     FF_RETURN_IF_ERROR(c.String(in["format"], p + "/format", &f));
-    if (f == "ndjson") job->format = RecordFormat::kNdjson;
-    else if (f == "csv") job->format = RecordFormat::kCsv;
-    else if (f == "tsv") job->format = RecordFormat::kTsv;
-    else return c.Error(p + "/format", Found(in["format"]), "\"ndjson\", \"csv\" or \"tsv\"");
+    RecordFormat fmt;
+    if (!FormatFromText(f, &fmt)) return c.Error(p + "/format", Found(in["format"]), "\"ndjson\", \"csv\" or \"tsv\"");
+    job->format = fmt;
   }
   if (in.contains("bad_record_limit")) {
     double d = 0;
@@ -355,6 +354,16 @@ const char* FormatName(RecordFormat f) {
     case RecordFormat::kTsv: return "tsv";
   }
   return "?";
+}
+
+bool FormatFromText(const std::string& text, RecordFormat* out) {
+  for (RecordFormat f : {RecordFormat::kNdjson, RecordFormat::kCsv, RecordFormat::kTsv}) {
+    if (text == FormatName(f)) {
+      *out = f;
+      return true;
+    }
+  }
+  return false;
 }
 
 const char* OutputFormatName(OutputFormat f) {

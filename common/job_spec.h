@@ -70,6 +70,8 @@ Result<JobSpec> LoadJobSpec(const std::string& path);
 // The job file's name for a measure kind ("count", "approx_quantile", ...).
 const char* MeasureFnName(MeasureKind kind);
 const char* FormatName(RecordFormat f);
+// Inverse of FormatName; returns false iff text names no format.
+bool FormatFromText(const std::string& text, RecordFormat* out);
 const char* OutputFormatName(OutputFormat f);
 
 }  // namespace fanfold

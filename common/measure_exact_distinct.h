@@ -6,18 +6,14 @@
 #pragma once
 
 #include <string>
+#include <functional>
 #include <string_view>
 #include <unordered_set>
 
 #include "common/measure.h"
+#include "common/value_key.h"
 
 namespace fanfold {
-
-// Lets an unordered_set<std::string> be probed with a string_view.
-struct TransparentStringHash {
-  using is_transparent = void;
-  size_t operator()(std::string_view s) const { return std::hash<std::string_view>{}(s); }
-};
 
 class ExactDistinctState final : public MeasureState {
  public:

@@ -12,10 +12,11 @@
 
 #include <string>
 #include <string_view>
+#include <functional>
 #include <unordered_map>
 
 #include "common/measure.h"
-#include "common/measure_exact_distinct.h"
+#include "common/value_key.h"
 
 namespace fanfold {
 

@@ -11,7 +11,7 @@ namespace fanfold {
 namespace {
 
 constexpr char kMagic[4] = {'F', 'F', 'P', 'S'};
-constexpr size_t kChecksumOffset = 120;
+constexpr size_t kChecksumOffset = 152;
 
 uint64_t Checksum(std::string_view header_prefix, std::string_view body) {
   XXH3_state_t* st = XXH3_createState();
@@ -62,8 +62,20 @@ void EncodePartial(const PartialState& p, std::string* out) {
   w.U64(h.compressed_bytes);
   w.U64(body.size());
   w.U64(z.size());
+  w.U64(h.read_ns);
+  w.U64(h.parse_ns);
+  w.U64(h.aggregate_ns);
+  w.U64(h.encode_ns);
   w.U64(Checksum(std::string_view(*out).substr(0, kChecksumOffset), z));
   w.Bytes(z);
+}
+
+void SetPartialEncodeTime(uint64_t ns, std::string* partial) {
+  if (partial->size() < kPartialHeaderSize) return;
+  std::memcpy(partial->data() + 144, &ns, 8);
+  uint64_t sum = Checksum(std::string_view(*partial).substr(0, kChecksumOffset),
+                          std::string_view(*partial).substr(kPartialHeaderSize));
+  std::memcpy(partial->data() + kChecksumOffset, &sum, 8);
 }
 
 Status DecodePartialHeader(std::string_view bytes, PartialHeader* h) {
@@ -93,6 +105,10 @@ Status DecodePartialHeader(std::string_view bytes, PartialHeader* h) {
   h->compressed_bytes = r.U64();
   uint64_t raw_len = r.U64();
   uint64_t z_len = r.U64();
+  h->read_ns = r.U64();
+  h->parse_ns = r.U64();
+  h->aggregate_ns = r.U64();
+  h->encode_ns = r.U64();
   uint64_t checksum = r.U64();
   if (!r.ok()) return Status::Corrupt("partial state header is truncated");
   if (z_len != bytes.size() - kPartialHeaderSize)

@@ -16,8 +16,10 @@
 //    80    8 records malformed      88  8 decompressed bytes
 //    96    8 compressed bytes read 104  8 body length before compression
 //   112    8 body length (zstd-compressed, as stored)
-//   120    8 checksum: XXH3-64 of bytes [0, 120) followed by the stored body
-//   128      body: one zstd frame of
+//   120    8 ns reading + decompressing   128  8 ns parsing records
+//   136    8 ns filtering + aggregating   144  8 ns encoding the body
+//   152    8 checksum: XXH3-64 of bytes [0, 152) followed by the stored body
+//   160      body: one zstd frame of
 //              varint sample count, per sample: varint line, string reason;
 //              the GroupTable encoding (common/group_table.h)
 //
@@ -38,7 +40,7 @@
 namespace fanfold {
 
 inline constexpr uint16_t kPartialFormatVersion = 1;
-inline constexpr uint16_t kPartialHeaderSize = 128;
+inline constexpr uint16_t kPartialHeaderSize = 160;
 inline constexpr uint64_t kMaxPartialBodyBytes = uint64_t{1} << 34;  // 16 GiB decompressed
 
 struct PartialHeader {
@@ -54,6 +56,11 @@ struct PartialHeader {
   uint64_t malformed = 0;
   uint64_t raw_bytes = 0;
   uint64_t compressed_bytes = 0;
+  // Where the worker's time went (wall-clock ns, measured by the worker).
+  uint64_t read_ns = 0;
+  uint64_t parse_ns = 0;
+  uint64_t aggregate_ns = 0;
+  uint64_t encode_ns = 0;
 };
 
 struct PartialState {
@@ -69,6 +76,10 @@ uint64_t PathHash(std::string_view path);
 // Encodes p into *out (replacing its contents). zstd level 1: partials are
 // written once and read once, so speed beats ratio.
 void EncodePartial(const PartialState& p, std::string* out);
+
+// Rewrites the encode-time field of an encoded partial (and its checksum):
+// the time to encode is only known once encoding is done.
+void SetPartialEncodeTime(uint64_t ns, std::string* partial);
 
 // Reads only the fixed header (checksum verified against the whole input).
 Status DecodePartialHeader(std::string_view bytes, PartialHeader* out);

@@ -87,12 +87,13 @@ Status KillMeWhenParentDies() {
   return Status::Ok();
 }
 
-void IgnoreInterruptSignal() {
+void IgnoreWorkerSignals() {
   struct sigaction sa;
   std::memset(&sa, 0, sizeof sa);
   sa.sa_handler = SIG_IGN;
   sigemptyset(&sa.sa_mask);
   ::sigaction(SIGINT, &sa, nullptr);
+  ::sigaction(SIGPIPE, &sa, nullptr);
 }
 
 Status SetChildSubreaper(bool on) {

@@ -44,9 +44,11 @@ Result<ExitInfo> Reap(int pid);
 // caller's heartbeat check is the portable fallback.
 Status KillMeWhenParentDies();
 
-// Ignores SIGINT in this process: a terminal's Ctrl-C reaches the whole
-// process group, and the coordinator alone decides how a run ends.
-void IgnoreInterruptSignal();
+// Ignores SIGINT and SIGPIPE in this process (a worker): a terminal's Ctrl-C
+// reaches the whole process group, and the coordinator alone decides how a
+// run ends; a write to a pipe nobody reads (a dead coordinator's end of our
+// stderr) should fail with EPIPE, not kill.
+void IgnoreWorkerSignals();
 
 // Makes this process the reaper of its orphaned descendants (Linux
 // PR_SET_CHILD_SUBREAPER), or stops being one. Tests use it to watch

@@ -7,6 +7,7 @@
 #pragma once
 
 #include <cstdint>
+#include <functional>
 #include <string>
 #include <string_view>
 
@@ -43,6 +44,13 @@ bool IsValidValueKey(std::string_view key);
 // The output form of a key: Bool, Float or String cell.
 // REQUIRES: IsValidValueKey(key).
 Cell ValueKeyToCell(std::string_view key);
+
+// Lets hash containers keyed by std::string be probed with a string_view
+// key, so lookups of a key built in a reused buffer allocate nothing.
+struct TransparentStringHash {
+  using is_transparent = void;
+  size_t operator()(std::string_view s) const { return std::hash<std::string_view>{}(s); }
+};
 
 // Canonical double: -0.0 becomes 0.0, every NaN one quiet NaN.
 double CanonicalDouble(double d);

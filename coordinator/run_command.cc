@@ -1,135 +1,144 @@
 #include "coordinator/run_command.h"
 
-#include <unistd.h>
+#include <sys/stat.h>
 
 #include <chrono>
-#include <cstdio>
+#include <ctime>
 #include <filesystem>
 #include <iostream>
-#include <thread>
 
-#include "common/file_util.h"
-#include "common/output_table.h"
-#include "coordinator/inprocess_transport.h"
 #include "common/job_loader.h"
-#include "coordinator/merger.h"
-#include "coordinator/run_loop.h"
-#include "coordinator/run_summary.h"
-#include "coordinator/shard_scheduler.h"
-#include "coordinator/transport_factory.h"
+#include "common/partial_codec.h"
+#include "coordinator/run_directory.h"
+#include "coordinator/run_engine.h"
+
+namespace fs = std::filesystem;
 
 namespace fanfold {
 namespace {
 
-void Note(const RunOptions& o, const std::string& line) {
-  if (!o.quiet) std::cerr << "fanfold: " << line << "\n";
+std::string NowIso() {
+  std::time_t t = std::time(nullptr);
+  char buf[32];
+  std::strftime(buf, sizeof buf, "%Y-%m-%dT%H:%M:%SZ", std::gmtime(&t));
+  return buf;
 }
 
-// Where the result goes: -o, else the job's emit.path (relative to the job
-// file), else stdout ("").
-std::string OutputPath(const RunOptions& o, const Plan& plan) {
-  if (!o.output_path.empty()) return o.output_path == "-" ? "" : o.output_path;
-  const std::string& p = plan.spec.emit.path;
-  if (p.empty()) return "";
-  std::filesystem::path path(p);
-  return path.is_absolute() ? p : (std::filesystem::path(plan.spec.base_dir) / path).string();
-}
-
-Status WriteOutput(const std::string& path, const std::string& text) {
-  if (path.empty()) {
-    std::fwrite(text.data(), 1, text.size(), stdout);
-    std::fflush(stdout);
-    if (std::ferror(stdout)) return Status::IoError("cannot write the result to stdout");
-    return Status::Ok();
-  }
-  std::filesystem::path parent = std::filesystem::path(path).parent_path();
-  std::error_code ec;
-  if (!parent.empty()) std::filesystem::create_directories(parent, ec);
-  return WriteFileAtomic(path, text);
+// Why a committed partial cannot be reused for shard s, or "" if it can.
+std::string PartialProblem(const std::string& bytes, const Shard& s, const Plan& plan) {
+  PartialHeader h;
+  Status st = DecodePartialHeader(bytes, &h);
+  if (!st.ok()) return st.message();
+  if (h.fingerprint != plan.fingerprint) return "it was computed by a different plan";
+  if (h.shard_index != s.index || h.path_hash != PathHash(s.path) || h.offset != s.offset || h.length != s.length)
+    return "it belongs to another shard";
+  if (h.file_size != s.file_size || h.mtime_ns != s.mtime_ns) return "the shard's file changed after it was computed";
+  return "";
 }
 
 }  // namespace
 
+std::string DefaultRunDir(const std::string& job_path) {
+  return (fs::path("fanfold-runs") / fs::path(job_path).stem()).string();
+}
+
 CommandOutcome RunJob(const RunOptions& o) {
   CommandOutcome out;
-  const auto start = std::chrono::steady_clock::now();
   Result<LoadedJob> job = LoadJob(o.job_path);
   if (!job.ok()) {
     out.status = job.status();
     return out;
   }
-  const Plan& plan = *job->plan;
-  const ShardList& list = job->shards;
+  const std::string run_dir = o.run_dir.empty() ? DefaultRunDir(o.job_path) : o.run_dir;
+  const std::string run_dir_abs = fs::absolute(run_dir).lexically_normal().string();
+  RunDirectory::State state = RunDirectory::Probe(run_dir);
+  if (state != RunDirectory::State::kEmpty && !o.fresh) {
+    const bool finished = state == RunDirectory::State::kFinished;
+    out.status = Status::InvalidArgument(
+        "run directory '" + run_dir + "' already holds " + (finished ? "a finished run" : "an unfinished run") +
+        (finished ? ". To write its result again: fanfold resume " : ". To finish it: fanfold resume ") + run_dir +
+        " ; to start over: fanfold run " + o.job_path + " --fresh (or choose another --run-dir)");
+    return out;
+  }
+  RunManifest manifest;
+  manifest.job_path = fs::absolute(o.job_path).lexically_normal().string();
+  manifest.format = FormatName(job->plan->format);
+  manifest.fingerprint = FingerprintHex(job->plan->fingerprint);
+  manifest.plan_text = PlanCanonicalText(*job->plan);
+  manifest.created_utc = NowIso();
+  manifest.shards = job->shards;
+  Result<std::unique_ptr<RunDirectory>> dir = RunDirectory::Create(run_dir_abs, manifest, o.fresh);
+  if (!dir.ok()) {
+    out.status = dir.status();
+    return out;
+  }
+  if (!o.quiet) std::cerr << "fanfold: run directory: " << run_dir << "\n";
+  RunInput in;
+  in.plan = job->plan.get();
+  in.shards = &job->shards;
+  in.dir = dir->get();
+  for (const Shard& s : job->shards.shards) in.pending.push_back(s.index);
+  return ExecuteRun(in, o);
+}
 
-  int workers = o.workers > 0 ? o.workers : static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
-  workers = std::min<int>(workers, std::max<size_t>(1, list.shards.size()));
-  // Until the run directory exists, oversized partials spill to a private
-  // temporary directory removed at the end of the run.
-  std::error_code ec;
-  std::filesystem::path spill = std::filesystem::temp_directory_path(ec) /
-                                ("fanfold-spill-" + std::to_string(::getpid()));
-  std::filesystem::create_directories(spill, ec);
-  struct RemoveDir {
-    std::filesystem::path p;
-    ~RemoveDir() {
-      std::error_code e;
-      std::filesystem::remove_all(p, e);
+CommandOutcome ResumeRun(const RunOptions& o) {
+  CommandOutcome out;
+  RunManifest manifest;
+  Result<std::unique_ptr<RunDirectory>> dir =
+      RunDirectory::Open(fs::absolute(o.run_dir).lexically_normal().string(), &manifest);
+  if (!dir.ok()) {
+    out.status = dir.status();
+    return out;
+  }
+  Result<std::unique_ptr<Plan>> plan = LoadWorkerPlan(manifest.job_path, manifest.format, manifest.fingerprint);
+  if (!plan.ok()) {
+    out.status = Status::InvalidArgument("cannot resume '" + o.run_dir + "': " + plan.status().message() +
+                                         ". Start a fresh run instead: fanfold run " + manifest.job_path +
+                                         " --run-dir " + o.run_dir + " --fresh");
+    return out;
+  }
+  RunInput in;
+  in.plan = plan->get();
+  in.shards = &manifest.shards;
+  in.dir = dir->get();
+  in.mode = "resume";
+  for (Shard& s : manifest.shards.shards) {
+    std::string bytes;
+    Status st = (*dir)->LoadPartial(s.index, &bytes);
+    if (!st.ok()) {
+      out.status = st;
+      return out;
     }
-  } remove_spill{spill};
-  Result<std::unique_ptr<Transport>> transport = MakeTransport(plan, o, workers, spill.string());
-  if (!transport.ok()) {
-    out.status = transport.status();
-    return out;
+    struct stat now;
+    const bool exists = ::stat(s.path.c_str(), &now) == 0;
+    const int64_t mtime = exists ? static_cast<int64_t>(now.st_mtim.tv_sec) * 1'000'000'000 + now.st_mtim.tv_nsec : 0;
+    if (exists && (static_cast<uint64_t>(now.st_size) != s.file_size || mtime != s.mtime_ns)) {
+      if (!o.quiet) std::cerr << "fanfold: shard " << s.index << " '" << s.path << "' changed since the run started; recomputing it\n";
+      s.file_size = static_cast<uint64_t>(now.st_size);
+      s.mtime_ns = mtime;
+      (*dir)->DiscardPartial(s.index);
+      in.pending.push_back(s.index);
+      continue;
+    }
+    if (bytes.empty()) {
+      in.pending.push_back(s.index);
+      continue;
+    }
+    std::string problem = PartialProblem(bytes, s, **plan);
+    if (problem.empty()) {
+      in.reused.push_back(s.index);
+    } else {
+      if (!o.quiet)
+        std::cerr << "fanfold: warning: discarding the saved partial of shard " << s.index << " (" << problem
+                  << "); recomputing it\n";
+      (*dir)->DiscardPartial(s.index);
+      in.pending.push_back(s.index);
+    }
   }
-  Result<std::vector<uint32_t>> order = DispatchOrder(list.shards);
-  if (!order.ok()) {
-    out.status = order.status();
-    return out;
-  }
-
-  Merger merger(&plan, static_cast<uint32_t>(list.shards.size()));
-  RunLoopResult loop;
-  RunLoopOptions loop_options;
-  Status s = RunShards(list, *order, **transport, merger, loop_options, &loop);
-  (*transport)->Shutdown();
-  if (!s.ok()) {
-    out.status = s;
-    return out;
-  }
-  for (const auto& [shard, message] : merger.late_failures())
-    loop.failures.push_back({shard, list.shards[shard].path, message});
-
-  Result<OutputTable> table = merger.Finish();
-  if (!table.ok()) {
-    out.status = table.status();
-    return out;
-  }
-  SortRows(&*table, plan.spec.emit.order);
-  if (plan.spec.emit.limit && table->rows.size() > *plan.spec.emit.limit) table->rows.resize(*plan.spec.emit.limit);
-  const std::string path = OutputPath(o, plan);
-  Status w = WriteOutput(path, RenderTable(*table, plan.spec.emit.format));
-  if (!w.ok()) {
-    out.status = w;
-    return out;
-  }
-
-  RunSummary summary;
-  summary.shards_total = list.shards.size();
-  summary.totals = merger.totals();
-  summary.samples = merger.malformed_samples();
-  summary.failures = loop.failures;
-  summary.interrupted = loop.interrupted;
-  summary.wall_seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
-  for (const auto& line : FormatRunSummary(summary, list)) Note(o, line);
-  for (size_t m = 0; m < plan.measures.size(); ++m) {
-    if (merger.skipped()[m] > 0)
-      Note(o, "measure \"" + plan.measures[m].name + "\" skipped " + GroupedInteger(merger.skipped()[m]) +
-                  " values that were missing, null or not usable");
-  }
-  if (!path.empty()) Note(o, "result written to " + path);
-  if (loop.interrupted) out.status = Status::Interrupted("run interrupted");
-  out.shards_failed = !loop.failures.empty();
-  return out;
+  if (!o.quiet)
+    std::cerr << "fanfold: resuming " << o.run_dir << ": " << in.reused.size() << " shards saved, "
+              << in.pending.size() << " to process\n";
+  return ExecuteRun(in, o);
 }
 
 }  // namespace fanfold

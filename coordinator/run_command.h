@@ -20,12 +20,22 @@ struct RunOptions {
   std::string job_path;
   int workers = 0;            // 0 = one per available core
   std::string output_path;    // "" = the job's emit.path, else stdout
-  std::string run_dir;        // "" = default location
+  std::string run_dir;        // "" = fanfold-runs/<job name> under the working directory
+  bool fresh = false;         // discard an earlier run in run_dir instead of refusing
+  uint32_t max_attempts = 3;  // tries per shard when its worker dies (1 + retries)
+  uint64_t shard_time_limit_ms = 0;  // 0 = no limit
   bool in_process = false;    // debugging: no worker processes
   bool quiet = false;         // only errors on stderr
 };
 
 CommandOutcome RunJob(const RunOptions& options);
+
+// `fanfold resume RUN_DIR`: options.run_dir names the run; job_path is
+// ignored (the run's manifest names the job).
+CommandOutcome ResumeRun(const RunOptions& options);
+
+// The run directory `run` uses for job_path when --run-dir is not given.
+std::string DefaultRunDir(const std::string& job_path);
 
 struct CheckOptions {
   std::string job_path;

@@ -1,16 +1,19 @@
 // RunLoop: the coordinator's dispatch loop — hands shards to idle workers in
-// dispatch order, collects what comes back, and feeds partials to the
-// Merger (which folds them in shard order). A shard whose worker reports an
-// error or dies is recorded as failed and the run goes on. Polls a stop
-// flag (set by the signal guard) between events. Single-threaded.
+// dispatch order, collects what comes back, retries shards whose worker died
+// (on a fresh worker, up to max_attempts), kills and retries a worker that
+// exceeds the per-shard time limit, and quarantines a shard that fails every
+// attempt. A shard whose worker reports an error (bad data) fails at once:
+// the same input would fail again. Every attempt is reported through
+// on_attempt; every partial goes through on_partial (which persists it)
+// before the Merger sees it. Single-threaded.
 #pragma once
 
-#include <atomic>
 #include <cstdint>
 #include <functional>
 #include <string>
 #include <vector>
 
+#include "common/partial_codec.h"
 #include "common/shard_list.h"
 #include "common/status.h"
 #include "coordinator/merger.h"
@@ -22,20 +25,42 @@ struct ShardFailure {
   uint32_t shard = 0;
   std::string path;
   std::string message;
+  uint32_t attempts = 0;
+};
+
+// One try at one shard, as the journal records it.
+struct AttemptRecord {
+  uint32_t shard = 0;
+  uint32_t attempt = 0;
+  int worker = -1;
+  uint64_t start_ns = 0;  // wall clock, ns since the Unix epoch
+  uint64_t end_ns = 0;
+  enum class Outcome { kDone, kFailed, kDied, kTimedOut } outcome = Outcome::kDone;
+  std::string message;          // failures: why
+  bool final = true;            // false iff the shard will be retried
+  PartialHeader header;         // kDone: counts and the worker's timings
 };
 
 struct RunLoopResult {
   std::vector<ShardFailure> failures;  // sorted by shard index
-  bool interrupted = false;            // stopped by *stop before the end
+  bool interrupted = false;            // stopped by should_stop before the end
+  uint64_t retries = 0;
 };
 
 struct RunLoopOptions {
-  const std::atomic<bool>* stop = nullptr;  // may be null
-  // Called after each shard finishes (done or failed), e.g. for progress.
-  std::function<void(const Shard&, bool ok)> on_shard_finished;
+  uint32_t max_attempts = 3;            // first try + 2 retries
+  uint64_t shard_time_limit_ms = 0;     // 0 = none
+  std::function<bool()> should_stop;    // polled between events; may be empty
+  std::function<void(const AttemptRecord&)> on_attempt;
+  // Persists a finished shard's partial; an error stops the run.
+  std::function<Status(uint32_t shard, const std::string& partial)> on_partial;
+  // Called between events (e.g. to commit the run directory); an error stops the run.
+  std::function<Status()> on_idle;
 };
 
-// Runs every shard in `order` through transport into merger.
+// Runs the shards listed in `order` (indices into list.shards) through
+// transport into merger. Returns an error only for a failure of the run
+// itself (transport or storage); shard failures are in result->failures.
 Status RunShards(const ShardList& list, const std::vector<uint32_t>& order, Transport& transport, Merger& merger,
                  const RunLoopOptions& options, RunLoopResult* result);
 

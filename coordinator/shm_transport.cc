@@ -40,6 +40,7 @@ struct ShmTransport::Slot {
   uint64_t seq = 0;    // our copy of the channel's assign_seq
   uint32_t shard = 0;  // index of the outstanding shard
   uint64_t token = 0;  // spawn_token of the current process
+  bool aborted = false;  // we killed it on purpose (Abort)
   std::string down;    // non-empty: no worker could be kept here; why
 };
 
@@ -98,6 +99,7 @@ Status ShmTransport::StartWorker(int w) {
   slot.child = std::move(child).value();
   slot.ready = false;
   slot.busy = false;
+  slot.aborted = false;
   slot.down.clear();
   return Status::Ok();
 }
@@ -250,7 +252,8 @@ bool ShmTransport::ScanExits(TransportEvent* event) {
         event->partial.clear();
         event->message = "worker " + std::to_string(w) + " (pid " + std::to_string(slot.child->pid()) +
                          ") " + slot.child->exit_info().Describe() + " while processing shard " +
-                         std::to_string(slot.shard) + DescribeOutput(*slot.child);
+                         std::to_string(slot.shard) +
+                         (slot.aborted ? " (stopped by the coordinator)" : "") + DescribeOutput(*slot.child);
       }
     }
     Restart(w);
@@ -285,6 +288,18 @@ Status ShmTransport::Wait(int timeout_ms, TransportEvent* event, bool* got) {
     if (left_ms <= 0) return Status::Ok();
     SemWaitFor(view_.done_sem(), static_cast<int>(std::min<int64_t>(left_ms, kWaitSliceMs)));
   }
+}
+
+Status ShmTransport::Abort(int w) {
+  if (shut_down_ || w < 0 || w >= worker_count()) {
+    return Status::InvalidArgument("Abort of unknown worker " + std::to_string(w));
+  }
+  Slot& slot = slots_[static_cast<size_t>(w)];
+  if (!slot.child || slot.child->exited()) return Status::Ok();
+  slot.child->Kill();
+  slot.aborted = true;
+  last_exit_scan_ns_ = 0;  // the next Wait looks for the exit at once
+  return Status::Ok();
 }
 
 void ShmTransport::Shutdown() {

@@ -45,6 +45,9 @@ class ShmTransport final : public Transport {
   // A worker that died is restarted inside Wait before the event is
   // returned. Returns an error only when no worker can be kept running.
   Status Wait(int timeout_ms, TransportEvent* event, bool* got) override;
+  // SIGKILLs worker w; the next Wait reports its shard as kDied (or kDone if
+  // it had just finished) and restarts the slot. Ok if w is already gone.
+  Status Abort(int w) override;
   void Shutdown() override;
 
   // For progress display and tests.

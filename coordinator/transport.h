@@ -39,6 +39,9 @@ class Transport {
   // timeout_ms passes (returns Ok with *got == false). A worker that died is
   // replaced by a fresh one before the next Assign to it.
   virtual Status Wait(int timeout_ms, TransportEvent* event, bool* got) = 0;
+  // Kills worker w now (e.g. past the shard time limit). Its shard is then
+  // reported by Wait as kDied and a fresh worker takes the slot.
+  virtual Status Abort(int w) = 0;
   // Stops all workers and releases every resource (idempotent).
   virtual void Shutdown() = 0;
 };

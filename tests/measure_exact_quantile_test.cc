@@ -150,7 +150,8 @@ TEST_CASE("quantile: limit") {
   auto big = NewMeasureState(QuantileConfig({0.5}, 6));
   for (int i = 0; i < 6; ++i) big->Add(&v);
   auto small = NewMeasureState(config);
-  ByteReader r(testing::EncodeOf(*big));
+  const std::string big_bytes = testing::EncodeOf(*big);
+  ByteReader r(big_bytes);
   CHECK(small->Decode(r).code() == Status::Code::kCorrupt);
 }
 

@@ -120,9 +120,13 @@ TEST_CASE("keys with JSON escapes") {
 // With duplicate keys the first occurrence wins, also for whole subtrees.
 TEST_CASE("duplicate keys: first wins") {
   FieldTable f = Fields({"/a", "/u/id", "/u/x"});
-  Outcome o = Run(f, R"({"a":1,"u":{"id":7},"a":2,"u":{"id":8,"x":9}})" "\n");
-  REQUIRE(o.rows.size() == 1);
+  Outcome o = Run(f, R"({"a":1,"u":{"id":7},"a":2,"u":{"id":8,"x":9}})" "\n"
+                    R"({"a":1,"a":2,"u":{"x":3}})" "\n"
+                    R"({"u":{"id":7},"u":{"id":8,"x":9},"a":0})" "\n");
+  REQUIRE(o.rows.size() == 3);
   CHECK(o.rows[0] == "1|7|-");
+  CHECK(o.rows[1] == "1|-|3");
+  CHECK(o.rows[2] == "0|7|-");
 }
 
 // A pointer to a value and to something inside it both get filled.

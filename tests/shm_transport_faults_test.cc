@@ -93,6 +93,29 @@ TEST_CASE("ShmTransport notices a worker killed from outside") {
   CHECK(ev.partial == TestPayload(6, 3));
 }
 
+// Intent: Abort (the coordinator's time limit) kills a busy worker; Wait reports the shard as
+// kDied, marked as stopped by the coordinator, and the slot serves again.
+TEST_CASE("ShmTransport Abort kills a busy worker and restarts the slot") {
+  auto t = ShmTransport::Create(TestWorkerOptions(1));
+  REQUIRE_MESSAGE(t.ok(), t.status().message());
+  REQUIRE((*t)->Assign(0, TestTask(12, "sleep:20000")).ok());
+  const int pid = (*t)->worker_pid(0);
+  const auto start = std::chrono::steady_clock::now();
+  REQUIRE((*t)->Abort(0).ok());
+  TransportEvent ev = WaitEvent(**t, 3000);
+  CHECK(MillisSince(start) < 1000);
+  CHECK(ev.kind == TransportEvent::Kind::kDied);
+  CHECK(ev.shard == 12);
+  CHECK(ev.message.find("killed by signal 9 (SIGKILL) while processing shard 12 (stopped by the "
+                        "coordinator)") != std::string::npos);
+  CHECK((*t)->worker_pid(0) != pid);
+  REQUIRE((*t)->Assign(0, TestTask(13, "echo:4")).ok());
+  ev = WaitEvent(**t);
+  CHECK(ev.kind == TransportEvent::Kind::kDone);
+  CHECK(ev.partial == TestPayload(13, 4));
+  CHECK_FALSE((*t)->Abort(5).ok());
+}
+
 // Intent: a worker that exits mid-shard is reported with its exit status.
 TEST_CASE("ShmTransport reports a worker's exit status") {
   auto t = ShmTransport::Create(TestWorkerOptions(1));
@@ -161,9 +184,11 @@ TEST_CASE("ShmTransport::Create removes stale segments of dead coordinators only
   bip::shared_memory_object::remove(live.c_str());
 }
 
-// Intent: when the coordinator is SIGKILLed (no cleanup at all), its workers exit on their own
-// within ~2 s, and the segment it left is removed by the next start.
-TEST_CASE("workers exit on their own when the coordinator is killed") {
+// Forks a coordinator that starts two workers (optionally turning their
+// parent-death signal off first), then SIGKILLs itself. Waits for the
+// orphaned workers (re-parented to us) and returns how they ended and how
+// long after the coordinator's death; *segment gets the segment it left.
+std::vector<ExitInfo> OrphanWorkers(bool without_death_signal, double* ms, std::string* segment) {
   REQUIRE(SetChildSubreaper(true).ok());  // orphaned workers come to us, so we can reap them
   int fds[2];
   REQUIRE(::pipe(fds) == 0);
@@ -173,6 +198,14 @@ TEST_CASE("workers exit on their own when the coordinator is killed") {
     ::close(fds[0]);
     auto t = ShmTransport::Create(TestWorkerOptions(2));
     if (!t.ok()) ::_exit(1);
+    for (int w = 0; w < 2 && without_death_signal; ++w) {
+      TransportEvent ev;
+      bool got = false;
+      if (!(*t)->Assign(w, TestTask(0, "nodeathsignal:")).ok() || !(*t)->Wait(5000, &ev, &got).ok() ||
+          !got || ev.partial != "ok") {
+        ::_exit(1);
+      }
+    }
     std::string report = (*t)->segment_name() + " " + std::to_string((*t)->worker_pid(0)) + " " +
                          std::to_string((*t)->worker_pid(1)) + "\n";
     if (::write(fds[1], report.data(), report.size()) != static_cast<ssize_t>(report.size())) ::_exit(1);
@@ -189,28 +222,56 @@ TEST_CASE("workers exit on their own when the coordinator is killed") {
   char name[128] = {};
   int pids[2] = {0, 0};
   REQUIRE(std::sscanf(buf, "%127s %d %d", name, &pids[0], &pids[1]) == 3);
+  *segment = name;
+  std::vector<ExitInfo> ends;
   const auto start = std::chrono::steady_clock::now();
-  int reaped = 0;
-  while (reaped < 2 && MillisSince(start) < 2500) {
+  while (ends.size() < 2 && MillisSince(start) < 3000) {
     for (int& pid : pids) {
       ExitInfo info;
       Result<bool> r = pid > 0 ? TryReap(pid, &info) : Result<bool>(false);
-      if (r.ok() && *r) pid = 0, ++reaped;
+      if (r.ok() && *r) {
+        pid = 0;
+        ends.push_back(info);
+      }
     }
-    std::this_thread::sleep_for(std::chrono::milliseconds(5));
+    std::this_thread::sleep_for(std::chrono::milliseconds(2));
   }
-  const double ms = MillisSince(start);
-  MESSAGE("orphaned workers gone after ", ms, " ms");
-  CHECK(reaped == 2);
-  CHECK(ms < 2000);
+  *ms = MillisSince(start);
   for (int pid : pids) {
-    if (pid > 0) (void)KillProcess(pid), (void)Reap(pid);  // only if the check above failed
+    if (pid > 0) (void)KillProcess(pid), (void)Reap(pid);  // only if the caller's checks fail
   }
   REQUIRE(SetChildSubreaper(false).ok());
+  return ends;
+}
+
+// Intent: when the coordinator is SIGKILLed (no cleanup at all), its workers die of the
+// parent-death signal at once, and the segment it left is removed by the next start.
+TEST_CASE("workers die with a killed coordinator; its segment goes at the next start") {
+  double ms = 0;
+  std::string name;
+  std::vector<ExitInfo> ends = OrphanWorkers(false, &ms, &name);
+  MESSAGE("orphaned workers gone after ", ms, " ms");
+  REQUIRE(ends.size() == 2);
+  CHECK(ms < 2000);
+  for (const ExitInfo& e : ends) CHECK(e.Describe() == "was killed by signal 9 (SIGKILL)");
   CHECK(SegmentExists(name));  // the killed coordinator could not remove it
   std::vector<std::string> removed;
   ShmSegment::RemoveStaleSegments(&removed);
-  CHECK(std::find(removed.begin(), removed.end(), std::string(name)) != removed.end());
+  CHECK(std::find(removed.begin(), removed.end(), name) != removed.end());
+  CHECK_FALSE(SegmentExists(name));
+}
+
+// Intent: without the parent-death signal, the heartbeat check (parent pid re-read every
+// 200 ms) still ends orphaned workers within ~2 s, with the "coordinator gone" exit status 3.
+TEST_CASE("orphaned workers notice the dead coordinator by heartbeat alone") {
+  double ms = 0;
+  std::string name;
+  std::vector<ExitInfo> ends = OrphanWorkers(true, &ms, &name);
+  MESSAGE("orphaned workers (no death signal) gone after ", ms, " ms");
+  REQUIRE(ends.size() == 2);
+  CHECK(ms < 2000);
+  for (const ExitInfo& e : ends) CHECK(e.Describe() == "exited with status 3");
+  ShmSegment::RemoveStaleSegments();
   CHECK_FALSE(SegmentExists(name));
 }
 

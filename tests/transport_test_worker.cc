@@ -9,7 +9,10 @@
 //   exit:CODE       a line on stderr, then _exit(CODE)
 //   sleep:MS        sleeps MS milliseconds, then 8 payload bytes
 //   progress:N:MS   reports N records, sleeps MS, then 8 payload bytes
+//   nodeathsignal:  turns the parent-death signal off, so only the heartbeat
+//                   check can notice a dead coordinator
 // Extra argument "--die-at-start" makes it fail before serving anything.
+#include <sys/prctl.h>
 #include <unistd.h>
 
 #include <csignal>
@@ -63,6 +66,10 @@ Result<std::string> Process(const ShardTask& task, fanfold::ProgressFn progress)
     progress(Number(arg.substr(0, second)), 10 * Number(arg.substr(0, second)));
     ::usleep(static_cast<useconds_t>(Number(arg.substr(second + 1)) * 1000));
     return fanfold::TestPayload(task.index, 8);
+  }
+  if (verb == "nodeathsignal") {
+    if (::prctl(PR_SET_PDEATHSIG, 0) != 0) return Status::Internal("prctl failed");
+    return std::string("ok");
   }
   return Status::InvalidArgument("test worker: unknown task '" + task.path + "'");
 }

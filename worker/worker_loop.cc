@@ -137,7 +137,7 @@ Status RunWorkerLoop(const std::string& segment, int slot, const ProcessFn& proc
   // spawner already asked for this before exec; asking again is harmless and
   // covers workers started some other way.
   FF_RETURN_IF_ERROR(KillMeWhenParentDies());
-  IgnoreInterruptSignal();
+  IgnoreWorkerSignals();
 
   Result<std::unique_ptr<ShmSegment>> seg = ShmSegment::Open(segment);
   if (!seg.ok()) return seg.status();

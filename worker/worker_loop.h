@@ -47,7 +47,8 @@ Result<WorkerLaunch> ParseWorkerLaunch(int argc, const char* const* argv);
 // dead (returns Interrupted). Setup errors (bad segment, slot, version) are
 // returned before anything is served. An error from `process` is reported to
 // the coordinator as that shard's failure; the loop goes on.
-// Also sets this process up as a worker: SIGKILL on parent death, SIGINT ignored.
+// Also sets this process up as a worker: SIGKILL on parent death, SIGINT and
+// SIGPIPE ignored.
 Status RunWorkerLoop(const std::string& segment, int slot, const ProcessFn& process);
 
 }  // namespace fanfold

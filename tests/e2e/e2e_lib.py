@@ -101,7 +101,13 @@ class Env:
         return done.returncode, done.stdout.decode("utf-8", "replace"), done.stderr.decode("utf-8", "replace")
 
     def fanfold_run(self, *argv, timeout=300):
-        return self.run([self.fanfold] + [str(a) for a in argv], timeout=timeout)
+        argv = [str(a) for a in argv]
+        # Each `run` gets its own run directory unless the test names one, so
+        # that running a job twice is never refused as "already run".
+        if argv and argv[0] == "run" and "--run-dir" not in argv:
+            self._runs = getattr(self, "_runs", 0) + 1
+            argv += ["--run-dir", os.path.join(self.tmp, "runs", "r%d" % self._runs)]
+        return self.run([self.fanfold] + argv, timeout=timeout)
 
     def generate(self, out_dir, *flags):
         """Runs fanfold-gen; returns its manifest (dict). Exits the test on failure."""

@@ -11,6 +11,7 @@ import os
 import subprocess
 import sys
 
+sys.dont_write_bytecode = True  # keep the source tree clean
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 import e2e_lib as lib  # noqa: E402
 import reference as ref  # noqa: E402

@@ -1,0 +1,116 @@
+// Writes the seed corpus of fuzz_partial_decode into the directory given as
+// argv[1]: a valid encoded partial state (mode 0), its stored zstd body
+// (mode 1), its decompressed body (mode 2), and the group table and each
+// measure state's encoding on their own (mode 3). The states are filled with
+// a deterministic mix of values that reaches every encoding form (sparse and
+// dense HyperLogLog, exact and bounded top, negative/zero/positive DDSketch
+// buckets). Usage: fuzz_seed_partial DIR
+#include <cstdio>
+#include <fstream>
+#include <string>
+#include <vector>
+
+#include "common/byte_io.h"
+#include "common/group_key.h"
+#include "common/partial_codec.h"
+#include "tests/fuzz/fuzz_measure_configs.h"
+
+using namespace fanfold;
+
+namespace {
+
+bool Write(const std::string& dir, const std::string& name, char mode, std::string_view bytes) {
+  std::ofstream f(dir + "/" + name, std::ios::binary);
+  f.put(mode);
+  f.write(bytes.data(), static_cast<std::streamsize>(bytes.size()));
+  return static_cast<bool>(f);
+}
+
+}  // namespace
+
+int main(int argc, char** argv) {
+  if (argc != 2) {
+    std::fprintf(stderr, "usage: fuzz_seed_partial DIR\n");
+    return 2;
+  }
+  const std::string dir = argv[1];
+  const std::vector<MeasureConfig> configs = FuzzMeasureConfigs();
+  PartialState p(&configs);
+  p.header.fingerprint = 0xF00D;
+  p.header.shard_index = 3;
+  p.header.records = 2100;
+  p.header.kept = 2050;
+  p.header.malformed = 1;
+  p.header.path_hash = PathHash("/data/shard-0003.ndjson");
+  p.samples.push_back({17, "unclosed string"});
+
+  const char* kWords[] = {"amber", "birch", "cedar", "dune", "elm", "fern", "gale", "heath", "iris", "juniper"};
+  // Group "small": few values, every state in its compact form.
+  // Group "big": enough values for dense HyperLogLog and bounded top.
+  for (int g = 0; g < 2; ++g) {
+    std::string key;
+    AppendKeyValue(Value::String(g == 0 ? "small" : "big"), &key);
+    AppendKeyValue(Value::Number(g), &key);
+    MeasureState* const* states = p.groups.FindOrAdd(key);
+    const int n = g == 0 ? 12 : 2000;
+    for (int i = 0; i < n; ++i) {
+      std::string text = std::string(kWords[i % 10]) + "-" + std::to_string(i % (g == 0 ? 5 : 997));
+      Value num = Value::Number(i % 7 == 0 ? 0.0 : (i % 3 == 0 ? -1.0 : 1.0) * (0.5 + i * 1.25));
+      Value str = Value::String(text);
+      for (size_t j = 0; j < configs.size(); ++j) {
+        const MeasureConfig& c = configs[j];
+        Value args[2] = {num, Value::Number(1772323200.0 + i)};
+        if (c.kind == MeasureKind::kDistinct || c.kind == MeasureKind::kApproxDistinct ||
+            c.kind == MeasureKind::kTop || c.kind == MeasureKind::kFirst || c.kind == MeasureKind::kLast)
+          args[0] = str;
+        if (c.kind == MeasureKind::kCountPresent && i % 4 == 0) args[0] = Value::Null();
+        // Keep the bounded exact states within their limits.
+        if ((c.kind == MeasureKind::kQuantile || c.kind == MeasureKind::kDistinct) && i >= 40) continue;
+        if (!states[j]->Add(args)) {
+          std::fprintf(stderr, "measure %zu went past its bound\n", j);
+          return 1;
+        }
+      }
+    }
+  }
+
+  std::string encoded;
+  EncodePartial(p, &encoded);
+  bool ok = Write(dir, "partial_valid", 0, encoded);
+  ok = ok && Write(dir, "partial_stored_body", 1, std::string_view(encoded).substr(kPartialHeaderSize));
+
+  std::string body;
+  ByteWriter bw(&body);
+  bw.Varint(p.samples.size());
+  for (const MalformedSample& s : p.samples) {
+    bw.Varint(s.line);
+    bw.Str(s.reason);
+  }
+  p.groups.Encode(bw);
+  ok = ok && Write(dir, "partial_body", 2, body);
+
+  std::string table;
+  ByteWriter tw(&table);
+  p.groups.Encode(tw);
+  ok = ok && Write(dir, "group_table", 3, table);
+
+  for (size_t g = 0; g < p.groups.group_count(); ++g) {
+    for (size_t j = 0; j < configs.size(); ++j) {
+      std::string state;
+      ByteWriter sw(&state);
+      p.groups.states(g)[j]->Encode(sw);
+      ok = ok && Write(dir, "state_" + std::to_string(g) + "_" + std::to_string(j), 3, state);
+    }
+  }
+  if (!ok) {
+    std::fprintf(stderr, "cannot write seeds into %s\n", dir.c_str());
+    return 1;
+  }
+  PartialState check(&configs);
+  Status s = DecodePartial(encoded, &check);
+  if (!s.ok()) {
+    std::fprintf(stderr, "seed does not decode: %s\n", s.message().c_str());
+    return 1;
+  }
+  return 0;
+}
