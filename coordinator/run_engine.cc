@@ -39,6 +39,7 @@ const char* OutcomeName(AttemptRecord::Outcome o) {
     case AttemptRecord::Outcome::kFailed: return "failed";
     case AttemptRecord::Outcome::kDied: return "died";
     case AttemptRecord::Outcome::kTimedOut: return "timed-out";
+    case AttemptRecord::Outcome::kRejected: return "rejected";
   }
   return "?";
 }

@@ -91,7 +91,7 @@ Status RunShards(const ShardList& list, const std::vector<uint32_t>& order, Tran
         if (rejected.ok() && options.on_partial) FF_RETURN_IF_ERROR(options.on_partial(job.shard, ev.partial));
         if (rejected.ok()) rejected = merger.Add(job.shard, std::move(ev.partial));
         if (!rejected.ok()) {
-          rec.outcome = AttemptRecord::Outcome::kFailed;
+          rec.outcome = AttemptRecord::Outcome::kRejected;
           rec.message = "its partial state was rejected: " + rejected.message();
         }
         break;
@@ -107,9 +107,8 @@ Status RunShards(const ShardList& list, const std::vector<uint32_t>& order, Tran
                                     : ev.message;
         break;
     }
-    const bool retry = (rec.outcome == AttemptRecord::Outcome::kDied ||
-                        rec.outcome == AttemptRecord::Outcome::kTimedOut) &&
-                       job.attempt < options.max_attempts;
+    const bool retry = rec.outcome != AttemptRecord::Outcome::kDone &&
+                       rec.outcome != AttemptRecord::Outcome::kFailed && job.attempt < options.max_attempts;
     rec.final = !retry;
     if (options.on_attempt) options.on_attempt(rec);
     if (retry) {

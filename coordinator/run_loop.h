@@ -3,7 +3,8 @@
 // (on a fresh worker, up to max_attempts), kills and retries a worker that
 // exceeds the per-shard time limit, and quarantines a shard that fails every
 // attempt. A shard whose worker reports an error (bad data) fails at once:
-// the same input would fail again. Every attempt is reported through
+// the same input would fail again. A partial that arrives corrupt (checksum)
+// is retried like a crash. Every attempt is reported through
 // on_attempt; every partial goes through on_partial (which persists it)
 // before the Merger sees it. Single-threaded.
 #pragma once
@@ -35,7 +36,7 @@ struct AttemptRecord {
   int worker = -1;
   uint64_t start_ns = 0;  // wall clock, ns since the Unix epoch
   uint64_t end_ns = 0;
-  enum class Outcome { kDone, kFailed, kDied, kTimedOut } outcome = Outcome::kDone;
+  enum class Outcome { kDone, kFailed, kDied, kTimedOut, kRejected } outcome = Outcome::kDone;
   std::string message;          // failures: why
   bool final = true;            // false iff the shard will be retried
   PartialHeader header;         // kDone: counts and the worker's timings
