@@ -58,13 +58,26 @@ size_t Width(const std::string& s) {
 
 bool IsNumeric(const Cell& c) { return c.kind == Cell::Kind::kInt || c.kind == Cell::Kind::kFloat; }
 
+// For people reading a table, a list of {"value", "count"} records (top-k)
+// reads better as "a (12), b (7)" than as JSON; other cells as CellText.
+std::string DisplayText(const Cell& c) {
+  if (c.kind != Cell::Kind::kList) return CellText(c);
+  std::string out;
+  for (const Cell& item : c.items) {
+    if (item.kind != Cell::Kind::kRecord || item.items.size() != 2) return CellText(c);
+    if (!out.empty()) out += ", ";
+    out += CellText(item.items[0]) + " (" + CellText(item.items[1]) + ")";
+  }
+  return out;
+}
+
 std::string RenderAligned(const OutputTable& t) {
   std::vector<std::vector<std::string>> text(t.rows.size());
   std::vector<size_t> width(t.columns.size());
   for (size_t c = 0; c < t.columns.size(); ++c) width[c] = Width(t.columns[c]);
   for (size_t r = 0; r < t.rows.size(); ++r) {
     for (size_t c = 0; c < t.rows[r].size(); ++c) {
-      std::string s = CellText(t.rows[r][c]);
+      std::string s = DisplayText(t.rows[r][c]);
       for (char& ch : s)
         if (ch == '\n' || ch == '\t' || ch == '\r') ch = ' ';
       width[c] = std::max(width[c], Width(s));
