@@ -6,6 +6,7 @@
 #pragma once
 
 #include <charconv>
+#include <cmath>
 #include <cstdint>
 #include <string_view>
 
@@ -38,7 +39,8 @@ struct Value {
   bool is_present() const { return kind != ValueKind::kMissing && kind != ValueKind::kNull; }
 
   // Numeric view used by arithmetic and numeric measures: numbers as they are,
-  // strings that parse completely as a decimal number (CSV cells, "12.5").
+  // strings that parse completely as a finite decimal number (CSV cells,
+  // "12.5"; not "nan" or "inf").
   // Returns true iff *out was set.
   bool AsNumber(double* out) const {
     if (kind == ValueKind::kNumber) {
@@ -50,7 +52,8 @@ struct Value {
     const char* e = b + str.size();
     if (*b == '+') ++b;  // from_chars rejects a leading '+'
     auto [p, ec] = std::from_chars(b, e, *out);
-    return ec == std::errc() && p == e;
+    // from_chars also reads "nan" and "inf": text like that is not a number here.
+    return ec == std::errc() && p == e && std::isfinite(*out);
   }
 
   // Truthiness used by filters: true, non-zero numbers and non-empty strings.
