@@ -18,10 +18,22 @@ namespace fanfold {
 // (a read call, moving the tail) vanish next to parsing.
 inline constexpr size_t kDefaultChunkBytes = 4 << 20;
 
+// How the readers buffer their input (tests shrink both to hit edge cases).
+struct ChunkOptions {
+  // Implicit from a chunk size, so callers may pass just that.
+  ChunkOptions(size_t chunk = kDefaultChunkBytes, size_t max_record = size_t{256} << 20)  // NOLINT
+      : chunk_bytes(chunk), max_record_bytes(max_record) {}
+
+  // Size of the reused read buffer. REQUIRES: > 0.
+  size_t chunk_bytes;
+  // Longest record the buffer grows to hold; a longer one (a file without
+  // line breaks, an unclosed CSV quote) is an error, not unbounded memory.
+  size_t max_record_bytes;
+};
+
 class ChunkBuffer {
  public:
-  // REQUIRES: chunk_bytes > 0.
-  ChunkBuffer(size_t chunk_bytes, size_t padding);
+  ChunkBuffer(const ChunkOptions& options, size_t padding);
 
   // Forgets all data and the end-of-source flag (the allocation is kept).
   void Reset();
@@ -38,10 +50,13 @@ class ChunkBuffer {
 
   // Moves the unconsumed bytes to the front (doubling the buffer if they
   // fill it), then reads from src until the buffer is full or src ends.
-  // Returns the bytes added, or the source's error (bytes read before it
-  // stay in the buffer).
+  // Returns the bytes added, or the source's error (when bytes arrived
+  // before it, they are returned first and the error by the next Fill), or
+  // Corrupt iff the unconsumed bytes already fill max_record_bytes.
   Result<size_t> Fill(ByteSource& src);
 
+  // True iff the last Fill refused to grow past max_record_bytes.
+  bool over_limit() const { return over_limit_; }
   // True iff src has reported its end: data() then holds all that is left.
   bool eof() const { return eof_; }
   // Decompressed bytes read from the source since Reset().
@@ -53,9 +68,12 @@ class ChunkBuffer {
   std::unique_ptr<char[]> buf_;
   size_t cap_;      // data capacity, not counting padding_
   size_t padding_;
+  size_t max_bytes_;
   size_t begin_ = 0;
   size_t end_ = 0;
   bool eof_ = false;
+  bool over_limit_ = false;
+  Status pending_;  // a source error held back until the next Fill
   uint64_t total_read_ = 0;
 };
 

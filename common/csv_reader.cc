@@ -44,8 +44,8 @@ constexpr size_t kMaxListedColumns = 40;
 
 }  // namespace
 
-CsvReader::CsvReader(const FieldTable& fields, char separator, size_t chunk_bytes)
-    : sep_(separator), format_(separator == '\t' ? "TSV" : "CSV"), chunk_(chunk_bytes, kScanPadding),
+CsvReader::CsvReader(const FieldTable& fields, char separator, const ChunkOptions& options)
+    : sep_(separator), format_(separator == '\t' ? "TSV" : "CSV"), chunk_(options, kScanPadding),
       slots_(fields.size()) {
   for (size_t s = 0; s < fields.size(); ++s) {
     if (fields.slot(s).derived) continue;
@@ -223,7 +223,10 @@ Status CsvReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
   for (;;) {
     Result<size_t> filled = chunk_.Fill(src);
     st.raw_bytes = chunk_.total_read();
-    if (!filled.ok()) return filled.status();
+    if (!filled.ok()) {
+      if (!chunk_.over_limit()) return filled.status();
+      return filled.status().WithContext("line " + std::to_string(line));  // the record too long
+    }
     const bool last = chunk_.eof();
     if (at_start) {
       if (chunk_.size() < 3 && !last) continue;

@@ -22,13 +22,13 @@ namespace fanfold {
 
 class CsvReader {
  public:
-  // separator: ',' for CSV, '\t' for TSV. chunk_bytes is the size of the
-  // reused read buffer (tests make it tiny to cut records across chunks).
-  CsvReader(const FieldTable& fields, char separator, size_t chunk_bytes = kDefaultChunkBytes);
+  // separator: ',' for CSV, '\t' for TSV.
+  CsvReader(const FieldTable& fields, char separator, const ChunkOptions& options = {});
 
   // Reads every record of src as ReadRecords does (common/record_reader.h).
   // Returns InvalidArgument iff a raw field is not a header column, Corrupt
-  // iff the header row itself is malformed; empty input is zero records.
+  // iff the header row itself is malformed or a record is longer than
+  // options.max_record_bytes; empty input is zero records.
   // Empty lines are skipped; a lone '\r' inside a field is data; a stray
   // quote inside an unquoted field is data. *stats (may be null) is
   // overwritten.

@@ -127,7 +127,8 @@ bool DDSketchStore::Decode(ByteReader& r) {
     return true;
   }
   const int64_t lo = UnZigZag(r.Varint());
-  if (!r.ok() || lo < kMinIndex || lo + static_cast<int64_t>(span) - 1 > kMaxIndex) return false;
+  // lo comes from the input: compare it with a bound rather than add to it.
+  if (!r.ok() || lo < kMinIndex || lo > kMaxIndex - static_cast<int64_t>(span) + 1) return false;
   std::vector<uint64_t> counts(span);
   uint64_t total = 0;
   for (uint64_t i = 0; i < span; ++i) {

@@ -57,7 +57,7 @@ Value ToValue(dom::element el) {
 // On-Demand visiting every value 0.21 s. One DOM parse per line also keeps
 // the exact per-line malformed count that document streams lose.
 struct NdjsonReader::Impl {
-  Impl(size_t chunk_bytes, size_t nslots) : chunk(chunk_bytes, simdjson::SIMDJSON_PADDING), slots(nslots) {}
+  Impl(const ChunkOptions& options, size_t nslots) : chunk(options, simdjson::SIMDJSON_PADDING), slots(nslots) {}
 
   // Walks the value at trie node ni, filling slots where pointers end.
   void Walk(dom::element el, uint32_t ni) {
@@ -136,8 +136,8 @@ struct NdjsonReader::Impl {
 NdjsonReader::NdjsonReader(std::unique_ptr<Impl> impl) : impl_(std::move(impl)) {}
 NdjsonReader::~NdjsonReader() = default;
 
-Result<std::unique_ptr<NdjsonReader>> NdjsonReader::Create(const FieldTable& fields, size_t chunk_bytes) {
-  auto impl = std::make_unique<Impl>(chunk_bytes, fields.size());
+Result<std::unique_ptr<NdjsonReader>> NdjsonReader::Create(const FieldTable& fields, const ChunkOptions& options) {
+  auto impl = std::make_unique<Impl>(options, fields.size());
   impl->nodes.emplace_back();
   for (size_t s = 0; s < fields.size(); ++s) {
     const FieldTable::Slot& slot = fields.slot(s);
@@ -184,7 +184,10 @@ Status NdjsonReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
   for (;;) {
     Result<size_t> filled = im.chunk.Fill(src);
     st.raw_bytes = im.chunk.total_read();
-    if (!filled.ok()) return filled.status();
+    if (!filled.ok()) {
+      if (!im.chunk.over_limit()) return filled.status();
+      return filled.status().WithContext("line " + std::to_string(line + 1));  // the record too long
+    }
     const char* p = im.chunk.data();
     const char* end = p + im.chunk.size();
     const bool last = im.chunk.eof();

@@ -1,8 +1,9 @@
 // NdjsonReader: reads NDJSON (one JSON object per line) from a ByteSource and
 // fills the raw slots of a FieldTable, whose raw fields are JSON Pointers
 // (RFC 6901), then hands each well-formed record to a RecordSink. Pointers
-// are compiled once into a token trie; each record is parsed once and walked
-// only where a pointer leads. One reader per thread; reusable across sources.
+// are compiled once into a token trie; each line is parsed once (simdjson
+// DOM, every value validated) and walked only where a pointer leads. One
+// reader per thread; reusable across sources (build it once per worker).
 #pragma once
 
 #include <cstddef>
@@ -20,9 +21,8 @@ class NdjsonReader {
  public:
   // Builds a reader for `fields`. Returns InvalidArgument iff a raw field is
   // not a JSON Pointer or is "" (the whole document, not supported).
-  // chunk_bytes is the size of the reused read buffer (tests make it tiny).
   static Result<std::unique_ptr<NdjsonReader>> Create(const FieldTable& fields,
-                                                      size_t chunk_bytes = kDefaultChunkBytes);
+                                                      const ChunkOptions& options = {});
   ~NdjsonReader();
   NdjsonReader(const NdjsonReader&) = delete;
   NdjsonReader& operator=(const NdjsonReader&) = delete;
@@ -31,6 +31,7 @@ class NdjsonReader {
   // A record is well formed iff its line is one complete JSON object; empty
   // and whitespace-only lines are skipped without counting. With duplicate
   // keys the first occurrence wins. *stats (may be null) is overwritten.
+  // A line longer than options.max_record_bytes is an error (Corrupt).
   Status Read(ByteSource& src, RecordSink& sink, ReadStats* stats);
 
  private:

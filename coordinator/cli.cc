@@ -1,9 +1,15 @@
 #include "coordinator/cli.h"
 
+#include <algorithm>
 #include <charconv>
 #include <iostream>
+#include <thread>
 
 #include <CLI/CLI.hpp>
+
+#include "coordinator/console_log.h"
+#include "coordinator/report_command.h"
+#include "coordinator/scale_command.h"
 
 namespace fanfold {
 
@@ -41,6 +47,21 @@ CliOutcome ParseAndRun(int argc, char** argv) {
   run_cmd->add_option("--shard-time-limit", limit_text, "kill and retry a shard's worker after this many seconds");
   run_cmd->add_flag("--in-process", run.in_process, "debugging: process shards inside the coordinator");
   run_cmd->add_flag("-q,--quiet", run.quiet, "print nothing on stderr but errors");
+  // Progress and logging flags, shared by run and resume.
+  struct StderrFlags {
+    std::string progress, every, log_level;
+  };
+  auto add_stderr_flags = [](CLI::App* cmd, StderrFlags* f, bool progress) {
+    if (progress) {
+      cmd->add_option("--progress", f->progress,
+                      "auto (default: a live line on a terminal, else plain), live, plain (a timestamped line "
+                      "every few seconds) or off");
+      cmd->add_option("--progress-every", f->every, "plain progress: seconds between lines (default 5)");
+    }
+    cmd->add_option("--log-level", f->log_level, std::string("messages on stderr: ") + LogLevelNames() + " (default info)");
+  };
+  StderrFlags run_flags, resume_flags, scale_flags, report_flags;
+  add_stderr_flags(run_cmd, &run_flags, true);
   run_cmd->footer("Example:\n  fanfold run jobs/district_hourly.json -j 2 -o hourly.csv");
 
   RunOptions resume;
@@ -50,12 +71,35 @@ CliOutcome ParseAndRun(int argc, char** argv) {
   resume_cmd->add_option("-j,--workers", resume_workers, "worker processes (default: one per core)");
   resume_cmd->add_option("-o,--output", resume.output_path, "write the result here instead of the job's emit.path");
   resume_cmd->add_flag("-q,--quiet", resume.quiet, "print nothing on stderr but errors");
+  add_stderr_flags(resume_cmd, &resume_flags, true);
   resume_cmd->footer("Example:\n  fanfold resume fanfold-runs/district_hourly");
 
   CheckOptions check;
   CLI::App* check_cmd = app.add_subcommand("check", "Validate a job; print its plan and shards; run nothing.");
   check_cmd->add_option("JOB", check.job_path, "the job file (JSON)")->required();
   check_cmd->footer("Example:\n  fanfold check jobs/district_hourly.json");
+
+  ScaleOptions scale;
+  std::string scale_workers, scale_repeat;
+  CLI::App* scale_cmd = app.add_subcommand("scale", "Time a job at several worker counts: speedup, efficiency, serial fraction.");
+  scale_cmd->add_option("JOB", scale.job_path, "the job file (JSON)")->required();
+  scale_cmd->add_option("--workers", scale_workers, "comma-separated worker counts (default: 1, 2, 4, ... up to the cores)");
+  scale_cmd->add_option("--repeat", scale_repeat, "timed runs per worker count; the median is reported (default 1)");
+  scale_cmd->add_option("--json", scale.json_path, "also write the measurements as JSON (for fanfold report --scale)");
+  scale_cmd->add_option("--html", scale.html_path, "also write an HTML page with the scaling chart");
+  scale_cmd->add_flag("-q,--quiet", scale.quiet, "print nothing on stderr but errors");
+  add_stderr_flags(scale_cmd, &scale_flags, false);
+  scale_cmd->footer("Example:\n  fanfold scale jobs/district_hourly.json --workers 1,2 --repeat 3 --html scale.html");
+
+  ReportOptions report;
+  CLI::App* report_cmd = app.add_subcommand("report", "Write a run's HTML report (timeline, shard times, bad records) and summarize it.");
+  report_cmd->add_option("RUN_DIR", report.run_dir, "the run directory that `fanfold run` printed")->required();
+  report_cmd->add_option("-o,--output", report.html_path, "the HTML file to write (default RUN_DIR/report.html)");
+  report_cmd->add_option("--timings-json", report.timings_json_path, "also write every shard attempt's timings as a JSON array");
+  report_cmd->add_option("--scale", report.scale_json_path, "add the scaling chart of a `fanfold scale --json` file");
+  report_cmd->add_flag("-q,--quiet", report.quiet, "no summary on stdout");
+  add_stderr_flags(report_cmd, &report_flags, false);
+  report_cmd->footer("Example:\n  fanfold report fanfold-runs/district_hourly --timings-json timings.json");
 
   if (argc >= 2 && argv[1][0] != '-') {
     const std::string name = argv[1];
@@ -87,10 +131,29 @@ CliOutcome ParseAndRun(int argc, char** argv) {
     return result;
   }
 
+  // Applies --log-level (and --quiet); then --progress and --progress-every into *o.
+  auto apply_stderr_flags = [&](const StderrFlags& f, bool quiet, RunOptions* o) -> std::string {
+    LogLevel level = quiet ? LogLevel::kError : LogLevel::kInfo;
+    if (!f.log_level.empty() && !ParseLogLevel(f.log_level, &level))
+      return std::string("--log-level: expected one of ") + LogLevelNames() + ", found '" + f.log_level + "'";
+    SetLogLevel(quiet && level < LogLevel::kError ? LogLevel::kError : level);
+    if (!o) return "";
+    if (!f.progress.empty() && !ParseProgressMode(f.progress, &o->progress))
+      return "--progress: expected auto, live, plain or off, found '" + f.progress + "'";
+    if (!f.every.empty()) {
+      double secs = 0;
+      auto [p, ec] = std::from_chars(f.every.data(), f.every.data() + f.every.size(), secs);
+      if (ec != std::errc() || p != f.every.data() + f.every.size() || !(secs >= 0.05) || secs > 86400)
+        return "--progress-every: expected a number of seconds from 0.05 to 86400, found '" + f.every + "'";
+      o->progress_every_s = secs;
+    }
+    return "";
+  };
   auto workers_ok = [&](const std::string& text, RunOptions* o) {
     return text.empty() || ParseWorkerCount(text, &o->workers);
   };
   if (run_cmd->parsed()) {
+    if (std::string e = apply_stderr_flags(run_flags, run.quiet, &run); !e.empty()) return usage(e);
     if (!workers_ok(workers_text, &run))
       return usage("-j/--workers: expected a whole number from 1 to 1024, found '" + workers_text + "'");
     if (!attempts_text.empty()) {
@@ -108,11 +171,26 @@ CliOutcome ParseAndRun(int argc, char** argv) {
     }
     result.outcome = RunJob(run);
   } else if (resume_cmd->parsed()) {
+    if (std::string e = apply_stderr_flags(resume_flags, resume.quiet, &resume); !e.empty()) return usage(e);
     if (!workers_ok(resume_workers, &resume))
       return usage("-j/--workers: expected a whole number from 1 to 1024, found '" + resume_workers + "'");
     result.outcome = ResumeRun(resume);
   } else if (check_cmd->parsed()) {
     result.outcome = CheckJob(check);
+  } else if (scale_cmd->parsed()) {
+    if (std::string e = apply_stderr_flags(scale_flags, scale.quiet, nullptr); !e.empty()) return usage(e);
+    if (scale_workers.empty()) {
+      const unsigned cores = std::max(2u, std::thread::hardware_concurrency());
+      for (unsigned p = 1; p < cores; p *= 2) scale_workers += std::to_string(p) + ",";
+      scale_workers += std::to_string(cores);
+    }
+    if (std::string e = ParseWorkerList(scale_workers, &scale.workers); !e.empty()) return usage(e);
+    if (!scale_repeat.empty() && (!ParseWorkerCount(scale_repeat, &scale.repeat) || scale.repeat > 100))
+      return usage("--repeat: expected a whole number from 1 to 100, found '" + scale_repeat + "'");
+    result.outcome = ScaleJob(scale);
+  } else if (report_cmd->parsed()) {
+    if (std::string e = apply_stderr_flags(report_flags, report.quiet, nullptr); !e.empty()) return usage(e);
+    result.outcome = ReportRun(report);
   }
   return result;
 }

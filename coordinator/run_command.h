@@ -8,6 +8,7 @@
 #include <string>
 
 #include "common/status.h"
+#include "coordinator/progress_mode.h"
 
 namespace fanfold {
 
@@ -26,6 +27,8 @@ struct RunOptions {
   uint64_t shard_time_limit_ms = 0;  // 0 = no limit
   bool in_process = false;    // debugging: no worker processes
   bool quiet = false;         // only errors on stderr
+  ProgressMode progress = ProgressMode::kAuto;  // progress on stderr (quiet: none)
+  double progress_every_s = 5;  // plain progress: seconds between lines
 };
 
 CommandOutcome RunJob(const RunOptions& options);

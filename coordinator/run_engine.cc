@@ -16,7 +16,9 @@
 #include "common/job_loader.h"
 #include "common/output_table.h"
 #include "common/signal_guard.h"
+#include "coordinator/console_log.h"
 #include "coordinator/merger.h"
+#include "coordinator/progress_meter.h"
 #include "coordinator/run_loop.h"
 #include "coordinator/run_summary.h"
 #include "coordinator/shard_scheduler.h"
@@ -131,7 +133,7 @@ CommandOutcome ExecuteRun(const RunInput& in, const RunOptions& o) {
   CommandOutcome out;
   const auto start = std::chrono::steady_clock::now();
   auto note = [&](const std::string& line) {
-    if (!o.quiet) std::cerr << "fanfold: " << line << "\n";
+    if (!o.quiet) LogInfo(line);
   };
   const Plan& plan = *in.plan;
   const ShardList& list = *in.shards;
@@ -171,14 +173,22 @@ CommandOutcome ExecuteRun(const RunInput& in, const RunOptions& o) {
     std::vector<uint32_t> order;
     for (uint32_t s : *all)
       if (pending.count(s)) order.push_back(s);
+    ProgressMeter meter(o.quiet ? ProgressMode::kOff : o.progress, o.progress_every_s, list, order);
     RunLoopOptions lo;
     lo.max_attempts = o.max_attempts;
     lo.shard_time_limit_ms = o.shard_time_limit_ms;
     lo.should_stop = [] { return SignalGuard::interrupted(); };
-    lo.on_attempt = [&](const AttemptRecord& r) { dir.StageJournal(AttemptLine(r)); };
+    lo.on_attempt = [&](const AttemptRecord& r) {
+      dir.StageJournal(AttemptLine(r));
+      meter.OnAttempt(r);
+    };
     lo.on_partial = [&](uint32_t shard, const std::string& bytes) { return dir.StagePartial(shard, bytes); };
-    lo.on_idle = [&]() { return dir.commit_due() ? dir.Commit() : Status::Ok(); };
+    lo.on_idle = [&]() {
+      meter.Tick();
+      return dir.commit_due() ? dir.Commit() : Status::Ok();
+    };
     Status s = RunShards(list, order, **transport, merger, lo, &loop);
+    meter.Finish();
     (*transport)->Shutdown();
     Status c = dir.Commit();
     if (!s.ok()) {

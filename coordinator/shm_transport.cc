@@ -272,13 +272,15 @@ Status ShmTransport::Wait(int timeout_ms, TransportEvent* event, bool* got) {
   if (shut_down_) return Status::Internal("Wait on a transport that was shut down");
   const auto deadline = std::chrono::steady_clock::now() + std::chrono::milliseconds(timeout_ms);
   for (;;) {
-    // Channels first: the sequence numbers, not the semaphore count, say what is done.
-    if (ScanCompletions(event)) {
+    // Exits are due every kExitScanNs even while completions keep coming, so
+    // a steady stream of results cannot hide a dead worker.
+    const int64_t left_ms = MillisUntil(deadline);
+    if ((left_ms <= 0 || MonotonicNanos() - last_exit_scan_ns_ >= kExitScanNs) && ScanExits(event)) {
       *got = true;
       return Status::Ok();
     }
-    const int64_t left_ms = MillisUntil(deadline);
-    if ((left_ms <= 0 || MonotonicNanos() - last_exit_scan_ns_ >= kExitScanNs) && ScanExits(event)) {
+    // The sequence numbers, not the semaphore count, say what is done.
+    if (ScanCompletions(event)) {
       *got = true;
       return Status::Ok();
     }

@@ -52,8 +52,9 @@ struct Outcome {
   std::vector<std::string> rows;
 };
 
-Outcome Run(const FieldTable& fields, const std::string& input, char sep = ',', size_t chunk = kDefaultChunkBytes) {
-  CsvReader reader(fields, sep, chunk);
+Outcome Run(const FieldTable& fields, const std::string& input, char sep = ',', size_t chunk = kDefaultChunkBytes,
+            size_t max_record = ChunkOptions{}.max_record_bytes) {
+  CsvReader reader(fields, sep, ChunkOptions{chunk, max_record});
   auto src = MemorySource(input);
   Collect sink(fields.size());
   Outcome out;
@@ -133,6 +134,11 @@ TEST_CASE("malformed records and their lines") {
   CHECK(Samples(o) ==
         "3:expected 3 fields, found 2;6:expected 3 fields, found 4;8:text after a closing quote;"
         "10:unclosed quote at end of input;");
+  // An unclosed quote early in a big input stops at the record limit instead of buffering everything.
+  std::string big = "a,b\n1,\"never closed\n" + std::string(50'000, 'z');
+  Outcome limited = Run(Fields({"a"}), big, ',', 1000, 20'000);
+  CHECK(limited.status.code() == Status::Code::kCorrupt);
+  CHECK(limited.status.message() == "line 2: a record is longer than the limit of 20000 bytes");
 }
 
 // A field that is not a header column is an error listing the header.
@@ -241,7 +247,7 @@ for row in rows[1:]:
     REQUIRE(expected.size() == 400);
     for (size_t chunk : {size_t{1}, size_t{3}, size_t{16}, size_t{1000}, kDefaultChunkBytes}) {
       CAPTURE(chunk);
-      CsvReader reader(f, sep, chunk);
+      CsvReader reader(f, sep, ChunkOptions{chunk});
       auto src = MemorySource(input);
       struct HexRows : RecordSink {
         bool OnRecord(Value* slots) override {

@@ -8,6 +8,7 @@
 #include <stdlib.h>
 
 #include <cstdio>
+#include <cstring>
 #include <filesystem>
 #include <fstream>
 #include <random>
@@ -62,8 +63,9 @@ struct Outcome {
   std::vector<std::string> rows;
 };
 
-Outcome Run(const FieldTable& fields, const std::string& input, size_t chunk = kDefaultChunkBytes) {
-  auto reader = NdjsonReader::Create(fields, chunk);
+Outcome Run(const FieldTable& fields, const std::string& input, size_t chunk = kDefaultChunkBytes,
+            size_t max_record = ChunkOptions{}.max_record_bytes) {
+  auto reader = NdjsonReader::Create(fields, ChunkOptions{chunk, max_record});
   REQUIRE(reader.ok());
   auto src = MemorySource(input);
   Collect sink(fields.size());
@@ -223,6 +225,38 @@ TEST_CASE("record longer than the chunk") {
   REQUIRE(o.rows.size() == 3);
   CHECK(o.rows[1] == "'" + big + "'|2");
   CHECK(o.rows[2] == "-|3");
+  // Past the record limit the read stops with an error naming the line, instead of growing without bound.
+  Outcome limited = Run(f, input, 4096, 100'000);
+  CHECK(limited.status.code() == Status::Code::kCorrupt);
+  CHECK(limited.status.message() == "line 2: a record is longer than the limit of 100000 bytes");
+  CHECK(limited.rows.size() == 1);
+}
+
+// A corrupt compressed stream is reported as the source's error, unchanged, after the records before it.
+TEST_CASE("source errors pass through") {
+  class Failing : public ByteSource {
+   public:
+    Result<size_t> Read(char* dst, size_t cap) override {
+      if (done_) return Status::Corrupt("'x.zst': corrupt zstd data at compressed byte 9: bad");
+      done_ = true;
+      std::string s = "{\"k\":1}\n{\"k\":";
+      std::memcpy(dst, s.data(), s.size());
+      return s.size();
+    }
+    uint64_t compressed_bytes() const override { return 0; }
+
+   private:
+    bool done_ = false;
+  } src;
+  FieldTable f = Fields({"/k"});
+  auto reader = NdjsonReader::Create(f);
+  REQUIRE(reader.ok());
+  Collect sink(1);
+  ReadStats st;
+  Status s = (*reader)->Read(src, sink, &st);
+  CHECK(s.message() == "'x.zst': corrupt zstd data at compressed byte 9: bad");
+  CHECK(sink.rows == std::vector<std::string>{"1"});
+  CHECK(st.raw_bytes == 13);
 }
 
 // Raw fields must be JSON Pointers; "" (the whole record) and bad '~' escapes are refused.
@@ -288,7 +322,7 @@ for line in open(sys.argv[1], encoding='utf-8', newline='\n'):
         return '{}'
     print('ok ' + '|'.join(show(v[k]) if k in v else '-' for k in ('svc', 'n')))
 )";
-  FILE* p = popen(("python3 " + dir + "/judge.py " + dir + "/in.ndjson").c_str(), "r");
+  FILE* p = popen(("PYTHONIOENCODING=utf-8 python3 " + dir + "/judge.py " + dir + "/in.ndjson").c_str(), "r");
   REQUIRE(p != nullptr);
   std::vector<std::string> expected_rows;
   uint64_t expected_bad = 0;

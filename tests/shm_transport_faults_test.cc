@@ -72,6 +72,31 @@ TEST_CASE("ShmTransport reports a worker killed mid-shard and replaces it") {
   CHECK(ev.partial == TestPayload(18, 100));
 }
 
+// Intent: a death is noticed promptly even while the other workers return a steady stream of
+// results (the exit scan is not starved by completions).
+TEST_CASE("ShmTransport notices a death amid a stream of results") {
+  auto t = ShmTransport::Create(TestWorkerOptions(3));
+  REQUIRE_MESSAGE(t.ok(), t.status().message());
+  REQUIRE((*t)->Assign(0, TestTask(0, "crash:")).ok());
+  const auto start = std::chrono::steady_clock::now();
+  uint32_t next = 1;
+  int results = 0;
+  for (;;) {
+    for (int w = 1; w < 3; ++w) {
+      if ((*t)->idle(w)) REQUIRE((*t)->Assign(w, TestTask(next++, "echo:4")).ok());
+    }
+    TransportEvent ev = WaitEvent(**t);
+    if (ev.kind == TransportEvent::Kind::kDied) {
+      CHECK(ev.worker == 0);
+      break;
+    }
+    ++results;
+    REQUIRE(MillisSince(start) < 2000);
+  }
+  MESSAGE("death seen after ", MillisSince(start), " ms and ", results, " other results");
+  CHECK(MillisSince(start) < 1000);
+}
+
 // Intent: a SIGKILL from outside (the OOM killer, an operator) is noticed within a second even
 // though the worker was asleep in its shard, and later shards still run.
 TEST_CASE("ShmTransport notices a worker killed from outside") {

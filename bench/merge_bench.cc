@@ -1,0 +1,249 @@
+// merge_bench: how long the coordinator takes to fold a month of hourly
+// partial states. Builds P encoded partials of G groups each (744 x 50,000
+// by default) with the measures of a benchmark job file, through the same
+// GroupTable / PartialState / EncodePartial path a worker uses, and times
+// Merger::Add (header check, checksum, zstd, decode, MergeFrom) for each, in
+// shard order, then Merger::Finish. Encoding is not timed: T templates are
+// encoded once, and each partial is a copy of one with its shard index
+// restamped. --time-limit stops early and extrapolates to all P partials.
+// Prints one JSON object on stdout; exit status 0, 2 bad usage, 3 failure.
+#include <sys/resource.h>
+#include <time.h>
+#include <xxhash.h>
+
+#include <algorithm>
+#include <charconv>
+#include <chrono>
+#include <cmath>
+#include <cstdint>
+#include <cstdio>
+#include <cstring>
+#include <memory>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "common/group_key.h"
+#include "common/job_spec.h"
+#include "common/partial_codec.h"
+#include "common/plan.h"
+#include "coordinator/merger.h"
+
+namespace fanfold {
+namespace {
+
+struct BenchOptions {
+  std::string job_path;    // the job whose measures the partials carry
+  uint64_t partials = 744;  // shards (31 days x 24 hours)
+  uint64_t groups = 50000;  // groups per partial
+  uint64_t values = 4;      // records added per group per partial
+  uint64_t templates = 4;   // distinct partial contents, shifted key windows
+  double time_limit_s = 0;  // stop merging after this long (0 = never) and extrapolate
+};
+
+// SplitMix64 (Steele, Lea & Flood 2014): a fixed, seedable stream.
+uint64_t Mix(uint64_t x) {
+  x += 0x9e3779b97f4a7c15ULL;
+  x = (x ^ (x >> 30)) * 0xbf58476d1ce4e5b9ULL;
+  x = (x ^ (x >> 27)) * 0x94d049bb133111ebULL;
+  return x ^ (x >> 31);
+}
+
+double Seconds(std::chrono::steady_clock::duration d) { return std::chrono::duration<double>(d).count(); }
+
+// CPU time of this process: on a shared machine, less noisy than wall time.
+double CpuSeconds() {
+  timespec ts{};
+  clock_gettime(CLOCK_PROCESS_CPUTIME_ID, &ts);
+  return static_cast<double>(ts.tv_sec) + 1e-9 * static_cast<double>(ts.tv_nsec);
+}
+
+bool ParseCount(std::string_view text, uint64_t lo, uint64_t hi, uint64_t* out) {
+  uint64_t v = 0;
+  auto [p, ec] = std::from_chars(text.data(), text.data() + text.size(), v);
+  if (ec != std::errc() || p != text.data() + text.size() || v < lo || v > hi) return false;
+  *out = v;
+  return true;
+}
+
+// Sets the shard index of an encoded partial and recomputes its checksum,
+// following the layout in common/partial_codec.h (index at offset 16,
+// XXH3-64 of bytes [0, 152) and the stored body at offset 152). A layout
+// change makes Merger::Add reject the partial, and this bench fail.
+void RestampShardIndex(uint32_t shard, std::string* partial) {
+  constexpr size_t kIndexOffset = 16, kChecksumOffset = 152;
+  for (int b = 0; b < 4; ++b) (*partial)[kIndexOffset + b] = static_cast<char>((shard >> (8 * b)) & 0xff);
+  XXH3_state_t* st = XXH3_createState();
+  XXH3_64bits_reset(st);
+  XXH3_64bits_update(st, partial->data(), kChecksumOffset);
+  XXH3_64bits_update(st, partial->data() + kPartialHeaderSize, partial->size() - kPartialHeaderSize);
+  const uint64_t sum = XXH3_64bits_digest(st);
+  XXH3_freeState(st);
+  for (int b = 0; b < 8; ++b) (*partial)[kChecksumOffset + b] = static_cast<char>((sum >> (8 * b)) & 0xff);
+}
+
+int Usage(const std::string& message) {
+  std::fprintf(stderr,
+               "merge_bench: %s\nusage: merge_bench --job JOB.json [--partials N] [--groups N] "
+               "[--values N] [--templates N] [--time-limit S]\n",
+               message.c_str());
+  return 2;
+}
+
+// The key of group g: (hour of day, bucket label), shaped like the job's.
+std::string GroupKey(uint64_t g) {
+  std::string key;
+  AppendKeyValue(Value::Number(static_cast<double>(g % 24)), &key);
+  char label[32];
+  std::snprintf(label, sizeof label, "B-%06llu", static_cast<unsigned long long>(g / 24));
+  AppendKeyValue(Value::String(label), &key);
+  return key;
+}
+
+// Fills partial t's table: groups [t * shift, t * shift + groups), each fed
+// `values` records. Text measures get lamp ids, numeric ones lognormal-ish
+// latencies, so sketches hold a realistic spread of buckets and registers.
+void FillTemplate(const Plan& plan, const BenchOptions& o, uint64_t t, PartialState* p) {
+  const uint64_t shift = o.groups / 20 + 1;
+  char lamp[16];
+  for (uint64_t g = t * shift; g < t * shift + o.groups; ++g) {
+    MeasureState* const* states = p->groups.FindOrAdd(GroupKey(g));
+    for (uint64_t r = 0; r < o.values; ++r) {
+      const uint64_t h = Mix(Mix(t * 1000003 + g) + r);
+      std::snprintf(lamp, sizeof lamp, "L-%05u", static_cast<unsigned>(h % 4000));
+      const double latency = std::exp(2.4 + 0.8 * (static_cast<double>(h >> 11) / 9007199254740992.0 - 0.5) * 4);
+      for (size_t m = 0; m < plan.measures.size(); ++m) {
+        const MeasureKind kind = plan.measures[m].config.kind;
+        const bool text = kind == MeasureKind::kApproxDistinct || kind == MeasureKind::kDistinct ||
+                          kind == MeasureKind::kTop;
+        Value args[2] = {text ? Value::String(lamp) : Value::Number(latency),
+                         Value::Number(static_cast<double>(r))};
+        states[m]->Add(args);
+      }
+    }
+  }
+}
+
+int Run(const BenchOptions& o) {
+  Result<JobSpec> spec = LoadJobSpec(o.job_path);
+  if (!spec.ok()) {
+    std::fprintf(stderr, "merge_bench: %s\n", spec.status().message().c_str());
+    return 2;
+  }
+  const RecordFormat format = spec->format.value_or(RecordFormat::kNdjson);
+  Result<std::unique_ptr<Plan>> plan = CompilePlan(std::move(spec.value()), format);
+  if (!plan.ok()) {
+    std::fprintf(stderr, "merge_bench: %s\n", plan.status().message().c_str());
+    return 2;
+  }
+  const Plan& pl = **plan;
+  std::vector<MeasureConfig> configs;
+  for (const CompiledMeasure& m : pl.measures) configs.push_back(m.config);
+
+  const auto build_start = std::chrono::steady_clock::now();
+  std::vector<std::string> encoded;
+  for (uint64_t t = 0; t < o.templates; ++t) {
+    PartialState p(&configs);
+    p.header.fingerprint = pl.fingerprint;
+    p.header.records = o.groups * o.values;
+    p.header.kept = p.header.records;
+    FillTemplate(pl, o, t, &p);
+    encoded.emplace_back();
+    EncodePartial(p, &encoded.back());
+  }
+  const double build_s = Seconds(std::chrono::steady_clock::now() - build_start);
+
+  Merger merger(&pl, static_cast<uint32_t>(o.partials));
+  std::vector<double> each_s;
+  double merge_s = 0, merge_cpu_s = 0;
+  uint64_t encoded_bytes = 0;
+  for (uint64_t i = 0; i < o.partials; ++i) {
+    std::string bytes = encoded[i % o.templates];
+    RestampShardIndex(static_cast<uint32_t>(i), &bytes);
+    encoded_bytes += bytes.size();
+    const double c0 = CpuSeconds();
+    const auto t0 = std::chrono::steady_clock::now();
+    Status s = merger.Add(static_cast<uint32_t>(i), std::move(bytes));
+    each_s.push_back(Seconds(std::chrono::steady_clock::now() - t0));
+    merge_cpu_s += CpuSeconds() - c0;
+    merge_s += each_s.back();
+    if (!s.ok()) {
+      std::fprintf(stderr, "merge_bench: partial %llu: %s\n", static_cast<unsigned long long>(i),
+                   s.message().c_str());
+      return 3;
+    }
+    if (o.time_limit_s > 0 && merge_s >= o.time_limit_s) break;
+  }
+  const uint64_t merged = each_s.size();
+  // The rest are marked failed so that Finish() can run; the result then
+  // holds what was merged.
+  for (uint64_t i = merged; i < o.partials; ++i) merger.MarkFailed(static_cast<uint32_t>(i));
+  if (!merger.late_failures().empty()) {
+    std::fprintf(stderr, "merge_bench: partial %u failed to decode: %s\n", merger.late_failures()[0].first,
+                 merger.late_failures()[0].second.c_str());
+    return 3;
+  }
+  const auto f0 = std::chrono::steady_clock::now();
+  Result<OutputTable> table = merger.Finish();
+  const double finish_s = Seconds(std::chrono::steady_clock::now() - f0);
+  if (!table.ok()) {
+    std::fprintf(stderr, "merge_bench: %s\n", table.status().message().c_str());
+    return 3;
+  }
+  if (merger.totals().shards_merged != merged) {
+    std::fprintf(stderr, "merge_bench: merged %llu of %llu partials\n",
+                 static_cast<unsigned long long>(merger.totals().shards_merged),
+                 static_cast<unsigned long long>(merged));
+    return 3;
+  }
+  std::vector<double> sorted = each_s;
+  std::sort(sorted.begin(), sorted.end());
+  struct rusage ru {};
+  getrusage(RUSAGE_SELF, &ru);
+  std::printf(
+      "{\"partials\": %llu, \"partials_merged\": %llu, \"groups_per_partial\": %llu, "
+      "\"values_per_group\": %llu, \"result_groups\": %zu, \"measures\": %zu, \"mean_partial_bytes\": %.0f, "
+      "\"build_s\": %.3f, \"merge_s\": %.4f, \"merge_all_s\": %.4f, \"merge_cpu_s\": %.4f, "
+      "\"merge_all_cpu_s\": %.4f, \"finish_s\": %.4f, "
+      "\"per_partial_ms\": {\"median\": %.3f, \"min\": %.3f, \"max\": %.3f}, \"peak_rss_kib\": %ld}\n",
+      static_cast<unsigned long long>(o.partials), static_cast<unsigned long long>(merged),
+      static_cast<unsigned long long>(o.groups), static_cast<unsigned long long>(o.values), table->rows.size(),
+      pl.measures.size(), static_cast<double>(encoded_bytes) / static_cast<double>(merged), build_s, merge_s,
+      merge_s * static_cast<double>(o.partials) / static_cast<double>(merged), merge_cpu_s,
+      merge_cpu_s * static_cast<double>(o.partials) / static_cast<double>(merged), finish_s,
+      1000 * sorted[sorted.size() / 2], 1000 * sorted.front(), 1000 * sorted.back(), ru.ru_maxrss);
+  return 0;
+}
+
+}  // namespace
+}  // namespace fanfold
+
+int main(int argc, char** argv) {
+  fanfold::BenchOptions o;
+  for (int i = 1; i < argc; ++i) {
+    const std::string_view flag = argv[i];
+    if (i + 1 >= argc) return fanfold::Usage("missing value after " + std::string(flag));
+    const std::string_view value = argv[++i];
+    bool ok = true;
+    if (flag == "--job") {
+      o.job_path = std::string(value);
+    } else if (flag == "--partials") {
+      ok = fanfold::ParseCount(value, 1, 100000, &o.partials);
+    } else if (flag == "--groups") {
+      ok = fanfold::ParseCount(value, 1, 10000000, &o.groups);
+    } else if (flag == "--values") {
+      ok = fanfold::ParseCount(value, 1, 1000, &o.values);
+    } else if (flag == "--templates") {
+      ok = fanfold::ParseCount(value, 1, 64, &o.templates);
+    } else if (flag == "--time-limit") {
+      uint64_t secs = 0;
+      ok = fanfold::ParseCount(value, 0, 86400, &secs);
+      o.time_limit_s = static_cast<double>(secs);
+    } else {
+      return fanfold::Usage("unknown flag " + std::string(flag));
+    }
+    if (!ok) return fanfold::Usage("bad value for " + std::string(flag) + ": '" + std::string(value) + "'");
+  }
+  if (o.job_path.empty()) return fanfold::Usage("--job is required");
+  return fanfold::Run(o);
+}
