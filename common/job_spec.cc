@@ -198,7 +198,8 @@ Status ParseMeasure(Checker& c, const json& m, const std::string& p, MeasureSpec
       cfg.probabilities.push_back(q);
     }
   }
-  if (m.contains("alpha")) FF_RETURN_IF_ERROR(c.Number(m["alpha"], p + "/alpha", 0, 1, true, &cfg.alpha));
+  // Below 0.001 the sketch folds its lowest buckets early and loses its bound.
+  if (m.contains("alpha")) FF_RETURN_IF_ERROR(c.Number(m["alpha"], p + "/alpha", 0.001, 0.5, false, &cfg.alpha));
   if (m.contains("precision")) {
     uint64_t prec = 0;
     FF_RETURN_IF_ERROR(c.Integer(m["precision"], p + "/precision", 4, 18, &prec));

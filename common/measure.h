@@ -45,8 +45,8 @@ enum class MeasureKind : uint8_t {
 struct MeasureConfig {
   MeasureKind kind = MeasureKind::kCount;
   std::vector<double> probabilities;  // kQuantile, kApproxQuantile: each in [0, 1]
-  double alpha = 0.01;                // kApproxQuantile: relative accuracy, (0, 1)
-  int precision = 14;                 // kApproxDistinct: register bits, 4..18
+  double alpha = 0.01;                // kApproxQuantile: relative accuracy, [0.001, 0.5]
+  int precision = 12;                 // kApproxDistinct: register bits, 4..18 (2^p bytes per group)
   uint32_t k = 10;                    // kTop: how many values to report, >= 1
   uint64_t limit = 1'000'000;         // kQuantile, kDistinct: values kept per group; kTop: distinct values tracked
 };
