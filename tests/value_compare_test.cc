@@ -4,6 +4,8 @@
 
 #include <doctest/doctest.h>
 
+#include <cmath>
+
 #include <vector>
 
 namespace fanfold {
@@ -36,9 +38,12 @@ TEST_CASE("CompareValues rules") {
   CHECK_FALSE(CompareValues(CompareOp::kNe, Value::Missing(), n12));
   CHECK_FALSE(CompareValues(CompareOp::kNe, n12, Value::Null()));
   CHECK(CompareValues(CompareOp::kEq, Value::Number(0), Value::Number(-0.0)));  // IEEE 754
-  // "nan" text reads as NaN through Value::AsNumber; IEEE 754 makes only != hold.
-  CHECK(CompareValues(CompareOp::kNe, Value::String("nan"), Value::String("nan")));
-  CHECK_FALSE(CompareValues(CompareOp::kEq, Value::String("nan"), Value::String("nan")));
+  // "nan" text is not numeric (Value::AsNumber takes finite numbers only), so it
+  // compares as text; NaN numbers follow IEEE 754, where only != holds.
+  CHECK(CompareValues(CompareOp::kEq, Value::String("nan"), Value::String("nan")));
+  CHECK(CompareValues(CompareOp::kLt, Value::String("inf"), Value::String("nan")));
+  CHECK(CompareValues(CompareOp::kNe, Value::Number(NAN), Value::Number(NAN)));
+  CHECK_FALSE(CompareValues(CompareOp::kEq, Value::Number(NAN), Value::Number(NAN)));
 }
 
 // Intent: mirroring an op and swapping operands never changes the answer,
