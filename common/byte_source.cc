@@ -88,10 +88,53 @@ std::string DescribeStart(const unsigned char* b, size_t n) {
   return "found " + hex + " (" + what + ")";
 }
 
+// Per-thread free lists, so that a worker streaming thousands of tiny
+// shards reuses its input blocks and zstd decoders instead of allocating
+// (and zero-filling) them per shard.
+std::vector<std::vector<char>>& BlockPool() {
+  thread_local std::vector<std::vector<char>> pool;
+  return pool;
+}
+std::vector<char> TakeBlock() {
+  auto& pool = BlockPool();
+  if (pool.empty()) return std::vector<char>(kInputBlock);
+  std::vector<char> b = std::move(pool.back());
+  pool.pop_back();
+  return b;
+}
+void GiveBlock(std::vector<char> b) {
+  if (b.size() == kInputBlock && BlockPool().size() < 4) BlockPool().push_back(std::move(b));
+}
+struct DctxPool {
+  std::vector<ZSTD_DCtx*> free;
+  ~DctxPool() {
+    for (ZSTD_DCtx* d : free) ZSTD_freeDCtx(d);
+  }
+};
+DctxPool& Dctxs() {
+  thread_local DctxPool pool;
+  return pool;
+}
+ZSTD_DCtx* TakeDctx() {
+  auto& pool = Dctxs().free;
+  if (pool.empty()) return ZSTD_createDCtx();
+  ZSTD_DCtx* d = pool.back();
+  pool.pop_back();
+  ZSTD_DCtx_reset(d, ZSTD_reset_session_only);
+  return d;
+}
+void GiveDctx(ZSTD_DCtx* d) {
+  if (d == nullptr) return;
+  if (Dctxs().free.size() < 4) Dctxs().free.push_back(d);
+  else ZSTD_freeDCtx(d);
+}
+
 // The compressed file being read: a descriptor and one reused input block.
 class CompressedInput {
  public:
-  CompressedInput(std::string path, Fd fd) : path_(std::move(path)), fd_(std::move(fd)), buf_(kInputBlock) {}
+  CompressedInput(std::string path, Fd fd) : path_(std::move(path)), fd_(std::move(fd)), buf_(TakeBlock()) {}
+  ~CompressedInput() { GiveBlock(std::move(buf_)); }
+  CompressedInput(CompressedInput&&) = default;
 
   // Reads the next block. Returns its size, 0 at end of file.
   Result<size_t> Refill() {
@@ -160,8 +203,8 @@ class PlainFileSource final : public ByteSource {
 class ZstdSource final : public ByteSource {
  public:
   ZstdSource(CompressedInput in, size_t first_block)
-      : in_(std::move(in)), dctx_(ZSTD_createDCtx()), buf_{in_.data(), first_block, 0} {}
-  ~ZstdSource() override { ZSTD_freeDCtx(dctx_); }
+      : in_(std::move(in)), dctx_(TakeDctx()), buf_{in_.data(), first_block, 0} {}
+  ~ZstdSource() override { GiveDctx(dctx_); }
 
   Result<size_t> Read(char* dst, size_t cap) override {
     if (done_ || cap == 0) return size_t{0};

@@ -23,6 +23,21 @@ uint64_t Checksum(std::string_view header_prefix, std::string_view body) {
   return h;
 }
 
+// One compression and one decompression context per thread, reused: making
+// them per partial cost more than encoding a tiny shard's partial.
+struct ZstdContexts {
+  ZSTD_CCtx* c = ZSTD_createCCtx();
+  ZSTD_DCtx* d = ZSTD_createDCtx();
+  ~ZstdContexts() {
+    ZSTD_freeCCtx(c);
+    ZSTD_freeDCtx(d);
+  }
+};
+ZstdContexts& Contexts() {
+  thread_local ZstdContexts ctx;
+  return ctx;
+}
+
 }  // namespace
 
 uint64_t PathHash(std::string_view path) { return XXH3_64bits(path.data(), path.size()); }
@@ -38,7 +53,7 @@ void EncodePartial(const PartialState& p, std::string* out) {
   p.groups.Encode(bw);
 
   std::string z(ZSTD_compressBound(body.size()), '\0');
-  size_t zn = ZSTD_compress(z.data(), z.size(), body.data(), body.size(), 1);
+  size_t zn = ZSTD_compressCCtx(Contexts().c, z.data(), z.size(), body.data(), body.size(), 1);
   z.resize(ZSTD_isError(zn) ? 0 : zn);  // compressBound makes an error impossible
 
   const PartialHeader& h = p.header;
@@ -129,7 +144,7 @@ Status DecodePartial(std::string_view bytes, PartialState* out) {
   if (frame == ZSTD_CONTENTSIZE_ERROR || frame == ZSTD_CONTENTSIZE_UNKNOWN || frame != raw_len)
     return Status::Corrupt("partial state body is not the zstd frame its header describes");
   std::string body(raw_len, '\0');
-  size_t n = ZSTD_decompress(body.data(), body.size(), z.data(), z.size());
+  size_t n = ZSTD_decompressDCtx(Contexts().d, body.data(), body.size(), z.data(), z.size());
   if (ZSTD_isError(n) || n != raw_len)
     return Status::Corrupt(std::string("partial state body does not decompress: ") +
                            (ZSTD_isError(n) ? ZSTD_getErrorName(n) : "short"));

@@ -19,4 +19,22 @@ Status ReadRecords(RecordFormat format, ByteSource& src, const FieldTable& field
   return Status::Internal("unknown record format");
 }
 
+Result<std::unique_ptr<RecordReader>> RecordReader::Create(RecordFormat format, const FieldTable& fields) {
+  std::unique_ptr<RecordReader> r(new RecordReader());
+  if (format == RecordFormat::kNdjson) {
+    Result<std::unique_ptr<NdjsonReader>> n = NdjsonReader::Create(fields);
+    if (!n.ok()) return n.status();
+    r->ndjson_ = std::move(n.value());
+  } else {
+    r->csv_ = std::make_unique<CsvReader>(fields, format == RecordFormat::kCsv ? ',' : '\t');
+  }
+  return r;
+}
+
+RecordReader::~RecordReader() = default;
+
+Status RecordReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
+  return ndjson_ ? ndjson_->Read(src, sink, stats) : csv_->Read(src, sink, stats);
+}
+
 }  // namespace fanfold

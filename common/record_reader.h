@@ -8,6 +8,7 @@
 #pragma once
 
 #include <cstdint>
+#include <memory>
 #include <string>
 #include <vector>
 
@@ -45,5 +46,25 @@ class RecordSink {
 // read before the error have already reached the sink.
 Status ReadRecords(RecordFormat format, ByteSource& src, const FieldTable& fields, RecordSink& sink,
                    ReadStats* stats);
+
+class NdjsonReader;
+class CsvReader;
+
+// RecordReader: ReadRecords for many shards in a row, keeping the reader's
+// buffers and parser between them (a worker processes thousands of tiny
+// shards; each new reader would allocate megabytes). Not thread-safe.
+class RecordReader {
+ public:
+  // fields must outlive the reader.
+  static Result<std::unique_ptr<RecordReader>> Create(RecordFormat format, const FieldTable& fields);
+  ~RecordReader();
+  // As ReadRecords.
+  Status Read(ByteSource& src, RecordSink& sink, ReadStats* stats);
+
+ private:
+  RecordReader() = default;
+  std::unique_ptr<NdjsonReader> ndjson_;
+  std::unique_ptr<CsvReader> csv_;
+};
 
 }  // namespace fanfold

@@ -127,7 +127,12 @@ Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
   ReadStats stats;
   TimedSource timed(src->get());
   const uint64_t t0 = NowNs();
-  Status s = ReadRecords(plan_->format, timed, plan_->fields, agg, &stats);
+  if (!reader_) {
+    Result<std::unique_ptr<RecordReader>> r = RecordReader::Create(plan_->format, plan_->fields);
+    if (!r.ok()) return r.status().WithContext(where);
+    reader_ = std::move(r.value());
+  }
+  Status s = reader_->Read(timed, agg, &stats);
   const uint64_t t1 = NowNs();
   if (!s.ok()) return s.WithContext(where);
   if (agg.over_limit() >= 0) {

@@ -7,11 +7,13 @@
 
 #include <cstdint>
 #include <functional>
+#include <memory>
 #include <string>
 #include <vector>
 
 #include "common/partial_codec.h"
 #include "common/plan.h"
+#include "common/record_reader.h"
 #include "common/shard_task.h"
 #include "common/status.h"
 
@@ -34,6 +36,7 @@ class ShardProcessor {
  private:
   const Plan* plan_;
   std::vector<MeasureConfig> configs_;
+  std::unique_ptr<RecordReader> reader_;  // made on first use, kept across shards
 };
 
 }  // namespace fanfold

@@ -5,18 +5,24 @@
 #include <unistd.h>
 
 #include <cerrno>
+#include <algorithm>
 #include <cstdio>
 #include <filesystem>
 
 #include "common/file_util.h"
+#include "common/byte_io.h"
 #include "common/os_error.h"
+
+#include <xxhash.h>
 
 namespace fs = std::filesystem;
 
 namespace fanfold {
 namespace {
 
-constexpr size_t kCommitBatch = 64;
+constexpr size_t kCommitBatch = 256;
+constexpr uint32_t kPackMagic = 0x4B504646;  // "FFPK" little-endian
+constexpr size_t kFrameBytes = 24;
 constexpr auto kCommitDelay = std::chrono::milliseconds(200);
 
 Status Io(const std::string& what, const std::string& path, int err) {
@@ -51,7 +57,10 @@ Status SyncDir(const std::string& dir) {
 RunDirectory::RunDirectory(std::string path, int lock_fd) : path_(std::move(path)), lock_fd_(lock_fd) {}
 
 RunDirectory::~RunDirectory() {
-  for (const Staged& s : staged_) ::unlink(s.temp.c_str());
+  if (pack_fd_ >= 0) {
+    ::close(pack_fd_);
+    ::unlink((PackPath(next_pack_) + ".tmp").c_str());
+  }
   if (lock_fd_ >= 0) ::close(lock_fd_);  // releases the flock
 }
 
@@ -106,28 +115,75 @@ Result<std::unique_ptr<RunDirectory>> RunDirectory::Open(const std::string& path
   *manifest = std::move(m.value());
   std::error_code ec;
   fs::create_directories(fs::path(path) / "partials", ec);
-  return std::unique_ptr<RunDirectory>(new RunDirectory(path, *lock));
+  std::unique_ptr<RunDirectory> dir(new RunDirectory(path, *lock));
+  dir->IndexPacks();
+  return dir;
 }
 
-std::string RunDirectory::PartialPath(uint32_t shard) const {
+std::string RunDirectory::PackPath(uint64_t seq) const {
   char name[32];
-  snprintf(name, sizeof name, "shard-%06u.ffp", shard);
+  snprintf(name, sizeof name, "pack-%06llu.ffpk", static_cast<unsigned long long>(seq));
   return (fs::path(path_) / "partials" / name).string();
 }
 
+void RunDirectory::IndexPacks() {
+  std::error_code ec;
+  std::vector<uint64_t> packs;
+  for (const auto& e : fs::directory_iterator(fs::path(path_) / "partials", ec)) {
+    const std::string name = e.path().filename().string();
+    unsigned long long seq = 0;
+    char tail = 0;
+    if (sscanf(name.c_str(), "pack-%llu.ffp%c", &seq, &tail) == 2 && tail == 'k') packs.push_back(seq);
+    else if (name.size() > 4 && name.compare(name.size() - 4, 4, ".tmp") == 0) fs::remove(e.path(), ec);
+  }
+  std::sort(packs.begin(), packs.end());
+  for (uint64_t seq : packs) {
+    std::string data;
+    if (!ReadWholeFile(PackPath(seq), &data).ok()) continue;
+    size_t off = 0;
+    while (data.size() - off >= kFrameBytes) {
+      ByteReader r(std::string_view(data).substr(off, kFrameBytes));
+      uint32_t magic = r.U32();
+      uint32_t shard = r.U32();
+      uint64_t length = r.U64();
+      uint64_t check = r.U64();
+      if (magic != kPackMagic || check != XXH3_64bits(data.data() + off, 16) ||
+          length > data.size() - off - kFrameBytes)
+        break;  // a torn or damaged frame: the rest of this pack is unreadable
+      index_[shard] = Location{seq, off + kFrameBytes, length};
+      off += kFrameBytes + length;
+    }
+    next_pack_ = std::max(next_pack_, seq + 1);
+  }
+}
+
 Status RunDirectory::StagePartial(uint32_t shard, std::string_view bytes) {
-  const std::string temp = PartialPath(shard) + ".tmp";
-  int fd = ::open(temp.c_str(), O_WRONLY | O_CREAT | O_TRUNC | O_CLOEXEC, 0644);
-  if (fd < 0) return Io("create", temp, errno);
-  Status s = WriteAll(fd, bytes, temp);
-  if (s.ok() && ::fdatasync(fd) != 0) s = Io("fsync", temp, errno);
-  ::close(fd);
+  const std::string temp = PackPath(next_pack_) + ".tmp";
+  if (pack_fd_ < 0) {
+    pack_fd_ = ::open(temp.c_str(), O_WRONLY | O_CREAT | O_TRUNC | O_CLOEXEC, 0644);
+    if (pack_fd_ < 0) return Io("create", temp, errno);
+    pack_size_ = 0;
+  }
+  std::string frame;
+  ByteWriter w(&frame);
+  w.U32(kPackMagic);
+  w.U32(shard);
+  w.U64(bytes.size());
+  w.U64(XXH3_64bits(frame.data(), 16));
+  Status s = WriteAll(pack_fd_, frame, temp);
+  if (s.ok()) s = WriteAll(pack_fd_, bytes, temp);
   if (!s.ok()) {
+    // Keep the pack consistent: drop everything staged in it; those shards
+    // are simply not done.
+    ::close(pack_fd_);
+    pack_fd_ = -1;
     ::unlink(temp.c_str());
+    staged_.clear();
     return s;
   }
   if (staged_.empty() && journal_lines_.empty()) first_staged_ = std::chrono::steady_clock::now();
-  staged_.push_back({shard, temp});
+  staged_.push_back({shard, Location{next_pack_, pack_size_ + kFrameBytes, bytes.size()}});
+  pack_size_ += kFrameBytes + bytes.size();
   return Status::Ok();
 }
 
@@ -142,12 +198,29 @@ bool RunDirectory::commit_due() const {
 }
 
 Status RunDirectory::Commit() {
-  for (const Staged& s : staged_) {
-    const std::string final_path = PartialPath(s.shard);
-    if (::rename(s.temp.c_str(), final_path.c_str()) != 0) return Io("rename into", final_path, errno);
+  if (pack_fd_ >= 0) {
+    const std::string final_path = PackPath(next_pack_);
+    const std::string temp = final_path + ".tmp";
+    int rc = ::fdatasync(pack_fd_);
+    int err = errno;
+    ::close(pack_fd_);
+    pack_fd_ = -1;
+    if (rc != 0) {
+      ::unlink(temp.c_str());
+      staged_.clear();
+      return Io("fsync", temp, err);
+    }
+    if (::rename(temp.c_str(), final_path.c_str()) != 0) {
+      err = errno;
+      ::unlink(temp.c_str());
+      staged_.clear();
+      return Io("rename into", final_path, err);
+    }
+    FF_RETURN_IF_ERROR(SyncDir((fs::path(path_) / "partials").string()));
+    for (const auto& [shard, loc] : staged_) index_[shard] = loc;
+    staged_.clear();
+    ++next_pack_;
   }
-  if (!staged_.empty()) FF_RETURN_IF_ERROR(SyncDir((fs::path(path_) / "partials").string()));
-  staged_.clear();
   if (!journal_lines_.empty()) {
     const std::string journal = (fs::path(path_) / "journal.ndjson").string();
     int fd = ::open(journal.c_str(), O_WRONLY | O_CREAT | O_APPEND | O_CLOEXEC, 0644);
@@ -165,13 +238,29 @@ Status RunDirectory::Commit() {
 
 Status RunDirectory::LoadPartial(uint32_t shard, std::string* out) const {
   out->clear();
-  std::error_code ec;
-  const std::string p = PartialPath(shard);
-  if (!fs::exists(p, ec)) return Status::Ok();
-  return ReadWholeFile(p, out);
+  auto it = index_.find(shard);
+  if (it == index_.end()) return Status::Ok();
+  const std::string pack = PackPath(it->second.pack);
+  int fd = ::open(pack.c_str(), O_RDONLY | O_CLOEXEC);
+  if (fd < 0) return Io("open", pack, errno);
+  out->resize(it->second.length);
+  size_t done = 0;
+  while (done < out->size()) {
+    ssize_t n = ::pread(fd, out->data() + done, out->size() - done, static_cast<off_t>(it->second.offset + done));
+    if (n < 0 && errno == EINTR) continue;
+    if (n <= 0) {
+      int err = n < 0 ? errno : EIO;
+      ::close(fd);
+      out->clear();
+      return Io("read", pack, err);
+    }
+    done += static_cast<size_t>(n);
+  }
+  ::close(fd);
+  return Status::Ok();
 }
 
-void RunDirectory::DiscardPartial(uint32_t shard) const { ::unlink(PartialPath(shard).c_str()); }
+void RunDirectory::DiscardPartial(uint32_t shard) { index_.erase(shard); }
 
 Status RunDirectory::WriteFile(const std::string& name, std::string_view data) const {
   return WriteFileAtomic((fs::path(path_) / name).string(), data);

@@ -1,20 +1,30 @@
 // RunDirectory: the on-disk record of one run (layout: docs/run-directory.md)
 //   run.json        RunManifest, written once at the start
 //   journal.ndjson  append-only events (attempts, timings, failures), one JSON object a line
-//   partials/       one persisted partial state per finished shard: shard-000042.ffp
+//   partials/       packs of persisted partial states: pack-000007.ffpk, one
+//                   per commit batch (see kPackMagic below)
 //   result.<ext>    the output table, written at the end
 //   summary.json    machine-readable summary, written at the end
 //   lock            flock()ed while a coordinator works here
-// Durability: partials are staged in temporary files and made durable in
-// batches by Commit() — fsync each, rename into place, fsync the directory,
-// then append and fdatasync the journal lines that say so. A shard counts as
-// done only once its partial is committed; a coordinator killed at any
-// instant leaves a directory `resume` can finish. Owned by the coordinator
+// Durability: staged partials are appended to a temporary pack file; Commit()
+// fdatasyncs it, renames it into place, fsyncs the directory, then appends
+// and fdatasyncs the journal lines that say so. A shard counts as done only
+// once its partial is committed; a coordinator killed at any instant leaves
+// a directory `resume` can finish. One pack per batch (not one file per
+// shard) keeps thousands of tiny shards cheap. Owned by the coordinator
 // thread; not thread-safe.
+//
+// Pack file: a sequence of entries, each
+//   u32 magic "FFPK", u32 shard index, u64 partial length,
+//   u64 XXH3-64 of those 16 bytes, then the encoded partial (which carries
+//   its own checksum, docs/partial-state.md).
+// Readers stop at the first entry whose frame does not check out; when a
+// shard appears in several packs the highest-numbered pack wins.
 #pragma once
 
 #include <chrono>
 #include <cstdint>
+#include <map>
 #include <memory>
 #include <string>
 #include <string_view>
@@ -42,9 +52,9 @@ class RunDirectory {
   static Result<std::unique_ptr<RunDirectory>> Open(const std::string& path, RunManifest* manifest);
 
   const std::string& path() const { return path_; }
-  std::string PartialPath(uint32_t shard) const;
 
-  // Writes shard's partial to a temporary file; Commit() makes it durable.
+  // Appends shard's partial to the batch's temporary pack; Commit() makes it
+  // durable.
   Status StagePartial(uint32_t shard, std::string_view bytes);
   // Queues one journal line (a JSON object, no newline) for the next Commit.
   void StageJournal(std::string line);
@@ -55,8 +65,11 @@ class RunDirectory {
 
   // Reads shard's committed partial (empty string iff there is none).
   Status LoadPartial(uint32_t shard, std::string* out) const;
-  // Removes shard's committed partial (a corrupt or stale one).
-  void DiscardPartial(uint32_t shard) const;
+  // Forgets shard's committed partial (a corrupt or stale one); a later
+  // commit of the shard supersedes it on disk too.
+  void DiscardPartial(uint32_t shard);
+  // Number of shards with a committed partial.
+  size_t committed_count() const { return index_.size(); }
 
   // Atomically writes a file at the top of the run directory.
   Status WriteFile(const std::string& name, std::string_view data) const;
@@ -64,14 +77,22 @@ class RunDirectory {
  private:
   RunDirectory(std::string path, int lock_fd);
   static Result<int> Lock(const std::string& path);
+  // Reads every committed pack into index_.
+  void IndexPacks();
+  std::string PackPath(uint64_t seq) const;
 
+  struct Location {
+    uint64_t pack = 0;    // pack sequence number
+    uint64_t offset = 0;  // of the partial's first byte
+    uint64_t length = 0;
+  };
   std::string path_;
   int lock_fd_ = -1;
-  struct Staged {
-    uint32_t shard;
-    std::string temp;
-  };
-  std::vector<Staged> staged_;
+  std::map<uint32_t, Location> index_;  // committed partials by shard
+  uint64_t next_pack_ = 1;
+  int pack_fd_ = -1;                    // the batch's temporary pack, or -1
+  uint64_t pack_size_ = 0;
+  std::vector<std::pair<uint32_t, Location>> staged_;
   std::vector<std::string> journal_lines_;
   std::chrono::steady_clock::time_point first_staged_;
 };
