@@ -1,5 +1,7 @@
 #include "common/expr.h"
 
+#include <algorithm>
+
 #include <utility>
 
 #include "common/expr_compiler.h"
@@ -22,6 +24,15 @@ Value Expr::Eval(const Value* slots, ScratchArena* arena) const {
 }
 
 const std::string& Expr::text() const { return program_->text; }
+
+std::vector<int> Expr::SlotsRead() const {
+  std::vector<int> out;
+  for (const ExprNode& n : program_->nodes)
+    if (n.op == ExprOp::kSlot) out.push_back(n.slot);
+  std::sort(out.begin(), out.end());
+  out.erase(std::unique(out.begin(), out.end()), out.end());
+  return out;
+}
 
 Expr::Expr(std::unique_ptr<Program> p) : program_(std::move(p)) {}
 Expr::Expr(Expr&&) noexcept = default;

@@ -9,6 +9,7 @@
 #include <memory>
 #include <string>
 #include <string_view>
+#include <vector>
 
 #include "common/field_table.h"
 #include "common/scratch_arena.h"
@@ -31,6 +32,9 @@ class Expr {
   Value Eval(const Value* slots, ScratchArena* arena) const;
 
   const std::string& text() const;
+
+  // The FieldTable slots this expression reads (each once, ascending).
+  std::vector<int> SlotsRead() const;
 
   Expr(Expr&&) noexcept;
   Expr& operator=(Expr&&) noexcept;

@@ -145,6 +145,29 @@ Result<std::unique_ptr<Plan>> CompilePlan(JobSpec spec, RecordFormat format) {
                                      s.emit.order[i].by + "\"; expected an output column: " + list);
     }
   }
+  // Derived fields the filter reads (directly or through other derived
+  // fields), then those only keys and measures read.
+  auto closure = [&](std::vector<bool> need) {
+    for (size_t i = plan->derive.size(); i-- > 0;)
+      if (need[plan->derive[i].slot])
+        for (int s : plan->derive[i].expr.SlotsRead()) need[s] = true;
+    return need;
+  };
+  std::vector<bool> for_keep(fields->size(), false), for_rest(fields->size(), false);
+  if (plan->keep)
+    for (int s : plan->keep->SlotsRead()) for_keep[s] = true;
+  for (const Expr& g : plan->group)
+    for (int s : g.SlotsRead()) for_rest[s] = true;
+  for (const CompiledMeasure& m : plan->measures)
+    for (const Expr& a : m.args)
+      for (int s : a.SlotsRead()) for_rest[s] = true;
+  for_keep = closure(for_keep);
+  for_rest = closure(for_rest);
+  for (size_t i = 0; i < plan->derive.size(); ++i) {
+    const int slot = plan->derive[i].slot;
+    if (for_keep[slot]) plan->derive_before_keep.push_back(i);
+    else if (for_rest[slot]) plan->derive_after_keep.push_back(i);
+  }
   const std::string canon = PlanCanonicalText(*plan);
   plan->fingerprint = XXH3_64bits(canon.data(), canon.size());
   return plan;

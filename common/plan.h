@@ -38,6 +38,11 @@ struct Plan {
   FieldTable fields;
   std::optional<Expr> keep;
   std::vector<CompiledDerive> derive;
+  // Which derived fields to evaluate, as indices into `derive` in order:
+  // those the filter needs (before it), then those only the keys and
+  // measures need (for kept records only). Unused ones are never evaluated.
+  std::vector<size_t> derive_before_keep;
+  std::vector<size_t> derive_after_keep;
   std::vector<Expr> group;                 // one expression per key
   std::vector<std::string> group_columns;  // their output names
   std::vector<CompiledMeasure> measures;

@@ -62,12 +62,18 @@ class Aggregator final : public RecordSink {
   uint64_t estimated_ns() const { return sampled_ns_ * kSampleEvery; }
 
  private:
+  void Derive(size_t i, Value* slots) {
+    const CompiledDerive& d = plan_.derive[i];
+    slots[d.slot] = d.expr.Eval(slots, &arena_);
+  }
+
   bool Apply(Value* slots) {
     arena_.Reset();
     ++seen_;
     if (hook_) hook_(seen_);
-    for (const CompiledDerive& d : plan_.derive) slots[d.slot] = d.expr.Eval(slots, &arena_);
+    for (size_t i : plan_.derive_before_keep) Derive(i, slots);
     if (plan_.keep && !plan_.keep->Eval(slots, &arena_).Truthy()) return true;
+    for (size_t i : plan_.derive_after_keep) Derive(i, slots);
     ++kept_;
     key_.clear();
     for (const Expr& g : plan_.group) AppendKeyValue(g.Eval(slots, &arena_), &key_);
