@@ -284,6 +284,11 @@ Result<JobSpec> ParseJobSpec(std::string_view text, const std::string& job_path)
       auto pos = what.find("error while parsing");
       return Status::InvalidArgument(job_path + ": not valid JSON at " + LineColumn(text, e.byte > 0 ? e.byte - 1 : 0) +
                                      (pos == std::string::npos ? "" : ": " + what.substr(pos)));
+    } catch (const json::exception& e) {  // e.g. out_of_range 406: a number too large for a double
+      std::string what = e.what();
+      auto pos = what.find("] ");
+      return Status::InvalidArgument(job_path + ": not valid JSON: " +
+                                     (pos == std::string::npos ? what : what.substr(pos + 2)));
     }
     return Status::InvalidArgument(job_path + ": not valid JSON");
   }

@@ -108,6 +108,10 @@ Status ShmTransport::AwaitReady(const std::vector<int>& starting) {
   const auto deadline =
       std::chrono::steady_clock::now() + std::chrono::milliseconds(options_.ready_timeout_ms);
   std::vector<int> pending = starting;
+  // A worker killed while starting (from outside, or by the OOM killer) is
+  // started again; one that keeps dying has a real problem, reported below.
+  constexpr int kStartTries = 3;
+  std::vector<int> tries(slots_.size(), 1);
   for (;;) {
     for (auto it = pending.begin(); it != pending.end();) {
       Slot& slot = slots_[static_cast<size_t>(*it)];
@@ -118,6 +122,11 @@ Status ShmTransport::AwaitReady(const std::vector<int>& starting) {
         continue;
       }
       if (slot.child->Poll()) {
+        if (tries[static_cast<size_t>(*it)]++ < kStartTries) {
+          slot.child.reset();
+          FF_RETURN_IF_ERROR(StartWorker(*it));
+          continue;  // look at the new process on the next pass
+        }
         return Status::IoError("worker " + std::to_string(*it) + " (pid " +
                                std::to_string(slot.child->pid()) + ") " +
                                slot.child->exit_info().Describe() + " before it was ready" +
