@@ -1,5 +1,6 @@
 #include "common/partial_codec.h"
 
+#include <algorithm>
 #include <cstring>
 
 #include <xxhash.h>
@@ -143,11 +144,30 @@ Status DecodePartial(std::string_view bytes, PartialState* out) {
   unsigned long long frame = ZSTD_getFrameContentSize(z.data(), z.size());
   if (frame == ZSTD_CONTENTSIZE_ERROR || frame == ZSTD_CONTENTSIZE_UNKNOWN || frame != raw_len)
     return Status::Corrupt("partial state body is not the zstd frame its header describes");
-  std::string body(raw_len, '\0');
-  size_t n = ZSTD_decompressDCtx(Contexts().d, body.data(), body.size(), z.data(), z.size());
-  if (ZSTD_isError(n) || n != raw_len)
-    return Status::Corrupt(std::string("partial state body does not decompress: ") +
-                           (ZSTD_isError(n) ? ZSTD_getErrorName(n) : "short"));
+  // Decompress as a stream into a buffer that grows with real output, so a
+  // header that merely claims a huge body cannot make us allocate it.
+  std::string body;
+  body.resize(std::min<uint64_t>(raw_len, uint64_t{1} << 20));
+  ZSTD_DCtx* d = Contexts().d;
+  ZSTD_DCtx_reset(d, ZSTD_reset_session_only);
+  ZSTD_inBuffer in{z.data(), z.size(), 0};
+  size_t produced = 0;
+  for (;;) {
+    if (produced == body.size()) {
+      if (body.size() >= raw_len) break;
+      body.resize(std::min<uint64_t>(raw_len, static_cast<uint64_t>(body.size()) * 2));
+    }
+    ZSTD_outBuffer out{body.data() + produced, body.size() - produced, 0};
+    size_t ret = ZSTD_decompressStream(d, &out, &in);
+    produced += out.pos;
+    if (ZSTD_isError(ret))
+      return Status::Corrupt(std::string("partial state body does not decompress: ") + ZSTD_getErrorName(ret));
+    if (ret == 0) break;  // frame complete
+    if (in.pos == in.size && out.pos < out.size) return Status::Corrupt("partial state body is truncated");
+  }
+  if (produced != raw_len || in.pos != in.size)
+    return Status::Corrupt("partial state body is not the length its header says");
+  body.resize(produced);
   ByteReader r(body);
   uint64_t ns = r.Count(2);
   if (!r.ok() || ns > ReadStats::kMaxSamples) return Status::Corrupt("partial state has a bad sample count");

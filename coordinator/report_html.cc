@@ -184,7 +184,8 @@ std::string SummarySection(const RunRecord& r, const RunAnalysis& a) {
             Num("bytes.decompressed", std::to_string(t.bytes_decompressed), Megabytes(t.bytes_decompressed)) +
                 " decompressed");
   h += Card("Wall time", Num("wall_seconds", Fmt("%.17g", t.wall_seconds), Fmt("%.2f s", t.wall_seconds)),
-            Fmt("%.1f MB/s", mbps) + " · " + GroupedInteger(static_cast<uint64_t>(rps + 0.5)) + " records/s");
+            Fmt("%.1f MB/s", mbps) + " · " + GroupedInteger(static_cast<uint64_t>(rps + 0.5)) + " records/s" +
+                (r.sessions.size() > 1 && t.from_summary ? " (the last session)" : ""));
   h += Card("Workers", Num("workers", std::to_string(t.workers), std::to_string(t.workers)),
             std::to_string(r.sessions.size()) + (r.sessions.size() == 1 ? " session" : " sessions"));
   h += "</div>";
@@ -218,7 +219,11 @@ std::string SessionSection(const RunRecord& r, const SessionView& v, size_t ordi
                   Esc(name) + "</h2><p class=\"lead\">" + std::to_string(v.attempts.size()) + " attempts on " +
                   std::to_string(v.lanes) + (v.lanes == 1 ? " worker" : " workers") + " over " +
                   DurationText(v.span_s) + "; " + std::to_string(retried) + " retried, " + std::to_string(failed) +
-                  " failed. Largest shards are dispatched first.</p>";
+                  " failed. Largest shards are dispatched first." +
+                  (s.interrupted ? " Interrupted after " + DurationText(v.span_s) +
+                                       "; shards in flight then left no attempt in the journal."
+                                 : std::string()) +
+                  "</p>";
   h += TimelineSvg(r, v) + Legend();
   h += "<h2 style=\"margin-top:18px\">Throughput over time</h2><p class=\"lead\">Decompressed input per second, "
        "each shard's bytes spread evenly over its attempt; hover for records/s.</p>";
