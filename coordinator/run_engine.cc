@@ -15,6 +15,7 @@
 #include "common/file_util.h"
 #include "common/job_loader.h"
 #include "common/output_table.h"
+#include "common/shm_segment.h"
 #include "common/signal_guard.h"
 #include "coordinator/console_log.h"
 #include "coordinator/merger.h"
@@ -139,6 +140,9 @@ CommandOutcome ExecuteRun(const RunInput& in, const RunOptions& o) {
   const ShardList& list = *in.shards;
   RunDirectory& dir = *in.dir;
   SignalGuard signals;
+  // Orphans of coordinators that died are removed at every start, even when
+  // nothing is left to process and no transport is made.
+  ShmSegment::RemoveStaleSegments();
 
   Merger merger(&plan, static_cast<uint32_t>(list.shards.size()));
   for (uint32_t s : in.reused) {
