@@ -21,17 +21,6 @@ import e2e_lib as lib  # noqa: E402
 TRIALS = int(os.environ.get("FANFOLD_CRASH_TRIALS", "30"))
 
 
-def segments():
-    """fanfold segments in /dev/shm whose owner (the pid in the name) is dead:
-    leaks. Segments of live coordinators (other tests running in parallel)
-    are not ours to judge."""
-    out = []
-    for f in os.listdir("/dev/shm"):
-        parts = f.split("-")
-        if f.startswith("fanfold-") and len(parts) >= 3 and parts[1].isdigit():
-            if not os.path.exists("/proc/" + parts[1]):
-                out.append(f)
-    return sorted(out)
 
 
 def children(pid):
@@ -187,7 +176,7 @@ def main():
             c.check(rc == 0 and read(env.path("sigint.csv")) == ref, "SIGINT: resume gives identical output")
         else:
             c.check(proc.returncode == 0, "SIGINT: exit 130 (or 0 if it finished first), got %d" % proc.returncode)
-        c.check(segments() == [], "SIGINT: no segment left: %s" % segments())
+        c.check(lib.leaked_segments() == [], "SIGINT: no segment left: %s" % lib.leaked_segments())
 
         # Randomised: SIGKILL a random worker at a random moment.
         for t in range(TRIALS):
@@ -230,7 +219,7 @@ def main():
                 rc, _, err = env.fanfold_run("run", job, "-q", "-o", out, "--run-dir", rd, "--fresh")
             c.check(rc == 0, "coordinator-kill trial %d: finishing exits 0 (got %d) %s" % (t, rc, lib.tail(err)))
             c.check(os.path.exists(out) and read(out) == ref, "coordinator-kill trial %d: output identical" % t)
-            c.check(segments() == [], "coordinator-kill trial %d: /dev/shm clean after the next start" % t)
+            c.check(lib.leaked_segments() == [], "coordinator-kill trial %d: /dev/shm clean after the next start" % t)
 
         # Storage faults: a run directory that cannot be created; a full disk.
         blocker = env.path("not-a-dir")
@@ -254,7 +243,7 @@ def main():
                 subprocess.run(["umount", mnt])
         else:
             c.fail("could not mount a small tmpfs to test a full disk (needs root)")
-        c.check(segments() == [], "no segment left at the end: %s" % segments())
+        c.check(lib.leaked_segments() == [], "no segment left at the end: %s" % lib.leaked_segments())
     c.exit()
 
 

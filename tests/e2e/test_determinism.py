@@ -18,17 +18,6 @@ sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 import e2e_lib as lib  # noqa: E402
 
 
-def our_segments():
-    """fanfold segments in /dev/shm whose owner (the pid in the name) is dead:
-    leaks. Segments of live coordinators (other tests running in parallel)
-    are not ours to judge."""
-    out = []
-    for f in os.listdir("/dev/shm"):
-        parts = f.split("-")
-        if f.startswith("fanfold-") and len(parts) >= 3 and parts[1].isdigit():
-            if not os.path.exists("/proc/" + parts[1]):
-                out.append(f)
-    return sorted(out)
 
 
 def outputs_for(env, checks, job, name, variants):
@@ -68,7 +57,7 @@ def main():
     args = lib.parse_args(__doc__)
     checks = lib.Checks("test_determinism")
     with lib.Env(args) as env:
-        before = our_segments()
+        before = lib.leaked_segments()
         jobs = sorted(glob.glob(os.path.join(env.src, "jobs", "*.json")))
         checks.check(len(jobs) >= 4, "at least four example jobs")
         for job in jobs:
@@ -130,7 +119,7 @@ def main():
             checks.check(data == c.get("j1"), "chunked %s identical to chunked -j 1" % label)
 
         # Intent: shared-memory hygiene after normal runs.
-        checks.check(our_segments() == before, "no fanfold segment left in /dev/shm (found %s)" % our_segments())
+        checks.check(lib.leaked_segments() == before, "no fanfold segment left in /dev/shm (found %s)" % lib.leaked_segments())
     checks.exit()
 
 
