@@ -58,8 +58,12 @@ Status HyperLogLogState::Merge(const MeasureState& other) {
     if (registers_.empty()) {
       registers_ = o->registers_;
     } else {
-      for (size_t i = 0; i < registers_.size(); ++i)
-        registers_[i] = std::max(registers_[i], o->registers_[i]);
+      // Plain local pointers so the compiler vectorises the register max
+      // (through the vectors it reloads both pointers every iteration).
+      uint8_t* __restrict dst = registers_.data();
+      const uint8_t* __restrict src = o->registers_.data();
+      const size_t m = registers_.size();
+      for (size_t i = 0; i < m; ++i) dst[i] = dst[i] > src[i] ? dst[i] : src[i];
     }
   }
   skipped_ += o->skipped_;
@@ -89,7 +93,8 @@ void HyperLogLogState::Encode(ByteWriter& w) const {
   w.Varint(skipped_);
   const size_t m = size_t{1} << p_;
   size_t k = 0;
-  for (uint8_t reg : registers_) k += reg != 0;
+  const uint8_t* __restrict regs = registers_.data();
+  for (size_t i = 0, n = registers_.size(); i < n; ++i) k += regs[i] != 0;
   if (4 * k < m) {
     w.U8(1);
     w.Varint(k);
