@@ -25,6 +25,11 @@ Value Expr::Eval(const Value* slots, ScratchArena* arena) const {
 
 const std::string& Expr::text() const { return program_->text; }
 
+int Expr::DirectSlot() const {
+  const auto& nodes = program_->nodes;
+  return nodes.size() == 1 && nodes[0].op == ExprOp::kSlot ? nodes[0].slot : -1;
+}
+
 std::vector<int> Expr::SlotsRead() const {
   std::vector<int> out;
   for (const ExprNode& n : program_->nodes)

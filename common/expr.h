@@ -36,6 +36,11 @@ class Expr {
   // The FieldTable slots this expression reads (each once, ascending).
   std::vector<int> SlotsRead() const;
 
+  // The slot, iff the whole expression is a plain field or derived-field
+  // reference (then Eval(slots) == slots[slot]); -1 otherwise. Lets hot
+  // loops skip the evaluator for the commonest expression.
+  int DirectSlot() const;
+
   Expr(Expr&&) noexcept;
   Expr& operator=(Expr&&) noexcept;
   ~Expr();

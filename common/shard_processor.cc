@@ -3,6 +3,7 @@
 #include <sys/stat.h>
 
 #include <algorithm>
+#include <array>
 #include <chrono>
 #include <cmath>
 #include <cstdio>
@@ -43,7 +44,14 @@ class TimedSource final : public ByteSource {
 class Aggregator final : public RecordSink {
  public:
   Aggregator(const Plan& plan, GroupTable* table, const std::function<void(uint64_t)>& hook)
-      : plan_(plan), table_(table), hook_(hook) {}
+      : plan_(plan), table_(table), hook_(hook) {
+    for (const Expr& g : plan.group) group_direct_.push_back(g.DirectSlot());
+    for (const CompiledMeasure& m : plan.measures) {
+      std::array<int, 2> d = {-1, -1};
+      for (size_t a = 0; a < m.args.size() && a < 2; ++a) d[a] = m.args[a].DirectSlot();
+      arg_direct_.push_back(d);
+    }
+  }
 
   // Every kSampleEvery-th record is timed; the total is extrapolated, so
   // the clock costs almost nothing per record.
@@ -76,12 +84,18 @@ class Aggregator final : public RecordSink {
     for (size_t i : plan_.derive_after_keep) Derive(i, slots);
     ++kept_;
     key_.clear();
-    for (const Expr& g : plan_.group) AppendKeyValue(g.Eval(slots, &arena_), &key_);
+    for (size_t g = 0; g < plan_.group.size(); ++g) {
+      const int d = group_direct_[g];
+      AppendKeyValue(d >= 0 ? slots[d] : plan_.group[g].Eval(slots, &arena_), &key_);
+    }
     MeasureState* const* states = table_->FindOrAdd(key_);
     Value args[2];
     for (size_t m = 0; m < plan_.measures.size(); ++m) {
       const CompiledMeasure& cm = plan_.measures[m];
-      for (size_t a = 0; a < cm.args.size(); ++a) args[a] = cm.args[a].Eval(slots, &arena_);
+      for (size_t a = 0; a < cm.args.size(); ++a) {
+        const int d = arg_direct_[m][a];
+        args[a] = d >= 0 ? slots[d] : cm.args[a].Eval(slots, &arena_);
+      }
       if (!states[m]->Add(args)) {
         over_limit_ = static_cast<int>(m);
         return false;
@@ -104,6 +118,8 @@ class Aggregator final : public RecordSink {
   uint64_t kept_ = 0;
   int over_limit_ = -1;
   uint64_t sampled_ns_ = 0;
+  std::vector<int> group_direct_;              // Expr::DirectSlot of each key
+  std::vector<std::array<int, 2>> arg_direct_;  // ... of each measure argument
 };
 
 std::string Percent(double f) {

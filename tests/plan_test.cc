@@ -67,3 +67,19 @@ TEST_CASE("expression errors carry the JSON Pointer and the column") {
   m = CompileError(R"J({"inputs": {"files": ["a"]}, "group": ["{/n}"], "measures": [{"name": "n", "fn": "count"}]})J");
   CHECK(m.find("/measures/0/name: output column \"n\" is already used") != std::string::npos);
 }
+
+TEST_CASE("DirectSlot names the slot of a plain reference only") {
+  // Intent: the shortcut the aggregator takes is exact: only a lone field or
+  // derived-field reference skips the evaluator.
+  FieldTable fields;
+  Result<Expr> plain = Expr::Compile("{/a}", &fields);
+  Result<Expr> sum = Expr::Compile("{/a} + 1", &fields);
+  REQUIRE(plain.ok());
+  REQUIRE(sum.ok());
+  CHECK(plain->DirectSlot() == fields.InternField("/a"));
+  CHECK(sum->DirectSlot() == -1);
+  fields.AddDerived("d");
+  Result<Expr> derived = Expr::Compile("d", &fields);
+  REQUIRE(derived.ok());
+  CHECK(derived->DirectSlot() == fields.FindDerived("d"));
+}
