@@ -6,6 +6,7 @@
 #pragma once
 
 #include <cstdint>
+#include <functional>
 #include <map>
 #include <string>
 #include <vector>
@@ -44,6 +45,13 @@ class Merger {
   // Records that shard will never deliver a partial.
   void MarkFailed(uint32_t shard);
 
+  // Where early partials can be read back from (the run directory). With a
+  // reloader set, a partial that arrives before its turn is not kept in
+  // memory — only its shard number is — so the coordinator's memory does not
+  // grow with the number of shards that finish out of order.
+  using Reloader = std::function<Status(uint32_t shard, std::string* out)>;
+  void SetReloader(Reloader reload) { reload_ = std::move(reload); }
+
   // True iff every shard was added or marked failed.
   bool complete() const { return next_ == shard_count_; }
   const MergeTotals& totals() const { return totals_; }
@@ -68,7 +76,8 @@ class Merger {
   uint32_t next_ = 0;  // lowest shard not yet merged or skipped
   std::vector<MeasureConfig> configs_;
   GroupTable result_;
-  std::map<uint32_t, std::string> waiting_;  // early partials by shard
+  std::map<uint32_t, std::string> waiting_;  // early partials by shard ("" = reload it)
+  Reloader reload_;
   std::vector<bool> failed_;
   MergeTotals totals_;
   std::vector<MalformedReport> samples_;

@@ -236,28 +236,37 @@ Status RunDirectory::Commit() {
   return Status::Ok();
 }
 
-Status RunDirectory::LoadPartial(uint32_t shard, std::string* out) const {
-  out->clear();
-  auto it = index_.find(shard);
-  if (it == index_.end()) return Status::Ok();
-  const std::string pack = PackPath(it->second.pack);
-  int fd = ::open(pack.c_str(), O_RDONLY | O_CLOEXEC);
-  if (fd < 0) return Io("open", pack, errno);
-  out->resize(it->second.length);
+Status RunDirectory::ReadRange(const std::string& path, uint64_t offset, uint64_t length, std::string* out) {
+  int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
+  if (fd < 0) return Io("open", path, errno);
+  out->resize(length);
   size_t done = 0;
   while (done < out->size()) {
-    ssize_t n = ::pread(fd, out->data() + done, out->size() - done, static_cast<off_t>(it->second.offset + done));
+    ssize_t n = ::pread(fd, out->data() + done, out->size() - done, static_cast<off_t>(offset + done));
     if (n < 0 && errno == EINTR) continue;
     if (n <= 0) {
       int err = n < 0 ? errno : EIO;
       ::close(fd);
       out->clear();
-      return Io("read", pack, err);
+      return Io("read", path, err);
     }
     done += static_cast<size_t>(n);
   }
   ::close(fd);
   return Status::Ok();
+}
+
+Status RunDirectory::LoadPartial(uint32_t shard, std::string* out) const {
+  out->clear();
+  auto it = index_.find(shard);
+  if (it == index_.end()) return Status::Ok();
+  return ReadRange(PackPath(it->second.pack), it->second.offset, it->second.length, out);
+}
+
+Status RunDirectory::LoadStagedOrCommitted(uint32_t shard, std::string* out) const {
+  for (const auto& [s, loc] : staged_)
+    if (s == shard) return ReadRange(PackPath(loc.pack) + ".tmp", loc.offset, loc.length, out);
+  return LoadPartial(shard, out);
 }
 
 void RunDirectory::DiscardPartial(uint32_t shard) { index_.erase(shard); }

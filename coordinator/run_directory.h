@@ -65,6 +65,8 @@ class RunDirectory {
 
   // Reads shard's committed partial (empty string iff there is none).
   Status LoadPartial(uint32_t shard, std::string* out) const;
+  // Reads shard's partial staged in the open batch, else its committed one.
+  Status LoadStagedOrCommitted(uint32_t shard, std::string* out) const;
   // Forgets shard's committed partial (a corrupt or stale one); a later
   // commit of the shard supersedes it on disk too.
   void DiscardPartial(uint32_t shard);
@@ -80,6 +82,7 @@ class RunDirectory {
   // Reads every committed pack into index_.
   void IndexPacks();
   std::string PackPath(uint64_t seq) const;
+  static Status ReadRange(const std::string& path, uint64_t offset, uint64_t length, std::string* out);
 
   struct Location {
     uint64_t pack = 0;    // pack sequence number

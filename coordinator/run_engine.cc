@@ -145,6 +145,11 @@ CommandOutcome ExecuteRun(const RunInput& in, const RunOptions& o) {
   ShmSegment::RemoveStaleSegments();
 
   Merger merger(&plan, static_cast<uint32_t>(list.shards.size()));
+  merger.SetReloader([&dir](uint32_t shard, std::string* out) {
+    Status s = dir.LoadStagedOrCommitted(shard, out);
+    if (s.ok() && out->empty()) s = Status::Internal("no saved partial for shard " + std::to_string(shard));
+    return s;
+  });
   for (uint32_t s : in.reused) {
     std::string bytes;
     Status st = dir.LoadPartial(s, &bytes);
