@@ -10,11 +10,13 @@
 #include <cstring>
 #include <ctime>
 
+#include "common/os_error.h"
+
 namespace fanfold {
 namespace {
 
 Status ErrnoStatus(const std::string& what, int err) {
-  return Status::IoError(what + ": " + std::strerror(err));
+  return Status::IoError(what + ": " + ErrnoText(err));
 }
 
 ExitInfo FromWaitStatus(int status) {

@@ -3,6 +3,7 @@
 // detached from its bp::child and owned by ChildProcess, which reaps it with
 // waitpid itself: bp::child folds "killed by signal N" into exit code N, and
 // its destructor would kill a pid that might have been reused.
+#include "common/os_error.h"
 #include "common/process_spawner.h"
 
 #include <fcntl.h>
@@ -65,12 +66,12 @@ struct ChildSetup : bp::extend::handler {
 
 Result<std::unique_ptr<ChildProcess>> ChildProcess::Spawn(const SpawnOptions& options) {
   if (::access(options.executable.c_str(), X_OK) != 0) {
-    return Status::IoError("cannot run '" + options.executable + "': " + std::strerror(errno));
+    return Status::IoError("cannot run '" + options.executable + "': " + ErrnoText(errno));
   }
   int fds[2];
   if (::pipe2(fds, O_CLOEXEC) != 0) {
     return Status::IoError(std::string("cannot create a pipe for a child's output: ") +
-                           std::strerror(errno));
+                           ErrnoText(errno));
   }
   int pid = -1;
   try {

@@ -7,11 +7,13 @@
 #include <cerrno>
 #include <cstring>
 
+#include "common/os_error.h"
+
 namespace fanfold {
 namespace {
 
 Status ErrnoStatus(const std::string& what, const std::string& path, int err) {
-  return Status::IoError(what + " '" + path + "': " + std::strerror(err));
+  return Status::IoError(what + " '" + path + "': " + ErrnoText(err));
 }
 
 // Closes fd on every exit path.
