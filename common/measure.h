@@ -77,6 +77,11 @@ class MeasureState {
 
   // Arguments fed that the measure could not use.
   virtual uint64_t skipped() const = 0;
+
+  // True iff the result is no longer exact where the measure promises
+  // exactness while within its bound (top past `limit`: counts become lower
+  // bounds). The run summary says so instead of staying silent.
+  virtual bool degraded() const { return false; }
 };
 
 // Returns a new empty state for config. REQUIRES: config validated.

@@ -37,6 +37,7 @@ class TopState final : public MeasureState {
 
   // True iff no counter was ever decremented: every count is exact.
   bool exact() const { return exact_; }
+  bool degraded() const override { return !exact_; }
   // The most any count can be short by (0 when exact()).
   uint64_t ErrorBound() const;
   // The counter kept for v (0 if none). For tests.

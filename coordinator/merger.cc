@@ -77,6 +77,7 @@ Result<OutputTable> Merger::Finish() {
   if (plan_->group.empty() && result_.group_count() == 0) (void)result_.FindOrAdd("");
   t.rows.reserve(result_.group_count());
   skipped_.assign(plan_->measures.size(), 0);
+  degraded_.assign(plan_->measures.size(), 0);
   for (size_t g = 0; g < result_.group_count(); ++g) {
     std::vector<Cell> row;
     row.reserve(t.columns.size());
@@ -85,6 +86,7 @@ Result<OutputTable> Merger::Finish() {
     for (size_t m = 0; m < plan_->measures.size(); ++m) {
       states[m]->Finalize(&row);
       skipped_[m] += states[m]->skipped();
+      degraded_[m] += states[m]->degraded() ? 1 : 0;
     }
     t.rows.push_back(std::move(row));
   }

@@ -67,6 +67,9 @@ class Merger {
   // After Finish: per measure, the values it skipped (missing, null or not
   // usable, e.g. text for a numeric measure), over all groups.
   const std::vector<uint64_t>& skipped() const { return skipped_; }
+  // After Finish: per measure, the groups whose result is not exact although
+  // the measure is exact within its bound (MeasureState::degraded).
+  const std::vector<uint64_t>& degraded() const { return degraded_; }
 
  private:
   void Drain();  // merges every ready partial starting at next_
@@ -83,6 +86,7 @@ class Merger {
   std::vector<MalformedReport> samples_;
   std::vector<std::pair<uint32_t, std::string>> late_failures_;
   std::vector<uint64_t> skipped_;
+  std::vector<uint64_t> degraded_;
   Status fatal_;  // first merge failure (a limit exceeded across shards)
 };
 

@@ -110,8 +110,11 @@ json SummaryJson(const RunInput& in, const RunSummary& s, const Merger& merger, 
     samples.push_back({{"shard", m.shard}, {"path", in.shards->shards[m.shard].path}, {"line", m.sample.line},
                        {"reason", m.sample.reason}});
   json skipped = json::object();
-  for (size_t m = 0; m < plan.measures.size() && m < merger.skipped().size(); ++m)
+  json inexact = json::object();
+  for (size_t m = 0; m < plan.measures.size() && m < merger.skipped().size(); ++m) {
     skipped[plan.measures[m].name] = merger.skipped()[m];
+    if (merger.degraded()[m] > 0) inexact[plan.measures[m].name] = merger.degraded()[m];
+  }
   const MergeTotals& t = s.totals;
   return {{"job", plan.spec.job_path},
           {"plan", FingerprintHex(plan.fingerprint)},
@@ -125,6 +128,7 @@ json SummaryJson(const RunInput& in, const RunSummary& s, const Merger& merger, 
           {"failed", failed},
           {"malformed_samples", samples},
           {"skipped", skipped},
+          {"inexact_groups", inexact},
           {"output", output.empty() ? "stdout" : output}};
 }
 
@@ -254,6 +258,12 @@ CommandOutcome ExecuteRun(const RunInput& in, const RunOptions& o) {
     if (merger.skipped()[m] > 0)
       note("measure \"" + plan.measures[m].name + "\" skipped " + GroupedInteger(merger.skipped()[m]) +
            " values that were missing, null or not usable");
+  }
+  for (size_t m = 0; m < plan.measures.size(); ++m) {
+    if (merger.degraded()[m] > 0)
+      note("warning: measure \"" + plan.measures[m].name + "\" saw more distinct values than its limit of " +
+           std::to_string(plan.measures[m].config.limit) + " in " + GroupedInteger(merger.degraded()[m]) +
+           " groups; its counts there are lower bounds (raise \"limit\" for exact counts)");
   }
   if (!path.empty()) note("result written to " + path);
   out.shards_failed = !loop.failures.empty();
