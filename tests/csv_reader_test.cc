@@ -14,31 +14,11 @@
 #include <vector>
 
 #include "common/record_reader.h"
+#include "tests/reader_test_util.h"
 
 namespace fanfold {
 namespace {
 
-std::string Show(const Value& v) {
-  if (v.kind == ValueKind::kMissing) return "-";
-  if (v.kind == ValueKind::kString) return "'" + std::string(v.str) + "'";
-  return "?";
-}
-
-class Collect : public RecordSink {
- public:
-  explicit Collect(size_t n, size_t stop_after = SIZE_MAX) : n_(n), stop_after_(stop_after) {}
-  bool OnRecord(Value* slots) override {
-    std::string row;
-    for (size_t i = 0; i < n_; ++i) row += (i ? "|" : "") + Show(slots[i]);
-    rows.push_back(row);
-    return rows.size() < stop_after_;
-  }
-  std::vector<std::string> rows;
-
- private:
-  size_t n_;
-  size_t stop_after_;
-};
 
 FieldTable Fields(const std::vector<std::string>& names) {
   FieldTable t;
