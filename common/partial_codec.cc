@@ -43,15 +43,20 @@ ZstdContexts& Contexts() {
 
 uint64_t PathHash(std::string_view path) { return XXH3_64bits(path.data(), path.size()); }
 
-void EncodePartial(const PartialState& p, std::string* out) {
-  std::string body;
-  ByteWriter bw(&body);
+void EncodePartialBody(const PartialState& p, std::string* body) {
+  body->clear();
+  ByteWriter bw(body);
   bw.Varint(p.samples.size());
   for (const auto& s : p.samples) {
     bw.Varint(s.line);
     bw.Str(s.reason);
   }
   p.groups.Encode(bw);
+}
+
+void EncodePartial(const PartialState& p, std::string* out) {
+  std::string body;
+  EncodePartialBody(p, &body);
 
   std::string z(ZSTD_compressBound(body.size()), '\0');
   size_t zn = ZSTD_compressCCtx(Contexts().c, z.data(), z.size(), body.data(), body.size(), 1);

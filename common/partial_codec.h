@@ -77,6 +77,9 @@ uint64_t PathHash(std::string_view path);
 // written once and read once, so speed beats ratio.
 void EncodePartial(const PartialState& p, std::string* out);
 
+// The body alone, before compression (samples, then the group table).
+void EncodePartialBody(const PartialState& p, std::string* body);
+
 // Rewrites the encode-time field of an encoded partial (and its checksum):
 // the time to encode is only known once encoding is done.
 void SetPartialEncodeTime(uint64_t ns, std::string* partial);

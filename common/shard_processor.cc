@@ -43,8 +43,8 @@ class TimedSource final : public ByteSource {
 // Receives records from the reader and applies the plan to them.
 class Aggregator final : public RecordSink {
  public:
-  Aggregator(const Plan& plan, GroupTable* table, const std::function<void(uint64_t)>& hook)
-      : plan_(plan), table_(table), hook_(hook) {
+  Aggregator(const Plan& plan, GroupTable* table, const std::function<void(uint64_t)>& hook, bool every)
+      : plan_(plan), table_(table), hook_(hook), hook_mask_(every ? 0 : 4095) {
     for (const Expr& g : plan.group) group_direct_.push_back(g.DirectSlot());
     for (const CompiledMeasure& m : plan.measures) {
       std::array<int, 2> d = {-1, -1};
@@ -78,7 +78,7 @@ class Aggregator final : public RecordSink {
   bool Apply(Value* slots) {
     arena_.Reset();
     ++seen_;
-    if (hook_) hook_(seen_);
+    if ((seen_ & hook_mask_) == 0 && hook_) hook_(seen_);
     for (size_t i : plan_.derive_before_keep) Derive(i, slots);
     if (plan_.keep && !plan_.keep->Eval(slots, &arena_).Truthy()) return true;
     for (size_t i : plan_.derive_after_keep) Derive(i, slots);
@@ -112,6 +112,7 @@ class Aggregator final : public RecordSink {
   const Plan& plan_;
   GroupTable* table_;
   const std::function<void(uint64_t)>& hook_;
+  uint64_t hook_mask_;  // the hook runs when (records & mask) == 0
   ScratchArena arena_;
   std::string key_;
   uint64_t seen_ = 0;
@@ -145,7 +146,7 @@ Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
   if (!src.ok()) return src.status().WithContext(where);
 
   PartialState state(&configs_);
-  Aggregator agg(*plan_, &state.groups, on_record);
+  Aggregator agg(*plan_, &state.groups, on_record, on_every_record);
   ReadStats stats;
   TimedSource timed(src->get());
   const uint64_t t0 = NowNs();

@@ -29,9 +29,11 @@ class ShardProcessor {
   // the job's bad_record_limit.
   Status Process(const ShardTask& task, std::string* partial);
 
-  // Test-only fault injection hook, called with the running record count
-  // after each record; set by the worker from its test switches.
+  // Called with the running record count every 4096 records (progress), or
+  // after every record when on_every_record is set (test-only fault
+  // injection, which needs exact counts).
   std::function<void(uint64_t records)> on_record;
+  bool on_every_record = false;
 
  private:
   const Plan* plan_;

@@ -29,11 +29,12 @@ int main(int argc, char** argv) {
     return kExitUsage;
   }
   ShardProcessor processor(plan->get());
+  processor.on_every_record = !faults->faults().empty();
   ProcessFn process = [&](const ShardTask& task, ProgressFn progress) -> Result<std::string> {
     const FaultPlan& f = *faults;
     processor.on_record = [&](uint64_t n) {
       if ((n & 4095) == 0) progress(n, 0);
-      f.OnRecord(task, n);
+      if (processor.on_every_record) f.OnRecord(task, n);
     };
     f.OnStart(task);
     std::string partial;

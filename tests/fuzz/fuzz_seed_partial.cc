@@ -81,13 +81,7 @@ int main(int argc, char** argv) {
   ok = ok && Write(dir, "partial_stored_body", 1, std::string_view(encoded).substr(kPartialHeaderSize));
 
   std::string body;
-  ByteWriter bw(&body);
-  bw.Varint(p.samples.size());
-  for (const MalformedSample& s : p.samples) {
-    bw.Varint(s.line);
-    bw.Str(s.reason);
-  }
-  p.groups.Encode(bw);
+  EncodePartialBody(p, &body);
   ok = ok && Write(dir, "partial_body", 2, body);
 
   std::string table;
