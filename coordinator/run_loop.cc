@@ -53,8 +53,11 @@ Status RunShards(const ShardList& list, const std::vector<uint32_t>& order, Tran
       task.length = s.length;
       task.compression = s.compression;
       task.attempt = attempt;
+      // The attempt starts when it is handed out: Assign may return after
+      // the worker has already begun.
+      const uint64_t start_ns = WallNs();
       FF_RETURN_IF_ERROR(transport.Assign(w, task));
-      workers[w] = InFlight{true, shard, attempt, WallNs(), false};
+      workers[w] = InFlight{true, shard, attempt, start_ns, false};
       ++in_flight;
     }
     TransportEvent ev;
