@@ -2,7 +2,7 @@
 // partial states. Builds P encoded partials of G groups each (744 x 50,000
 // by default) with the measures of a benchmark job file, through the same
 // GroupTable / PartialState / EncodePartial path a worker uses, and times
-// Merger::Add (header check, checksum, zstd, decode, MergeFrom) for each, in
+// Merger::Add (header check, checksum, zstd, check, merge from the bytes) for each, in
 // shard order, then Merger::Finish. Encoding is not timed: T templates are
 // encoded once, and each partial is a copy of one with its shard index
 // restamped. --time-limit stops early and extrapolates to all P partials.

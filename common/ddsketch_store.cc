@@ -116,32 +116,90 @@ void DDSketchStore::Encode(ByteWriter& w) const {
   }
   w.Varint(static_cast<uint64_t>(hi_ - lo_) + 1);
   w.Varint(ZigZag(lo_));
-  for (int32_t i = lo_; i <= hi_; ++i) w.Varint(counts_[i - offset_]);
+  uint64_t empty_run = 0;
+  for (int32_t i = lo_; i <= hi_; ++i) {
+    const uint64_t c = counts_[i - offset_];
+    if (c == 0) {
+      ++empty_run;
+      continue;
+    }
+    if (empty_run > 0) {
+      w.Varint(0);
+      w.Varint(empty_run);
+      empty_run = 0;
+    }
+    w.Varint(c);
+  }
 }
 
-bool DDSketchStore::Decode(ByteReader& r) {
-  const uint64_t span = r.Count(1);  // every count takes at least one byte
+bool DDSketchStore::ReadRun(ByteReader& r, EncodedRun* out) {
+  const uint64_t span = r.Varint();
   if (!r.ok() || span > static_cast<uint64_t>(kMaxSpan)) return false;
-  if (span == 0) {
-    *this = DDSketchStore();
-    return true;
-  }
+  *out = EncodedRun();
+  if (span == 0) return true;
   const int64_t lo = UnZigZag(r.Varint());
   // lo comes from the input: compare it with a bound rather than add to it.
   if (!r.ok() || lo < kMinIndex || lo > kMaxIndex - static_cast<int64_t>(span) + 1) return false;
-  std::vector<uint64_t> counts(span);
-  uint64_t total = 0;
-  for (uint64_t i = 0; i < span; ++i) {
-    counts[i] = r.Varint();
-    if (!r.ok() || counts[i] > kMaxTotal - total) return false;
-    total += counts[i];
+  out->counts = r;
+  uint64_t total = 0, covered = 0;
+  bool after_empty_run = false;
+  while (covered < span) {
+    const uint64_t c = r.Varint();
+    if (!r.ok() || c > kMaxTotal - total) return false;
+    if (c > 0) {
+      total += c;
+      ++covered;
+      after_empty_run = false;
+      continue;
+    }
+    // A run of empty buckets: never first, never next to another run, and
+    // it must leave room for a non-empty last bucket.
+    const uint64_t run = r.Varint();
+    if (!r.ok() || covered == 0 || after_empty_run || run == 0 || run >= span - covered) return false;
+    covered += run;
+    after_empty_run = true;
   }
-  if (counts.front() == 0 || counts.back() == 0) return false;  // not canonical
-  counts_.swap(counts);
-  offset_ = lo_ = static_cast<int32_t>(lo);
-  hi_ = static_cast<int32_t>(lo + static_cast<int64_t>(span) - 1);
-  total_ = total;
+  out->lo = static_cast<int32_t>(lo);
+  out->span = span;
+  out->total = total;
   return true;
+}
+
+bool DDSketchStore::Decode(ByteReader& r) {
+  EncodedRun run;
+  if (!ReadRun(r, &run)) return false;
+  *this = DDSketchStore();
+  if (run.span == 0) return true;
+  counts_.assign(run.span, 0);
+  ForEachBucket(run, [this](uint64_t i, uint64_t c) { counts_[i] = c; });
+  offset_ = lo_ = run.lo;
+  hi_ = static_cast<int32_t>(run.lo + static_cast<int64_t>(run.span) - 1);
+  total_ = run.total;
+  return true;
+}
+
+void DDSketchStore::MergeRun(const EncodedRun& run) {
+  if (run.span == 0) return;
+  const int32_t run_hi = static_cast<int32_t>(run.lo + static_cast<int64_t>(run.span) - 1);
+  const int32_t new_lo = total_ == 0 ? run.lo : std::min(lo_, run.lo);
+  const int32_t new_hi = total_ == 0 ? run_hi : std::max(hi_, run_hi);
+  if (static_cast<int64_t>(new_hi) - new_lo < kMaxSpan) {
+    // Nothing folds, so the order of additions cannot matter: add the run
+    // in one pass over the bytes.
+    Cover(new_lo, new_hi);
+    uint64_t* dst = counts_.data() + (run.lo - offset_);
+    ForEachBucket(run, [dst](uint64_t i, uint64_t c) { dst[i] += c; });
+    lo_ = new_lo;
+    hi_ = new_hi;
+    total_ += run.total;
+    return;
+  }
+  // Folding ahead: the general path, highest bucket first (see MergeFrom).
+  std::vector<std::pair<int32_t, uint64_t>> buckets;
+  ForEachBucket(run, [&](uint64_t i, uint64_t c) {
+    buckets.emplace_back(static_cast<int32_t>(run.lo + static_cast<int64_t>(i)), c);
+  });
+  for (auto it = buckets.rbegin(); it != buckets.rend(); ++it) Add(it->first, it->second);
 }
 
 }  // namespace fanfold

@@ -51,12 +51,46 @@ class DDSketchStore {
   int32_t IndexOfRankDescending(uint64_t r) const;
 
   // Encoding: varint span (0 iff empty), then iff span > 0: zigzag varint
-  // lowest index, span x varint count (first and last non-zero).
+  // lowest index, then entries covering exactly `span` buckets from there:
+  // varint c > 0 is one bucket's count; c = 0 is followed by varint r >= 1,
+  // r empty buckets. The first and last buckets are non-empty and no two
+  // runs of empty buckets are adjacent, so every store has one encoding —
+  // and a sparse store costs bytes per non-empty bucket, not per index.
   void Encode(ByteWriter& w) const;
   // Returns false (leaving *this unchanged) on corrupt input.
   bool Decode(ByteReader& r);
 
+  // An encoded store, checked but not copied: its counts stay in the
+  // input, where `counts` is positioned at the first one.
+  struct EncodedRun {
+    int32_t lo = 0;
+    uint64_t span = 0;  // 0 iff empty
+    uint64_t total = 0;
+    ByteReader counts{std::string_view()};  // at the first entry
+  };
+  // Reads and checks one encoded store (Decode's checks) from r. Returns
+  // false on corrupt input.
+  static bool ReadRun(ByteReader& r, EncodedRun* out);
+  // Adds a run's counts, as MergeFrom adds a decoded store's.
+  // REQUIRES: run was filled by ReadRun.
+  void MergeRun(const EncodedRun& run);
+
  private:
+  // Calls visit(i, count) for each non-empty bucket lo + i of a run, in
+  // index order. REQUIRES: run was filled by ReadRun.
+  template <class Visit>
+  static void ForEachBucket(const EncodedRun& run, Visit visit) {
+    ByteReader in = run.counts;
+    for (uint64_t i = 0; i < run.span;) {
+      const uint64_t c = in.Varint();
+      if (c == 0) {
+        i += in.Varint();
+      } else {
+        visit(i, c);
+        ++i;
+      }
+    }
+  }
   void AddSlow(int32_t index, uint64_t count);
   // Makes counts_ cover [lo, hi], keeping what it holds.
   void Cover(int32_t lo, int32_t hi);

@@ -28,29 +28,40 @@ MeasureState* const* GroupTable::FindOrAdd(std::string_view key) {
   return &states_[static_cast<size_t>(id) * measure_count()];
 }
 
-Status GroupTable::MergeFrom(GroupTable&& later) {
+Status GroupTable::CheckEncoded(std::string_view encoded) { return WalkEncoded(encoded, /*apply=*/false); }
+
+Status GroupTable::MergeEncoded(std::string_view encoded) { return WalkEncoded(encoded, /*apply=*/true); }
+
+Status GroupTable::WalkEncoded(std::string_view encoded, bool apply) {
   const size_t m = measure_count();
-  for (size_t g = 0; g < later.group_count(); ++g) {
-    const std::string& key = later.keys_[g];
-    auto it = index_.find(key);
-    if (it == index_.end()) {
-      // Adopt the later table's states: same as merging into empty ones.
-      uint32_t id = static_cast<uint32_t>(keys_.size());
-      keys_.push_back(key);
-      index_.emplace(key, id);
-      for (size_t j = 0; j < m; ++j) {
-        owned_.push_back(std::move(later.owned_[g * m + j]));
-        states_.push_back(owned_.back().get());
-      }
-      continue;
+  if (scratch_.empty())
+    for (const MeasureConfig& c : *configs_) scratch_.push_back(NewMeasureState(c));
+  ByteReader r(encoded);
+  // Each group needs at least a key length byte and m state length bytes.
+  const uint64_t n = r.Count(1 + m);
+  if (!r.ok()) return Status::Corrupt("group count larger than the partial state");
+  std::string_view previous;
+  for (uint64_t g = 0; g < n; ++g) {
+    const std::string_view key = r.Str();
+    if (!r.ok()) return Status::Corrupt("group " + std::to_string(g) + ": truncated key");
+    if (g > 0 && !(previous < key))
+      return Status::Corrupt("group " + std::to_string(g) + ": keys not in strictly ascending order");
+    previous = key;
+    MeasureState* const* mine = apply ? FindOrAdd(key) : nullptr;
+    for (size_t j = 0; j < m; ++j) {
+      const std::string_view bytes = r.Str();
+      if (!r.ok()) return Status::Corrupt("group " + std::to_string(g) + ": truncated measure state");
+      ByteReader sr(bytes);
+      // Checking runs in the scratch state itself: with apply false no
+      // override changes its target, and the default decodes into scratch.
+      MeasureState* target = apply ? mine[j] : scratch_[j].get();
+      Status s = target->MergeEncoded(sr, apply, scratch_[j].get());
+      if (!s.ok()) return s.WithContext("group " + std::to_string(g) + ", measure " + std::to_string(j));
+      if (!sr.at_end()) return Status::Corrupt("group " + std::to_string(g) + ", measure " + std::to_string(j) +
+                                               ": trailing bytes in measure state");
     }
-    MeasureState* const* mine = &states_[static_cast<size_t>(it->second) * m];
-    for (size_t j = 0; j < m; ++j) FF_RETURN_IF_ERROR(mine[j]->Merge(*later.states_[g * m + j]));
   }
-  later.owned_.clear();  // frees the states merged above
-  later.states_.clear();
-  later.keys_.clear();
-  later.index_.clear();
+  if (!r.at_end()) return Status::Corrupt("trailing bytes after the last group");
   return Status::Ok();
 }
 
@@ -81,7 +92,8 @@ Status GroupTable::Decode(ByteReader& r) {
   for (uint64_t g = 0; g < n; ++g) {
     std::string_view key = r.Str();
     if (!r.ok()) return Status::Corrupt("group " + std::to_string(g) + ": truncated key");
-    if (index_.count(key)) return Status::Corrupt("group " + std::to_string(g) + ": duplicate key");
+    if (g > 0 && !(keys_.back() < key))
+      return Status::Corrupt("group " + std::to_string(g) + ": keys not in strictly ascending order");
     AddGroup(key);
     for (size_t j = 0; j < m; ++j) {
       std::string_view bytes = r.Str();

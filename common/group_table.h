@@ -1,13 +1,14 @@
 // GroupTable: encoded group key → one MeasureState per measure. Workers fill
-// one per shard (FindOrAdd per record); the coordinator decodes shard tables
-// and folds them, in shard order, into one table with MergeFrom. Keys are
+// one per shard (FindOrAdd per record); the coordinator folds shard tables,
+// in shard order and straight from their encoding, into one table with
+// CheckEncoded + MergeEncoded. Keys are
 // the bytes of common/group_key.h; lookups hash the key once and allocate
 // only when a new group appears. Not thread-safe.
 //
 // Encoding (inside a partial state body): varint group count, then per group
-// in ascending key-byte order: key (varint length + bytes), then per measure
-// its state as varint length + bytes (so a state's decoder cannot read into
-// the next one).
+// in strictly ascending key-byte order (so a key cannot repeat): key (varint
+// length + bytes), then per measure its state as varint length + bytes (so a
+// state's decoder cannot read into the next one).
 #pragma once
 
 #include <memory>
@@ -42,9 +43,14 @@ class GroupTable {
   const std::string& key(size_t i) const { return keys_[i]; }
   MeasureState* const* states(size_t i) const { return &states_[i * measure_count()]; }
 
-  // Folds `later` (the table of a later shard) into this one: groups new to
-  // this table are adopted, others merged measure by measure.
-  Status MergeFrom(GroupTable&& later);
+  // Checks that `encoded` (Encode's bytes, from a later shard) is a valid
+  // table for these measures, without changing this one.
+  Status CheckEncoded(std::string_view encoded);
+  // Folds the encoded table into this one, group by group and measure by
+  // measure (MeasureState::MergeEncoded), building no intermediate table.
+  // REQUIRES: CheckEncoded(encoded) succeeded, so a failure here is a
+  // bounded measure past its limit and leaves this table partly merged.
+  Status MergeEncoded(std::string_view encoded);
 
   void Encode(ByteWriter& w) const;
   // REQUIRES: this table is empty. Fails on corrupt bytes.
@@ -60,6 +66,9 @@ class GroupTable {
     bool operator()(std::string_view a, std::string_view b) const { return a == b; }
   };
   uint32_t AddGroup(std::string_view key);
+  // The one walk over an encoded table behind CheckEncoded (apply false)
+  // and MergeEncoded (apply true).
+  Status WalkEncoded(std::string_view encoded, bool apply);
 
   const std::vector<MeasureConfig>* configs_;
   boost::unordered_flat_map<std::string, uint32_t, Hash, Eq> index_;
@@ -68,6 +77,9 @@ class GroupTable {
   // the raw view FindOrAdd hands out).
   std::vector<MeasureState*> states_;
   std::vector<std::unique_ptr<MeasureState>> owned_;
+  // One state per measure that encoded states are checked in or decoded
+  // into while merging (MeasureState::MergeEncoded's scratch).
+  std::vector<std::unique_ptr<MeasureState>> scratch_;
 };
 
 }  // namespace fanfold

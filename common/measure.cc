@@ -36,6 +36,11 @@ std::unique_ptr<MeasureState> NewMeasureState(const MeasureConfig& config) {
   return nullptr;  // unreachable for a validated config
 }
 
+Status MeasureState::MergeEncoded(ByteReader& r, bool apply, MeasureState* scratch) {
+  FF_RETURN_IF_ERROR(scratch->Decode(r));
+  return apply ? Merge(*scratch) : Status::Ok();
+}
+
 int MeasureArgCount(MeasureKind kind) {
   switch (kind) {
     case MeasureKind::kCount: return 0;

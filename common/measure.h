@@ -72,6 +72,15 @@ class MeasureState {
   // corrupt input.
   virtual Status Decode(ByteReader& r) = 0;
 
+  // Reads one encoded state (Encode's bytes, from a later shard) from r
+  // and, iff apply, folds it into this state: the same result as Decode into
+  // a fresh state followed by Merge, but without building that state, which
+  // is what makes the coordinator's merge fast. With apply false it only
+  // checks the bytes and leaves this state as it was. `scratch` is a state of
+  // the same config, the default implementation's Decode target; overrides
+  // may ignore it. Fails on corrupt bytes, or when applying as Merge does.
+  virtual Status MergeEncoded(ByteReader& r, bool apply, MeasureState* scratch);
+
   // Appends one cell per output column (see OutputColumnCount()).
   virtual void Finalize(std::vector<Cell>* out) const = 0;
 

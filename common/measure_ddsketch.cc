@@ -21,13 +21,17 @@ Status DDSketchState::Merge(const MeasureState& other) {
     return Status::Internal("approx_quantile: merge with a state of another measure");
   neg_.MergeFrom(o->neg_);
   pos_.MergeFrom(o->pos_);
-  zero_ += o->zero_;
-  skipped_ += o->skipped_;
-  if (o->count() > 0) {
-    if (!(o->min_ >= min_)) min_ = o->min_;  // also true while we are empty (NaN)
-    if (!(o->max_ <= max_)) max_ = o->max_;
-  }
+  MergeScalars(o->zero_, o->skipped_, o->count(), o->min_, o->max_);
   return Status::Ok();
+}
+
+void DDSketchState::MergeScalars(uint64_t zero, uint64_t skipped, uint64_t count, double min, double max) {
+  zero_ += zero;
+  skipped_ += skipped;
+  if (count > 0) {
+    if (!(min >= min_)) min_ = min;  // also true while we are empty (NaN)
+    if (!(max <= max_)) max_ = max;
+  }
 }
 
 double DDSketchState::RankEstimate(uint64_t r) const {
@@ -77,33 +81,53 @@ int SignClass(double x) { return x < 0 ? 0 : (x == 0 ? 1 : 2); }
 
 }  // namespace
 
-Status DDSketchState::Decode(ByteReader& r) {
+Status DDSketchState::ReadEncoded(ByteReader& r, Encoded* e) {
   const Status corrupt = Status::Corrupt("approx_quantile: bad or truncated state");
-  const uint64_t skipped = r.Varint();
-  const uint64_t zero = r.Varint();
-  DDSketchStore neg, pos;
-  if (!r.ok() || zero > DDSketchStore::kMaxTotal || !neg.Decode(r) || !pos.Decode(r)) return corrupt;
-  const uint64_t n = neg.total() + pos.total() + zero;  // each < 2^62: no overflow
+  e->skipped = r.Varint();
+  e->zero = r.Varint();
+  if (!r.ok() || e->zero > DDSketchStore::kMaxTotal || !DDSketchStore::ReadRun(r, &e->neg) ||
+      !DDSketchStore::ReadRun(r, &e->pos))
+    return corrupt;
+  const uint64_t n = e->neg.total + e->pos.total + e->zero;  // each < 2^62: no overflow
   if (n > DDSketchStore::kMaxTotal) return corrupt;
-  double min = NAN, max = NAN;
   if (n > 0) {
-    min = r.F64();
-    max = r.F64();
+    const double min = r.F64(), max = r.F64();
     if (!r.ok() || !std::isfinite(min) || !std::isfinite(max) || min > max) return corrupt;
     if (std::bit_cast<uint64_t>(min) == std::bit_cast<uint64_t>(-0.0) ||
         std::bit_cast<uint64_t>(max) == std::bit_cast<uint64_t>(-0.0))
       return corrupt;
     // min must belong to the lowest non-empty class, max to the highest.
-    const int low = !neg.empty() ? 0 : (zero > 0 ? 1 : 2);
-    const int high = !pos.empty() ? 2 : (zero > 0 ? 1 : 0);
+    const int low = e->neg.span > 0 ? 0 : (e->zero > 0 ? 1 : 2);
+    const int high = e->pos.span > 0 ? 2 : (e->zero > 0 ? 1 : 0);
     if (SignClass(min) != low || SignClass(max) != high) return corrupt;
+    e->min = min;
+    e->max = max;
   }
+  return Status::Ok();
+}
+
+Status DDSketchState::Decode(ByteReader& r) {
+  Encoded e;
+  FF_RETURN_IF_ERROR(ReadEncoded(r, &e));
+  DDSketchStore neg, pos;
+  neg.MergeRun(e.neg);
+  pos.MergeRun(e.pos);
   neg_ = std::move(neg);
   pos_ = std::move(pos);
-  zero_ = zero;
-  skipped_ = skipped;
-  min_ = min;
-  max_ = max;
+  zero_ = e.zero;
+  skipped_ = e.skipped;
+  min_ = e.min;
+  max_ = e.max;
+  return Status::Ok();
+}
+
+Status DDSketchState::MergeEncoded(ByteReader& r, bool apply, MeasureState* /*scratch*/) {
+  Encoded e;
+  FF_RETURN_IF_ERROR(ReadEncoded(r, &e));
+  if (!apply) return Status::Ok();
+  neg_.MergeRun(e.neg);
+  pos_.MergeRun(e.pos);
+  MergeScalars(e.zero, e.skipped, e.neg.total + e.pos.total + e.zero, e.min, e.max);
   return Status::Ok();
 }
 

@@ -59,6 +59,7 @@ class DDSketchState final : public MeasureState {
   // store (DDSketchStore::Encode), then iff any value: f64 min, f64 max.
   void Encode(ByteWriter& w) const override;
   Status Decode(ByteReader& r) override;
+  Status MergeEncoded(ByteReader& r, bool apply, MeasureState* scratch) override;
   // One Float per probability, in config order; all Null when empty.
   void Finalize(std::vector<Cell>* out) const override;
   uint64_t skipped() const override { return skipped_; }
@@ -69,6 +70,17 @@ class DDSketchState final : public MeasureState {
   double alpha() const { return alpha_; }
 
  private:
+  // An encoded state, checked, its stores left in the input.
+  struct Encoded {
+    uint64_t skipped = 0, zero = 0;
+    DDSketchStore::EncodedRun neg, pos;
+    double min = NAN, max = NAN;
+  };
+  static Status ReadEncoded(ByteReader& r, Encoded* out);
+  // Folds the counts-free part (zero count, skipped, min and max) of a
+  // later state in, as Merge does.
+  void MergeScalars(uint64_t zero, uint64_t skipped, uint64_t count, double min, double max);
+
   int32_t Index(double magnitude) const {
     double i = std::ceil(std::log(magnitude) * inv_log_gamma_);
     i = std::fmin(std::fmax(i, DDSketchStore::kMinIndex), DDSketchStore::kMaxIndex);

@@ -111,42 +111,79 @@ void HyperLogLogState::Encode(ByteWriter& w) const {
   }
 }
 
-Status HyperLogLogState::Decode(ByteReader& r) {
-  const Status corrupt = Status::Corrupt("approx_distinct: bad or truncated state");
-  const size_t m = size_t{1} << p_;
+namespace {
+
+// Reads the registers part of an encoded state (after `skipped`): calls
+// visit(index, register) for every non-zero register, in index order.
+// Returns false on corrupt bytes, possibly after some visits — callers that
+// must not change anything on failure run it once with a no-op first.
+template <class Visit>
+bool ReadRegisters(ByteReader& r, int p, Visit visit) {
+  const size_t m = size_t{1} << p;
   // A rank is at most 64 - p + 1 (the guard bit in InsertHash).
-  const uint8_t max_rank = static_cast<uint8_t>(64 - p_ + 1);
-  const uint64_t skipped = r.Varint();
+  const uint8_t max_rank = static_cast<uint8_t>(64 - p + 1);
   const uint8_t form = r.U8();
-  if (!r.ok()) return corrupt;
-  std::vector<uint8_t> regs;
-  size_t k = 0;
+  if (!r.ok()) return false;
   if (form == 1) {
-    k = r.Count(2);
-    if (!r.ok() || 4 * k >= m) return corrupt;
-    if (k > 0) regs.assign(m, 0);
+    const size_t k = r.Count(2);
+    if (!r.ok() || 4 * k >= m) return false;
     uint64_t next = 0;
     for (size_t j = 0; j < k; ++j) {
       const uint64_t gap = r.Varint();
       const uint8_t reg = r.U8();
-      if (!r.ok() || gap >= m - next || reg == 0 || reg > max_rank) return corrupt;
-      regs[next + gap] = reg;
+      if (!r.ok() || gap >= m - next || reg == 0 || reg > max_rank) return false;
+      visit(next + gap, reg);
       next += gap + 1;
     }
-  } else if (form == 0) {
-    const std::string_view bytes = r.Take(m);
-    if (!r.ok()) return corrupt;
-    regs.assign(bytes.begin(), bytes.end());
-    for (uint8_t reg : regs) {
-      if (reg > max_rank) return corrupt;
-      k += reg != 0;
-    }
-    if (4 * k < m) return corrupt;  // would have been written sparse
-  } else {
-    return corrupt;
+    return true;
   }
+  if (form != 0) return false;
+  const std::string_view bytes = r.Take(m);
+  if (!r.ok()) return false;
+  size_t k = 0;
+  for (size_t i = 0; i < m; ++i) {
+    const uint8_t reg = static_cast<uint8_t>(bytes[i]);
+    if (reg > max_rank) return false;
+    if (reg != 0) {
+      ++k;
+      visit(i, reg);
+    }
+  }
+  return 4 * k >= m;  // else it would have been written sparse
+}
+
+}  // namespace
+
+Status HyperLogLogState::Decode(ByteReader& r) {
+  const uint64_t skipped = r.Varint();
+  std::vector<uint8_t> regs;
+  const size_t m = size_t{1} << p_;
+  bool fine = r.ok() && ReadRegisters(r, p_, [&](size_t i, uint8_t reg) {
+    if (regs.empty()) regs.assign(m, 0);
+    regs[i] = reg;
+  });
+  if (!fine) return Status::Corrupt("approx_distinct: bad or truncated state");
   skipped_ = skipped;
   registers_ = std::move(regs);
+  return Status::Ok();
+}
+
+Status HyperLogLogState::MergeEncoded(ByteReader& r, bool apply, MeasureState* /*scratch*/) {
+  const uint64_t skipped = r.Varint();
+  ByteReader check = r;
+  if (!r.ok() || !ReadRegisters(check, p_, [](size_t, uint8_t) {}))
+    return Status::Corrupt("approx_distinct: bad or truncated state");
+  if (!apply) {
+    r = check;
+    return Status::Ok();
+  }
+  // Register-wise max, straight from the bytes: a sparse state touches only
+  // its k registers instead of materialising all 2^p.
+  (void)ReadRegisters(r, p_, [this](size_t i, uint8_t reg) {
+    if (registers_.empty()) registers_.assign(size_t{1} << p_, 0);
+    if (reg > registers_[i]) registers_[i] = reg;
+  });
+  skipped_ += skipped;
   return Status::Ok();
 }
 

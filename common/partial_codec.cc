@@ -141,7 +141,7 @@ Status DecodePartialHeader(std::string_view bytes, PartialHeader* h) {
   return Status::Ok();
 }
 
-Status DecodePartial(std::string_view bytes, PartialState* out) {
+Status OpenPartial(std::string_view bytes, OpenedPartial* out) {
   FF_RETURN_IF_ERROR(DecodePartialHeader(bytes, &out->header));
   ByteReader lens(bytes.substr(104, 8));
   uint64_t raw_len = lens.U64();
@@ -151,7 +151,7 @@ Status DecodePartial(std::string_view bytes, PartialState* out) {
     return Status::Corrupt("partial state body is not the zstd frame its header describes");
   // Decompress as a stream into a buffer that grows with real output, so a
   // header that merely claims a huge body cannot make us allocate it.
-  std::string body;
+  std::string& body = out->body;
   body.resize(std::min<uint64_t>(raw_len, uint64_t{1} << 20));
   ZSTD_DCtx* d = Contexts().d;
   ZSTD_DCtx_reset(d, ZSTD_reset_session_only);
@@ -184,8 +184,18 @@ Status DecodePartial(std::string_view bytes, PartialState* out) {
     if (!r.ok()) return Status::Corrupt("partial state samples are truncated");
     out->samples.push_back(std::move(s));
   }
+  out->groups = std::string_view(body).substr(body.size() - r.remaining());
+  return Status::Ok();
+}
+
+Status DecodePartial(std::string_view bytes, PartialState* out) {
+  OpenedPartial opened;
+  FF_RETURN_IF_ERROR(OpenPartial(bytes, &opened));
+  ByteReader r(opened.groups);
   FF_RETURN_IF_ERROR(out->groups.Decode(r));
   if (!r.at_end()) return Status::Corrupt("partial state body has trailing bytes");
+  out->header = opened.header;
+  out->samples = std::move(opened.samples);
   return Status::Ok();
 }
 

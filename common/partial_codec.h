@@ -39,7 +39,7 @@
 
 namespace fanfold {
 
-inline constexpr uint16_t kPartialFormatVersion = 1;
+inline constexpr uint16_t kPartialFormatVersion = 2;  // 2: DDSketch stores run-length encode empty buckets
 inline constexpr uint16_t kPartialHeaderSize = 160;
 inline constexpr uint64_t kMaxPartialBodyBytes = uint64_t{1} << 34;  // 16 GiB decompressed
 
@@ -86,6 +86,21 @@ void SetPartialEncodeTime(uint64_t ns, std::string* partial);
 
 // Reads only the fixed header (checksum verified against the whole input).
 Status DecodePartialHeader(std::string_view bytes, PartialHeader* out);
+
+// A partial state with its header and samples read and its body checked
+// and decompressed; `groups` views the GroupTable encoding inside `body`,
+// for GroupTable::CheckEncoded / MergeEncoded. Neither copied nor moved,
+// since `groups` points into `body`.
+struct OpenedPartial {
+  OpenedPartial() = default;
+  OpenedPartial(const OpenedPartial&) = delete;
+  OpenedPartial& operator=(const OpenedPartial&) = delete;
+  PartialHeader header;
+  std::vector<MalformedSample> samples;
+  std::string body;
+  std::string_view groups;
+};
+Status OpenPartial(std::string_view bytes, OpenedPartial* out);
 
 // Decodes bytes into *out, whose GroupTable must be empty and built with the
 // plan's measure configs.

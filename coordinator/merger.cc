@@ -42,18 +42,21 @@ void Merger::Drain() {
     }
     auto it = waiting_.find(next_);
     if (it == waiting_.end()) break;
-    PartialState p(&configs_);
+    OpenedPartial p;
     std::string bytes = std::move(it->second);
     waiting_.erase(it);
     Status s = bytes.empty() && reload_ ? reload_(next_, &bytes) : Status::Ok();
-    if (s.ok()) s = DecodePartial(bytes, &p);
+    if (s.ok()) s = OpenPartial(bytes, &p);
+    // Every byte is checked before any is merged, so a bad partial leaves
+    // the result as it was and costs only its own shard.
+    if (s.ok()) s = result_.CheckEncoded(p.groups);
     if (!s.ok()) {  // the checksum matched, so this is a bug or a forged file
       late_failures_.push_back({next_, s.message()});
       failed_[next_] = true;
       ++next_;
       continue;
     }
-    Status m = result_.MergeFrom(std::move(p.groups));
+    Status m = result_.MergeEncoded(p.groups);
     if (!m.ok() && fatal_.ok()) fatal_ = m.WithContext("merging shard " + std::to_string(next_));
     totals_.shards_merged++;
     totals_.records += p.header.records;

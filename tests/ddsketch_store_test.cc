@@ -80,12 +80,67 @@ TEST_CASE("ddsketch_store: strict decoding") {
   CHECK_FALSE(decode(make(2, 4, {1, 0})));  // zero last bucket
   CHECK_FALSE(decode(make(2, 4, {1})));     // truncated
   CHECK_FALSE(decode(make(2, uint64_t{1} << 40, {1, 1})));  // index past kMaxIndex
+  // Runs of empty buckets: "0, r" stands for r empty buckets.
+  CHECK(decode(make(5, 4, {1, 0, 3, 1})));
+  CHECK_FALSE(decode(make(5, 4, {0, 4, 1})));        // a run first
+  CHECK_FALSE(decode(make(5, 4, {1, 0, 1, 0, 2, 1})));  // two runs side by side
+  CHECK_FALSE(decode(make(5, 4, {1, 0, 4})));        // a run reaching the last bucket
+  CHECK_FALSE(decode(make(5, 4, {1, 0, 0, 1})));     // an empty run
+  CHECK_FALSE(decode(make(5, 4, {1, 0, 2, 1})));     // covers 4 of 5 buckets, then truncated
   std::string wide;
   ByteWriter w(&wide);
   w.Varint(DDSketchStore::kMaxSpan + 1);
   w.Varint(0);
   for (int i = 0; i <= DDSketchStore::kMaxSpan; ++i) w.Varint(1);
   CHECK_FALSE(decode(wide));
+}
+
+// Intent: sparse stores encode empty buckets as runs (bytes per non-empty
+// bucket, not per index) and round trip exactly.
+TEST_CASE("ddsketch_store: empty buckets cost one run") {
+  DDSketchStore s;
+  s.Add(-200, 2);
+  s.Add(300);
+  s.Add(301, 5);
+  const std::string bytes = EncodeOf(s);
+  CHECK(bytes.size() < 16);  // 502 buckets of span, 3 of them non-empty
+  DDSketchStore back;
+  ByteReader r(bytes);
+  REQUIRE(back.Decode(r));
+  CHECK(r.at_end());
+  CHECK(EncodeOf(back) == bytes);
+  CHECK(back.CountAt(-200) == 2);
+  CHECK(back.CountAt(0) == 0);
+  CHECK(back.CountAt(301) == 5);
+}
+
+// Intent: merging a store straight from its encoding (MergeRun) gives the
+// same store as decoding it and MergeFrom, with and without a fold.
+TEST_CASE("ddsketch_store: MergeRun equals MergeFrom") {
+  uint64_t x = 7;
+  auto next = [&x] { return x = x * 6364136223846793005ULL + 1442695040888963407ULL, x >> 33; };
+  for (int trial = 0; trial < 300; ++trial) {
+    DDSketchStore mine, theirs;
+    const bool wide = trial % 5 == 0;  // pushes the merged span past kMaxSpan
+    for (int i = 0, n = static_cast<int>(next() % 30); i < n; ++i)
+      mine.Add(static_cast<int32_t>(next() % 400) - 200, 1 + next() % 3);
+    for (int i = 0, n = static_cast<int>(next() % 30); i < n; ++i)
+      theirs.Add(static_cast<int32_t>(next() % 400) - 100, 1 + next() % 3);
+    if (wide) theirs.Add(DDSketchStore::kMaxSpan + static_cast<int32_t>(next() % 300));
+    const std::string encoded = EncodeOf(theirs);
+    DDSketchStore expected = mine;
+    DDSketchStore decoded;
+    ByteReader r(encoded);
+    REQUIRE(decoded.Decode(r));
+    expected.MergeFrom(decoded);
+    ByteReader r2(encoded);
+    DDSketchStore::EncodedRun run;
+    REQUIRE(DDSketchStore::ReadRun(r2, &run));
+    CHECK(r2.at_end());
+    mine.MergeRun(run);
+    CHECK(EncodeOf(mine) == EncodeOf(expected));
+    CHECK(mine.total() == expected.total());
+  }
 }
 
 }  // namespace

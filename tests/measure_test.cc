@@ -120,12 +120,57 @@ TEST_CASE("measure: encode round trip") {
   }
 }
 
+// Intent: merging straight from the encoded bytes (the coordinator's path)
+// gives exactly the state that decoding then merging gives, for every kind,
+// into empty and filled states; checking alone (apply false) changes
+// nothing and consumes the same bytes.
+TEST_CASE("measure: MergeEncoded equals Decode then Merge") {
+  for (MeasureKind kind : kAllKinds) {
+    INFO("kind " << static_cast<int>(kind));
+    const MeasureConfig c = ConfigFor(kind);
+    auto scratch = NewMeasureState(c);
+    for (int earlier : {0, 1, 700}) {
+      for (int later : {0, 1, 3, 900}) {
+        const std::string mine = testing::EncodeOf(*testing::Whole(c, MixedRows(21, earlier)));
+        const std::string theirs = testing::EncodeOf(*testing::Whole(c, MixedRows(22, later)));
+        auto expected = testing::DecodeOf(c, mine);
+        REQUIRE(expected->Merge(*testing::DecodeOf(c, theirs)).ok());
+
+        auto state = testing::DecodeOf(c, mine);
+        ByteReader check(theirs);
+        REQUIRE(state->MergeEncoded(check, /*apply=*/false, scratch.get()).ok());
+        CHECK(check.at_end());
+        CHECK(testing::EncodeOf(*state) == mine);
+        ByteReader apply(theirs);
+        REQUIRE(state->MergeEncoded(apply, /*apply=*/true, scratch.get()).ok());
+        CHECK(apply.at_end());
+        CHECK(testing::EncodeOf(*state) == testing::EncodeOf(*expected));
+      }
+    }
+  }
+}
+
 // Decodes bytes; if accepted, the state must re-encode to bytes that decode
 // to the same encoding again, finalize, and merge both ways with a real state.
+// MergeEncoded must accept exactly what Decode accepts, consume as much, and
+// leave its target unchanged when it rejects.
 void CheckDecodeIsSafe(const MeasureConfig& c, std::string_view bytes, const MeasureState& real) {
   auto s = NewMeasureState(c);
   ByteReader r(bytes);
   const Status st = s->Decode(r);
+  const std::string before = testing::EncodeOf(real);
+  auto target = testing::DecodeOf(c, before);
+  auto scratch = NewMeasureState(c);
+  ByteReader check(bytes), apply(bytes);
+  const Status checked = target->MergeEncoded(check, /*apply=*/false, scratch.get());
+  const Status applied = target->MergeEncoded(apply, /*apply=*/true, scratch.get());
+  CHECK(checked.ok() == st.ok());
+  if (st.ok()) {
+    CHECK(check.remaining() == r.remaining());
+    CHECK((applied.ok() || applied.code() == Status::Code::kLimitExceeded));
+  } else if (applied.code() == Status::Code::kCorrupt) {
+    CHECK(testing::EncodeOf(*target) == before);
+  }
   if (!st.ok()) {
     CHECK(st.code() == Status::Code::kCorrupt);
     return;

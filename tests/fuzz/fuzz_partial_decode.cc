@@ -130,7 +130,10 @@ void DecodeStates(std::string_view payload) {
     g.Encode(wa);
     ByteReader ra(a);
     if (!h.Decode(ra).ok() || !ra.at_end()) __builtin_trap();
-    (void)g.MergeFrom(std::move(h));
+    // Our own encoding must pass the check, and merging it from the bytes
+    // must fold in exactly what decoding it does.
+    if (!g.CheckEncoded(a).ok()) __builtin_trap();
+    (void)g.MergeEncoded(a);  // may hit a bound: LimitExceeded is fine
   }
 }
 
