@@ -278,7 +278,8 @@ Result<JobSpec> ParseJobSpec(std::string_view text, const std::string& job_path)
   if (doc.is_discarded()) {
     // Re-parse with exceptions only to learn where it broke.
     try {
-      (void)json::parse(text);
+      const json thrown_away = json::parse(text);  // GCC warns on a (void) cast of [[nodiscard]]
+      (void)thrown_away;
     } catch (const json::parse_error& e) {
       std::string what = e.what();
       auto pos = what.find("error while parsing");

@@ -23,8 +23,12 @@ std::string Megabytes(uint64_t bytes) {
 std::vector<std::string> FormatRunSummary(const RunSummary& s, const ShardList& list) {
   std::vector<std::string> lines;
   for (const auto& m : s.samples) {
-    lines.push_back("malformed record: " + list.shards[m.shard].path + " line " + std::to_string(m.sample.line) +
-                    ": " + m.sample.reason);
+    // A chunk's reader counts lines from the chunk's first byte: say so,
+    // rather than print a line number that is wrong for the whole file.
+    const Shard& shard = list.shards[m.shard];
+    const std::string where = shard.offset > 0 ? " (the chunk from byte " + std::to_string(shard.offset) + ")" : "";
+    lines.push_back("malformed record: " + shard.path + where + " line " + std::to_string(m.sample.line) + ": " +
+                    m.sample.reason);
   }
   for (const auto& f : s.failures) lines.push_back("shard " + std::to_string(f.shard) + " failed: " + f.message);
   const MergeTotals& t = s.totals;

@@ -41,8 +41,12 @@ TEST_CASE("HTML: the scaling section draws one point per worker count") {
   RunRecord r = SampleRecord();
   RunAnalysis a = AnalyzeRun(r);
   ScaleResult s;
-  s.points.push_back({1, {2.0}});
-  s.points.push_back({2, {1.2}});
+  for (auto [workers, wall] : {std::pair{1, 2.0}, std::pair{2, 1.2}}) {
+    ScalePoint p;
+    p.workers = workers;
+    p.wall_seconds = {wall};
+    s.points.push_back(p);
+  }
   s.shard_seconds = {1, 1};
   ComputeScaleDerived(&s);
   for (const std::string& page : {RenderReportHtml(r, a, &s), RenderScaleHtml(s)}) {

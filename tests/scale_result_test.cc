@@ -46,8 +46,11 @@ TEST_CASE("derived fields, table and JSON round trip") {
   r.records = 1'000'000;
   r.bytes_decompressed = 200'000'000;
   r.shard_seconds = {0.5, 0.5, 0.5, 0.5};
-  r.points.push_back({1, {2.1, 2.0, 2.2}});
-  r.points.push_back({2, {1.3, 1.25, 1.2}});
+  r.points.resize(2);
+  r.points[0].workers = 1;
+  r.points[0].wall_seconds = {2.1, 2.0, 2.2};
+  r.points[1].workers = 2;
+  r.points[1].wall_seconds = {1.3, 1.25, 1.2};
   ComputeScaleDerived(&r);
   const ScalePoint& p2 = r.points[1];
   CHECK(p2.median_s == doctest::Approx(1.25));
