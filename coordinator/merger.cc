@@ -21,7 +21,10 @@ Status Merger::Add(uint32_t shard, std::string partial) {
   if (h.shard_index != shard)
     return Status::Corrupt("partial state is for shard " + std::to_string(h.shard_index) + ", not " +
                            std::to_string(shard));
-  if (reload_ && shard != next_) partial.clear();  // read back from the run directory when its turn comes
+  // Read back from the run directory when its turn comes. Swapped with an
+  // empty string, not cleared: clear() keeps the buffer, and hundreds of
+  // early partials would keep their memory while they wait.
+  if (reload_ && shard != next_) std::string().swap(partial);
   waiting_.emplace(shard, std::move(partial));
   Drain();
   return Status::Ok();

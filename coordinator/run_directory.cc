@@ -2,10 +2,12 @@
 
 #include <fcntl.h>
 #include <sys/file.h>
+#include <sys/stat.h>
 #include <unistd.h>
 
-#include <cerrno>
 #include <algorithm>
+#include <cerrno>
+#include <charconv>
 #include <cstdio>
 #include <filesystem>
 
@@ -40,6 +42,30 @@ Status WriteAll(int fd, std::string_view data, const std::string& path) {
     done += static_cast<size_t>(n);
   }
   return Status::Ok();
+}
+
+// True iff name is exactly "pack-<decimal digits>.ffpk"; *seq gets the number.
+bool ParsePackName(std::string_view name, uint64_t* seq) {
+  constexpr std::string_view kPrefix = "pack-", kSuffix = ".ffpk";
+  if (name.size() <= kPrefix.size() + kSuffix.size() || name.substr(0, kPrefix.size()) != kPrefix ||
+      name.substr(name.size() - kSuffix.size()) != kSuffix)
+    return false;
+  const char* first = name.data() + kPrefix.size();
+  const char* last = name.data() + name.size() - kSuffix.size();
+  auto [end, err] = std::from_chars(first, last, *seq);
+  return err == std::errc() && end == last;
+}
+
+// Reads exactly n bytes at offset; false on an error or end of file.
+bool ReadExactly(int fd, uint64_t offset, unsigned char* buf, size_t n) {
+  size_t done = 0;
+  while (done < n) {
+    ssize_t got = ::pread(fd, buf + done, n - done, static_cast<off_t>(offset + done));
+    if (got < 0 && errno == EINTR) continue;
+    if (got <= 0) return false;
+    done += static_cast<size_t>(got);
+  }
+  return true;
 }
 
 Status SyncDir(const std::string& dir) {
@@ -131,27 +157,35 @@ void RunDirectory::IndexPacks() {
   std::vector<uint64_t> packs;
   for (const auto& e : fs::directory_iterator(fs::path(path_) / "partials", ec)) {
     const std::string name = e.path().filename().string();
-    unsigned long long seq = 0;
-    char tail = 0;
-    if (sscanf(name.c_str(), "pack-%llu.ffp%c", &seq, &tail) == 2 && tail == 'k') packs.push_back(seq);
-    else if (name.size() > 4 && name.compare(name.size() - 4, 4, ".tmp") == 0) fs::remove(e.path(), ec);
+    uint64_t seq = 0;
+    // The .tmp test comes first: "pack-000007.ffpk.tmp" also starts like a pack's name.
+    if (name.size() > 4 && name.compare(name.size() - 4, 4, ".tmp") == 0) fs::remove(e.path(), ec);
+    else if (ParsePackName(name, &seq)) packs.push_back(seq);
   }
   std::sort(packs.begin(), packs.end());
   for (uint64_t seq : packs) {
-    std::string data;
-    if (!ReadWholeFile(PackPath(seq), &data).ok()) continue;
-    size_t off = 0;
-    while (data.size() - off >= kFrameBytes) {
-      ByteReader r(std::string_view(data).substr(off, kFrameBytes));
-      uint32_t magic = r.U32();
-      uint32_t shard = r.U32();
-      uint64_t length = r.U64();
-      uint64_t check = r.U64();
-      if (magic != kPackMagic || check != XXH3_64bits(data.data() + off, 16) ||
-          length > data.size() - off - kFrameBytes)
-        break;  // a torn or damaged frame: the rest of this pack is unreadable
-      index_[shard] = Location{seq, off + kFrameBytes, length};
-      off += kFrameBytes + length;
+    // Only the 24-byte frames are read, never the partials between them:
+    // opening a run directory then costs the same memory whatever the size
+    // of its packs (256 partials of a few MB each would be a GB).
+    const std::string path = PackPath(seq);
+    int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
+    if (fd >= 0) {
+      struct stat st;
+      const uint64_t size = ::fstat(fd, &st) == 0 ? static_cast<uint64_t>(st.st_size) : 0;
+      uint64_t off = 0;
+      unsigned char frame[kFrameBytes];
+      while (size - off >= kFrameBytes && ReadExactly(fd, off, frame, kFrameBytes)) {
+        ByteReader r(std::string_view(reinterpret_cast<const char*>(frame), kFrameBytes));
+        uint32_t magic = r.U32();
+        uint32_t shard = r.U32();
+        uint64_t length = r.U64();
+        uint64_t check = r.U64();
+        if (magic != kPackMagic || check != XXH3_64bits(frame, 16) || length > size - off - kFrameBytes)
+          break;  // a torn or damaged frame: the rest of this pack is unreadable
+        index_[shard] = Location{seq, off + kFrameBytes, length};
+        off += kFrameBytes + length;
+      }
+      ::close(fd);
     }
     next_pack_ = std::max(next_pack_, seq + 1);
   }

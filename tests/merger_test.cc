@@ -1,0 +1,161 @@
+// Merger: partials fold in shard order whatever order they arrive in; a
+// partial that is bad past its checksum costs only its shard; early
+// partials wait on disk, not in memory, when a reloader is set.
+#include "coordinator/merger.h"
+
+#include <doctest/doctest.h>
+#include <malloc.h>
+#include <xxhash.h>
+#include <zstd.h>
+
+#include <cstring>
+
+#include <map>
+#include <string>
+#include <vector>
+
+#include "common/group_key.h"
+#include "common/job_spec.h"
+
+namespace fanfold {
+namespace {
+
+std::unique_ptr<Plan> TestPlan() {
+  const char* job = R"({"inputs": {"files": ["x.ndjson"]}, "group": ["{/k}"],
+    "measures": [{"name": "n", "fn": "count"}, {"name": "s", "fn": "sum", "of": "{/v}"},
+                 {"name": "q", "fn": "approx_quantile", "of": "{/v}", "at": [0.5]}]})";
+  Result<JobSpec> spec = ParseJobSpec(job, "test.json");
+  REQUIRE(spec.ok());
+  Result<std::unique_ptr<Plan>> plan = CompilePlan(std::move(*spec), RecordFormat::kNdjson);
+  REQUIRE(plan.ok());
+  return std::move(*plan);
+}
+
+// Shard s's partial: groups s % 5 .. s % 5 + 3, values that make the sum's
+// rounding depend on the order of merging. `pad` groups add bulk.
+std::string PartialFor(const Plan& plan, uint32_t shard, int pad = 0) {
+  std::vector<MeasureConfig> configs;
+  for (const auto& m : plan.measures) configs.push_back(m.config);
+  PartialState p(&configs);
+  p.header.fingerprint = plan.fingerprint;
+  p.header.shard_index = shard;
+  p.header.records = 4 + static_cast<uint64_t>(pad);
+  for (int g = 0; g < 4 + pad; ++g) {
+    std::string key;
+    AppendKeyValue(Value::Number(static_cast<double>(g < 4 ? shard % 5 + g : 1000 + g)), &key);
+    MeasureState* const* states = p.groups.FindOrAdd(key);
+    const Value v = Value::Number(shard % 2 == 0 ? 1e16 : 1.0 + shard * 0.1);
+    for (size_t m = 0; m < configs.size(); ++m) states[m]->Add(&v);
+  }
+  std::string out;
+  EncodePartial(p, &out);
+  return out;
+}
+
+std::string ResultText(Merger& merger) {
+  Result<OutputTable> t = merger.Finish();
+  REQUIRE(t.ok());
+  std::string text;
+  for (const auto& row : t->rows)
+    for (const Cell& c : row) text += std::to_string(c.number) + (c.kind == Cell::Kind::kFloat ? "f " : " ");
+  return text;
+}
+
+// Intent: any arrival order gives the same bytes as shard order, with and
+// without a reloader (early partials then come back from the "disk").
+TEST_CASE("merger: arrival order does not change the result") {
+  const auto plan = TestPlan();
+  const uint32_t n = 12;
+  std::map<uint32_t, std::string> disk;
+  for (uint32_t s = 0; s < n; ++s) disk[s] = PartialFor(*plan, s);
+  Merger in_order(plan.get(), n);
+  for (uint32_t s = 0; s < n; ++s) REQUIRE(in_order.Add(s, disk[s]).ok());
+  const std::string expected = ResultText(in_order);
+  for (bool reload : {false, true}) {
+    Merger m(plan.get(), n);
+    int reloads = 0;
+    if (reload) m.SetReloader([&](uint32_t s, std::string* out) { ++reloads; *out = disk[s]; return Status::Ok(); });
+    for (uint32_t s : {11u, 3u, 7u, 0u, 1u, 2u, 10u, 9u, 4u, 5u, 6u, 8u}) REQUIRE(m.Add(s, disk[s]).ok());
+    REQUIRE(m.complete());
+    CHECK(ResultText(m) == expected);
+    CHECK(m.totals().shards_merged == n);
+    if (reload) CHECK(reloads > 0);
+  }
+}
+
+// A partial around `body` (uncompressed), with the header of `like` and a
+// checksum that holds: what a buggy worker or a forger could hand over.
+// Layout: common/partial_codec.h (lengths at 104 and 112, checksum at 152).
+std::string WrapBody(const std::string& like, const std::string& body) {
+  std::string z(ZSTD_compressBound(body.size()), '\0');
+  z.resize(ZSTD_compress(z.data(), z.size(), body.data(), body.size(), 1));
+  std::string out = like.substr(0, kPartialHeaderSize) + z;
+  const uint64_t raw_len = body.size(), z_len = z.size();
+  std::memcpy(out.data() + 104, &raw_len, 8);
+  std::memcpy(out.data() + 112, &z_len, 8);
+  XXH3_state_t* st = XXH3_createState();
+  XXH3_64bits_reset(st);
+  XXH3_64bits_update(st, out.data(), 152);
+  XXH3_64bits_update(st, z.data(), z.size());
+  const uint64_t sum = XXH3_64bits_digest(st);
+  XXH3_freeState(st);
+  std::memcpy(out.data() + 152, &sum, 8);
+  return out;
+}
+
+// Intent: a partial whose checksum holds but whose body is malformed (its
+// last group cut short) is reported as a late failure and leaves the result
+// exactly as if that shard had failed: none of its good groups are merged.
+TEST_CASE("merger: a malformed body costs only its shard") {
+  const auto plan = TestPlan();
+  std::vector<std::string> parts;
+  for (uint32_t s = 0; s < 4; ++s) parts.push_back(PartialFor(*plan, s));
+  Merger without(plan.get(), 4);
+  for (uint32_t s : {0u, 1u, 3u}) REQUIRE(without.Add(s, parts[s]).ok());
+  without.MarkFailed(2);
+  const std::string expected = ResultText(without);
+
+  std::vector<MeasureConfig> configs;
+  for (const auto& m : plan->measures) configs.push_back(m.config);
+  PartialState p(&configs);
+  REQUIRE(DecodePartial(parts[2], &p).ok());
+  std::string body;
+  EncodePartialBody(p, &body);
+  REQUIRE(WrapBody(parts[2], body) == parts[2]);  // the forging itself is faithful
+  body.pop_back();
+  const std::string forged = WrapBody(parts[2], body);
+
+  Merger with(plan.get(), 4);
+  REQUIRE(with.Add(2, forged).ok());  // header and checksum hold
+  for (uint32_t s : {3u, 0u, 1u}) REQUIRE(with.Add(s, parts[s]).ok());
+  REQUIRE(with.late_failures().size() == 1);
+  CHECK(with.late_failures()[0].first == 2);
+  CHECK(with.totals().shards_merged == 3);
+  CHECK(ResultText(with) == expected);
+}
+
+// Intent: with a reloader, partials that arrive early do not stay in
+// memory while they wait (their buffers are released, not just emptied).
+TEST_CASE("merger: early partials wait on disk, not in memory") {
+  const auto plan = TestPlan();
+  const uint32_t n = 201;
+  const std::string big = PartialFor(*plan, 1, 3000);  // ~5 KB encoded
+  REQUIRE(big.size() > 4000);
+  Merger m(plan.get(), n);
+  m.SetReloader([&](uint32_t s, std::string* out) {
+    *out = PartialFor(*plan, s);
+    return Status::Ok();
+  });
+  const size_t before = mallinfo2().uordblks;
+  for (uint32_t s = 1; s < n; ++s) {
+    std::string bytes = PartialFor(*plan, s, 3000);
+    REQUIRE(m.Add(s, std::move(bytes)).ok());
+  }
+  const size_t held = mallinfo2().uordblks - before;
+  CHECK(held < 20 * big.size());  // 200 waiting partials would hold 200 x
+  REQUIRE(m.Add(0, PartialFor(*plan, 0)).ok());
+  CHECK(m.complete());
+}
+
+}  // namespace
+}  // namespace fanfold
