@@ -50,33 +50,48 @@ double Tau(double x) {
 HyperLogLogState::HyperLogLogState(const MeasureConfig& config)
     : p_(std::clamp(config.precision, 4, 18)) {}
 
+void HyperLogLogState::Densify() {
+  registers_.assign(size_t{1} << p_, 0);
+  for (uint32_t e : sparse_) registers_[e >> 8] = static_cast<uint8_t>(e & 0xff);
+  std::vector<uint32_t>().swap(sparse_);
+}
+
+std::vector<uint8_t> HyperLogLogState::DenseCopy() const {
+  if (!registers_.empty()) return registers_;
+  std::vector<uint8_t> regs(size_t{1} << p_, 0);
+  for (uint32_t e : sparse_) regs[e >> 8] = static_cast<uint8_t>(e & 0xff);
+  return regs;
+}
+
 Status HyperLogLogState::Merge(const MeasureState& other) {
   const auto* o = dynamic_cast<const HyperLogLogState*>(&other);
   if (o == nullptr || o->p_ != p_)
     return Status::Internal("approx_distinct: merge with a state of another measure");
+  for (uint32_t e : o->sparse_) Raise(e >> 8, static_cast<uint8_t>(e & 0xff));
   if (!o->registers_.empty()) {
-    if (registers_.empty()) {
-      registers_ = o->registers_;
-    } else {
-      // Plain local pointers so the compiler vectorises the register max
-      // (through the vectors it reloads both pointers every iteration).
-      uint8_t* __restrict dst = registers_.data();
-      const uint8_t* __restrict src = o->registers_.data();
-      const size_t m = registers_.size();
-      for (size_t i = 0; i < m; ++i) dst[i] = dst[i] > src[i] ? dst[i] : src[i];
-    }
+    if (registers_.empty()) Densify();
+    // Plain local pointers so the compiler vectorises the register max
+    // (through the vectors it reloads both pointers every iteration).
+    uint8_t* __restrict dst = registers_.data();
+    const uint8_t* __restrict src = o->registers_.data();
+    const size_t m = registers_.size();
+    for (size_t i = 0; i < m; ++i) dst[i] = dst[i] > src[i] ? dst[i] : src[i];
   }
   skipped_ += o->skipped_;
   return Status::Ok();
 }
 
 double HyperLogLogState::Estimate() const {
-  if (registers_.empty()) return 0;
-  const size_t m = registers_.size();
+  if (registers_.empty() && sparse_.empty()) return 0;
+  const size_t m = size_t{1} << p_;
   const double md = static_cast<double>(m);
   const int q = 64 - p_;  // registers hold 0..q+1
   uint32_t histogram[66] = {};
   for (uint8_t reg : registers_) ++histogram[reg];
+  if (registers_.empty()) {
+    histogram[0] = static_cast<uint32_t>(m - sparse_.size());
+    for (uint32_t e : sparse_) ++histogram[e & 0xff];
+  }
   if (histogram[0] > 0) {
     const double linear = md * std::log(md / static_cast<double>(histogram[0]));
     if (linear <= kLinearCountingThreshold[p_ - 4]) return linear;
@@ -92,22 +107,37 @@ double HyperLogLogState::Estimate() const {
 void HyperLogLogState::Encode(ByteWriter& w) const {
   w.Varint(skipped_);
   const size_t m = size_t{1} << p_;
+  if (registers_.empty() && 4 * sparse_.size() < m) {  // the common small case: no 2^p array at all
+    std::vector<uint32_t> sorted = sparse_;
+    std::sort(sorted.begin(), sorted.end());
+    w.U8(1);
+    w.Varint(sorted.size());
+    size_t next = 0;
+    for (uint32_t e : sorted) {
+      w.Varint((e >> 8) - next);
+      w.U8(static_cast<uint8_t>(e & 0xff));
+      next = (e >> 8) + 1;
+    }
+    return;
+  }
+  const std::vector<uint8_t> dense_copy = registers_.empty() ? DenseCopy() : std::vector<uint8_t>();
+  const std::vector<uint8_t>& regs = registers_.empty() ? dense_copy : registers_;
   size_t k = 0;
-  const uint8_t* __restrict regs = registers_.data();
-  for (size_t i = 0, n = registers_.size(); i < n; ++i) k += regs[i] != 0;
+  const uint8_t* __restrict r = regs.data();
+  for (size_t i = 0; i < m; ++i) k += r[i] != 0;
   if (4 * k < m) {
     w.U8(1);
     w.Varint(k);
     size_t next = 0;
-    for (size_t i = 0; i < registers_.size(); ++i) {
-      if (registers_[i] == 0) continue;
+    for (size_t i = 0; i < m; ++i) {
+      if (regs[i] == 0) continue;
       w.Varint(i - next);
-      w.U8(registers_[i]);
+      w.U8(regs[i]);
       next = i + 1;
     }
   } else {
     w.U8(0);
-    w.Bytes(std::string_view(reinterpret_cast<const char*>(registers_.data()), m));
+    w.Bytes(std::string_view(reinterpret_cast<const char*>(regs.data()), m));
   }
 }
 
@@ -156,15 +186,13 @@ bool ReadRegisters(ByteReader& r, int p, Visit visit) {
 
 Status HyperLogLogState::Decode(ByteReader& r) {
   const uint64_t skipped = r.Varint();
-  std::vector<uint8_t> regs;
-  const size_t m = size_t{1} << p_;
-  bool fine = r.ok() && ReadRegisters(r, p_, [&](size_t i, uint8_t reg) {
-    if (regs.empty()) regs.assign(m, 0);
-    regs[i] = reg;
-  });
-  if (!fine) return Status::Corrupt("approx_distinct: bad or truncated state");
+  ByteReader check = r;
+  if (!r.ok() || !ReadRegisters(check, p_, [](size_t, uint8_t) {}))
+    return Status::Corrupt("approx_distinct: bad or truncated state");
   skipped_ = skipped;
-  registers_ = std::move(regs);
+  sparse_.clear();
+  registers_.clear();
+  (void)ReadRegisters(r, p_, [this](size_t i, uint8_t reg) { Raise(static_cast<uint32_t>(i), reg); });
   return Status::Ok();
 }
 
@@ -179,10 +207,7 @@ Status HyperLogLogState::MergeEncoded(ByteReader& r, bool apply, MeasureState* /
   }
   // Register-wise max, straight from the bytes: a sparse state touches only
   // its k registers instead of materialising all 2^p.
-  (void)ReadRegisters(r, p_, [this](size_t i, uint8_t reg) {
-    if (registers_.empty()) registers_.assign(size_t{1} << p_, 0);
-    if (reg > registers_[i]) registers_[i] = reg;
-  });
+  (void)ReadRegisters(r, p_, [this](size_t i, uint8_t reg) { Raise(static_cast<uint32_t>(i), reg); });
   skipped_ += skipped;
   return Status::Ok();
 }

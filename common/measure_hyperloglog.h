@@ -3,10 +3,14 @@
 // registers over a 64-bit hash (XXH3 of the value's ValueKey), so no
 // large-range correction is needed (Heule, Nunkesser & Hall 2013). Relative
 // standard error about 1.04/sqrt(m): 1.6% at the default precision 12.
-// Merge is register-wise max: exact and order-independent. Registers are
-// allocated on first use, so an empty state is small. Single-threaded.
+// Merge is register-wise max: exact and order-independent. A state with
+// few non-zero registers keeps them as a short list (4 bytes each, at most
+// min(64, m/4) of them) and only then switches to the 2^p-byte array, so a
+// group that saw a handful of values costs bytes, not kilobytes; both forms
+// encode alike. Single-threaded.
 #pragma once
 
+#include <algorithm>
 #include <cstdint>
 #include <vector>
 
@@ -45,11 +49,8 @@ class HyperLogLogState final : public MeasureState {
   // Updates the register the hash selects: its top `precision` bits pick
   // the register, the rest give the rank (position of the first 1 bit).
   void InsertHash(uint64_t hash) {
-    if (registers_.empty()) registers_.assign(size_t{1} << p_, 0);
     const uint64_t w = (hash << p_) | (uint64_t{1} << (p_ - 1));  // never 0
-    const uint8_t rank = static_cast<uint8_t>(__builtin_clzll(w) + 1);
-    uint8_t& reg = registers_[hash >> (64 - p_)];
-    if (rank > reg) reg = rank;
+    Raise(static_cast<uint32_t>(hash >> (64 - p_)), static_cast<uint8_t>(__builtin_clzll(w) + 1));
   }
   // The cardinality estimate: linear counting m ln(m/V) while it is below
   // the threshold for this precision (Heule et al. 2013) and V > 0 registers
@@ -58,9 +59,36 @@ class HyperLogLogState final : public MeasureState {
   int precision() const { return p_; }
 
  private:
+  // Register `index` becomes max(itself, rank).
+  void Raise(uint32_t index, uint8_t rank) {
+    if (!registers_.empty()) {
+      uint8_t& reg = registers_[index];
+      if (rank > reg) reg = rank;
+      return;
+    }
+    for (uint32_t& e : sparse_) {
+      if ((e >> 8) != index) continue;
+      if (rank > (e & 0xff)) e = index << 8 | rank;
+      return;
+    }
+    if (sparse_.size() < SparseLimit()) {
+      sparse_.push_back(index << 8 | rank);
+      return;
+    }
+    Densify();
+    registers_[index] = rank;  // it was zero: the index was not in the list
+  }
+  size_t SparseLimit() const { return std::min<size_t>(64, (size_t{1} << p_) / 4); }
+  // Moves the list into a full register array.
+  void Densify();
+  // The registers in index order, whichever form holds them.
+  std::vector<uint8_t> DenseCopy() const;
+
   int p_;
   uint64_t skipped_ = 0;
-  std::vector<uint8_t> registers_;  // empty (all zero) or 2^p_ bytes
+  // Exactly one of these holds the non-zero registers (both empty: all zero):
+  std::vector<uint32_t> sparse_;    // index << 8 | rank, in arrival order
+  std::vector<uint8_t> registers_;  // empty or 2^p_ bytes
 };
 
 }  // namespace fanfold

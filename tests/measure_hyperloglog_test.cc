@@ -3,9 +3,12 @@
 #include "common/measure_hyperloglog.h"
 
 #include <doctest/doctest.h>
+#include <malloc.h>
 
 #include <cmath>
+#include <memory>
 #include <string>
+#include <vector>
 
 #include "tests/measure_test_util.h"
 
@@ -85,6 +88,59 @@ TEST_CASE("approx_distinct: merge of split sets is register-identical") {
       CHECK(testing::EncodeOf(*acc) == testing::EncodeOf(*whole));
     }
   }
+}
+
+// Intent: around the switch from the short list to the full register
+// array (64 non-zero registers, or m/4 at low precision), states built by
+// Add, by merging one-value states, by merging from the encoded bytes and
+// by decoding all encode alike and estimate alike.
+TEST_CASE("approx_distinct: list and array forms agree") {
+  for (int precision : {4, 6, 10, 14}) {
+    for (uint64_t n : {1u, 3u, 4u, 5u, 15u, 16u, 17u, 40u, 63u, 64u, 65u, 66u, 100u, 3000u}) {
+      INFO("precision " << precision << ", n " << n);
+      const MeasureConfig c = HllConfig(precision);
+      auto whole = NewMeasureState(c);
+      FeedDistinct(*whole, 3, 0, n);
+      auto merged = NewMeasureState(c);
+      auto from_bytes = NewMeasureState(c);
+      auto scratch = NewMeasureState(c);
+      for (uint64_t i = 0; i < n; ++i) {
+        auto one = NewMeasureState(c);
+        FeedDistinct(*one, 3, i, i + 1);
+        REQUIRE(merged->Merge(*one).ok());
+        const std::string bytes = testing::EncodeOf(*one);
+        ByteReader r(bytes);
+        REQUIRE(from_bytes->MergeEncoded(r, /*apply=*/true, scratch.get()).ok());
+      }
+      const std::string expected = testing::EncodeOf(*whole);
+      CHECK(testing::EncodeOf(*merged) == expected);
+      CHECK(testing::EncodeOf(*from_bytes) == expected);
+      CHECK(testing::EncodeOf(*testing::DecodeOf(c, expected)) == expected);
+      auto* h = static_cast<HyperLogLogState*>(merged.get());
+      CHECK(h->Estimate() == static_cast<HyperLogLogState*>(whole.get())->Estimate());
+      // A list-form state merged into an array-form one and the reverse.
+      auto big = NewMeasureState(c);
+      FeedDistinct(*big, 9, 0, 5000);
+      auto big_then_small = testing::DecodeOf(c, testing::EncodeOf(*big));
+      REQUIRE(big_then_small->Merge(*whole).ok());
+      auto small_then_big = testing::DecodeOf(c, expected);
+      REQUIRE(small_then_big->Merge(*big).ok());
+      CHECK(testing::EncodeOf(*big_then_small) == testing::EncodeOf(*small_then_big));
+    }
+  }
+}
+
+// Intent: a group that saw a few values does not cost 2^p bytes: 10,000
+// states of 3 values each at precision 14 hold far less than 10,000 x 16 KiB.
+TEST_CASE("approx_distinct: small states stay small") {
+  const size_t before = mallinfo2().uordblks;
+  std::vector<std::unique_ptr<MeasureState>> states;
+  for (int g = 0; g < 10000; ++g) {
+    states.push_back(NewMeasureState(HllConfig(14)));
+    FeedDistinct(*states.back(), g, 0, 3);
+  }
+  const size_t held = mallinfo2().uordblks - before;
+  CHECK(held < 10000 * 1024);  // the array form would be 10000 x 16384
 }
 
 // Intent: values are typed (1 and "1" differ; 0.0 and -0.0 do not), and
