@@ -10,19 +10,30 @@
 //   results_offset + w*result_area_bytes result_area_bytes    result area of worker w
 //   (results_offset is page-aligned; result_area_bytes is a multiple of kPageBytes)
 //
-// Handoff of one shard on channel w (seq counts assignments, from 1):
-//  1. Coordinator, only while done_seq == assign_seq: writes task_*, then
-//     assign_seq = seq (release), then posts work_sem.
-//  2. Worker: wakes on work_sem (or a 200 ms timeout), loads assign_seq
-//     (acquire); if it differs from the last seq it completed, reads task_*,
-//     processes, writes the partial into its result area (or a spill file),
-//     writes result_*, then done_seq = seq (release), then posts done_sem.
+// Handoff on channel w (seq counts assignments, from 1). A channel holds a
+// ring of kTaskRingSlots tasks and as many result descriptors, so a worker
+// starts its next shard without waiting for the coordinator. Seq s uses
+// tasks[s % kTaskRingSlots] and results[s % kTaskRingSlots]; the result
+// area is a circular byte buffer of the partials not yet taken.
+//  1. Coordinator, only while assign_seq - taken_seq < kTaskRingSlots:
+//     writes tasks[seq % K], then assign_seq = seq (release), posts work_sem.
+//  2. Worker, for each seq after the last one it completed, in order: loads
+//     assign_seq (acquire), reads the task, stores started_ns and then
+//     started_seq = seq (release), processes. It places the partial in free
+//     bytes of its result area (bytes of results newer than taken_seq are
+//     in use; if none are free it sets wants_take = 1, re-checks taken_seq
+//     and sleeps on work_sem) or in a spill file, writes results[seq % K],
+//     then done_seq = seq (release), then posts done_sem.
 //  3. Coordinator: after a done_sem wake or a timeout slice, loads done_seq
-//     (acquire) of each busy channel; == assign_seq means result_* are final.
-// Start: the worker sets done_seq = assign_seq, clears its counters, then
-//  ready_token = spawn_token (release) and posts done_sem.
+//     (acquire) of each channel with assignments; every seq in
+//     (taken_seq, done_seq] has a final result. It copies them out in seq
+//     order, storing taken_seq = seq (seq_cst) after each, and posts
+//     work_sem iff wants_take (seq_cst) is set.
+// Start: the worker sets started_seq = done_seq = assign_seq, clears its
+//  counters, then ready_token = spawn_token (release) and posts done_sem.
 // Quit: coordinator sets header.quit = 1 (release) and posts every work_sem.
-// Restart: after reaping a dead worker the coordinator bumps spawn_token and
+// Restart: after reaping a dead worker the coordinator settles every
+//  assignment of the slot (taken_seq = assign_seq), bumps spawn_token and
 //  starts a new one; it never writes the worker's fields itself.
 #pragma once
 
@@ -39,14 +50,15 @@
 namespace fanfold {
 
 inline constexpr uint64_t kShmMagic = 0x31444c4f464e4146ull;  // "FANFOLD1" read as bytes
-inline constexpr uint32_t kShmVersion = 1;
+inline constexpr uint32_t kShmVersion = 2;
 inline constexpr size_t kPageBytes = 4096;
 inline constexpr size_t kMaxPathBytes = 4096;      // task path / spill directory; no NUL kept
 inline constexpr size_t kMaxErrorBytes = 1024;     // worker error text, cut at a UTF-8 boundary
 inline constexpr size_t kMaxSpillNameBytes = 256;  // file name inside the spill directory
 inline constexpr size_t kSemSlotBytes = 64;        // room for one interprocess_semaphore
 inline constexpr size_t kHeaderBytes = 8192;
-inline constexpr size_t kChannelBytes = 8192;
+inline constexpr size_t kChannelBytes = 24576;
+inline constexpr uint32_t kTaskRingSlots = 4;       // most assignments a channel holds at once
 inline constexpr uint64_t kDefaultResultAreaBytes = 8u << 20;
 
 // Worker argv convention: <worker> --segment NAME --slot I <extra args...>
@@ -75,18 +87,40 @@ struct ShmHeader {
   char spill_dir[kMaxPathBytes];  // where partials too big for a result area go
 };
 
+// One assignment in a channel's ring; written by the coordinator only, while
+// the worker is not reading it (see the handoff above).
+struct ShmTask {
+  uint32_t index;
+  uint32_t attempt;
+  uint64_t offset;
+  uint64_t length;
+  uint32_t compression;  // Compression as an integer
+  uint32_t path_length;
+  char path[kMaxPathBytes];
+};
+
+// The outcome of one assignment; written by the worker before it publishes
+// done_seq, read by the coordinator until it advances taken_seq past it.
+struct ShmResult {
+  uint32_t status;             // kResultOk / kResultFailed
+  uint32_t in_file;            // 1: the partial is in spill_name, not the area
+  uint64_t offset;             // of the partial in the result area
+  uint64_t length;             // bytes of the partial
+  uint64_t start_ns;           // wall clock (ns since the Unix epoch): the shard's
+  uint64_t end_ns;             //   start and end in the worker
+  uint32_t error_length;
+  uint32_t spill_name_length;
+  char error[kMaxErrorBytes];  // cut at a UTF-8 character boundary
+  char spill_name[kMaxSpillNameBytes];
+};
+
 struct ShmChannel {
   // ---- written by the coordinator ----
   alignas(64) unsigned char work_sem[kSemSlotBytes];  // posted by the coordinator, waited on by the worker
   std::atomic<uint64_t> assign_seq;   // seq of the latest assignment (0 = none yet)
   std::atomic<uint64_t> spawn_token;  // bumped before each worker process is started for this slot
-  uint32_t task_index;
-  uint32_t task_attempt;
-  uint64_t task_offset;
-  uint64_t task_length;
-  uint32_t task_compression;  // Compression as an integer
-  uint32_t task_path_length;
-  char task_path[kMaxPathBytes];
+  std::atomic<uint64_t> taken_seq;    // seq of the latest result copied out (or settled after a death)
+  alignas(64) ShmTask tasks[kTaskRingSlots];  // seq s in tasks[s % kTaskRingSlots]
 
   // ---- written by the worker process of this slot ----
   alignas(64) std::atomic<uint64_t> ready_token;  // == spawn_token once this worker is ready
@@ -95,14 +129,11 @@ struct ShmChannel {
   std::atomic<uint64_t> heartbeat_ns;     // MonotonicNanos() at the last bump
   std::atomic<uint64_t> records_done;     // progress within the current shard
   std::atomic<uint64_t> bytes_done;
+  std::atomic<uint64_t> started_seq;      // seq being processed (== done_seq between shards)
+  std::atomic<uint64_t> started_ns;       // wall clock at its start
   std::atomic<uint64_t> done_seq;         // seq of the latest completed assignment
-  uint32_t result_status;                 // kResultOk / kResultFailed
-  uint32_t result_in_file;                // 1: the partial is in spill_name, not the area
-  uint64_t result_length;                 // bytes of the partial
-  uint32_t error_length;
-  uint32_t spill_name_length;
-  char error[kMaxErrorBytes];
-  char spill_name[kMaxSpillNameBytes];
+  std::atomic<uint32_t> wants_take;       // 1 while waiting for room in the result area
+  ShmResult results[kTaskRingSlots];      // seq s in results[s % kTaskRingSlots]
 };
 
 static_assert(std::atomic<uint64_t>::is_always_lock_free, "shared atomics must be lock-free");
@@ -112,9 +143,11 @@ static_assert(alignof(ShmSemaphore) <= 64, "semaphore slot misaligned");
 static_assert(std::is_standard_layout_v<ShmHeader> && std::is_standard_layout_v<ShmChannel>);
 static_assert(offsetof(ShmHeader, quit) == 64 && offsetof(ShmHeader, done_sem) == 128);
 static_assert(offsetof(ShmHeader, spill_dir) == 192 && sizeof(ShmHeader) <= kHeaderBytes);
-static_assert(offsetof(ShmChannel, assign_seq) == 64 && offsetof(ShmChannel, task_path) == 112);
-static_assert(offsetof(ShmChannel, ready_token) == 4224 && offsetof(ShmChannel, done_seq) == 4272);
-static_assert(offsetof(ShmChannel, error) == 4304 && offsetof(ShmChannel, spill_name) == 5328);
+static_assert(sizeof(ShmTask) == 4128 && sizeof(ShmResult) == 1328);
+static_assert(offsetof(ShmChannel, assign_seq) == 64 && offsetof(ShmChannel, taken_seq) == 80);
+static_assert(offsetof(ShmChannel, tasks) == 128 && offsetof(ShmChannel, ready_token) == 16640);
+static_assert(offsetof(ShmChannel, started_seq) == 16688 && offsetof(ShmChannel, done_seq) == 16704);
+static_assert(offsetof(ShmChannel, wants_take) == 16712 && offsetof(ShmChannel, results) == 16720);
 static_assert(sizeof(ShmChannel) <= kChannelBytes && kChannelBytes % 64 == 0);
 
 // Sizes of a segment for a worker count and a (page-rounded) result area.

@@ -20,9 +20,12 @@ class InProcessTransport final : public Transport {
 
   int worker_count() const override { return static_cast<int>(busy_.size()); }
   bool idle(int w) const override { return !busy_[w]; }
+  int room(int w) const override { return busy_[w] ? 0 : 1; }
   Status Assign(int w, const ShardTask& task) override;
   Status Wait(int timeout_ms, TransportEvent* event, bool* got) override;
-  // Shards run synchronously inside Wait, so there is never one to abort.
+  // Shards run synchronously inside Wait, so none is ever running between
+  // calls and there is never one to abort.
+  bool Running(int, uint32_t*, uint64_t*) const override { return false; }
   Status Abort(int w) override { return Status::Ok(); }
   void Shutdown() override {}
 

@@ -1,8 +1,9 @@
-// RunLoop: the coordinator's dispatch loop — hands shards to idle workers in
-// dispatch order, collects what comes back, retries shards whose worker died
-// (on a fresh worker, up to max_attempts), kills and retries a worker that
-// exceeds the per-shard time limit, and quarantines a shard that fails every
-// attempt. A shard whose worker reports an error (bad data) fails at once:
+// RunLoop: the coordinator's dispatch loop — hands shards to workers in
+// dispatch order (a few small ones queued per worker), collects what comes
+// back, retries shards whose worker died (on a fresh worker, up to
+// max_attempts; shards queued behind the one that died go back to the queue
+// without counting an attempt), kills and retries a worker that exceeds the
+// per-shard time limit, and quarantines a shard that fails every attempt. A shard whose worker reports an error (bad data) fails at once:
 // the same input would fail again. A partial that arrives corrupt (checksum)
 // is retried like a crash. Every attempt is reported through
 // on_attempt; every partial goes through on_partial (which persists it)
@@ -50,7 +51,14 @@ struct RunLoopResult {
 
 struct RunLoopOptions {
   uint32_t max_attempts = 3;            // first try + 2 retries
-  uint64_t shard_time_limit_ms = 0;     // 0 = none
+  uint64_t shard_time_limit_ms = 0;     // 0 = none (counted from the worker's start of the shard)
+  // Shards a worker may hold at once (running + queued behind it), so it
+  // starts the next without a round trip to the coordinator; capped by the
+  // transport's room(). Past the first, a worker only takes more while the
+  // bytes it holds stay within queue_bytes, so big shards are still handed
+  // out one at a time, largest first, to whichever worker is free.
+  uint32_t queue_depth = 3;
+  uint64_t queue_bytes = 1u << 20;
   std::function<bool()> should_stop;    // polled between events; may be empty
   std::function<void(const AttemptRecord&)> on_attempt;
   // Persists a finished shard's partial; an error stops the run.

@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <chrono>
 #include <cstring>
+#include <deque>
 #include <filesystem>
 #include <system_error>
 
@@ -33,12 +34,22 @@ std::string DescribeOutput(const ChildProcess& child) {
 
 }  // namespace
 
+uint64_t WallNanos() {
+  return static_cast<uint64_t>(std::chrono::duration_cast<std::chrono::nanoseconds>(
+                                   std::chrono::system_clock::now().time_since_epoch())
+                                   .count());
+}
+
 struct ShmTransport::Slot {
+  struct Queued {
+    uint64_t seq;
+    uint32_t shard;
+  };
   std::unique_ptr<ChildProcess> child;
   bool ready = false;  // reported ready, and not since found dead
-  bool busy = false;   // an assignment is outstanding
   uint64_t seq = 0;    // our copy of the channel's assign_seq
-  uint32_t shard = 0;  // index of the outstanding shard
+  uint64_t taken = 0;  // our copy of the channel's taken_seq
+  std::deque<Queued> queued;  // assigned and not yet taken, in seq order
   uint64_t token = 0;  // spawn_token of the current process
   bool aborted = false;  // we killed it on purpose (Abort)
   std::string down;    // non-empty: no worker could be kept here; why
@@ -98,7 +109,6 @@ Status ShmTransport::StartWorker(int w) {
   if (!child.ok()) return child.status().WithContext("worker " + std::to_string(w));
   slot.child = std::move(child).value();
   slot.ready = false;
-  slot.busy = false;
   slot.aborted = false;
   slot.down.clear();
   return Status::Ok();
@@ -163,13 +173,18 @@ void ShmTransport::Restart(int w) {
 int ShmTransport::worker_count() const { return static_cast<int>(slots_.size()); }
 
 bool ShmTransport::idle(int w) const {
-  if (shut_down_ || w < 0 || w >= worker_count()) return false;
+  return room(w) == static_cast<int>(kTaskRingSlots);
+}
+
+int ShmTransport::room(int w) const {
+  if (shut_down_ || w < 0 || w >= worker_count()) return 0;
   const Slot& slot = slots_[static_cast<size_t>(w)];
-  return slot.ready && !slot.busy && slot.down.empty();
+  if (!slot.ready || !slot.down.empty()) return 0;
+  return static_cast<int>(kTaskRingSlots - slot.queued.size());
 }
 
 Status ShmTransport::Assign(int w, const ShardTask& task) {
-  if (!idle(w)) return Status::Internal("Assign to worker " + std::to_string(w) + ", which is not idle");
+  if (room(w) <= 0) return Status::Internal("Assign to worker " + std::to_string(w) + ", whose queue is full");
   if (task.path.size() > kMaxPathBytes) {
     return Status::InvalidArgument("shard path is " + std::to_string(task.path.size()) +
                                    " bytes long; a worker channel holds at most " +
@@ -178,51 +193,80 @@ Status ShmTransport::Assign(int w, const ShardTask& task) {
   }
   Slot& slot = slots_[static_cast<size_t>(w)];
   ShmChannel& ch = view_.channel(static_cast<uint32_t>(w));
-  ch.task_index = task.index;
-  ch.task_attempt = task.attempt;
-  ch.task_offset = task.offset;
-  ch.task_length = task.length;
-  ch.task_compression = static_cast<uint32_t>(task.compression);
-  ch.task_path_length = static_cast<uint32_t>(task.path.size());
-  std::memcpy(ch.task_path, task.path.data(), task.path.size());
-  ch.assign_seq.store(++slot.seq, std::memory_order_release);  // publishes the task fields
+  const uint64_t seq = slot.seq + 1;
+  // Free: seq - kTaskRingSlots <= taken, so the worker is done with this entry.
+  ShmTask& t = ch.tasks[seq % kTaskRingSlots];
+  t.index = task.index;
+  t.attempt = task.attempt;
+  t.offset = task.offset;
+  t.length = task.length;
+  t.compression = static_cast<uint32_t>(task.compression);
+  t.path_length = static_cast<uint32_t>(task.path.size());
+  std::memcpy(t.path, task.path.data(), task.path.size());
+  ch.assign_seq.store(seq, std::memory_order_release);  // publishes the task
   SemPost(view_.work_sem(static_cast<uint32_t>(w)));
-  slot.busy = true;
-  slot.shard = task.index;
+  slot.seq = seq;
+  slot.queued.push_back({seq, task.index});
   return Status::Ok();
 }
 
-bool ShmTransport::TakeCompletion(int w, TransportEvent* event) {
-  Slot& slot = slots_[static_cast<size_t>(w)];
+bool ShmTransport::Running(int w, uint32_t* shard, uint64_t* since_ns) const {
+  if (!view_.valid() || w < 0 || w >= worker_count()) return false;
+  const Slot& slot = slots_[static_cast<size_t>(w)];
+  if (!slot.child || slot.queued.empty()) return false;
   const ShmChannel& ch = view_.channel(static_cast<uint32_t>(w));
-  slot.busy = false;
-  event->worker = w;
-  event->shard = slot.shard;
-  event->partial.clear();
-  event->message.clear();
-  if (ch.result_status != kResultOk) {
-    event->kind = TransportEvent::Kind::kFailed;
-    event->message.assign(ch.error, std::min<size_t>(ch.error_length, kMaxErrorBytes));
+  const uint64_t started = ch.started_seq.load(std::memory_order_acquire);
+  if (started <= slot.taken || started <= ch.done_seq.load(std::memory_order_acquire)) return false;
+  const uint64_t since = ch.started_ns.load(std::memory_order_relaxed);
+  // Moved on meanwhile: `since` may belong to the next shard; ask again later.
+  if (ch.started_seq.load(std::memory_order_acquire) != started) return false;
+  for (const Slot::Queued& q : slot.queued) {
+    if (q.seq != started) continue;
+    *shard = q.shard;
+    *since_ns = since;
     return true;
   }
-  event->kind = TransportEvent::Kind::kDone;
-  const uint64_t length = ch.result_length;
-  Status st;
-  if (ch.result_in_file != 0) {
-    std::string name(ch.spill_name, std::min<size_t>(ch.spill_name_length, kMaxSpillNameBytes));
-    st = TakeSpillFile(options_.spill_dir, name, length, &event->partial);
-  } else if (length > view_.result_area_bytes()) {
-    st = Status::Corrupt("worker reported a " + std::to_string(length) +
-                         "-byte partial, larger than its result area");
-  } else {
-    event->partial.assign(view_.result_area(static_cast<uint32_t>(w)), length);
-  }
-  if (!st.ok()) {
+  return false;
+}
+
+void ShmTransport::TakeCompletion(int w, TransportEvent* event) {
+  Slot& slot = slots_[static_cast<size_t>(w)];
+  ShmChannel& ch = view_.channel(static_cast<uint32_t>(w));
+  const Slot::Queued q = slot.queued.front();
+  const ShmResult& r = ch.results[q.seq % kTaskRingSlots];
+  event->worker = w;
+  event->shard = q.shard;
+  event->partial.clear();
+  event->message.clear();
+  event->aborted = false;
+  event->start_ns = r.start_ns;
+  event->end_ns = r.end_ns;
+  if (r.status != kResultOk) {
     event->kind = TransportEvent::Kind::kFailed;
-    event->partial.clear();
-    event->message = "shard " + std::to_string(slot.shard) + ": " + st.message();
+    event->message.assign(r.error, std::min<size_t>(r.error_length, kMaxErrorBytes));
+  } else {
+    event->kind = TransportEvent::Kind::kDone;
+    Status st;
+    if (r.in_file != 0) {
+      std::string name(r.spill_name, std::min<size_t>(r.spill_name_length, kMaxSpillNameBytes));
+      st = TakeSpillFile(options_.spill_dir, name, r.length, &event->partial);
+    } else if (r.length > view_.result_area_bytes() || r.offset > view_.result_area_bytes() - r.length) {
+      st = Status::Corrupt("worker reported a " + std::to_string(r.length) + "-byte partial at offset " +
+                           std::to_string(r.offset) + ", outside its result area");
+    } else {
+      event->partial.assign(view_.result_area(static_cast<uint32_t>(w)) + r.offset, r.length);
+    }
+    if (!st.ok()) {
+      event->kind = TransportEvent::Kind::kFailed;
+      event->partial.clear();
+      event->message = "shard " + std::to_string(q.shard) + ": " + st.message();
+    }
   }
-  return true;
+  // Copied out: the worker may reuse the entry and the bytes.
+  slot.queued.pop_front();
+  slot.taken = q.seq;
+  ch.taken_seq.store(q.seq, std::memory_order_seq_cst);
+  if (ch.wants_take.load(std::memory_order_seq_cst) != 0) SemPost(view_.work_sem(static_cast<uint32_t>(w)));
 }
 
 bool ShmTransport::ScanCompletions(TransportEvent* event) {
@@ -230,50 +274,64 @@ bool ShmTransport::ScanCompletions(TransportEvent* event) {
   for (int k = 0; k < n; ++k) {
     const int w = (scan_start_ + k) % n;
     const Slot& slot = slots_[static_cast<size_t>(w)];
-    if (!slot.busy) continue;
-    if (view_.channel(static_cast<uint32_t>(w)).done_seq.load(std::memory_order_acquire) != slot.seq) {
+    if (slot.queued.empty()) continue;
+    if (view_.channel(static_cast<uint32_t>(w)).done_seq.load(std::memory_order_acquire) <= slot.taken) {
       continue;
     }
     scan_start_ = (w + 1) % n;
-    return TakeCompletion(w, event);
+    TakeCompletion(w, event);
+    return true;
   }
   return false;
 }
 
-bool ShmTransport::ScanExits(TransportEvent* event) {
+bool ShmTransport::ScanExits() {
   last_exit_scan_ns_ = MonotonicNanos();
   const int n = worker_count();
+  bool reported = false;
   for (int k = 0; k < n; ++k) {
     const int w = (scan_start_ + k) % n;
     Slot& slot = slots_[static_cast<size_t>(w)];
     if (!slot.child || !slot.down.empty() || !slot.child->Poll()) continue;
-    // Reaped: nothing writes this channel any more.
-    bool reported = false;
-    if (slot.busy) {
-      reported = true;
-      if (view_.channel(static_cast<uint32_t>(w)).done_seq.load(std::memory_order_acquire) == slot.seq) {
-        TakeCompletion(w, event);  // it finished, then died: the result stands
+    // Reaped: nothing writes this channel any more. Results it published
+    // stand; the shard it had started died with it; the rest never began.
+    ShmChannel& ch = view_.channel(static_cast<uint32_t>(w));
+    const uint64_t done = ch.done_seq.load(std::memory_order_acquire);
+    const uint64_t started = ch.started_seq.load(std::memory_order_acquire);
+    std::vector<TransportEvent> events;
+    while (!slot.queued.empty() && slot.queued.front().seq <= done) {
+      events.emplace_back();
+      TakeCompletion(w, &events.back());
+    }
+    int died = -1;
+    for (const Slot::Queued& q : slot.queued) {
+      TransportEvent& e = events.emplace_back();
+      e.worker = w;
+      e.shard = q.shard;
+      if (q.seq == started && started > done) {
+        died = static_cast<int>(events.size()) - 1;
+        e.kind = TransportEvent::Kind::kDied;
+        e.aborted = slot.aborted;
+        e.start_ns = ch.started_ns.load(std::memory_order_relaxed);
+        e.end_ns = WallNanos();
+        e.message = "worker " + std::to_string(w) + " (pid " + std::to_string(slot.child->pid()) + ") " +
+                    slot.child->exit_info().Describe() + " while processing shard " + std::to_string(q.shard) +
+                    (slot.aborted ? " (stopped by the coordinator)" : "") + DescribeOutput(*slot.child);
       } else {
-        slot.busy = false;
-        event->kind = TransportEvent::Kind::kDied;
-        event->worker = w;
-        event->shard = slot.shard;
-        event->partial.clear();
-        event->message = "worker " + std::to_string(w) + " (pid " + std::to_string(slot.child->pid()) +
-                         ") " + slot.child->exit_info().Describe() + " while processing shard " +
-                         std::to_string(slot.shard) +
-                         (slot.aborted ? " (stopped by the coordinator)" : "") + DescribeOutput(*slot.child);
+        e.kind = TransportEvent::Kind::kReturned;
       }
     }
+    slot.queued.clear();
+    slot.taken = slot.seq;
+    ch.taken_seq.store(slot.seq, std::memory_order_seq_cst);  // settled: the next worker starts here
     Restart(w);
-    if (!reported) continue;
-    if (!slot.down.empty() && event->kind == TransportEvent::Kind::kDied) {
-      event->message += "\n(it could not be restarted: " + slot.down + ")";
+    if (died >= 0 && !slot.down.empty()) {
+      events[static_cast<size_t>(died)].message += "\n(it could not be restarted: " + slot.down + ")";
     }
-    scan_start_ = (w + 1) % n;
-    return true;
+    for (TransportEvent& e : events) pending_.push_back(std::move(e));
+    reported = reported || !events.empty();
   }
-  return false;
+  return reported;
 }
 
 Status ShmTransport::Wait(int timeout_ms, TransportEvent* event, bool* got) {
@@ -281,13 +339,16 @@ Status ShmTransport::Wait(int timeout_ms, TransportEvent* event, bool* got) {
   if (shut_down_) return Status::Internal("Wait on a transport that was shut down");
   const auto deadline = std::chrono::steady_clock::now() + std::chrono::milliseconds(timeout_ms);
   for (;;) {
-    // Exits are due every kExitScanNs even while completions keep coming, so
-    // a steady stream of results cannot hide a dead worker.
-    const int64_t left_ms = MillisUntil(deadline);
-    if ((left_ms <= 0 || MonotonicNanos() - last_exit_scan_ns_ >= kExitScanNs) && ScanExits(event)) {
+    if (!pending_.empty()) {
+      *event = std::move(pending_.front());
+      pending_.pop_front();
       *got = true;
       return Status::Ok();
     }
+    // Exits are due every kExitScanNs even while completions keep coming, so
+    // a steady stream of results cannot hide a dead worker.
+    const int64_t left_ms = MillisUntil(deadline);
+    if ((left_ms <= 0 || MonotonicNanos() - last_exit_scan_ns_ >= kExitScanNs) && ScanExits()) continue;
     // The sequence numbers, not the semaphore count, say what is done.
     if (ScanCompletions(event)) {
       *got = true;

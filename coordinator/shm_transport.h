@@ -8,6 +8,7 @@
 #pragma once
 
 #include <cstdint>
+#include <deque>
 #include <memory>
 #include <string>
 #include <vector>
@@ -41,12 +42,15 @@ class ShmTransport final : public Transport {
 
   int worker_count() const override;
   bool idle(int w) const override;
+  int room(int w) const override;  // up to kTaskRingSlots shards queued per worker
   Status Assign(int w, const ShardTask& task) override;
+  bool Running(int w, uint32_t* shard, uint64_t* since_ns) const override;
   // A worker that died is restarted inside Wait before the event is
   // returned. Returns an error only when no worker can be kept running.
   Status Wait(int timeout_ms, TransportEvent* event, bool* got) override;
-  // SIGKILLs worker w; the next Wait reports its shard as kDied (or kDone if
-  // it had just finished) and restarts the slot. Ok if w is already gone.
+  // SIGKILLs worker w; the next Wait reports the shard it was running as
+  // kDied, those it had finished as kDone/kFailed and those queued behind
+  // as kReturned, and restarts the slot. Ok if w is already gone.
   Status Abort(int w) override;
   void Shutdown() override;
 
@@ -67,15 +71,18 @@ class ShmTransport final : public Transport {
   void Restart(int w);
   // Finds one finished assignment; true iff *event was filled.
   bool ScanCompletions(TransportEvent* event);
-  bool TakeCompletion(int w, TransportEvent* event);
-  // Reaps dead workers; true iff *event was filled (a death or a completion
-  // that landed just before the death).
-  bool ScanExits(TransportEvent* event);
+  // Copies out the result of w's oldest assignment and frees its entry.
+  // REQUIRES: it is complete (done_seq covers it).
+  void TakeCompletion(int w, TransportEvent* event);
+  // Reaps dead workers and turns each one's assignments into events in
+  // pending_; true iff it added any.
+  bool ScanExits();
 
   ShmTransportOptions options_;
   std::unique_ptr<ShmSegment> segment_;
   ShmView view_;
   std::vector<Slot> slots_;
+  std::deque<TransportEvent> pending_;  // settled by ScanExits, handed out by Wait first
   int scan_start_ = 0;          // rotates, so no worker's results wait behind another's
   uint64_t last_exit_scan_ns_ = 0;
   bool shut_down_ = false;

@@ -11,6 +11,7 @@
 #include <chrono>
 #include <csignal>
 #include <filesystem>
+#include <map>
 #include <thread>
 #include <vector>
 
@@ -126,6 +127,12 @@ TEST_CASE("ShmTransport Abort kills a busy worker and restarts the slot") {
   REQUIRE((*t)->Assign(0, TestTask(12, "sleep:20000")).ok());
   const int pid = (*t)->worker_pid(0);
   const auto start = std::chrono::steady_clock::now();
+  // Aborted before it starts, a shard would come back as kReturned instead.
+  uint32_t shard = 0;
+  uint64_t since = 0;
+  while (!(*t)->Running(0, &shard, &since) && MillisSince(start) < 500) {
+    std::this_thread::sleep_for(std::chrono::milliseconds(1));
+  }
   REQUIRE((*t)->Abort(0).ok());
   TransportEvent ev = WaitEvent(**t, 3000);
   CHECK(MillisSince(start) < 1000);
@@ -139,6 +146,70 @@ TEST_CASE("ShmTransport Abort kills a busy worker and restarts the slot") {
   CHECK(ev.kind == TransportEvent::Kind::kDone);
   CHECK(ev.partial == TestPayload(13, 4));
   CHECK_FALSE((*t)->Abort(5).ok());
+}
+
+// Collects the next n events of t, keyed by shard.
+std::map<uint32_t, TransportEvent> EventsByShard(Transport& t, int n) {
+  std::map<uint32_t, TransportEvent> got;
+  for (int i = 0; i < n; ++i) {
+    TransportEvent ev = WaitEvent(t, 3000);
+    got[ev.shard] = std::move(ev);
+  }
+  return got;
+}
+
+// Intent: a worker killed with shards queued behind the running one: what it finished stands
+// (kDone), the one it had started is kDied, the ones it never started come back as kReturned
+// (no attempt spent on them), and the fresh worker of the slot serves again.
+TEST_CASE("ShmTransport settles every queued shard of a worker that dies") {
+  auto t = ShmTransport::Create(TestWorkerOptions(1));
+  REQUIRE_MESSAGE(t.ok(), t.status().message());
+  REQUIRE((*t)->Assign(0, TestTask(20, "echo:10")).ok());
+  REQUIRE((*t)->Assign(0, TestTask(21, "crash:")).ok());
+  REQUIRE((*t)->Assign(0, TestTask(22, "echo:10")).ok());
+  REQUIRE((*t)->Assign(0, TestTask(23, "echo:10")).ok());
+  std::map<uint32_t, TransportEvent> got = EventsByShard(**t, 4);
+  REQUIRE(got.size() == 4);
+  CHECK(got[20].kind == TransportEvent::Kind::kDone);
+  CHECK(got[20].partial == TestPayload(20, 10));
+  CHECK(got[21].kind == TransportEvent::Kind::kDied);
+  CHECK_FALSE(got[21].aborted);
+  CHECK(got[21].message.find("while processing shard 21") != std::string::npos);
+  CHECK(got[21].start_ns >= got[20].end_ns);
+  CHECK(got[21].end_ns >= got[21].start_ns);
+  CHECK(got[22].kind == TransportEvent::Kind::kReturned);
+  CHECK(got[23].kind == TransportEvent::Kind::kReturned);
+  CHECK((*t)->idle(0));
+  REQUIRE((*t)->Assign(0, TestTask(22, "echo:7")).ok());
+  TransportEvent ev = WaitEvent(**t);
+  CHECK(ev.kind == TransportEvent::Kind::kDone);
+  CHECK(ev.partial == TestPayload(22, 7));
+}
+
+// Intent: Abort of a worker with a queue reports the running shard as kDied (aborted) and
+// hands the queued one back; nothing is reported twice and the slot is usable at once.
+TEST_CASE("ShmTransport Abort returns the shards queued behind the running one") {
+  auto t = ShmTransport::Create(TestWorkerOptions(1));
+  REQUIRE_MESSAGE(t.ok(), t.status().message());
+  REQUIRE((*t)->Assign(0, TestTask(30, "sleep:20000")).ok());
+  REQUIRE((*t)->Assign(0, TestTask(31, "echo:4")).ok());
+  uint32_t shard = 0;
+  uint64_t since = 0;
+  const auto start = std::chrono::steady_clock::now();
+  while (!(*t)->Running(0, &shard, &since) && MillisSince(start) < 1000) {
+    std::this_thread::sleep_for(std::chrono::milliseconds(2));
+  }
+  REQUIRE((*t)->Abort(0).ok());
+  std::map<uint32_t, TransportEvent> got = EventsByShard(**t, 2);
+  CHECK(MillisSince(start) < 2000);
+  CHECK(got[30].kind == TransportEvent::Kind::kDied);
+  CHECK(got[30].aborted);
+  CHECK(got[31].kind == TransportEvent::Kind::kReturned);
+  TransportEvent none;
+  bool extra = true;
+  REQUIRE((*t)->Wait(30, &none, &extra).ok());
+  CHECK_FALSE(extra);
+  CHECK((*t)->room(0) == static_cast<int>(kTaskRingSlots));
 }
 
 // Intent: a worker that exits mid-shard is reported with its exit status.

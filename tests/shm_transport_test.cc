@@ -65,6 +65,86 @@ TEST_CASE("ShmTransport round-trips 5000 tiny shards over 3 workers") {
   for (int w = 0; w < 3; ++w) CHECK(per_worker[static_cast<size_t>(w)] > 0);
 }
 
+// Intent: one worker holds up to kTaskRingSlots shards at once; they run in assignment order,
+// each comes back with its own bytes, and the worker's start/end times never overlap and lie
+// within the coordinator's own clock readings around the whole batch.
+TEST_CASE("ShmTransport queues several shards on one worker") {
+  auto t = ShmTransport::Create(TestWorkerOptions(1));
+  REQUIRE_MESSAGE(t.ok(), t.status().message());
+  CHECK((*t)->room(0) == static_cast<int>(kTaskRingSlots));
+  const uint64_t before = WallNowNs();
+  for (uint32_t i = 0; i < kTaskRingSlots; ++i) {
+    REQUIRE((*t)->Assign(0, TestTask(i, i == 0 ? "sleep:30" : "echo:" + std::to_string(100 + i))).ok());
+  }
+  CHECK((*t)->room(0) == 0);
+  CHECK_FALSE((*t)->idle(0));
+  CHECK((*t)->Assign(0, TestTask(99, "echo:1")).code() == Status::Code::kInternal);
+  uint64_t last_end = before;
+  for (uint32_t i = 0; i < kTaskRingSlots; ++i) {
+    TransportEvent ev = WaitEvent(**t);
+    REQUIRE(ev.kind == TransportEvent::Kind::kDone);
+    CHECK(ev.shard == i);
+    CHECK(ev.partial == TestPayload(i, i == 0 ? 8 : 100 + i));
+    CHECK(ev.start_ns >= last_end);
+    CHECK(ev.end_ns >= ev.start_ns);
+    if (i == 0) CHECK(ev.end_ns - ev.start_ns >= 25'000'000);  // it slept 30 ms
+    last_end = ev.end_ns;
+  }
+  CHECK(last_end <= WallNowNs());
+  CHECK((*t)->idle(0));
+}
+
+// Intent: Running names the shard a worker is processing and when it began, and nothing once
+// it is done (the time limit relies on it).
+TEST_CASE("ShmTransport reports the running shard and its start") {
+  auto t = ShmTransport::Create(TestWorkerOptions(1));
+  REQUIRE_MESSAGE(t.ok(), t.status().message());
+  uint32_t shard = 0;
+  uint64_t since = 0;
+  CHECK_FALSE((*t)->Running(0, &shard, &since));
+  const uint64_t before = WallNowNs();
+  REQUIRE((*t)->Assign(0, TestTask(41, "sleep:300")).ok());
+  REQUIRE((*t)->Assign(0, TestTask(42, "echo:5")).ok());
+  const auto start = std::chrono::steady_clock::now();
+  while (!(*t)->Running(0, &shard, &since) && MillisSince(start) < 250) {
+    std::this_thread::sleep_for(std::chrono::milliseconds(2));
+  }
+  REQUIRE((*t)->Running(0, &shard, &since));
+  CHECK(shard == 41);
+  CHECK(since >= before);
+  CHECK(since <= WallNowNs());
+  CHECK(WaitEvent(**t).shard == 41);
+  CHECK(WaitEvent(**t).shard == 42);
+  CHECK_FALSE((*t)->Running(0, &shard, &since));
+}
+
+// Intent: partials that together overflow the result area are placed around it as a ring: with
+// a coordinator that collects late, the worker waits for room instead of overwriting a partial
+// not yet taken, and every payload arrives intact (sizes chosen so that the ring wraps).
+TEST_CASE("ShmTransport reuses the result area as a ring") {
+  ShmTransportOptions o = TestWorkerOptions(1);
+  o.result_area_bytes = 64 * 1024;
+  auto t = ShmTransport::Create(o);
+  REQUIRE_MESSAGE(t.ok(), t.status().message());
+  const uint32_t kTasks = 60;
+  auto size_of = [](uint32_t i) { return size_t{9000} + (i * 7919u) % 23000; };
+  uint32_t next = 0, done = 0;
+  int wrong = 0;
+  while (done < kTasks) {
+    while (next < kTasks && (*t)->room(0) > 0) {
+      REQUIRE((*t)->Assign(0, TestTask(next, "echo:" + std::to_string(size_of(next)))).ok());
+      ++next;
+    }
+    std::this_thread::sleep_for(std::chrono::milliseconds(done % 3 == 0 ? 5 : 0));  // collect late
+    TransportEvent ev = WaitEvent(**t);
+    REQUIRE(ev.kind == TransportEvent::Kind::kDone);
+    CHECK(ev.shard == done);
+    if (ev.partial != TestPayload(ev.shard, size_of(ev.shard))) ++wrong;
+    ++done;
+  }
+  CHECK(wrong == 0);
+}
+
 // Intent: a shard the worker rejects comes back as kFailed with the worker's message, and the
 // same worker process goes on serving.
 TEST_CASE("ShmTransport reports a failing shard with its message") {

@@ -39,6 +39,13 @@ inline TransportEvent WaitEvent(Transport& t, int limit_ms = 5000) {
   return ev;
 }
 
+// The wall clock in ns since the Unix epoch, as the transport's start/end times are.
+inline uint64_t WallNowNs() {
+  return static_cast<uint64_t>(std::chrono::duration_cast<std::chrono::nanoseconds>(
+                                   std::chrono::system_clock::now().time_since_epoch())
+                                   .count());
+}
+
 // Milliseconds since `start`.
 inline double MillisSince(std::chrono::steady_clock::time_point start) {
   return std::chrono::duration<double, std::milli>(std::chrono::steady_clock::now() - start).count();

@@ -1,7 +1,9 @@
 // WorkerLoop: the worker process's side of the shared-memory transport. It
 // attaches to the coordinator's segment, reports ready on its channel, then
-// runs one shard at a time through the caller's process function and hands
-// the encoded partial back (result area, or a spill file when too big).
+// runs its queued shards one at a time, in order, through the caller's
+// process function and hands each encoded partial back (result area, or a
+// spill file when too big), starting the next without waiting for the
+// coordinator to collect the last.
 // It returns when told to quit or when the coordinator is gone. The worker
 // is single-threaded; the protocol is in common/shm_layout.h.
 #pragma once
