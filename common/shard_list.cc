@@ -6,6 +6,7 @@
 #include <algorithm>
 #include <filesystem>
 #include <fnmatch.h>
+#include <map>
 #include <system_error>
 
 #include "common/json_location.h"
@@ -31,11 +32,16 @@ std::vector<std::string> Segments(const std::string& pattern) {
   return out;
 }
 
+struct Match {
+  fs::path path;
+  bool symlink = false;
+};
+
 // Appends to *out every regular file under dir matching segs[i..].
-void Walk(const fs::path& dir, const std::vector<std::string>& segs, size_t i, std::vector<fs::path>* out) {
+void Walk(const fs::path& dir, const std::vector<std::string>& segs, size_t i, std::vector<Match>* out) {
   std::error_code ec;
   if (i == segs.size()) {
-    if (fs::is_regular_file(dir, ec)) out->push_back(dir);
+    if (fs::is_regular_file(dir, ec)) out->push_back({dir, fs::is_symlink(dir, ec)});
     return;
   }
   const std::string& seg = segs[i];
@@ -50,12 +56,49 @@ void Walk(const fs::path& dir, const std::vector<std::string>& segs, size_t i, s
     Walk(dir / seg, segs, i + 1, out);
     return;
   }
+  const bool leaf = i + 1 == segs.size();
   for (fs::directory_iterator it(dir, ec), end; !ec && it != end; it.increment(ec)) {
     std::string name = it->path().filename().string();
     if (name[0] == '.' && seg[0] != '.') continue;  // hidden files only by explicit pattern
-    if (GlobMatch(seg, name)) Walk(it->path(), segs, i + 1, out);
+    if (!GlobMatch(seg, name)) continue;
+    // At the last segment the entry's own type (from the directory listing,
+    // no stat unless it is a symlink) decides: a glob over thousands of
+    // files should not cost a system call each just to be listed.
+    std::error_code type_ec;
+    if (!leaf) Walk(it->path(), segs, i + 1, out);
+    else if (it->is_regular_file(type_ec)) out->push_back({it->path(), it->is_symlink(type_ec)});
   }
 }
+
+// The absolute, symlink-free form of each path, for sorting and removing
+// duplicates. Directories are resolved once each, not once per file in
+// them; a file that is itself a symlink is resolved whole.
+class PathResolver {
+ public:
+  PathResolver() {
+    std::error_code ec;
+    cwd_ = fs::current_path(ec);
+  }
+  fs::path Resolve(const Match& m) {
+    std::error_code ec;
+    const fs::path abs = m.path.is_absolute() ? m.path : cwd_ / m.path;
+    if (m.symlink) {
+      fs::path whole = fs::weakly_canonical(abs, ec);
+      return ec ? abs.lexically_normal() : whole;
+    }
+    const fs::path parent = abs.parent_path();
+    auto it = dirs_.find(parent);
+    if (it == dirs_.end()) {
+      fs::path canon = fs::weakly_canonical(parent, ec);
+      it = dirs_.emplace(parent, ec ? parent.lexically_normal() : canon).first;
+    }
+    return it->second / abs.filename();
+  }
+
+ private:
+  fs::path cwd_;
+  std::map<fs::path, fs::path> dirs_;
+};
 
 std::string StripCompression(const std::string& name) {
   for (const char* ext : {".zst", ".gz"}) {
@@ -87,11 +130,12 @@ bool FormatFromName(const std::string& path, RecordFormat* out) {
 
 Result<ShardList> ExpandShards(const JobSpec& job) {
   std::vector<fs::path> files;
+  PathResolver resolver;
   for (size_t i = 0; i < job.files.size(); ++i) {
     const std::string where = job.job_path + ": " + ChildPointer("/inputs/files", i);
     const std::string& pattern = job.files[i];
     fs::path full = fs::path(pattern).is_absolute() ? fs::path(pattern) : fs::path(job.base_dir) / pattern;
-    std::vector<fs::path> matched;
+    std::vector<Match> matched;
     if (HasWildcard(pattern)) {
       std::string p = full.lexically_normal().string();
       Walk(p[0] == '/' ? fs::path("/") : fs::path("."), Segments(p), 0, &matched);
@@ -103,14 +147,12 @@ Result<ShardList> ExpandShards(const JobSpec& job) {
         return Status::InvalidArgument(where + ": input file '" + full.string() + "' does not exist");
       if (!fs::is_regular_file(full, ec))
         return Status::InvalidArgument(where + ": input '" + full.string() + "' is not a regular file");
-      matched.push_back(full);
+      matched.push_back({full, fs::is_symlink(full, ec)});
     }
-    for (auto& m : matched) {
-      if (access(m.c_str(), R_OK) != 0)
-        return Status::InvalidArgument(where + ": input file '" + m.string() + "' is not readable");
-      std::error_code ec;
-      fs::path abs = fs::weakly_canonical(fs::absolute(m), ec);
-      files.push_back(ec ? fs::absolute(m).lexically_normal() : abs);
+    for (const Match& m : matched) {
+      if (access(m.path.c_str(), R_OK) != 0)
+        return Status::InvalidArgument(where + ": input file '" + m.path.string() + "' is not readable");
+      files.push_back(resolver.Resolve(m));
     }
   }
   std::sort(files.begin(), files.end());
