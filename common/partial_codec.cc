@@ -12,6 +12,8 @@ namespace fanfold {
 namespace {
 
 constexpr char kMagic[4] = {'F', 'F', 'P', 'S'};
+constexpr uint32_t kFlagRawBody = 1;   // header flag: the body is stored uncompressed
+constexpr size_t kRawBodyLimit = 4096;  // bodies smaller than this are stored raw
 constexpr size_t kChecksumOffset = 152;
 
 uint64_t Checksum(std::string_view header_prefix, std::string_view body) {
@@ -39,6 +41,10 @@ ZstdContexts& Contexts() {
   return ctx;
 }
 
+// Reads the malformed-record samples at the start of out->body and points
+// out->groups at the rest.
+Status ReadSamples(OpenedPartial* out);
+
 }  // namespace
 
 uint64_t PathHash(std::string_view path) { return XXH3_64bits(path.data(), path.size()); }
@@ -58,9 +64,17 @@ void EncodePartial(const PartialState& p, std::string* out) {
   std::string body;
   EncodePartialBody(p, &body);
 
-  std::string z(ZSTD_compressBound(body.size()), '\0');
-  size_t zn = ZSTD_compressCCtx(Contexts().c, z.data(), z.size(), body.data(), body.size(), 1);
-  z.resize(ZSTD_isError(zn) ? 0 : zn);  // compressBound makes an error impossible
+  // A small body is stored as it is: compressing it and decompressing it
+  // again cost more than its bytes (thousands of tiny shards).
+  const bool raw = body.size() < kRawBodyLimit;
+  std::string z;
+  if (raw) {
+    z = body;
+  } else {
+    z.resize(ZSTD_compressBound(body.size()));
+    size_t zn = ZSTD_compressCCtx(Contexts().c, z.data(), z.size(), body.data(), body.size(), 1);
+    z.resize(ZSTD_isError(zn) ? 0 : zn);  // compressBound makes an error impossible
+  }
 
   const PartialHeader& h = p.header;
   out->clear();
@@ -70,7 +84,7 @@ void EncodePartial(const PartialState& p, std::string* out) {
   w.U16(kPartialHeaderSize);
   w.U64(h.fingerprint);
   w.U32(h.shard_index);
-  w.U32(0);
+  w.U32(raw ? kFlagRawBody : 0);
   w.U64(h.file_size);
   w.I64(h.mtime_ns);
   w.U64(h.offset);
@@ -113,7 +127,7 @@ Status DecodePartialHeader(std::string_view bytes, PartialHeader* h) {
   if (header_size != kPartialHeaderSize) return Status::Corrupt("partial state header size mismatch");
   h->fingerprint = r.U64();
   h->shard_index = r.U32();
-  (void)r.U32();
+  h->flags = r.U32();
   h->file_size = r.U64();
   h->mtime_ns = r.I64();
   h->offset = r.U64();
@@ -136,6 +150,9 @@ Status DecodePartialHeader(std::string_view bytes, PartialHeader* h) {
     return Status::Corrupt("partial state body is " + std::to_string(bytes.size() - kPartialHeaderSize) +
                            " bytes; header says " + std::to_string(z_len));
   if (raw_len > kMaxPartialBodyBytes) return Status::Corrupt("partial state body length is implausible");
+  if ((h->flags & ~kFlagRawBody) != 0) return Status::Corrupt("partial state has unknown flags");
+  if ((h->flags & kFlagRawBody) != 0 && z_len != raw_len)
+    return Status::Corrupt("partial state body is stored raw but its two lengths differ");
   if (Checksum(bytes.substr(0, kChecksumOffset), bytes.substr(kPartialHeaderSize)) != checksum)
     return Status::Corrupt("partial state checksum mismatch");
   return Status::Ok();
@@ -146,12 +163,16 @@ Status OpenPartial(std::string_view bytes, OpenedPartial* out) {
   ByteReader lens(bytes.substr(104, 8));
   uint64_t raw_len = lens.U64();
   std::string_view z = bytes.substr(kPartialHeaderSize);
+  std::string& body = out->body;
+  if ((out->header.flags & kFlagRawBody) != 0) {
+    body.assign(z);
+    return ReadSamples(out);
+  }
   unsigned long long frame = ZSTD_getFrameContentSize(z.data(), z.size());
   if (frame == ZSTD_CONTENTSIZE_ERROR || frame == ZSTD_CONTENTSIZE_UNKNOWN || frame != raw_len)
     return Status::Corrupt("partial state body is not the zstd frame its header describes");
   // Decompress as a stream into a buffer that grows with real output, so a
   // header that merely claims a huge body cannot make us allocate it.
-  std::string& body = out->body;
   body.resize(std::min<uint64_t>(raw_len, uint64_t{1} << 20));
   ZSTD_DCtx* d = Contexts().d;
   ZSTD_DCtx_reset(d, ZSTD_reset_session_only);
@@ -173,6 +194,13 @@ Status OpenPartial(std::string_view bytes, OpenedPartial* out) {
   if (produced != raw_len || in.pos != in.size)
     return Status::Corrupt("partial state body is not the length its header says");
   body.resize(produced);
+  return ReadSamples(out);
+}
+
+namespace {
+
+Status ReadSamples(OpenedPartial* out) {
+  const std::string& body = out->body;
   ByteReader r(body);
   uint64_t ns = r.Count(2);
   if (!r.ok() || ns > ReadStats::kMaxSamples) return Status::Corrupt("partial state has a bad sample count");
@@ -187,6 +215,8 @@ Status OpenPartial(std::string_view bytes, OpenedPartial* out) {
   out->groups = std::string_view(body).substr(body.size() - r.remaining());
   return Status::Ok();
 }
+
+}  // namespace
 
 Status DecodePartial(std::string_view bytes, PartialState* out) {
   OpenedPartial opened;

@@ -8,18 +8,18 @@
 //     6    2 header size (kPartialHeaderSize)
 //     8    8 plan fingerprint
 //    16    4 shard index
-//    20    4 flags (0; reserved)
+//    20    4 flags: bit 0 = body stored raw (not zstd), others 0
 //    24    8 shard file size        32  8 shard mtime (ns since epoch)
 //    40    8 chunk offset           48  8 chunk length (UINT64_MAX = whole file)
 //    56    8 XXH3-64 of the shard's absolute path
 //    64    8 records read           72  8 records kept (passed the filter)
 //    80    8 records malformed      88  8 decompressed bytes
 //    96    8 compressed bytes read 104  8 body length before compression
-//   112    8 body length (zstd-compressed, as stored)
+//   112    8 body length as stored (zstd-compressed, or raw under flag bit 0)
 //   120    8 ns reading + decompressing   128  8 ns parsing records
 //   136    8 ns filtering + aggregating   144  8 ns encoding the body
 //   152    8 checksum: XXH3-64 of bytes [0, 152) followed by the stored body
-//   160      body: one zstd frame of
+//   160      body: one zstd frame (raw bytes if under 4 KiB) of
 //              varint sample count, per sample: varint line, string reason;
 //              the GroupTable encoding (common/group_table.h)
 //
@@ -46,6 +46,7 @@ inline constexpr uint64_t kMaxPartialBodyBytes = uint64_t{1} << 34;  // 16 GiB d
 struct PartialHeader {
   uint64_t fingerprint = 0;
   uint32_t shard_index = 0;
+  uint32_t flags = 0;  // read only: EncodePartial chooses (bit 0: body stored raw)
   uint64_t file_size = 0;
   int64_t mtime_ns = 0;
   uint64_t offset = 0;

@@ -123,3 +123,45 @@ TEST_CASE("group keys round trip and order as documented") {
   std::vector<Cell> bad;
   CHECK(!DecodeKey(key.substr(0, key.size() - 1), 4, &bad).ok());
 }
+
+TEST_CASE("small bodies are stored raw, large ones compressed, both decode alike") {
+  // Intent: flag bit 0 (offset 20) marks a body stored without zstd; a body
+  // under 4 KiB is stored so, a larger one compressed; the flag's rules
+  // (lengths equal, no other bits) are enforced even past the checksum.
+  auto configs = Configs();
+  PartialState small(&configs);
+  Fill(&small);
+  std::string a;
+  EncodePartial(small, &a);
+  PartialHeader h;
+  REQUIRE(DecodePartialHeader(a, &h).ok());
+  CHECK(h.flags == 1);
+  PartialState big(&configs);
+  Fill(&big);
+  for (int i = 0; i < 3000; ++i) {
+    std::string key;
+    AppendKeyValue(Value::Number(1000 + i), &key);
+    big.groups.FindOrAdd(key)[0]->Add(nullptr);
+  }
+  std::string b;
+  EncodePartial(big, &b);
+  REQUIRE(DecodePartialHeader(b, &h).ok());
+  CHECK(h.flags == 0);
+  for (const std::string* bytes : {&a, &b}) {
+    PartialState q(&configs);
+    REQUIRE(DecodePartial(*bytes, &q).ok());
+    std::string again;
+    EncodePartial(q, &again);
+    CHECK(again == *bytes);
+  }
+  // Unknown flag bits, and a raw body whose two lengths differ, are corrupt
+  // even with a checksum recomputed over them (SetPartialEncodeTime reseals).
+  std::string unknown = a;
+  unknown[20] = 3;
+  SetPartialEncodeTime(0, &unknown);
+  CHECK(DecodePartialHeader(unknown, &h).code() == Status::Code::kCorrupt);
+  std::string lengths = a;
+  lengths[104] = static_cast<char>(lengths[104] + 1);
+  SetPartialEncodeTime(0, &lengths);
+  CHECK(DecodePartialHeader(lengths, &h).message() == "partial state body is stored raw but its two lengths differ");
+}

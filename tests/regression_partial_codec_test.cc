@@ -26,7 +26,7 @@ long PeakRssKib() {
 }
 
 // A valid partial-state header (from EncodePartial) in front of `stored`,
-// with the body lengths (offsets 104 and 112) and the checksum (last 8
+// with the flags (offset 20), the body lengths (offsets 104 and 112) and the checksum (last 8
 // header bytes: XXH3-64 of the header before it, then the stored body)
 // rewritten as common/partial_codec.h specifies.
 std::string Sealed(std::string_view stored, uint64_t raw_len) {
@@ -36,6 +36,8 @@ std::string Sealed(std::string_view stored, uint64_t raw_len) {
   EncodePartial(p, &h);
   h.resize(kPartialHeaderSize);
   const uint64_t stored_len = stored.size();
+  const uint32_t flags = 0;  // a zstd body (an empty partial is small enough to be stored raw)
+  std::memcpy(&h[20], &flags, 4);
   std::memcpy(&h[104], &raw_len, 8);
   std::memcpy(&h[112], &stored_len, 8);
   std::string covered = h.substr(0, kPartialHeaderSize - 8) + std::string(stored);

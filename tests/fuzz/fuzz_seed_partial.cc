@@ -1,5 +1,6 @@
 // Writes the seed corpus of fuzz_partial_decode into the directory given as
-// argv[1]: a valid encoded partial state (mode 0), its stored zstd body
+// argv[1]: a valid encoded partial state (mode 0) and a small one stored
+// raw, its stored zstd body
 // (mode 1), its decompressed body (mode 2), and the group table and each
 // measure state's encoding on their own (mode 3). The states are filled with
 // a deterministic mix of values that reaches every encoding form (sparse and
@@ -78,6 +79,22 @@ int main(int argc, char** argv) {
   std::string encoded;
   EncodePartial(p, &encoded);
   bool ok = Write(dir, "partial_valid", 0, encoded);
+  // A small partial too, whose body is stored raw (header flag bit 0).
+  PartialState small(&configs);
+  small.header = p.header;
+  small.samples = p.samples;
+  {
+    std::string key;
+    AppendKeyValue(Value::String("one"), &key);
+    MeasureState* const* states = small.groups.FindOrAdd(key);
+    for (size_t j = 0; j < configs.size(); ++j) {
+      Value args[2] = {Value::Number(2.5), Value::Number(1772323200.0)};
+      (void)states[j]->Add(args);
+    }
+  }
+  std::string small_encoded;
+  EncodePartial(small, &small_encoded);
+  ok = ok && Write(dir, "partial_valid_raw", 0, small_encoded);
   ok = ok && Write(dir, "partial_stored_body", 1, std::string_view(encoded).substr(kPartialHeaderSize));
 
   std::string body;
