@@ -149,7 +149,7 @@ Result<std::unique_ptr<RunDirectory>> RunDirectory::Open(const std::string& path
 std::string RunDirectory::PackPath(uint64_t seq) const {
   char name[32];
   snprintf(name, sizeof name, "pack-%06llu.ffpk", static_cast<unsigned long long>(seq));
-  return (fs::path(path_) / "partials" / name).string();
+  return path_ + "/partials/" + name;  // plain concatenation: called once per early partial
 }
 
 void RunDirectory::IndexPacks() {

@@ -53,6 +53,25 @@ TEST_CASE("shard_list: symlinks and repeats give one shard per real file") {
   CHECK(list->shards[0].file_size == 3);
 }
 
+// Intent: shards are in path order, component by component (as
+// std::filesystem::path compares): "2026/a" before "2026-b", although '-'
+// sorts before '/' as a byte.
+TEST_CASE("shard_list: path order is by component") {
+  ScratchDir d;
+  fs::create_directory(d.path / "2026");
+  Touch(d.path / "2026" / "a.ndjson");
+  Touch(d.path / "2026-b.ndjson");
+  JobSpec job;
+  job.job_path = "job.json";
+  job.base_dir = d.path.string();
+  job.files = {"2026-b.ndjson", "2026/a.ndjson"};
+  Result<ShardList> list = ExpandShards(job);
+  REQUIRE(list.ok());
+  REQUIRE(list->shards.size() == 2);
+  CHECK(fs::path(list->shards[0].path).filename() == "a.ndjson");
+  CHECK(fs::path(list->shards[0].path) < fs::path(list->shards[1].path));
+}
+
 // Intent: a pattern that matches nothing and a named file that is missing
 // are errors that name the job file's JSON location and the path.
 TEST_CASE("shard_list: nothing matched is an error naming where") {
