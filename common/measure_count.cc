@@ -13,6 +13,13 @@ Status CountState::Merge(const MeasureState& other) {
   return Status::Ok();
 }
 
+Status CountState::MergeEncoded(ByteReader& r, bool apply, MeasureState* /*scratch*/) {
+  CountState later(present_only_);
+  FF_RETURN_IF_ERROR(later.Decode(r));
+  if (apply) n_ += later.n_;
+  return Status::Ok();
+}
+
 void CountState::Encode(ByteWriter& w) const { w.Varint(n_); }
 
 Status CountState::Decode(ByteReader& r) {

@@ -5,13 +5,25 @@ namespace fanfold {
 Status MomentsState::Merge(const MeasureState& other) {
   const auto* o = dynamic_cast<const MomentsState*>(&other);
   if (o == nullptr) return Status::Internal("moments: merge with a state of another measure");
+  MergeSame(o);
+  return Status::Ok();
+}
+
+Status MomentsState::MergeEncoded(ByteReader& r, bool apply, MeasureState* /*scratch*/) {
+  MomentsState later(kind_);
+  FF_RETURN_IF_ERROR(later.Decode(r));
+  if (apply) MergeSame(&later);
+  return Status::Ok();
+}
+
+void MomentsState::MergeSame(const MomentsState* o) {
   skipped_ += o->skipped_;
-  if (o->n_ == 0) return Status::Ok();
+  if (o->n_ == 0) return;
   if (n_ == 0) {
     n_ = o->n_;
     mean_ = o->mean_;
     m2_ = o->m2_;
-    return Status::Ok();
+    return;
   }
   // Chan, Golub & LeVeque (1979): delta = mean_B - mean_A,
   // mean = mean_A + delta * n_B / n, M2 = M2_A + M2_B + delta^2 * n_A * n_B / n.
@@ -22,7 +34,6 @@ Status MomentsState::Merge(const MeasureState& other) {
   mean_ += delta * (nb / n);
   m2_ += o->m2_ + delta * delta * (na * (nb / n));
   n_ += o->n_;
-  return Status::Ok();
 }
 
 void MomentsState::Encode(ByteWriter& w) const {

@@ -33,6 +33,8 @@ class MomentsState final : public MeasureState {
   // Encoding: varint skipped, varint n, then iff n > 0: f64 mean, f64 M2.
   void Encode(ByteWriter& w) const override;
   Status Decode(ByteReader& r) override;
+  // Through a local state: no heap, no virtual calls (the same result).
+  Status MergeEncoded(ByteReader& r, bool apply, MeasureState* scratch) override;
   // mean: Float, Null iff n = 0. variance = M2/(n-1), stddev = its square
   // root: Float, Null iff n < 2.
   void Finalize(std::vector<Cell>* out) const override;
@@ -43,6 +45,7 @@ class MomentsState final : public MeasureState {
   double m2() const { return m2_; }
 
  private:
+  void MergeSame(const MomentsState* o);  // Merge's arithmetic
   MeasureKind kind_;
   uint64_t n_ = 0;
   uint64_t skipped_ = 0;

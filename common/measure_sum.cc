@@ -5,6 +5,18 @@ namespace fanfold {
 Status SumState::Merge(const MeasureState& other) {
   const auto* o = dynamic_cast<const SumState*>(&other);
   if (o == nullptr) return Status::Internal("sum: merge with a state of another measure");
+  MergeSame(o);
+  return Status::Ok();
+}
+
+Status SumState::MergeEncoded(ByteReader& r, bool apply, MeasureState* /*scratch*/) {
+  SumState later;
+  FF_RETURN_IF_ERROR(later.Decode(r));
+  if (apply) MergeSame(&later);
+  return Status::Ok();
+}
+
+void SumState::MergeSame(const SumState* o) {
   if (o->n_ > 0) {
     AddCompensated(o->sum_);
     // The other correction is small against its sum; adding it to ours
@@ -14,7 +26,6 @@ Status SumState::Merge(const MeasureState& other) {
   }
   n_ += o->n_;
   skipped_ += o->skipped_;
-  return Status::Ok();
 }
 
 void SumState::Encode(ByteWriter& w) const {

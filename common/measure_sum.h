@@ -27,6 +27,8 @@ class SumState final : public MeasureState {
   // Encoding: varint skipped, varint n, then iff n > 0: f64 sum, f64 correction.
   void Encode(ByteWriter& w) const override;
   Status Decode(ByteReader& r) override;
+  // Through a local state: no heap, no virtual calls (the same result).
+  Status MergeEncoded(ByteReader& r, bool apply, MeasureState* scratch) override;
   // Float(sum + correction), or Null when no usable value was added.
   void Finalize(std::vector<Cell>* out) const override;
   uint64_t skipped() const override { return skipped_; }
@@ -36,6 +38,7 @@ class SumState final : public MeasureState {
   double Result() const { return std::isfinite(sum_) ? sum_ + correction_ : sum_; }
 
  private:
+  void MergeSame(const SumState* o);  // Merge's arithmetic
   void AddCompensated(double x) {
     const double t = sum_ + x;
     // Neumaier's branch: whichever operand is larger keeps its bits in t;

@@ -155,18 +155,19 @@ Result<ShardList> ExpandShards(const JobSpec& job) {
       files.push_back(resolver.Resolve(m));
     }
   }
-  // Sorted as paths compare (component by component), by a byte comparison
-  // with '/' below every other byte — the same order for normal absolute
-  // paths, and far cheaper than std::filesystem::path's compare.
+  // Sorted as paths compare (component by component): as bytes, with '/'
+  // turned into '\0' (a byte no path holds) so that it sorts below every
+  // other — the same order for normal absolute paths, and a memcmp instead
+  // of std::filesystem::path's compare.
   std::vector<std::string> names;
   names.reserve(files.size());
-  for (const fs::path& f : files) names.push_back(f.string());
-  auto byte = [](char c) { return c == '/' ? 0 : static_cast<unsigned char>(c) + 1; };
-  std::sort(names.begin(), names.end(), [&](const std::string& a, const std::string& b) {
-    return std::lexicographical_compare(a.begin(), a.end(), b.begin(), b.end(),
-                                        [&](char x, char y) { return byte(x) < byte(y); });
-  });
+  for (const fs::path& f : files) {
+    names.push_back(f.string());
+    std::replace(names.back().begin(), names.back().end(), '/', '\0');
+  }
+  std::sort(names.begin(), names.end());
   names.erase(std::unique(names.begin(), names.end()), names.end());
+  for (std::string& n : names) std::replace(n.begin(), n.end(), '\0', '/');
 
   ShardList list;
   bool have_format = job.format.has_value();
