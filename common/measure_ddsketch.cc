@@ -82,24 +82,25 @@ int SignClass(double x) { return x < 0 ? 0 : (x == 0 ? 1 : 2); }
 }  // namespace
 
 Status DDSketchState::ReadEncoded(ByteReader& r, Encoded* e) {
-  const Status corrupt = Status::Corrupt("approx_quantile: bad or truncated state");
+  // Built only on failure: a Status holds a heap string, and this runs per state.
+  auto corrupt = [] { return Status::Corrupt("approx_quantile: bad or truncated state"); };
   e->skipped = r.Varint();
   e->zero = r.Varint();
   if (!r.ok() || e->zero > DDSketchStore::kMaxTotal || !DDSketchStore::ReadRun(r, &e->neg) ||
       !DDSketchStore::ReadRun(r, &e->pos))
-    return corrupt;
+    return corrupt();
   const uint64_t n = e->neg.total + e->pos.total + e->zero;  // each < 2^62: no overflow
-  if (n > DDSketchStore::kMaxTotal) return corrupt;
+  if (n > DDSketchStore::kMaxTotal) return corrupt();
   if (n > 0) {
     const double min = r.F64(), max = r.F64();
-    if (!r.ok() || !std::isfinite(min) || !std::isfinite(max) || min > max) return corrupt;
+    if (!r.ok() || !std::isfinite(min) || !std::isfinite(max) || min > max) return corrupt();
     if (std::bit_cast<uint64_t>(min) == std::bit_cast<uint64_t>(-0.0) ||
         std::bit_cast<uint64_t>(max) == std::bit_cast<uint64_t>(-0.0))
-      return corrupt;
+      return corrupt();
     // min must belong to the lowest non-empty class, max to the highest.
     const int low = e->neg.span > 0 ? 0 : (e->zero > 0 ? 1 : 2);
     const int high = e->pos.span > 0 ? 2 : (e->zero > 0 ? 1 : 0);
-    if (SignClass(min) != low || SignClass(max) != high) return corrupt;
+    if (SignClass(min) != low || SignClass(max) != high) return corrupt();
     e->min = min;
     e->max = max;
   }

@@ -44,17 +44,18 @@ void ExactDistinctState::Encode(ByteWriter& w) const {
 }
 
 Status ExactDistinctState::Decode(ByteReader& r) {
-  const Status corrupt = Status::Corrupt("distinct: bad or truncated state");
+  // Built only on failure: a Status holds a heap string, and this runs per state.
+  auto corrupt = [] { return Status::Corrupt("distinct: bad or truncated state"); };
   const uint64_t skipped = r.Varint();
   const uint64_t count = r.Count(2);  // length byte + tag byte at least
-  if (!r.ok() || count > limit_) return corrupt;
+  if (!r.ok() || count > limit_) return corrupt();
   std::unordered_set<std::string, TransparentStringHash, std::equal_to<>> keys;
   keys.reserve(count);
   std::string_view prev;
   for (uint64_t i = 0; i < count; ++i) {
     const std::string_view k = r.Str();
     // Strictly ascending: canonical, and no duplicates.
-    if (!r.ok() || !IsValidValueKey(k) || (i > 0 && !(prev < k))) return corrupt;
+    if (!r.ok() || !IsValidValueKey(k) || (i > 0 && !(prev < k))) return corrupt();
     keys.emplace(k);
     prev = k;
   }

@@ -108,18 +108,19 @@ void FirstLastState::Encode(ByteWriter& w) const {
 }
 
 Status FirstLastState::Decode(ByteReader& r) {
-  const Status corrupt = Status::Corrupt("first/last: bad or truncated state");
+  // Built only on failure: a Status holds a heap string, and this runs per state.
+  auto corrupt = [] { return Status::Corrupt("first/last: bad or truncated state"); };
   const uint64_t skipped = r.Varint();
   const uint8_t has = r.U8();
-  if (!r.ok() || has > 1) return corrupt;
+  if (!r.ok() || has > 1) return corrupt();
   Slot key, value;
   if (has == 1) {
     if (!DecodeSlot(r, /*allow_bool=*/false, &key) || !DecodeSlot(r, /*allow_bool=*/true, &value))
-      return corrupt;
+      return corrupt();
     // Add never keeps a NaN key, nor -0.0 (it stores 0.0).
     if (key.kind == ValueKind::kNumber && (std::isnan(key.number) ||
                                            (std::signbit(key.number) && key.number == 0)))
-      return corrupt;
+      return corrupt();
   }
   skipped_ = skipped;
   has_ = has == 1;

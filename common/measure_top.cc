@@ -90,12 +90,13 @@ void TopState::Encode(ByteWriter& w) const {
 }
 
 Status TopState::Decode(ByteReader& r) {
-  const Status corrupt = Status::Corrupt("top: bad or truncated state");
+  // Built only on failure: a Status holds a heap string, and this runs per state.
+  auto corrupt = [] { return Status::Corrupt("top: bad or truncated state"); };
   const uint64_t skipped = r.Varint();
   const uint64_t n = r.Varint();
   const uint8_t exact = r.U8();
   const uint64_t count = r.Count(3);  // length, tag, counter: a byte each at least
-  if (!r.ok() || exact > 1 || count > limit_) return corrupt;
+  if (!r.ok() || exact > 1 || count > limit_) return corrupt();
   CounterMap counters;
   counters.reserve(count);
   std::string_view prev;
@@ -104,13 +105,13 @@ Status TopState::Decode(ByteReader& r) {
     const std::string_view key = r.Str();
     const uint64_t c = r.Varint();
     if (!r.ok() || !IsValidValueKey(key) || (i > 0 && !(prev < key)) || c == 0 || c > n - kept)
-      return corrupt;
+      return corrupt();
     kept += c;
     counters.emplace(key, c);
     prev = key;
   }
   // Exact counters account for every value; a summary's for at most all.
-  if (exact == 1 && kept != n) return corrupt;
+  if (exact == 1 && kept != n) return corrupt();
   skipped_ = skipped;
   n_ = n;
   exact_ = exact == 1;

@@ -17,13 +17,18 @@ constexpr size_t kRawBodyLimit = 4096;  // bodies smaller than this are stored r
 constexpr size_t kChecksumOffset = 152;
 
 uint64_t Checksum(std::string_view header_prefix, std::string_view body) {
-  XXH3_state_t* st = XXH3_createState();
+  // One hashing state per thread: making one per call was a heap
+  // allocation per partial, twice per tiny shard.
+  struct State {
+    XXH3_state_t* st = XXH3_createState();
+    ~State() { XXH3_freeState(st); }
+  };
+  thread_local State state;
+  XXH3_state_t* st = state.st;
   XXH3_64bits_reset(st);
   XXH3_64bits_update(st, header_prefix.data(), header_prefix.size());
   XXH3_64bits_update(st, body.data(), body.size());
-  uint64_t h = XXH3_64bits_digest(st);
-  XXH3_freeState(st);
-  return h;
+  return XXH3_64bits_digest(st);
 }
 
 // One compression and one decompression context per thread, reused: making
