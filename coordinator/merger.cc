@@ -7,8 +7,12 @@ namespace {
 constexpr size_t kMaxReportedSamples = ReadStats::kMaxSamples;
 }
 
-Merger::Merger(const Plan* plan, uint32_t shard_count)
-    : plan_(plan), shard_count_(shard_count), result_(&configs_), failed_(shard_count, false) {
+Merger::Merger(const Plan* plan, uint32_t shard_count, uint64_t waiting_budget)
+    : plan_(plan),
+      shard_count_(shard_count),
+      result_(&configs_),
+      waiting_budget_(waiting_budget),
+      failed_(shard_count, false) {
   for (const auto& m : plan->measures) configs_.push_back(m.config);
 }
 
@@ -21,10 +25,13 @@ Status Merger::Add(uint32_t shard, std::string partial) {
   if (h.shard_index != shard)
     return Status::Corrupt("partial state is for shard " + std::to_string(h.shard_index) + ", not " +
                            std::to_string(shard));
-  // Read back from the run directory when its turn comes. Swapped with an
-  // empty string, not cleared: clear() keeps the buffer, and hundreds of
-  // early partials would keep their memory while they wait.
-  if (reload_ && shard != next_) std::string().swap(partial);
+  // An early partial waits in memory while the waiting ones stay within
+  // the budget (reading thousands of tiny ones back costs more than
+  // their bytes); past it, it is read back from the run directory when its
+  // turn comes. Swapped with an empty string, not cleared: clear() keeps
+  // the buffer, and hundreds of early partials would keep their memory.
+  if (reload_ && shard != next_ && waiting_bytes_ + partial.size() > waiting_budget_) std::string().swap(partial);
+  waiting_bytes_ += partial.size();
   waiting_.emplace(shard, std::move(partial));
   Drain();
   return Status::Ok();
@@ -32,7 +39,10 @@ Status Merger::Add(uint32_t shard, std::string partial) {
 
 void Merger::MarkFailed(uint32_t shard) {
   if (shard >= shard_count_ || shard < next_) return;
-  waiting_.erase(shard);
+  if (auto it = waiting_.find(shard); it != waiting_.end()) {
+    waiting_bytes_ -= it->second.size();
+    waiting_.erase(it);
+  }
   failed_[shard] = true;
   Drain();
 }
@@ -48,6 +58,7 @@ void Merger::Drain() {
     OpenedPartial p;
     std::string bytes = std::move(it->second);
     waiting_.erase(it);
+    waiting_bytes_ -= bytes.size();
     Status s = bytes.empty() && reload_ ? reload_(next_, &bytes) : Status::Ok();
     if (s.ok()) s = OpenPartial(bytes, &p);
     // Every byte is checked before any is merged, so a bad partial leaves

@@ -35,8 +35,11 @@ struct MalformedReport {
 
 class Merger {
  public:
+  // Early partials kept in memory, at most (see SetReloader).
+  static constexpr uint64_t kDefaultWaitingBudget = uint64_t{2} << 20;  // 2 MiB
+
   // REQUIRES: plan outlives the merger; shard_count = number of shards.
-  Merger(const Plan* plan, uint32_t shard_count);
+  Merger(const Plan* plan, uint32_t shard_count, uint64_t waiting_budget = kDefaultWaitingBudget);
 
   // Accepts shard's encoded partial. Fails if its header or checksum is bad
   // or it is from another plan; the caller then treats the shard as failed
@@ -46,9 +49,10 @@ class Merger {
   void MarkFailed(uint32_t shard);
 
   // Where early partials can be read back from (the run directory). With a
-  // reloader set, a partial that arrives before its turn is not kept in
-  // memory — only its shard number is — so the coordinator's memory does not
-  // grow with the number of shards that finish out of order.
+  // reloader set, partials that arrive before their turn are kept in memory
+  // only while they total at most the waiting budget; past that only their shard
+  // numbers are, so the coordinator's memory does not grow with the number
+  // of shards that finish out of order.
   using Reloader = std::function<Status(uint32_t shard, std::string* out)>;
   void SetReloader(Reloader reload) { reload_ = std::move(reload); }
 
@@ -79,7 +83,9 @@ class Merger {
   uint32_t next_ = 0;  // lowest shard not yet merged or skipped
   std::vector<MeasureConfig> configs_;
   GroupTable result_;
+  uint64_t waiting_budget_;
   std::map<uint32_t, std::string> waiting_;  // early partials by shard ("" = reload it)
+  uint64_t waiting_bytes_ = 0;               // their total size
   Reloader reload_;
   std::vector<bool> failed_;
   MergeTotals totals_;

@@ -72,7 +72,7 @@ TEST_CASE("merger: arrival order does not change the result") {
   for (uint32_t s = 0; s < n; ++s) REQUIRE(in_order.Add(s, disk[s]).ok());
   const std::string expected = ResultText(in_order);
   for (bool reload : {false, true}) {
-    Merger m(plan.get(), n);
+    Merger m(plan.get(), n, /*waiting_budget=*/0);  // with a reloader, every early partial goes back to "disk"
     int reloads = 0;
     if (reload) m.SetReloader([&](uint32_t s, std::string* out) { ++reloads; *out = disk[s]; return Status::Ok(); });
     for (uint32_t s : {11u, 3u, 7u, 0u, 1u, 2u, 10u, 9u, 4u, 5u, 6u, 8u}) REQUIRE(m.Add(s, disk[s]).ok());
@@ -138,27 +138,30 @@ TEST_CASE("merger: a malformed body costs only its shard") {
   CHECK(ResultText(with) == expected);
 }
 
-// Intent: with a reloader, partials that arrive early do not stay in
-// memory while they wait (their buffers are released, not just emptied).
-TEST_CASE("merger: early partials wait on disk, not in memory") {
+// Intent: with a reloader, early partials are held in memory only up to
+// the waiting budget; past it they wait on disk, and their buffers are
+// released, not just emptied (clear() keeps the capacity).
+TEST_CASE("merger: early partials past the budget wait on disk, not in memory") {
   const auto plan = TestPlan();
-  const uint32_t n = 201;
-  const std::string big = PartialFor(*plan, 1, 3000);  // ~5 KB encoded
-  REQUIRE(big.size() > 4000);
-  Merger m(plan.get(), n);
+  const uint32_t n = 401;
+  const std::string one = PartialFor(*plan, 1, 3000);  // ~5 KB encoded
+  REQUIRE(one.size() > 4000);
+  const uint64_t budget = 100 * one.size();
+  Merger m(plan.get(), n, budget);
+  int reloads = 0;
   m.SetReloader([&](uint32_t s, std::string* out) {
-    *out = PartialFor(*plan, s);
+    ++reloads;
+    *out = PartialFor(*plan, s, 3000);
     return Status::Ok();
   });
   const size_t before = mallinfo2().uordblks;
-  for (uint32_t s = 1; s < n; ++s) {
-    std::string bytes = PartialFor(*plan, s, 3000);
-    REQUIRE(m.Add(s, std::move(bytes)).ok());
-  }
+  for (uint32_t s = 1; s < n; ++s) REQUIRE(m.Add(s, PartialFor(*plan, s, 3000)).ok());
   const size_t held = mallinfo2().uordblks - before;
-  CHECK(held < 20 * big.size());  // 200 waiting partials would hold 200 x
+  CHECK(held < budget + 40 * one.size());  // 400 waiting partials would hold 400 x
   REQUIRE(m.Add(0, PartialFor(*plan, 0)).ok());
   CHECK(m.complete());
+  CHECK(reloads > 250);  // the ones past the budget came back from "disk"
+  CHECK(reloads < 320);
 }
 
 }  // namespace
