@@ -125,7 +125,8 @@ Status RunShards(const ShardList& list, const std::vector<uint32_t>& order, Tran
     rec.start_ns = ev.start_ns != 0 ? ev.start_ns : job.assign_ns;
     rec.end_ns = ev.end_ns != 0 ? ev.end_ns : WallNs();
     if (rec.end_ns < rec.start_ns) rec.end_ns = rec.start_ns;
-    switch (ev.kind) {      case TransportEvent::Kind::kDone: {
+    switch (ev.kind) {
+      case TransportEvent::Kind::kDone: {
         Status rejected = DecodePartialHeader(ev.partial, &rec.header);
         if (rejected.ok() && options.on_partial) FF_RETURN_IF_ERROR(options.on_partial(job.shard, ev.partial));
         if (rejected.ok()) rejected = merger.Add(job.shard, std::move(ev.partial));
