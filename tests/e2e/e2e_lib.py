@@ -127,7 +127,11 @@ def leaked_segments():
     for f in os.listdir("/dev/shm"):
         parts = f.split("-")
         if f.startswith("fanfold-") and len(parts) >= 3 and parts[1].isdigit():
-            if not os.path.exists("/proc/" + parts[1]):
+            # The owner is checked after the listing, so a coordinator of a
+            # parallel test may have removed its segment and exited in
+            # between: only a segment still there once its owner is gone is
+            # a leak (coordinators remove theirs before they exit).
+            if not os.path.exists("/proc/" + parts[1]) and os.path.exists(os.path.join("/dev/shm", f)):
                 out.append(f)
     return sorted(out)
 
