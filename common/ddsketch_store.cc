@@ -168,14 +168,18 @@ bool DDSketchStore::ReadRun(ByteReader& r, EncodedRun* out) {
 bool DDSketchStore::Decode(ByteReader& r) {
   EncodedRun run;
   if (!ReadRun(r, &run)) return false;
+  AssignRun(run);
+  return true;
+}
+
+void DDSketchStore::AssignRun(const EncodedRun& run) {
   *this = DDSketchStore();
-  if (run.span == 0) return true;
+  if (run.span == 0) return;
   counts_.assign(run.span, 0);
   ForEachBucket(run, [this](uint64_t i, uint64_t c) { counts_[i] = c; });
   offset_ = lo_ = run.lo;
   hi_ = static_cast<int32_t>(run.lo + static_cast<int64_t>(run.span) - 1);
   total_ = run.total;
-  return true;
 }
 
 void DDSketchStore::MergeRun(const EncodedRun& run) {

@@ -74,6 +74,9 @@ class DDSketchStore {
   // Adds a run's counts, as MergeFrom adds a decoded store's.
   // REQUIRES: run was filled by ReadRun.
   void MergeRun(const EncodedRun& run);
+  // Replaces this store with the run (what Decode does after ReadRun).
+  // REQUIRES: run was filled by ReadRun.
+  void AssignRun(const EncodedRun& run);
 
  private:
   // Calls visit(i, count) for each non-empty bucket lo + i of a run, in

@@ -77,8 +77,10 @@ class MeasureState {
   // a fresh state followed by Merge, but without building that state, which
   // is what makes the coordinator's merge fast. With apply false it only
   // checks the bytes and leaves this state as it was. `scratch` is a state of
-  // the same config, the default implementation's Decode target; overrides
-  // may ignore it. Fails on corrupt bytes, or when applying as Merge does.
+  // the same config, the default implementation's Decode target (it may be
+  // this state itself when only checking); overrides may ignore it. Fails
+  // on corrupt bytes (this state then unchanged), or when applying as Merge
+  // does.
   virtual Status MergeEncoded(ByteReader& r, bool apply, MeasureState* scratch);
 
   // Appends one cell per output column (see OutputColumnCount()).

@@ -110,11 +110,8 @@ Status DDSketchState::ReadEncoded(ByteReader& r, Encoded* e) {
 Status DDSketchState::Decode(ByteReader& r) {
   Encoded e;
   FF_RETURN_IF_ERROR(ReadEncoded(r, &e));
-  DDSketchStore neg, pos;
-  neg.MergeRun(e.neg);
-  pos.MergeRun(e.pos);
-  neg_ = std::move(neg);
-  pos_ = std::move(pos);
+  neg_.AssignRun(e.neg);
+  pos_.AssignRun(e.pos);
   zero_ = e.zero;
   skipped_ = e.skipped;
   min_ = e.min;

@@ -192,33 +192,50 @@ void RunDirectory::IndexPacks() {
 }
 
 Status RunDirectory::StagePartial(uint32_t shard, std::string_view bytes) {
-  const std::string temp = PackPath(next_pack_) + ".tmp";
   if (pack_fd_ < 0) {
+    const std::string temp = PackPath(next_pack_) + ".tmp";
     pack_fd_ = ::open(temp.c_str(), O_WRONLY | O_CREAT | O_TRUNC | O_CLOEXEC, 0644);
     if (pack_fd_ < 0) return Io("create", temp, errno);
     pack_size_ = 0;
+    stage_buffer_.clear();
   }
-  std::string frame;
-  ByteWriter w(&frame);
+  ByteWriter w(&stage_buffer_);
+  const size_t frame_at = stage_buffer_.size();
   w.U32(kPackMagic);
   w.U32(shard);
   w.U64(bytes.size());
-  w.U64(XXH3_64bits(frame.data(), 16));
-  Status s = WriteAll(pack_fd_, frame, temp);
-  if (s.ok()) s = WriteAll(pack_fd_, bytes, temp);
-  if (!s.ok()) {
-    // Keep the pack consistent: drop everything staged in it; those shards
-    // are simply not done.
-    ::close(pack_fd_);
-    pack_fd_ = -1;
-    ::unlink(temp.c_str());
-    staged_.clear();
-    return s;
-  }
+  w.U64(XXH3_64bits(stage_buffer_.data() + frame_at, 16));
+  // A large partial is written straight from its own bytes, not copied.
+  const bool direct = bytes.size() >= kStageBufferBytes;
+  if (!direct) w.Bytes(bytes);
   if (staged_.empty() && journal_lines_.empty()) first_staged_ = std::chrono::steady_clock::now();
   staged_.push_back({shard, Location{next_pack_, pack_size_ + kFrameBytes, bytes.size()}});
   pack_size_ += kFrameBytes + bytes.size();
-  return Status::Ok();
+  if (direct) {
+    FF_RETURN_IF_ERROR(FlushStaged());
+    Status s = WriteAll(pack_fd_, bytes, PackPath(next_pack_) + ".tmp");
+    if (!s.ok()) DropBatch();
+    return s;
+  }
+  return stage_buffer_.size() >= kStageBufferBytes ? FlushStaged() : Status::Ok();
+}
+
+Status RunDirectory::FlushStaged() {
+  if (pack_fd_ < 0 || stage_buffer_.empty()) return Status::Ok();
+  Status s = WriteAll(pack_fd_, stage_buffer_, PackPath(next_pack_) + ".tmp");
+  stage_buffer_.clear();
+  if (!s.ok()) DropBatch();
+  return s;
+}
+
+void RunDirectory::DropBatch() {
+  if (pack_fd_ >= 0) {
+    ::close(pack_fd_);
+    pack_fd_ = -1;
+    ::unlink((PackPath(next_pack_) + ".tmp").c_str());
+  }
+  stage_buffer_.clear();
+  staged_.clear();
 }
 
 void RunDirectory::StageJournal(std::string line) {
@@ -232,6 +249,7 @@ bool RunDirectory::commit_due() const {
 }
 
 Status RunDirectory::Commit() {
+  FF_RETURN_IF_ERROR(FlushStaged());
   if (pack_fd_ >= 0) {
     const std::string final_path = PackPath(next_pack_);
     const std::string temp = final_path + ".tmp";
@@ -298,8 +316,15 @@ Status RunDirectory::LoadPartial(uint32_t shard, std::string* out) const {
 }
 
 Status RunDirectory::LoadStagedOrCommitted(uint32_t shard, std::string* out) const {
-  for (const auto& [s, loc] : staged_)
-    if (s == shard) return ReadRange(PackPath(loc.pack) + ".tmp", loc.offset, loc.length, out);
+  const uint64_t written = pack_size_ - stage_buffer_.size();  // bytes of the batch already in its file
+  for (const auto& [s, loc] : staged_) {
+    if (s != shard) continue;
+    if (loc.offset >= written) {
+      out->assign(stage_buffer_, loc.offset - written, loc.length);
+      return Status::Ok();
+    }
+    return ReadRange(PackPath(loc.pack) + ".tmp", loc.offset, loc.length, out);
+  }
   return LoadPartial(shard, out);
 }
 

@@ -53,8 +53,9 @@ class RunDirectory {
 
   const std::string& path() const { return path_; }
 
-  // Appends shard's partial to the batch's temporary pack; Commit() makes it
-  // durable.
+  // Appends shard's partial to the batch's temporary pack (through a buffer
+  // of up to kStageBufferBytes, so tiny partials cost no system call each);
+  // Commit() makes it durable.
   Status StagePartial(uint32_t shard, std::string_view bytes);
   // Queues one journal line (a JSON object, no newline) for the next Commit.
   void StageJournal(std::string line);
@@ -93,8 +94,16 @@ class RunDirectory {
   int lock_fd_ = -1;
   std::map<uint32_t, Location> index_;  // committed partials by shard
   uint64_t next_pack_ = 1;
+  static constexpr size_t kStageBufferBytes = size_t{1} << 20;
+  // Writes the stage buffer to the temporary pack; on failure drops the
+  // whole batch (those shards are simply not done).
+  Status FlushStaged();
+  // Drops the batch: closes and removes the temporary pack.
+  void DropBatch();
+
   int pack_fd_ = -1;                    // the batch's temporary pack, or -1
-  uint64_t pack_size_ = 0;
+  uint64_t pack_size_ = 0;              // bytes staged in it, buffered ones included
+  std::string stage_buffer_;            // its last bytes, not yet written
   std::vector<std::pair<uint32_t, Location>> staged_;
   std::vector<std::string> journal_lines_;
   std::chrono::steady_clock::time_point first_staged_;
