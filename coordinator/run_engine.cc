@@ -126,9 +126,12 @@ json SummaryJson(const RunInput& in, const RunSummary& s, const Merger& merger, 
   for (const auto& f : s.failures)
     failed.push_back({{"shard", f.shard}, {"path", f.path}, {"attempts", f.attempts}, {"reason", f.message}});
   json samples = json::array();
-  for (const auto& m : s.samples)
-    samples.push_back({{"shard", m.shard}, {"path", in.shards->shards[m.shard].path}, {"line", m.sample.line},
-                       {"reason", m.sample.reason}});
+  for (const auto& m : s.samples) {
+    const Shard& shard = in.shards->shards[m.shard];
+    json sample = {{"shard", m.shard}, {"path", shard.path}, {"line", m.sample.line}, {"reason", m.sample.reason}};
+    if (shard.offset > 0) sample["chunk_offset"] = shard.offset;  // the line counts from there
+    samples.push_back(std::move(sample));
+  }
   json skipped = json::object();
   json inexact = json::object();
   for (size_t m = 0; m < plan.measures.size() && m < merger.skipped().size(); ++m) {

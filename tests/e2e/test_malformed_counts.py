@@ -6,6 +6,7 @@ stderr, and "bad_record_limit" turning a too-broken shard into a failed one
 """
 
 import gzip
+import json
 import os
 import re
 import sys
@@ -127,6 +128,33 @@ def main():
             checks.check(sum(ref.load_shard(f)[1] for f in files) == man["totals"]["malformed"],
                          "%s: reference parse disagrees with the manifest" % label)
             check_samples(checks, label, err, files)
+
+        # Intent: in a file cut into chunks ("chunk_bytes"), a malformed line in a
+        # later chunk is named with the chunk's first byte, and its line number,
+        # counted from there, is the broken line (found here by Python from the
+        # bytes: the records whose first byte is at or after the chunk start).
+        d = os.path.join(env.tmp, "chunked")
+        lines = good_lines(900) + BROKEN[:1] + good_lines(900, 1000)
+        cut = write(os.path.join(d, "cut.ndjson"), lines)
+        data = open(cut, "rb").read()
+        chunk = 65536
+        broken_at = data.index(BROKEN[0])
+        chunk_start = broken_at - broken_at % chunk
+        checks.check(chunk_start > 0, "chunked: the broken line should fall in a later chunk")
+        starts = [0] + [i + 1 for i, byte in enumerate(data) if byte == 0x0A and i + 1 < len(data)]
+        in_chunk = [st for st in starts if st >= chunk_start]
+        want_line = in_chunk.index(broken_at) + 1
+        job = lib.write_job(env.path("chunked.json"), count_job([cut], {"chunk_bytes": chunk}))
+        rd = env.path("chunked-run")
+        rc, _, err = env.fanfold_run("run", job, "-j", args.workers, "-o", env.path("chunked.out"), "--run-dir", rd)
+        if checks.check(rc == 0, "chunked: exit %d: %s" % (rc, lib.tail(err))):
+            named = "malformed record: %s (the chunk from byte %d) line %d:" % (os.path.realpath(cut), chunk_start, want_line)
+            checks.check(named in err, "chunked: stderr lacks %r: %s" % (named, lib.tail(err)))
+            with open(os.path.join(rd, "summary.json")) as f:
+                samples = json.load(f)["malformed_samples"]
+            checks.check([(x.get("chunk_offset"), x["line"]) for x in samples] == [(chunk_start, want_line)],
+                         "chunked: summary.json samples %r, want chunk_offset %d line %d"
+                         % (samples, chunk_start, want_line))
 
         # bad_record_limit: malformed / (records + malformed) above the limit fails the shard.
         d = os.path.join(env.tmp, "limit")
