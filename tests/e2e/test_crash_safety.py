@@ -176,7 +176,9 @@ def main():
             c.check(rc == 0 and read(env.path("sigint.csv")) == ref, "SIGINT: resume gives identical output")
         else:
             c.check(proc.returncode == 0, "SIGINT: exit 130 (or 0 if it finished first), got %d" % proc.returncode)
-        c.check(lib.leaked_segments() == [], "SIGINT: no segment left: %s" % lib.leaked_segments())
+        leaked = lib.leaked_segments()
+        c.check(leaked == [], "SIGINT: no segment left: %s (the interrupted coordinator was pid %d, exit %d; %s)"
+                % (leaked, proc.pid, proc.returncode, lib.tail(err)))
 
         # Randomised: SIGKILL a random worker at a random moment.
         for t in range(TRIALS):
