@@ -23,11 +23,11 @@
 #include <string_view>
 #include <vector>
 
-#include "common/group_key.h"
-#include "common/job_spec.h"
-#include "common/partial_codec.h"
-#include "common/plan.h"
-#include "coordinator/merger.h"
+#include "common/partial/group_key.h"
+#include "common/job/job_spec.h"
+#include "common/partial/partial_codec.h"
+#include "common/job/plan.h"
+#include "coordinator/run/merger.h"
 
 namespace fanfold {
 namespace {
@@ -67,7 +67,7 @@ bool ParseCount(std::string_view text, uint64_t lo, uint64_t hi, uint64_t* out) 
 }
 
 // Sets the shard index of an encoded partial and recomputes its checksum,
-// following the layout in common/partial_codec.h (index at offset 16,
+// following the layout in common/partial/partial_codec.h (index at offset 16,
 // XXH3-64 of bytes [0, 152) and the stored body at offset 152). A layout
 // change makes Merger::Add reject the partial, and this bench fail.
 void RestampShardIndex(uint32_t shard, std::string* partial) {

@@ -13,8 +13,8 @@
 #include <string>
 #include <vector>
 
-#include "common/shard_task.h"
-#include "common/status.h"
+#include "common/transport/shard_task.h"
+#include "common/base/status.h"
 
 namespace fanfold {
 

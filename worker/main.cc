@@ -4,11 +4,11 @@
 // the coordinator says quit or dies.
 #include <iostream>
 
-#include "common/exit_codes.h"
-#include "common/job_loader.h"
-#include "common/shard_processor.h"
+#include "common/base/exit_codes.h"
+#include "common/job/job_loader.h"
+#include "common/partial/shard_processor.h"
 #include "worker/fault_injection.h"
-#include "worker/worker_loop.h"
+#include "common/transport/worker_loop.h"
 
 int main(int argc, char** argv) {
   using namespace fanfold;

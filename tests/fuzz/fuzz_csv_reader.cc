@@ -7,8 +7,8 @@
 #include <cstdint>
 #include <string>
 
-#include "common/csv_reader.h"
-#include "common/record_reader.h"
+#include "common/input/csv_reader.h"
+#include "common/input/record_reader.h"
 #include "tests/fuzz/fuzz_reader_util.h"
 
 using namespace fanfold;

@@ -13,7 +13,7 @@
 #include <string_view>
 #include <vector>
 
-#include "common/expr.h"
+#include "common/expr/expr.h"
 
 using namespace fanfold;
 

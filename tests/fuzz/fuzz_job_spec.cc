@@ -8,10 +8,10 @@
 #include <string_view>
 #include <vector>
 
-#include "common/group_key.h"
-#include "common/group_table.h"
-#include "common/job_spec.h"
-#include "common/plan.h"
+#include "common/partial/group_key.h"
+#include "common/partial/group_table.h"
+#include "common/job/job_spec.h"
+#include "common/job/plan.h"
 
 using namespace fanfold;
 

@@ -6,7 +6,7 @@
 
 #include <vector>
 
-#include "common/measure.h"
+#include "common/measures/measure.h"
 
 namespace fanfold {
 

@@ -6,8 +6,8 @@
 #include <cstdint>
 #include <string>
 
-#include "common/ndjson_reader.h"
-#include "common/record_reader.h"
+#include "common/input/ndjson_reader.h"
+#include "common/input/record_reader.h"
 #include "tests/fuzz/fuzz_reader_util.h"
 
 using namespace fanfold;

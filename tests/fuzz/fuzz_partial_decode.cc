@@ -21,9 +21,9 @@
 #include <xxhash.h>
 #include <zstd.h>
 
-#include "common/byte_io.h"
-#include "common/group_table.h"
-#include "common/partial_codec.h"
+#include "common/base/byte_io.h"
+#include "common/partial/group_table.h"
+#include "common/partial/partial_codec.h"
 #include "tests/fuzz/fuzz_measure_configs.h"
 
 using namespace fanfold;
@@ -35,7 +35,7 @@ const std::vector<MeasureConfig>& Configs() {
   return *configs;
 }
 
-// Offsets in the header of common/partial_codec.h: the two body lengths, and
+// Offsets in the header of common/partial/partial_codec.h: the two body lengths, and
 // the checksum in the header's last 8 bytes (XXH3-64 of the header bytes
 // before it followed by the stored body).
 constexpr size_t kRawLenOffset = 104;

@@ -10,9 +10,9 @@
 #include <cstring>
 #include <string>
 
-#include "common/byte_source.h"
-#include "common/field_table.h"
-#include "common/record_reader.h"
+#include "common/input/byte_source.h"
+#include "common/input/field_table.h"
+#include "common/input/record_reader.h"
 
 namespace fanfold {
 

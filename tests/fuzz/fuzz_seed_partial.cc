@@ -11,10 +11,10 @@
 #include <string>
 #include <vector>
 
-#include "common/byte_io.h"
-#include "common/group_key.h"
-#include "common/job_spec.h"
-#include "common/partial_codec.h"
+#include "common/base/byte_io.h"
+#include "common/partial/group_key.h"
+#include "common/job/job_spec.h"
+#include "common/partial/partial_codec.h"
 #include "tests/fuzz/fuzz_measure_configs.h"
 
 using namespace fanfold;

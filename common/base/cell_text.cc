@@ -1,0 +1,87 @@
+#include "common/base/cell_text.h"
+
+#include <charconv>
+#include <cmath>
+
+#include "common/base/number_text.h"
+
+namespace fanfold {
+
+namespace {
+std::string NumberText(double d) {
+  char buf[kNumberTextMax];
+  return std::string(FormatNumber(d, buf));
+}
+}  // namespace
+
+void AppendJsonString(const std::string& s, std::string* out) {
+  static const char* kHex = "0123456789abcdef";
+  out->push_back('"');
+  for (unsigned char c : s) {
+    switch (c) {
+      case '"': *out += "\\\""; break;
+      case '\\': *out += "\\\\"; break;
+      case '\n': *out += "\\n"; break;
+      case '\r': *out += "\\r"; break;
+      case '\t': *out += "\\t"; break;
+      default:
+        if (c < 0x20) {
+          *out += "\\u00";
+          out->push_back(kHex[c >> 4]);
+          out->push_back(kHex[c & 15]);
+        } else {
+          out->push_back(static_cast<char>(c));
+        }
+    }
+  }
+  out->push_back('"');
+}
+
+void AppendCellJson(const Cell& c, std::string* out) {
+  switch (c.kind) {
+    case Cell::Kind::kNull: *out += "null"; break;
+    case Cell::Kind::kBool: *out += c.boolean ? "true" : "false"; break;
+    case Cell::Kind::kInt: *out += std::to_string(c.integer); break;
+    case Cell::Kind::kFloat:
+      *out += std::isfinite(c.number) ? NumberText(c.number) : "null";
+      break;
+    case Cell::Kind::kString: AppendJsonString(c.str, out); break;
+    case Cell::Kind::kList:
+      out->push_back('[');
+      for (size_t i = 0; i < c.items.size(); ++i) {
+        if (i) out->push_back(',');
+        AppendCellJson(c.items[i], out);
+      }
+      out->push_back(']');
+      break;
+    case Cell::Kind::kRecord:
+      out->push_back('{');
+      for (size_t i = 0; i < c.items.size(); ++i) {
+        if (i) out->push_back(',');
+        AppendJsonString(i < c.names.size() ? c.names[i] : std::to_string(i), out);
+        out->push_back(':');
+        AppendCellJson(c.items[i], out);
+      }
+      out->push_back('}');
+      break;
+  }
+}
+
+std::string CellJson(const Cell& c) {
+  std::string s;
+  AppendCellJson(c, &s);
+  return s;
+}
+
+std::string CellText(const Cell& c) {
+  switch (c.kind) {
+    case Cell::Kind::kNull: return "";
+    case Cell::Kind::kBool: return c.boolean ? "true" : "false";
+    case Cell::Kind::kInt: return std::to_string(c.integer);
+    case Cell::Kind::kFloat: return NumberText(c.number);
+    case Cell::Kind::kString: return c.str;
+    default: return CellJson(c);
+  }
+}
+
+}  // namespace fanfold

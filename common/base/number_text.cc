@@ -1,0 +1,24 @@
+#include "common/base/number_text.h"
+
+#include <charconv>
+#include <cmath>
+
+namespace fanfold {
+
+std::string_view FormatNumber(double v, char* buf) {
+  if (v == 0) v = 0;  // folds -0 into 0: "-0" as a group key surprises everyone
+  const double mag = std::fabs(v);
+  // Plain shortest to_chars picks "1e+05" over "100000" because it is one
+  // character shorter; ids and epoch seconds read better in fixed notation,
+  // which keeps the round-trip guarantee. Above 1e16 fixed notation would
+  // print every binary digit of a large integer ("123456789012345683968"),
+  // so exponent form takes over there (forced: plain to_chars would still
+  // choose those 21 digits over the 22 characters of 1.2345678901234568e+20).
+  const bool fixed = v == 0 || (mag >= 1e-6 && mag < 1e16);
+  std::to_chars_result r =
+      fixed ? std::to_chars(buf, buf + kNumberTextMax, v, std::chars_format::fixed)
+            : std::to_chars(buf, buf + kNumberTextMax, v, std::chars_format::scientific);
+  return {buf, static_cast<size_t>(r.ptr - buf)};
+}
+
+}  // namespace fanfold

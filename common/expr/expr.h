@@ -1,0 +1,55 @@
+// Expr: a compiled expression of fanfold's expression language (see
+// docs/expressions.md). Compiled once per plan from text; evaluated per
+// record against the slots of a FieldTable without heap allocation (strings
+// made by functions go to the caller's ScratchArena). An Expr is immutable
+// after Compile and may be evaluated from several threads with separate
+// arenas.
+#pragma once
+
+#include <memory>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "common/input/field_table.h"
+#include "common/base/scratch_arena.h"
+#include "common/base/status.h"
+#include "common/base/value.h"
+
+namespace fanfold {
+
+class Expr {
+ public:
+  // Compiles `text`. `{...}` references are interned in *fields as raw
+  // fields; bare identifiers must name derived fields already in *fields.
+  // On error returns InvalidArgument whose message starts with
+  // "column N: " (1-based, counting bytes of `text`) and says what was
+  // found and what was expected.
+  static Result<Expr> Compile(std::string_view text, FieldTable* fields);
+
+  // REQUIRES: slots has one Value per slot of the FieldTable used to compile.
+  // The result may point into slots' strings or into *arena.
+  Value Eval(const Value* slots, ScratchArena* arena) const;
+
+  const std::string& text() const;
+
+  // The FieldTable slots this expression reads (each once, ascending).
+  std::vector<int> SlotsRead() const;
+
+  // The slot, iff the whole expression is a plain field or derived-field
+  // reference (then Eval(slots) == slots[slot]); -1 otherwise. Lets hot
+  // loops skip the evaluator for the commonest expression.
+  int DirectSlot() const;
+
+  Expr(Expr&&) noexcept;
+  Expr& operator=(Expr&&) noexcept;
+  ~Expr();
+
+  struct Program;  // the compiled form; defined in the implementation
+
+ private:
+  explicit Expr(std::unique_ptr<Program> p);
+  std::unique_ptr<Program> program_;
+};
+
+}  // namespace fanfold

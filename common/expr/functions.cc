@@ -1,0 +1,189 @@
+#include "common/expr/functions.h"
+
+#include <algorithm>
+#include <cmath>
+#include <cstring>
+
+#include "common/base/number_text.h"
+
+namespace fanfold {
+namespace {
+
+using F = ExprFunction;
+
+constexpr ExprFunctionInfo kFunctions[] = {
+    {"lower", F::kLower, 1, 1, "lower(s)"},
+    {"upper", F::kUpper, 1, 1, "upper(s)"},
+    {"starts_with", F::kStartsWith, 2, 2, "starts_with(s, prefix)"},
+    {"ends_with", F::kEndsWith, 2, 2, "ends_with(s, suffix)"},
+    {"contains", F::kContains, 2, 2, "contains(s, part)"},
+    {"len", F::kLen, 1, 1, "len(s)"},
+    {"substr", F::kSubstr, 2, 3, "substr(s, start[, count])"},
+    {"has", F::kHas, 1, 1, "has(x)"},
+    {"lacks", F::kLacks, 1, 1, "lacks(x)"},
+    {"coalesce", F::kCoalesce, 1, kMaxFunctionArgs, "coalesce(a, b, ...)"},
+    {"bin", F::kBin, 2, 2, "bin(x, width)"},
+    {"num", F::kNum, 1, 1, "num(x)"},
+    {"text", F::kText, 1, 1, "text(x)"},
+    {"time", F::kTime, 1, 1, "time(x)"},
+    {"time_ms", F::kTimeMs, 1, 1, "time_ms(x)"},
+    {"floor_time", F::kFloorTime, 2, 2, "floor_time(t, unit)"},
+    {"hour_of_day", F::kHourOfDay, 1, 1, "hour_of_day(t)"},
+    {"weekday", F::kWeekday, 1, 1, "weekday(t)"},
+};
+
+// A view that stays valid until the arena's next Reset(): the text of a
+// number lives in the caller's stack buffer and is copied; strings and the
+// static "true"/"false" already outlive the call.
+Value Stable(std::string_view s, const Value& from, ScratchArena* arena) {
+  if (from.kind == ValueKind::kNumber) return Value::String(arena->Copy(s));
+  return Value::String(s);
+}
+
+char FoldCase(char c, bool upper) {
+  if (upper) return c >= 'a' && c <= 'z' ? static_cast<char>(c - 32) : c;
+  return c >= 'A' && c <= 'Z' ? static_cast<char>(c + 32) : c;
+}
+
+Value ChangeCase(const Value& v, bool upper, ScratchArena* arena) {
+  char buf[kNumberTextMax];
+  std::string_view s;
+  if (!ValueText(v, buf, &s)) return Value::Missing();
+  size_t first = 0;
+  while (first < s.size() && FoldCase(s[first], upper) == s[first]) ++first;
+  if (first == s.size()) return Stable(s, v, arena);  // already folded: no copy
+  char* out = arena->Allocate(s.size());
+  std::memcpy(out, s.data(), first);
+  for (size_t i = first; i < s.size(); ++i) out[i] = FoldCase(s[i], upper);
+  return Value::String({out, s.size()});
+}
+
+Value Match(ExprFunction f, const Value& a, const Value& b) {
+  char buf_a[kNumberTextMax], buf_b[kNumberTextMax];
+  std::string_view s, p;
+  if (!ValueText(a, buf_a, &s) || !ValueText(b, buf_b, &p)) return Value::Missing();
+  switch (f) {
+    case F::kStartsWith: return Value::Bool(s.starts_with(p));
+    case F::kEndsWith: return Value::Bool(s.ends_with(p));
+    default: return Value::Bool(s.find(p) != std::string_view::npos);
+  }
+}
+
+// Reads a byte offset/count; false iff not a number (NaN included).
+bool Offset(const Value& v, double* out) {
+  if (!v.AsNumber(out) || std::isnan(*out)) return false;
+  *out = std::floor(*out);
+  return true;
+}
+
+Value Substr(const Value* args, int nargs, ScratchArena* arena) {
+  char buf[kNumberTextMax];
+  std::string_view s;
+  double start, count = HUGE_VAL;
+  if (!ValueText(args[0], buf, &s) || !Offset(args[1], &start)) return Value::Missing();
+  if (nargs == 3 && !Offset(args[2], &count)) return Value::Missing();
+  const double size = static_cast<double>(s.size());
+  start = std::clamp(start, 0.0, size);
+  count = std::clamp(count, 0.0, size - start);
+  return Stable(s.substr(static_cast<size_t>(start), static_cast<size_t>(count)), args[0], arena);
+}
+
+Value FiniteNumber(double d) { return std::isfinite(d) ? Value::Number(d) : Value::Missing(); }
+
+}  // namespace
+
+const ExprFunctionInfo* FindExprFunction(std::string_view name) {
+  for (const ExprFunctionInfo& f : kFunctions)
+    if (f.name == name) return &f;
+  return nullptr;
+}
+
+std::string ExprFunctionSignatures() {
+  std::string out;
+  for (const ExprFunctionInfo& f : kFunctions) {
+    if (!out.empty()) out += ", ";
+    out += f.signature;
+  }
+  return out;
+}
+
+bool ValueText(const Value& v, char* buf, std::string_view* out) {
+  switch (v.kind) {
+    case ValueKind::kString: *out = v.str; return true;
+    case ValueKind::kNumber: *out = FormatNumber(v.number, buf); return true;
+    case ValueKind::kBool: *out = v.boolean ? "true" : "false"; return true;
+    default: return false;
+  }
+}
+
+bool ValueEpochSeconds(const Value& v, double units_per_second, double* out) {
+  double d;
+  if (v.kind == ValueKind::kString && ParseIsoTimestamp(v.str, out)) return true;
+  if (!v.AsNumber(&d) || !std::isfinite(d)) return false;
+  *out = d / units_per_second;
+  return true;
+}
+
+Value ApplyExprFunction(ExprFunction function, const Value* args, int nargs, TimeUnit unit,
+                        ScratchArena* arena) {
+  switch (function) {
+    case F::kLower: return ChangeCase(args[0], false, arena);
+    case F::kUpper: return ChangeCase(args[0], true, arena);
+    case F::kStartsWith:
+    case F::kEndsWith:
+    case F::kContains: return Match(function, args[0], args[1]);
+    case F::kLen: {
+      char buf[kNumberTextMax];
+      std::string_view s;
+      if (!ValueText(args[0], buf, &s)) return Value::Missing();
+      return Value::Number(static_cast<double>(s.size()));
+    }
+    case F::kSubstr: return Substr(args, nargs, arena);
+    case F::kHas: return Value::Bool(args[0].is_present());
+    case F::kLacks: return Value::Bool(!args[0].is_present());
+    case F::kCoalesce:
+      for (int i = 0; i < nargs; ++i)
+        if (args[i].is_present()) return args[i];
+      return Value::Missing();
+    case F::kBin: {
+      double x, w;
+      if (!args[0].AsNumber(&x) || !args[1].AsNumber(&w) || !(w > 0)) return Value::Missing();
+      return FiniteNumber(std::floor(x / w) * w);
+    }
+    case F::kNum: {
+      double d;
+      if (!args[0].AsNumber(&d)) return Value::Missing();
+      return FiniteNumber(d);
+    }
+    case F::kText: {
+      char buf[kNumberTextMax];
+      std::string_view s;
+      if (!ValueText(args[0], buf, &s)) return Value::Missing();
+      return Stable(s, args[0], arena);
+    }
+    case F::kTime:
+    case F::kTimeMs: {
+      double t;
+      if (!ValueEpochSeconds(args[0], function == F::kTime ? 1 : 1000, &t)) return Value::Missing();
+      return FiniteNumber(t);
+    }
+    case F::kFloorTime: {
+      double t;
+      char label[kTimeLabelMax];
+      size_t n;
+      if (!ValueEpochSeconds(args[0], 1, &t) || (n = FormatTimeBucket(t, unit, label)) == 0)
+        return Value::Missing();
+      return Value::String(arena->Copy({label, n}));
+    }
+    case F::kHourOfDay:
+    case F::kWeekday: {
+      double t;
+      if (!ValueEpochSeconds(args[0], 1, &t)) return Value::Missing();
+      const int r = function == F::kHourOfDay ? HourOfDay(t) : IsoWeekday(t);
+      return r < 0 ? Value::Missing() : Value::Number(r);
+    }
+  }
+  return Value::Missing();
+}
+
+}  // namespace fanfold

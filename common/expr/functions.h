@@ -1,0 +1,58 @@
+// Expression functions: the fixed catalogue of functions the expression
+// language offers (name, arity, signature) and their per-record
+// implementations on already-evaluated arguments. Strings a function makes go
+// to the caller's ScratchArena; nothing here allocates on the heap at
+// evaluation time. Stateless; thread-safe.
+#pragma once
+
+#include <cstdint>
+#include <string>
+#include <string_view>
+
+#include "common/base/scratch_arena.h"
+#include "common/expr/time_functions.h"
+#include "common/base/value.h"
+
+namespace fanfold {
+
+enum class ExprFunction : uint8_t {
+  kLower, kUpper, kStartsWith, kEndsWith, kContains, kLen, kSubstr,
+  kHas, kLacks, kCoalesce, kBin, kNum, kText,
+  kTime, kTimeMs, kFloorTime, kHourOfDay, kWeekday,
+};
+
+struct ExprFunctionInfo {
+  std::string_view name;
+  ExprFunction function;
+  int min_args;
+  int max_args;
+  std::string_view signature;  // as shown in error messages, e.g. "substr(s, start[, count])"
+};
+
+// Most arguments any function takes (coalesce).
+inline constexpr int kMaxFunctionArgs = 16;
+
+// Returns the catalogue entry called `name`, or nullptr iff there is none.
+const ExprFunctionInfo* FindExprFunction(std::string_view name);
+
+// "lower(s), upper(s), ..." — every signature, for error messages.
+std::string ExprFunctionSignatures();
+
+// Evaluates `function` on args[0..nargs). `unit` is the compile-time unit of
+// floor_time (its second argument is not consulted). Not for kCoalesce,
+// whose arguments the evaluator evaluates lazily.
+// REQUIRES: nargs is within the function's arity.
+Value ApplyExprFunction(ExprFunction function, const Value* args, int nargs, TimeUnit unit,
+                        ScratchArena* arena);
+
+// The text a string function sees for `v`: strings as they are, numbers as
+// FormatNumber writes them into buf (at least kNumberTextMax bytes), bools
+// as "true"/"false". Returns false iff v is missing, null or not a scalar.
+bool ValueText(const Value& v, char* buf, std::string_view* out);
+
+// Epoch seconds of `v` as time() reads it: ISO 8601 text, or a finite
+// number (or numeric text) divided by `units_per_second` (1 for seconds, 1000
+// for milliseconds). Returns false iff neither.
+bool ValueEpochSeconds(const Value& v, double units_per_second, double* out);
+
+}  // namespace fanfold

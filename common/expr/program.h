@@ -1,0 +1,70 @@
+// Expr::Program: the compiled form of an expression — a flat array of nodes,
+// children before parents, evaluated by a small recursive walk that never
+// allocates (strings made by functions go to the caller's ScratchArena).
+// Filled once by CompileExprAst, then immutable: Eval may run on several
+// threads at once, each with its own arena.
+#pragma once
+
+#include <cstdint>
+#include <deque>
+#include <string>
+#include <vector>
+
+#include "common/expr/expr.h"
+#include "common/expr/functions.h"
+#include "common/expr/literal_set.h"
+#include "common/base/value_compare.h"
+
+namespace fanfold {
+
+enum class ExprOp : uint8_t {
+  kConst,         // constant
+  kSlot,          // slots[slot]
+  kAnd, kOr,      // kids 0, 1; short-circuit; bool
+  kNot,           // kid 0; bool
+  kCompare,       // kid 0 `compare` kid 1
+  kCompareConst,  // kid 0 `compare` constant (a constant left side is mirrored)
+  kIn,            // kid 0 in sets[slot] (negated: not in)
+  kAdd, kSub, kMul, kDiv, kMod,  // kids 0, 1
+  kNeg,           // kid 0
+  kCall,          // function on kids 0..nargs
+  kCoalesce,      // first present of Program::args[first_arg .. first_arg + nargs)
+};
+
+struct ExprNode {
+  ExprOp op = ExprOp::kConst;
+  CompareOp compare = CompareOp::kEq;
+  ExprFunction function = ExprFunction::kHas;
+  TimeUnit unit = TimeUnit::kDay;  // kCall of floor_time
+  bool negated = false;            // kIn
+  uint8_t nargs = 0;
+  int32_t kids[3] = {-1, -1, -1};  // node indices, all smaller than this node's
+  int32_t first_arg = 0;           // kCoalesce
+  int32_t slot = -1;               // kSlot: the FieldTable slot; kIn: index into sets
+  CompareConstant constant;        // kConst: constant.value; kCompareConst: the right side
+};
+
+struct Expr::Program {
+  std::string text;
+  std::vector<ExprNode> nodes;  // the root is the last node
+  std::vector<int32_t> args;    // node indices of kCoalesce arguments
+  std::vector<LiteralSet> sets;
+  std::deque<std::string> strings;  // texts that constants point to; never moves them
+
+  // REQUIRES: nodes is not empty; slots as for Expr::Eval.
+  Value Eval(const Value* slots, ScratchArena* arena) const {
+    return EvalAt(static_cast<int32_t>(nodes.size() - 1), slots, arena);
+  }
+  Value EvalAt(int32_t index, const Value* slots, ScratchArena* arena) const;
+
+ private:
+  // Reads fields and constants inline: most operands are one or the other.
+  Value Kid(const ExprNode& n, int k, const Value* slots, ScratchArena* arena) const {
+    const ExprNode& c = nodes[n.kids[k]];
+    if (c.op == ExprOp::kSlot) return slots[c.slot];
+    if (c.op == ExprOp::kConst) return c.constant.value;
+    return EvalAt(n.kids[k], slots, arena);
+  }
+};
+
+}  // namespace fanfold

@@ -1,0 +1,43 @@
+// ByteSource: a stream of a shard's decompressed bytes. OpenShardSource picks
+// the decoder from the file name (".zst", ".gz", otherwise plain), confirms it
+// by the magic bytes, and streams into the caller's buffer, so memory stays
+// bounded whatever the shard size. Errors name the file and what went wrong
+// (truncated frame, corrupt data, wrong magic). One reader per source;
+// not thread-safe.
+#pragma once
+
+#include <cstddef>
+#include <cstdint>
+#include <memory>
+#include <string>
+
+#include "common/base/status.h"
+
+namespace fanfold {
+
+enum class Compression { kNone, kZstd, kGzip };
+
+// Compression implied by a file name's last extension.
+Compression CompressionFromName(const std::string& path);
+const char* CompressionName(Compression c);
+
+class ByteSource {
+ public:
+  virtual ~ByteSource() = default;
+  // Reads up to cap decompressed bytes into dst. Returns the count, 0 only at
+  // the clean end of the stream, or an error (truncated/corrupt input).
+  virtual Result<size_t> Read(char* dst, size_t cap) = 0;
+  // Bytes consumed from the underlying file so far.
+  virtual uint64_t compressed_bytes() const = 0;
+};
+
+// Opens `path`, reading the byte range [offset, offset + length) of it when
+// length != UINT64_MAX (byte ranges are only valid for kNone).
+Result<std::unique_ptr<ByteSource>> OpenShardSource(const std::string& path, Compression expected,
+                                                    uint64_t offset = 0,
+                                                    uint64_t length = UINT64_MAX);
+
+// A source over bytes held in memory (tests, fuzzers), with no compression.
+std::unique_ptr<ByteSource> MemorySource(std::string bytes);
+
+}  // namespace fanfold

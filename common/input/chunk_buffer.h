@@ -1,0 +1,80 @@
+// ChunkBuffer: the reused block of decompressed bytes that the record readers
+// cut records from. It keeps the unconsumed tail (an incomplete record) when
+// refilled, grows only when one record outgrows it, and keeps `padding` spare
+// bytes (set to spaces) after the data so parsers may read past a record's
+// end. Owns its memory; one per reader; not thread-safe.
+#pragma once
+
+#include <cstddef>
+#include <cstdint>
+#include <memory>
+
+#include "common/input/byte_source.h"
+#include "common/base/status.h"
+
+namespace fanfold {
+
+// Default chunk size of the readers: large enough that per-chunk costs
+// (a read call, moving the tail) vanish next to parsing.
+inline constexpr size_t kDefaultChunkBytes = 4 << 20;
+
+// How the readers buffer their input (tests shrink both to hit edge cases).
+struct ChunkOptions {
+  // Implicit from a chunk size, so callers may pass just that.
+  ChunkOptions(size_t chunk = kDefaultChunkBytes, size_t max_record = size_t{256} << 20)  // NOLINT
+      : chunk_bytes(chunk), max_record_bytes(max_record) {}
+
+  // Size of the reused read buffer. REQUIRES: > 0.
+  size_t chunk_bytes;
+  // Longest record the buffer grows to hold; a longer one (a file without
+  // line breaks, an unclosed CSV quote) is an error, not unbounded memory.
+  size_t max_record_bytes;
+};
+
+class ChunkBuffer {
+ public:
+  ChunkBuffer(const ChunkOptions& options, size_t padding);
+
+  // Forgets all data and the end-of-source flag (the allocation is kept).
+  void Reset();
+
+  // The unconsumed bytes. data()[size()] .. data()[size() + padding - 1]
+  // are readable spaces.
+  const char* data() const { return buf_.get() + begin_; }
+  size_t size() const { return end_ - begin_; }
+  // Bytes of the allocation from p (inside the data) to its end.
+  size_t room_after(const char* p) const { return static_cast<size_t>(buf_.get() + cap_ + padding_ - p); }
+
+  // Marks the first n unconsumed bytes as used. REQUIRES: n <= size().
+  void Consume(size_t n) { begin_ += n; }
+
+  // Moves the unconsumed bytes to the front (doubling the buffer if they
+  // fill it), then reads from src until the buffer is full or src ends.
+  // Returns the bytes added, or the source's error (when bytes arrived
+  // before it, they are returned first and the error by the next Fill), or
+  // Corrupt iff the unconsumed bytes already fill max_record_bytes.
+  Result<size_t> Fill(ByteSource& src);
+
+  // True iff the last Fill refused to grow past max_record_bytes.
+  bool over_limit() const { return over_limit_; }
+  // True iff src has reported its end: data() then holds all that is left.
+  bool eof() const { return eof_; }
+  // Decompressed bytes read from the source since Reset().
+  uint64_t total_read() const { return total_read_; }
+
+ private:
+  void Pad();
+
+  std::unique_ptr<char[]> buf_;
+  size_t cap_;      // data capacity, not counting padding_
+  size_t padding_;
+  size_t max_bytes_;
+  size_t begin_ = 0;
+  size_t end_ = 0;
+  bool eof_ = false;
+  bool over_limit_ = false;
+  Status pending_;  // a source error held back until the next Fill
+  uint64_t total_read_ = 0;
+};
+
+}  // namespace fanfold

@@ -1,0 +1,280 @@
+#include "common/input/csv_reader.h"
+
+#include <algorithm>
+#include <bit>
+#include <cstring>
+
+namespace fanfold {
+namespace {
+
+uint64_t CountNewlines(const char* b, const char* e) {
+  return static_cast<uint64_t>(std::count(b, e, '\n'));
+}
+
+static_assert(std::endian::native == std::endian::little, "ScanUnquoted takes the lowest byte as the first");
+
+// Bytes readable after the data: ScanUnquoted loads 8 bytes at a time.
+constexpr size_t kScanPadding = 8;
+
+// Scans an unquoted field: the first separator or '\n' at or after q, or
+// end. Eight bytes per step (SWAR zero-byte test on x ^ broadcast(c)): its
+// lowest flagged byte is always a true match, later ones may be false, so
+// only the lowest is used. REQUIRES: kScanPadding readable bytes after end.
+const char* ScanUnquoted(const char* q, const char* end, char sep) {
+  constexpr uint64_t kOnes = 0x0101010101010101ULL;
+  constexpr uint64_t kHigh = 0x8080808080808080ULL;
+  const uint64_t seps = kOnes * static_cast<uint8_t>(sep);
+  const uint64_t newlines = kOnes * static_cast<uint8_t>('\n');
+  for (; q < end; q += 8) {
+    uint64_t w;
+    std::memcpy(&w, q, 8);
+    const uint64_t a = w ^ seps;
+    const uint64_t b = w ^ newlines;
+    const uint64_t hits = (((a - kOnes) & ~a) | ((b - kOnes) & ~b)) & kHigh;
+    if (hits != 0) {
+      const char* hit = q + (std::countr_zero(hits) >> 3);
+      return hit < end ? hit : end;
+    }
+  }
+  return end;
+}
+
+// Header listings in error messages stop after this many names.
+constexpr size_t kMaxListedColumns = 40;
+
+}  // namespace
+
+CsvReader::CsvReader(const FieldTable& fields, char separator, const ChunkOptions& options)
+    : sep_(separator), format_(separator == '\t' ? "TSV" : "CSV"), chunk_(options, kScanPadding),
+      slots_(fields.size()) {
+  for (size_t s = 0; s < fields.size(); ++s) {
+    if (fields.slot(s).derived) continue;
+    raw_names_.push_back(fields.slot(s).name);
+    raw_slots_.push_back(static_cast<int>(s));
+  }
+  cells_.reserve(raw_slots_.size());
+}
+
+void CsvReader::KeepField(bool header, uint32_t field, const char* ptr, size_t scratch_offset, size_t len,
+                          bool in_scratch) {
+  if (header) {
+    if (in_scratch) {
+      header_.emplace_back(scratch_, scratch_offset, len);
+    } else {
+      header_.emplace_back(ptr, len);
+    }
+    return;
+  }
+  cells_.push_back(Cell{column_slot_[field], ptr, scratch_offset, len, in_scratch});
+}
+
+CsvReader::CutKind CsvReader::CutRecord(const char* p, const char* end, bool eof, bool header, Cut* out) {
+  // An empty line (LF or CRLF alone) is no record.
+  if (p < end && *p == '\n') {
+    *out = Cut{p + 1, 1, 0, nullptr};
+    return CutKind::kBlank;
+  }
+  if (p < end && *p == '\r') {
+    if (p + 1 == end) {
+      if (!eof) return CutKind::kNeedMore;
+      *out = Cut{end, 0, 0, nullptr};
+      return CutKind::kBlank;
+    }
+    if (p[1] == '\n') {
+      *out = Cut{p + 2, 1, 0, nullptr};
+      return CutKind::kBlank;
+    }
+  }
+  scratch_.clear();
+  cells_.clear();
+  if (header) header_.clear();
+  const char* bad = nullptr;
+  uint64_t newlines = 0;
+  uint32_t field = 0;
+  const char* q = p;
+  for (;;) {
+    const bool want = header || (field < column_slot_.size() && column_slot_[field] >= 0);
+    const char* content = q;
+    size_t len = 0;
+    size_t scratch_offset = 0;
+    bool in_scratch = false;
+    bool record_end = false;
+    if (q < end && *q == '"') {
+      ++q;
+      content = q;
+      const char* segment = q;
+      const char* content_end;
+      for (;;) {
+        const char* dq = static_cast<const char*>(std::memchr(q, '"', static_cast<size_t>(end - q)));
+        if (dq == nullptr) {
+          if (!eof) return CutKind::kNeedMore;
+          newlines += CountNewlines(q, end);
+          if (bad == nullptr) bad = "unclosed quote at end of input";
+          content_end = q = end;
+          break;
+        }
+        newlines += CountNewlines(q, dq);
+        if (dq + 1 == end && !eof) return CutKind::kNeedMore;  // "" or a closing quote?
+        if (dq + 1 < end && dq[1] == '"') {
+          if (want) {
+            if (!in_scratch) scratch_offset = scratch_.size();
+            in_scratch = true;
+            scratch_.append(segment, static_cast<size_t>(dq + 1 - segment));  // keeps one quote
+          }
+          q = segment = dq + 2;
+          continue;
+        }
+        content_end = dq;
+        q = dq + 1;
+        break;
+      }
+      if (in_scratch) {
+        scratch_.append(segment, static_cast<size_t>(content_end - segment));
+        len = scratch_.size() - scratch_offset;
+      } else {
+        len = static_cast<size_t>(content_end - content);
+      }
+      // After the closing quote: a separator, a line end, or the end.
+      if (q == end) {
+        record_end = true;
+      } else if (*q == sep_) {
+        ++q;
+      } else if (*q == '\n') {
+        record_end = true;
+        ++newlines;
+        ++q;
+      } else if (*q == '\r' && q + 1 < end && q[1] == '\n') {
+        record_end = true;
+        ++newlines;
+        q += 2;
+      } else if (*q == '\r' && q + 1 == end) {
+        if (!eof) return CutKind::kNeedMore;
+        record_end = true;
+        ++q;
+      } else {
+        if (bad == nullptr) bad = "text after a closing quote";
+        q = ScanUnquoted(q, end, sep_);
+        if (q == end && !eof) return CutKind::kNeedMore;
+        if (q < end && *q == sep_) {
+          ++q;
+        } else {
+          record_end = true;
+          if (q < end) {
+            ++newlines;
+            ++q;
+          }
+        }
+      }
+    } else {
+      q = ScanUnquoted(q, end, sep_);
+      if (q == end && !eof) return CutKind::kNeedMore;
+      len = static_cast<size_t>(q - content);
+      if (q < end && *q == sep_) {
+        ++q;
+      } else {
+        record_end = true;
+        if (len > 0 && content[len - 1] == '\r') --len;  // CRLF line end
+        if (q < end) {
+          ++newlines;
+          ++q;
+        }
+      }
+    }
+    if (want) KeepField(header, field, content, scratch_offset, len, in_scratch);
+    ++field;
+    if (record_end) break;
+  }
+  *out = Cut{q, newlines, field, bad};
+  return CutKind::kRecord;
+}
+
+Status CsvReader::BindHeader() {
+  column_slot_.assign(header_.size(), -1);
+  for (size_t i = 0; i < raw_names_.size(); ++i) {
+    auto it = std::find(header_.begin(), header_.end(), raw_names_[i]);
+    if (it == header_.end()) {
+      std::string listing;
+      for (size_t c = 0; c < header_.size() && c < kMaxListedColumns; ++c) {
+        if (c) listing += ", ";
+        listing += header_[c];
+      }
+      if (header_.size() > kMaxListedColumns) {
+        listing += ", ... (" + std::to_string(header_.size() - kMaxListedColumns) + " more)";
+      }
+      return Status::InvalidArgument("column '" + raw_names_[i] + "' is not in the header of this " + format_ +
+                                     " input; header has: " + listing);
+    }
+    // With duplicate column names the first one wins.
+    size_t column = static_cast<size_t>(it - header_.begin());
+    if (column_slot_[column] < 0) column_slot_[column] = raw_slots_[i];
+  }
+  return Status::Ok();
+}
+
+Status CsvReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
+  ReadStats local;
+  ReadStats& st = stats != nullptr ? *stats : local;
+  st = ReadStats{};
+  chunk_.Reset();
+  column_slot_.clear();
+  bool have_header = false;
+  bool at_start = true;
+  uint64_t line = 1;  // line on which the next record starts
+  for (;;) {
+    Result<size_t> filled = chunk_.Fill(src);
+    st.raw_bytes = chunk_.total_read();
+    if (!filled.ok()) {
+      if (!chunk_.over_limit()) return filled.status();
+      return filled.status().WithContext("line " + std::to_string(line));  // the record too long
+    }
+    const bool last = chunk_.eof();
+    if (at_start) {
+      if (chunk_.size() < 3 && !last) continue;
+      // A UTF-8 byte order mark is no part of the first column's name.
+      if (chunk_.size() >= 3 && std::memcmp(chunk_.data(), "\xEF\xBB\xBF", 3) == 0) chunk_.Consume(3);
+      at_start = false;
+    }
+    const char* p = chunk_.data();
+    const char* end = p + chunk_.size();
+    while (p < end) {
+      Cut cut;
+      CutKind kind = CutRecord(p, end, last, !have_header, &cut);
+      if (kind == CutKind::kNeedMore) break;
+      const uint64_t record_line = line;
+      line += cut.newlines;
+      p = cut.next;
+      if (kind == CutKind::kBlank) continue;
+      if (!have_header) {
+        if (cut.bad != nullptr) {
+          return Status::Corrupt(std::string("malformed ") + format_ + " header on line " +
+                                 std::to_string(record_line) + ": " + cut.bad);
+        }
+        FF_RETURN_IF_ERROR(BindHeader());
+        have_header = true;
+        continue;
+      }
+      if (cut.bad != nullptr || cut.fields != header_.size()) {
+        ++st.malformed;
+        if (st.samples.size() < ReadStats::kMaxSamples) {
+          st.samples.push_back(MalformedSample{
+              record_line, cut.bad != nullptr ? std::string(cut.bad)
+                                              : "expected " + std::to_string(header_.size()) + " fields, found " +
+                                                    std::to_string(cut.fields)});
+        }
+        continue;
+      }
+      std::fill(slots_.begin(), slots_.end(), Value::Missing());
+      for (const Cell& cell : cells_) {
+        if (cell.len == 0) continue;  // an empty cell is Missing
+        const char* ptr = cell.in_scratch ? scratch_.data() + cell.scratch_offset : cell.ptr;
+        slots_[cell.slot] = Value::String(std::string_view(ptr, cell.len));
+      }
+      ++st.records;
+      if (!sink.OnRecord(slots_.data())) return Status::Ok();
+    }
+    if (last) return Status::Ok();
+    chunk_.Consume(static_cast<size_t>(p - chunk_.data()));
+  }
+}
+
+}  // namespace fanfold

@@ -1,0 +1,73 @@
+// CsvReader: reads CSV (RFC 4180) or TSV from a ByteSource: the first record
+// is the header and names the columns; each later record fills the raw slots
+// of a FieldTable (raw fields are column names) and goes to a RecordSink.
+// Quoted fields may hold separators, "" escapes and line breaks; an empty
+// cell is Missing. Owns its buffers; one reader per thread; reusable.
+#pragma once
+
+#include <cstddef>
+#include <cstdint>
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "common/input/byte_source.h"
+#include "common/input/chunk_buffer.h"
+#include "common/input/field_table.h"
+#include "common/input/record_reader.h"
+#include "common/base/status.h"
+#include "common/base/value.h"
+
+namespace fanfold {
+
+class CsvReader {
+ public:
+  // separator: ',' for CSV, '\t' for TSV.
+  CsvReader(const FieldTable& fields, char separator, const ChunkOptions& options = {});
+
+  // Reads every record of src as ReadRecords does (common/input/record_reader.h).
+  // Returns InvalidArgument iff a raw field is not a header column, Corrupt
+  // iff the header row itself is malformed or a record is longer than
+  // options.max_record_bytes; empty input is zero records.
+  // Empty lines are skipped; a lone '\r' inside a field is data; a stray
+  // quote inside an unquoted field is data. *stats (may be null) is
+  // overwritten.
+  Status Read(ByteSource& src, RecordSink& sink, ReadStats* stats);
+
+ private:
+  enum class CutKind { kRecord, kBlank, kNeedMore };
+  struct Cut {
+    const char* next = nullptr;  // first byte after the record
+    uint64_t newlines = 0;       // '\n' bytes the record spans, terminator included
+    uint32_t fields = 0;
+    const char* bad = nullptr;   // why the record is malformed, or null
+  };
+  // A needed field of the record being cut: a view into the chunk, or an
+  // offset into scratch_ when "" escapes had to be undone.
+  struct Cell {
+    int slot;
+    const char* ptr;
+    size_t scratch_offset;
+    size_t len;
+    bool in_scratch;
+  };
+
+  // Cuts one record starting at p. Returns kNeedMore iff it may continue
+  // past end and the source has more (eof false).
+  CutKind CutRecord(const char* p, const char* end, bool eof, bool header, Cut* out);
+  void KeepField(bool header, uint32_t field, const char* ptr, size_t scratch_offset, size_t len, bool in_scratch);
+  Status BindHeader();
+
+  char sep_;
+  const char* format_;  // "CSV" or "TSV", for messages
+  std::vector<std::string> raw_names_;
+  std::vector<int> raw_slots_;
+  ChunkBuffer chunk_;
+  std::vector<std::string> header_;
+  std::vector<int> column_slot_;  // per header column: slot to fill, or -1
+  std::vector<Value> slots_;
+  std::vector<Cell> cells_;
+  std::string scratch_;
+};
+
+}  // namespace fanfold

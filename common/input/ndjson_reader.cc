@@ -1,0 +1,209 @@
+#include "common/input/ndjson_reader.h"
+
+#include <simdjson.h>
+
+#include <algorithm>
+#include <cstring>
+#include <string>
+#include <vector>
+
+#include "common/input/json_pointer.h"
+
+namespace fanfold {
+namespace {
+
+namespace dom = simdjson::dom;
+
+// One reference token of a pointer path; the root has an empty token.
+struct Node {
+  std::string token;
+  int64_t index = -1;  // the array index the token denotes, or -1
+  int slot = -1;       // slot to fill with the value here, or -1
+  std::vector<uint32_t> children;
+  int64_t max_child_index = -1;  // largest array index among children
+  uint64_t seen = 0;  // record generation that last consumed this node
+};
+
+// Keys are short, so comparing the first byte before memcmp skips most calls.
+inline bool TokenIs(const std::string& token, std::string_view key) {
+  return token.size() == key.size() && (key.empty() || (token[0] == key[0] && std::memcmp(token.data(), key.data(), key.size()) == 0));
+}
+
+bool IsJsonSpace(char c) { return c == ' ' || c == '\t' || c == '\r' || c == '\n'; }
+
+Value ToValue(dom::element el) {
+  switch (el.type()) {
+    // The type is checked first, so the unchecked getters cannot fail.
+    case dom::element_type::INT64: return Value::Number(static_cast<double>(el.get_int64().value_unsafe()));
+    case dom::element_type::UINT64: return Value::Number(static_cast<double>(el.get_uint64().value_unsafe()));
+    case dom::element_type::DOUBLE: return Value::Number(el.get_double().value_unsafe());
+    case dom::element_type::STRING: return Value::String(el.get_string().value_unsafe());
+    case dom::element_type::BOOL: return Value::Bool(el.get_bool().value_unsafe());
+    case dom::element_type::NULL_VALUE: return Value::Null();
+    case dom::element_type::ARRAY:
+    case dom::element_type::OBJECT: break;
+  }
+  return Value::Other();
+}
+
+}  // namespace
+
+// Why the DOM parser and not On-Demand: with Debian's simdjson 3.0.1 the
+// On-Demand front end compiles to the scalar "fallback" kernel in our build
+// (no -march), while dom::parser runs the library's runtime-selected SIMD
+// kernel. Measured on 100 MB of log lines with three fields extracted:
+// DOM 0.077 s (validates every value), On-Demand skipping unused values
+// 0.113 s (misses errors such as `[1,,2]` or `tru` inside skipped values),
+// On-Demand visiting every value 0.21 s. One DOM parse per line also keeps
+// the exact per-line malformed count that document streams lose.
+struct NdjsonReader::Impl {
+  Impl(const ChunkOptions& options, size_t nslots) : chunk(options, simdjson::SIMDJSON_PADDING), slots(nslots) {}
+
+  // Walks the value at trie node ni, filling slots where pointers end.
+  void Walk(dom::element el, uint32_t ni) {
+    const Node& n = nodes[ni];
+    if (n.slot >= 0) slots[n.slot] = ToValue(el);
+    if (n.children.empty()) return;
+    const size_t want = n.children.size();
+    size_t got = 0;
+    if (el.type() == dom::element_type::OBJECT) {
+      dom::object obj = el.get_object().value_unsafe();
+      for (auto it = obj.begin(); it != obj.end(); ++it) {
+        std::string_view key = it.key();
+        for (uint32_t c : n.children) {
+          Node& child = nodes[c];
+          if (!TokenIs(child.token, key)) continue;
+          if (child.seen != generation) {  // duplicate keys: the first one wins
+            child.seen = generation;
+            Walk(it.value(), c);
+            if (++got == want) return;
+          }
+          break;
+        }
+      }
+    } else if (el.type() == dom::element_type::ARRAY) {
+      int64_t i = 0;
+      dom::array arr = el.get_array().value_unsafe();
+      for (dom::element item : arr) {
+        for (uint32_t c : n.children) {
+          if (nodes[c].index == i) {
+            Walk(item, c);
+            if (++got == want) return;
+            break;
+          }
+        }
+        if (i++ >= n.max_child_index) return;
+      }
+    }
+  }
+
+  // Parses one line. Returns false iff the sink asked to stop.
+  bool OnLine(const char* p, size_t len, uint64_t line, RecordSink& sink, ReadStats& st) {
+    while (len > 0 && p[len - 1] == '\r') --len;
+    if (len == 0) return true;
+    if (*p != '{') {
+      size_t i = 0;
+      while (i < len && IsJsonSpace(p[i])) ++i;
+      if (i == len) return true;  // whitespace-only line
+    }
+    dom::element root;
+    simdjson::error_code err = parser.parse(p, len, false).get(root);
+    const char* reason = nullptr;
+    if (err) {
+      reason = simdjson::error_message(err);
+    } else if (root.type() != dom::element_type::OBJECT) {
+      reason = "the line is not a JSON object";
+    }
+    if (reason != nullptr) {
+      ++st.malformed;
+      if (st.samples.size() < ReadStats::kMaxSamples) st.samples.push_back(MalformedSample{line, reason});
+      return true;
+    }
+    std::fill(slots.begin(), slots.end(), Value::Missing());
+    ++generation;
+    Walk(root, 0);
+    ++st.records;
+    return sink.OnRecord(slots.data());
+  }
+
+  ChunkBuffer chunk;
+  dom::parser parser;
+  std::vector<Node> nodes;  // nodes[0] is the root
+  std::vector<Value> slots;
+  uint64_t generation = 0;
+};
+
+NdjsonReader::NdjsonReader(std::unique_ptr<Impl> impl) : impl_(std::move(impl)) {}
+NdjsonReader::~NdjsonReader() = default;
+
+Result<std::unique_ptr<NdjsonReader>> NdjsonReader::Create(const FieldTable& fields, const ChunkOptions& options) {
+  auto impl = std::make_unique<Impl>(options, fields.size());
+  impl->nodes.emplace_back();
+  for (size_t s = 0; s < fields.size(); ++s) {
+    const FieldTable::Slot& slot = fields.slot(s);
+    if (slot.derived) continue;
+    if (slot.name.empty()) {
+      return Status::InvalidArgument(
+          "the JSON Pointer \"\" (the whole record) cannot be used as a field; name a member such as '/id'");
+    }
+    if (slot.name[0] != '/') {
+      return Status::InvalidArgument("NDJSON fields are JSON Pointers and start with '/': got '" + slot.name + "'");
+    }
+    Result<std::vector<std::string>> tokens = ParseJsonPointer(slot.name);
+    if (!tokens.ok()) return tokens.status();
+    uint32_t at = 0;
+    for (const std::string& token : *tokens) {
+      uint32_t next = 0;
+      for (uint32_t c : impl->nodes[at].children) {
+        if (impl->nodes[c].token == token) next = c;
+      }
+      if (next == 0) {
+        next = static_cast<uint32_t>(impl->nodes.size());
+        Node node;
+        node.token = token;
+        node.index = JsonPointerIndex(token);
+        impl->nodes.push_back(std::move(node));
+        Node& parent = impl->nodes[at];
+        parent.children.push_back(next);
+        parent.max_child_index = std::max(parent.max_child_index, impl->nodes[next].index);
+      }
+      at = next;
+    }
+    impl->nodes[at].slot = static_cast<int>(s);
+  }
+  return std::unique_ptr<NdjsonReader>(new NdjsonReader(std::move(impl)));
+}
+
+Status NdjsonReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
+  ReadStats local;
+  ReadStats& st = stats != nullptr ? *stats : local;
+  st = ReadStats{};
+  Impl& im = *impl_;
+  im.chunk.Reset();
+  uint64_t line = 0;
+  for (;;) {
+    Result<size_t> filled = im.chunk.Fill(src);
+    st.raw_bytes = im.chunk.total_read();
+    if (!filled.ok()) {
+      if (!im.chunk.over_limit()) return filled.status();
+      return filled.status().WithContext("line " + std::to_string(line + 1));  // the record too long
+    }
+    const char* p = im.chunk.data();
+    const char* end = p + im.chunk.size();
+    const bool last = im.chunk.eof();
+    while (p < end) {
+      const char* nl = static_cast<const char*>(std::memchr(p, '\n', static_cast<size_t>(end - p)));
+      if (nl == nullptr) {
+        if (!last) break;  // an incomplete line: keep it for the next chunk
+        nl = end;
+      }
+      ++line;
+      if (!im.OnLine(p, static_cast<size_t>(nl - p), line, sink, st)) return Status::Ok();
+      p = nl == end ? end : nl + 1;
+    }
+    if (last) return Status::Ok();
+    im.chunk.Consume(static_cast<size_t>(p - im.chunk.data()));
+  }
+}
+
+}  // namespace fanfold

@@ -1,0 +1,43 @@
+// NdjsonReader: reads NDJSON (one JSON object per line) from a ByteSource and
+// fills the raw slots of a FieldTable, whose raw fields are JSON Pointers
+// (RFC 6901), then hands each well-formed record to a RecordSink. Pointers
+// are compiled once into a token trie; each line is parsed once (simdjson
+// DOM, every value validated) and walked only where a pointer leads. One
+// reader per thread; reusable across sources (build it once per worker).
+#pragma once
+
+#include <cstddef>
+#include <memory>
+
+#include "common/input/byte_source.h"
+#include "common/input/chunk_buffer.h"
+#include "common/input/field_table.h"
+#include "common/input/record_reader.h"
+#include "common/base/status.h"
+
+namespace fanfold {
+
+class NdjsonReader {
+ public:
+  // Builds a reader for `fields`. Returns InvalidArgument iff a raw field is
+  // not a JSON Pointer or is "" (the whole document, not supported).
+  static Result<std::unique_ptr<NdjsonReader>> Create(const FieldTable& fields,
+                                                      const ChunkOptions& options = {});
+  ~NdjsonReader();
+  NdjsonReader(const NdjsonReader&) = delete;
+  NdjsonReader& operator=(const NdjsonReader&) = delete;
+
+  // Reads every record of src as ReadRecords does (common/input/record_reader.h).
+  // A record is well formed iff its line is one complete JSON object; empty
+  // and whitespace-only lines are skipped without counting. With duplicate
+  // keys the first occurrence wins. *stats (may be null) is overwritten.
+  // A line longer than options.max_record_bytes is an error (Corrupt).
+  Status Read(ByteSource& src, RecordSink& sink, ReadStats* stats);
+
+ private:
+  struct Impl;
+  explicit NdjsonReader(std::unique_ptr<Impl> impl);
+  std::unique_ptr<Impl> impl_;  // keeps simdjson.h out of this header
+};
+
+}  // namespace fanfold

@@ -1,0 +1,70 @@
+// ReadRecords: turns a shard's decompressed byte stream into records. For
+// each well-formed record it fills the raw-field slots of a FieldTable (the
+// rest stay Missing) and calls the sink; malformed records are skipped,
+// counted, and the first few kept as samples with their line numbers.
+// NDJSON: one JSON value per line, fields by JSON Pointer (RFC 6901).
+// CSV/TSV: header row, RFC 4180 quoting, fields by column name; an empty
+// cell is Missing. Strings in slots stay valid only during the sink call.
+#pragma once
+
+#include <cstdint>
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "common/input/byte_source.h"
+#include "common/input/field_table.h"
+#include "common/base/status.h"
+#include "common/base/value.h"
+
+namespace fanfold {
+
+enum class RecordFormat { kNdjson, kCsv, kTsv };
+
+struct MalformedSample {
+  uint64_t line = 0;   // 1-based line where the record starts
+  std::string reason;  // e.g. "unclosed string", "expected 7 fields, found 6"
+};
+
+struct ReadStats {
+  static constexpr size_t kMaxSamples = 5;
+  uint64_t records = 0;    // well-formed records passed to the sink
+  uint64_t malformed = 0;  // records skipped as malformed
+  uint64_t raw_bytes = 0;  // decompressed bytes read
+  std::vector<MalformedSample> samples;  // the first kMaxSamples malformed
+};
+
+class RecordSink {
+ public:
+  virtual ~RecordSink() = default;
+  // slots has fields.size() entries. Return false to stop reading early.
+  virtual bool OnRecord(Value* slots) = 0;
+};
+
+// Reads every record of src. Returns an error for an unreadable/corrupt
+// stream, or (CSV/TSV) a referenced column missing from the header; records
+// read before the error have already reached the sink.
+Status ReadRecords(RecordFormat format, ByteSource& src, const FieldTable& fields, RecordSink& sink,
+                   ReadStats* stats);
+
+class NdjsonReader;
+class CsvReader;
+
+// RecordReader: ReadRecords for many shards in a row, keeping the reader's
+// buffers and parser between them (a worker processes thousands of tiny
+// shards; each new reader would allocate megabytes). Not thread-safe.
+class RecordReader {
+ public:
+  // fields must outlive the reader.
+  static Result<std::unique_ptr<RecordReader>> Create(RecordFormat format, const FieldTable& fields);
+  ~RecordReader();
+  // As ReadRecords.
+  Status Read(ByteSource& src, RecordSink& sink, ReadStats* stats);
+
+ private:
+  RecordReader() = default;
+  std::unique_ptr<NdjsonReader> ndjson_;
+  std::unique_ptr<CsvReader> csv_;
+};
+
+}  // namespace fanfold

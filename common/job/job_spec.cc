@@ -1,0 +1,386 @@
+#include "common/job/job_spec.h"
+
+#include <cmath>
+#include <filesystem>
+#include <fstream>
+#include <map>
+#include <set>
+#include <sstream>
+
+#include <nlohmann/json.hpp>
+
+#include "common/base/json_location.h"
+
+namespace fanfold {
+namespace {
+
+using nlohmann::json;
+
+const char* TypeName(const json& v) {
+  switch (v.type()) {
+    case json::value_t::null: return "null";
+    case json::value_t::boolean: return "a boolean";
+    case json::value_t::number_integer:
+    case json::value_t::number_unsigned: return "an integer";
+    case json::value_t::number_float: return "a number";
+    case json::value_t::string: return "a string";
+    case json::value_t::array: return "an array";
+    case json::value_t::object: return "an object";
+    default: return "a value";
+  }
+}
+
+// Short rendering of a found value for messages.
+std::string Found(const json& v) {
+  if (v.is_string() || v.is_number() || v.is_boolean()) {
+    std::string s = v.dump();
+    if (s.size() > 60) s = s.substr(0, 57) + "...";
+    return s + " (" + TypeName(v) + ")";
+  }
+  return TypeName(v);
+}
+
+// Walks a job document, recording the first error with its location.
+class Checker {
+ public:
+  explicit Checker(std::string file) : file_(std::move(file)) {}
+
+  Status Error(const std::string& pointer, const std::string& found, const std::string& expected) {
+    return Status::InvalidArgument(file_ + ": " + (pointer.empty() ? "(top level)" : pointer) +
+                                   ": found " + found + "; expected " + expected);
+  }
+
+  // Fails iff obj has a key outside `allowed`.
+  Status OnlyKeys(const json& obj, const std::string& pointer, const std::set<std::string>& allowed) {
+    for (auto it = obj.begin(); it != obj.end(); ++it) {
+      if (allowed.count(it.key())) continue;
+      std::string list;
+      for (const auto& k : allowed) list += (list.empty() ? "" : ", ") + k;
+      return Error(ChildPointer(pointer, it.key()), "unknown key \"" + it.key() + "\"",
+                   "one of: " + list);
+    }
+    return Status::Ok();
+  }
+
+  Status String(const json& v, const std::string& p, std::string* out, bool nonempty = true) {
+    if (!v.is_string()) return Error(p, Found(v), "a string");
+    *out = v.get<std::string>();
+    if (nonempty && out->empty()) return Error(p, "an empty string", "a non-empty string");
+    return Status::Ok();
+  }
+
+  Status Number(const json& v, const std::string& p, double lo, double hi, bool open, double* out) {
+    if (!v.is_number()) return Error(p, Found(v), "a number");
+    double d = v.get<double>();
+    bool in = open ? (d > lo && d < hi) : (d >= lo && d <= hi);
+    if (!in || !std::isfinite(d)) {
+      std::ostringstream range;
+      range << "a number in " << (open ? "(" : "[") << lo << ", " << hi << (open ? ")" : "]");
+      return Error(p, Found(v), range.str());
+    }
+    *out = d;
+    return Status::Ok();
+  }
+
+  Status Integer(const json& v, const std::string& p, uint64_t lo, uint64_t hi, uint64_t* out) {
+    if (!v.is_number_integer() || (v.is_number_integer() && !v.is_number_unsigned() && v.get<int64_t>() < 0) ||
+        v.get<uint64_t>() < lo || v.get<uint64_t>() > hi) {
+      return Error(p, Found(v), "an integer in [" + std::to_string(lo) + ", " + std::to_string(hi) + "]");
+    }
+    *out = v.get<uint64_t>();
+    return Status::Ok();
+  }
+
+ private:
+  std::string file_;
+};
+
+const std::map<std::string, MeasureKind>& FnTable() {
+  static const std::map<std::string, MeasureKind> table = {
+      {"count", MeasureKind::kCount},
+      {"count_present", MeasureKind::kCountPresent},
+      {"sum", MeasureKind::kSum},
+      {"mean", MeasureKind::kMean},
+      {"variance", MeasureKind::kVariance},
+      {"stddev", MeasureKind::kStddev},
+      {"min", MeasureKind::kMin},
+      {"max", MeasureKind::kMax},
+      {"quantile", MeasureKind::kQuantile},
+      {"approx_quantile", MeasureKind::kApproxQuantile},
+      {"distinct", MeasureKind::kDistinct},
+      {"approx_distinct", MeasureKind::kApproxDistinct},
+      {"top", MeasureKind::kTop},
+      {"first", MeasureKind::kFirst},
+      {"last", MeasureKind::kLast},
+  };
+  return table;
+}
+
+Status ParseInputs(Checker& c, const json& in, JobSpec* job) {
+  const std::string p = "/inputs";
+  if (!in.is_object()) return c.Error(p, Found(in), "an object with \"files\"");
+  FF_RETURN_IF_ERROR(c.OnlyKeys(in, p, {"files", "format", "bad_record_limit", "chunk_bytes"}));
+  if (!in.contains("files")) return c.Error(p, "no \"files\"", "\"files\": a list of paths or patterns");
+  const json& files = in["files"];
+  if (files.is_string()) return c.Error(p + "/files", Found(files), "an array of strings (wrap it in [ ])");
+  if (!files.is_array() || files.empty()) return c.Error(p + "/files", Found(files), "a non-empty array of strings");
+  for (size_t i = 0; i < files.size(); ++i) {
+    std::string f;
+    FF_RETURN_IF_ERROR(c.String(files[i], ChildPointer(p + "/files", i), &f));
+    job->files.push_back(f);
+  }
+  if (in.contains("format")) {
+    std::string f;
+    FF_RETURN_IF_ERROR(c.String(in["format"], p + "/format", &f));
+    RecordFormat fmt;
+    if (!FormatFromText(f, &fmt)) return c.Error(p + "/format", Found(in["format"]), "\"ndjson\", \"csv\" or \"tsv\"");
+    job->format = fmt;
+  }
+  if (in.contains("bad_record_limit")) {
+    double d = 0;
+    FF_RETURN_IF_ERROR(c.Number(in["bad_record_limit"], p + "/bad_record_limit", 0, 1, false, &d));
+    job->bad_record_limit = d;
+  }
+  if (in.contains("chunk_bytes")) {
+    FF_RETURN_IF_ERROR(c.Integer(in["chunk_bytes"], p + "/chunk_bytes", 1 << 16, uint64_t{1} << 40, &job->chunk_bytes));
+  }
+  return Status::Ok();
+}
+
+Status ParseMeasure(Checker& c, const json& m, const std::string& p, MeasureSpec* out) {
+  if (!m.is_object()) return c.Error(p, Found(m), "an object with \"name\" and \"fn\"");
+  FF_RETURN_IF_ERROR(c.OnlyKeys(m, p, {"name", "fn", "of", "by", "at", "alpha", "precision", "k", "limit"}));
+  if (!m.contains("name")) return c.Error(p, "no \"name\"", "\"name\": the result column's name");
+  FF_RETURN_IF_ERROR(c.String(m["name"], p + "/name", &out->name));
+  if (!m.contains("fn")) return c.Error(p, "no \"fn\"", "\"fn\": the measure, e.g. \"count\" or \"sum\"");
+  FF_RETURN_IF_ERROR(c.String(m["fn"], p + "/fn", &out->fn));
+  auto it = FnTable().find(out->fn);
+  if (it == FnTable().end()) {
+    std::string list;
+    for (const auto& [name, kind] : FnTable()) list += (list.empty() ? "" : ", ") + name;
+    return c.Error(p + "/fn", Found(m["fn"]), "one of: " + list);
+  }
+  MeasureConfig& cfg = out->config;
+  cfg.kind = it->second;
+  const int args = MeasureArgCount(cfg.kind);
+  auto allow = [&](const char* key, bool allowed) -> Status {
+    if (m.contains(key) && !allowed)
+      return c.Error(ChildPointer(p, key), "\"" + std::string(key) + "\"",
+                     "no \"" + std::string(key) + "\" for fn \"" + out->fn + "\"");
+    return Status::Ok();
+  };
+  const bool quantile = cfg.kind == MeasureKind::kQuantile || cfg.kind == MeasureKind::kApproxQuantile;
+  const bool bounded = cfg.kind == MeasureKind::kQuantile || cfg.kind == MeasureKind::kDistinct ||
+                       cfg.kind == MeasureKind::kTop;
+  FF_RETURN_IF_ERROR(allow("of", args >= 1));
+  FF_RETURN_IF_ERROR(allow("by", args >= 2));
+  FF_RETURN_IF_ERROR(allow("at", quantile));
+  FF_RETURN_IF_ERROR(allow("alpha", cfg.kind == MeasureKind::kApproxQuantile));
+  FF_RETURN_IF_ERROR(allow("precision", cfg.kind == MeasureKind::kApproxDistinct));
+  FF_RETURN_IF_ERROR(allow("k", cfg.kind == MeasureKind::kTop));
+  FF_RETURN_IF_ERROR(allow("limit", bounded));
+  if (args >= 1) {
+    if (!m.contains("of")) return c.Error(p, "no \"of\"", "\"of\": the expression fn \"" + out->fn + "\" reads");
+    FF_RETURN_IF_ERROR(c.String(m["of"], p + "/of", &out->of));
+  }
+  if (args >= 2) {
+    if (!m.contains("by")) return c.Error(p, "no \"by\"", "\"by\": the ordering expression for \"" + out->fn + "\"");
+    FF_RETURN_IF_ERROR(c.String(m["by"], p + "/by", &out->by));
+  }
+  if (quantile) {
+    if (!m.contains("at")) return c.Error(p, "no \"at\"", "\"at\": a list of probabilities in [0, 1]");
+    const json& at = m["at"];
+    if (!at.is_array() || at.empty() || at.size() > 64)
+      return c.Error(p + "/at", Found(at), "an array of 1 to 64 probabilities in [0, 1]");
+    for (size_t i = 0; i < at.size(); ++i) {
+      double q = 0;
+      FF_RETURN_IF_ERROR(c.Number(at[i], ChildPointer(p + "/at", i), 0, 1, false, &q));
+      cfg.probabilities.push_back(q);
+    }
+  }
+  // Below 0.001 the sketch folds its lowest buckets early and loses its bound.
+  if (m.contains("alpha")) FF_RETURN_IF_ERROR(c.Number(m["alpha"], p + "/alpha", 0.001, 0.5, false, &cfg.alpha));
+  if (m.contains("precision")) {
+    uint64_t prec = 0;
+    FF_RETURN_IF_ERROR(c.Integer(m["precision"], p + "/precision", 4, 18, &prec));
+    cfg.precision = static_cast<int>(prec);
+  }
+  if (m.contains("k")) {
+    uint64_t k = 0;
+    FF_RETURN_IF_ERROR(c.Integer(m["k"], p + "/k", 1, 100000, &k));
+    cfg.k = static_cast<uint32_t>(k);
+  }
+  if (m.contains("limit")) FF_RETURN_IF_ERROR(c.Integer(m["limit"], p + "/limit", 1, uint64_t{1} << 32, &cfg.limit));
+  if (cfg.kind == MeasureKind::kTop && cfg.limit < cfg.k)
+    return c.Error(p + "/limit", Found(m["limit"]), "a limit of at least k (" + std::to_string(cfg.k) + ")");
+  return Status::Ok();
+}
+
+Status ParseEmit(Checker& c, const json& e, JobSpec* job) {
+  const std::string p = "/emit";
+  if (!e.is_object()) return c.Error(p, Found(e), "an object");
+  FF_RETURN_IF_ERROR(c.OnlyKeys(e, p, {"format", "path", "order", "limit"}));
+  EmitSpec& emit = job->emit;
+  if (e.contains("format")) {
+    std::string f;
+    FF_RETURN_IF_ERROR(c.String(e["format"], p + "/format", &f));
+    if (f == "csv") emit.format = OutputFormat::kCsv;
+    else if (f == "json") emit.format = OutputFormat::kJson;
+    else if (f == "ndjson") emit.format = OutputFormat::kNdjson;
+    else if (f == "table") emit.format = OutputFormat::kTable;
+    else return c.Error(p + "/format", Found(e["format"]), "\"csv\", \"json\", \"ndjson\" or \"table\"");
+  }
+  if (e.contains("path")) FF_RETURN_IF_ERROR(c.String(e["path"], p + "/path", &emit.path));
+  if (e.contains("order")) {
+    const json& order = e["order"];
+    if (!order.is_array()) return c.Error(p + "/order", Found(order), "an array of {\"by\": column, \"desc\": bool}");
+    for (size_t i = 0; i < order.size(); ++i) {
+      const std::string op = ChildPointer(p + "/order", i);
+      const json& o = order[i];
+      if (!o.is_object()) return c.Error(op, Found(o), "an object {\"by\": column, \"desc\": bool}");
+      FF_RETURN_IF_ERROR(c.OnlyKeys(o, op, {"by", "desc"}));
+      OrderSpec spec;
+      if (!o.contains("by")) return c.Error(op, "no \"by\"", "\"by\": an output column name");
+      FF_RETURN_IF_ERROR(c.String(o["by"], op + "/by", &spec.by));
+      if (o.contains("desc")) {
+        if (!o["desc"].is_boolean()) return c.Error(op + "/desc", Found(o["desc"]), "true or false");
+        spec.descending = o["desc"].get<bool>();
+      }
+      emit.order.push_back(spec);
+    }
+  }
+  if (e.contains("limit")) {
+    uint64_t n = 0;
+    FF_RETURN_IF_ERROR(c.Integer(e["limit"], p + "/limit", 0, UINT64_MAX >> 1, &n));
+    emit.limit = n;
+  }
+  return Status::Ok();
+}
+
+// "line L, column C" for a byte offset into text (1-based).
+std::string LineColumn(std::string_view text, size_t byte) {
+  size_t line = 1, col = 1;
+  for (size_t i = 0; i < byte && i < text.size(); ++i) {
+    if (text[i] == '\n') {
+      ++line;
+      col = 1;
+    } else {
+      ++col;
+    }
+  }
+  return "line " + std::to_string(line) + ", column " + std::to_string(col);
+}
+
+}  // namespace
+
+Result<JobSpec> ParseJobSpec(std::string_view text, const std::string& job_path) {
+  json doc = json::parse(text, nullptr, /*allow_exceptions=*/false, /*ignore_comments=*/false);
+  if (doc.is_discarded()) {
+    // Re-parse with exceptions only to learn where it broke.
+    try {
+      const json thrown_away = json::parse(text);  // GCC warns on a (void) cast of [[nodiscard]]
+      (void)thrown_away;
+    } catch (const json::parse_error& e) {
+      std::string what = e.what();
+      auto pos = what.find("error while parsing");
+      return Status::InvalidArgument(job_path + ": not valid JSON at " + LineColumn(text, e.byte > 0 ? e.byte - 1 : 0) +
+                                     (pos == std::string::npos ? "" : ": " + what.substr(pos)));
+    } catch (const json::exception& e) {  // e.g. out_of_range 406: a number too large for a double
+      std::string what = e.what();
+      auto pos = what.find("] ");
+      return Status::InvalidArgument(job_path + ": not valid JSON: " +
+                                     (pos == std::string::npos ? what : what.substr(pos + 2)));
+    }
+    return Status::InvalidArgument(job_path + ": not valid JSON");
+  }
+  Checker c(job_path);
+  JobSpec job;
+  job.job_path = job_path;
+  std::filesystem::path base = std::filesystem::path(job_path).parent_path();
+  job.base_dir = base.empty() ? "." : base.string();
+  if (!doc.is_object()) return c.Error("", Found(doc), "a JSON object with \"inputs\" and \"measures\"");
+  FF_RETURN_IF_ERROR(c.OnlyKeys(doc, "", {"about", "inputs", "keep", "derive", "group", "measures", "emit"}));
+  if (doc.contains("about")) FF_RETURN_IF_ERROR(c.String(doc["about"], "/about", &job.about, false));
+  if (!doc.contains("inputs")) return c.Error("", "no \"inputs\"", "\"inputs\": {\"files\": [...]}");
+  FF_RETURN_IF_ERROR(ParseInputs(c, doc["inputs"], &job));
+  if (doc.contains("keep")) FF_RETURN_IF_ERROR(c.String(doc["keep"], "/keep", &job.keep));
+  if (doc.contains("derive")) {
+    const json& d = doc["derive"];
+    if (!d.is_array()) return c.Error("/derive", Found(d), "an array of {\"name\": ..., \"expr\": ...}");
+    for (size_t i = 0; i < d.size(); ++i) {
+      const std::string p = ChildPointer("/derive", i);
+      if (!d[i].is_object()) return c.Error(p, Found(d[i]), "an object {\"name\": ..., \"expr\": ...}");
+      FF_RETURN_IF_ERROR(c.OnlyKeys(d[i], p, {"name", "expr"}));
+      DeriveSpec spec;
+      if (!d[i].contains("name")) return c.Error(p, "no \"name\"", "\"name\": an identifier");
+      FF_RETURN_IF_ERROR(c.String(d[i]["name"], p + "/name", &spec.name));
+      if (!d[i].contains("expr")) return c.Error(p, "no \"expr\"", "\"expr\": an expression");
+      FF_RETURN_IF_ERROR(c.String(d[i]["expr"], p + "/expr", &spec.expr));
+      job.derive.push_back(spec);
+    }
+  }
+  if (doc.contains("group")) {
+    const json& g = doc["group"];
+    if (!g.is_array()) return c.Error("/group", Found(g), "an array of expressions");
+    for (size_t i = 0; i < g.size(); ++i) {
+      std::string e;
+      FF_RETURN_IF_ERROR(c.String(g[i], ChildPointer("/group", i), &e));
+      job.group.push_back(e);
+    }
+  }
+  if (!doc.contains("measures")) return c.Error("", "no \"measures\"", "\"measures\": a list of measures");
+  const json& ms = doc["measures"];
+  if (!ms.is_array() || ms.empty()) return c.Error("/measures", Found(ms), "a non-empty array of measures");
+  for (size_t i = 0; i < ms.size(); ++i) {
+    MeasureSpec spec;
+    FF_RETURN_IF_ERROR(ParseMeasure(c, ms[i], ChildPointer("/measures", i), &spec));
+    job.measures.push_back(std::move(spec));
+  }
+  if (doc.contains("emit")) FF_RETURN_IF_ERROR(ParseEmit(c, doc["emit"], &job));
+  return job;
+}
+
+Result<JobSpec> LoadJobSpec(const std::string& path) {
+  std::ifstream in(path, std::ios::binary);
+  if (!in) return Status::InvalidArgument("cannot read job file '" + path + "'");
+  std::stringstream ss;
+  ss << in.rdbuf();
+  return ParseJobSpec(ss.str(), path);
+}
+
+const char* MeasureFnName(MeasureKind kind) {
+  for (const auto& [name, k] : FnTable())
+    if (k == kind) return name.c_str();
+  return "?";
+}
+
+const char* FormatName(RecordFormat f) {
+  switch (f) {
+    case RecordFormat::kNdjson: return "ndjson";
+    case RecordFormat::kCsv: return "csv";
+    case RecordFormat::kTsv: return "tsv";
+  }
+  return "?";
+}
+
+bool FormatFromText(const std::string& text, RecordFormat* out) {
+  for (RecordFormat f : {RecordFormat::kNdjson, RecordFormat::kCsv, RecordFormat::kTsv}) {
+    if (text == FormatName(f)) {
+      *out = f;
+      return true;
+    }
+  }
+  return false;
+}
+
+const char* OutputFormatName(OutputFormat f) {
+  switch (f) {
+    case OutputFormat::kCsv: return "csv";
+    case OutputFormat::kJson: return "json";
+    case OutputFormat::kNdjson: return "ndjson";
+    case OutputFormat::kTable: return "table";
+  }
+  return "?";
+}
+
+}  // namespace fanfold

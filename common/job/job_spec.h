@@ -1,0 +1,77 @@
+// JobSpec: a job file as written — inputs, filter, derived fields, group
+// keys, measures and output options — validated for shape and types but with
+// expressions still as text (Plan compiles them). Errors name the job file
+// and the JSON Pointer (RFC 6901) of the offending value, say what was found
+// and what was expected. The schema is documented in docs/job-file.md.
+// Plain data; thread-compatible.
+#pragma once
+
+#include <cstdint>
+#include <optional>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "common/measures/measure.h"
+#include "common/input/record_reader.h"
+#include "common/base/status.h"
+
+namespace fanfold {
+
+enum class OutputFormat { kCsv, kJson, kNdjson, kTable };
+
+struct DeriveSpec {
+  std::string name;
+  std::string expr;
+};
+
+struct MeasureSpec {
+  std::string name;
+  std::string fn;      // the job file's name for config.kind, e.g. "approx_quantile"
+  MeasureConfig config;
+  std::string of;      // argument expression ("" for count)
+  std::string by;      // ordering expression (first/last only)
+};
+
+struct OrderSpec {
+  std::string by;      // an output column name
+  bool descending = false;
+};
+
+struct EmitSpec {
+  OutputFormat format = OutputFormat::kTable;
+  std::string path;    // "" = stdout; relative paths are relative to the job file
+  std::vector<OrderSpec> order;
+  std::optional<uint64_t> limit;
+};
+
+struct JobSpec {
+  std::string job_path;   // as given by the user
+  std::string base_dir;   // directory that relative paths start from
+  std::string about;
+  std::vector<std::string> files;   // patterns and paths, as written
+  std::optional<RecordFormat> format;  // absent = inferred per file name
+  std::optional<double> bad_record_limit;
+  uint64_t chunk_bytes = 0;         // 0 = never cut files into chunks
+  std::string keep;                 // "" = keep every record
+  std::vector<DeriveSpec> derive;
+  std::vector<std::string> group;
+  std::vector<MeasureSpec> measures;
+  EmitSpec emit;
+};
+
+// Parses the text of a job file. job_path is used in messages and for
+// base_dir.
+Result<JobSpec> ParseJobSpec(std::string_view json_text, const std::string& job_path);
+
+// Reads and parses the job file at path.
+Result<JobSpec> LoadJobSpec(const std::string& path);
+
+// The job file's name for a measure kind ("count", "approx_quantile", ...).
+const char* MeasureFnName(MeasureKind kind);
+const char* FormatName(RecordFormat f);
+// Inverse of FormatName; returns false iff text names no format.
+bool FormatFromText(const std::string& text, RecordFormat* out);
+const char* OutputFormatName(OutputFormat f);
+
+}  // namespace fanfold

@@ -1,0 +1,61 @@
+// Plan: a validated JobSpec compiled for execution — the field table, the
+// filter, derived fields, group-key expressions and measures with their
+// argument expressions, the output column names, and the plan fingerprint
+// that ties partial states and run directories to this exact computation.
+// Built once (by the coordinator and by each worker from the same job file),
+// then read-only; share freely between threads.
+#pragma once
+
+#include <cstdint>
+#include <memory>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "common/expr/expr.h"
+#include "common/input/field_table.h"
+#include "common/job/job_spec.h"
+#include "common/input/record_reader.h"
+#include "common/base/status.h"
+
+namespace fanfold {
+
+struct CompiledDerive {
+  int slot = -1;
+  Expr expr;
+};
+
+struct CompiledMeasure {
+  std::string name;
+  MeasureConfig config;
+  std::vector<Expr> args;            // MeasureArgCount(config.kind) expressions
+  std::vector<std::string> columns;  // output column names
+};
+
+struct Plan {
+  JobSpec spec;
+  RecordFormat format = RecordFormat::kNdjson;
+  FieldTable fields;
+  std::optional<Expr> keep;
+  std::vector<CompiledDerive> derive;
+  // Which derived fields to evaluate, as indices into `derive` in order:
+  // those the filter needs (before it), then those only the keys and
+  // measures need (for kept records only). Unused ones are never evaluated.
+  std::vector<size_t> derive_before_keep;
+  std::vector<size_t> derive_after_keep;
+  std::vector<Expr> group;                 // one expression per key
+  std::vector<std::string> group_columns;  // their output names
+  std::vector<CompiledMeasure> measures;
+  std::vector<std::string> columns;        // every output column, in order
+  uint64_t fingerprint = 0;
+};
+
+// Compiles spec for records of `format`. Expression errors name the job file
+// and the JSON Pointer of the expression plus the column inside it.
+Result<std::unique_ptr<Plan>> CompilePlan(JobSpec spec, RecordFormat format);
+
+// A stable, human-readable description of everything the fingerprint
+// covers (format, filter, derived fields, keys, measures, codec version).
+std::string PlanCanonicalText(const Plan& plan);
+
+}  // namespace fanfold

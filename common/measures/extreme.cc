@@ -1,0 +1,41 @@
+#include "common/measures/extreme.h"
+
+#include <bit>
+
+namespace fanfold {
+
+Status ExtremeState::Merge(const MeasureState& other) {
+  const auto* o = dynamic_cast<const ExtremeState*>(&other);
+  if (o == nullptr || o->is_max_ != is_max_)
+    return Status::Internal("min/max: merge with a state of another measure");
+  if (o->has_) Offer(o->value_);
+  skipped_ += o->skipped_;
+  return Status::Ok();
+}
+
+void ExtremeState::Encode(ByteWriter& w) const {
+  w.Varint(skipped_);
+  w.U8(has_ ? 1 : 0);
+  if (has_) w.F64(value_);
+}
+
+Status ExtremeState::Decode(ByteReader& r) {
+  const uint64_t skipped = r.Varint();
+  const uint8_t has = r.U8();
+  double value = 0;
+  if (has == 1) value = r.F64();
+  if (!r.ok() || has > 1) return Status::Corrupt("min/max: bad or truncated state");
+  // Add never stores NaN or -0.0 (see the header), so neither can be ours.
+  if (std::isnan(value) || std::bit_cast<uint64_t>(value) == std::bit_cast<uint64_t>(-0.0))
+    return Status::Corrupt("min/max: non-canonical value");
+  skipped_ = skipped;
+  has_ = has == 1;
+  value_ = value;
+  return Status::Ok();
+}
+
+void ExtremeState::Finalize(std::vector<Cell>* out) const {
+  out->push_back(has_ ? Cell::Float(value_) : Cell::Null());
+}
+
+}  // namespace fanfold

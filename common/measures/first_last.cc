@@ -1,0 +1,144 @@
+#include "common/measures/first_last.h"
+
+#include <cmath>
+
+namespace fanfold {
+
+int FirstLastState::CompareKeys(ValueKind a_kind, double a_num, std::string_view a_str,
+                                const Slot& b) {
+  if (a_kind != b.kind) return a_kind == ValueKind::kNumber ? -1 : 1;  // numbers first
+  if (a_kind == ValueKind::kNumber) return a_num < b.number ? -1 : (a_num > b.number ? 1 : 0);
+  const int c = a_str.compare(b.str);
+  return c < 0 ? -1 : (c > 0 ? 1 : 0);
+}
+
+bool FirstLastState::Add(const Value* args) {
+  const Value& value = args[0];
+  const Value& key = args[1];
+  double key_num = 0;
+  ValueKind key_kind;
+  if (key.AsNumber(&key_num)) {
+    if (std::isnan(key_num)) {
+      ++skipped_;
+      return true;
+    }
+    key_kind = ValueKind::kNumber;
+    if (key_num == 0) key_num = 0.0;  // -0.0 and 0.0 are one key
+  } else if (key.kind == ValueKind::kString) {
+    key_kind = ValueKind::kString;
+  } else {
+    ++skipped_;
+    return true;
+  }
+  if (value.kind != ValueKind::kString && value.kind != ValueKind::kNumber &&
+      value.kind != ValueKind::kBool) {
+    ++skipped_;
+    return true;
+  }
+  if (!Takes(has_ ? CompareKeys(key_kind, key_num, key.str, key_) : 0)) return true;
+  // assign() reuses the strings' capacity: a warm state allocates nothing.
+  key_.kind = key_kind;
+  key_.number = key_num;
+  if (key_kind == ValueKind::kString) key_.str.assign(key.str.data(), key.str.size());
+  value_.kind = value.kind;
+  value_.boolean = value.boolean;
+  value_.number = value.number;
+  if (value.kind == ValueKind::kString) value_.str.assign(value.str.data(), value.str.size());
+  has_ = true;
+  return true;
+}
+
+Status FirstLastState::Merge(const MeasureState& other) {
+  const auto* o = dynamic_cast<const FirstLastState*>(&other);
+  if (o == nullptr || o->is_last_ != is_last_)
+    return Status::Internal("first/last: merge with a state of another measure");
+  skipped_ += o->skipped_;
+  if (!o->has_) return Status::Ok();
+  if (Takes(has_ ? CompareKeys(o->key_.kind, o->key_.number, o->key_.str, key_) : 0)) {
+    key_ = o->key_;
+    value_ = o->value_;
+    has_ = true;
+  }
+  return Status::Ok();
+}
+
+void FirstLastState::EncodeSlot(const Slot& s, ByteWriter& w) {
+  switch (s.kind) {
+    case ValueKind::kBool:
+      w.U8('b');
+      w.U8(s.boolean ? 1 : 0);
+      break;
+    case ValueKind::kNumber:
+      w.U8('n');
+      w.F64(s.number);
+      break;
+    default:
+      w.U8('s');
+      w.Str(s.str);
+      break;
+  }
+}
+
+bool FirstLastState::DecodeSlot(ByteReader& r, bool allow_bool, Slot* s) {
+  const uint8_t tag = r.U8();
+  if (!r.ok()) return false;
+  if (tag == 'b' && allow_bool) {
+    const uint8_t b = r.U8();
+    if (!r.ok() || b > 1) return false;
+    s->kind = ValueKind::kBool;
+    s->boolean = b == 1;
+  } else if (tag == 'n') {
+    s->kind = ValueKind::kNumber;
+    s->number = r.F64();
+  } else if (tag == 's') {
+    s->kind = ValueKind::kString;
+    s->str.assign(r.Str());
+  } else {
+    return false;
+  }
+  return r.ok();
+}
+
+void FirstLastState::Encode(ByteWriter& w) const {
+  w.Varint(skipped_);
+  w.U8(has_ ? 1 : 0);
+  if (!has_) return;
+  EncodeSlot(key_, w);
+  EncodeSlot(value_, w);
+}
+
+Status FirstLastState::Decode(ByteReader& r) {
+  // Built only on failure: a Status holds a heap string, and this runs per state.
+  auto corrupt = [] { return Status::Corrupt("first/last: bad or truncated state"); };
+  const uint64_t skipped = r.Varint();
+  const uint8_t has = r.U8();
+  if (!r.ok() || has > 1) return corrupt();
+  Slot key, value;
+  if (has == 1) {
+    if (!DecodeSlot(r, /*allow_bool=*/false, &key) || !DecodeSlot(r, /*allow_bool=*/true, &value))
+      return corrupt();
+    // Add never keeps a NaN key, nor -0.0 (it stores 0.0).
+    if (key.kind == ValueKind::kNumber && (std::isnan(key.number) ||
+                                           (std::signbit(key.number) && key.number == 0)))
+      return corrupt();
+  }
+  skipped_ = skipped;
+  has_ = has == 1;
+  key_ = std::move(key);
+  value_ = std::move(value);
+  return Status::Ok();
+}
+
+void FirstLastState::Finalize(std::vector<Cell>* out) const {
+  if (!has_) {
+    out->push_back(Cell::Null());
+    return;
+  }
+  switch (value_.kind) {
+    case ValueKind::kBool: out->push_back(Cell::Bool(value_.boolean)); break;
+    case ValueKind::kNumber: out->push_back(Cell::Float(value_.number)); break;
+    default: out->push_back(Cell::String(value_.str)); break;
+  }
+}
+
+}  // namespace fanfold

@@ -1,0 +1,108 @@
+// Measure: the mergeable state behind one named result column (count, sum,
+// mean, quantiles, distinct counts, top-k, first/last ...). A worker makes one
+// state per group per measure, feeds it records with Add(), encodes it into
+// the shard's partial state; the coordinator decodes states and folds them in
+// shard order with Merge(), then Finalize()s. Merging is associative, so any
+// split of the input gives the same result (exactly for exact measures,
+// within the documented bound for sketches). States are single-threaded.
+//
+// Values that a numeric measure cannot use (missing, null, non-numeric text)
+// are skipped and counted in skipped(); the run summary reports the totals.
+#pragma once
+
+#include <cstdint>
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "common/base/byte_io.h"
+#include "common/base/cell.h"
+#include "common/base/status.h"
+#include "common/base/value.h"
+
+namespace fanfold {
+
+enum class MeasureKind : uint8_t {
+  kCount = 1,           // records in the group; no argument
+  kCountPresent,        // records whose argument is present (not missing/null)
+  kSum,                 // Neumaier-compensated sum
+  kMean,                // Welford; merge by Chan-Golub-LeVeque
+  kVariance,            // sample variance (n-1)
+  kStddev,              // sample standard deviation (n-1)
+  kMin,
+  kMax,
+  kQuantile,            // exact, Hyndman & Fan type 7; keeps values up to `limit`
+  kApproxQuantile,      // DDSketch with relative accuracy alpha
+  kDistinct,            // exact distinct count; keeps values up to `limit`
+  kApproxDistinct,      // HyperLogLog with 2^precision registers
+  kTop,                 // the k most frequent values with their counts
+  kFirst,               // value at the smallest ordering key
+  kLast,                // value at the largest ordering key
+};
+
+// Everything a state needs to know about its measure; filled by the job
+// parser (which validates ranges) and part of the plan fingerprint.
+struct MeasureConfig {
+  MeasureKind kind = MeasureKind::kCount;
+  std::vector<double> probabilities;  // kQuantile, kApproxQuantile: each in [0, 1]
+  double alpha = 0.01;                // kApproxQuantile: relative accuracy, [0.001, 0.5]
+  int precision = 12;                 // kApproxDistinct: register bits, 4..18 (2^p bytes per group)
+  uint32_t k = 10;                    // kTop: how many values to report, >= 1
+  uint64_t limit = 1'000'000;         // kQuantile, kDistinct: values kept per group; kTop: distinct values tracked
+};
+
+class MeasureState {
+ public:
+  virtual ~MeasureState() = default;
+
+  // Feeds one record. args holds the evaluated arguments: none for kCount,
+  // [value] for most, [value, ordering key] for kFirst/kLast.
+  // Returns false iff a bounded measure has just exceeded its limit; the
+  // state is then unusable and the caller fails the shard.
+  virtual bool Add(const Value* args) = 0;
+
+  // Folds `other` (same config, possibly from another shard) into this state.
+  // `other` is the later input: order-sensitive measures (first/last ties)
+  // keep this state's value on ties. Fails with LimitExceeded past a bound.
+  virtual Status Merge(const MeasureState& other) = 0;
+
+  // Appends this state's encoding (see docs/partial-state.md).
+  virtual void Encode(ByteWriter& w) const = 0;
+  // Replaces this state with one read from r. Fails (never crashes) on
+  // corrupt input.
+  virtual Status Decode(ByteReader& r) = 0;
+
+  // Reads one encoded state (Encode's bytes, from a later shard) from r
+  // and, iff apply, folds it into this state: the same result as Decode into
+  // a fresh state followed by Merge, but without building that state, which
+  // is what makes the coordinator's merge fast. With apply false it only
+  // checks the bytes and leaves this state as it was. `scratch` is a state of
+  // the same config, the default implementation's Decode target (it may be
+  // this state itself when only checking); overrides may ignore it. Fails
+  // on corrupt bytes (this state then unchanged), or when applying as Merge
+  // does.
+  virtual Status MergeEncoded(ByteReader& r, bool apply, MeasureState* scratch);
+
+  // Appends one cell per output column (see OutputColumnCount()).
+  virtual void Finalize(std::vector<Cell>* out) const = 0;
+
+  // Arguments fed that the measure could not use.
+  virtual uint64_t skipped() const = 0;
+
+  // True iff the result is no longer exact where the measure promises
+  // exactness while within its bound (top past `limit`: counts become lower
+  // bounds). The run summary says so instead of staying silent.
+  virtual bool degraded() const { return false; }
+};
+
+// Returns a new empty state for config. REQUIRES: config validated.
+std::unique_ptr<MeasureState> NewMeasureState(const MeasureConfig& config);
+
+// Number of arguments Add() expects for kind (0, 1 or 2).
+int MeasureArgCount(MeasureKind kind);
+
+// Number of cells Finalize() appends: one per probability for quantiles,
+// one otherwise.
+size_t OutputColumnCount(const MeasureConfig& config);
+
+}  // namespace fanfold

@@ -1,0 +1,56 @@
+// MomentsState: the state of `mean`, `variance` and `stddev` — the count n,
+// the running mean and M2 (sum of squared deviations from the mean), updated
+// per value by Welford's method (Technometrics 4(3), 1962) and merged by the
+// pairwise formula of Chan, Golub & LeVeque (Stanford CS-TR-79-773, 1979).
+// Both avoid the cancellation of the textbook sum-of-squares formula.
+// Single-threaded.
+#pragma once
+
+#include <cmath>
+
+#include "common/measures/measure.h"
+
+namespace fanfold {
+
+class MomentsState final : public MeasureState {
+ public:
+  // kind: kMean, kVariance or kStddev; it only chooses what Finalize emits.
+  explicit MomentsState(MeasureKind kind) : kind_(kind) {}
+
+  bool Add(const Value* args) override {
+    double x;
+    if (!args[0].AsNumber(&x) || std::isnan(x)) {
+      ++skipped_;
+      return true;
+    }
+    ++n_;
+    const double delta = x - mean_;
+    mean_ += delta / static_cast<double>(n_);
+    m2_ += delta * (x - mean_);
+    return true;
+  }
+  Status Merge(const MeasureState& other) override;
+  // Encoding: varint skipped, varint n, then iff n > 0: f64 mean, f64 M2.
+  void Encode(ByteWriter& w) const override;
+  Status Decode(ByteReader& r) override;
+  // Through a local state: no heap, no virtual calls (the same result).
+  Status MergeEncoded(ByteReader& r, bool apply, MeasureState* scratch) override;
+  // mean: Float, Null iff n = 0. variance = M2/(n-1), stddev = its square
+  // root: Float, Null iff n < 2.
+  void Finalize(std::vector<Cell>* out) const override;
+  uint64_t skipped() const override { return skipped_; }
+
+  uint64_t n() const { return n_; }
+  double mean() const { return mean_; }
+  double m2() const { return m2_; }
+
+ private:
+  void MergeSame(const MomentsState* o);  // Merge's arithmetic
+  MeasureKind kind_;
+  uint64_t n_ = 0;
+  uint64_t skipped_ = 0;
+  double mean_ = 0;
+  double m2_ = 0;
+};
+
+}  // namespace fanfold

@@ -1,0 +1,58 @@
+// ValueKey: the canonical byte form of a scalar Value used by the measures
+// that count values (distinct, approx_distinct, top). A one-byte type tag
+// keeps the number 1 and the string "1" apart; numbers are canonicalised
+// (-0.0 == 0.0, one NaN) and stored order-preserving, so comparing keys
+// bytewise orders them bool < number < string, numbers numerically, strings
+// bytewise. Free functions over caller-owned buffers; thread-safe.
+#pragma once
+
+#include <cstdint>
+#include <functional>
+#include <string>
+#include <string_view>
+
+#include "common/base/cell.h"
+#include "common/base/value.h"
+
+namespace fanfold {
+
+// Key layout (docs/measures.md):
+//   'b' u8(0|1)                      bool
+//   'n' 8 bytes, big-endian, order-preserving image of the canonical double
+//   's' the string's bytes           string (any length, may be empty)
+inline constexpr char kValueKeyBool = 'b';
+inline constexpr char kValueKeyNumber = 'n';
+inline constexpr char kValueKeyString = 's';
+
+// True iff v is a countable scalar: bool, number or string.
+inline bool IsCountable(const Value& v) {
+  return v.kind == ValueKind::kBool || v.kind == ValueKind::kNumber || v.kind == ValueKind::kString;
+}
+
+// Returns true iff v is a countable scalar (bool, number, string); then
+// replaces *out with v's key. out's capacity is reused, so a warm buffer
+// makes this allocation-free.
+bool MakeValueKey(const Value& v, std::string* out);
+
+// 64-bit hash of v's key (XXH3, seeded by the type tag so no key needs to be
+// built). REQUIRES: v is a countable scalar (MakeValueKey would succeed).
+uint64_t HashValueKey(const Value& v);
+
+// Returns true iff key is a well-formed, canonical key as MakeValueKey makes.
+bool IsValidValueKey(std::string_view key);
+
+// The output form of a key: Bool, Float or String cell.
+// REQUIRES: IsValidValueKey(key).
+Cell ValueKeyToCell(std::string_view key);
+
+// Lets hash containers keyed by std::string be probed with a string_view
+// key, so lookups of a key built in a reused buffer allocate nothing.
+struct TransparentStringHash {
+  using is_transparent = void;
+  size_t operator()(std::string_view s) const { return std::hash<std::string_view>{}(s); }
+};
+
+// Canonical double: -0.0 becomes 0.0, every NaN one quiet NaN.
+double CanonicalDouble(double d);
+
+}  // namespace fanfold

@@ -1,0 +1,111 @@
+#include "common/partial/group_table.h"
+
+#include <algorithm>
+#include <numeric>
+
+#include <xxhash.h>
+
+namespace fanfold {
+
+size_t GroupTable::Hash::operator()(std::string_view s) const { return XXH3_64bits(s.data(), s.size()); }
+
+GroupTable::GroupTable(const std::vector<MeasureConfig>* configs) : configs_(configs) {}
+
+uint32_t GroupTable::AddGroup(std::string_view key) {
+  uint32_t id = static_cast<uint32_t>(keys_.size());
+  keys_.emplace_back(key);
+  index_.emplace(std::string(key), id);
+  for (const MeasureConfig& c : *configs_) {
+    owned_.push_back(NewMeasureState(c));
+    states_.push_back(owned_.back().get());
+  }
+  return id;
+}
+
+MeasureState* const* GroupTable::FindOrAdd(std::string_view key) {
+  auto it = index_.find(key);
+  uint32_t id = it != index_.end() ? it->second : AddGroup(key);
+  return &states_[static_cast<size_t>(id) * measure_count()];
+}
+
+Status GroupTable::CheckEncoded(std::string_view encoded) { return WalkEncoded(encoded, /*apply=*/false); }
+
+Status GroupTable::MergeEncoded(std::string_view encoded) { return WalkEncoded(encoded, /*apply=*/true); }
+
+Status GroupTable::WalkEncoded(std::string_view encoded, bool apply) {
+  const size_t m = measure_count();
+  if (scratch_.empty())
+    for (const MeasureConfig& c : *configs_) scratch_.push_back(NewMeasureState(c));
+  ByteReader r(encoded);
+  // Each group needs at least a key length byte and m state length bytes.
+  const uint64_t n = r.Count(1 + m);
+  if (!r.ok()) return Status::Corrupt("group count larger than the partial state");
+  std::string_view previous;
+  for (uint64_t g = 0; g < n; ++g) {
+    const std::string_view key = r.Str();
+    if (!r.ok()) return Status::Corrupt("group " + std::to_string(g) + ": truncated key");
+    if (g > 0 && !(previous < key))
+      return Status::Corrupt("group " + std::to_string(g) + ": keys not in strictly ascending order");
+    previous = key;
+    MeasureState* const* mine = apply ? FindOrAdd(key) : nullptr;
+    for (size_t j = 0; j < m; ++j) {
+      const std::string_view bytes = r.Str();
+      if (!r.ok()) return Status::Corrupt("group " + std::to_string(g) + ": truncated measure state");
+      ByteReader sr(bytes);
+      // Checking runs in the scratch state itself: with apply false no
+      // override changes its target, and the default decodes into scratch.
+      MeasureState* target = apply ? mine[j] : scratch_[j].get();
+      Status s = target->MergeEncoded(sr, apply, scratch_[j].get());
+      if (!s.ok()) return s.WithContext("group " + std::to_string(g) + ", measure " + std::to_string(j));
+      if (!sr.at_end()) return Status::Corrupt("group " + std::to_string(g) + ", measure " + std::to_string(j) +
+                                               ": trailing bytes in measure state");
+    }
+  }
+  if (!r.at_end()) return Status::Corrupt("trailing bytes after the last group");
+  return Status::Ok();
+}
+
+void GroupTable::Encode(ByteWriter& w) const {
+  std::vector<uint32_t> order(keys_.size());
+  std::iota(order.begin(), order.end(), 0);
+  std::sort(order.begin(), order.end(), [&](uint32_t a, uint32_t b) { return keys_[a] < keys_[b]; });
+  w.Varint(keys_.size());
+  std::string scratch;
+  for (uint32_t g : order) {
+    w.Str(keys_[g]);
+    for (size_t j = 0; j < measure_count(); ++j) {
+      scratch.clear();
+      ByteWriter sw(&scratch);
+      states_[g * measure_count() + j]->Encode(sw);
+      w.Str(scratch);
+    }
+  }
+}
+
+Status GroupTable::Decode(ByteReader& r) {
+  if (!keys_.empty()) return Status::Internal("GroupTable::Decode into a non-empty table");
+  const size_t m = measure_count();
+  // Each group needs at least a key length byte and m state length bytes.
+  uint64_t n = r.Count(1 + m);
+  if (!r.ok()) return Status::Corrupt("group count larger than the partial state");
+  keys_.reserve(n);
+  for (uint64_t g = 0; g < n; ++g) {
+    std::string_view key = r.Str();
+    if (!r.ok()) return Status::Corrupt("group " + std::to_string(g) + ": truncated key");
+    if (g > 0 && !(keys_.back() < key))
+      return Status::Corrupt("group " + std::to_string(g) + ": keys not in strictly ascending order");
+    AddGroup(key);
+    for (size_t j = 0; j < m; ++j) {
+      std::string_view bytes = r.Str();
+      if (!r.ok()) return Status::Corrupt("group " + std::to_string(g) + ": truncated measure state");
+      ByteReader sr(bytes);
+      Status s = states_[g * m + j]->Decode(sr);
+      if (!s.ok()) return s.WithContext("group " + std::to_string(g) + ", measure " + std::to_string(j));
+      if (!sr.at_end()) return Status::Corrupt("group " + std::to_string(g) + ", measure " + std::to_string(j) +
+                                               ": trailing bytes in measure state");
+    }
+  }
+  return Status::Ok();
+}
+
+}  // namespace fanfold

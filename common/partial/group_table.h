@@ -1,0 +1,85 @@
+// GroupTable: encoded group key → one MeasureState per measure. Workers fill
+// one per shard (FindOrAdd per record); the coordinator folds shard tables,
+// in shard order and straight from their encoding, into one table with
+// CheckEncoded + MergeEncoded. Keys are
+// the bytes of common/partial/group_key.h; lookups hash the key once and allocate
+// only when a new group appears. Not thread-safe.
+//
+// Encoding (inside a partial state body): varint group count, then per group
+// in strictly ascending key-byte order (so a key cannot repeat): key (varint
+// length + bytes), then per measure its state as varint length + bytes (so a
+// state's decoder cannot read into the next one).
+#pragma once
+
+#include <memory>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include <boost/unordered/unordered_flat_map.hpp>
+
+#include "common/base/byte_io.h"
+#include "common/measures/measure.h"
+#include "common/base/status.h"
+
+namespace fanfold {
+
+class GroupTable {
+ public:
+  // configs must outlive the table.
+  explicit GroupTable(const std::vector<MeasureConfig>* configs);
+  GroupTable(GroupTable&&) = default;
+  GroupTable& operator=(GroupTable&&) = default;
+
+  // Returns the measure states (measure_count() of them) of the group whose
+  // encoded key is `key`, creating the group if new. The pointer stays valid
+  // until the table is destroyed or merged from.
+  MeasureState* const* FindOrAdd(std::string_view key);
+
+  size_t group_count() const { return keys_.size(); }
+  size_t measure_count() const { return configs_->size(); }
+
+  // Group i's key and states, for i < group_count() (insertion order).
+  const std::string& key(size_t i) const { return keys_[i]; }
+  MeasureState* const* states(size_t i) const { return &states_[i * measure_count()]; }
+
+  // Checks that `encoded` (Encode's bytes, from a later shard) is a valid
+  // table for these measures, without changing this one.
+  Status CheckEncoded(std::string_view encoded);
+  // Folds the encoded table into this one, group by group and measure by
+  // measure (MeasureState::MergeEncoded), building no intermediate table.
+  // REQUIRES: CheckEncoded(encoded) succeeded, so a failure here is a
+  // bounded measure past its limit and leaves this table partly merged.
+  Status MergeEncoded(std::string_view encoded);
+
+  void Encode(ByteWriter& w) const;
+  // REQUIRES: this table is empty. Fails on corrupt bytes.
+  Status Decode(ByteReader& r);
+
+ private:
+  struct Hash {
+    using is_transparent = void;
+    size_t operator()(std::string_view s) const;
+  };
+  struct Eq {
+    using is_transparent = void;
+    bool operator()(std::string_view a, std::string_view b) const { return a == b; }
+  };
+  uint32_t AddGroup(std::string_view key);
+  // The one walk over an encoded table behind CheckEncoded (apply false)
+  // and MergeEncoded (apply true).
+  Status WalkEncoded(std::string_view encoded, bool apply);
+
+  const std::vector<MeasureConfig>* configs_;
+  boost::unordered_flat_map<std::string, uint32_t, Hash, Eq> index_;
+  std::vector<std::string> keys_;
+  // Group-major states; states_[i] == owned_[i].get() always (states_ is
+  // the raw view FindOrAdd hands out).
+  std::vector<MeasureState*> states_;
+  std::vector<std::unique_ptr<MeasureState>> owned_;
+  // One state per measure that encoded states are checked in or decoded
+  // into while merging (MeasureState::MergeEncoded's scratch).
+  std::vector<std::unique_ptr<MeasureState>> scratch_;
+};
+
+}  // namespace fanfold

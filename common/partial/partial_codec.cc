@@ -1,0 +1,237 @@
+#include "common/partial/partial_codec.h"
+
+#include <algorithm>
+#include <cstring>
+
+#include <xxhash.h>
+#include <zstd.h>
+
+#include "common/base/byte_io.h"
+
+namespace fanfold {
+namespace {
+
+constexpr char kMagic[4] = {'F', 'F', 'P', 'S'};
+constexpr uint32_t kFlagRawBody = 1;   // header flag: the body is stored uncompressed
+constexpr size_t kRawBodyLimit = 4096;  // bodies smaller than this are stored raw
+constexpr size_t kChecksumOffset = 152;
+
+uint64_t Checksum(std::string_view header_prefix, std::string_view body) {
+  // One hashing state per thread: making one per call was a heap
+  // allocation per partial, twice per tiny shard.
+  struct State {
+    XXH3_state_t* st = XXH3_createState();
+    ~State() { XXH3_freeState(st); }
+  };
+  thread_local State state;
+  XXH3_state_t* st = state.st;
+  XXH3_64bits_reset(st);
+  XXH3_64bits_update(st, header_prefix.data(), header_prefix.size());
+  XXH3_64bits_update(st, body.data(), body.size());
+  return XXH3_64bits_digest(st);
+}
+
+// One compression and one decompression context per thread, reused: making
+// them per partial cost more than encoding a tiny shard's partial.
+struct ZstdContexts {
+  ZSTD_CCtx* c = ZSTD_createCCtx();
+  ZSTD_DCtx* d = ZSTD_createDCtx();
+  ~ZstdContexts() {
+    ZSTD_freeCCtx(c);
+    ZSTD_freeDCtx(d);
+  }
+};
+ZstdContexts& Contexts() {
+  thread_local ZstdContexts ctx;
+  return ctx;
+}
+
+// Reads the malformed-record samples at the start of out->body and points
+// out->groups at the rest.
+Status ReadSamples(OpenedPartial* out);
+
+}  // namespace
+
+uint64_t PathHash(std::string_view path) { return XXH3_64bits(path.data(), path.size()); }
+
+void EncodePartialBody(const PartialState& p, std::string* body) {
+  body->clear();
+  ByteWriter bw(body);
+  bw.Varint(p.samples.size());
+  for (const auto& s : p.samples) {
+    bw.Varint(s.line);
+    bw.Str(s.reason);
+  }
+  p.groups.Encode(bw);
+}
+
+void EncodePartial(const PartialState& p, std::string* out) {
+  std::string body;
+  EncodePartialBody(p, &body);
+
+  // A small body is stored as it is: compressing it and decompressing it
+  // again cost more than its bytes (thousands of tiny shards).
+  const bool raw = body.size() < kRawBodyLimit;
+  std::string z;
+  if (raw) {
+    z = body;
+  } else {
+    z.resize(ZSTD_compressBound(body.size()));
+    size_t zn = ZSTD_compressCCtx(Contexts().c, z.data(), z.size(), body.data(), body.size(), 1);
+    z.resize(ZSTD_isError(zn) ? 0 : zn);  // compressBound makes an error impossible
+  }
+
+  const PartialHeader& h = p.header;
+  out->clear();
+  ByteWriter w(out);
+  w.Bytes(std::string_view(kMagic, 4));
+  w.U16(kPartialFormatVersion);
+  w.U16(kPartialHeaderSize);
+  w.U64(h.fingerprint);
+  w.U32(h.shard_index);
+  w.U32(raw ? kFlagRawBody : 0);
+  w.U64(h.file_size);
+  w.I64(h.mtime_ns);
+  w.U64(h.offset);
+  w.U64(h.length);
+  w.U64(h.path_hash);
+  w.U64(h.records);
+  w.U64(h.kept);
+  w.U64(h.malformed);
+  w.U64(h.raw_bytes);
+  w.U64(h.compressed_bytes);
+  w.U64(body.size());
+  w.U64(z.size());
+  w.U64(h.read_ns);
+  w.U64(h.parse_ns);
+  w.U64(h.aggregate_ns);
+  w.U64(h.encode_ns);
+  w.U64(Checksum(std::string_view(*out).substr(0, kChecksumOffset), z));
+  w.Bytes(z);
+}
+
+void SetPartialEncodeTime(uint64_t ns, std::string* partial) {
+  if (partial->size() < kPartialHeaderSize) return;
+  std::memcpy(partial->data() + 144, &ns, 8);
+  uint64_t sum = Checksum(std::string_view(*partial).substr(0, kChecksumOffset),
+                          std::string_view(*partial).substr(kPartialHeaderSize));
+  std::memcpy(partial->data() + kChecksumOffset, &sum, 8);
+}
+
+Status DecodePartialHeader(std::string_view bytes, PartialHeader* h) {
+  if (bytes.size() < kPartialHeaderSize)
+    return Status::Corrupt("partial state is " + std::to_string(bytes.size()) + " bytes; expected at least " +
+                           std::to_string(kPartialHeaderSize));
+  if (std::memcmp(bytes.data(), kMagic, 4) != 0) return Status::Corrupt("not a partial state (bad magic)");
+  ByteReader r(bytes.substr(4));
+  uint16_t version = r.U16();
+  uint16_t header_size = r.U16();
+  if (version != kPartialFormatVersion)
+    return Status::Corrupt("partial state format version " + std::to_string(version) + "; expected " +
+                           std::to_string(kPartialFormatVersion));
+  if (header_size != kPartialHeaderSize) return Status::Corrupt("partial state header size mismatch");
+  h->fingerprint = r.U64();
+  h->shard_index = r.U32();
+  h->flags = r.U32();
+  h->file_size = r.U64();
+  h->mtime_ns = r.I64();
+  h->offset = r.U64();
+  h->length = r.U64();
+  h->path_hash = r.U64();
+  h->records = r.U64();
+  h->kept = r.U64();
+  h->malformed = r.U64();
+  h->raw_bytes = r.U64();
+  h->compressed_bytes = r.U64();
+  uint64_t raw_len = r.U64();
+  uint64_t z_len = r.U64();
+  h->read_ns = r.U64();
+  h->parse_ns = r.U64();
+  h->aggregate_ns = r.U64();
+  h->encode_ns = r.U64();
+  uint64_t checksum = r.U64();
+  if (!r.ok()) return Status::Corrupt("partial state header is truncated");
+  if (z_len != bytes.size() - kPartialHeaderSize)
+    return Status::Corrupt("partial state body is " + std::to_string(bytes.size() - kPartialHeaderSize) +
+                           " bytes; header says " + std::to_string(z_len));
+  if (raw_len > kMaxPartialBodyBytes) return Status::Corrupt("partial state body length is implausible");
+  if ((h->flags & ~kFlagRawBody) != 0) return Status::Corrupt("partial state has unknown flags");
+  if ((h->flags & kFlagRawBody) != 0 && z_len != raw_len)
+    return Status::Corrupt("partial state body is stored raw but its two lengths differ");
+  if (Checksum(bytes.substr(0, kChecksumOffset), bytes.substr(kPartialHeaderSize)) != checksum)
+    return Status::Corrupt("partial state checksum mismatch");
+  return Status::Ok();
+}
+
+Status OpenPartial(std::string_view bytes, OpenedPartial* out) {
+  FF_RETURN_IF_ERROR(DecodePartialHeader(bytes, &out->header));
+  ByteReader lens(bytes.substr(104, 8));
+  uint64_t raw_len = lens.U64();
+  std::string_view z = bytes.substr(kPartialHeaderSize);
+  std::string& body = out->body;
+  if ((out->header.flags & kFlagRawBody) != 0) {
+    body.assign(z);
+    return ReadSamples(out);
+  }
+  unsigned long long frame = ZSTD_getFrameContentSize(z.data(), z.size());
+  if (frame == ZSTD_CONTENTSIZE_ERROR || frame == ZSTD_CONTENTSIZE_UNKNOWN || frame != raw_len)
+    return Status::Corrupt("partial state body is not the zstd frame its header describes");
+  // Decompress as a stream into a buffer that grows with real output, so a
+  // header that merely claims a huge body cannot make us allocate it.
+  body.resize(std::min<uint64_t>(raw_len, uint64_t{1} << 20));
+  ZSTD_DCtx* d = Contexts().d;
+  ZSTD_DCtx_reset(d, ZSTD_reset_session_only);
+  ZSTD_inBuffer in{z.data(), z.size(), 0};
+  size_t produced = 0;
+  for (;;) {
+    if (produced == body.size()) {
+      if (body.size() >= raw_len) break;
+      body.resize(std::min<uint64_t>(raw_len, static_cast<uint64_t>(body.size()) * 2));
+    }
+    ZSTD_outBuffer out{body.data() + produced, body.size() - produced, 0};
+    size_t ret = ZSTD_decompressStream(d, &out, &in);
+    produced += out.pos;
+    if (ZSTD_isError(ret))
+      return Status::Corrupt(std::string("partial state body does not decompress: ") + ZSTD_getErrorName(ret));
+    if (ret == 0) break;  // frame complete
+    if (in.pos == in.size && out.pos < out.size) return Status::Corrupt("partial state body is truncated");
+  }
+  if (produced != raw_len || in.pos != in.size)
+    return Status::Corrupt("partial state body is not the length its header says");
+  body.resize(produced);
+  return ReadSamples(out);
+}
+
+namespace {
+
+Status ReadSamples(OpenedPartial* out) {
+  const std::string& body = out->body;
+  ByteReader r(body);
+  uint64_t ns = r.Count(2);
+  if (!r.ok() || ns > ReadStats::kMaxSamples) return Status::Corrupt("partial state has a bad sample count");
+  out->samples.clear();
+  for (uint64_t i = 0; i < ns; ++i) {
+    MalformedSample s;
+    s.line = r.Varint();
+    s.reason = std::string(r.Str());
+    if (!r.ok()) return Status::Corrupt("partial state samples are truncated");
+    out->samples.push_back(std::move(s));
+  }
+  out->groups = std::string_view(body).substr(body.size() - r.remaining());
+  return Status::Ok();
+}
+
+}  // namespace
+
+Status DecodePartial(std::string_view bytes, PartialState* out) {
+  OpenedPartial opened;
+  FF_RETURN_IF_ERROR(OpenPartial(bytes, &opened));
+  ByteReader r(opened.groups);
+  FF_RETURN_IF_ERROR(out->groups.Decode(r));
+  if (!r.at_end()) return Status::Corrupt("partial state body has trailing bytes");
+  out->header = opened.header;
+  out->samples = std::move(opened.samples);
+  return Status::Ok();
+}
+
+}  // namespace fanfold

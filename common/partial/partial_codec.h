@@ -1,0 +1,110 @@
+// PartialCodec: the on-wire and on-disk form of one shard's partial state —
+// what a worker returns and what the run directory persists. Layout (all
+// integers little-endian), specified here and in docs/partial-state.md:
+//
+//   off size field
+//     0    4 magic "FFPS"
+//     4    2 format version (kPartialFormatVersion)
+//     6    2 header size (kPartialHeaderSize)
+//     8    8 plan fingerprint
+//    16    4 shard index
+//    20    4 flags: bit 0 = body stored raw (not zstd), others 0
+//    24    8 shard file size        32  8 shard mtime (ns since epoch)
+//    40    8 chunk offset           48  8 chunk length (UINT64_MAX = whole file)
+//    56    8 XXH3-64 of the shard's absolute path
+//    64    8 records read           72  8 records kept (passed the filter)
+//    80    8 records malformed      88  8 decompressed bytes
+//    96    8 compressed bytes read 104  8 body length before compression
+//   112    8 body length as stored (zstd-compressed, or raw under flag bit 0)
+//   120    8 ns reading + decompressing   128  8 ns parsing records
+//   136    8 ns filtering + aggregating   144  8 ns encoding the body
+//   152    8 checksum: XXH3-64 of bytes [0, 152) followed by the stored body
+//   160      body: one zstd frame (raw bytes if under 4 KiB) of
+//              varint sample count, per sample: varint line, string reason;
+//              the GroupTable encoding (common/partial/group_table.h)
+//
+// Decoding checks every length against the input and the checksum before
+// decompressing, so corrupt or hostile bytes give Status::Corrupt, never a
+// crash. Pure functions; thread-safe.
+#pragma once
+
+#include <cstdint>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "common/partial/group_table.h"
+#include "common/input/record_reader.h"
+#include "common/base/status.h"
+
+namespace fanfold {
+
+inline constexpr uint16_t kPartialFormatVersion = 2;  // 2: DDSketch stores run-length encode empty buckets
+inline constexpr uint16_t kPartialHeaderSize = 160;
+inline constexpr uint64_t kMaxPartialBodyBytes = uint64_t{1} << 34;  // 16 GiB decompressed
+
+struct PartialHeader {
+  uint64_t fingerprint = 0;
+  uint32_t shard_index = 0;
+  uint32_t flags = 0;  // read only: EncodePartial chooses (bit 0: body stored raw)
+  uint64_t file_size = 0;
+  int64_t mtime_ns = 0;
+  uint64_t offset = 0;
+  uint64_t length = UINT64_MAX;
+  uint64_t path_hash = 0;
+  uint64_t records = 0;
+  uint64_t kept = 0;
+  uint64_t malformed = 0;
+  uint64_t raw_bytes = 0;
+  uint64_t compressed_bytes = 0;
+  // Where the worker's time went (wall-clock ns, measured by the worker).
+  uint64_t read_ns = 0;
+  uint64_t parse_ns = 0;
+  uint64_t aggregate_ns = 0;
+  uint64_t encode_ns = 0;
+};
+
+struct PartialState {
+  PartialHeader header;
+  std::vector<MalformedSample> samples;
+  GroupTable groups;
+  explicit PartialState(const std::vector<MeasureConfig>* configs) : groups(configs) {}
+};
+
+// XXH3-64 of a shard path, as stored in the header.
+uint64_t PathHash(std::string_view path);
+
+// Encodes p into *out (replacing its contents). zstd level 1: partials are
+// written once and read once, so speed beats ratio.
+void EncodePartial(const PartialState& p, std::string* out);
+
+// The body alone, before compression (samples, then the group table).
+void EncodePartialBody(const PartialState& p, std::string* body);
+
+// Rewrites the encode-time field of an encoded partial (and its checksum):
+// the time to encode is only known once encoding is done.
+void SetPartialEncodeTime(uint64_t ns, std::string* partial);
+
+// Reads only the fixed header (checksum verified against the whole input).
+Status DecodePartialHeader(std::string_view bytes, PartialHeader* out);
+
+// A partial state with its header and samples read and its body checked
+// and decompressed; `groups` views the GroupTable encoding inside `body`,
+// for GroupTable::CheckEncoded / MergeEncoded. Neither copied nor moved,
+// since `groups` points into `body`.
+struct OpenedPartial {
+  OpenedPartial() = default;
+  OpenedPartial(const OpenedPartial&) = delete;
+  OpenedPartial& operator=(const OpenedPartial&) = delete;
+  PartialHeader header;
+  std::vector<MalformedSample> samples;
+  std::string body;
+  std::string_view groups;
+};
+Status OpenPartial(std::string_view bytes, OpenedPartial* out);
+
+// Decodes bytes into *out, whose GroupTable must be empty and built with the
+// plan's measure configs.
+Status DecodePartial(std::string_view bytes, PartialState* out);
+
+}  // namespace fanfold

@@ -1,0 +1,198 @@
+#include "common/partial/shard_processor.h"
+
+#include <sys/stat.h>
+
+#include <algorithm>
+#include <array>
+#include <chrono>
+#include <cmath>
+#include <cstdio>
+
+#include "common/input/chunk_source.h"
+#include "common/partial/group_key.h"
+#include "common/input/record_reader.h"
+#include "common/base/scratch_arena.h"
+
+namespace fanfold {
+namespace {
+
+uint64_t NowNs() {
+  return static_cast<uint64_t>(std::chrono::duration_cast<std::chrono::nanoseconds>(
+                                   std::chrono::steady_clock::now().time_since_epoch())
+                                   .count());
+}
+
+// Counts the time spent inside the inner source (reading + decompressing).
+class TimedSource final : public ByteSource {
+ public:
+  explicit TimedSource(ByteSource* inner) : inner_(inner) {}
+  Result<size_t> Read(char* dst, size_t cap) override {
+    uint64_t t0 = NowNs();
+    Result<size_t> r = inner_->Read(dst, cap);
+    ns_ += NowNs() - t0;
+    return r;
+  }
+  uint64_t compressed_bytes() const override { return inner_->compressed_bytes(); }
+  uint64_t ns() const { return ns_; }
+
+ private:
+  ByteSource* inner_;
+  uint64_t ns_ = 0;
+};
+
+// Receives records from the reader and applies the plan to them.
+class Aggregator final : public RecordSink {
+ public:
+  Aggregator(const Plan& plan, GroupTable* table, const std::function<void(uint64_t)>& hook, bool every)
+      : plan_(plan), table_(table), hook_(hook), hook_mask_(every ? 0 : 4095) {
+    for (const Expr& g : plan.group) group_direct_.push_back(g.DirectSlot());
+    for (const CompiledMeasure& m : plan.measures) {
+      std::array<int, 2> d = {-1, -1};
+      for (size_t a = 0; a < m.args.size() && a < 2; ++a) d[a] = m.args[a].DirectSlot();
+      arg_direct_.push_back(d);
+    }
+  }
+
+  // Every kSampleEvery-th record is timed; the total is extrapolated, so
+  // the clock costs almost nothing per record.
+  static constexpr uint64_t kSampleEvery = 64;
+
+  bool OnRecord(Value* slots) override {
+    if (seen_ % kSampleEvery == 0) {
+      uint64_t t0 = NowNs();
+      bool go_on = Apply(slots);
+      sampled_ns_ += NowNs() - t0;
+      return go_on;
+    }
+    return Apply(slots);
+  }
+
+  uint64_t estimated_ns() const { return sampled_ns_ * kSampleEvery; }
+
+ private:
+  void Derive(size_t i, Value* slots) {
+    const CompiledDerive& d = plan_.derive[i];
+    slots[d.slot] = d.expr.Eval(slots, &arena_);
+  }
+
+  bool Apply(Value* slots) {
+    arena_.Reset();
+    ++seen_;
+    if ((seen_ & hook_mask_) == 0 && hook_) hook_(seen_);
+    for (size_t i : plan_.derive_before_keep) Derive(i, slots);
+    if (plan_.keep && !plan_.keep->Eval(slots, &arena_).Truthy()) return true;
+    for (size_t i : plan_.derive_after_keep) Derive(i, slots);
+    ++kept_;
+    key_.clear();
+    for (size_t g = 0; g < plan_.group.size(); ++g) {
+      const int d = group_direct_[g];
+      AppendKeyValue(d >= 0 ? slots[d] : plan_.group[g].Eval(slots, &arena_), &key_);
+    }
+    MeasureState* const* states = table_->FindOrAdd(key_);
+    Value args[2];
+    for (size_t m = 0; m < plan_.measures.size(); ++m) {
+      const CompiledMeasure& cm = plan_.measures[m];
+      for (size_t a = 0; a < cm.args.size(); ++a) {
+        const int d = arg_direct_[m][a];
+        args[a] = d >= 0 ? slots[d] : cm.args[a].Eval(slots, &arena_);
+      }
+      if (!states[m]->Add(args)) {
+        over_limit_ = static_cast<int>(m);
+        return false;
+      }
+    }
+    return true;
+  }
+
+ public:
+  uint64_t kept() const { return kept_; }
+  int over_limit() const { return over_limit_; }
+
+ private:
+  const Plan& plan_;
+  GroupTable* table_;
+  const std::function<void(uint64_t)>& hook_;
+  uint64_t hook_mask_;  // the hook runs when (records & mask) == 0
+  ScratchArena arena_;
+  std::string key_;
+  uint64_t seen_ = 0;
+  uint64_t kept_ = 0;
+  int over_limit_ = -1;
+  uint64_t sampled_ns_ = 0;
+  std::vector<int> group_direct_;              // Expr::DirectSlot of each key
+  std::vector<std::array<int, 2>> arg_direct_;  // ... of each measure argument
+};
+
+std::string Percent(double f) {
+  char buf[32];
+  snprintf(buf, sizeof buf, "%.3g%%", f * 100);
+  return buf;
+}
+
+}  // namespace
+
+ShardProcessor::ShardProcessor(const Plan* plan) : plan_(plan) {
+  for (const auto& m : plan->measures) configs_.push_back(m.config);
+}
+
+Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
+  const std::string where = "shard " + std::to_string(task.index) + " '" + task.path + "'";
+  struct stat st;
+  if (stat(task.path.c_str(), &st) != 0) return Status::IoError(where + ": cannot stat the file");
+
+  Result<std::unique_ptr<ByteSource>> src = task.length == UINT64_MAX
+                                                ? OpenShardSource(task.path, task.compression)
+                                                : OpenChunkSource(task.path, task.offset, task.length);
+  if (!src.ok()) return src.status().WithContext(where);
+
+  PartialState state(&configs_);
+  Aggregator agg(*plan_, &state.groups, on_record, on_every_record);
+  ReadStats stats;
+  TimedSource timed(src->get());
+  const uint64_t t0 = NowNs();
+  if (!reader_) {
+    Result<std::unique_ptr<RecordReader>> r = RecordReader::Create(plan_->format, plan_->fields);
+    if (!r.ok()) return r.status().WithContext(where);
+    reader_ = std::move(r.value());
+  }
+  Status s = reader_->Read(timed, agg, &stats);
+  const uint64_t t1 = NowNs();
+  if (!s.ok()) return s.WithContext(where);
+  if (agg.over_limit() >= 0) {
+    const CompiledMeasure& m = plan_->measures[agg.over_limit()];
+    return Status::LimitExceeded(where + ": measure \"" + m.name + "\" kept more than its limit of " +
+                                 std::to_string(m.config.limit) +
+                                 " values in one group; raise \"limit\" or use an approximate measure");
+  }
+  const uint64_t total = stats.records + stats.malformed;
+  if (plan_->spec.bad_record_limit && total > 0) {
+    double frac = static_cast<double>(stats.malformed) / static_cast<double>(total);
+    if (frac > *plan_->spec.bad_record_limit)
+      return Status::Corrupt(where + ": " + std::to_string(stats.malformed) + " of " + std::to_string(total) +
+                             " records malformed (" + Percent(frac) + "), above the job's bad_record_limit of " +
+                             Percent(*plan_->spec.bad_record_limit));
+  }
+
+  PartialHeader& h = state.header;
+  h.fingerprint = plan_->fingerprint;
+  h.shard_index = task.index;
+  h.file_size = static_cast<uint64_t>(st.st_size);
+  h.mtime_ns = static_cast<int64_t>(st.st_mtim.tv_sec) * 1'000'000'000 + st.st_mtim.tv_nsec;
+  h.offset = task.offset;
+  h.length = task.length;
+  h.path_hash = PathHash(task.path);
+  h.records = stats.records + stats.malformed;
+  h.kept = agg.kept();
+  h.malformed = stats.malformed;
+  h.raw_bytes = stats.raw_bytes;
+  h.compressed_bytes = (*src)->compressed_bytes();
+  h.read_ns = timed.ns();
+  h.aggregate_ns = std::min(agg.estimated_ns(), t1 - t0 - std::min(t1 - t0, h.read_ns));
+  h.parse_ns = t1 - t0 - std::min(t1 - t0, h.read_ns + h.aggregate_ns);
+  state.samples = std::move(stats.samples);
+  EncodePartial(state, partial);
+  SetPartialEncodeTime(NowNs() - t1, partial);
+  return Status::Ok();
+}
+
+}  // namespace fanfold

@@ -1,0 +1,44 @@
+// ShardProcessor: the whole of a worker's job for one shard — open and
+// decompress it, read records, derive fields, filter, group and feed the
+// measures — producing the shard's encoded partial state. Holds the
+// per-worker buffers (arena, key scratch) so they are reused across shards.
+// One instance per worker thread/process; the Plan must outlive it.
+#pragma once
+
+#include <cstdint>
+#include <functional>
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "common/partial/partial_codec.h"
+#include "common/job/plan.h"
+#include "common/input/record_reader.h"
+#include "common/transport/shard_task.h"
+#include "common/base/status.h"
+
+namespace fanfold {
+
+class ShardProcessor {
+ public:
+  explicit ShardProcessor(const Plan* plan);
+
+  // Processes task and writes its encoded partial state to *partial.
+  // Fails (naming the shard's path) on an unreadable, truncated or corrupt
+  // shard, a bounded measure past its limit, or a malformed fraction above
+  // the job's bad_record_limit.
+  Status Process(const ShardTask& task, std::string* partial);
+
+  // Called with the running record count every 4096 records (progress), or
+  // after every record when on_every_record is set (test-only fault
+  // injection, which needs exact counts).
+  std::function<void(uint64_t records)> on_record;
+  bool on_every_record = false;
+
+ private:
+  const Plan* plan_;
+  std::vector<MeasureConfig> configs_;
+  std::unique_ptr<RecordReader> reader_;  // made on first use, kept across shards
+};
+
+}  // namespace fanfold

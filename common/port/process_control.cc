@@ -1,0 +1,142 @@
+#include "common/port/process_control.h"
+
+#include <sys/prctl.h>
+#include <sys/types.h>
+#include <sys/wait.h>
+#include <unistd.h>
+
+#include <cerrno>
+#include <csignal>
+#include <cstring>
+#include <ctime>
+
+#include "common/port/os_error.h"
+
+namespace fanfold {
+namespace {
+
+Status ErrnoStatus(const std::string& what, int err) {
+  return Status::IoError(what + ": " + ErrnoText(err));
+}
+
+ExitInfo FromWaitStatus(int status) {
+  ExitInfo info;
+  if (WIFSIGNALED(status)) {
+    info.signaled = true;
+    info.signal = WTERMSIG(status);
+  } else if (WIFEXITED(status)) {
+    info.code = WEXITSTATUS(status);
+  }
+  return info;
+}
+
+}  // namespace
+
+std::string ExitInfo::Describe() const {
+  if (signaled) {
+    return "was killed by signal " + std::to_string(signal) + " (" + SignalName(signal) + ")";
+  }
+  return "exited with status " + std::to_string(code);
+}
+
+int CurrentPid() { return static_cast<int>(::getpid()); }
+int ParentPid() { return static_cast<int>(::getppid()); }
+
+bool ProcessAlive(int pid) {
+  if (pid <= 0) return false;
+  if (::kill(pid, 0) == 0) return true;
+  return errno != ESRCH;  // EPERM: it exists but is not ours
+}
+
+Status SendSignal(int pid, int signal) {
+  if (pid <= 0) return Status::InvalidArgument("refusing to signal pid " + std::to_string(pid));
+  if (::kill(pid, signal) != 0) {
+    return ErrnoStatus("kill(" + std::to_string(pid) + ", " + SignalName(signal) + ")", errno);
+  }
+  return Status::Ok();
+}
+
+Status KillProcess(int pid) { return SendSignal(pid, SIGKILL); }
+
+Result<bool> TryReap(int pid, ExitInfo* info) {
+  int status = 0;
+  for (;;) {
+    pid_t r = ::waitpid(pid, &status, WNOHANG);
+    if (r == 0) return false;
+    if (r == pid) {
+      *info = FromWaitStatus(status);
+      return true;
+    }
+    if (r < 0 && errno == EINTR) continue;
+    return ErrnoStatus("waitpid(" + std::to_string(pid) + ")", errno);
+  }
+}
+
+Result<ExitInfo> Reap(int pid) {
+  int status = 0;
+  for (;;) {
+    pid_t r = ::waitpid(pid, &status, 0);
+    if (r == pid) return FromWaitStatus(status);
+    if (r < 0 && errno == EINTR) continue;
+    return ErrnoStatus("waitpid(" + std::to_string(pid) + ")", errno);
+  }
+}
+
+Status KillMeWhenParentDies() {
+#ifdef PR_SET_PDEATHSIG
+  if (::prctl(PR_SET_PDEATHSIG, SIGKILL) != 0) return ErrnoStatus("prctl(PR_SET_PDEATHSIG)", errno);
+#endif
+  return Status::Ok();
+}
+
+void IgnoreWorkerSignals() {
+  struct sigaction sa;
+  std::memset(&sa, 0, sizeof sa);
+  sa.sa_handler = SIG_IGN;
+  sigemptyset(&sa.sa_mask);
+  ::sigaction(SIGINT, &sa, nullptr);
+  ::sigaction(SIGPIPE, &sa, nullptr);
+}
+
+Status SetChildSubreaper(bool on) {
+#ifdef PR_SET_CHILD_SUBREAPER
+  if (::prctl(PR_SET_CHILD_SUBREAPER, on ? 1 : 0) != 0) {
+    return ErrnoStatus("prctl(PR_SET_CHILD_SUBREAPER)", errno);
+  }
+  return Status::Ok();
+#else
+  return Status::Internal("child subreapers are not supported on this platform");
+#endif
+}
+
+const char* SignalName(int signal) {
+  switch (signal) {
+    case SIGHUP: return "SIGHUP";
+    case SIGINT: return "SIGINT";
+    case SIGQUIT: return "SIGQUIT";
+    case SIGILL: return "SIGILL";
+    case SIGTRAP: return "SIGTRAP";
+    case SIGABRT: return "SIGABRT";
+    case SIGBUS: return "SIGBUS";
+    case SIGFPE: return "SIGFPE";
+    case SIGKILL: return "SIGKILL";
+    case SIGUSR1: return "SIGUSR1";
+    case SIGSEGV: return "SIGSEGV";
+    case SIGUSR2: return "SIGUSR2";
+    case SIGPIPE: return "SIGPIPE";
+    case SIGALRM: return "SIGALRM";
+    case SIGTERM: return "SIGTERM";
+    case SIGXCPU: return "SIGXCPU";
+    case SIGXFSZ: return "SIGXFSZ";
+    case SIGSYS: return "SIGSYS";
+    default: return "SIG?";
+  }
+}
+
+uint64_t MonotonicNanos() {
+  timespec ts;
+  ::clock_gettime(CLOCK_MONOTONIC, &ts);
+  return static_cast<uint64_t>(ts.tv_sec) * 1000000000u + static_cast<uint64_t>(ts.tv_nsec);
+}
+
+}  // namespace fanfold

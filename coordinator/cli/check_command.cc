@@ -1,0 +1,63 @@
+// `fanfold check`: validate the job, then print the plan and the shard list.
+#include <cstdio>
+#include <iostream>
+
+#include "common/input/byte_source.h"
+#include "common/job/job_spec.h"
+#include "common/job/job_loader.h"
+#include "coordinator/cli/run_command.h"
+#include "coordinator/run/run_summary.h"
+
+namespace fanfold {
+
+CommandOutcome CheckJob(const CheckOptions& o) {
+  CommandOutcome out;
+  Result<LoadedJob> job = LoadJob(o.job_path);
+  if (!job.ok()) {
+    out.status = job.status();
+    return out;
+  }
+  const Plan& plan = *job->plan;
+  const JobSpec& s = plan.spec;
+  std::string text;
+  text += "job " + s.job_path + " is valid";
+  if (!s.about.empty()) text += " — " + s.about;
+  char fp[32];
+  snprintf(fp, sizeof fp, "%016llx", static_cast<unsigned long long>(plan.fingerprint));
+  text += "\nplan " + std::string(fp) + "\n";
+  text += std::string("  records: ") + FormatName(plan.format) + "\n";
+  text += "  keep:    " + (s.keep.empty() ? std::string("every record") : s.keep) + "\n";
+  for (const auto& d : s.derive) text += "  derive:  " + d.name + " = " + d.expr + "\n";
+  if (s.group.empty()) text += "  group:   (none: one row for all records)\n";
+  for (size_t i = 0; i < s.group.size(); ++i)
+    text += "  group:   " + plan.group_columns[i] + (plan.group_columns[i] == s.group[i] ? "" : " = " + s.group[i]) + "\n";
+  for (const auto& m : s.measures) {
+    text += "  measure: " + m.name + " = " + m.fn;
+    if (!m.of.empty()) text += "(" + m.of + (m.by.empty() ? "" : " by " + m.by) + ")";
+    text += "\n";
+  }
+  text += "  columns: ";
+  for (size_t i = 0; i < plan.columns.size(); ++i) text += (i ? ", " : "") + plan.columns[i];
+  text += "\n  output:  " + std::string(OutputFormatName(s.emit.format)) + " to " +
+          (s.emit.path.empty() ? std::string("stdout") : s.emit.path);
+  if (s.emit.limit) text += ", at most " + std::to_string(*s.emit.limit) + " rows";
+  text += "\n";
+
+  const auto& shards = job->shards.shards;
+  uint64_t total = 0;
+  for (const auto& sh : shards) total += sh.bytes();
+  text += std::to_string(shards.size()) + " shards, " + Megabytes(total) + "\n";
+  for (const auto& sh : shards) {
+    char line[64];
+    snprintf(line, sizeof line, "  %5u  %12s  %-4s  ", sh.index, GroupedInteger(sh.bytes()).c_str(),
+             CompressionName(sh.compression));
+    text += line + sh.path;
+    if (sh.length != UINT64_MAX)
+      text += " [bytes " + std::to_string(sh.offset) + "–" + std::to_string(sh.offset + sh.length) + ")";
+    text += "\n";
+  }
+  std::fwrite(text.data(), 1, text.size(), stdout);
+  return out;
+}
+
+}  // namespace fanfold

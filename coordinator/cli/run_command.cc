@@ -1,0 +1,144 @@
+#include "coordinator/cli/run_command.h"
+
+#include <sys/stat.h>
+
+#include <chrono>
+#include <ctime>
+#include <filesystem>
+#include <iostream>
+
+#include "common/job/job_loader.h"
+#include "common/partial/partial_codec.h"
+#include "coordinator/rundir/run_directory.h"
+#include "coordinator/run/run_engine.h"
+
+namespace fs = std::filesystem;
+
+namespace fanfold {
+namespace {
+
+std::string NowIso() {
+  std::time_t t = std::time(nullptr);
+  char buf[32];
+  std::strftime(buf, sizeof buf, "%Y-%m-%dT%H:%M:%SZ", std::gmtime(&t));
+  return buf;
+}
+
+// Why a committed partial cannot be reused for shard s, or "" if it can.
+std::string PartialProblem(const std::string& bytes, const Shard& s, const Plan& plan) {
+  PartialHeader h;
+  Status st = DecodePartialHeader(bytes, &h);
+  if (!st.ok()) return st.message();
+  if (h.fingerprint != plan.fingerprint) return "it was computed by a different plan";
+  if (h.shard_index != s.index || h.path_hash != PathHash(s.path) || h.offset != s.offset || h.length != s.length)
+    return "it belongs to another shard";
+  if (h.file_size != s.file_size || h.mtime_ns != s.mtime_ns) return "the shard's file changed after it was computed";
+  return "";
+}
+
+}  // namespace
+
+std::string DefaultRunDir(const std::string& job_path) {
+  return (fs::path("fanfold-runs") / fs::path(job_path).stem()).string();
+}
+
+CommandOutcome RunJob(const RunOptions& o) {
+  CommandOutcome out;
+  Result<LoadedJob> job = LoadJob(o.job_path);
+  if (!job.ok()) {
+    out.status = job.status();
+    return out;
+  }
+  const std::string run_dir = o.run_dir.empty() ? DefaultRunDir(o.job_path) : o.run_dir;
+  const std::string run_dir_abs = fs::absolute(run_dir).lexically_normal().string();
+  RunDirectory::State state = RunDirectory::Probe(run_dir);
+  if (state != RunDirectory::State::kEmpty && !o.fresh) {
+    const bool finished = state == RunDirectory::State::kFinished;
+    out.status = Status::InvalidArgument(
+        "run directory '" + run_dir + "' already holds " + (finished ? "a finished run" : "an unfinished run") +
+        (finished ? ". To write its result again: fanfold resume " : ". To finish it: fanfold resume ") + run_dir +
+        " ; to start over: fanfold run " + o.job_path + " --fresh (or choose another --run-dir)");
+    return out;
+  }
+  RunManifest manifest;
+  manifest.job_path = fs::absolute(o.job_path).lexically_normal().string();
+  manifest.format = FormatName(job->plan->format);
+  manifest.fingerprint = FingerprintHex(job->plan->fingerprint);
+  manifest.plan_text = PlanCanonicalText(*job->plan);
+  manifest.created_utc = NowIso();
+  manifest.shards = job->shards;
+  Result<std::unique_ptr<RunDirectory>> dir = RunDirectory::Create(run_dir_abs, manifest, o.fresh);
+  if (!dir.ok()) {
+    out.status = dir.status();
+    return out;
+  }
+  if (!o.quiet) std::cerr << "fanfold: run directory: " << run_dir << "\n";
+  RunInput in;
+  in.plan = job->plan.get();
+  in.shards = &job->shards;
+  in.dir = dir->get();
+  for (const Shard& s : job->shards.shards) in.pending.push_back(s.index);
+  return ExecuteRun(in, o);
+}
+
+CommandOutcome ResumeRun(const RunOptions& o) {
+  CommandOutcome out;
+  RunManifest manifest;
+  Result<std::unique_ptr<RunDirectory>> dir =
+      RunDirectory::Open(fs::absolute(o.run_dir).lexically_normal().string(), &manifest);
+  if (!dir.ok()) {
+    out.status = dir.status();
+    return out;
+  }
+  Result<std::unique_ptr<Plan>> plan = LoadWorkerPlan(manifest.job_path, manifest.format, manifest.fingerprint);
+  if (!plan.ok()) {
+    out.status = Status::InvalidArgument("cannot resume '" + o.run_dir + "': " + plan.status().message() +
+                                         ". Start a fresh run instead: fanfold run " + manifest.job_path +
+                                         " --run-dir " + o.run_dir + " --fresh");
+    return out;
+  }
+  RunInput in;
+  in.plan = plan->get();
+  in.shards = &manifest.shards;
+  in.dir = dir->get();
+  in.mode = "resume";
+  for (Shard& s : manifest.shards.shards) {
+    std::string bytes;
+    Status st = (*dir)->LoadPartial(s.index, &bytes);
+    if (!st.ok()) {
+      out.status = st;
+      return out;
+    }
+    struct stat now;
+    const bool exists = ::stat(s.path.c_str(), &now) == 0;
+    const int64_t mtime = exists ? static_cast<int64_t>(now.st_mtim.tv_sec) * 1'000'000'000 + now.st_mtim.tv_nsec : 0;
+    if (exists && (static_cast<uint64_t>(now.st_size) != s.file_size || mtime != s.mtime_ns)) {
+      if (!o.quiet) std::cerr << "fanfold: shard " << s.index << " '" << s.path << "' changed since the run started; recomputing it\n";
+      s.file_size = static_cast<uint64_t>(now.st_size);
+      s.mtime_ns = mtime;
+      (*dir)->DiscardPartial(s.index);
+      in.pending.push_back(s.index);
+      continue;
+    }
+    if (bytes.empty()) {
+      in.pending.push_back(s.index);
+      continue;
+    }
+    std::string problem = PartialProblem(bytes, s, **plan);
+    if (problem.empty()) {
+      in.reused.push_back(s.index);
+    } else {
+      if (!o.quiet)
+        std::cerr << "fanfold: warning: discarding the saved partial of shard " << s.index << " (" << problem
+                  << "); recomputing it\n";
+      (*dir)->DiscardPartial(s.index);
+      in.pending.push_back(s.index);
+    }
+  }
+  if (!o.quiet)
+    std::cerr << "fanfold: resuming " << o.run_dir << ": " << in.reused.size() << " shards saved, "
+              << in.pending.size() << " to process\n";
+  return ExecuteRun(in, o);
+}
+
+}  // namespace fanfold

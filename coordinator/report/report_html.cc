@@ -1,0 +1,424 @@
+#include "coordinator/report/report_html.h"
+
+#include <algorithm>
+#include <cstdio>
+#include <filesystem>
+#include <map>
+
+#include "coordinator/report/report_charts.h"
+#include "coordinator/run/run_summary.h"
+#include "coordinator/report/svg_chart.h"
+
+namespace fanfold {
+namespace {
+
+std::string Esc(const std::string& s) { return XmlEscape(s); }
+std::string FileName(const std::string& p) { return std::filesystem::path(p).filename().string(); }
+
+std::string Fmt(const char* f, double v) {
+  char buf[64];
+  std::snprintf(buf, sizeof buf, f, v);
+  return buf;
+}
+
+// Okabe & Ito (2002), "Color Universal Design": distinguishable with every
+// common colour-vision deficiency. Text is #1d2330 on white (contrast > 15:1),
+// secondary text #4a5261 (> 8:1).
+const char kCss[] = R"CSS(
+:root{--ink:#1d2330;--muted:#4a5261;--line:#dde1e7;--blue:#0072B2;--sky:#56B4E9;--green:#009E73;
+--orange:#E69F00;--vermillion:#D55E00;--purple:#CC79A7;--bg:#ffffff;--panel:#f7f8fa;
+--font:system-ui,-apple-system,"Segoe UI",Roboto,"DejaVu Sans","Helvetica Neue",Arial,sans-serif}
+*{box-sizing:border-box}
+body{margin:0;background:var(--bg);color:var(--ink);font:15px/1.45 var(--font)}
+main{max-width:1180px;margin:0 auto;padding:28px 24px 48px}
+header h1{font-size:26px;margin:0 0 4px}
+header .meta{color:var(--muted);font-size:13px;margin:2px 0;word-break:break-all}
+h2{font-size:18px;margin:0 0 4px}
+section{border:1px solid var(--line);border-radius:10px;padding:18px 20px;margin:18px 0;background:#fff}
+section>p.lead{color:var(--muted);margin:0 0 12px;font-size:13.5px}
+.pill{display:inline-block;border-radius:999px;padding:3px 12px;font-size:14px;font-weight:600;border:1px solid;margin:8px 0 4px}
+.pill.ok{background:#e3f3ec;color:#00573d;border-color:var(--green)}
+.pill.bad{background:#fbe6da;color:#8a3300;border-color:var(--vermillion)}
+.pill.warn{background:#fdf2d3;color:#5c4100;border-color:var(--orange)}
+.cards{display:grid;grid-template-columns:repeat(auto-fill,minmax(168px,1fr));gap:10px}
+.card{border:1px solid var(--line);border-radius:8px;padding:10px 12px;background:var(--panel)}
+.card .label{font-size:11.5px;color:var(--muted);text-transform:uppercase;letter-spacing:.05em}
+.card .num{font-size:22px;font-weight:650;font-variant-numeric:tabular-nums}
+.card .sub{font-size:12.5px;color:var(--muted)}
+.card .sub .num{font-size:inherit;font-weight:600;color:var(--ink)}
+.card.alert{border-color:var(--vermillion);background:#fdf1ea}
+svg.chart{width:100%;height:auto;display:block;margin-top:6px}
+svg.defs{position:absolute}
+svg text{font-family:var(--font);font-size:12px;fill:var(--ink)}
+.axis text{fill:var(--muted)}
+.axis .caption{fill:var(--muted);font-size:12px}
+.grid{stroke:#e6e9ee;stroke-width:1}
+.tick,.baseline{stroke:#8a919e;stroke-width:1}
+.lane{fill:#f6f7f9}.lane.odd{fill:#eceff3}
+.lane-label{fill:var(--muted)}
+.bar.done{fill:var(--blue)}
+.bar.retried{fill:url(#ff-hatch-retried);stroke:#9a6700;stroke-width:1.5;stroke-dasharray:3 2}
+.bar:not(.done):not(.retried){fill:url(#ff-hatch-failed);stroke:var(--vermillion);stroke-width:1.5}
+.attempt:hover .bar{stroke:#000;stroke-width:2}
+.hatch-bg-failed{fill:#fbe0cc}.hatch-line-failed{stroke:var(--vermillion);stroke-width:2.5}
+.hatch-bg-retried{fill:#fdf0cf}.hatch-line-retried{stroke:var(--orange);stroke-width:1.4}
+.bar-label{fill:#fff;font-size:11px;pointer-events:none}
+.bar-mark{font-size:13px;font-weight:700;pointer-events:none}
+.area{fill:rgba(0,114,178,.16)}.series{fill:none;stroke:var(--blue);stroke-width:2}
+.hover{fill:transparent}.hover:hover{fill:rgba(0,0,0,.06)}
+.bad{fill:var(--vermillion)}.bad:hover{fill:#8a3300}
+.hist{fill:var(--sky)}.hist.straggler{fill:var(--vermillion)}
+.marker{stroke-width:1.5}.marker.median{stroke:var(--ink);stroke-dasharray:5 3}
+.marker.threshold{stroke:var(--vermillion);stroke-dasharray:2 3}
+.marker-label{font-size:12px}
+.ideal{stroke:#8a919e;stroke-width:1.5;stroke-dasharray:6 4}
+.bound{fill:none;stroke:var(--orange);stroke-width:2.5;stroke-dasharray:1 4;stroke-linecap:round}
+.measured{fill:none;stroke:var(--blue);stroke-width:2.5}
+.point{fill:var(--blue);stroke:#fff;stroke-width:2}
+.point-label{font-weight:600}
+.series-label{font-size:12.5px}.ideal-label{fill:var(--muted)}.bound-label{fill:#8a5a00}.measured-label{fill:var(--blue)}
+.legend{display:flex;flex-wrap:wrap;gap:6px 18px;font-size:13px;color:var(--muted);margin:4px 0 0;padding:0;list-style:none}
+.legend li{display:flex;align-items:center;gap:6px}
+.sw{display:inline-block;width:22px;height:12px;border-radius:2px;vertical-align:middle}
+.sw.done{background:var(--blue)}
+.sw.failed{background:repeating-linear-gradient(45deg,var(--vermillion) 0 2px,#fbe0cc 2px 5px);border:1px solid var(--vermillion)}
+.sw.retried{background:#fdf0cf;border:1.5px dashed #9a6700}
+.sw.line{height:0;border-top:2.5px solid var(--blue);border-radius:0}
+.sw.line.ideal{border-top:2px dashed #8a919e}.sw.line.bound{border-top:3px dotted var(--orange)}
+.sw.sky{background:var(--sky)}.sw.verm{background:var(--vermillion)}
+.two{display:grid;grid-template-columns:minmax(0,1.3fr) minmax(0,1fr);gap:20px;align-items:start}
+@media (max-width:900px){.two{grid-template-columns:1fr}}
+.narrow{max-width:760px;margin-bottom:14px}
+table{border-collapse:collapse;width:100%;font-size:13px}
+th,td{padding:5px 8px;border-bottom:1px solid var(--line);text-align:left;vertical-align:top}
+th{border-bottom:2px solid #c6ccd5;font-weight:600;white-space:nowrap}
+td.n,th.n{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}
+table.sortable th{cursor:pointer}
+table.sortable th[aria-sort=ascending]::after{content:" \25B2";font-size:10px}
+table.sortable th[aria-sort=descending]::after{content:" \25BC";font-size:10px}
+tr.flag td{background:#fdf1ea}
+code,.mono{font-family:"DejaVu Sans Mono",Menlo,Consolas,monospace;font-size:12.5px}
+.phases{display:flex;height:30px;border-radius:6px;overflow:hidden;margin:6px 0 8px}
+.phases div{display:flex;align-items:center;justify-content:center;color:#fff;font-size:12.5px;font-weight:600;white-space:nowrap;overflow:hidden}
+.ph-read{background:var(--sky);color:#0d2233 !important}.ph-parse{background:var(--blue)}
+.ph-aggregate{background:var(--green)}.ph-encode{background:var(--purple);color:#2a0f20 !important}
+.hbar{display:inline-block;height:12px;background:var(--vermillion);vertical-align:middle;margin-right:8px;border-radius:2px}
+details summary{cursor:pointer;font-weight:600;margin:4px 0}
+.note{color:var(--muted);font-size:13px}
+.warn-list{color:#5c4100;font-size:13px}
+footer{color:var(--muted);font-size:12.5px;margin-top:24px}
+)CSS";
+
+const char kScript[] = R"JS(
+(function () {
+  function cellValue(row, i) {
+    var c = row.cells[i];
+    return c ? (c.getAttribute('data-v') || c.textContent) : '';
+  }
+  function sortBy(th) {
+    var table = th.closest('table'), body = table.tBodies[0];
+    var i = Array.prototype.indexOf.call(th.parentNode.children, th);
+    var asc = th.getAttribute('aria-sort') !== 'ascending';
+    Array.prototype.forEach.call(th.parentNode.children, function (h) { h.removeAttribute('aria-sort'); });
+    th.setAttribute('aria-sort', asc ? 'ascending' : 'descending');
+    var rows = Array.prototype.slice.call(body.rows);
+    rows.sort(function (a, b) {
+      var x = cellValue(a, i), y = cellValue(b, i), nx = parseFloat(x), ny = parseFloat(y);
+      var c = (!isNaN(nx) && !isNaN(ny)) ? nx - ny : x.localeCompare(y);
+      return asc ? c : -c;
+    });
+    rows.forEach(function (r) { body.appendChild(r); });
+  }
+  document.querySelectorAll('table.sortable th').forEach(function (th) {
+    th.tabIndex = 0;
+    th.addEventListener('click', function () { sortBy(th); });
+    th.addEventListener('keydown', function (e) {
+      if (e.key === 'Enter' || e.key === ' ') { e.preventDefault(); sortBy(th); }
+    });
+  });
+  document.documentElement.setAttribute('data-ready', '1');
+})();
+)JS";
+
+std::string PageStart(const std::string& title) {
+  return "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
+         "<meta name=\"viewport\" content=\"width=device-width,initial-scale=1\">"
+         "<meta name=\"generator\" content=\"fanfold " FANFOLD_VERSION "\">"
+         "<title>" + Esc(title) + "</title><style>" + kCss + "</style></head><body>" + ChartDefsSvg() + "<main>";
+}
+
+std::string PageEnd(const std::string& footer) {
+  return "<footer>" + footer + "</footer></main><script>" + kScript + "</script></body></html>\n";
+}
+
+// A number in the summary: visible text plus the summary.json key and raw value.
+std::string Num(const std::string& key, const std::string& raw, const std::string& shown) {
+  return "<span class=\"num\" data-summary=\"" + key + "\" data-value=\"" + raw + "\">" + Esc(shown) + "</span>";
+}
+std::string Int(const std::string& key, uint64_t v) { return Num(key, std::to_string(v), GroupedInteger(v)); }
+
+std::string Card(const std::string& label, const std::string& value, const std::string& sub, bool alert = false) {
+  return std::string("<div class=\"card") + (alert ? " alert" : "") + "\"><div class=\"label\">" + Esc(label) +
+         "</div><div>" + value + "</div>" + (sub.empty() ? "" : "<div class=\"sub\">" + sub + "</div>") + "</div>";
+}
+
+std::string SummarySection(const RunRecord& r, const RunAnalysis& a) {
+  const RunTotals& t = a.totals;
+  const double mbps = t.wall_seconds > 0 ? static_cast<double>(t.bytes_decompressed) / 1e6 / t.wall_seconds : 0;
+  const double rps = t.wall_seconds > 0 ? static_cast<double>(t.records_read) / t.wall_seconds : 0;
+  std::string h = "<section id=\"summary\" data-source=\"" + std::string(t.from_summary ? "summary.json" : "journal") +
+                  "\"><h2>Summary</h2><p class=\"lead\">" +
+                  (t.from_summary ? std::string("From the run's summary.json.")
+                                  : std::string("The run has no summary.json yet; these totals are added up from "
+                                                "its journal.")) +
+                  "</p><div class=\"cards\">";
+  h += Card("Shards done", Int("shards.done", t.shards_done), "of " + Int("shards.total", t.shards_total) + " shards");
+  h += Card("Failed shards", Int("shards.failed", t.shards_failed),
+            t.shards_failed ? "see “Failed shards” below" : "none", t.shards_failed > 0);
+  h += Card("Retries", Int("shards.retries", t.retries), "re-run after a crash, time-out or corrupt partial");
+  h += Card("Reused", Int("shards.reused", t.shards_reused), "partials kept from an earlier session");
+  h += Card("Records read", Int("records.read", t.records_read), "kept " + Int("records.kept", t.records_kept));
+  h += Card("Malformed records", Int("records.malformed", t.records_malformed), "skipped and counted",
+            t.records_malformed > 0);
+  h += Card("Input read", Num("bytes.compressed", std::to_string(t.bytes_compressed), Megabytes(t.bytes_compressed)),
+            Num("bytes.decompressed", std::to_string(t.bytes_decompressed), Megabytes(t.bytes_decompressed)) +
+                " decompressed");
+  h += Card("Wall time", Num("wall_seconds", Fmt("%.17g", t.wall_seconds), Fmt("%.2f s", t.wall_seconds)),
+            Fmt("%.1f MB/s", mbps) + " · " + GroupedInteger(static_cast<uint64_t>(rps + 0.5)) + " records/s" +
+                (r.sessions.size() > 1 && t.from_summary ? " (the last session)" : ""));
+  h += Card("Workers", Num("workers", std::to_string(t.workers), std::to_string(t.workers)),
+            std::to_string(r.sessions.size()) + (r.sessions.size() == 1 ? " session" : " sessions"));
+  h += "</div>";
+  if (!r.summary.skipped.empty()) {
+    std::string sk;
+    for (const auto& [m, n] : r.summary.skipped)
+      if (n) sk += (sk.empty() ? "" : ", ") + Esc(m) + " " + GroupedInteger(n);
+    if (!sk.empty()) h += "<p class=\"note\">Values skipped by numeric measures (missing, null or not numbers): " + sk + ".</p>";
+  }
+  return h + "</section>";
+}
+
+std::string Legend() {
+  return "<ul class=\"legend\"><li><span class=\"sw done\"></span>done (shard number inside when it fits)</li>"
+         "<li><span class=\"sw retried\"></span>\u21BB worker died, timed out or sent a corrupt partial; retried</li>"
+         "<li><span class=\"sw failed\"></span>\u2715 failed: bad data, or quarantined after its last attempt</li>"
+         "<li>hover a bar for shard, times and records</li></ul>";
+}
+
+std::string SessionSection(const RunRecord& r, const SessionView& v, size_t ordinal) {
+  const RunSession& s = r.sessions[v.session];
+  size_t failed = 0, retried = 0;
+  for (size_t i : v.attempts) {
+    const AttemptEntry& e = r.attempts[i];
+    if (!e.final) ++retried;
+    else if (!e.done()) ++failed;
+  }
+  std::string name = s.mode == "resume" ? "resume" : "run";
+  if (r.sessions.size() > 1) name += " (session " + std::to_string(ordinal + 1) + " of " + std::to_string(r.sessions.size()) + ")";
+  std::string h = "<section class=\"session\" data-session=\"" + std::to_string(v.session) + "\"><h2>Timeline — " +
+                  Esc(name) + "</h2><p class=\"lead\">" + std::to_string(v.attempts.size()) + " attempts on " +
+                  std::to_string(v.lanes) + (v.lanes == 1 ? " worker" : " workers") + " over " +
+                  DurationText(v.span_s) + "; " + std::to_string(retried) + " retried, " + std::to_string(failed) +
+                  " failed. Largest shards are dispatched first." +
+                  (s.interrupted ? " Interrupted after " + DurationText(v.span_s) +
+                                       "; shards in flight then left no attempt in the journal."
+                                 : std::string()) +
+                  "</p>";
+  h += TimelineSvg(r, v) + Legend();
+  h += "<h2 style=\"margin-top:18px\">Throughput over time</h2><p class=\"lead\">Decompressed input per second, "
+       "each shard's bytes spread evenly over its attempt; hover for records/s.</p>";
+  h += ThroughputSvg(v);
+  return h + "</section>";
+}
+
+std::string ShardTimesSection(const RunRecord& r, const RunAnalysis& a) {
+  if (a.shard_times.empty()) return "";
+  std::string h = "<section id=\"shard-times\"><h2>Shard times</h2><p class=\"lead\">Median " +
+                  DurationText(a.median_s) + ", quartiles " + DurationText(a.q1_s) + " – " + DurationText(a.q3_s) +
+                  ". A straggler takes longer than Tukey's upper fence (Q3 + 1.5 × IQR) and at least " +
+                  Fmt("%.1f", kStragglerMinRatio) + " × the median: " + std::to_string(a.straggler_count) +
+                  (a.straggler_count == 1 ? " shard." : " shards.") + "</p><div class=\"two\"><div>" +
+                  ShardTimeHistogramSvg(a) +
+                  "<ul class=\"legend\"><li><span class=\"sw sky\"></span>shards</li><li><span class=\"sw verm\">"
+                  "</span>bin holding a straggler</li></ul></div><div><table><thead><tr><th>slowest shards</th>"
+                  "<th class=\"n\">time</th><th class=\"n\">× median</th><th class=\"n\">records</th></tr></thead><tbody>";
+  for (const ShardTime& t : a.slowest) {
+    h += std::string("<tr") + (t.straggler ? " class=\"flag\"" : "") + "><td title=\"" + Esc(r.ShardPath(t.shard)) +
+         "\">" + std::to_string(t.shard) + " · " + Esc(FileName(r.ShardPath(t.shard))) +
+         (t.straggler ? " <strong>(straggler)</strong>" : "") + "</td><td class=\"n\">" + DurationText(t.seconds) +
+         "</td><td class=\"n\">" + Fmt("%.2f", a.median_s > 0 ? t.seconds / a.median_s : 0) + "</td><td class=\"n\">" +
+         GroupedInteger(t.records) + "</td></tr>";
+  }
+  return h + "</tbody></table></div></div></section>";
+}
+
+std::string PhaseSection(const RunAnalysis& a) {
+  const uint64_t total = a.read_ns + a.parse_ns + a.aggregate_ns + a.encode_ns;
+  if (total == 0) return "";
+  struct Ph { const char* cls; const char* name; uint64_t ns; };
+  const Ph ph[] = {{"ph-read", "reading + decompressing", a.read_ns},
+                   {"ph-parse", "parsing", a.parse_ns},
+                   {"ph-aggregate", "filtering + aggregating", a.aggregate_ns},
+                   {"ph-encode", "encoding the partial", a.encode_ns}};
+  std::string bar = "<div class=\"phases\" role=\"img\" aria-label=\"Share of worker time per phase\">";
+  std::string legend = "<ul class=\"legend\">";
+  for (const Ph& p : ph) {
+    const double pct = 100.0 * static_cast<double>(p.ns) / static_cast<double>(total);
+    bar += std::string("<div class=\"") + p.cls + "\" style=\"width:" + Fmt("%.3f", pct) + "%\" title=\"" + p.name +
+           ": " + DurationText(p.ns / 1e9) + "\">" + (pct >= 7 ? Fmt("%.0f%%", pct) : "") + "</div>";
+    legend += std::string("<li><span class=\"sw ") + p.cls + "\"></span>" + p.name + ": " +
+              DurationText(p.ns / 1e9) + " (" + Fmt("%.1f%%", pct) + ")</li>";
+  }
+  return "<section id=\"phases\"><h2>Where the workers' time went</h2><p class=\"lead\">Summed over every finished "
+         "attempt, as each worker measured it: " + DurationText(total / 1e9) + " in all.</p>" + bar + "</div>" +
+         legend + "</ul></section>";
+}
+
+std::string BadRecordsSection(const RunRecord& r, const RunAnalysis& a) {
+  if (a.malformed_by_shard.empty() && r.summary.samples.empty()) return "";
+  std::vector<std::pair<uint32_t, uint64_t>> worst = a.malformed_by_shard;
+  std::stable_sort(worst.begin(), worst.end(), [](const auto& x, const auto& y) { return x.second > y.second; });
+  if (worst.size() > 8) worst.resize(8);
+  uint64_t most = worst.empty() ? 1 : worst[0].second;
+  std::string h = "<section id=\"bad-records\"><h2>Bad records</h2><p class=\"lead\">Malformed records per shard "
+                  "(skipped and counted): " + std::to_string(a.malformed_by_shard.size()) + " of " +
+                  std::to_string(r.manifest.shards.shards.size()) + " shards have some, " +
+                  GroupedInteger(a.totals.records_malformed) + " in all. Hover a column for its file.</p>" +
+                  MalformedSvg(r, a) + "<div class=\"two\"><div><table class=\"sortable\"><thead><tr>"
+                  "<th class=\"n\">shard</th><th>file (most malformed first)</th><th>malformed</th></tr></thead><tbody>";
+  for (const auto& [s, n] : worst) {
+    h += "<tr><td class=\"n\">" + std::to_string(s) + "</td><td title=\"" + Esc(r.ShardPath(s)) + "\">" +
+         Esc(FileName(r.ShardPath(s))) + "</td><td data-v=\"" + std::to_string(n) + "\"><span class=\"hbar\" style=\"width:" +
+         Fmt("%.0f", 4 + 120.0 * static_cast<double>(n) / static_cast<double>(most)) + "px\"></span>" +
+         GroupedInteger(n) + "</td></tr>";
+  }
+  h += "</tbody></table></div><div><table><thead><tr><th>sample</th><th class=\"n\">line</th><th>reason</th></tr>"
+       "</thead><tbody>";
+  for (const auto& m : r.summary.samples)
+    h += "<tr><td title=\"" + Esc(m.path) + "\">" + std::to_string(m.shard) + " · " + Esc(FileName(m.path)) +
+         "</td><td class=\"n\">" + std::to_string(m.line) + "</td><td>" + Esc(m.reason) + "</td></tr>";
+  if (r.summary.samples.empty()) h += "<tr><td colspan=\"3\" class=\"note\">no samples recorded</td></tr>";
+  return h + "</tbody></table></div></div></section>";
+}
+
+std::string FailuresSection(const RunRecord& r, const RunAnalysis& a) {
+  std::string h = "<section id=\"failures\"><h2>Failed shards</h2>";
+  if (a.failures.empty()) return h + "<p class=\"lead\">None: every shard that was attempted finished.</p></section>";
+  h += "<p class=\"lead\">Their records are missing from the result; <code>fanfold resume</code> tries them again."
+       "</p><table><thead><tr><th class=\"n\">shard</th><th>file</th><th class=\"n\">attempts</th><th>reason</th>"
+       "</tr></thead><tbody>";
+  for (const FailureView& f : a.failures)
+    h += "<tr class=\"flag\"><td class=\"n\">" + std::to_string(f.shard) + "</td><td title=\"" + Esc(f.path) + "\">" +
+         Esc(FileName(f.path)) + "</td><td class=\"n\">" + std::to_string(f.attempts) + "</td><td>\u2715 " +
+         Esc(f.reason) + "</td></tr>";
+  return h + "</tbody></table></section>";
+}
+
+std::string AllShardsSection(const RunRecord& r) {
+  std::map<uint32_t, std::pair<const AttemptEntry*, uint32_t>> last;  // shard -> (last attempt, attempts)
+  for (const AttemptEntry& e : r.attempts) {
+    auto& slot = last[e.shard];
+    slot.first = &e;
+    ++slot.second;
+  }
+  auto ms = [](uint64_t ns) { return Fmt("%.1f", ns / 1e6); };
+  std::string h = "<section id=\"shards\"><details><summary>All " + std::to_string(r.manifest.shards.shards.size()) +
+                  " shards: last attempt, phases and counts (click a heading to sort)</summary><table class=\"sortable\">"
+                  "<thead><tr><th class=\"n\">shard</th><th>file</th><th>outcome</th><th class=\"n\">worker</th>"
+                  "<th class=\"n\">attempts</th><th class=\"n\">ms</th><th class=\"n\">read ms</th>"
+                  "<th class=\"n\">parse ms</th><th class=\"n\">aggregate ms</th><th class=\"n\">encode ms</th>"
+                  "<th class=\"n\">MB in</th><th class=\"n\">MB raw</th><th class=\"n\">records</th>"
+                  "<th class=\"n\">kept</th><th class=\"n\">malformed</th></tr></thead><tbody>";
+  for (const Shard& s : r.manifest.shards.shards) {
+    auto it = last.find(s.index);
+    h += "<tr><td class=\"n\">" + std::to_string(s.index) + "</td><td title=\"" + Esc(s.path) + "\">" +
+         Esc(FileName(s.path)) + "</td>";
+    if (it == last.end()) {
+      h += "<td colspan=\"13\" class=\"note\">no attempt in this journal</td></tr>";
+      continue;
+    }
+    const AttemptEntry& e = *it->second.first;
+    h += "<td>" + Esc(e.done() ? "done" : e.outcome) + "</td><td class=\"n\">" + std::to_string(e.worker) +
+         "</td><td class=\"n\">" + std::to_string(it->second.second) + "</td><td class=\"n\">" +
+         Fmt("%.1f", e.seconds() * 1e3) + "</td><td class=\"n\">" + ms(e.read_ns) + "</td><td class=\"n\">" +
+         ms(e.parse_ns) + "</td><td class=\"n\">" + ms(e.aggregate_ns) + "</td><td class=\"n\">" + ms(e.encode_ns) +
+         "</td><td class=\"n\">" + Fmt("%.2f", e.bytes_in / 1e6) + "</td><td class=\"n\">" +
+         Fmt("%.2f", e.bytes_raw / 1e6) + "</td><td class=\"n\">" + std::to_string(e.records) +
+         "</td><td class=\"n\">" + std::to_string(e.kept) + "</td><td class=\"n\">" + std::to_string(e.malformed) +
+         "</td></tr>";
+  }
+  return h + "</tbody></table></details></section>";
+}
+
+std::string ScaleSection(const ScaleResult& s) {
+  std::string h = "<section id=\"scaling\"><h2>Scaling</h2><p class=\"lead\">The same job from scratch at each "
+                  "worker count, " + std::to_string(s.repeat) + (s.repeat == 1 ? " timed run" : " timed runs") +
+                  " each after an untimed warm-up run; " + std::to_string(s.shards) + " shards, " +
+                  Megabytes(s.bytes_decompressed) + " decompressed, on a machine with " + std::to_string(s.cores) +
+                  (s.cores == 1 ? " core" : " cores") + ". Results " +
+                  (s.identical_outputs ? "byte-identical in every run." : "<strong>differ between runs</strong>.") +
+                  "</p><div class=\"narrow\">" + ScalingSvg(s) +
+                  "<ul class=\"legend\"><li><span class=\"sw line\"></span>measured speedup (median)</li>"
+                  "<li><span class=\"sw line ideal\"></span>ideal, S = p</li><li><span class=\"sw line bound\"></span>"
+                  "bound from shard sizes: total / max(longest shard, total / p)</li></ul></div>"
+                  "<table><thead><tr><th class=\"n\">workers</th><th class=\"n\">median s</th><th class=\"n\">"
+                  "min–max s</th><th class=\"n\">MB/s</th><th class=\"n\">records/s</th><th class=\"n\">speedup</th><th class=\"n\">efficiency</th>"
+                  "<th class=\"n\">serial fraction</th><th class=\"n\">bound</th></tr></thead><tbody>";
+  for (const ScalePoint& p : s.points)
+    h += "<tr data-workers=\"" + std::to_string(p.workers) + "\"><td class=\"n\">" + std::to_string(p.workers) +
+         "</td><td class=\"n\">" + Fmt("%.3f", p.median_s) + "</td><td class=\"n\">" + Fmt("%.3f", p.min_s) + "–" +
+         Fmt("%.3f", p.max_s) + "</td><td class=\"n\">" + Fmt("%.1f", p.mb_per_s) + "</td><td class=\"n\">" +
+         GroupedInteger(static_cast<uint64_t>(p.records_per_s + 0.5)) + "</td><td class=\"n\">" + Fmt("%.2f×", p.speedup) + "</td><td class=\"n\">" + Fmt("%.0f%%", p.efficiency * 100) +
+         "</td><td class=\"n\">" + (p.karp_flatt ? Fmt("%.3f", *p.karp_flatt) : "–") + "</td><td class=\"n\">" +
+         Fmt("%.2f×", p.skew_bound) + "</td></tr>";
+  h += "</tbody></table><p class=\"note\">Serial fraction: Karp and Flatt's e = (1/S − 1/p) / (1 − 1/p); a value "
+       "that grows with p points to overhead that grows with workers rather than a fixed serial part.</p>";
+  if (!s.warnings.empty()) {
+    h += "<ul class=\"warn-list\">";
+    for (const auto& w : s.warnings) h += "<li>" + Esc(w) + "</li>";
+    h += "</ul>";
+  }
+  return h + "</section>";
+}
+
+std::string StatusPill(const RunAnalysis& a) {
+  if (a.status == "finished") return "<span class=\"pill ok\">\u2713 finished</span>";
+  if (a.status == "finished with failed shards")
+    return "<span class=\"pill bad\">\u2715 finished with " + std::to_string(a.totals.shards_failed) +
+           (a.totals.shards_failed == 1 ? " failed shard" : " failed shards") + "</span>";
+  if (a.status == "interrupted") return "<span class=\"pill warn\">! interrupted — resume it to finish</span>";
+  return "<span class=\"pill warn\">\u2026 unfinished (no summary.json)</span>";
+}
+
+}  // namespace
+
+std::string RenderReportHtml(const RunRecord& r, const RunAnalysis& a, const ScaleResult* scale) {
+  const std::string job = std::filesystem::path(r.manifest.job_path).stem().string();
+  std::string h = PageStart("fanfold report: " + job);
+  h += "<header><h1>Run report: " + Esc(job) + "</h1>" + StatusPill(a) + "<p class=\"meta\">job <code>" +
+       Esc(r.manifest.job_path) + "</code></p><p class=\"meta\">run directory <code>" + Esc(r.dir) +
+       "</code> · plan <code>" + Esc(r.manifest.fingerprint) + "</code> · started " + Esc(r.manifest.created_utc) +
+       " · format " + Esc(r.manifest.format) + "</p></header>";
+  h += SummarySection(r, a);
+  for (size_t i = 0; i < a.sessions.size(); ++i) h += SessionSection(r, a.sessions[i], i);
+  h += ShardTimesSection(r, a);
+  h += PhaseSection(a);
+  h += BadRecordsSection(r, a);
+  h += FailuresSection(r, a);
+  if (scale) h += ScaleSection(*scale);
+  h += AllShardsSection(r);
+  std::string footer = "Written by fanfold " FANFOLD_VERSION " from " + Esc(r.dir) + ".";
+  for (const std::string& w : r.warnings) footer += "<br>Note: " + Esc(w);
+  return h + PageEnd(footer);
+}
+
+std::string RenderScaleHtml(const ScaleResult& s) {
+  const std::string job = std::filesystem::path(s.job).stem().string();
+  std::string h = PageStart("fanfold scale: " + job);
+  h += "<header><h1>Scaling: " + Esc(job) + "</h1><p class=\"meta\">job <code>" + Esc(s.job) + "</code> · measured " +
+       Esc(s.created) + "</p></header>";
+  h += ScaleSection(s);
+  return h + PageEnd("Written by fanfold " FANFOLD_VERSION " (fanfold scale).");
+}
+
+}  // namespace fanfold

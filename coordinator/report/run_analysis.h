@@ -1,0 +1,77 @@
+// RunAnalysis: what `fanfold report` shows, computed once from a RunRecord —
+// per session the worker lanes and throughput over time, the distribution
+// of shard times with its stragglers, where the workers' time went, bad
+// records per shard, failed shards, and the totals (from summary.json when
+// the run finished, else added up from the journal). Also the short text
+// summary for the terminal. Pure functions of the record; thread-safe.
+#pragma once
+
+#include <cstdint>
+#include <string>
+#include <vector>
+
+#include "coordinator/rundir/run_record_reader.h"
+
+namespace fanfold {
+
+struct SessionView {
+  size_t session = 0;              // index into RunRecord::sessions
+  std::vector<size_t> attempts;    // indices into RunRecord::attempts
+  int lanes = 1;                   // worker slots drawn
+  uint64_t t0_ns = 0;              // the session's time origin
+  double span_s = 0;               // seconds from t0 to the last attempt's end (or the finish)
+  double bin_s = 0;                // throughput bin width
+  std::vector<double> mb_per_s;    // decompressed MB/s per bin
+  std::vector<double> records_per_s;
+};
+
+struct ShardTime {
+  uint32_t shard = 0;
+  double seconds = 0;  // the shard's successful attempt, start to end
+  uint64_t records = 0;
+  int worker = 0;
+  bool straggler = false;
+};
+
+struct FailureView {
+  uint32_t shard = 0;
+  std::string path, reason;
+  uint32_t attempts = 0;
+};
+
+struct RunTotals {
+  bool from_summary = false;  // false: added up from the journal (unfinished run)
+  uint64_t shards_total = 0, shards_done = 0, shards_failed = 0, shards_reused = 0, retries = 0;
+  uint64_t records_read = 0, records_kept = 0, records_malformed = 0;
+  uint64_t bytes_compressed = 0, bytes_decompressed = 0;
+  double wall_seconds = 0;
+  int workers = 0;
+};
+
+struct RunAnalysis {
+  RunTotals totals;
+  std::vector<SessionView> sessions;
+  std::vector<ShardTime> shard_times;  // done shards, by shard index
+  // Type 7 quartiles (Hyndman & Fan 1996) of the shard times, and Tukey's
+  // upper fence Q3 + 1.5 IQR (Tukey, Exploratory Data Analysis, 1977).
+  double median_s = 0, q1_s = 0, q3_s = 0, fence_s = 0;
+  std::vector<ShardTime> slowest;  // up to 8, slowest first
+  size_t straggler_count = 0;
+  uint64_t read_ns = 0, parse_ns = 0, aggregate_ns = 0, encode_ns = 0;  // all done attempts
+  std::vector<std::pair<uint32_t, uint64_t>> malformed_by_shard;         // shards with any, by index
+  std::vector<FailureView> failures;
+  std::string status;  // "finished", "finished with failed shards", "interrupted", "unfinished"
+};
+
+// A straggler: above Tukey's upper fence and at least this many times the median.
+inline constexpr double kStragglerMinRatio = 1.5;
+
+RunAnalysis AnalyzeRun(const RunRecord& record);
+
+// Type 7 sample quantile of sorted values (Hyndman & Fan 1996); 0 if empty.
+double QuantileType7(const std::vector<double>& sorted, double p);
+
+// The terminal summary of `fanfold report`, one line per element.
+std::vector<std::string> FormatReportText(const RunRecord& record, const RunAnalysis& analysis);
+
+}  // namespace fanfold

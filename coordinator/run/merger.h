@@ -1,0 +1,99 @@
+// Merger: folds shard partial states into the run's result strictly in
+// shard-index order, whatever order they arrive in, so floating-point
+// results are identical for any worker count or schedule. Partials that
+// arrive early wait (as bytes) until every lower shard is merged or marked
+// failed. Owned and driven by the coordinator's run loop; not thread-safe.
+#pragma once
+
+#include <cstdint>
+#include <functional>
+#include <map>
+#include <string>
+#include <vector>
+
+#include "coordinator/output/output_table.h"
+#include "common/partial/partial_codec.h"
+#include "common/job/plan.h"
+#include "common/base/status.h"
+
+namespace fanfold {
+
+struct MergeTotals {
+  uint64_t shards_merged = 0;
+  uint64_t records = 0;    // read, malformed included
+  uint64_t kept = 0;
+  uint64_t malformed = 0;
+  uint64_t raw_bytes = 0;
+  uint64_t compressed_bytes = 0;
+};
+
+// A malformed record seen in some shard, for the run summary.
+struct MalformedReport {
+  uint32_t shard = 0;
+  MalformedSample sample;
+};
+
+class Merger {
+ public:
+  // Early partials kept in memory, at most (see SetReloader).
+  static constexpr uint64_t kDefaultWaitingBudget = uint64_t{2} << 20;  // 2 MiB
+
+  // REQUIRES: plan outlives the merger; shard_count = number of shards.
+  Merger(const Plan* plan, uint32_t shard_count, uint64_t waiting_budget = kDefaultWaitingBudget);
+
+  // Accepts shard's encoded partial. Fails if its header or checksum is bad
+  // or it is from another plan; the caller then treats the shard as failed
+  // (MarkFailed).
+  Status Add(uint32_t shard, std::string partial);
+  // Records that shard will never deliver a partial.
+  void MarkFailed(uint32_t shard);
+
+  // Where early partials can be read back from (the run directory). With a
+  // reloader set, partials that arrive before their turn are kept in memory
+  // only while they total at most the waiting budget; past that only their shard
+  // numbers are, so the coordinator's memory does not grow with the number
+  // of shards that finish out of order.
+  using Reloader = std::function<Status(uint32_t shard, std::string* out)>;
+  void SetReloader(Reloader reload) { reload_ = std::move(reload); }
+
+  // True iff every shard was added or marked failed.
+  bool complete() const { return next_ == shard_count_; }
+  const MergeTotals& totals() const { return totals_; }
+  const std::vector<MalformedReport>& malformed_samples() const { return samples_; }
+  // Shards whose partial passed Add's checks but failed to decode when their
+  // turn came (a bug or a forged file): shard and message.
+  const std::vector<std::pair<uint32_t, std::string>>& late_failures() const { return late_failures_; }
+
+  // The finished table: key columns, then the measures' columns; sorted by
+  // key. Fails if merging pushed a bounded measure past its limit.
+  // REQUIRES: complete().
+  Result<OutputTable> Finish();
+  // After Finish: per measure, the values it skipped (missing, null or not
+  // usable, e.g. text for a numeric measure), over all groups.
+  const std::vector<uint64_t>& skipped() const { return skipped_; }
+  // After Finish: per measure, the groups whose result is not exact although
+  // the measure is exact within its bound (MeasureState::degraded).
+  const std::vector<uint64_t>& degraded() const { return degraded_; }
+
+ private:
+  void Drain();  // merges every ready partial starting at next_
+
+  const Plan* plan_;
+  uint32_t shard_count_;
+  uint32_t next_ = 0;  // lowest shard not yet merged or skipped
+  std::vector<MeasureConfig> configs_;
+  GroupTable result_;
+  uint64_t waiting_budget_;
+  std::map<uint32_t, std::string> waiting_;  // early partials by shard ("" = reload it)
+  uint64_t waiting_bytes_ = 0;               // their total size
+  Reloader reload_;
+  std::vector<bool> failed_;
+  MergeTotals totals_;
+  std::vector<MalformedReport> samples_;
+  std::vector<std::pair<uint32_t, std::string>> late_failures_;
+  std::vector<uint64_t> skipped_;
+  std::vector<uint64_t> degraded_;
+  Status fatal_;  // first merge failure (a limit exceeded across shards)
+};
+
+}  // namespace fanfold

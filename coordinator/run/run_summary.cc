@@ -1,0 +1,48 @@
+#include "coordinator/run/run_summary.h"
+
+#include <cstdio>
+
+namespace fanfold {
+
+std::string GroupedInteger(uint64_t n) {
+  std::string digits = std::to_string(n);
+  std::string out;
+  for (size_t i = 0; i < digits.size(); ++i) {
+    if (i > 0 && (digits.size() - i) % 3 == 0) out.push_back(',');
+    out.push_back(digits[i]);
+  }
+  return out;
+}
+
+std::string Megabytes(uint64_t bytes) {
+  char buf[32];
+  snprintf(buf, sizeof buf, "%.1f MB", static_cast<double>(bytes) / 1e6);
+  return buf;
+}
+
+std::vector<std::string> FormatRunSummary(const RunSummary& s, const ShardList& list) {
+  std::vector<std::string> lines;
+  for (const auto& m : s.samples) {
+    // A chunk's reader counts lines from the chunk's first byte: say so,
+    // rather than print a line number that is wrong for the whole file.
+    const Shard& shard = list.shards[m.shard];
+    const std::string where = shard.offset > 0 ? " (the chunk from byte " + std::to_string(shard.offset) + ")" : "";
+    lines.push_back("malformed record: " + shard.path + where + " line " + std::to_string(m.sample.line) + ": " +
+                    m.sample.reason);
+  }
+  for (const auto& f : s.failures) lines.push_back("shard " + std::to_string(f.shard) + " failed: " + f.message);
+  const MergeTotals& t = s.totals;
+  char rate[64];
+  double mbps = s.wall_seconds > 0 ? static_cast<double>(t.raw_bytes) / 1e6 / s.wall_seconds : 0;
+  snprintf(rate, sizeof rate, "%.2f s, %.1f MB/s", s.wall_seconds, mbps);
+  std::string line = std::to_string(t.shards_merged) + " of " + std::to_string(s.shards_total) + " shards done, " +
+                     std::to_string(s.failures.size()) + " failed";
+  if (s.interrupted) line += " (interrupted)";
+  line += " | records: " + GroupedInteger(t.records) + " read, " + GroupedInteger(t.kept) + " kept, " +
+          GroupedInteger(t.malformed) + " malformed | " + Megabytes(t.compressed_bytes) + " in, " +
+          Megabytes(t.raw_bytes) + " decompressed | " + rate;
+  lines.push_back(line);
+  return lines;
+}
+
+}  // namespace fanfold

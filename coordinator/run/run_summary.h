@@ -1,0 +1,32 @@
+// RunSummary: the human-readable lines a run leaves on stderr — malformed
+// record samples, failed shards, and the one-line totals (shards, records,
+// bytes, wall time, MB/s). Formatting only; the caller decides when to print.
+#pragma once
+
+#include <string>
+#include <vector>
+
+#include "common/job/shard_list.h"
+#include "coordinator/run/merger.h"
+#include "coordinator/run/run_loop.h"
+
+namespace fanfold {
+
+struct RunSummary {
+  size_t shards_total = 0;
+  MergeTotals totals;
+  std::vector<MalformedReport> samples;
+  std::vector<ShardFailure> failures;
+  double wall_seconds = 0;
+  bool interrupted = false;
+};
+
+// "1,234,567"
+std::string GroupedInteger(uint64_t n);
+// "12.3 MB" (decimal megabytes, as disks and networks are sold)
+std::string Megabytes(uint64_t bytes);
+
+// The lines to print, each without a trailing newline.
+std::vector<std::string> FormatRunSummary(const RunSummary& s, const ShardList& list);
+
+}  // namespace fanfold

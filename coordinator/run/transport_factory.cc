@@ -1,0 +1,52 @@
+#include "coordinator/run/transport_factory.h"
+
+#include <unistd.h>
+
+#include <climits>
+#include <cstdlib>
+#include <filesystem>
+
+#include "common/job/job_loader.h"
+#include "common/transport/inprocess_transport.h"
+#include "common/transport/shm_transport.h"
+
+namespace fanfold {
+namespace {
+
+// fanfold-worker sits next to the fanfold binary (build tree and install
+// alike); FANFOLD_WORKER_BINARY overrides that for unusual layouts.
+Result<std::string> WorkerBinary() {
+  if (const char* env = std::getenv("FANFOLD_WORKER_BINARY"); env && *env) return std::string(env);
+  char self[PATH_MAX];
+  ssize_t n = ::readlink("/proc/self/exe", self, sizeof self - 1);
+  if (n <= 0) return Status::IoError("cannot find the fanfold executable (/proc/self/exe)");
+  self[n] = '\0';
+  std::filesystem::path worker = std::filesystem::path(self).parent_path() / "fanfold-worker";
+  if (::access(worker.c_str(), X_OK) != 0)
+    return Status::IoError("the worker program '" + worker.string() + "' is missing or not executable");
+  return worker.string();
+}
+
+}  // namespace
+
+Result<std::unique_ptr<Transport>> MakeTransport(const Plan& plan, const RunOptions& options, int workers,
+                                                 const std::string& spill_dir) {
+  if (options.in_process) {
+    std::unique_ptr<Transport> t = std::make_unique<InProcessTransport>(&plan, workers);
+    return t;
+  }
+  Result<std::string> binary = WorkerBinary();
+  if (!binary.ok()) return binary.status();
+  ShmTransportOptions o;
+  o.worker_binary = *binary;
+  o.worker_args = {std::filesystem::absolute(plan.spec.job_path).string(), FormatName(plan.format),
+                   FingerprintHex(plan.fingerprint)};
+  o.worker_count = workers;
+  o.spill_dir = spill_dir;
+  Result<std::unique_ptr<ShmTransport>> t = ShmTransport::Create(o);
+  if (!t.ok()) return t.status();
+  std::unique_ptr<Transport> base = std::move(t.value());
+  return base;
+}
+
+}  // namespace fanfold

@@ -1,0 +1,20 @@
+// MakeTransport: picks and builds the Transport for a run — worker processes
+// over shared memory normally, the in-process one for `--in-process`.
+// The one place the coordinator names a concrete transport.
+#pragma once
+
+#include <memory>
+#include <string>
+
+#include "common/job/plan.h"
+#include "common/base/status.h"
+#include "coordinator/cli/run_command.h"
+#include "common/transport/transport.h"
+
+namespace fanfold {
+
+// spill_dir: where partials too big for shared memory are written.
+Result<std::unique_ptr<Transport>> MakeTransport(const Plan& plan, const RunOptions& options, int workers,
+                                                 const std::string& spill_dir);
+
+}  // namespace fanfold

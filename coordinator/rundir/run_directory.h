@@ -1,0 +1,112 @@
+// RunDirectory: the on-disk record of one run (layout: docs/run-directory.md)
+//   run.json        RunManifest, written once at the start
+//   journal.ndjson  append-only events (attempts, timings, failures), one JSON object a line
+//   partials/       packs of persisted partial states: pack-000007.ffpk, one
+//                   per commit batch (see kPackMagic below)
+//   result.<ext>    the output table, written at the end
+//   summary.json    machine-readable summary, written at the end
+//   lock            flock()ed while a coordinator works here
+// Durability: staged partials are appended to a temporary pack file; Commit()
+// fdatasyncs it, renames it into place, fsyncs the directory, then appends
+// and fdatasyncs the journal lines that say so. A shard counts as done only
+// once its partial is committed; a coordinator killed at any instant leaves
+// a directory `resume` can finish. One pack per batch (not one file per
+// shard) keeps thousands of tiny shards cheap. Owned by the coordinator
+// thread; not thread-safe.
+//
+// Pack file: a sequence of entries, each
+//   u32 magic "FFPK", u32 shard index, u64 partial length,
+//   u64 XXH3-64 of those 16 bytes, then the encoded partial (which carries
+//   its own checksum, docs/partial-state.md).
+// Readers stop at the first entry whose frame does not check out; when a
+// shard appears in several packs the highest-numbered pack wins.
+#pragma once
+
+#include <chrono>
+#include <cstdint>
+#include <map>
+#include <memory>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "common/base/status.h"
+#include "coordinator/rundir/run_manifest.h"
+
+namespace fanfold {
+
+class RunDirectory {
+ public:
+  ~RunDirectory();
+
+  // What a path holds, for `run`'s refusal message.
+  enum class State { kEmpty, kUnfinished, kFinished };
+  static State Probe(const std::string& path);
+
+  // Creates the directory (and parents), locks it and writes run.json.
+  // REQUIRES: Probe(path) == kEmpty, or fresh == true (then an old run there
+  // is removed first).
+  static Result<std::unique_ptr<RunDirectory>> Create(const std::string& path, const RunManifest& manifest,
+                                                      bool fresh);
+  // Opens and locks an existing run directory; reads its manifest.
+  static Result<std::unique_ptr<RunDirectory>> Open(const std::string& path, RunManifest* manifest);
+
+  const std::string& path() const { return path_; }
+
+  // Appends shard's partial to the batch's temporary pack (through a buffer
+  // of up to kStageBufferBytes, so tiny partials cost no system call each);
+  // Commit() makes it durable.
+  Status StagePartial(uint32_t shard, std::string_view bytes);
+  // Queues one journal line (a JSON object, no newline) for the next Commit.
+  void StageJournal(std::string line);
+  // True iff enough is staged (or staged long enough) to commit now.
+  bool commit_due() const;
+  // Makes everything staged durable, in the order described above.
+  Status Commit();
+
+  // Reads shard's committed partial (empty string iff there is none).
+  Status LoadPartial(uint32_t shard, std::string* out) const;
+  // Reads shard's partial staged in the open batch, else its committed one.
+  Status LoadStagedOrCommitted(uint32_t shard, std::string* out) const;
+  // Forgets shard's committed partial (a corrupt or stale one); a later
+  // commit of the shard supersedes it on disk too.
+  void DiscardPartial(uint32_t shard);
+  // Number of shards with a committed partial.
+  size_t committed_count() const { return index_.size(); }
+
+  // Atomically writes a file at the top of the run directory.
+  Status WriteFile(const std::string& name, std::string_view data) const;
+
+ private:
+  RunDirectory(std::string path, int lock_fd);
+  static Result<int> Lock(const std::string& path);
+  // Reads every committed pack into index_.
+  void IndexPacks();
+  std::string PackPath(uint64_t seq) const;
+  static Status ReadRange(const std::string& path, uint64_t offset, uint64_t length, std::string* out);
+
+  struct Location {
+    uint64_t pack = 0;    // pack sequence number
+    uint64_t offset = 0;  // of the partial's first byte
+    uint64_t length = 0;
+  };
+  std::string path_;
+  int lock_fd_ = -1;
+  std::map<uint32_t, Location> index_;  // committed partials by shard
+  uint64_t next_pack_ = 1;
+  static constexpr size_t kStageBufferBytes = size_t{1} << 20;
+  // Writes the stage buffer to the temporary pack; on failure drops the
+  // whole batch (those shards are simply not done).
+  Status FlushStaged();
+  // Drops the batch: closes and removes the temporary pack.
+  void DropBatch();
+
+  int pack_fd_ = -1;                    // the batch's temporary pack, or -1
+  uint64_t pack_size_ = 0;              // bytes staged in it, buffered ones included
+  std::string stage_buffer_;            // its last bytes, not yet written
+  std::vector<std::pair<uint32_t, Location>> staged_;
+  std::vector<std::string> journal_lines_;
+  std::chrono::steady_clock::time_point first_staged_;
+};
+
+}  // namespace fanfold

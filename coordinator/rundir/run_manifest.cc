@@ -1,0 +1,86 @@
+#include "coordinator/rundir/run_manifest.h"
+
+#include <nlohmann/json.hpp>
+
+#include "common/base/cell_text.h"
+#include "common/job/shard_list.h"
+
+namespace fanfold {
+
+using nlohmann::json;
+
+// Written by hand, one shard a line: a json document of 10,000 shard
+// objects cost more to build than the rest of a run of tiny shards.
+std::string EncodeManifest(const RunManifest& m) {
+  std::string out;
+  out.reserve(256 + m.shards.shards.size() * 160);
+  auto field = [&out](const char* key, const std::string& value, bool last = false) {
+    out += " \"";
+    out += key;
+    out += "\": ";
+    AppendJsonString(value, &out);
+    out += last ? "\n" : ",\n";
+  };
+  out += "{\n \"fanfold_run\": " + std::to_string(m.version) + ",\n";
+  field("job", m.job_path);
+  field("format", m.format);
+  field("plan", m.fingerprint);
+  field("plan_text", m.plan_text);
+  field("created", m.created_utc);
+  out += " \"shards\": [";
+  bool first = true;
+  for (const Shard& s : m.shards.shards) {
+    out += first ? "\n  {\"index\": " : ",\n  {\"index\": ";
+    first = false;
+    out += std::to_string(s.index) + ", \"path\": ";
+    AppendJsonString(s.path, &out);
+    out += ", \"size\": " + std::to_string(s.file_size) + ", \"mtime_ns\": " + std::to_string(s.mtime_ns) +
+           ", \"compression\": ";
+    AppendJsonString(CompressionName(s.compression), &out);
+    if (s.length != UINT64_MAX)
+      out += ", \"offset\": " + std::to_string(s.offset) + ", \"length\": " + std::to_string(s.length);
+    out += '}';
+  }
+  out += first ? "]\n}\n" : "\n ]\n}\n";
+  return out;
+}
+
+Result<RunManifest> DecodeManifest(const std::string& text, const std::string& where) {
+  json doc = json::parse(text, nullptr, false);
+  auto bad = [&](const std::string& what) {
+    return Status::Corrupt(where + ": not a fanfold run manifest (" + what + ")");
+  };
+  if (doc.is_discarded() || !doc.is_object()) return bad("not a JSON object");
+  try {
+    RunManifest m;
+    m.version = doc.at("fanfold_run").get<int>();
+    if (m.version != kRunDirectoryVersion)
+      return bad("version " + std::to_string(m.version) + ", expected " + std::to_string(kRunDirectoryVersion));
+    m.job_path = doc.at("job").get<std::string>();
+    m.format = doc.at("format").get<std::string>();
+    m.fingerprint = doc.at("plan").get<std::string>();
+    m.plan_text = doc.at("plan_text").get<std::string>();
+    m.created_utc = doc.at("created").get<std::string>();
+    if (!FormatFromText(m.format, &m.shards.format)) return bad("unknown format '" + m.format + "'");
+    for (const json& j : doc.at("shards")) {
+      Shard s;
+      s.index = j.at("index").get<uint32_t>();
+      s.path = j.at("path").get<std::string>();
+      s.file_size = j.at("size").get<uint64_t>();
+      s.mtime_ns = j.at("mtime_ns").get<int64_t>();
+      std::string c = j.at("compression").get<std::string>();
+      s.compression = c == "zstd" ? Compression::kZstd : c == "gzip" ? Compression::kGzip : Compression::kNone;
+      if (j.contains("offset")) {
+        s.offset = j.at("offset").get<uint64_t>();
+        s.length = j.at("length").get<uint64_t>();
+      }
+      if (s.index != m.shards.shards.size()) return bad("shard indices out of order");
+      m.shards.shards.push_back(s);
+    }
+    return m;
+  } catch (const json::exception& e) {
+    return bad(e.what());
+  }
+}
+
+}  // namespace fanfold

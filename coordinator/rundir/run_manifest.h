@@ -1,0 +1,34 @@
+// RunManifest: run.json, the definition of one run, written once when the
+// run starts: the job file, record format, plan fingerprint and canonical
+// plan text, and the shard list with each shard's identity (path, size,
+// mtime, byte range). `resume` trusts it, not a new expansion of the job's
+// patterns, so a resumed run finishes exactly the run that was started.
+// Layout: docs/run-directory.md. Plain data.
+#pragma once
+
+#include <cstdint>
+#include <string>
+#include <vector>
+
+#include "common/job/shard_list.h"
+#include "common/base/status.h"
+
+namespace fanfold {
+
+inline constexpr int kRunDirectoryVersion = 1;
+
+struct RunManifest {
+  int version = kRunDirectoryVersion;
+  std::string job_path;        // absolute
+  std::string format;          // "ndjson" | "csv" | "tsv"
+  std::string fingerprint;     // 16 hex digits
+  std::string plan_text;       // PlanCanonicalText
+  std::string created_utc;     // ISO 8601
+  ShardList shards;
+};
+
+std::string EncodeManifest(const RunManifest& m);
+// `where` names the file in error messages.
+Result<RunManifest> DecodeManifest(const std::string& text, const std::string& where);
+
+}  // namespace fanfold

@@ -1,0 +1,98 @@
+// RunRecord: what a run directory says about its run, read back for
+// `fanfold report` and `fanfold scale` — the manifest (job, plan, shards),
+// every journal event (sessions and attempts with the workers' timings) and
+// summary.json when the run finished. Layout: docs/run-directory.md. The
+// reader tolerates a journal line cut short by a crash (the last one) and
+// skips, with a warning, any other line that is not a journal event. Plain
+// data; ReadRunRecord is thread-safe (no shared state).
+#pragma once
+
+#include <cstdint>
+#include <map>
+#include <string>
+#include <vector>
+
+#include "common/base/status.h"
+#include "coordinator/rundir/run_manifest.h"
+
+namespace fanfold {
+
+// One "attempt" event of the journal.
+struct AttemptEntry {
+  uint32_t shard = 0;
+  uint32_t attempt = 1;
+  int worker = 0;
+  uint64_t start_ns = 0;  // wall clock, ns since the Unix epoch (coordinator)
+  uint64_t end_ns = 0;
+  std::string outcome;  // "done", "failed", "died", "timed-out"
+  bool final = true;    // false iff the shard was retried
+  size_t session = 0;   // index into RunRecord::sessions
+  // Done attempts only (zero otherwise), measured by the worker:
+  uint64_t records = 0, kept = 0, malformed = 0;
+  uint64_t bytes_in = 0, bytes_raw = 0;
+  uint64_t read_ns = 0, parse_ns = 0, aggregate_ns = 0, encode_ns = 0;
+  std::string message;  // failures: why
+
+  bool done() const { return outcome == "done"; }
+  double seconds() const { return end_ns > start_ns ? static_cast<double>(end_ns - start_ns) / 1e9 : 0.0; }
+};
+
+// One coordinator's stint: a "start" event up to its "finish"/"interrupted".
+struct RunSession {
+  std::string mode = "run";  // "run" or "resume"
+  int workers = 0;
+  uint64_t pending = 0, reused = 0;
+  uint64_t start_ns = 0;
+  uint64_t end_ns = 0;       // finish/interrupted time; 0 if the journal stops first
+  bool interrupted = false;
+  bool finished = false;
+};
+
+// summary.json, when present.
+struct SummaryRecord {
+  bool present = false;
+  std::string job, plan, output;
+  int workers = 0;
+  uint64_t shards_total = 0, shards_done = 0, shards_failed = 0, shards_reused = 0, retries = 0;
+  uint64_t records_read = 0, records_kept = 0, records_malformed = 0;
+  uint64_t bytes_compressed = 0, bytes_decompressed = 0;
+  double wall_seconds = 0;
+  struct Failed {
+    uint32_t shard = 0;
+    std::string path, reason;
+    uint32_t attempts = 0;
+  };
+  std::vector<Failed> failed;
+  struct Sample {
+    uint32_t shard = 0;
+    std::string path, reason;
+    uint64_t line = 0;
+  };
+  std::vector<Sample> samples;
+  std::map<std::string, uint64_t> skipped;  // per measure
+};
+
+struct RunRecord {
+  std::string dir;  // absolute
+  RunManifest manifest;
+  std::vector<RunSession> sessions;
+  std::vector<AttemptEntry> attempts;  // journal order
+  SummaryRecord summary;
+  std::vector<std::string> warnings;  // lines skipped, a torn tail, ...
+
+  // The shard's path, or "shard N" if the manifest lacks it.
+  std::string ShardPath(uint32_t shard) const;
+};
+
+// Reads run.json, journal.ndjson and (if present) summary.json of dir.
+// Fails iff run.json is missing or not a run manifest, or the journal
+// cannot be read; a missing summary.json is not an error (unfinished run).
+Result<RunRecord> ReadRunRecord(const std::string& dir);
+
+// Parses journal text into record (sessions, attempts, warnings). Exposed
+// for tests. `where` names the file in warnings.
+void ParseJournal(const std::string& text, const std::string& where, RunRecord* record);
+// Parses summary.json text into *out. Exposed for tests.
+Status ParseSummary(const std::string& text, const std::string& where, SummaryRecord* out);
+
+}  // namespace fanfold

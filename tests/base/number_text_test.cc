@@ -1,0 +1,98 @@
+// Tests for common/base/number_text: FormatNumber gives the shortest digits that
+// round-trip, the same digits Python's repr() chooses, in the documented
+// notation.
+#include "common/base/number_text.h"
+
+#include <doctest/doctest.h>
+
+#include <charconv>
+#include <cstdio>
+#include <sstream>
+#include <string>
+
+namespace fanfold {
+namespace {
+
+std::string Format(double v) {
+  char buf[kNumberTextMax];
+  return std::string(FormatNumber(v, buf));
+}
+
+// The significant digits of a decimal text: no sign, point, exponent, or
+// leading/trailing zeros ("-0.00120e+05" -> "12").
+std::string Digits(const std::string& s) {
+  std::string d;
+  for (char c : s) {
+    if (c == 'e' || c == 'E') break;
+    if (c >= '0' && c <= '9') d.push_back(c);
+  }
+  const size_t first = d.find_first_not_of('0');
+  if (first == std::string::npos) return "0";
+  d = d.substr(first);
+  return d.substr(0, d.find_last_not_of('0') + 1);
+}
+
+}  // namespace
+
+// Intent: the notation switches at 1e-6 and 1e16 as documented.
+TEST_CASE("FormatNumber notation") {
+  // Right-hand digits as Python 3.11 repr() prints them, notation ours.
+  CHECK(Format(0) == "0");
+  CHECK(Format(-0.0) == "0");
+  CHECK(Format(12) == "12");
+  CHECK(Format(-2.5) == "-2.5");
+  CHECK(Format(100000) == "100000");
+  CHECK(Format(1772719629) == "1772719629");
+  CHECK(Format(0.1 + 0.2) == "0.30000000000000004");  // repr(0.1 + 0.2)
+  CHECK(Format(0.000001) == "0.000001");
+  CHECK(Format(1e-7) == "1e-07");                     // repr(1e-7)
+  CHECK(Format(9999999999999998) == "9999999999999998");
+  CHECK(Format(1e16) == "1e+16");                     // repr(1e16)
+  CHECK(Format(1.2345678901234568e20) == "1.2345678901234568e+20");
+  CHECK(Format(-1.7976931348623157e308) == "-1.7976931348623157e+308");  // -sys.float_info.max
+  CHECK(Format(5e-324) == "5e-324");                  // smallest subnormal
+  CHECK(Format(1.0 / 0.0) == "inf");
+}
+
+// Intent: over random doubles of every magnitude the digits equal Python's
+// repr() digits and the text parses back to the same double.
+TEST_CASE("FormatNumber agrees with python3 repr") {
+  FILE* f = popen(R"(python3 - <<'PYEOF'
+import random, struct
+rnd = random.Random(42)
+for _ in range(20000):
+    x = struct.unpack('<d', struct.pack('<Q', rnd.getrandbits(64)))[0]
+    if x != x or x in (float('inf'), float('-inf')):
+        continue
+    print(repr(x))
+for _ in range(5000):
+    print(repr(rnd.randrange(-10**15, 10**15) / rnd.choice([1, 10, 100, 1000, 7])))
+PYEOF
+)", "r");
+  REQUIRE(f != nullptr);
+  std::string out;
+  char buf[4096];
+  size_t n;
+  while ((n = fread(buf, 1, sizeof buf, f)) > 0) out.append(buf, n);
+  pclose(f);
+  REQUIRE_MESSAGE(out.size() > 100000, "python3 did not run");
+  std::istringstream in(out);
+  std::string py;
+  int checked = 0;
+  while (in >> py) {
+    double x;
+    auto [p, ec] = std::from_chars(py.data(), py.data() + py.size(), x);
+    REQUIRE(ec == std::errc());
+    const std::string ours = Format(x);
+    CAPTURE(py);
+    CAPTURE(ours);
+    double back;
+    std::from_chars(ours.data(), ours.data() + ours.size(), back);
+    CHECK((back == x || (x == 0 && back == 0)));
+    CHECK(Digits(ours) == Digits(py));
+    ++checked;
+  }
+  CHECK(checked > 24000);
+}
+
+}  // namespace fanfold

@@ -1,0 +1,238 @@
+// Tests for common/expr/time_functions: ISO 8601 parsing and UTC bucketing,
+// checked against Python's datetime (tables embedded here, plus a random
+// sweep that runs python3 at test time).
+#include "common/expr/time_functions.h"
+
+#include <doctest/doctest.h>
+
+#include <cmath>
+#include <cstdio>
+#include <sstream>
+#include <string>
+
+namespace fanfold {
+namespace {
+
+std::string Bucket(double t, TimeUnit unit) {
+  char buf[kTimeLabelMax];
+  size_t n = FormatTimeBucket(t, unit, buf);
+  return std::string(buf, n);
+}
+
+// Runs a shell command and returns its stdout.
+std::string RunCommand(const std::string& cmd) {
+  std::string out;
+  FILE* f = popen(cmd.c_str(), "r");
+  if (f == nullptr) return out;
+  char buf[4096];
+  size_t n;
+  while ((n = fread(buf, 1, sizeof buf, f)) > 0) out.append(buf, n);
+  pclose(f);
+  return out;
+}
+
+}  // namespace
+
+// Intent: every accepted form parses to the epoch second Python computes.
+TEST_CASE("ParseIsoTimestamp accepts the documented forms") {
+  struct Case {
+    const char* text;
+    double epoch;
+  };
+  // Expected values computed with Python 3.11 datetime:
+  // datetime.fromisoformat(text) (naive taken as UTC) minus 1970-01-01T00:00Z.
+  const Case cases[] = {
+      {"2026-03-05", 1772668800.0},
+      {"2026-03-05T14:07", 1772719620.0},
+      {"2026-03-05 14:07:09", 1772719629.0},
+      {"2026-03-05T14:07:09Z", 1772719629.0},
+      {"2026-03-05T14:07:09.250Z", 1772719629.25},
+      {"2026-03-05T14:07:09.123456+01:00", 1772716029.123456},
+      {"2026-03-05T14:07:09-0530", 1772739429.0},
+      {"2026-03-05T14:07:09,5Z", 1772719629.5},
+      {"2024-02-29T23:59:59+00:00", 1709251199.0},
+      {"2000-02-29", 951782400.0},
+      {"1969-12-31T23:59:59Z", -1.0},
+      {"0001-01-01T00:00:00Z", -62135596800.0},
+      {"9999-12-31T23:59:59Z", 253402300799.0},
+      {"2026-03-05T00:30+01:00", 1772667000.0},
+  };
+  for (const Case& c : cases) {
+    CAPTURE(c.text);
+    double t = 0;
+    REQUIRE(ParseIsoTimestamp(c.text, &t));
+    CHECK(t == doctest::Approx(c.epoch).epsilon(1e-15));
+  }
+  // Fraction digits past the ninth are ignored; lowercase t and z per RFC 3339 §5.6.
+  double t = 0;
+  REQUIRE(ParseIsoTimestamp("2026-03-05t14:07:09.1234567891234z", &t));
+  CHECK(t == doctest::Approx(1772719629.123456789).epsilon(1e-15));
+}
+
+// Intent: out-of-range fields and malformed text are rejected, not misread.
+TEST_CASE("ParseIsoTimestamp rejects malformed timestamps") {
+  // Python 3.11's datetime.fromisoformat rejects each of the first eleven too
+  // ("day is out of range for month", "hour must be in 0..23", ...).
+  const char* bad[] = {
+      "2023-02-29", "1900-02-29", "2026-13-01", "2026-03-05T24:00", "2026-03-05T14:60",
+      "2026-03-05T14:07:60", "2026-03-05T", "2026-3-5", "2026-03-05Z", "2026-03-05T14:07:09.",
+      "0000-01-01",
+      // Outside the documented subset:
+      "2026-03-05T14", "2026-03-05T14:07+25:00", "2026-03-05T14:07+01", "2026-03-05T14:07:09+01:0",
+      " 2026-03-05", "2026-03-05 ", "2026-03-05T14:07.5", "2026/03/05", "20260305", "", "abc",
+      "2026-00-10", "2026-04-31", "2026-03-05T14:07:09.5X",
+  };
+  for (const char* s : bad) {
+    CAPTURE(s);
+    double t = 123;
+    CHECK_FALSE(ParseIsoTimestamp(s, &t));
+    CHECK(t == 123);  // untouched on failure
+  }
+}
+
+// Intent: labels, ISO weeks and weekdays match Python at year boundaries,
+// leap days and the ends of the supported range.
+TEST_CASE("FormatTimeBucket, HourOfDay and IsoWeekday agree with Python") {
+  struct Case {
+    double t;
+    const char* minute;
+    const char* hour;
+    const char* day;
+    const char* week;
+    const char* month;
+    int weekday;
+  };
+  // Computed with Python 3.11 datetime: t is 14:07:09 UTC on the day;
+  // week from date.isocalendar(), weekday as date.weekday() + 1.
+  const Case cases[] = {
+      {1609423629, "2020-12-31T14:07", "2020-12-31T14", "2020-12-31", "2020-W53", "2020-12", 4},
+      {1609682829, "2021-01-03T14:07", "2021-01-03T14", "2021-01-03", "2020-W53", "2021-01", 7},
+      {1609769229, "2021-01-04T14:07", "2021-01-04T14", "2021-01-04", "2021-W01", "2021-01", 1},
+      {1735481229, "2024-12-29T14:07", "2024-12-29T14", "2024-12-29", "2024-W52", "2024-12", 7},
+      {1735567629, "2024-12-30T14:07", "2024-12-30T14", "2024-12-30", "2025-W01", "2024-12", 1},
+      {1767276429, "2026-01-01T14:07", "2026-01-01T14", "2026-01-01", "2026-W01", "2026-01", 4},
+      {1451570829, "2015-12-31T14:07", "2015-12-31T14", "2015-12-31", "2015-W53", "2015-12", 4},
+      {1451830029, "2016-01-03T14:07", "2016-01-03T14", "2016-01-03", "2015-W53", "2016-01", 7},
+      {1798812429, "2027-01-01T14:07", "2027-01-01T14", "2027-01-01", "2026-W53", "2027-01", 5},
+      {1798985229, "2027-01-03T14:07", "2027-01-03T14", "2027-01-03", "2026-W53", "2027-01", 7},
+      {1230559629, "2008-12-29T14:07", "2008-12-29T14", "2008-12-29", "2009-W01", "2008-12", 1},
+      {1262527629, "2010-01-03T14:07", "2010-01-03T14", "2010-01-03", "2009-W53", "2010-01", 7},
+      {1709215629, "2024-02-29T14:07", "2024-02-29T14", "2024-02-29", "2024-W09", "2024-02", 4},
+      {951833229, "2000-02-29T14:07", "2000-02-29T14", "2000-02-29", "2000-W09", "2000-02", 2},
+      {-2203840371, "1900-03-01T14:07", "1900-03-01T14", "1900-03-01", "1900-W09", "1900-03", 4},
+      {-62135545971, "0001-01-01T14:07", "0001-01-01T14", "0001-01-01", "0001-W01", "0001-01", 1},
+      {253402265229, "9999-12-31T14:07", "9999-12-31T14", "9999-12-31", "9999-W52", "9999-12", 5},
+      {-35571, "1969-12-31T14:07", "1969-12-31T14", "1969-12-31", "1970-W01", "1969-12", 3},
+      {1772719629, "2026-03-05T14:07", "2026-03-05T14", "2026-03-05", "2026-W10", "2026-03", 4},
+      {50829, "1970-01-01T14:07", "1970-01-01T14", "1970-01-01", "1970-W01", "1970-01", 4},
+  };
+  for (const Case& c : cases) {
+    CAPTURE(c.day);
+    CHECK(Bucket(c.t, TimeUnit::kMinute) == c.minute);
+    CHECK(Bucket(c.t, TimeUnit::kHour) == c.hour);
+    CHECK(Bucket(c.t, TimeUnit::kDay) == c.day);
+    CHECK(Bucket(c.t, TimeUnit::kWeek) == c.week);
+    CHECK(Bucket(c.t, TimeUnit::kMonth) == c.month);
+    CHECK(HourOfDay(c.t) == 14);
+    CHECK(IsoWeekday(c.t) == c.weekday);
+  }
+}
+
+// Intent: negative and fractional seconds floor toward the earlier bucket,
+// and times outside 0001..9999 give no label rather than a wrong one.
+TEST_CASE("FormatTimeBucket floors and bounds its input") {
+  // 1970-01-01T00:00:00Z is epoch 0 (POSIX.1-2017 §4.16).
+  CHECK(Bucket(-0.25, TimeUnit::kMinute) == "1969-12-31T23:59");
+  CHECK(Bucket(59.999, TimeUnit::kMinute) == "1970-01-01T00:00");
+  CHECK(HourOfDay(-0.5) == 23);
+  CHECK(Bucket(kMinEpochSeconds, TimeUnit::kDay) == "0001-01-01");
+  CHECK(Bucket(kEndEpochSeconds - 0.5, TimeUnit::kMinute) == "9999-12-31T23:59");
+  CHECK(Bucket(kMinEpochSeconds - 1, TimeUnit::kDay).empty());
+  CHECK(Bucket(kEndEpochSeconds, TimeUnit::kDay).empty());
+  CHECK(Bucket(NAN, TimeUnit::kDay).empty());
+  CHECK(HourOfDay(1e300) == -1);
+  CHECK(IsoWeekday(-1e300) == -1);
+}
+
+// Intent: the civil-date conversion is a bijection over the whole range and
+// has the day count Python gives it.
+TEST_CASE("DaysFromCivil and CivilFromDays round-trip every day of 0001..9999") {
+  // date(9999, 12, 31).toordinal() - date(1, 1, 1).toordinal() == 3652058
+  // (computed with Python 3.11 datetime); 0001-01-01 is day -719162.
+  const int64_t first = DaysFromCivil(1, 1, 1);
+  const int64_t last = DaysFromCivil(9999, 12, 31);
+  CHECK(first == -719162);
+  CHECK(last - first == 3652058);
+  CivilDate prev = CivilFromDays(first - 1);
+  for (int64_t d = first; d <= last; ++d) {
+    const CivilDate c = CivilFromDays(d);
+    const bool next_day = c.day == prev.day + 1 && c.month == prev.month && c.year == prev.year;
+    const bool next_month = c.day == 1 && ((c.month == prev.month + 1 && c.year == prev.year) ||
+                                           (c.month == 1 && prev.month == 12 && c.year == prev.year + 1));
+    if (!(next_day || next_month) || DaysFromCivil(c.year, c.month, c.day) != d) {
+      FAIL("day " << d << " maps to " << c.year << "-" << c.month << "-" << c.day);
+    }
+    prev = c;
+  }
+}
+
+// Intent: a random sweep over the whole range agrees with Python's datetime
+// on every label, the hour and the weekday, and on parsing offsets.
+TEST_CASE("random timestamps agree with python3 datetime") {
+  const std::string out = RunCommand(R"(python3 - <<'PYEOF'
+import random
+from datetime import datetime, timezone, timedelta
+rnd = random.Random(20260305)
+E = datetime(1970, 1, 1, tzinfo=timezone.utc)
+for _ in range(3000):
+    t = rnd.randrange(-62135596800, 253402300800) + rnd.choice([0, 0.25, 0.5, 0.75])
+    d = E + timedelta(seconds=t)
+    y, w, _ = d.isocalendar()
+    print("B %r %04d-%02d-%02dT%02d:%02d %04d-W%02d %d %d" % (t, d.year, d.month, d.day,
+          d.hour, d.minute, y, w, d.hour, d.weekday() + 1))
+for _ in range(1000):
+    t = rnd.randrange(-62135596800 + 86400, 253402300800 - 86400)
+    off = rnd.randrange(-23 * 60, 24 * 60)
+    local = E + timedelta(seconds=t) + timedelta(minutes=off)
+    sign = "+" if off >= 0 else "-"
+    text = local.strftime("%Y-%m-%dT%H:%M:%S").rjust(19, "0") + "%s%02d:%02d" % (
+        sign, abs(off) // 60, abs(off) % 60)
+    text = "%04d" % local.year + text[text.index("-"):]
+    assert (datetime.fromisoformat(text) - E).total_seconds() == t
+    print("P %s %d" % (text, t))
+PYEOF
+)");
+  REQUIRE_MESSAGE(out.size() > 1000, "python3 did not run");
+  std::istringstream in(out);
+  std::string tag;
+  int buckets = 0, parses = 0;
+  while (in >> tag) {
+    if (tag == "B") {
+      double t;
+      std::string minute, week;
+      int hour, weekday;
+      in >> t >> minute >> week >> hour >> weekday;
+      CAPTURE(t);
+      CHECK(Bucket(t, TimeUnit::kMinute) == minute);
+      CHECK(Bucket(t, TimeUnit::kHour) == minute.substr(0, 13));
+      CHECK(Bucket(t, TimeUnit::kDay) == minute.substr(0, 10));
+      CHECK(Bucket(t, TimeUnit::kMonth) == minute.substr(0, 7));
+      CHECK(Bucket(t, TimeUnit::kWeek) == week);
+      CHECK(HourOfDay(t) == hour);
+      CHECK(IsoWeekday(t) == weekday);
+      ++buckets;
+    } else {
+      std::string text;
+      double expected, t = 0;
+      in >> text >> expected;
+      CAPTURE(text);
+      CHECK(ParseIsoTimestamp(text, &t));
+      CHECK(t == expected);
+      ++parses;
+    }
+  }
+  CHECK(buckets == 3000);
+  CHECK(parses == 1000);
+}
+
+}  // namespace fanfold

@@ -1,0 +1,320 @@
+// Tests for NdjsonReader / ReadRecords on NDJSON (common/input/ndjson_reader.h).
+// External references: the example document and pointers of RFC 6901
+// section 5, and Python 3's json module (run through popen) as an
+// independent judge of which generated lines are well-formed JSON objects.
+#include "common/input/ndjson_reader.h"
+
+#include <doctest/doctest.h>
+#include <stdlib.h>
+
+#include <cstdio>
+#include <cstring>
+#include <filesystem>
+#include <fstream>
+#include <random>
+#include <string>
+#include <vector>
+
+#include "common/input/record_reader.h"
+#include "tests/input/reader_test_util.h"
+
+namespace fanfold {
+namespace {
+
+
+FieldTable Fields(std::initializer_list<const char*> refs) {
+  FieldTable t;
+  for (const char* r : refs) t.InternField(r);
+  return t;
+}
+
+struct Outcome {
+  Status status;
+  ReadStats stats;
+  std::vector<std::string> rows;
+};
+
+Outcome Run(const FieldTable& fields, const std::string& input, size_t chunk = kDefaultChunkBytes,
+            size_t max_record = ChunkOptions{}.max_record_bytes) {
+  auto reader = NdjsonReader::Create(fields, ChunkOptions{chunk, max_record});
+  REQUIRE(reader.ok());
+  auto src = MemorySource(input);
+  Collect sink(fields.size());
+  Outcome out;
+  out.status = (*reader)->Read(*src, sink, &out.stats);
+  out.rows = sink.rows;
+  return out;
+}
+
+std::string SampleLines(const Outcome& o) {
+  std::string s;
+  for (const MalformedSample& m : o.stats.samples) s += std::to_string(m.line) + " ";
+  return s;
+}
+
+}  // namespace
+
+// The example of RFC 6901 section 5: every pointer there selects the value it lists.
+TEST_CASE("RFC 6901 section 5 example pointers") {
+  const std::string doc =
+      R"({"foo": ["bar", "baz"], "": 0, "a/b": 1, "c%d": 2, "e^f": 3, "g|h": 4, "i\\j": 5, "k\"l": 6, " ": 7, "m~n": 8})"
+      "\n";
+  FieldTable f = Fields({"/foo", "/foo/0", "/", "/a~1b", "/c%d", "/e^f", "/g|h", "/i\\j", "/k\"l", "/ ", "/m~0n"});
+  Outcome o = Run(f, doc);
+  REQUIRE(o.status.ok());
+  REQUIRE(o.rows.size() == 1);
+  CHECK(o.rows[0] == "{}|'bar'|0|1|2|3|4|5|6|7|8");
+}
+
+// Nested members, array elements by decimal index, and the JSON kinds of values.
+TEST_CASE("nested pointers, array indices and value kinds") {
+  FieldTable f = Fields({"/user/id", "/user/geo/city", "/tags/1", "/tags/01", "/tags/-", "/m/1", "/n", "/b", "/o",
+                         "/absent/x", "/user/geo", "/s", "/deep/0/k/1"});
+  const std::string doc =
+      R"({"user":{"id":42,"geo":{"city":"Orvik","zip":null}},"tags":["x","y","z"],"m":{"1":"one"},)"
+      R"("n":null,"b":false,"o":[],"s":"a\"b\u00e9\n","deep":[{"k":[5,{"q":1}]}]})"
+      "\n";
+  Outcome o = Run(f, doc);
+  REQUIRE(o.status.ok());
+  REQUIRE(o.rows.size() == 1);
+  // "/tags/01" and "/tags/-" name no element (RFC 6901 section 4); "/m/1" is a member name on an object.
+  CHECK(o.rows[0] == "42|'Orvik'|'y'|-|-|'one'|null|false|{}|-|{}|'a\"b\xC3\xA9\n'|{}");
+}
+
+// Escaped keys in the document match pointers by their unescaped text.
+TEST_CASE("keys with JSON escapes") {
+  FieldTable f = Fields({"/a~1b", "/t\"q", "/~0home"});
+  Outcome o = Run(f, R"({"a\u002Fb": 1, "t\"q": 2, "\u007ehome": 3})" "\n");
+  REQUIRE(o.status.ok());
+  REQUIRE(o.rows.size() == 1);
+  CHECK(o.rows[0] == "1|2|3");
+}
+
+// With duplicate keys the first occurrence wins, also for whole subtrees.
+TEST_CASE("duplicate keys: first wins") {
+  FieldTable f = Fields({"/a", "/u/id", "/u/x"});
+  Outcome o = Run(f, R"({"a":1,"u":{"id":7},"a":2,"u":{"id":8,"x":9}})" "\n"
+                    R"({"a":1,"a":2,"u":{"x":3}})" "\n"
+                    R"({"u":{"id":7},"u":{"id":8,"x":9},"a":0})" "\n");
+  REQUIRE(o.rows.size() == 3);
+  CHECK(o.rows[0] == "1|7|-");
+  CHECK(o.rows[1] == "1|-|3");
+  CHECK(o.rows[2] == "0|7|-");
+}
+
+// A pointer to a value and to something inside it both get filled.
+TEST_CASE("pointer and its prefix together") {
+  FieldTable f = Fields({"/a", "/a/b", "/c/0", "/c"});
+  Outcome o = Run(f, "{\"a\":{\"b\":true},\"c\":[3]}\n{\"a\":5,\"c\":{\"0\":4}}\n");
+  REQUIRE(o.rows.size() == 2);
+  CHECK(o.rows[0] == "{}|true|3|{}");
+  CHECK(o.rows[1] == "5|-|4|{}");
+}
+
+// Each kind of malformed line is counted once, with the line it is on; blank lines count for neither.
+TEST_CASE("malformed lines counted exactly with line numbers") {
+  FieldTable f = Fields({"/k"});
+  const std::vector<std::string> lines = {
+      R"({"k":1})",              // 1 ok
+      R"({"k":2)",               // 2 truncated object
+      "",                        // 3 blank
+      R"({"k":"open)",           // 4 unclosed string
+      "   \t ",                  // 5 whitespace only
+      R"([1,2])",                // 6 not an object
+      R"({"k":3,})",             // 7 trailing comma
+      R"({"k":tru})",            // 8 bad literal
+      R"({"k":4})",              // 9 ok
+      R"({"k":5} {"k":6})",      // 10 two values on a line
+      R"({"z":[1,,2],"k":7})",   // 11 error inside a value no pointer needs
+      R"({"z":"\q","k":8})",     // 12 bad escape in an unused string
+      R"(42)",                   // 13 scalar
+      R"({'k':9})",              // 14 single quotes
+      "{\"k\":\"\xff\"}",        // 15 invalid UTF-8
+      R"({"k":01})",             // 16 leading zero
+      R"({"k":10})",             // 17 ok
+  };
+  std::string input;
+  for (const std::string& l : lines) input += l + "\n";
+  Outcome o = Run(f, input);
+  REQUIRE(o.status.ok());
+  CHECK(o.stats.records == 3);
+  CHECK(o.stats.malformed == 12);
+  CHECK(o.rows == std::vector<std::string>{"1", "4", "10"});
+  REQUIRE(o.stats.samples.size() == ReadStats::kMaxSamples);
+  CHECK(SampleLines(o) == "2 4 6 7 8 ");
+  CHECK(o.stats.samples[1].reason == "A string is opened, but never closed.");  // simdjson's wording
+  CHECK(o.stats.samples[2].reason == "the line is not a JSON object");
+  CHECK(o.stats.raw_bytes == input.size());
+}
+
+// CRLF line ends, a last line without a newline, and CR-only "blank" lines.
+TEST_CASE("CRLF and the last line") {
+  FieldTable f = Fields({"/k"});
+  Outcome o = Run(f, "{\"k\":1}\r\n\r\n{\"k\":2\r\n{\"k\":3}");
+  REQUIRE(o.status.ok());
+  CHECK(o.rows == std::vector<std::string>{"1", "3"});
+  REQUIRE(o.stats.samples.size() == 1);
+  CHECK(o.stats.samples[0].line == 3);
+}
+
+// Records cut at every possible chunk boundary give the same rows, counts and lines as one big chunk.
+TEST_CASE("records split across chunk boundaries") {
+  FieldTable f = Fields({"/id", "/s", "/arr/2"});
+  std::mt19937 rng(11);
+  std::string input;
+  for (int i = 0; i < 300; ++i) {
+    switch (rng() % 5) {
+      case 0: input += "{\"id\":" + std::to_string(i) + ",\"s\":\"" + std::string(rng() % 40, 'x') + "\"}\n"; break;
+      case 1: input += "{\"arr\":[1,2,{\"id\":0},\"" + std::to_string(i) + "\"],\"id\":" + std::to_string(i) + "}\r\n"; break;
+      case 2: input += "{\"id\":" + std::to_string(i) + ",\"bad\":[}\n"; break;
+      case 3: input += "\n  \n"; break;
+      default: input += "{\"s\":\"line " + std::to_string(i) + "\",\"id\":-" + std::to_string(i) + ".5e1}\n"; break;
+    }
+  }
+  Outcome whole = Run(f, input);
+  REQUIRE(whole.status.ok());
+  REQUIRE(whole.stats.records > 100);
+  REQUIRE(whole.stats.malformed > 20);
+  for (size_t chunk : {1, 2, 3, 5, 17, 64, 255, 4096}) {
+    CAPTURE(chunk);
+    Outcome o = Run(f, input, chunk);
+    REQUIRE(o.status.ok());
+    CHECK(o.rows == whole.rows);
+    CHECK(o.stats.malformed == whole.stats.malformed);
+    CHECK(SampleLines(o) == SampleLines(whole));
+    CHECK(o.stats.raw_bytes == input.size());
+  }
+}
+
+// One record far longer than the chunk grows the buffer and still parses.
+TEST_CASE("record longer than the chunk") {
+  FieldTable f = Fields({"/big", "/n"});
+  std::string big(300'000, 'q');
+  std::string input = "{\"n\":1}\n{\"big\":\"" + big + "\",\"n\":2}\n{\"n\":3}\n";
+  Outcome o = Run(f, input, 4096);
+  REQUIRE(o.status.ok());
+  REQUIRE(o.rows.size() == 3);
+  CHECK(o.rows[1] == "'" + big + "'|2");
+  CHECK(o.rows[2] == "-|3");
+  // Past the record limit the read stops with an error naming the line, instead of growing without bound.
+  Outcome limited = Run(f, input, 4096, 100'000);
+  CHECK(limited.status.code() == Status::Code::kCorrupt);
+  CHECK(limited.status.message() == "line 2: a record is longer than the limit of 100000 bytes");
+  CHECK(limited.rows.size() == 1);
+}
+
+// A corrupt compressed stream is reported as the source's error, unchanged, after the records before it.
+TEST_CASE("source errors pass through") {
+  class Failing : public ByteSource {
+   public:
+    Result<size_t> Read(char* dst, size_t cap) override {
+      if (done_) return Status::Corrupt("'x.zst': corrupt zstd data at compressed byte 9: bad");
+      done_ = true;
+      std::string s = "{\"k\":1}\n{\"k\":";
+      std::memcpy(dst, s.data(), s.size());
+      return s.size();
+    }
+    uint64_t compressed_bytes() const override { return 0; }
+
+   private:
+    bool done_ = false;
+  } src;
+  FieldTable f = Fields({"/k"});
+  auto reader = NdjsonReader::Create(f);
+  REQUIRE(reader.ok());
+  Collect sink(1);
+  ReadStats st;
+  Status s = (*reader)->Read(src, sink, &st);
+  CHECK(s.message() == "'x.zst': corrupt zstd data at compressed byte 9: bad");
+  CHECK(sink.rows == std::vector<std::string>{"1"});
+  CHECK(st.raw_bytes == 13);
+}
+
+// Raw fields must be JSON Pointers; "" (the whole record) and bad '~' escapes are refused.
+TEST_CASE("bad pointers are refused at construction") {
+  auto r = NdjsonReader::Create(Fields({"user.id"}));
+  REQUIRE(!r.ok());
+  CHECK(r.status().code() == Status::Code::kInvalidArgument);
+  CHECK(r.status().message() == "NDJSON fields are JSON Pointers and start with '/': got 'user.id'");
+  CHECK(NdjsonReader::Create(Fields({""})).status().code() == Status::Code::kInvalidArgument);
+  CHECK(!NdjsonReader::Create(Fields({"/a~2"})).ok());  // RFC 6901 section 3: only ~0 and ~1
+  CHECK(!NdjsonReader::Create(Fields({"/a~"})).ok());
+  // Derived slots are not pointers and are left alone.
+  FieldTable t = Fields({"/a"});
+  t.AddDerived("doubled");
+  CHECK(NdjsonReader::Create(t).ok());
+}
+
+// The sink can stop the read early; ReadRecords dispatches NDJSON to this reader.
+TEST_CASE("sink stops early via ReadRecords") {
+  FieldTable f = Fields({"/k"});
+  auto src = MemorySource("{\"k\":1}\n{\"k\":2}\n{\"k\":3}\n");
+  Collect sink(1, 2);
+  ReadStats st;
+  REQUIRE(ReadRecords(RecordFormat::kNdjson, *src, f, sink, &st).ok());
+  CHECK(sink.rows == std::vector<std::string>{"1", "2"});
+  CHECK(st.records == 2);
+}
+
+// Python 3's json module judges each generated line: a line is a record iff json.loads gives a dict;
+// the values of /svc and /n must agree too.
+TEST_CASE("validity and values agree with Python's json module") {
+  std::mt19937 rng(12);
+  const std::vector<std::string> good = {
+      R"({"svc":"a","n":1})", R"({"n":-2.5e3,"svc":"b\u00e9","x":[1,{"y":null}]})", R"( {"svc":"c"} )",
+      R"({"svc":"d","n":123456789012,"t":true,"f":false})", R"({})", R"({"svc":"e\"q","n":0.1})"};
+  const std::vector<std::string> bad = {
+      R"({"svc":"a",)", R"({"svc":"a" "n":1})", R"({"svc":nul})", R"({"n":1.})", R"({"n":-})", R"({"n":.5})",
+      R"({"svc":"\x"})", R"(["svc"])", R"("svc")", R"({"svc":"a"}})", R"({"a":[1 2]})", R"({"a":{"b":1]})",
+      R"({"n":1e})", R"(null)", R"({"n":+1})", "{\"svc\":\"tab\there\"}"};
+  std::string input;
+  for (int i = 0; i < 2000; ++i) {
+    input += (rng() % 3 == 0) ? bad[rng() % bad.size()] : good[rng() % good.size()];
+    input += "\n";
+  }
+  char tmpl[] = "/tmp/fanfold-ndjson-XXXXXX";
+  std::string dir = mkdtemp(tmpl);
+  std::ofstream(dir + "/in.ndjson", std::ios::binary) << input;
+  std::ofstream(dir + "/judge.py") << R"(import json, sys
+for line in open(sys.argv[1], encoding='utf-8', newline='\n'):
+    if not line.strip():
+        continue
+    try:
+        v = json.loads(line)
+    except ValueError:
+        print('bad'); continue
+    if not isinstance(v, dict):
+        print('bad'); continue
+    def show(x):
+        if x is None: return 'null'
+        if isinstance(x, bool): return 'true' if x else 'false'
+        if isinstance(x, (int, float)): return '%.17g' % float(x)
+        if isinstance(x, str): return "'" + x + "'"
+        return '{}'
+    print('ok ' + '|'.join(show(v[k]) if k in v else '-' for k in ('svc', 'n')))
+)";
+  FILE* p = popen(("PYTHONIOENCODING=utf-8 python3 " + dir + "/judge.py " + dir + "/in.ndjson").c_str(), "r");
+  REQUIRE(p != nullptr);
+  std::vector<std::string> expected_rows;
+  uint64_t expected_bad = 0;
+  char line[4096];
+  while (std::fgets(line, sizeof line, p) != nullptr) {
+    std::string s(line);
+    s.pop_back();
+    if (s == "bad") {
+      ++expected_bad;
+    } else {
+      expected_rows.push_back(s.substr(3));
+    }
+  }
+  int rc = pclose(p);
+  std::filesystem::remove_all(dir);
+  REQUIRE(rc == 0);
+  REQUIRE(expected_rows.size() + expected_bad == 2000);
+  Outcome o = Run(Fields({"/svc", "/n"}), input, 1000);
+  REQUIRE(o.status.ok());
+  CHECK(o.stats.malformed == expected_bad);
+  CHECK(o.rows == expected_rows);
+}
+
+}  // namespace fanfold

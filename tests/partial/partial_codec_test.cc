@@ -1,0 +1,167 @@
+// Tests for the partial-state codec: round trips, and that corrupt or hostile
+// bytes are rejected with an error instead of a crash.
+#include <doctest/doctest.h>
+
+#include <random>
+
+#include "common/partial/group_key.h"
+#include "common/partial/partial_codec.h"
+
+using namespace fanfold;
+
+namespace {
+std::vector<MeasureConfig> Configs() {
+  MeasureConfig count;
+  count.kind = MeasureKind::kCount;
+  MeasureConfig sum;
+  sum.kind = MeasureKind::kSum;
+  MeasureConfig top;
+  top.kind = MeasureKind::kTop;
+  top.k = 2;
+  return {count, sum, top};
+}
+
+void Fill(PartialState* p) {
+  p->header.fingerprint = 0x1234;
+  p->header.shard_index = 7;
+  p->header.records = 100;
+  p->header.kept = 90;
+  p->header.malformed = 2;
+  p->header.path_hash = PathHash("/x/y.ndjson");
+  p->samples.push_back({12, "unclosed string"});
+  for (int i = 0; i < 50; ++i) {
+    std::string key;
+    AppendKeyValue(Value::String(i % 2 ? "odd" : "even"), &key);
+    AppendKeyValue(Value::Number(i % 5), &key);
+    MeasureState* const* s = p->groups.FindOrAdd(key);
+    Value args[1] = {Value::Number(i * 0.5)};
+    s[0]->Add(nullptr);
+    s[1]->Add(args);
+    s[2]->Add(args);
+  }
+}
+}  // namespace
+
+TEST_CASE("encode, decode, re-encode gives the same bytes") {
+  // Intent: the codec loses nothing and is deterministic.
+  auto configs = Configs();
+  PartialState p(&configs);
+  Fill(&p);
+  std::string a;
+  EncodePartial(p, &a);
+  PartialState q(&configs);
+  REQUIRE(DecodePartial(a, &q).ok());
+  CHECK(q.header.shard_index == 7);
+  CHECK(q.header.records == 100);
+  CHECK(q.header.malformed == 2);
+  CHECK(q.samples.size() == 1);
+  CHECK(q.samples[0].line == 12);
+  CHECK(q.groups.group_count() == 10);
+  std::string b;
+  EncodePartial(q, &b);
+  CHECK(a == b);
+}
+
+TEST_CASE("every single-bit flip is detected") {
+  // Intent: the XXH3 checksum covers header and body, so no flip goes unnoticed.
+  auto configs = Configs();
+  PartialState p(&configs);
+  Fill(&p);
+  std::string a;
+  EncodePartial(p, &a);
+  for (size_t byte = 0; byte < a.size(); ++byte) {
+    for (int bit = 0; bit < 8; bit += 3) {
+      std::string c = a;
+      c[byte] = static_cast<char>(c[byte] ^ (1 << bit));
+      PartialState q(&configs);
+      CHECK(!DecodePartial(c, &q).ok());
+    }
+  }
+}
+
+TEST_CASE("truncated and random inputs give errors, not crashes") {
+  // Intent: bounds-checked decoding of hostile input.
+  auto configs = Configs();
+  PartialState p(&configs);
+  Fill(&p);
+  std::string a;
+  EncodePartial(p, &a);
+  for (size_t n = 0; n < a.size(); n += 7) {
+    PartialState q(&configs);
+    CHECK(!DecodePartial(std::string_view(a).substr(0, n), &q).ok());
+  }
+  std::mt19937_64 rng(42);
+  for (int i = 0; i < 500; ++i) {
+    std::string junk(rng() % 400, '\0');
+    for (char& c : junk) c = static_cast<char>(rng());
+    if (junk.size() >= 4) junk.replace(0, 4, "FFPS");
+    PartialState q(&configs);
+    CHECK(!DecodePartial(junk, &q).ok());
+  }
+}
+
+TEST_CASE("group keys round trip and order as documented") {
+  // Intent: null < bool < number < string in output order; -0 groups with +0.
+  std::string k1, k2;
+  AppendKeyValue(Value::Number(-0.0), &k1);
+  AppendKeyValue(Value::Number(0.0), &k2);
+  CHECK(k1 == k2);
+  std::string key;
+  AppendKeyValue(Value::Missing(), &key);
+  AppendKeyValue(Value::Bool(true), &key);
+  AppendKeyValue(Value::Number(2.5), &key);
+  AppendKeyValue(Value::String("z"), &key);
+  std::vector<Cell> cells;
+  REQUIRE(DecodeKey(key, 4, &cells).ok());
+  CHECK(cells[0].kind == Cell::Kind::kNull);
+  CHECK(cells[1].boolean);
+  CHECK(cells[2].number == 2.5);
+  CHECK(cells[3].str == "z");
+  CHECK(CompareCells(cells[0], cells[1]) < 0);
+  CHECK(CompareCells(cells[1], cells[2]) < 0);
+  CHECK(CompareCells(cells[2], cells[3]) < 0);
+  std::vector<Cell> bad;
+  CHECK(!DecodeKey(key.substr(0, key.size() - 1), 4, &bad).ok());
+}
+
+TEST_CASE("small bodies are stored raw, large ones compressed, both decode alike") {
+  // Intent: flag bit 0 (offset 20) marks a body stored without zstd; a body
+  // under 4 KiB is stored so, a larger one compressed; the flag's rules
+  // (lengths equal, no other bits) are enforced even past the checksum.
+  auto configs = Configs();
+  PartialState small(&configs);
+  Fill(&small);
+  std::string a;
+  EncodePartial(small, &a);
+  PartialHeader h;
+  REQUIRE(DecodePartialHeader(a, &h).ok());
+  CHECK(h.flags == 1);
+  PartialState big(&configs);
+  Fill(&big);
+  for (int i = 0; i < 3000; ++i) {
+    std::string key;
+    AppendKeyValue(Value::Number(1000 + i), &key);
+    big.groups.FindOrAdd(key)[0]->Add(nullptr);
+  }
+  std::string b;
+  EncodePartial(big, &b);
+  REQUIRE(DecodePartialHeader(b, &h).ok());
+  CHECK(h.flags == 0);
+  for (const std::string* bytes : {&a, &b}) {
+    PartialState q(&configs);
+    REQUIRE(DecodePartial(*bytes, &q).ok());
+    std::string again;
+    EncodePartial(q, &again);
+    CHECK(again == *bytes);
+  }
+  // Unknown flag bits, and a raw body whose two lengths differ, are corrupt
+  // even with a checksum recomputed over them (SetPartialEncodeTime reseals).
+  std::string unknown = a;
+  unknown[20] = 3;
+  SetPartialEncodeTime(0, &unknown);
+  CHECK(DecodePartialHeader(unknown, &h).code() == Status::Code::kCorrupt);
+  std::string lengths = a;
+  lengths[104] = static_cast<char>(lengths[104] + 1);
+  SetPartialEncodeTime(0, &lengths);
+  CHECK(DecodePartialHeader(lengths, &h).message() == "partial state body is stored raw but its two lengths differ");
+}

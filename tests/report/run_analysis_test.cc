@@ -1,0 +1,49 @@
+// Tests for the report's analysis of a run record.
+#include <doctest/doctest.h>
+
+#include <numeric>
+
+#include "coordinator/report/run_analysis.h"
+#include "tests/rundir/run_record_test_util.h"
+
+using namespace fanfold;
+
+TEST_CASE("type 7 quantiles") {
+  // Intent: Hyndman & Fan (1996) type 7 on 1..8 gives quartiles 2.75, 4.5, 6.25 (worked example of the shared test references).
+  std::vector<double> x = {1, 2, 3, 4, 5, 6, 7, 8};
+  CHECK(QuantileType7(x, 0.25) == doctest::Approx(2.75));
+  CHECK(QuantileType7(x, 0.5) == doctest::Approx(4.5));
+  CHECK(QuantileType7(x, 0.75) == doctest::Approx(6.25));
+  CHECK(QuantileType7(x, 1.0) == 8);
+  CHECK(QuantileType7({}, 0.5) == 0);
+}
+
+TEST_CASE("analysis: totals from the journal, the straggler, lanes and throughput") {
+  // Intent: without summary.json the totals add up final done attempts; the 10× shard is the one straggler.
+  RunRecord r = SampleRecord();
+  RunAnalysis a = AnalyzeRun(r);
+  CHECK_FALSE(a.totals.from_summary);
+  CHECK(a.totals.shards_done == 10);
+  CHECK(a.totals.retries == 1);
+  CHECK(a.totals.records_read == 10'000);
+  CHECK(a.totals.records_malformed == 7);
+  CHECK(a.status == "unfinished");
+  CHECK(a.straggler_count == 1);
+  REQUIRE(!a.slowest.empty());
+  CHECK(a.slowest[0].shard == 9);
+  CHECK(a.slowest[0].straggler);
+  CHECK(a.median_s == doctest::Approx(0.1));
+  REQUIRE(a.sessions.size() == 1);
+  CHECK(a.sessions[0].lanes == 2);
+  CHECK(a.sessions[0].attempts.size() == 11);
+  // Throughput bins conserve the bytes: Σ MB/s × bin width = 10 MB.
+  const auto& v = a.sessions[0];
+  double mb = std::accumulate(v.mb_per_s.begin(), v.mb_per_s.end(), 0.0) * v.bin_s;
+  CHECK(mb == doctest::Approx(10.0).epsilon(1e-9));
+  REQUIRE(a.malformed_by_shard.size() == 1);
+  CHECK(a.malformed_by_shard[0] == std::make_pair(4u, uint64_t{7}));
+  std::vector<std::string> text = FormatReportText(r, a);
+  CHECK(text.size() >= 4);
+  CHECK(text[2].find("10,000 read") != std::string::npos);
+  CHECK(text[3].find("slowest: shard 9") != std::string::npos);
+}

@@ -1,0 +1,160 @@
+// Merger: partials fold in shard order whatever order they arrive in; a
+// partial that is bad past its checksum costs only its shard; early
+// partials wait on disk, not in memory, when a reloader is set.
+#include "coordinator/run/merger.h"
+
+#include <doctest/doctest.h>
+#include <malloc.h>
+#include <zstd.h>
+
+#include <cstring>
+
+#include <map>
+#include <string>
+#include <vector>
+
+#include "common/partial/group_key.h"
+#include "common/job/job_spec.h"
+
+namespace fanfold {
+namespace {
+
+std::unique_ptr<Plan> TestPlan() {
+  const char* job = R"({"inputs": {"files": ["x.ndjson"]}, "group": ["{/k}"],
+    "measures": [{"name": "n", "fn": "count"}, {"name": "s", "fn": "sum", "of": "{/v}"},
+                 {"name": "q", "fn": "approx_quantile", "of": "{/v}", "at": [0.5]}]})";
+  Result<JobSpec> spec = ParseJobSpec(job, "test.json");
+  REQUIRE(spec.ok());
+  Result<std::unique_ptr<Plan>> plan = CompilePlan(std::move(*spec), RecordFormat::kNdjson);
+  REQUIRE(plan.ok());
+  return std::move(*plan);
+}
+
+// Shard s's partial: groups s % 5 .. s % 5 + 3, values that make the sum's
+// rounding depend on the order of merging. `pad` groups add bulk.
+std::string PartialFor(const Plan& plan, uint32_t shard, int pad = 0) {
+  std::vector<MeasureConfig> configs;
+  for (const auto& m : plan.measures) configs.push_back(m.config);
+  PartialState p(&configs);
+  p.header.fingerprint = plan.fingerprint;
+  p.header.shard_index = shard;
+  p.header.records = 4 + static_cast<uint64_t>(pad);
+  for (int g = 0; g < 4 + pad; ++g) {
+    std::string key;
+    AppendKeyValue(Value::Number(static_cast<double>(g < 4 ? shard % 5 + g : 1000 + g)), &key);
+    MeasureState* const* states = p.groups.FindOrAdd(key);
+    const Value v = Value::Number(shard % 2 == 0 ? 1e16 : 1.0 + shard * 0.1);
+    for (size_t m = 0; m < configs.size(); ++m) states[m]->Add(&v);
+  }
+  std::string out;
+  EncodePartial(p, &out);
+  return out;
+}
+
+std::string ResultText(Merger& merger) {
+  Result<OutputTable> t = merger.Finish();
+  REQUIRE(t.ok());
+  std::string text;
+  for (const auto& row : t->rows)
+    for (const Cell& c : row) text += std::to_string(c.number) + (c.kind == Cell::Kind::kFloat ? "f " : " ");
+  return text;
+}
+
+// Intent: any arrival order gives the same bytes as shard order, with and
+// without a reloader (early partials then come back from the "disk").
+TEST_CASE("merger: arrival order does not change the result") {
+  const auto plan = TestPlan();
+  const uint32_t n = 12;
+  std::map<uint32_t, std::string> disk;
+  for (uint32_t s = 0; s < n; ++s) disk[s] = PartialFor(*plan, s);
+  Merger in_order(plan.get(), n);
+  for (uint32_t s = 0; s < n; ++s) REQUIRE(in_order.Add(s, disk[s]).ok());
+  const std::string expected = ResultText(in_order);
+  for (bool reload : {false, true}) {
+    Merger m(plan.get(), n, /*waiting_budget=*/0);  // with a reloader, every early partial goes back to "disk"
+    int reloads = 0;
+    if (reload) m.SetReloader([&](uint32_t s, std::string* out) { ++reloads; *out = disk[s]; return Status::Ok(); });
+    for (uint32_t s : {11u, 3u, 7u, 0u, 1u, 2u, 10u, 9u, 4u, 5u, 6u, 8u}) REQUIRE(m.Add(s, disk[s]).ok());
+    REQUIRE(m.complete());
+    CHECK(ResultText(m) == expected);
+    CHECK(m.totals().shards_merged == n);
+    if (reload) CHECK(reloads > 0);
+  }
+}
+
+// A partial around `body` (uncompressed), with the header of `like` and a
+// checksum that holds: what a buggy worker or a forger could hand over.
+// Layout: common/partial/partial_codec.h (flags at 20, lengths at 104 and 112).
+std::string WrapBody(const std::string& like, const std::string& body) {
+  std::string z(ZSTD_compressBound(body.size()), '\0');
+  z.resize(ZSTD_compress(z.data(), z.size(), body.data(), body.size(), 1));
+  std::string out = like.substr(0, kPartialHeaderSize) + z;
+  const uint64_t raw_len = body.size(), z_len = z.size();
+  std::memcpy(out.data() + 104, &raw_len, 8);
+  std::memcpy(out.data() + 112, &z_len, 8);
+  const uint32_t flags = 0;  // the body is zstd-compressed, whatever `like` stored
+  std::memcpy(out.data() + 20, &flags, 4);
+  SetPartialEncodeTime(0, &out);  // reseals the checksum over the header and the new body
+  return out;
+}
+
+// Intent: a partial whose checksum holds but whose body is malformed (its
+// last group cut short) is reported as a late failure and leaves the result
+// exactly as if that shard had failed: none of its good groups are merged.
+TEST_CASE("merger: a malformed body costs only its shard") {
+  const auto plan = TestPlan();
+  std::vector<std::string> parts;
+  for (uint32_t s = 0; s < 4; ++s) parts.push_back(PartialFor(*plan, s));
+  Merger without(plan.get(), 4);
+  for (uint32_t s : {0u, 1u, 3u}) REQUIRE(without.Add(s, parts[s]).ok());
+  without.MarkFailed(2);
+  const std::string expected = ResultText(without);
+
+  std::vector<MeasureConfig> configs;
+  for (const auto& m : plan->measures) configs.push_back(m.config);
+  PartialState p(&configs);
+  REQUIRE(DecodePartial(parts[2], &p).ok());
+  std::string body;
+  EncodePartialBody(p, &body);
+  PartialState check(&configs);
+  REQUIRE(DecodePartial(WrapBody(parts[2], body), &check).ok());  // the forging itself is faithful
+  body.pop_back();
+  const std::string forged = WrapBody(parts[2], body);
+
+  Merger with(plan.get(), 4);
+  REQUIRE(with.Add(2, forged).ok());  // header and checksum hold
+  for (uint32_t s : {3u, 0u, 1u}) REQUIRE(with.Add(s, parts[s]).ok());
+  REQUIRE(with.late_failures().size() == 1);
+  CHECK(with.late_failures()[0].first == 2);
+  CHECK(with.totals().shards_merged == 3);
+  CHECK(ResultText(with) == expected);
+}
+
+// Intent: with a reloader, early partials are held in memory only up to
+// the waiting budget; past it they wait on disk, and their buffers are
+// released, not just emptied (clear() keeps the capacity).
+TEST_CASE("merger: early partials past the budget wait on disk, not in memory") {
+  const auto plan = TestPlan();
+  const uint32_t n = 401;
+  const std::string one = PartialFor(*plan, 1, 3000);  // ~5 KB encoded
+  REQUIRE(one.size() > 4000);
+  const uint64_t budget = 100 * one.size();
+  Merger m(plan.get(), n, budget);
+  int reloads = 0;
+  m.SetReloader([&](uint32_t s, std::string* out) {
+    ++reloads;
+    *out = PartialFor(*plan, s, 3000);
+    return Status::Ok();
+  });
+  const size_t before = mallinfo2().uordblks;
+  for (uint32_t s = 1; s < n; ++s) REQUIRE(m.Add(s, PartialFor(*plan, s, 3000)).ok());
+  const size_t held = mallinfo2().uordblks - before;
+  CHECK(held < budget + 40 * one.size());  // 400 waiting partials would hold 400 x
+  REQUIRE(m.Add(0, PartialFor(*plan, 0)).ok());
+  CHECK(m.complete());
+  CHECK(reloads > 250);  // the ones past the budget came back from "disk"
+  CHECK(reloads < 320);
+}
+
+}  // namespace
+}  // namespace fanfold

@@ -1,0 +1,38 @@
+// RunSummary: the stderr lines a run ends with.
+#include "coordinator/run/run_summary.h"
+
+#include <doctest/doctest.h>
+
+namespace fanfold {
+namespace {
+
+// Intent: a malformed record in a whole file is named by file and line; one
+// in a later chunk of a cut file says which chunk its line counts from,
+// since the reader cannot know how many lines came before the chunk.
+TEST_CASE("run_summary: malformed samples name the file, the chunk and the line") {
+  ShardList list;
+  list.shards.resize(2);
+  list.shards[0].path = "/logs/a.ndjson";
+  list.shards[1].path = "/logs/a.ndjson";
+  list.shards[1].offset = 65536;
+  list.shards[1].length = 65536;
+  RunSummary s;
+  s.shards_total = 2;
+  s.samples.push_back({0, MalformedSample{7, "the line is not a JSON object"}});
+  s.samples.push_back({1, MalformedSample{3, "the line is not a JSON object"}});
+  const std::vector<std::string> lines = FormatRunSummary(s, list);
+  REQUIRE(lines.size() == 3);
+  CHECK(lines[0] == "malformed record: /logs/a.ndjson line 7: the line is not a JSON object");
+  CHECK(lines[1] == "malformed record: /logs/a.ndjson (the chunk from byte 65536) line 3: the line is not a JSON object");
+  CHECK(lines[2].rfind("0 of 2 shards done, 0 failed", 0) == 0);
+}
+
+// Intent: numbers are grouped by thousands and bytes given in decimal MB.
+TEST_CASE("run_summary: number formats") {
+  CHECK(GroupedInteger(0) == "0");
+  CHECK(GroupedInteger(1234567) == "1,234,567");
+  CHECK(Megabytes(12'345'678) == "12.3 MB");
+}
+
+}  // namespace
+}  // namespace fanfold

@@ -1,0 +1,59 @@
+// RunManifest: run.json round trips, whatever the paths hold.
+#include "coordinator/rundir/run_manifest.h"
+
+#include <doctest/doctest.h>
+#include <nlohmann/json.hpp>
+
+namespace fanfold {
+namespace {
+
+// Intent: every field survives Encode -> Decode, including paths that need
+// JSON escaping and a chunk's byte range; the text is one JSON document
+// (nlohmann's parser, an independent reader, accepts it) with one shard a line.
+TEST_CASE("run_manifest: encode and decode round trip") {
+  RunManifest m;
+  m.job_path = "/jobs/night \"shift\".json";
+  m.format = "ndjson";
+  m.fingerprint = "0123456789abcdef";
+  m.plan_text = "format ndjson\nkeep {/a} > 1\n";
+  m.created_utc = "2026-12-01T20:40:00Z";
+  m.shards.format = RecordFormat::kNdjson;
+  m.shards.shards.resize(3);
+  for (uint32_t i = 0; i < 3; ++i) {
+    Shard& s = m.shards.shards[i];
+    s.index = i;
+    s.path = "/logs/d\xc3\xa9p\xc3\xb4t/\\part " + std::to_string(i) + ".ndjson";
+    s.file_size = 1000 + i;
+    s.mtime_ns = 1764620400123456789LL + i;
+    s.compression = i == 0 ? Compression::kZstd : Compression::kNone;
+  }
+  m.shards.shards[2].offset = 65536;
+  m.shards.shards[2].length = 4096;
+  const std::string text = EncodeManifest(m);
+  CHECK(nlohmann::json::parse(text, nullptr, false).is_object());
+  CHECK(std::count(text.begin(), text.end(), '\n') == 13);  // "{", 6 fields, "\"shards\": [", 3 shards, "]", "}"
+  Result<RunManifest> back = DecodeManifest(text, "run.json");
+  REQUIRE(back.ok());
+  CHECK(back->job_path == m.job_path);
+  CHECK(back->plan_text == m.plan_text);
+  CHECK(back->created_utc == m.created_utc);
+  REQUIRE(back->shards.shards.size() == 3);
+  for (uint32_t i = 0; i < 3; ++i) {
+    const Shard& a = m.shards.shards[i];
+    const Shard& b = back->shards.shards[i];
+    CHECK(b.index == a.index);
+    CHECK(b.path == a.path);
+    CHECK(b.file_size == a.file_size);
+    CHECK(b.mtime_ns == a.mtime_ns);
+    CHECK(b.compression == a.compression);
+    CHECK(b.offset == a.offset);
+    CHECK(b.length == a.length);
+  }
+  m.shards.shards.clear();
+  Result<RunManifest> empty = DecodeManifest(EncodeManifest(m), "run.json");
+  REQUIRE(empty.ok());
+  CHECK(empty->shards.shards.empty());
+}
+
+}  // namespace
+}  // namespace fanfold
