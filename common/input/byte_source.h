@@ -29,6 +29,10 @@ class ByteSource {
   virtual Result<size_t> Read(char* dst, size_t cap) = 0;
   // Bytes consumed from the underlying file so far.
   virtual uint64_t compressed_bytes() const = 0;
+  // True iff the first byte this source yields is the first byte of its file
+  // (false for a chunk of a cut file other than the first): a byte-order mark
+  // is skipped only there, so a cut file reads exactly as the whole file.
+  virtual bool starts_file() const { return true; }
 };
 
 // Opens `path`, reading the byte range [offset, offset + length) of it when

@@ -11,7 +11,7 @@ class ChunkSource final : public ByteSource {
   // `inner` starts at byte `start` of the file: offset - 1 when offset > 0
   // (to learn whether a line starts exactly at offset), else 0.
   ChunkSource(std::unique_ptr<ByteSource> inner, uint64_t start, uint64_t offset, uint64_t length)
-      : inner_(std::move(inner)), pos_(start), end_(offset + length), skipping_(offset > 0) {}
+      : inner_(std::move(inner)), pos_(start), end_(offset + length), skipping_(offset > 0), starts_file_(offset == 0) {}
 
   Result<size_t> Read(char* dst, size_t cap) override {
     if (cap == 0) return size_t{0};
@@ -67,6 +67,7 @@ class ChunkSource final : public ByteSource {
   }
 
   uint64_t compressed_bytes() const override { return inner_->compressed_bytes(); }
+  bool starts_file() const override { return starts_file_; }
 
  private:
   std::unique_ptr<ByteSource> inner_;
@@ -75,6 +76,7 @@ class ChunkSource final : public ByteSource {
   uint64_t pos_;        // file position of buf_[head_]
   uint64_t end_;        // first byte after the chunk
   bool skipping_;       // still dropping a line begun before the chunk
+  bool starts_file_;    // offset == 0
   bool done_ = false;
   char last_ = '\n';    // last byte handed out
 };

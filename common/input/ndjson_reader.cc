@@ -181,6 +181,7 @@ Status NdjsonReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
   Impl& im = *impl_;
   im.chunk.Reset();
   uint64_t line = 0;
+  bool at_start = src.starts_file();
   for (;;) {
     Result<size_t> filled = im.chunk.Fill(src);
     st.raw_bytes = im.chunk.total_read();
@@ -188,9 +189,16 @@ Status NdjsonReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
       if (!im.chunk.over_limit()) return filled.status();
       return filled.status().WithContext("line " + std::to_string(line + 1));  // the record too long
     }
+    const bool last = im.chunk.eof();
+    if (at_start) {
+      if (im.chunk.size() < 3 && !last) continue;
+      // A UTF-8 byte order mark (RFC 8259 section 8.1 lets a parser ignore
+      // it) is no part of the first record.
+      if (im.chunk.size() >= 3 && std::memcmp(im.chunk.data(), "\xEF\xBB\xBF", 3) == 0) im.chunk.Consume(3);
+      at_start = false;
+    }
     const char* p = im.chunk.data();
     const char* end = p + im.chunk.size();
-    const bool last = im.chunk.eof();
     while (p < end) {
       const char* nl = static_cast<const char*>(std::memchr(p, '\n', static_cast<size_t>(end - p)));
       if (nl == nullptr) {

@@ -33,6 +33,7 @@ class TimedSource final : public ByteSource {
     return r;
   }
   uint64_t compressed_bytes() const override { return inner_->compressed_bytes(); }
+  bool starts_file() const override { return inner_->starts_file(); }
   uint64_t ns() const { return ns_; }
 
  private:

@@ -6,6 +6,7 @@
 
 #include <doctest/doctest.h>
 #include <stdlib.h>
+#include <unistd.h>
 
 #include <cstdio>
 #include <cstring>
@@ -15,6 +16,7 @@
 #include <string>
 #include <vector>
 
+#include "common/input/chunk_source.h"
 #include "common/input/record_reader.h"
 #include "tests/input/reader_test_util.h"
 
@@ -155,6 +157,57 @@ TEST_CASE("CRLF and the last line") {
   CHECK(o.rows == std::vector<std::string>{"1", "3"});
   REQUIRE(o.stats.samples.size() == 1);
   CHECK(o.stats.samples[0].line == 3);
+}
+
+// A UTF-8 byte-order mark opening the shard is skipped (RFC 8259 section 8.1
+// lets a parser ignore one; Python's json.loads on text decoded with
+// 'utf-8-sig' reads the same first record); one anywhere else is malformed.
+TEST_CASE("byte-order mark at the start of a shard") {
+  FieldTable f = Fields({"/k"});
+  const std::string bom = "\xEF\xBB\xBF";
+  Outcome o = Run(f, bom + "{\"k\":1}\n{\"k\":2}\n");
+  REQUIRE(o.status.ok());
+  CHECK(o.rows == std::vector<std::string>{"1", "2"});
+  CHECK(o.stats.malformed == 0);
+  CHECK(o.stats.raw_bytes == bom.size() + 16);  // the mark's bytes are still bytes read
+  // Every chunk size, down to one byte: the mark may arrive split.
+  for (size_t chunk : {1, 2, 3, 4, 7}) CHECK(Run(f, bom + "{\"k\":1}\n", chunk).rows == std::vector<std::string>{"1"});
+  // A mark alone, or a mark opening a later line, is no record.
+  CHECK(Run(f, bom).rows.empty());
+  Outcome later = Run(f, "{\"k\":1}\n" + bom + "{\"k\":2}\n");
+  CHECK(later.rows == std::vector<std::string>{"1"});
+  CHECK(later.stats.malformed == 1);
+}
+
+// A cut file reads as the whole file: the mark is skipped in the chunk at
+// offset 0 only, and a later chunk starting with a mark keeps it malformed.
+TEST_CASE("byte-order mark and chunks of a cut file") {
+  FieldTable f = Fields({"/k"});
+  const std::string bom = "\xEF\xBB\xBF";
+  const std::string text = bom + "{\"k\":1}\n" + bom + "{\"k\":2}\n{\"k\":3}\n";
+  char tmpl[] = "/tmp/fanfold-bom-test-XXXXXX";
+  const int fd = mkstemp(tmpl);
+  REQUIRE(fd >= 0);
+  REQUIRE(::write(fd, text.data(), text.size()) == static_cast<ssize_t>(text.size()));
+  ::close(fd);
+  for (uint64_t cut : {1, 5, 11, 12, 13, 20}) {
+    std::vector<std::string> rows;
+    uint64_t malformed = 0;
+    for (uint64_t off = 0; off < text.size(); off += cut) {
+      auto src = OpenChunkSource(tmpl, off, std::min<uint64_t>(cut, text.size() - off));
+      REQUIRE(src.ok());
+      auto reader = NdjsonReader::Create(f, ChunkOptions{});
+      REQUIRE(reader.ok());
+      Collect sink(f.size());
+      ReadStats st;
+      REQUIRE((*reader)->Read(**src, sink, &st).ok());
+      rows.insert(rows.end(), sink.rows.begin(), sink.rows.end());
+      malformed += st.malformed;
+    }
+    CHECK(rows == std::vector<std::string>{"1", "3"});
+    CHECK(malformed == 1);
+  }
+  ::unlink(tmpl);
 }
 
 // Records cut at every possible chunk boundary give the same rows, counts and lines as one big chunk.
