@@ -211,7 +211,7 @@ class Compiler {
       return Status::Ok();
     }
     n->op = ExprOp::kCall;
-    if (f->function == ExprFunction::kFloorTime) {
+    if (f->function == ExprFunction::kPeriodStart) {
       const AstNode& unit = a.kids[1];
       if (unit.kind != AstKind::kString)
         return ErrorAt(unit.column, "a unit that is not a string literal", kUnits);

@@ -1,6 +1,6 @@
 // CompileExprAst: lowers an ExprAst into an Expr::Program. Resolves {field}
 // references (interned as raw fields) and bare names (derived fields that
-// must already exist), function names and arities, floor_time units and
+// must already exist), function names and arities, period_start units and
 // "in" lists, and folds subtrees without fields into constants. Runs once
 // per expression while a plan is built; single-threaded (it edits *fields).
 #pragma once

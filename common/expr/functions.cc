@@ -22,13 +22,13 @@ constexpr ExprFunctionInfo kFunctions[] = {
     {"has", F::kHas, 1, 1, "has(x)"},
     {"lacks", F::kLacks, 1, 1, "lacks(x)"},
     {"coalesce", F::kCoalesce, 1, kMaxFunctionArgs, "coalesce(a, b, ...)"},
-    {"bin", F::kBin, 2, 2, "bin(x, width)"},
+    {"bucket_start", F::kBucketStart, 2, 2, "bucket_start(x, width)"},
     {"num", F::kNum, 1, 1, "num(x)"},
     {"text", F::kText, 1, 1, "text(x)"},
     {"time", F::kTime, 1, 1, "time(x)"},
     {"time_ms", F::kTimeMs, 1, 1, "time_ms(x)"},
-    {"floor_time", F::kFloorTime, 2, 2, "floor_time(t, unit)"},
-    {"hour_of_day", F::kHourOfDay, 1, 1, "hour_of_day(t)"},
+    {"period_start", F::kPeriodStart, 2, 2, "period_start(t, unit)"},
+    {"clock_hour", F::kClockHour, 1, 1, "clock_hour(t)"},
     {"weekday", F::kWeekday, 1, 1, "weekday(t)"},
 };
 
@@ -145,7 +145,7 @@ Value ApplyExprFunction(ExprFunction function, const Value* args, int nargs, Tim
       for (int i = 0; i < nargs; ++i)
         if (args[i].is_present()) return args[i];
       return Value::Missing();
-    case F::kBin: {
+    case F::kBucketStart: {
       double x, w;
       if (!args[0].AsNumber(&x) || !args[1].AsNumber(&w) || !(w > 0)) return Value::Missing();
       return FiniteNumber(std::floor(x / w) * w);
@@ -167,7 +167,7 @@ Value ApplyExprFunction(ExprFunction function, const Value* args, int nargs, Tim
       if (!ValueEpochSeconds(args[0], function == F::kTime ? 1 : 1000, &t)) return Value::Missing();
       return FiniteNumber(t);
     }
-    case F::kFloorTime: {
+    case F::kPeriodStart: {
       double t;
       char label[kTimeLabelMax];
       size_t n;
@@ -175,11 +175,11 @@ Value ApplyExprFunction(ExprFunction function, const Value* args, int nargs, Tim
         return Value::Missing();
       return Value::String(arena->Copy({label, n}));
     }
-    case F::kHourOfDay:
+    case F::kClockHour:
     case F::kWeekday: {
       double t;
       if (!ValueEpochSeconds(args[0], 1, &t)) return Value::Missing();
-      const int r = function == F::kHourOfDay ? HourOfDay(t) : IsoWeekday(t);
+      const int r = function == F::kClockHour ? ClockHour(t) : IsoWeekday(t);
       return r < 0 ? Value::Missing() : Value::Number(r);
     }
   }

@@ -17,8 +17,8 @@ namespace fanfold {
 
 enum class ExprFunction : uint8_t {
   kLower, kUpper, kStartsWith, kEndsWith, kContains, kLen, kSubstr,
-  kHas, kLacks, kCoalesce, kBin, kNum, kText,
-  kTime, kTimeMs, kFloorTime, kHourOfDay, kWeekday,
+  kHas, kLacks, kCoalesce, kBucketStart, kNum, kText,
+  kTime, kTimeMs, kPeriodStart, kClockHour, kWeekday,
 };
 
 struct ExprFunctionInfo {
@@ -39,7 +39,7 @@ const ExprFunctionInfo* FindExprFunction(std::string_view name);
 std::string ExprFunctionSignatures();
 
 // Evaluates `function` on args[0..nargs). `unit` is the compile-time unit of
-// floor_time (its second argument is not consulted). Not for kCoalesce,
+// period_start (its second argument is not consulted). Not for kCoalesce,
 // whose arguments the evaluator evaluates lazily.
 // REQUIRES: nargs is within the function's arity.
 Value ApplyExprFunction(ExprFunction function, const Value* args, int nargs, TimeUnit unit,

@@ -191,7 +191,7 @@ size_t FormatTimeBucket(double t, TimeUnit unit, char* out) {
   return 16;
 }
 
-int HourOfDay(double t) {
+int ClockHour(double t) {
   int64_t s;
   if (!WholeSeconds(t, &s)) return -1;
   return static_cast<int>((s - FloorDiv(s, kSecondsPerDay) * kSecondsPerDay) / 3600);

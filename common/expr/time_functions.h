@@ -62,7 +62,7 @@ size_t FormatTimeBucket(double t, TimeUnit unit, char* out);
 
 // UTC hour 0..23 / ISO weekday 1..7 of epoch second t; -1 iff t is NaN or
 // outside [kMinEpochSeconds, kEndEpochSeconds).
-int HourOfDay(double t);
+int ClockHour(double t);
 int IsoWeekday(double t);
 
 }  // namespace fanfold

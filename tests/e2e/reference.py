@@ -12,7 +12,7 @@ over the parsed records, following the job-file spec's semantics:
   - comparisons with missing/null are false;
   - time(): ISO 8601 text (offsets honoured) or epoch seconds -> epoch seconds;
     time_ms(): numbers are epoch milliseconds;
-  - floor_time labels are UTC: "2026-03-05T14", "2026-03-05", "2026-W10".
+  - period_start labels are UTC: "2026-03-05T14", "2026-03-05", "2026-W10".
 """
 
 import collections
@@ -201,7 +201,7 @@ def _utc(t):
     return datetime.datetime.fromtimestamp(math.floor(t), datetime.timezone.utc)
 
 
-def floor_time(t, unit):
+def period_start(t, unit):
     if t is None:
         return None
     d = _utc(t)
@@ -219,7 +219,7 @@ def floor_time(t, unit):
     raise ValueError(unit)
 
 
-def hour_of_day(t):
+def clock_hour(t):
     return None if t is None else _utc(t).hour
 
 

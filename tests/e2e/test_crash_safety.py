@@ -83,7 +83,7 @@ def main():
         env.generate(env.path("data"), "--shards", 40, "--records", 1500, "--seed", 31)
         job_spec = {
             "inputs": {"files": ["data/*.ndjson.zst"]},
-            "derive": [{"name": "hour", "expr": "floor_time(coalesce(time({/ts}), time_ms({/ts_ms})), 'hour')"}],
+            "derive": [{"name": "hour", "expr": "period_start(coalesce(time({/ts}), time_ms({/ts_ms})), 'hour')"}],
             "group": ["hour", "{/district}"],
             "measures": [{"name": "n", "fn": "count"}, {"name": "w", "fn": "sum", "of": "{/power_w}"},
                          {"name": "lamps", "fn": "distinct", "of": "{/lamp}"},

@@ -38,7 +38,7 @@ def c(name):
 # token of a lone field reference ({/district} -> district), else the text.
 REFS = {
     "district_hourly.json": RefJob(
-        group=[("district", p("/district")), ("hour", lambda r: ref.floor_time(t_json(r), "hour"))],
+        group=[("district", p("/district")), ("hour", lambda r: ref.period_start(t_json(r), "hour"))],
         measures=[
             M("events", "count"),
             M("power_sum_w", "sum", of=p("/power_w")),
@@ -49,7 +49,7 @@ REFS = {
         ]),
     "fault_watch.json": RefJob(
         keep=lambda r: ptr(r, "/event") in ("fault", "reboot"),  # {/event} in ['fault', 'reboot']
-        group=[("day", lambda r: ref.floor_time(t_json(r), "day")), ("district", p("/district"))],
+        group=[("day", lambda r: ref.period_start(t_json(r), "day")), ("district", p("/district"))],
         measures=[
             M("incidents", "count"),
             M("faults", "count_present", of=p("/fault")),
@@ -70,7 +70,7 @@ REFS = {
     "night_profile.json": RefJob(
         # {/event} == 'heartbeat' and has({/readings/0})
         keep=lambda r: ptr(r, "/event") == "heartbeat" and ref.present(ptr(r, "/readings/0")),
-        group=[("week", lambda r: ref.floor_time(t_json(r), "week")), ("hod", lambda r: ref.hour_of_day(t_json(r)))],
+        group=[("week", lambda r: ref.period_start(t_json(r), "week")), ("hod", lambda r: ref.clock_hour(t_json(r)))],
         measures=[
             M("heartbeats", "count"),
             M("temp_mean", "mean", of=p("/readings/0")),
@@ -82,7 +82,7 @@ REFS = {
             M("lamps_apx", "approx_distinct", of=p("/lamp"), precision=10),
         ]),
     "csv_daily.json": RefJob(
-        group=[("day", lambda r: ref.floor_time(t_csv(r), "day")), ("weekday", lambda r: ref.weekday(t_csv(r))),
+        group=[("day", lambda r: ref.period_start(t_csv(r), "day")), ("weekday", lambda r: ref.weekday(t_csv(r))),
                ("fw_channel", c("fw_channel"))],
         measures=[
             M("events", "count"),

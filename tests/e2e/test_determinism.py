@@ -76,7 +76,7 @@ def main():
                      "--start", "2026-04-01T00")
         job = lib.write_job(env.path("gen", "job.json"), {
             "inputs": {"files": ["zst/*.ndjson.zst", "gz/*.ndjson.gz"]},
-            "derive": [{"name": "day", "expr": "floor_time(coalesce(time({/ts}), time_ms({/ts_ms})), 'day')"}],
+            "derive": [{"name": "day", "expr": "period_start(coalesce(time({/ts}), time_ms({/ts_ms})), 'day')"}],
             "group": ["day", "{/district}"],
             "measures": [
                 {"name": "n", "fn": "count"},

@@ -25,7 +25,7 @@ JOB = {
     "inputs": {"files": []},  # filled in below
     "derive": [
         {"name": "t", "expr": "coalesce(time({/ts}), time_ms({/ts_ms}))"},
-        {"name": "hour", "expr": "floor_time(t, 'hour')"},
+        {"name": "hour", "expr": "period_start(t, 'hour')"},
     ],
     "group": ["hour", "{/district}"],
     "measures": [
@@ -44,7 +44,7 @@ def t_json(r):  # coalesce(time({/ts}), time_ms({/ts_ms}))
 
 
 REF_JOB = RefJob(
-    group=[("hour", lambda r: ref.floor_time(t_json(r), "hour")), ("district", lambda r: ptr(r, "/district"))],
+    group=[("hour", lambda r: ref.period_start(t_json(r), "hour")), ("district", lambda r: ptr(r, "/district"))],
     measures=[
         M("n", "count"),
         M("watts", "sum", of=lambda r: ptr(r, "/power_w")),

@@ -20,7 +20,7 @@ import e2e_lib as lib  # noqa: E402
 JOB = {
     "about": "e2e: scaling",
     "inputs": {"files": []},
-    "derive": [{"name": "hour", "expr": "floor_time(coalesce(time({/ts}), time_ms({/ts_ms})), 'hour')"}],
+    "derive": [{"name": "hour", "expr": "period_start(coalesce(time({/ts}), time_ms({/ts_ms})), 'hour')"}],
     "group": ["hour", "{/district}"],
     "measures": [{"name": "n", "fn": "count"}, {"name": "watts", "fn": "sum", "of": "{/power_w}"},
                  {"name": "lat", "fn": "quantile", "of": "{/latency_ms}", "at": [0.5, 0.99]}],

@@ -234,8 +234,8 @@ TEST_CASE("derived fields") {
 TEST_CASE("compile errors: golden messages") {
   const std::string all =
       "lower(s), upper(s), starts_with(s, prefix), ends_with(s, suffix), contains(s, part), "
-      "len(s), substr(s, start[, count]), has(x), lacks(x), coalesce(a, b, ...), bin(x, width), "
-      "num(x), text(x), time(x), time_ms(x), floor_time(t, unit), hour_of_day(t), weekday(t)";
+      "len(s), substr(s, start[, count]), has(x), lacks(x), coalesce(a, b, ...), bucket_start(x, width), "
+      "num(x), text(x), time(x), time_ms(x), period_start(t, unit), clock_hour(t), weekday(t)";
   const Case cases[] = {
       {"lower({/a}, {/b})", "!! column 1: lower() with 2 arguments; expected lower(s)"},
       {"1 + substr({/a})", "!! column 5: substr() with 1 argument; expected substr(s, start[, count])"},
@@ -245,12 +245,12 @@ TEST_CASE("compile errors: golden messages") {
       {"coalesce(1,2,3,4,5,6,7,8,9,10,11,12,13,14,15,16,17)",
        "!! column 1: coalesce() with 17 arguments; expected coalesce(a, b, ...) with 1 to 16 "
        "arguments"},
-      {"floor_time({/ts}, {/unit})", "!! column 19: a unit that is not a string literal; expected "
-                                     "one of 'minute', 'hour', 'day', 'week', 'month'"},
-      {"floor_time({/ts}, 'year')", "!! column 19: unit 'year'; expected one of 'minute', 'hour', "
-                                    "'day', 'week', 'month'"},
-      {"floor_time({/ts}, 'Hour')", "!! column 19: unit 'Hour'; expected one of 'minute', 'hour', "
-                                    "'day', 'week', 'month'"},
+      {"period_start({/ts}, {/unit})", "!! column 21: a unit that is not a string literal; expected "
+                                       "one of 'minute', 'hour', 'day', 'week', 'month'"},
+      {"period_start({/ts}, 'year')", "!! column 21: unit 'year'; expected one of 'minute', 'hour', "
+                                      "'day', 'week', 'month'"},
+      {"period_start({/ts}, 'Hour')", "!! column 21: unit 'Hour'; expected one of 'minute', 'hour', "
+                                      "'day', 'week', 'month'"},
       {"{/note} == null", "!! column 12: comparison with null, which is always false; expected "
                           "has(x) or lacks(x) to test for null or missing values"},
       {"{/event} in ['x', null]", "!! column 19: null in a list, which never matches; expected "
@@ -293,7 +293,7 @@ TEST_CASE("constants and moves") {
   FieldTable fields;
   Result<Expr> r = Expr::Compile("lower('NW-') + 1", &fields);
   REQUIRE(r.ok());
-  Result<Expr> c = Expr::Compile("upper('nw') == upper({/z}) or floor_time(0, 'day')", &fields);
+  Result<Expr> c = Expr::Compile("upper('nw') == upper({/z}) or period_start(0, 'day')", &fields);
   REQUIRE(c.ok());
   Result<Expr> s = Expr::Compile("lower('NW-00') ", &fields);
   REQUIRE(s.ok());
@@ -319,10 +319,10 @@ TEST_CASE("evaluation does not allocate") {
   FieldTable fields;
   Result<Expr> e = Expr::Compile(
       "(lower({/event}) in ['fault', 'reboot'] and {/power_w} * 2 > {/latency_ms})"
-      " or contains(upper({/district}), 'NORTH') or floor_time({/ts}, 'week') == '2026-W10'"
+      " or contains(upper({/district}), 'NORTH') or period_start({/ts}, 'week') == '2026-W10'"
       " or text({/power_w}) == '3' or substr({/power_w}, 1) == 'x'"
       " or coalesce({/absent}, {/note}, {/lamp}) == 'x' or weekday(time({/ts})) == 9"
-      " or bin(time_ms({/epoch_ms}), 3600) < 0",
+      " or bucket_start(time_ms({/epoch_ms}), 3600) < 0",
       &fields);
   REQUIRE(e.ok());
   std::vector<Value> slots(fields.size());
@@ -361,8 +361,8 @@ TEST_CASE("random expressions compile or fail cleanly") {
   const char* pieces[] = {
       "{/a}", "{/b}", "{c}", "zone", "1", "-2.5", ".5", "1e3", "'x'", "\"NW\"", "''", "true",
       "false", "null", "and", "or", "not", "in", "==", "!=", "<", "<=", ">", ">=", "+", "-", "*",
-      "/", "%", "(", ")", "[", "]", ",", "lower(", "substr(", "coalesce(", "floor_time(", "'day'",
-      "time(", "has(", "bin(", "text(", "weekday(", "{", "}", "'", "\\", "@", " ", "nope(",
+      "/", "%", "(", ")", "[", "]", ",", "lower(", "substr(", "coalesce(", "period_start(", "'day'",
+      "time(", "has(", "bucket_start(", "text(", "weekday(", "{", "}", "'", "\\", "@", " ", "nope(",
   };
   const int kPieces = sizeof pieces / sizeof pieces[0];
   uint64_t state = 0x9e3779b97f4a7c15ull;  // fixed seed: failures reproduce

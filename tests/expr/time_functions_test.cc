@@ -92,7 +92,7 @@ TEST_CASE("ParseIsoTimestamp rejects malformed timestamps") {
 
 // Intent: labels, ISO weeks and weekdays match Python at year boundaries,
 // leap days and the ends of the supported range.
-TEST_CASE("FormatTimeBucket, HourOfDay and IsoWeekday agree with Python") {
+TEST_CASE("FormatTimeBucket, ClockHour and IsoWeekday agree with Python") {
   struct Case {
     double t;
     const char* minute;
@@ -133,7 +133,7 @@ TEST_CASE("FormatTimeBucket, HourOfDay and IsoWeekday agree with Python") {
     CHECK(Bucket(c.t, TimeUnit::kDay) == c.day);
     CHECK(Bucket(c.t, TimeUnit::kWeek) == c.week);
     CHECK(Bucket(c.t, TimeUnit::kMonth) == c.month);
-    CHECK(HourOfDay(c.t) == 14);
+    CHECK(ClockHour(c.t) == 14);
     CHECK(IsoWeekday(c.t) == c.weekday);
   }
 }
@@ -144,13 +144,13 @@ TEST_CASE("FormatTimeBucket floors and bounds its input") {
   // 1970-01-01T00:00:00Z is epoch 0 (POSIX.1-2017 §4.16).
   CHECK(Bucket(-0.25, TimeUnit::kMinute) == "1969-12-31T23:59");
   CHECK(Bucket(59.999, TimeUnit::kMinute) == "1970-01-01T00:00");
-  CHECK(HourOfDay(-0.5) == 23);
+  CHECK(ClockHour(-0.5) == 23);
   CHECK(Bucket(kMinEpochSeconds, TimeUnit::kDay) == "0001-01-01");
   CHECK(Bucket(kEndEpochSeconds - 0.5, TimeUnit::kMinute) == "9999-12-31T23:59");
   CHECK(Bucket(kMinEpochSeconds - 1, TimeUnit::kDay).empty());
   CHECK(Bucket(kEndEpochSeconds, TimeUnit::kDay).empty());
   CHECK(Bucket(NAN, TimeUnit::kDay).empty());
-  CHECK(HourOfDay(1e300) == -1);
+  CHECK(ClockHour(1e300) == -1);
   CHECK(IsoWeekday(-1e300) == -1);
 }
 
@@ -218,7 +218,7 @@ PYEOF
       CHECK(Bucket(t, TimeUnit::kDay) == minute.substr(0, 10));
       CHECK(Bucket(t, TimeUnit::kMonth) == minute.substr(0, 7));
       CHECK(Bucket(t, TimeUnit::kWeek) == week);
-      CHECK(HourOfDay(t) == hour);
+      CHECK(ClockHour(t) == hour);
       CHECK(IsoWeekday(t) == weekday);
       ++buckets;
     } else {
