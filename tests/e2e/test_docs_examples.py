@@ -4,6 +4,8 @@ docs/*.md is run against the real binary.
 * every ```json block parses as JSON (a fragment such as `"derive": [...]`
   once wrapped in braces); a whole job (one with "inputs") runs with exit
   status 0, and its result has no blank group key;
+* docs/run-directory.md's run.json example has the keys and codec number of
+  a real run.json;
 * the README's printed table is what `fanfold run` prints for its job (header
   and every row shown before the "...");
 * every line of a ```text block in docs/expressions.md that is an expression
@@ -84,6 +86,28 @@ def check_json_blocks(env, c, doc, text):
         c.check(not blank, "%s: the example's result has rows with a blank group key: %s" % (where, blank[:3]))
 
 
+def check_run_json(env, c, text):
+    """docs/run-directory.md's run.json example has the keys and codec number of a real one."""
+    m = re.search(r"```json\n(\{\"fanfold_run\".*?)```", text, re.S)
+    if not c.check(m is not None, "docs/run-directory.md: the run.json example was not found"):
+        return
+    doc = json.loads(m.group(1))
+    run_dir = env.path("runjson", "rd")
+    rc, _, err = env.fanfold_run("run", os.path.join(env.src, "jobs", "fault_watch.json"), "--fresh", "-q",
+                                 "-o", env.path("runjson", "out.txt"), "--run-dir", run_dir)
+    if not c.check(rc == 0, "run.json: the run exits %d: %s" % (rc, lib.tail(err))):
+        return
+    with open(os.path.join(run_dir, "run.json")) as f:
+        real = json.load(f)
+    c.check(sorted(doc) == sorted(real), "docs/run-directory.md: run.json keys %s, real %s" % (sorted(doc), sorted(real)))
+    c.check(sorted(doc["shards"][0]) == sorted(real["shards"][0]),
+            "docs/run-directory.md: shard keys %s, real %s" % (sorted(doc["shards"][0]), sorted(real["shards"][0])))
+    codec = lambda t: re.match(r"fanfold-plan codec=(\d+)", t).group(1)
+    c.check(codec(doc["plan_text"]) == codec(real["plan_text"]),
+            "docs/run-directory.md: plan_text says codec=%s, fanfold writes codec=%s"
+            % (codec(doc["plan_text"]), codec(real["plan_text"])))
+
+
 def check_readme_table(env, c, text):
     m = re.search(r"`fanfold run` prints the table on stdout.*?\n```\n(.*?)```", text, re.S)
     if not c.check(m is not None, "README: the printed table of the walk-through was not found"):
@@ -157,6 +181,7 @@ def main():
         for d in docs:
             check_json_blocks(env, c, d, texts[d])
         check_readme_table(env, c, texts["README.md"])
+        check_run_json(env, c, texts["docs/run-directory.md"])
         check_expressions(env, c, texts["docs/expressions.md"])
         check_arrows(env, c, texts["docs/expressions.md"])
     c.exit()
