@@ -13,6 +13,16 @@ namespace {
 
 constexpr double kWidth = 1100;
 constexpr double kLeft = 96, kRight = 24, kTop = 14;
+constexpr double kMinUnfinishedPx = 6;  // a failed or retried attempt's bar is never thinner
+constexpr double kMarkerFontPx = 12, kSeriesFontPx = 12.5;  // .marker-label, .series-label in the page's CSS
+
+// A label beside the vertical line at x, inside [left, right]: to the line's
+// right when it fits there, else to its left.
+void LabelBesideLine(Svg& svg, double x, double y, double left, double right, const std::string& text) {
+  const double w = TextWidthEstimate(text, kMarkerFontPx);
+  if (x + 4 + w <= right || x - 4 - w < left) svg.Text(x + 4, y, text, "class=\"marker-label\"");
+  else svg.Text(x - 4, y, text, "class=\"marker-label\" text-anchor=\"end\"");
+}
 
 std::string FileName(const std::string& path) { return std::filesystem::path(path).filename().string(); }
 
@@ -87,11 +97,15 @@ std::string TimelineSvg(const RunRecord& r, const SessionView& v) {
   }
   svg.XAxis(sx, kTop + plot_h, kTop, NiceTicks(0, span, 10), "seconds since this coordinator started");
   const double pad = lane_h >= 20 ? 4 : 1;
-  for (size_t i : v.attempts) {
+  // Attempts that did not finish their shard are drawn last and at least
+  // kMinUnfinishedPx wide, so no neighbour covers them however short they were.
+  std::vector<size_t> order(v.attempts.begin(), v.attempts.end());
+  std::stable_partition(order.begin(), order.end(), [&](size_t i) { return r.attempts[i].done(); });
+  for (size_t i : order) {
     const AttemptEntry& a = r.attempts[i];
     const double s0 = static_cast<double>(a.start_ns - v.t0_ns) / 1e9;
     const double s1 = static_cast<double>(std::max(a.end_ns, a.start_ns) - v.t0_ns) / 1e9;
-    const double x = sx(s0), w = std::max(1.5, sx(s1) - sx(s0));
+    const double x = sx(s0), w = std::max(a.done() ? 1.5 : kMinUnfinishedPx, sx(s1) - sx(s0));
     const double y = kTop + a.worker * lane_h + pad, h = lane_h - 2 * pad;
     std::string cls = "bar " + a.outcome;
     if (!a.final) cls += " retried";
@@ -150,10 +164,13 @@ std::string ThroughputSvg(const SessionView& v) {
 
 std::string ShardTimeHistogramSvg(const RunAnalysis& a) {
   const double W = 660, L = 64, R = 16;  // sized for half the page
-  const double plot_h = 190, height = kTop + plot_h + 48;
+  // The two marker labels get a row each in a band above the bars, so they
+  // cross neither a bar nor each other.
+  const double band = 34, top_y = kTop + band;
+  const double plot_h = 190, height = top_y + plot_h + 48;
   double hi = 0;
   for (const ShardTime& t : a.shard_times) hi = std::max(hi, t.seconds);
-  const double threshold = std::max(a.fence_s, kStragglerMinRatio * a.median_s);
+  const double threshold = StragglerThreshold(a);
   hi = NiceCeiling(std::max(hi, threshold) * 1.02);
   const int bins = 30;
   const double width = hi / bins;
@@ -166,7 +183,7 @@ std::string ShardTimeHistogramSvg(const RunAnalysis& a) {
   const int most = std::max(1, *std::max_element(count.begin(), count.end()));
   const double top = NiceCeiling(most);
   LinearScale sx{0, hi, L, W - R};
-  LinearScale sy{0, top, kTop + plot_h, kTop};
+  LinearScale sy{0, top, top_y + plot_h, top_y};
   Svg svg(W, height,
           "Distribution of " + std::to_string(a.shard_times.size()) + " shard times: median " +
               DurationText(a.median_s) + ", " + std::to_string(a.straggler_count) + " stragglers",
@@ -174,7 +191,7 @@ std::string ShardTimeHistogramSvg(const RunAnalysis& a) {
   std::vector<double> yt = NiceTicks(0, top, 5);
   yt.erase(std::remove_if(yt.begin(), yt.end(), [](double t) { return t != std::floor(t); }), yt.end());
   svg.YAxis(sy, L, W - R, yt, "shards");
-  svg.XAxis(sx, kTop + plot_h, kTop, NiceTicks(0, hi, 6), "seconds per shard (successful attempt)");
+  svg.XAxis(sx, top_y + plot_h, top_y, NiceTicks(0, hi, 6), "seconds per shard (successful attempt)");
   for (int b = 0; b < bins; ++b) {
     if (count[b] == 0) continue;
     const double x = sx(b * width) + 1, w = sx((b + 1) * width) - sx(b * width) - 2;
@@ -185,12 +202,10 @@ std::string ShardTimeHistogramSvg(const RunAnalysis& a) {
                  (stragglers[b] ? " (" + std::to_string(stragglers[b]) + " stragglers)" : ""));
   }
   const double xm = sx(a.median_s), xt = sx(threshold);
-  svg.Line(xm, kTop, xm, kTop + plot_h, "class=\"marker median\"");
-  svg.Text(xm + 4, kTop + 12, "median " + DurationText(a.median_s), "class=\"marker-label\"");
-  svg.Line(xt, kTop, xt, kTop + plot_h, "class=\"marker threshold\"");
-  const std::string beyond = "stragglers beyond " + DurationText(threshold);
-  if (xt > W - 170) svg.Text(xt - 4, kTop + 28, beyond, "class=\"marker-label\" text-anchor=\"end\"");
-  else svg.Text(xt + 4, kTop + 28, beyond, "class=\"marker-label\"");
+  svg.Line(xm, kTop, xm, top_y + plot_h, "class=\"marker median\"");
+  LabelBesideLine(svg, xm, kTop + 12, 0, W, "median " + DurationText(a.median_s));
+  svg.Line(xt, kTop + 16, xt, top_y + plot_h, "class=\"marker threshold\"");
+  LabelBesideLine(svg, xt, kTop + 28, 0, W, "stragglers beyond " + DurationText(threshold));
   return svg.Finish();
 }
 
@@ -239,16 +254,13 @@ std::string ScalingSvg(const ScaleResult& s) {
   svg.YAxis(sy, left, w - right, NiceTicks(0, ytop, 6), "speedup (T1 / Tp)");
   svg.XAxis(sx, top + plot_h, top, xt, "workers");
   svg.Line(sx(0), sy(0), sx(pmax), sy(pmax), "class=\"ideal\"");
-  svg.Text(sx(pmax) + 6, sy(pmax) + 4, "ideal (S = p)", "class=\"series-label ideal-label\"");
   std::vector<std::pair<double, double>> bound, measured;
   for (const ScalePoint& p : s.points) {
     bound.emplace_back(sx(p.workers), sy(std::min<double>(p.workers, p.skew_bound)));
     measured.emplace_back(sx(p.workers), sy(p.speedup));
   }
-  if (!s.shard_seconds.empty() && bound.size() > 1) {
-    svg.Polyline(bound, "class=\"bound\"");
-    svg.Text(bound.back().first + 6, bound.back().second + 16, "shard-size bound", "class=\"series-label bound-label\"");
-  }
+  const bool with_bound = !s.shard_seconds.empty() && bound.size() > 1;
+  if (with_bound) svg.Polyline(bound, "class=\"bound\"");
   svg.Polyline(measured, "class=\"measured\"");
   for (const ScalePoint& p : s.points) {
     std::string title = std::to_string(p.workers) + (p.workers == 1 ? " worker: " : " workers: ") +
@@ -260,7 +272,20 @@ std::string ScalingSvg(const ScaleResult& s) {
                title);
     svg.Text(sx(p.workers), sy(p.speedup) - 10, Fmt("%.2fx", p.speedup), "class=\"point-label\" text-anchor=\"middle\"");
   }
-  svg.Text(measured.back().first + 6, measured.back().second + 4, "measured", "class=\"series-label measured-label\"");
+  // The series end at the same x: their labels stand in the right margin,
+  // past the last point's label, one row each however close the lines end.
+  std::vector<std::pair<std::string, double>> labels = {{"ideal (S = p)", sy(pmax)},
+                                                        {"measured", measured.back().second}};
+  if (with_bound) labels.emplace_back("shard-size bound", bound.back().second);
+  std::vector<double> wanted;
+  for (const auto& l : labels) wanted.push_back(l.second + 4);
+  const std::vector<double> rows = SpreadLabels(wanted, kSeriesFontPx * 1.4, top + kSeriesFontPx, top + plot_h);
+  const double label_x = sx(pmax) + 6 + TextWidthEstimate(Fmt("%.2fx", smax), 12) / 2;
+  for (size_t i = 0; i < labels.size(); ++i) {
+    const std::string& text = labels[i].first;
+    const char* cls = text[0] == 'i' ? "ideal-label" : text[0] == 'm' ? "measured-label" : "bound-label";
+    svg.Text(label_x, rows[i], text, std::string("class=\"series-label ") + cls + "\"");
+  }
   return svg.Finish();
 }
 

@@ -235,8 +235,9 @@ std::string ShardTimesSection(const RunRecord& r, const RunAnalysis& a) {
   if (a.shard_times.empty()) return "";
   std::string h = "<section id=\"shard-times\"><h2>Shard times</h2><p class=\"lead\">Median " +
                   DurationText(a.median_s) + ", quartiles " + DurationText(a.q1_s) + " – " + DurationText(a.q3_s) +
-                  ". A straggler takes longer than Tukey's upper fence (Q3 + 1.5 × IQR) and at least " +
-                  Fmt("%.1f", kStragglerMinRatio) + " × the median: " + std::to_string(a.straggler_count) +
+                  ". A straggler takes longer than Tukey's upper fence (Q3 + 1.5 × IQR), at least " +
+                  Fmt("%.1f", kStragglerMinRatio) + " × the median and at least " +
+                  DurationText(kStragglerMinExcessS) + " more than the median: " + std::to_string(a.straggler_count) +
                   (a.straggler_count == 1 ? " shard." : " shards.") + "</p><div class=\"two\"><div>" +
                   ShardTimeHistogramSvg(a) +
                   "<ul class=\"legend\"><li><span class=\"sw sky\"></span>shards</li><li><span class=\"sw verm\">"

@@ -61,6 +61,10 @@ RunTotals JournalTotals(const RunRecord& r) {
 
 }  // namespace
 
+double StragglerThreshold(const RunAnalysis& a) {
+  return std::max({a.fence_s, kStragglerMinRatio * a.median_s, a.median_s + kStragglerMinExcessS});
+}
+
 double QuantileType7(const std::vector<double>& x, double p) {
   if (x.empty()) return 0;
   const double h = (static_cast<double>(x.size()) - 1) * p;  // 0-based form of (n-1)p + 1
@@ -142,8 +146,9 @@ RunAnalysis AnalyzeRun(const RunRecord& r) {
   a.q1_s = QuantileType7(secs, 0.25);
   a.q3_s = QuantileType7(secs, 0.75);
   a.fence_s = a.q3_s + 1.5 * (a.q3_s - a.q1_s);
+  const double threshold = StragglerThreshold(a);
   for (ShardTime& t : a.shard_times) {
-    t.straggler = t.seconds > a.fence_s && t.seconds >= kStragglerMinRatio * a.median_s && t.seconds > 0;
+    t.straggler = t.seconds > threshold;
     a.straggler_count += t.straggler;
   }
   a.slowest = a.shard_times;

@@ -63,8 +63,14 @@ struct RunAnalysis {
   std::string status;  // "finished", "finished with failed shards", "interrupted", "unfinished"
 };
 
-// A straggler: above Tukey's upper fence and at least this many times the median.
+// A straggler: above Tukey's upper fence, at least kStragglerMinRatio times
+// the median, and at least kStragglerMinExcessS longer than the median (so
+// that hundreds of sub-millisecond shards never flag one another).
 inline constexpr double kStragglerMinRatio = 1.5;
+inline constexpr double kStragglerMinExcessS = 0.02;
+
+// The shard time above which a shard is a straggler (the largest of the three).
+double StragglerThreshold(const RunAnalysis& a);
 
 RunAnalysis AnalyzeRun(const RunRecord& record);
 

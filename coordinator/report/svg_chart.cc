@@ -98,6 +98,24 @@ void Svg::Line(double x1, double y1, double x2, double y2, const std::string& at
           SvgNum(y2) + "\" " + attrs + "/>";
 }
 
+double TextWidthEstimate(std::string_view text, double font_px) {
+  size_t chars = 0;
+  for (unsigned char c : text) chars += (c & 0xC0) != 0x80;  // count lead bytes only
+  return static_cast<double>(chars) * 0.62 * font_px;
+}
+
+std::vector<double> SpreadLabels(const std::vector<double>& wanted, double gap, double lo, double hi) {
+  std::vector<size_t> order(wanted.size());
+  for (size_t i = 0; i < order.size(); ++i) order[i] = i;
+  std::stable_sort(order.begin(), order.end(), [&](size_t a, size_t b) { return wanted[a] < wanted[b]; });
+  std::vector<double> y(wanted.size());
+  double prev = lo - gap;
+  for (size_t i : order) prev = y[i] = std::max(wanted[i], prev + gap);
+  double next = hi + gap;
+  for (auto it = order.rbegin(); it != order.rend(); ++it) next = y[*it] = std::min(y[*it], next - gap);
+  return y;
+}
+
 void Svg::Text(double x, double y, const std::string& text, const std::string& attrs) {
   out_ += "<text x=\"" + SvgNum(x) + "\" y=\"" + SvgNum(y) + "\" " + attrs + ">" + XmlEscape(text) + "</text>";
 }

@@ -25,6 +25,16 @@ double NiceCeiling(double v);
 // Label text for a tick: "0", "0.25", "1.5k", "12M".
 std::string TickLabel(double v);
 
+// An upper estimate of `text`'s width in CSS pixels at `font_px`: DejaVu
+// Sans, the widest of the page's fonts, averages under 0.62 em a character
+// (UTF-8 counted by characters).
+double TextWidthEstimate(std::string_view text, double font_px);
+
+// Baselines for labels that want the rows `wanted` (any order): the same
+// order back, at least `gap` apart, moved as little as a forward then a
+// backward pass allows, and kept within [lo, hi] when they fit there.
+std::vector<double> SpreadLabels(const std::vector<double>& wanted, double gap, double lo, double hi);
+
 struct LinearScale {
   double d0 = 0, d1 = 1;  // domain
   double r0 = 0, r1 = 1;  // range (pixels)

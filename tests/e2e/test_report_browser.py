@@ -2,7 +2,8 @@
 `chromium`) loads the page from `fanfold report`, takes a screenshot and
 dumps the DOM after its script ran. Checked: no console message and no
 uncaught error (Chromium's own log, and an error hook injected into a copy
-of the page), the page's script finished (data-ready), one timeline bar per
+of the page), the page's script finished (data-ready), no two chart labels
+overlap and no failed attempt's bar is thinner than 5 px as laid out, one timeline bar per
 shard attempt of the journal (failed and retried ones included), the
 summary numbers equal summary.json, and nothing is fetched from outside.
 Chromium missing is a failure, not a skip: CI installs it (.ci/install-deps).
@@ -36,7 +37,15 @@ CRASHED = 9    # its worker is killed on the first attempt; the retry succeeds
 HOOK = """<script>(function(){var d=document.documentElement;function note(k,m){d.setAttribute(k,(d.getAttribute(k)||'')+m+';');}
 window.addEventListener('error',function(e){note('data-test-errors',e.message||'error');},true);
 window.addEventListener('unhandledrejection',function(e){note('data-test-errors','rejection');});
-['error','warn','log'].forEach(function(f){var o=console[f];console[f]=function(){note('data-test-console',f);return o.apply(console,arguments);};});})();</script>"""
+['error','warn','log'].forEach(function(f){var o=console[f];console[f]=function(){note('data-test-console',f);return o.apply(console,arguments);};});
+window.addEventListener('load',function(){var n=0;document.querySelectorAll('svg').forEach(function(svg){
+var t=Array.prototype.slice.call(svg.querySelectorAll('text.marker-label,text.series-label,text.point-label'));
+var r=t.map(function(e){return e.getBoundingClientRect();});
+for(var i=0;i<r.length;i++)for(var j=i+1;j<r.length;j++){var a=r[i],b=r[j];
+if(a.left<b.right&&b.left<a.right&&a.top<b.bottom&&b.top<a.bottom)note('data-test-overlaps',t[i].textContent+' / '+t[j].textContent);}
+var f=svg.querySelectorAll('rect.bar.failed,rect.bar.died,rect.bar.timed-out,rect.bar.rejected');
+f.forEach(function(e){var b=e.getBoundingClientRect();if(b.width<5)note('data-test-thin',e.getAttribute('data-attempt')+':'+b.width);});
+n+=t.length;});d.setAttribute('data-test-labels',n);});})();</script>"""
 
 CHROMIUM_FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
                   "--disable-background-networking", "--disable-component-update", "--disable-sync",
@@ -154,6 +163,11 @@ def main():
         checks.check("data-test-errors" not in scan.root, "page errors: %r" % scan.root.get("data-test-errors"))
         checks.check("data-test-console" not in scan.root, "console calls: %r" % scan.root.get("data-test-console"))
         checks.check(scan.root.get("data-ready") == "1", "the page's script did not finish (no data-ready)")
+        # Intent: no two chart labels overlap as the browser lays them out (real fonts), and every bar of an
+        # attempt that did not finish its shard is at least 5 px wide on screen.
+        checks.check(int(scan.root.get("data-test-labels", "0")) >= 2, "no chart labels found: %r" % scan.root.get("data-test-labels"))
+        checks.check("data-test-overlaps" not in scan.root, "overlapping chart labels: %r" % scan.root.get("data-test-overlaps"))
+        checks.check("data-test-thin" not in scan.root, "failed or retried bars too thin to see: %r" % scan.root.get("data-test-thin"))
         # Intent: one timeline bar per journal attempt, no more, no less, with the outcomes marked.
         got = sorted(a for a, _ in scan.attempts)
         checks.check(got == want, "timeline bars %d vs journal attempts %d; only in page %s, only in journal %s"

@@ -47,3 +47,27 @@ TEST_CASE("analysis: totals from the journal, the straggler, lanes and throughpu
   CHECK(text[2].find("10,000 read") != std::string::npos);
   CHECK(text[3].find("slowest: shard 9") != std::string::npos);
 }
+
+TEST_CASE("analysis: sub-millisecond shards never flag one another as stragglers") {
+  // Intent: 300 shards of 0.5 ms and one of 5 ms: ten times the median and far above Tukey's fence, but
+  // only 4.5 ms longer than the median, under the 20 ms floor; a 30 ms one is a straggler.
+  for (uint64_t slow_ns : {5'000'000ull, 30'000'000ull}) {
+    RunRecord r = SampleRecord();
+    r.attempts.clear();
+    r.manifest.shards.shards.resize(301);
+    for (uint32_t s = 0; s < 301; ++s) {
+      AttemptEntry a;
+      a.shard = s;
+      a.attempt = 1;
+      a.worker = static_cast<int>(s % 2);
+      a.start_ns = 1'000'000'000 + s * 1'000'000ull;
+      a.end_ns = a.start_ns + (s == 7 ? slow_ns : 500'000);
+      a.outcome = "done";
+      a.final = true;
+      r.attempts.push_back(a);
+    }
+    RunAnalysis an = AnalyzeRun(r);
+    CHECK(an.median_s == doctest::Approx(0.0005));
+    CHECK(an.straggler_count == (slow_ns > 20'000'000 ? 1u : 0u));
+  }
+}

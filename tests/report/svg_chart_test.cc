@@ -55,3 +55,20 @@ TEST_CASE("an Svg document is well formed") {
   CHECK(out.find(">x&lt;y</text>") != std::string::npos);
   CHECK(out.substr(out.size() - 6) == "</svg>");
 }
+
+TEST_CASE("spreading labels keeps order and a gap, within bounds when they fit") {
+  // Intent: three labels wanting one row get three rows `gap` apart, in their given order, moved as
+  // little as possible; labels already apart stay where they want to be; the bottom bound holds.
+  std::vector<double> y = SpreadLabels({50, 50, 50}, 15, 0, 200);
+  CHECK(y == std::vector<double>{50, 65, 80});
+  CHECK(SpreadLabels({10, 100, 40}, 15, 0, 200) == std::vector<double>{10, 100, 40});
+  y = SpreadLabels({195, 190, 199}, 15, 0, 200);
+  CHECK(y == std::vector<double>{185, 170, 200});
+  CHECK(SpreadLabels({}, 15, 0, 200).empty());
+}
+
+TEST_CASE("text width estimates count characters, not bytes") {
+  // Intent: "×" (two bytes in UTF-8) counts as one character.
+  CHECK(TextWidthEstimate("ab", 10) == doctest::Approx(12.4));
+  CHECK(TextWidthEstimate("a\xC3\x97", 10) == doctest::Approx(12.4));
+}
