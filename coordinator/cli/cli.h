@@ -1,7 +1,8 @@
-// The command-line front end of `fanfold`: a table of subcommands (run,
-// check, ...), each with its options struct, parsed with CLI11. Numeric
-// flags go through checked parsers with precise messages. ParseAndRun only
-// parses and dispatches; it never exits the process.
+// The command-line front end of `fanfold`: builds a CLI11 parser from the
+// table of subcommands (coordinator/cli/subcommand_table.h), parses, checks
+// the chosen subcommand's flags and runs it. Every usage error, CLI11's or a
+// flag check's, leaves through one path (usage_hint). ParseAndRun never exits
+// the process; main() maps the outcome to the exit status. Main thread only.
 #pragma once
 
 #include "coordinator/cli/run_command.h"
@@ -15,8 +16,5 @@ struct CliOutcome {
 };
 
 CliOutcome ParseAndRun(int argc, char** argv);
-
-// Parses a worker count: a whole number 1..1024. Returns false iff invalid.
-bool ParseWorkerCount(const std::string& text, int* out);
 
 }  // namespace fanfold

@@ -14,7 +14,7 @@
 namespace fanfold {
 
 struct ReportOptions {
-  std::string run_dir;
+  std::string run_dir;            // RUN_DIR: a run directory, finished or not
   std::string html_path;          // "" = RUN_DIR/report.html
   std::string timings_json_path;  // "" = no timings file
   std::string scale_json_path;    // "" = no scaling section

@@ -17,8 +17,10 @@ struct CommandOutcome {
   bool shards_failed = false;  // finished, but some shards failed
 };
 
+// The options of `run` (and of `resume`, which reads job_path from the run's
+// manifest and takes the defaults for the flags it lacks).
 struct RunOptions {
-  std::string job_path;
+  std::string job_path;       // JOB: the job file (run only)
   int workers = 0;            // 0 = one per available core
   std::string output_path;    // "" = the job's emit.path, else stdout
   std::string run_dir;        // "" = fanfold-runs/<job name> under the working directory
@@ -41,7 +43,7 @@ CommandOutcome ResumeRun(const RunOptions& options);
 std::string DefaultRunDir(const std::string& job_path);
 
 struct CheckOptions {
-  std::string job_path;
+  std::string job_path;  // JOB: the job file
 };
 
 CommandOutcome CheckJob(const CheckOptions& options);

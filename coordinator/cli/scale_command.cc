@@ -3,7 +3,6 @@
 #include <stdlib.h>
 
 #include <algorithm>
-#include <charconv>
 #include <chrono>
 #include <cstdio>
 #include <ctime>
@@ -94,29 +93,6 @@ Status RunOnce(const ScaleOptions& o, const std::string& scratch, const std::str
 }
 
 }  // namespace
-
-std::string ParseWorkerList(const std::string& text, std::vector<int>* out) {
-  const std::string expected = "--workers: expected a comma-separated list of whole numbers from 1 to 1024, found '";
-  std::vector<int> v;
-  size_t pos = 0;
-  if (text.empty()) return expected + "'";
-  while (pos <= text.size()) {
-    size_t comma = text.find(',', pos);
-    if (comma == std::string::npos) comma = text.size();
-    const std::string item = text.substr(pos, comma - pos);
-    int n = 0;
-    auto [p, ec] = std::from_chars(item.data(), item.data() + item.size(), n);
-    if (item.empty() || ec != std::errc() || p != item.data() + item.size() || n < 1 || n > 1024)
-      return expected + item + "'" + (item != text ? " in '" + text + "'" : "");
-    if (std::find(v.begin(), v.end(), n) != v.end())
-      return "--workers: " + std::to_string(n) + " is listed twice in '" + text + "'";
-    v.push_back(n);
-    pos = comma + 1;
-  }
-  std::sort(v.begin(), v.end());
-  *out = std::move(v);
-  return "";
-}
 
 CommandOutcome ScaleJob(const ScaleOptions& o) {
   CommandOutcome out;

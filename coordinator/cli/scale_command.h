@@ -15,17 +15,13 @@
 namespace fanfold {
 
 struct ScaleOptions {
-  std::string job_path;
-  std::vector<int> workers;  // from ParseWorkerList: ascending, distinct
+  std::string job_path;      // JOB: the job file
+  std::vector<int> workers;  // ascending, distinct (--workers, numeric_flag.h)
   int repeat = 1;            // timed runs per worker count; the median is reported
   std::string json_path;     // "" = no JSON file
   std::string html_path;     // "" = no HTML file
   bool quiet = false;        // only errors on stderr
 };
-
-// Parses "1,2,4" into ascending distinct counts 1..1024. Returns "" on
-// success, else the usage message (naming --workers and the bad item).
-std::string ParseWorkerList(const std::string& text, std::vector<int>* out);
 
 // Exit semantics as `run`: shards_failed is also set when the runs' results
 // differ (a determinism bug worth a non-zero exit).

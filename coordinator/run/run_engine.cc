@@ -157,140 +157,171 @@ json SummaryJson(const RunInput& in, const RunSummary& s, const Merger& merger, 
 
 }  // namespace
 
-CommandOutcome ExecuteRun(const RunInput& in, const RunOptions& o) {
+CommandOutcome ExecuteRun(const RunInput& in, const RunOptions& o) { return RunEngine(in, o).Execute(); }
+
+RunEngine::RunEngine(const RunInput& in, const RunOptions& o)
+    : in_(in),
+      options_(o),
+      plan_(*in.plan),
+      list_(*in.shards),
+      dir_(*in.dir),
+      start_(std::chrono::steady_clock::now()),
+      merger_(&plan_, static_cast<uint32_t>(list_.shards.size())) {}
+
+CommandOutcome RunEngine::Execute() {
   CommandOutcome out;
-  const auto start = std::chrono::steady_clock::now();
-  auto note = [&](const std::string& line) {
-    if (!o.quiet) LogInfo(line);
-  };
-  const Plan& plan = *in.plan;
-  const ShardList& list = *in.shards;
-  RunDirectory& dir = *in.dir;
-  SignalGuard signals;
-  // Orphans of coordinators that died are removed at every start, even when
-  // nothing is left to process and no transport is made.
-  ShmSegment::RemoveStaleSegments();
-
-  Merger merger(&plan, static_cast<uint32_t>(list.shards.size()));
-  merger.SetReloader([&dir](uint32_t shard, std::string* out) {
-    Status s = dir.LoadStagedOrCommitted(shard, out);
-    if (s.ok() && out->empty()) s = Status::Internal("no saved partial for shard " + std::to_string(shard));
-    return s;
-  });
-  for (uint32_t s : in.reused) {
-    std::string bytes;
-    Status st = dir.LoadPartial(s, &bytes);
-    if (st.ok()) st = merger.Add(s, std::move(bytes));
-    if (!st.ok()) {
-      out.status = st.WithContext("reading the committed partial of shard " + std::to_string(s));
-      return out;
-    }
-  }
-
-  int workers = o.workers > 0 ? o.workers : static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
-  workers = std::max(1, std::min<int>(workers, static_cast<int>(in.pending.size())));
-  dir.StageJournal(json{{"event", "start"}, {"mode", in.mode}, {"pid", ::getpid()}, {"workers", workers},
-                        {"pending", in.pending.size()}, {"reused", in.reused.size()}, {"time_ns", WallNs()}}
-                       .dump());
-  RunLoopResult loop;
-  if (!in.pending.empty()) {
-    Result<std::unique_ptr<Transport>> transport =
-        MakeTransport(plan, o, workers, (std::filesystem::path(dir.path()) / "partials").string());
-    if (!transport.ok()) {
-      out.status = transport.status();
-      return out;
-    }
-    Result<std::vector<uint32_t>> all = DispatchOrder(list.shards);
-    if (!all.ok()) {
-      out.status = all.status();
-      return out;
-    }
-    std::unordered_set<uint32_t> pending(in.pending.begin(), in.pending.end());
-    std::vector<uint32_t> order;
-    for (uint32_t s : *all)
-      if (pending.count(s)) order.push_back(s);
-    ProgressMeter meter(o.quiet ? ProgressMode::kOff : o.progress, o.progress_every_s, list, order);
-    RunLoopOptions lo;
-    lo.max_attempts = o.max_attempts;
-    lo.shard_time_limit_ms = o.shard_time_limit_ms;
-    lo.should_stop = [] { return SignalGuard::interrupted(); };
-    lo.on_attempt = [&](const AttemptRecord& r) {
-      dir.StageJournal(AttemptLine(r));
-      meter.OnAttempt(r);
-    };
-    lo.on_partial = [&](uint32_t shard, const std::string& bytes) { return dir.StagePartial(shard, bytes); };
-    lo.on_idle = [&]() {
-      meter.Tick();
-      return dir.commit_due() ? dir.Commit() : Status::Ok();
-    };
-    Status s = RunShards(list, order, **transport, merger, lo, &loop);
-    meter.Finish();
-    (*transport)->Shutdown();
-    Status c = dir.Commit();
-    if (!s.ok()) {
-      out.status = s;
-      return out;
-    }
-    if (!c.ok()) {
-      out.status = c;
-      return out;
-    }
-  }
-  for (const auto& [shard, message] : merger.late_failures())
-    loop.failures.push_back({shard, list.shards[shard].path, message, 1});
-
-  RunSummary summary;
-  summary.shards_total = list.shards.size();
-  summary.totals = merger.totals();
-  summary.samples = merger.malformed_samples();
-  summary.failures = loop.failures;
-  summary.interrupted = loop.interrupted;
-  summary.wall_seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
-  if (loop.interrupted) {
-    dir.StageJournal(json{{"event", "interrupted"}, {"time_ns", WallNs()}}.dump());
-    (void)dir.Commit();
-    for (const auto& line : FormatRunSummary(summary, list)) note(line);
-    note("interrupted; finished shards are saved. To finish the run: fanfold resume " + dir.path());
-    out.status = Status::Interrupted("run interrupted by signal " + std::to_string(SignalGuard::signal_number()));
+  Prepare();
+  out.status = Reload();
+  if (out.status.ok()) out.status = Run();
+  if (!out.status.ok()) return out;
+  Tally();
+  if (loop_.interrupted) {
+    out.status = Stop();
     return out;
   }
-
-  Result<OutputTable> table = merger.Finish();
+  Result<OutputTable> table = Finish();
   if (!table.ok()) {
     out.status = table.status();
     return out;
   }
-  SortRows(&*table, plan.spec.emit.order);
-  if (plan.spec.emit.limit && table->rows.size() > *plan.spec.emit.limit) table->rows.resize(*plan.spec.emit.limit);
-  const std::string text = RenderTable(*table, plan.spec.emit.format);
-  const std::string path = OutputPath(o, plan);
-  Status w = dir.WriteFile(ResultName(plan.spec.emit.format), text);
-  if (w.ok()) w = WriteOutput(path, text);
-  summary.wall_seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
-  if (w.ok())
-    w = dir.WriteFile("summary.json", SummaryJson(in, summary, merger, path, workers, loop.retries).dump(1) + "\n");
-  dir.StageJournal(json{{"event", "finish"}, {"time_ns", WallNs()}, {"failed", loop.failures.size()}}.dump());
-  if (w.ok()) w = dir.Commit();
-  if (!w.ok()) {
-    out.status = w;
-    return out;
-  }
+  const Status written = Render(*table);
+  out.status = Summarise(written);
+  if (!out.status.ok()) return out;
+  PrintNotes();
+  out.shards_failed = !loop_.failures.empty();
+  return out;
+}
 
-  for (const auto& line : FormatRunSummary(summary, list)) note(line);
-  for (size_t m = 0; m < plan.measures.size(); ++m) {
-    if (merger.skipped()[m] > 0)
-      note("measure \"" + plan.measures[m].name + "\" skipped " + GroupedInteger(merger.skipped()[m]) +
+void RunEngine::Prepare() {
+  ShmSegment::RemoveStaleSegments();
+  merger_.SetReloader([this](uint32_t shard, std::string* out) {
+    Status s = dir_.LoadStagedOrCommitted(shard, out);
+    if (s.ok() && out->empty()) s = Status::Internal("no saved partial for shard " + std::to_string(shard));
+    return s;
+  });
+  const int asked = options_.workers > 0 ? options_.workers
+                                         : static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
+  workers_ = std::max(1, std::min<int>(asked, static_cast<int>(in_.pending.size())));
+}
+
+Status RunEngine::Reload() {
+  for (uint32_t s : in_.reused) {
+    std::string bytes;
+    Status st = dir_.LoadPartial(s, &bytes);
+    if (st.ok()) st = merger_.Add(s, std::move(bytes));
+    if (!st.ok()) return st.WithContext("reading the committed partial of shard " + std::to_string(s));
+  }
+  return Status::Ok();
+}
+
+Status RunEngine::Run() {
+  dir_.StageJournal(json{{"event", "start"}, {"mode", in_.mode}, {"pid", ::getpid()}, {"workers", workers_},
+                         {"pending", in_.pending.size()}, {"reused", in_.reused.size()}, {"time_ns", WallNs()}}
+                        .dump());
+  if (in_.pending.empty()) return Status::Ok();
+  Result<std::unique_ptr<Transport>> transport =
+      MakeTransport(plan_, options_, workers_, (std::filesystem::path(dir_.path()) / "partials").string());
+  if (!transport.ok()) return transport.status();
+  Result<std::vector<uint32_t>> all = DispatchOrder(list_.shards);
+  if (!all.ok()) return all.status();
+  std::unordered_set<uint32_t> pending(in_.pending.begin(), in_.pending.end());
+  std::vector<uint32_t> order;
+  for (uint32_t s : *all)
+    if (pending.count(s)) order.push_back(s);
+  ProgressMeter meter(options_.quiet ? ProgressMode::kOff : options_.progress, options_.progress_every_s, list_,
+                      order);
+  RunLoopOptions lo;
+  lo.max_attempts = options_.max_attempts;
+  lo.shard_time_limit_ms = options_.shard_time_limit_ms;
+  lo.should_stop = [] { return SignalGuard::interrupted(); };
+  lo.on_attempt = [&](const AttemptRecord& r) {
+    dir_.StageJournal(AttemptLine(r));
+    meter.OnAttempt(r);
+  };
+  lo.on_partial = [&](uint32_t shard, const std::string& bytes) { return dir_.StagePartial(shard, bytes); };
+  lo.on_idle = [&]() {
+    meter.Tick();
+    return dir_.commit_due() ? dir_.Commit() : Status::Ok();
+  };
+  Status s = RunShards(list_, order, **transport, merger_, lo, &loop_);
+  meter.Finish();
+  (*transport)->Shutdown();
+  return Commit(s);
+}
+
+Status RunEngine::Commit(const Status& run) {
+  Status c = dir_.Commit();
+  return run.ok() ? c : run;
+}
+
+void RunEngine::Tally() {
+  for (const auto& [shard, message] : merger_.late_failures())
+    loop_.failures.push_back({shard, list_.shards[shard].path, message, 1});
+  summary_.shards_total = list_.shards.size();
+  summary_.totals = merger_.totals();
+  summary_.samples = merger_.malformed_samples();
+  summary_.failures = loop_.failures;
+  summary_.interrupted = loop_.interrupted;
+  summary_.wall_seconds = ElapsedSeconds();
+}
+
+Status RunEngine::Stop() {
+  dir_.StageJournal(json{{"event", "interrupted"}, {"time_ns", WallNs()}}.dump());
+  (void)dir_.Commit();
+  for (const auto& line : FormatRunSummary(summary_, list_)) Note(line);
+  Note("interrupted; finished shards are saved. To finish the run: fanfold resume " + dir_.path());
+  return Status::Interrupted("run interrupted by signal " + std::to_string(SignalGuard::signal_number()));
+}
+
+Result<OutputTable> RunEngine::Finish() {
+  Result<OutputTable> table = merger_.Finish();
+  if (!table.ok()) return table;
+  SortRows(&*table, plan_.spec.emit.order);
+  if (plan_.spec.emit.limit && table->rows.size() > *plan_.spec.emit.limit) table->rows.resize(*plan_.spec.emit.limit);
+  return table;
+}
+
+Status RunEngine::Render(const OutputTable& table) {
+  const std::string text = RenderTable(table, plan_.spec.emit.format);
+  output_path_ = OutputPath(options_, plan_);
+  Status w = dir_.WriteFile(ResultName(plan_.spec.emit.format), text);
+  if (w.ok()) w = WriteOutput(output_path_, text);
+  return w;
+}
+
+Status RunEngine::Summarise(const Status& written) {
+  Status w = written;
+  summary_.wall_seconds = ElapsedSeconds();
+  if (w.ok())
+    w = dir_.WriteFile("summary.json",
+                       SummaryJson(in_, summary_, merger_, output_path_, workers_, loop_.retries).dump(1) + "\n");
+  dir_.StageJournal(json{{"event", "finish"}, {"time_ns", WallNs()}, {"failed", loop_.failures.size()}}.dump());
+  if (w.ok()) w = dir_.Commit();
+  return w;
+}
+
+void RunEngine::PrintNotes() const {
+  for (const auto& line : FormatRunSummary(summary_, list_)) Note(line);
+  for (size_t m = 0; m < plan_.measures.size(); ++m) {
+    if (merger_.skipped()[m] > 0)
+      Note("measure \"" + plan_.measures[m].name + "\" skipped " + GroupedInteger(merger_.skipped()[m]) +
            " values that were missing, null or not usable");
   }
-  for (size_t m = 0; m < plan.measures.size(); ++m) {
-    if (merger.degraded()[m] > 0)
-      note("warning: measure \"" + plan.measures[m].name + "\" saw more distinct values than its limit of " +
-           std::to_string(plan.measures[m].config.limit) + " in " + GroupedInteger(merger.degraded()[m]) +
+  for (size_t m = 0; m < plan_.measures.size(); ++m) {
+    if (merger_.degraded()[m] > 0)
+      Note("warning: measure \"" + plan_.measures[m].name + "\" saw more distinct values than its limit of " +
+           std::to_string(plan_.measures[m].config.limit) + " in " + GroupedInteger(merger_.degraded()[m]) +
            " groups; its counts there are lower bounds (raise \"limit\" for exact counts)");
   }
-  if (!path.empty()) note("result written to " + path);
-  out.shards_failed = !loop.failures.empty();
-  return out;
+  if (!output_path_.empty()) Note("result written to " + output_path_);
+}
+
+void RunEngine::Note(const std::string& line) const {
+  if (!options_.quiet) LogInfo(line);
+}
+
+double RunEngine::ElapsedSeconds() const {
+  return std::chrono::duration<double>(std::chrono::steady_clock::now() - start_).count();
 }
 
 }  // namespace fanfold

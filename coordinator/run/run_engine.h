@@ -3,15 +3,23 @@
 // pending ones out to workers (retrying and quarantining as needed),
 // persist every partial and journal every attempt, then write the result,
 // result copy and summary.json. SIGINT/SIGTERM stop it gracefully: no new
-// shards, the journal committed, a hint on how to resume.
+// shards, the journal committed, a hint on how to resume. RunEngine holds the
+// steps, in the order Execute() takes them. Coordinator main thread only.
 #pragma once
 
+#include <chrono>
 #include <cstdint>
+#include <string>
 #include <vector>
 
 #include "common/job/plan.h"
 #include "common/job/shard_list.h"
+#include "common/port/signal_guard.h"
 #include "coordinator/cli/run_command.h"
+#include "coordinator/output/output_table.h"
+#include "coordinator/run/merger.h"
+#include "coordinator/run/run_loop.h"
+#include "coordinator/run/run_summary.h"
 #include "coordinator/rundir/run_directory.h"
 
 namespace fanfold {
@@ -26,5 +34,68 @@ struct RunInput {
 };
 
 CommandOutcome ExecuteRun(const RunInput& input, const RunOptions& options);
+
+// One execution of a run. Constructing it installs the SIGINT/SIGTERM guard
+// for its lifetime. REQUIRES: input, what it points to and options outlive it.
+class RunEngine {
+ public:
+  RunEngine(const RunInput& input, const RunOptions& options);
+  RunEngine(const RunEngine&) = delete;
+  RunEngine& operator=(const RunEngine&) = delete;
+
+  // Prepare, Reload, Run (which ends with Commit), Tally, then Stop if
+  // interrupted, else Finish, Render and Summarise; the first error ends it.
+  // REQUIRES: called once.
+  CommandOutcome Execute();
+
+ private:
+  // Removes orphaned segments of dead coordinators (at every start, even
+  // with nothing to process), lets the merger reload spilled partials from
+  // the run directory, and picks the worker count (at most one per pending
+  // shard, at least one).
+  void Prepare();
+  // Merges the committed partial of every reused shard, in the order given.
+  Status Reload();
+  // Journals the start; then, iff shards are pending, makes the transport and
+  // the progress meter, runs the pending shards in dispatch order (journaling
+  // each attempt, staging each partial, committing when due), shuts the
+  // transport down and commits. Shard failures are in loop_, not the Status.
+  Status Run();
+  // Commits what the run staged even when it failed, so that finished shards
+  // survive; returns the run's error first, else the commit's.
+  Status Commit(const Status& run);
+  // Adds the merger's late failures to loop_ and fills summary_.
+  void Tally();
+  // After an interruption: journals it, commits, prints the summary lines and
+  // how to resume. Returns the Interrupted status for the exit code.
+  Status Stop();
+  // The merged table, sorted and cut to the job's emit.order and emit.limit.
+  Result<OutputTable> Finish();
+  // Renders table in the job's format and writes it as result.<ext> in the
+  // run directory, then to the output (a file, or stdout).
+  Status Render(const OutputTable& table);
+  // Given written, what Render returned: writes summary.json (iff written is
+  // ok), journals the finish, and commits (iff all went well).
+  Status Summarise(const Status& written);
+  // The notes on stderr after a finished run: the summary lines, measures
+  // that skipped values or ran past their limit, and where the result went.
+  void PrintNotes() const;
+
+  void Note(const std::string& line) const;  // an info line, unless quiet
+  double ElapsedSeconds() const;
+
+  const RunInput& in_;
+  const RunOptions& options_;
+  const Plan& plan_;
+  const ShardList& list_;
+  RunDirectory& dir_;
+  const std::chrono::steady_clock::time_point start_;
+  SignalGuard signals_;      // installed until the engine is destroyed
+  Merger merger_;            // every shard's partial, in shard order
+  int workers_ = 1;          // worker processes (Prepare)
+  RunLoopResult loop_;       // failures, retries, interruption (Run, Tally)
+  RunSummary summary_;       // what the summary lines and summary.json say (Tally)
+  std::string output_path_;  // where Render wrote the result; "" = stdout
+};
 
 }  // namespace fanfold

@@ -1,9 +1,8 @@
-// Tests for the scale measurements: the formulas, the table, the JSON and the --workers parser.
+// Tests for the scale measurements: the formulas, the table and the JSON.
 #include <doctest/doctest.h>
 
 #include <cmath>
 
-#include "coordinator/cli/scale_command.h"
 #include "coordinator/report/scale_result.h"
 
 using namespace fanfold;
@@ -73,20 +72,4 @@ TEST_CASE("derived fields, table and JSON round trip") {
   CHECK(back->shard_seconds.size() == 4);
   CHECK_FALSE(DecodeScaleJson("{\"fanfold_scale\":1,\"points\":[]}", "x").ok());
   CHECK_FALSE(DecodeScaleJson("[", "x").ok());
-}
-
-TEST_CASE("--workers lists") {
-  // Intent: precise messages naming --workers and the bad item; the result sorted ascending.
-  std::vector<int> w;
-  CHECK(ParseWorkerList("4,1,2", &w).empty());
-  CHECK(w == std::vector<int>{1, 2, 4});
-  std::string e = ParseWorkerList("1,zero", &w);
-  CHECK(e.find("--workers") != std::string::npos);
-  CHECK(e.find("'zero'") != std::string::npos);
-  CHECK(ParseWorkerList("0", &w).find("found '0'") != std::string::npos);
-  CHECK(ParseWorkerList("1025", &w).find("1 to 1024") != std::string::npos);
-  CHECK(ParseWorkerList("1,,2", &w).find("found ''") != std::string::npos);
-  CHECK(ParseWorkerList("2,2", &w).find("listed twice") != std::string::npos);
-  CHECK(ParseWorkerList("", &w).find("--workers") != std::string::npos);
-  CHECK(ParseWorkerList("3x", &w).find("'3x'") != std::string::npos);
 }

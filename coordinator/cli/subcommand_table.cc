@@ -1,0 +1,187 @@
+#include "coordinator/cli/subcommand_table.h"
+
+#include <algorithm>
+#include <string>
+#include <thread>
+
+#include <CLI/CLI.hpp>
+
+#include "coordinator/cli/numeric_flag.h"
+#include "coordinator/cli/report_command.h"
+#include "coordinator/cli/scale_command.h"
+#include "coordinator/cli/stderr_flags.h"
+
+namespace fanfold {
+namespace {
+
+// The numeric flags' ranges (--progress-every's is in stderr_flags.cc).
+constexpr WholeFlag kWorkersFlag{.name = "-j/--workers", .min = 1, .max = 1024};
+constexpr WholeFlag kAttemptsFlag{.name = "--attempts", .min = 1, .max = 100};
+// Above 0; a million seconds (11.6 days) caps values that can only be typos.
+constexpr SecondsFlag kShardTimeLimitFlag{.name = "--shard-time-limit", .min = 0, .max = 1e6, .above_min = true};
+constexpr WholeFlag kScaleWorkersFlag{.name = "--workers", .min = 1, .max = 1024};
+constexpr WholeFlag kRepeatFlag{.name = "--repeat", .min = 1, .max = 100};
+
+// Parses text into *out unless it is empty (the flag was not given, or given
+// as ""; both keep the default, as they always have).
+template <typename T>
+Status ParseWholeIfGiven(const WholeFlag& flag, const std::string& text, T* out) {
+  if (text.empty()) return Status::Ok();
+  Result<int64_t> v = ParseWholeFlag(flag, text);
+  if (!v.ok()) return v.status();
+  *out = static_cast<T>(*v);
+  return Status::Ok();
+}
+
+// `fanfold run JOB`.
+class RunSubcommand final : public Subcommand {
+ public:
+  void AddFlags(CLI::App* cmd) override {
+    cmd->add_option("JOB", options_.job_path, "the job file (JSON)")->required();
+    cmd->add_option("-j,--workers", workers_, "worker processes (default: one per core)");
+    cmd->add_option("-o,--output", options_.output_path,
+                    "write the result here instead of the job's emit.path ('-' = stdout)");
+    cmd->add_option("--run-dir", options_.run_dir, "directory recording this run (default: fanfold-runs/<job name>)");
+    cmd->add_flag("--fresh", options_.fresh, "discard an earlier run in the run directory and start over");
+    cmd->add_option("--attempts", attempts_, "tries per shard when its worker dies (default 3)");
+    cmd->add_option("--shard-time-limit", time_limit_, "kill and retry a shard's worker after this many seconds");
+    cmd->add_flag("--in-process", options_.in_process, "debugging: process shards inside the coordinator");
+    cmd->add_flag("-q,--quiet", options_.quiet, "print nothing on stderr but errors");
+    AddStderrFlags(cmd, &stderr_, /*with_progress=*/true);
+  }
+  Status CheckFlags() override {
+    FF_RETURN_IF_ERROR(ApplyStderrFlags(stderr_, options_.quiet, &options_));
+    FF_RETURN_IF_ERROR(ParseWholeIfGiven(kWorkersFlag, workers_, &options_.workers));
+    FF_RETURN_IF_ERROR(ParseWholeIfGiven(kAttemptsFlag, attempts_, &options_.max_attempts));
+    if (!time_limit_.empty()) {
+      Result<double> secs = ParseSecondsFlag(kShardTimeLimitFlag, time_limit_);
+      if (!secs.ok()) return secs.status();
+      options_.shard_time_limit_ms = static_cast<uint64_t>(*secs * 1000 + 0.5);
+    }
+    return Status::Ok();
+  }
+  CommandOutcome Run() override { return RunJob(options_); }
+
+ private:
+  RunOptions options_;  // what RunJob gets; CLI11 fills its text and switch fields
+  std::string workers_;     // -j/--workers as typed ("" = one per core)
+  std::string attempts_;    // --attempts as typed ("" = 3)
+  std::string time_limit_;  // --shard-time-limit as typed ("" = none)
+  StderrFlags stderr_;      // --progress, --progress-every, --log-level
+};
+
+// `fanfold resume RUN_DIR`: run's options, fewer of them on the command line.
+class ResumeSubcommand final : public Subcommand {
+ public:
+  void AddFlags(CLI::App* cmd) override {
+    cmd->add_option("RUN_DIR", options_.run_dir, "the run directory that `fanfold run` printed")->required();
+    cmd->add_option("-j,--workers", workers_, "worker processes (default: one per core)");
+    cmd->add_option("-o,--output", options_.output_path, "write the result here instead of the job's emit.path");
+    cmd->add_flag("-q,--quiet", options_.quiet, "print nothing on stderr but errors");
+    AddStderrFlags(cmd, &stderr_, /*with_progress=*/true);
+  }
+  Status CheckFlags() override {
+    FF_RETURN_IF_ERROR(ApplyStderrFlags(stderr_, options_.quiet, &options_));
+    return ParseWholeIfGiven(kWorkersFlag, workers_, &options_.workers);
+  }
+  CommandOutcome Run() override { return ResumeRun(options_); }
+
+ private:
+  RunOptions options_;  // what ResumeRun gets (job_path unused: the run names its job)
+  std::string workers_;  // -j/--workers as typed ("" = one per core)
+  StderrFlags stderr_;   // --progress, --progress-every, --log-level
+};
+
+// `fanfold check JOB`.
+class CheckSubcommand final : public Subcommand {
+ public:
+  void AddFlags(CLI::App* cmd) override {
+    cmd->add_option("JOB", options_.job_path, "the job file (JSON)")->required();
+  }
+  Status CheckFlags() override { return Status::Ok(); }
+  CommandOutcome Run() override { return CheckJob(options_); }
+
+ private:
+  CheckOptions options_;  // what CheckJob gets
+};
+
+// `fanfold scale JOB`.
+class ScaleSubcommand final : public Subcommand {
+ public:
+  void AddFlags(CLI::App* cmd) override {
+    cmd->add_option("JOB", options_.job_path, "the job file (JSON)")->required();
+    cmd->add_option("--workers", workers_, "comma-separated worker counts (default: 1, 2, 4, ... up to the cores)");
+    cmd->add_option("--repeat", repeat_, "timed runs per worker count; the median is reported (default 1)");
+    cmd->add_option("--json", options_.json_path, "also write the measurements as JSON (for fanfold report --scale)");
+    cmd->add_option("--html", options_.html_path, "also write an HTML page with the scaling chart");
+    cmd->add_flag("-q,--quiet", options_.quiet, "print nothing on stderr but errors");
+    AddStderrFlags(cmd, &stderr_, /*with_progress=*/false);
+  }
+  Status CheckFlags() override {
+    FF_RETURN_IF_ERROR(ApplyStderrFlags(stderr_, options_.quiet, nullptr));
+    if (workers_.empty()) workers_ = DefaultWorkerCounts();
+    Result<std::vector<int64_t>> counts = ParseWholeListFlag(kScaleWorkersFlag, workers_);
+    if (!counts.ok()) return counts.status();
+    options_.workers.assign(counts->begin(), counts->end());
+    return ParseWholeIfGiven(kRepeatFlag, repeat_, &options_.repeat);
+  }
+  CommandOutcome Run() override { return ScaleJob(options_); }
+
+ private:
+  // "1,2,4,...,C" for C cores (at least 2).
+  static std::string DefaultWorkerCounts() {
+    const unsigned cores = std::max(2u, std::thread::hardware_concurrency());
+    std::string counts;
+    for (unsigned p = 1; p < cores; p *= 2) counts += std::to_string(p) + ",";
+    return counts + std::to_string(cores);
+  }
+
+  ScaleOptions options_;  // what ScaleJob gets; CLI11 fills its text and switch fields
+  std::string workers_;   // --workers as typed ("" = powers of two up to the cores)
+  std::string repeat_;    // --repeat as typed ("" = 1)
+  StderrFlags stderr_;    // --log-level
+};
+
+// `fanfold report RUN_DIR`.
+class ReportSubcommand final : public Subcommand {
+ public:
+  void AddFlags(CLI::App* cmd) override {
+    cmd->add_option("RUN_DIR", options_.run_dir, "the run directory that `fanfold run` printed")->required();
+    cmd->add_option("-o,--output", options_.html_path, "the HTML file to write (default RUN_DIR/report.html)");
+    cmd->add_option("--timings-json", options_.timings_json_path,
+                    "also write every shard attempt's timings as a JSON array");
+    cmd->add_option("--scale", options_.scale_json_path, "add the scaling chart of a `fanfold scale --json` file");
+    cmd->add_flag("-q,--quiet", options_.quiet, "no summary on stdout");
+    AddStderrFlags(cmd, &stderr_, /*with_progress=*/false);
+  }
+  Status CheckFlags() override { return ApplyStderrFlags(stderr_, options_.quiet, nullptr); }
+  CommandOutcome Run() override { return ReportRun(options_); }
+
+ private:
+  ReportOptions options_;  // what ReportRun gets
+  StderrFlags stderr_;     // --log-level
+};
+
+template <typename T>
+std::unique_ptr<Subcommand> Make() {
+  return std::make_unique<T>();
+}
+
+constexpr SubcommandRow kRows[] = {
+    {"run", "Run a job and print (or write) its result table.",
+     "fanfold run jobs/district_hourly.json -j 2 -o hourly.csv", &Make<RunSubcommand>},
+    {"resume", "Finish a run: process only its failed, missing or changed shards.",
+     "fanfold resume fanfold-runs/district_hourly", &Make<ResumeSubcommand>},
+    {"check", "Validate a job; print its plan and shards; run nothing.", "fanfold check jobs/district_hourly.json",
+     &Make<CheckSubcommand>},
+    {"scale", "Time a job at several worker counts: speedup, efficiency, serial fraction.",
+     "fanfold scale jobs/district_hourly.json --workers 1,2 --repeat 3 --html scale.html", &Make<ScaleSubcommand>},
+    {"report", "Write a run's HTML report (timeline, shard times, bad records) and summarize it.",
+     "fanfold report fanfold-runs/district_hourly --timings-json timings.json", &Make<ReportSubcommand>},
+};
+
+}  // namespace
+
+std::span<const SubcommandRow> SubcommandTable() { return kRows; }
+
+}  // namespace fanfold
