@@ -6,7 +6,7 @@
 #include <xxhash.h>
 
 #include "common/base/json_location.h"
-#include "common/partial/partial_codec.h"
+#include "common/base/format_version.h"
 
 namespace fanfold {
 namespace {

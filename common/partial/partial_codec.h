@@ -35,11 +35,11 @@
 
 #include "common/partial/group_table.h"
 #include "common/input/record_reader.h"
+#include "common/base/format_version.h"
 #include "common/base/status.h"
 
 namespace fanfold {
 
-inline constexpr uint16_t kPartialFormatVersion = 2;  // 2: DDSketch stores run-length encode empty buckets
 inline constexpr uint16_t kPartialHeaderSize = 160;
 inline constexpr uint64_t kMaxPartialBodyBytes = uint64_t{1} << 34;  // 16 GiB decompressed
 

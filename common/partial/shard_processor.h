@@ -14,7 +14,7 @@
 #include "common/partial/partial_codec.h"
 #include "common/job/plan.h"
 #include "common/input/record_reader.h"
-#include "common/transport/shard_task.h"
+#include "common/job/shard_task.h"
 #include "common/base/status.h"
 
 namespace fanfold {

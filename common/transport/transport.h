@@ -9,7 +9,7 @@
 #include <cstdint>
 #include <string>
 
-#include "common/transport/shard_task.h"
+#include "common/job/shard_task.h"
 #include "common/base/status.h"
 
 namespace fanfold {

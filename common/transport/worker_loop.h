@@ -13,7 +13,7 @@
 #include <string>
 #include <vector>
 
-#include "common/transport/shard_task.h"
+#include "common/job/shard_task.h"
 #include "common/base/status.h"
 
 namespace fanfold {

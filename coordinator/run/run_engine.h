@@ -15,7 +15,7 @@
 #include "common/job/plan.h"
 #include "common/job/shard_list.h"
 #include "common/port/signal_guard.h"
-#include "coordinator/cli/run_command.h"
+#include "coordinator/run/run_options.h"
 #include "coordinator/output/output_table.h"
 #include "coordinator/run/merger.h"
 #include "coordinator/run/run_loop.h"

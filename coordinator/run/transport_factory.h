@@ -8,7 +8,7 @@
 
 #include "common/job/plan.h"
 #include "common/base/status.h"
-#include "coordinator/cli/run_command.h"
+#include "coordinator/run/run_options.h"
 #include "common/transport/transport.h"
 
 namespace fanfold {

@@ -1,0 +1,35 @@
+// RunOptions and CommandOutcome: what a run is asked to do (filled by the
+// CLI's `run` and `resume`) and what it hands back to main(), which alone
+// maps the outcome to the exit status. Plain data.
+#pragma once
+
+#include <cstdint>
+#include <string>
+
+#include "common/base/status.h"
+#include "coordinator/run/progress_mode.h"
+
+namespace fanfold {
+
+struct CommandOutcome {
+  Status status;               // not ok: usage, job-file or system error
+  bool shards_failed = false;  // finished, but some shards failed
+};
+
+// The options of `run` (and of `resume`, which reads job_path from the run's
+// manifest and takes the defaults for the flags it lacks).
+struct RunOptions {
+  std::string job_path;       // JOB: the job file (run only)
+  int workers = 0;            // 0 = one per available core
+  std::string output_path;    // "" = the job's emit.path, else stdout
+  std::string run_dir;        // "" = fanfold-runs/<job name> under the working directory
+  bool fresh = false;         // discard an earlier run in run_dir instead of refusing
+  uint32_t max_attempts = 3;  // tries per shard when its worker dies (1 + retries)
+  uint64_t shard_time_limit_ms = 0;  // 0 = no limit
+  bool in_process = false;    // debugging: no worker processes
+  bool quiet = false;         // only errors on stderr
+  ProgressMode progress = ProgressMode::kAuto;  // progress on stderr (quiet: none)
+  double progress_every_s = 5;  // plain progress: seconds between lines
+};
+
+}  // namespace fanfold
