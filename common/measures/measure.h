@@ -41,7 +41,9 @@ enum class MeasureKind : uint8_t {
 };
 
 // Everything a state needs to know about its measure; filled by the job
-// parser (which validates ranges) and part of the plan fingerprint.
+// parser (which validates ranges) and part of the plan fingerprint. Each
+// field but `kind` is an option with its row in kMeasureOptions
+// (common/measures/measure_options.h); a static_assert there enforces it.
 struct MeasureConfig {
   MeasureKind kind = MeasureKind::kCount;
   std::vector<double> probabilities;  // kQuantile, kApproxQuantile: each in [0, 1]
@@ -95,14 +97,14 @@ class MeasureState {
   virtual bool degraded() const { return false; }
 };
 
+// The three below read the kind's row (common/measures/measure_registry.h).
 // Returns a new empty state for config. REQUIRES: config validated.
 std::unique_ptr<MeasureState> NewMeasureState(const MeasureConfig& config);
 
 // Number of arguments Add() expects for kind (0, 1 or 2).
 int MeasureArgCount(MeasureKind kind);
 
-// Number of cells Finalize() appends: one per probability for quantiles,
-// one otherwise.
+// Number of cells Finalize() appends (the row's output columns).
 size_t OutputColumnCount(const MeasureConfig& config);
 
 }  // namespace fanfold
