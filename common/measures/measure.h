@@ -10,6 +10,7 @@
 // are skipped and counted in skipped(); the run summary reports the totals.
 #pragma once
 
+#include <cmath>
 #include <cstdint>
 #include <memory>
 #include <string>
@@ -52,6 +53,15 @@ struct MeasureConfig {
   uint32_t k = 10;                    // kTop: how many values to report, >= 1
   uint64_t limit = 1'000'000;         // kQuantile, kDistinct: values kept per group; kTop: distinct values tracked
 };
+
+// The number a numeric measure reads from v: returns true iff v gives one
+// that is not NaN (*x set); otherwise counts one skipped value. The one
+// home of the "which values are used" rule of docs/measures.md.
+inline bool UsableNumber(const Value& v, double* x, uint64_t* skipped) {
+  if (v.AsNumber(x) && !std::isnan(*x)) return true;
+  ++*skipped;
+  return false;
+}
 
 class MeasureState {
  public:
