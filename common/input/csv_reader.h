@@ -20,7 +20,7 @@
 
 namespace fanfold {
 
-class CsvReader {
+class CsvReader final : public RecordReader {
  public:
   // separator: ',' for CSV, '\t' for TSV.
   CsvReader(const FieldTable& fields, char separator, const ChunkOptions& options = {});
@@ -32,7 +32,7 @@ class CsvReader {
   // Empty lines are skipped; a lone '\r' inside a field is data; a stray
   // quote inside an unquoted field is data. *stats (may be null) is
   // overwritten.
-  Status Read(ByteSource& src, RecordSink& sink, ReadStats* stats);
+  Status Read(ByteSource& src, RecordSink& sink, ReadStats* stats) override;
 
  private:
   enum class CutKind { kRecord, kBlank, kNeedMore };

@@ -17,13 +17,13 @@
 
 namespace fanfold {
 
-class NdjsonReader {
+class NdjsonReader final : public RecordReader {
  public:
   // Builds a reader for `fields`. Returns InvalidArgument iff a raw field is
   // not a JSON Pointer or is "" (the whole document, not supported).
   static Result<std::unique_ptr<NdjsonReader>> Create(const FieldTable& fields,
                                                       const ChunkOptions& options = {});
-  ~NdjsonReader();
+  ~NdjsonReader() override;
   NdjsonReader(const NdjsonReader&) = delete;
   NdjsonReader& operator=(const NdjsonReader&) = delete;
 
@@ -32,7 +32,7 @@ class NdjsonReader {
   // and whitespace-only lines are skipped without counting. With duplicate
   // keys the first occurrence wins. *stats (may be null) is overwritten.
   // A line longer than options.max_record_bytes is an error (Corrupt).
-  Status Read(ByteSource& src, RecordSink& sink, ReadStats* stats);
+  Status Read(ByteSource& src, RecordSink& sink, ReadStats* stats) override;
 
  private:
   struct Impl;

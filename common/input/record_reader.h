@@ -13,13 +13,12 @@
 #include <vector>
 
 #include "common/input/byte_source.h"
+#include "common/input/record_format.h"
 #include "common/input/field_table.h"
 #include "common/base/status.h"
 #include "common/base/value.h"
 
 namespace fanfold {
-
-enum class RecordFormat { kNdjson, kCsv, kTsv };
 
 struct MalformedSample {
   uint64_t line = 0;   // 1-based line where the record starts
@@ -47,24 +46,18 @@ class RecordSink {
 Status ReadRecords(RecordFormat format, ByteSource& src, const FieldTable& fields, RecordSink& sink,
                    ReadStats* stats);
 
-class NdjsonReader;
-class CsvReader;
-
-// RecordReader: ReadRecords for many shards in a row, keeping the reader's
-// buffers and parser between them (a worker processes thousands of tiny
-// shards; each new reader would allocate megabytes). Not thread-safe.
+// RecordReader: reads the records of one format, shard after shard, keeping
+// its buffers and parser between them (a worker processes thousands of tiny
+// shards; each new reader would allocate megabytes). Each format's reader
+// implements it (see its row in common/input/record_format.h). Not
+// thread-safe.
 class RecordReader {
  public:
-  // fields must outlive the reader.
+  // The reader of format's row. fields must outlive the reader.
   static Result<std::unique_ptr<RecordReader>> Create(RecordFormat format, const FieldTable& fields);
-  ~RecordReader();
+  virtual ~RecordReader() = default;
   // As ReadRecords.
-  Status Read(ByteSource& src, RecordSink& sink, ReadStats* stats);
-
- private:
-  RecordReader() = default;
-  std::unique_ptr<NdjsonReader> ndjson_;
-  std::unique_ptr<CsvReader> csv_;
+  virtual Status Read(ByteSource& src, RecordSink& sink, ReadStats* stats) = 0;
 };
 
 }  // namespace fanfold

@@ -3,13 +3,16 @@
 #include <cmath>
 #include <filesystem>
 #include <fstream>
-#include <map>
 #include <set>
+#include <type_traits>
+#include <variant>
 #include <sstream>
 
 #include <nlohmann/json.hpp>
 
 #include "common/base/json_location.h"
+#include "common/measures/measure_options.h"
+#include "common/measures/measure_registry.h"
 
 namespace fanfold {
 namespace {
@@ -95,27 +98,6 @@ class Checker {
   std::string file_;
 };
 
-const std::map<std::string, MeasureKind>& FnTable() {
-  static const std::map<std::string, MeasureKind> table = {
-      {"count", MeasureKind::kCount},
-      {"count_present", MeasureKind::kCountPresent},
-      {"sum", MeasureKind::kSum},
-      {"mean", MeasureKind::kMean},
-      {"variance", MeasureKind::kVariance},
-      {"stddev", MeasureKind::kStddev},
-      {"min", MeasureKind::kMin},
-      {"max", MeasureKind::kMax},
-      {"quantile", MeasureKind::kQuantile},
-      {"approx_quantile", MeasureKind::kApproxQuantile},
-      {"distinct", MeasureKind::kDistinct},
-      {"approx_distinct", MeasureKind::kApproxDistinct},
-      {"top", MeasureKind::kTop},
-      {"first", MeasureKind::kFirst},
-      {"last", MeasureKind::kLast},
-  };
-  return table;
-}
-
 Status ParseInputs(Checker& c, const json& in, JobSpec* job) {
   const std::string p = "/inputs";
   if (!in.is_object()) return c.Error(p, Found(in), "an object with \"files\"");
@@ -133,7 +115,7 @@ Status ParseInputs(Checker& c, const json& in, JobSpec* job) {
     std::string f;
     FF_RETURN_IF_ERROR(c.String(in["format"], p + "/format", &f));
     RecordFormat fmt;
-    if (!FormatFromText(f, &fmt)) return c.Error(p + "/format", Found(in["format"]), "\"ndjson\", \"csv\" or \"tsv\"");
+    if (!FormatFromText(f, &fmt)) return c.Error(p + "/format", Found(in["format"]), FormatNameList());
     job->format = fmt;
   }
   if (in.contains("bad_record_limit")) {
@@ -147,38 +129,65 @@ Status ParseInputs(Checker& c, const json& in, JobSpec* job) {
   return Status::Ok();
 }
 
+// The keys a measure object may hold: name, fn, the argument keys and every
+// option of kMeasureOptions (which of them a given fn takes is its row's).
+std::set<std::string> MeasureKeys() {
+  std::set<std::string> keys = {"name", "fn", "of", "by"};
+  for (const MeasureOption& o : kMeasureOptions) keys.insert(o.key);
+  return keys;
+}
+
+// Checks the value of option o at pointer p and stores it into *cfg.
+Status ParseOption(Checker& c, const MeasureOption& o, const json& v, const std::string& p, MeasureConfig* cfg) {
+  return std::visit(
+      [&](auto field) -> Status {
+        using T = std::remove_cvref_t<decltype(cfg->*field)>;
+        if constexpr (std::is_same_v<T, std::vector<double>>) {
+          if (!v.is_array() || v.empty() || v.size() > o.max_items) return c.Error(p, Found(v), o.array_text);
+          for (size_t i = 0; i < v.size(); ++i) {
+            double x = 0;
+            FF_RETURN_IF_ERROR(c.Number(v[i], ChildPointer(p, i), o.lo, o.hi, false, &x));
+            (cfg->*field).push_back(x);
+          }
+        } else if constexpr (std::is_same_v<T, double>) {
+          FF_RETURN_IF_ERROR(c.Number(v, p, o.lo, o.hi, false, &(cfg->*field)));
+        } else {
+          uint64_t n = 0;
+          FF_RETURN_IF_ERROR(c.Integer(v, p, static_cast<uint64_t>(o.lo), static_cast<uint64_t>(o.hi), &n));
+          cfg->*field = static_cast<T>(n);
+        }
+        return Status::Ok();
+      },
+      o.field);
+}
+
 Status ParseMeasure(Checker& c, const json& m, const std::string& p, MeasureSpec* out) {
   if (!m.is_object()) return c.Error(p, Found(m), "an object with \"name\" and \"fn\"");
-  FF_RETURN_IF_ERROR(c.OnlyKeys(m, p, {"name", "fn", "of", "by", "at", "alpha", "precision", "k", "limit"}));
+  FF_RETURN_IF_ERROR(c.OnlyKeys(m, p, MeasureKeys()));
   if (!m.contains("name")) return c.Error(p, "no \"name\"", "\"name\": the result column's name");
   FF_RETURN_IF_ERROR(c.String(m["name"], p + "/name", &out->name));
   if (!m.contains("fn")) return c.Error(p, "no \"fn\"", "\"fn\": the measure, e.g. \"count\" or \"sum\"");
   FF_RETURN_IF_ERROR(c.String(m["fn"], p + "/fn", &out->fn));
-  auto it = FnTable().find(out->fn);
-  if (it == FnTable().end()) {
+  const MeasureRow* row = FindMeasureRow(out->fn);
+  if (row == nullptr) {
+    std::set<std::string> names;
+    for (const MeasureRow& r : MeasureRows()) names.insert(r.fn);
     std::string list;
-    for (const auto& [name, kind] : FnTable()) list += (list.empty() ? "" : ", ") + name;
+    for (const auto& name : names) list += (list.empty() ? "" : ", ") + name;
     return c.Error(p + "/fn", Found(m["fn"]), "one of: " + list);
   }
   MeasureConfig& cfg = out->config;
-  cfg.kind = it->second;
-  const int args = MeasureArgCount(cfg.kind);
+  cfg.kind = row->kind;
+  const int args = row->arg_count;
   auto allow = [&](const char* key, bool allowed) -> Status {
-    if (m.contains(key) && !allowed)
-      return c.Error(ChildPointer(p, key), "\"" + std::string(key) + "\"",
-                     "no \"" + std::string(key) + "\" for fn \"" + out->fn + "\"");
-    return Status::Ok();
+    if (!m.contains(key) || allowed) return Status::Ok();
+    // Appended rather than "\"" + string, which GCC 12 falsely warns on (-Wrestrict).
+    const std::string quoted = std::string("\"").append(key).append("\"");
+    return c.Error(ChildPointer(p, key), quoted, std::string("no ").append(quoted) + " for fn \"" + out->fn + "\"");
   };
-  const bool quantile = cfg.kind == MeasureKind::kQuantile || cfg.kind == MeasureKind::kApproxQuantile;
-  const bool bounded = cfg.kind == MeasureKind::kQuantile || cfg.kind == MeasureKind::kDistinct ||
-                       cfg.kind == MeasureKind::kTop;
   FF_RETURN_IF_ERROR(allow("of", args >= 1));
   FF_RETURN_IF_ERROR(allow("by", args >= 2));
-  FF_RETURN_IF_ERROR(allow("at", quantile));
-  FF_RETURN_IF_ERROR(allow("alpha", cfg.kind == MeasureKind::kApproxQuantile));
-  FF_RETURN_IF_ERROR(allow("precision", cfg.kind == MeasureKind::kApproxDistinct));
-  FF_RETURN_IF_ERROR(allow("k", cfg.kind == MeasureKind::kTop));
-  FF_RETURN_IF_ERROR(allow("limit", bounded));
+  for (const MeasureOption& o : kMeasureOptions) FF_RETURN_IF_ERROR(allow(o.key, row->Takes(o.key)));
   if (args >= 1) {
     if (!m.contains("of")) return c.Error(p, "no \"of\"", "\"of\": the expression fn \"" + out->fn + "\" reads");
     FF_RETURN_IF_ERROR(c.String(m["of"], p + "/of", &out->of));
@@ -187,32 +196,20 @@ Status ParseMeasure(Checker& c, const json& m, const std::string& p, MeasureSpec
     if (!m.contains("by")) return c.Error(p, "no \"by\"", "\"by\": the ordering expression for \"" + out->fn + "\"");
     FF_RETURN_IF_ERROR(c.String(m["by"], p + "/by", &out->by));
   }
-  if (quantile) {
-    if (!m.contains("at")) return c.Error(p, "no \"at\"", "\"at\": a list of probabilities in [0, 1]");
-    const json& at = m["at"];
-    if (!at.is_array() || at.empty() || at.size() > 64)
-      return c.Error(p + "/at", Found(at), "an array of 1 to 64 probabilities in [0, 1]");
-    for (size_t i = 0; i < at.size(); ++i) {
-      double q = 0;
-      FF_RETURN_IF_ERROR(c.Number(at[i], ChildPointer(p + "/at", i), 0, 1, false, &q));
-      cfg.probabilities.push_back(q);
+  // Only options the row takes are left (allow() refused the others).
+  for (const MeasureOption& o : kMeasureOptions) {
+    if (m.contains(o.key)) {
+      FF_RETURN_IF_ERROR(ParseOption(c, o, m[o.key], ChildPointer(p, o.key), &cfg));
+    } else if (o.required_text != nullptr && row->Takes(o.key)) {
+      return c.Error(p, "no \"" + std::string(o.key) + "\"", o.required_text);
     }
   }
-  // Below 0.001 the sketch folds its lowest buckets early and loses its bound.
-  if (m.contains("alpha")) FF_RETURN_IF_ERROR(c.Number(m["alpha"], p + "/alpha", 0.001, 0.5, false, &cfg.alpha));
-  if (m.contains("precision")) {
-    uint64_t prec = 0;
-    FF_RETURN_IF_ERROR(c.Integer(m["precision"], p + "/precision", 4, 18, &prec));
-    cfg.precision = static_cast<int>(prec);
+  if (row->check != nullptr) {
+    if (std::optional<OptionComplaint> bad = row->check(cfg)) {
+      const std::string found = m.contains(bad->key) ? Found(m[bad->key]) : "the default";
+      return c.Error(ChildPointer(p, bad->key), found, bad->expected);
+    }
   }
-  if (m.contains("k")) {
-    uint64_t k = 0;
-    FF_RETURN_IF_ERROR(c.Integer(m["k"], p + "/k", 1, 100000, &k));
-    cfg.k = static_cast<uint32_t>(k);
-  }
-  if (m.contains("limit")) FF_RETURN_IF_ERROR(c.Integer(m["limit"], p + "/limit", 1, uint64_t{1} << 32, &cfg.limit));
-  if (cfg.kind == MeasureKind::kTop && cfg.limit < cfg.k)
-    return c.Error(p + "/limit", Found(m["limit"]), "a limit of at least k (" + std::to_string(cfg.k) + ")");
   return Status::Ok();
 }
 
@@ -348,30 +345,7 @@ Result<JobSpec> LoadJobSpec(const std::string& path) {
   return ParseJobSpec(ss.str(), path);
 }
 
-const char* MeasureFnName(MeasureKind kind) {
-  for (const auto& [name, k] : FnTable())
-    if (k == kind) return name.c_str();
-  return "?";
-}
-
-const char* FormatName(RecordFormat f) {
-  switch (f) {
-    case RecordFormat::kNdjson: return "ndjson";
-    case RecordFormat::kCsv: return "csv";
-    case RecordFormat::kTsv: return "tsv";
-  }
-  return "?";
-}
-
-bool FormatFromText(const std::string& text, RecordFormat* out) {
-  for (RecordFormat f : {RecordFormat::kNdjson, RecordFormat::kCsv, RecordFormat::kTsv}) {
-    if (text == FormatName(f)) {
-      *out = f;
-      return true;
-    }
-  }
-  return false;
-}
+const char* MeasureFnName(MeasureKind kind) { return MeasureRowOf(kind).fn; }
 
 const char* OutputFormatName(OutputFormat f) {
   switch (f) {

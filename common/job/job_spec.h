@@ -68,10 +68,8 @@ Result<JobSpec> ParseJobSpec(std::string_view json_text, const std::string& job_
 Result<JobSpec> LoadJobSpec(const std::string& path);
 
 // The job file's name for a measure kind ("count", "approx_quantile", ...).
+// FormatName and FormatFromText are in common/input/record_format.h.
 const char* MeasureFnName(MeasureKind kind);
-const char* FormatName(RecordFormat f);
-// Inverse of FormatName; returns false iff text names no format.
-bool FormatFromText(const std::string& text, RecordFormat* out);
 const char* OutputFormatName(OutputFormat f);
 
 }  // namespace fanfold

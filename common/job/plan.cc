@@ -1,12 +1,13 @@
 #include "common/job/plan.h"
 
-#include <charconv>
 #include <set>
 
 #include <xxhash.h>
 
 #include "common/base/json_location.h"
 #include "common/base/format_version.h"
+#include "common/measures/measure_options.h"
+#include "common/measures/measure_registry.h"
 
 namespace fanfold {
 namespace {
@@ -28,10 +29,10 @@ Result<Expr> CompileAt(const Plan& plan, FieldTable* fields, const std::string& 
   for (size_t i = before; i < fields->size(); ++i) {
     const auto& slot = fields->slot(i);
     if (slot.derived) continue;
-    if (plan.format == RecordFormat::kNdjson && (slot.name.empty() || slot.name[0] != '/'))
-      return Status::InvalidArgument(where + ": field {" + slot.name +
-                                     "} is not a JSON Pointer; expected NDJSON fields written like {/" +
-                                     slot.name + "} (RFC 6901)");
+    const auto problem = RecordFormatRowOf(plan.format).raw_field_problem;
+    if (problem == nullptr) continue;
+    const std::string why = problem(slot.name);
+    if (!why.empty()) return Status::InvalidArgument(where + ": field {" + slot.name + "} " + why);
   }
   return e;
 }
@@ -57,12 +58,6 @@ std::string GroupColumnName(const std::string& text) {
     if (!out.empty()) return out;
   }
   return text;
-}
-
-std::string ProbabilityLabel(double p) {
-  char buf[64];
-  auto [end, ec] = std::to_chars(buf, buf + sizeof buf, p * 100);
-  return "p" + std::string(buf, end);
 }
 
 }  // namespace
@@ -121,11 +116,7 @@ Result<std::unique_ptr<Plan>> CompilePlan(JobSpec spec, RecordFormat format) {
       if (!e.ok()) return e.status();
       cm.args.push_back(std::move(e.value()));
     }
-    if (ms.config.kind == MeasureKind::kQuantile || ms.config.kind == MeasureKind::kApproxQuantile) {
-      for (double q : ms.config.probabilities) cm.columns.push_back(ms.name + "_" + ProbabilityLabel(q));
-    } else {
-      cm.columns.push_back(ms.name);
-    }
+    cm.columns = MeasureRowOf(ms.config.kind).columns(ms.name, ms.config);
     for (const auto& col : cm.columns) {
       if (!names.insert(col).second)
         return Status::InvalidArgument(s.job_path + ": " + p + "/name: output column \"" + col +
@@ -180,18 +171,8 @@ std::string PlanCanonicalText(const Plan& plan) {
   out += "keep=" + s.keep + "\n";
   for (const auto& d : s.derive) out += "derive " + d.name + "=" + d.expr + "\n";
   for (const auto& g : s.group) out += "group " + g + "\n";
-  for (const auto& m : s.measures) {
-    char buf[256];
-    const MeasureConfig& c = m.config;
-    snprintf(buf, sizeof buf, " alpha=%.17g precision=%d k=%u limit=%llu", c.alpha, c.precision, c.k,
-             static_cast<unsigned long long>(c.limit));
-    out += "measure " + m.name + " fn=" + m.fn + " of=" + m.of + " by=" + m.by + buf + " at=";
-    for (double q : c.probabilities) {
-      snprintf(buf, sizeof buf, "%.17g,", q);
-      out += buf;
-    }
-    out += "\n";
-  }
+  for (const auto& m : s.measures)
+    out += "measure " + m.name + " fn=" + MeasureRowOf(m.config.kind).fn + " of=" + m.of + " by=" + m.by + MeasureOptionsText(m.config) + "\n";
   return out;
 }
 

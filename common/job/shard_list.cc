@@ -121,11 +121,15 @@ bool GlobMatch(const std::string& pattern, const std::string& name) {
 
 bool FormatFromName(const std::string& path, RecordFormat* out) {
   std::string base = StripCompression(fs::path(path).filename().string());
-  if (EndsWith(base, ".ndjson") || EndsWith(base, ".jsonl")) *out = RecordFormat::kNdjson;
-  else if (EndsWith(base, ".csv")) *out = RecordFormat::kCsv;
-  else if (EndsWith(base, ".tsv")) *out = RecordFormat::kTsv;
-  else return false;
-  return true;
+  for (const RecordFormatRow& row : RecordFormatRows()) {
+    for (const char* ext : row.extensions) {
+      if (EndsWith(base, ext)) {
+        *out = row.format;
+        return true;
+      }
+    }
+  }
+  return false;
 }
 
 Result<ShardList> ExpandShards(const JobSpec& job) {
@@ -178,7 +182,7 @@ Result<ShardList> ExpandShards(const JobSpec& job) {
       RecordFormat fmt;
       if (!FormatFromName(path, &fmt))
         return Status::InvalidArgument(job.job_path + ": /inputs/format: cannot tell the format of '" + path +
-                                       "' from its name; expected \"format\": \"ndjson\", \"csv\" or \"tsv\"");
+                                       "' from its name; expected \"format\": " + FormatNameList());
       if (have_format && fmt != list.format)
         return Status::InvalidArgument(job.job_path + ": /inputs/files: '" + path + "' is " + FormatName(fmt) +
                                        " but '" + first_named + "' is " + FormatName(list.format) +
@@ -195,7 +199,7 @@ Result<ShardList> ExpandShards(const JobSpec& job) {
     s.file_size = static_cast<uint64_t>(st.st_size);
     s.mtime_ns = static_cast<int64_t>(st.st_mtim.tv_sec) * 1'000'000'000 + st.st_mtim.tv_nsec;
     s.compression = CompressionFromName(path);
-    if (job.chunk_bytes > 0 && s.compression == Compression::kNone && list.format == RecordFormat::kNdjson &&
+    if (job.chunk_bytes > 0 && s.compression == Compression::kNone && RecordFormatRowOf(list.format).chunkable &&
         s.file_size > job.chunk_bytes) {
       for (uint64_t off = 0; off < s.file_size; off += job.chunk_bytes) {
         Shard c = s;

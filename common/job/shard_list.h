@@ -39,7 +39,7 @@ struct ShardList {
 // formats differ; messages name the /inputs/files/N entry.
 Result<ShardList> ExpandShards(const JobSpec& job);
 
-// Format implied by a file name (".ndjson", ".jsonl", ".csv", ".tsv" before
+// Format implied by a file name (an extension of a RecordFormatRow, before
 // any ".zst"/".gz"); returns false iff the name says nothing.
 bool FormatFromName(const std::string& path, RecordFormat* out);
 

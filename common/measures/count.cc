@@ -5,21 +5,6 @@
 
 namespace fanfold {
 
-Status CountState::Merge(const MeasureState& other) {
-  const auto* o = dynamic_cast<const CountState*>(&other);
-  if (o == nullptr || o->present_only_ != present_only_)
-    return Status::Internal("count: merge with a state of another measure");
-  n_ += o->n_;
-  return Status::Ok();
-}
-
-Status CountState::MergeEncoded(ByteReader& r, bool apply, MeasureState* /*scratch*/) {
-  CountState later(present_only_);
-  FF_RETURN_IF_ERROR(later.Decode(r));
-  if (apply) n_ += later.n_;
-  return Status::Ok();
-}
-
 void CountState::Encode(ByteWriter& w) const { w.Varint(n_); }
 
 Status CountState::Decode(ByteReader& r) {

@@ -4,11 +4,14 @@
 #pragma once
 
 #include "common/measures/measure.h"
+#include "common/measures/same_state_merge.h"
 
 namespace fanfold {
 
-class CountState final : public MeasureState {
+class CountState final : public SameStateMerge<CountState> {
  public:
+  static constexpr const char* kLabel = "count";
+
   // present_only: true for kCountPresent (one argument), false for kCount.
   explicit CountState(bool present_only) : present_only_(present_only) {}
 
@@ -18,12 +21,9 @@ class CountState final : public MeasureState {
     if (!present_only_ || args[0].is_present()) ++n_;
     return true;
   }
-  Status Merge(const MeasureState& other) override;
   // Encoding: varint n.
   void Encode(ByteWriter& w) const override;
   Status Decode(ByteReader& r) override;
-  // Through a local state: no heap, no virtual calls (the same result).
-  Status MergeEncoded(ByteReader& r, bool apply, MeasureState* scratch) override;
   void Finalize(std::vector<Cell>* out) const override;
   // Count measures use every argument: a missing value is simply not counted.
   uint64_t skipped() const override { return 0; }
@@ -31,6 +31,11 @@ class CountState final : public MeasureState {
   uint64_t n() const { return n_; }
 
  private:
+  friend class SameStateMerge<CountState>;
+  CountState EmptyLike() const { return CountState(present_only_); }
+  bool SameConfig(const CountState& o) const { return o.present_only_ == present_only_; }
+  void MergeSame(const CountState& o) { n_ += o.n_; }
+
   bool present_only_;
   uint64_t n_ = 0;
 };

@@ -3,7 +3,7 @@
 #include <algorithm>
 #include <vector>
 
-#include "common/measures/value_key.h"
+#include "common/base/value_key.h"
 
 namespace fanfold {
 

@@ -11,7 +11,7 @@
 #include <unordered_set>
 
 #include "common/measures/measure.h"
-#include "common/measures/value_key.h"
+#include "common/base/value_key.h"
 
 namespace fanfold {
 

@@ -24,10 +24,7 @@ class ExactQuantileState final : public MeasureState {
   // Returns false iff this value would be number limit + 1.
   bool Add(const Value* args) override {
     double x;
-    if (!args[0].AsNumber(&x) || std::isnan(x)) {
-      ++skipped_;
-      return true;
-    }
+    if (!UsableNumber(args[0], &x, &skipped_)) return true;
     if (values_.size() >= limit_) return false;
     values_.push_back(x == 0 ? 0.0 : x);  // one zero, so sorting is canonical
     sorted_ = false;

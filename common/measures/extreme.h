@@ -17,10 +17,7 @@ class ExtremeState final : public MeasureState {
 
   bool Add(const Value* args) override {
     double x;
-    if (!args[0].AsNumber(&x) || std::isnan(x)) {
-      ++skipped_;
-      return true;
-    }
+    if (!UsableNumber(args[0], &x, &skipped_)) return true;
     Offer(x == 0 ? 0.0 : x);
     return true;
   }

@@ -15,7 +15,7 @@
 #include <vector>
 
 #include "common/measures/measure.h"
-#include "common/measures/value_key.h"
+#include "common/base/value_key.h"
 
 namespace fanfold {
 

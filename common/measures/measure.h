@@ -10,6 +10,7 @@
 // are skipped and counted in skipped(); the run summary reports the totals.
 #pragma once
 
+#include <cmath>
 #include <cstdint>
 #include <memory>
 #include <string>
@@ -41,7 +42,9 @@ enum class MeasureKind : uint8_t {
 };
 
 // Everything a state needs to know about its measure; filled by the job
-// parser (which validates ranges) and part of the plan fingerprint.
+// parser (which validates ranges) and part of the plan fingerprint. Each
+// field but `kind` is an option with its row in kMeasureOptions
+// (common/measures/measure_options.h); a static_assert there enforces it.
 struct MeasureConfig {
   MeasureKind kind = MeasureKind::kCount;
   std::vector<double> probabilities;  // kQuantile, kApproxQuantile: each in [0, 1]
@@ -50,6 +53,15 @@ struct MeasureConfig {
   uint32_t k = 10;                    // kTop: how many values to report, >= 1
   uint64_t limit = 1'000'000;         // kQuantile, kDistinct: values kept per group; kTop: distinct values tracked
 };
+
+// The number a numeric measure reads from v: returns true iff v gives one
+// that is not NaN (*x set); otherwise counts one skipped value. The one
+// home of the "which values are used" rule of docs/measures.md.
+inline bool UsableNumber(const Value& v, double* x, uint64_t* skipped) {
+  if (v.AsNumber(x) && !std::isnan(*x)) return true;
+  ++*skipped;
+  return false;
+}
 
 class MeasureState {
  public:
@@ -95,14 +107,14 @@ class MeasureState {
   virtual bool degraded() const { return false; }
 };
 
+// The three below read the kind's row (common/measures/measure_registry.h).
 // Returns a new empty state for config. REQUIRES: config validated.
 std::unique_ptr<MeasureState> NewMeasureState(const MeasureConfig& config);
 
 // Number of arguments Add() expects for kind (0, 1 or 2).
 int MeasureArgCount(MeasureKind kind);
 
-// Number of cells Finalize() appends: one per probability for quantiles,
-// one otherwise.
+// Number of cells Finalize() appends (the row's output columns).
 size_t OutputColumnCount(const MeasureConfig& config);
 
 }  // namespace fanfold

@@ -1,66 +1,43 @@
 #include "common/measures/moments.h"
 
+#include "common/measures/counted_pair.h"
+
 namespace fanfold {
 
-Status MomentsState::Merge(const MeasureState& other) {
-  const auto* o = dynamic_cast<const MomentsState*>(&other);
-  if (o == nullptr) return Status::Internal("moments: merge with a state of another measure");
-  MergeSame(o);
-  return Status::Ok();
-}
-
-Status MomentsState::MergeEncoded(ByteReader& r, bool apply, MeasureState* /*scratch*/) {
-  MomentsState later(kind_);
-  FF_RETURN_IF_ERROR(later.Decode(r));
-  if (apply) MergeSame(&later);
-  return Status::Ok();
-}
-
-void MomentsState::MergeSame(const MomentsState* o) {
-  skipped_ += o->skipped_;
-  if (o->n_ == 0) return;
+void MomentsState::MergeSame(const MomentsState& o) {
+  skipped_ += o.skipped_;
+  if (o.n_ == 0) return;
   if (n_ == 0) {
-    n_ = o->n_;
-    mean_ = o->mean_;
-    m2_ = o->m2_;
+    n_ = o.n_;
+    mean_ = o.mean_;
+    m2_ = o.m2_;
     return;
   }
   // Chan, Golub & LeVeque (1979): delta = mean_B - mean_A,
   // mean = mean_A + delta * n_B / n, M2 = M2_A + M2_B + delta^2 * n_A * n_B / n.
   const double na = static_cast<double>(n_);
-  const double nb = static_cast<double>(o->n_);
+  const double nb = static_cast<double>(o.n_);
   const double n = na + nb;
-  const double delta = o->mean_ - mean_;
+  const double delta = o.mean_ - mean_;
   mean_ += delta * (nb / n);
-  m2_ += o->m2_ + delta * delta * (na * (nb / n));
-  n_ += o->n_;
+  m2_ += o.m2_ + delta * delta * (na * (nb / n));
+  n_ += o.n_;
 }
 
-void MomentsState::Encode(ByteWriter& w) const {
-  w.Varint(skipped_);
-  w.Varint(n_);
-  if (n_ > 0) {
-    w.F64(mean_);
-    w.F64(m2_);
-  }
-}
+void MomentsState::Encode(ByteWriter& w) const { CountedPair{skipped_, n_, mean_, m2_}.Encode(w); }
 
 Status MomentsState::Decode(ByteReader& r) {
-  const uint64_t skipped = r.Varint();
-  const uint64_t n = r.Varint();
-  double mean = 0, m2 = 0;
-  if (n > 0) {
-    mean = r.F64();
-    m2 = r.F64();
-  }
-  if (!r.ok()) return Status::Corrupt("moments: truncated state");
+  CountedPair p;
+  if (!p.Decode(r)) return Status::Corrupt("moments: truncated state");
+  const uint64_t n = p.n;
+  const double mean = p.first, m2 = p.second;
   // M2 is a sum of squares: never negative. NaN is legal (an infinite input
   // makes it inf - inf), so only an ordered negative value is rejected.
   if (m2 < 0) return Status::Corrupt("moments: negative sum of squared deviations");
   if (n == 1 && m2 != 0 && !std::isnan(m2))
     return Status::Corrupt("moments: one value with a non-zero spread");
   n_ = n;
-  skipped_ = skipped;
+  skipped_ = p.skipped;
   mean_ = mean;
   m2_ = m2;
   return Status::Ok();

@@ -9,32 +9,29 @@
 #include <cmath>
 
 #include "common/measures/measure.h"
+#include "common/measures/same_state_merge.h"
 
 namespace fanfold {
 
-class MomentsState final : public MeasureState {
+class MomentsState final : public SameStateMerge<MomentsState> {
  public:
+  static constexpr const char* kLabel = "moments";
+
   // kind: kMean, kVariance or kStddev; it only chooses what Finalize emits.
   explicit MomentsState(MeasureKind kind) : kind_(kind) {}
 
   bool Add(const Value* args) override {
     double x;
-    if (!args[0].AsNumber(&x) || std::isnan(x)) {
-      ++skipped_;
-      return true;
-    }
+    if (!UsableNumber(args[0], &x, &skipped_)) return true;
     ++n_;
     const double delta = x - mean_;
     mean_ += delta / static_cast<double>(n_);
     m2_ += delta * (x - mean_);
     return true;
   }
-  Status Merge(const MeasureState& other) override;
-  // Encoding: varint skipped, varint n, then iff n > 0: f64 mean, f64 M2.
+  // Encoding: a CountedPair (common/measures/counted_pair.h) of mean and M2.
   void Encode(ByteWriter& w) const override;
   Status Decode(ByteReader& r) override;
-  // Through a local state: no heap, no virtual calls (the same result).
-  Status MergeEncoded(ByteReader& r, bool apply, MeasureState* scratch) override;
   // mean: Float, Null iff n = 0. variance = M2/(n-1), stddev = its square
   // root: Float, Null iff n < 2.
   void Finalize(std::vector<Cell>* out) const override;
@@ -45,7 +42,11 @@ class MomentsState final : public MeasureState {
   double m2() const { return m2_; }
 
  private:
-  void MergeSame(const MomentsState* o);  // Merge's arithmetic
+  friend class SameStateMerge<MomentsState>;
+  MomentsState EmptyLike() const { return MomentsState(kind_); }
+  // mean, variance and stddev keep the same state: any two merge.
+  bool SameConfig(const MomentsState&) const { return true; }
+  void MergeSame(const MomentsState& o);  // Merge's arithmetic
   MeasureKind kind_;
   uint64_t n_ = 0;
   uint64_t skipped_ = 0;

@@ -8,27 +8,24 @@
 #include <cmath>
 
 #include "common/measures/measure.h"
+#include "common/measures/same_state_merge.h"
 
 namespace fanfold {
 
-class SumState final : public MeasureState {
+class SumState final : public SameStateMerge<SumState> {
  public:
+  static constexpr const char* kLabel = "sum";
+
   bool Add(const Value* args) override {
     double x;
-    if (!args[0].AsNumber(&x) || std::isnan(x)) {
-      ++skipped_;
-      return true;
-    }
+    if (!UsableNumber(args[0], &x, &skipped_)) return true;
     ++n_;
     AddCompensated(x);
     return true;
   }
-  Status Merge(const MeasureState& other) override;
-  // Encoding: varint skipped, varint n, then iff n > 0: f64 sum, f64 correction.
+  // Encoding: a CountedPair (common/measures/counted_pair.h) of sum and correction.
   void Encode(ByteWriter& w) const override;
   Status Decode(ByteReader& r) override;
-  // Through a local state: no heap, no virtual calls (the same result).
-  Status MergeEncoded(ByteReader& r, bool apply, MeasureState* scratch) override;
   // Float(sum + correction), or Null when no usable value was added.
   void Finalize(std::vector<Cell>* out) const override;
   uint64_t skipped() const override { return skipped_; }
@@ -38,7 +35,10 @@ class SumState final : public MeasureState {
   double Result() const { return std::isfinite(sum_) ? sum_ + correction_ : sum_; }
 
  private:
-  void MergeSame(const SumState* o);  // Merge's arithmetic
+  friend class SameStateMerge<SumState>;
+  SumState EmptyLike() const { return SumState(); }
+  bool SameConfig(const SumState&) const { return true; }
+  void MergeSame(const SumState& o);  // Merge's arithmetic
   void AddCompensated(double x) {
     const double t = sum_ + x;
     // Neumaier's branch: whichever operand is larger keeps its bits in t;

@@ -16,7 +16,7 @@
 #include <unordered_map>
 
 #include "common/measures/measure.h"
-#include "common/measures/value_key.h"
+#include "common/base/value_key.h"
 
 namespace fanfold {
 

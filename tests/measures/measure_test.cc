@@ -9,6 +9,7 @@
 
 #include <cmath>
 
+#include "common/measures/measure_registry.h"
 #include "tests/measures/measure_test_util.h"
 
 namespace fanfold {
@@ -17,12 +18,13 @@ namespace {
 using testing::Rows;
 using testing::TestLcg;
 
-const MeasureKind kAllKinds[] = {
-    MeasureKind::kCount,    MeasureKind::kCountPresent,   MeasureKind::kSum,
-    MeasureKind::kMean,     MeasureKind::kVariance,       MeasureKind::kStddev,
-    MeasureKind::kMin,      MeasureKind::kMax,            MeasureKind::kQuantile,
-    MeasureKind::kApproxQuantile, MeasureKind::kDistinct, MeasureKind::kApproxDistinct,
-    MeasureKind::kTop,      MeasureKind::kFirst,          MeasureKind::kLast};
+// Every registered kind: a new measure gets these properties checked
+// without an edit here.
+std::vector<MeasureKind> AllKinds() {
+  std::vector<MeasureKind> kinds;
+  for (const MeasureRow& row : MeasureRows()) kinds.push_back(row.kind);
+  return kinds;
+}
 
 MeasureConfig ConfigFor(MeasureKind kind) {
   MeasureConfig c;
@@ -71,7 +73,7 @@ void CheckCellsClose(const std::vector<Cell>& a, const std::vector<Cell>& b) {
 
 // Intent: the factory's argument and column counts match the kinds.
 TEST_CASE("measure: factory shapes") {
-  for (MeasureKind kind : kAllKinds) {
+  for (MeasureKind kind : AllKinds()) {
     const MeasureConfig c = ConfigFor(kind);
     REQUIRE(NewMeasureState(c) != nullptr);
     const bool quantile = kind == MeasureKind::kQuantile || kind == MeasureKind::kApproxQuantile;
@@ -88,7 +90,7 @@ TEST_CASE("measure: factory shapes") {
 // floating-point sums and moments; skipped() adds up too.
 TEST_CASE("measure: split merge equals whole for every kind") {
   TestLcg rng(99);
-  for (MeasureKind kind : kAllKinds) {
+  for (MeasureKind kind : AllKinds()) {
     INFO("kind " << static_cast<int>(kind));
     const MeasureConfig c = ConfigFor(kind);
     for (uint64_t seed : {1u, 2u, 3u}) {
@@ -109,7 +111,7 @@ TEST_CASE("measure: split merge equals whole for every kind") {
 // Intent: encode -> decode -> encode gives the same bytes, for empty and
 // filled states of every kind, and decoding consumes exactly the encoding.
 TEST_CASE("measure: encode round trip") {
-  for (MeasureKind kind : kAllKinds) {
+  for (MeasureKind kind : AllKinds()) {
     INFO("kind " << static_cast<int>(kind));
     const MeasureConfig c = ConfigFor(kind);
     for (int n : {0, 1, 2, 50, 3000}) {
@@ -125,7 +127,7 @@ TEST_CASE("measure: encode round trip") {
 // into empty and filled states; checking alone (apply false) changes
 // nothing and consumes the same bytes.
 TEST_CASE("measure: MergeEncoded equals Decode then Merge") {
-  for (MeasureKind kind : kAllKinds) {
+  for (MeasureKind kind : AllKinds()) {
     INFO("kind " << static_cast<int>(kind));
     const MeasureConfig c = ConfigFor(kind);
     auto scratch = NewMeasureState(c);
@@ -195,7 +197,7 @@ void CheckDecodeIsSafe(const MeasureConfig& c, std::string_view bytes, const Mea
 // random garbage are rejected or decode to a state that behaves.
 TEST_CASE("measure: truncated and mutated encodings never crash") {
   TestLcg g(2024);
-  for (MeasureKind kind : kAllKinds) {
+  for (MeasureKind kind : AllKinds()) {
     INFO("kind " << static_cast<int>(kind));
     const MeasureConfig c = ConfigFor(kind);
     auto real = testing::Whole(c, MixedRows(11, 400));

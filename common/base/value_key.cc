@@ -1,4 +1,4 @@
-#include "common/measures/value_key.h"
+#include "common/base/value_key.h"
 
 #include <xxhash.h>
 

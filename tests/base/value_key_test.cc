@@ -1,5 +1,5 @@
 // ValueKey: typed, canonical, order-preserving keys for counted values.
-#include "common/measures/value_key.h"
+#include "common/base/value_key.h"
 
 #include <doctest/doctest.h>
 

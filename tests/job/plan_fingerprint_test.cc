@@ -1,0 +1,139 @@
+// Tests for the plan fingerprint's measure part: it keeps the text plans had
+// before measure options had one home, and every option of every measure
+// changes it (so `resume` never mixes partials computed with other options).
+#include <doctest/doctest.h>
+
+#include <string>
+#include <type_traits>
+#include <variant>
+
+#include "common/job/plan.h"
+#include "common/measures/measure_options.h"
+#include "common/measures/measure_registry.h"
+
+using namespace fanfold;
+
+namespace {
+
+std::unique_ptr<Plan> CompileSpec(JobSpec spec) {
+  Result<std::unique_ptr<Plan>> plan = CompilePlan(std::move(spec), RecordFormat::kNdjson);
+  REQUIRE(plan.ok());
+  return std::move(plan.value());
+}
+
+// A job with one measure of row's fn and its required options set.
+JobSpec OneMeasureJob(const MeasureRow& row) {
+  std::string m = std::string(R"({"name": "m", "fn": ")") + row.fn + "\"";
+  if (row.arg_count >= 1) m += R"(, "of": "{/x}")";
+  if (row.arg_count >= 2) m += R"(, "by": "{/t}")";
+  if (row.Takes("at")) m += R"(, "at": [0.5])";
+  Result<JobSpec> spec = ParseJobSpec(R"({"inputs": {"files": ["a"]}, "measures": [)" + m + "}]}", "job.json");
+  REQUIRE(spec.ok());
+  return spec.value();
+}
+
+// Sets option o of *c to the low (which = 0) or high end of its range.
+void SetOption(const MeasureOption& o, int which, MeasureConfig* c) {
+  std::visit(
+      [&](auto field) {
+        using T = std::remove_cvref_t<decltype(c->*field)>;
+        const double v = which == 0 ? o.lo : o.hi;
+        if constexpr (std::is_same_v<T, std::vector<double>>) c->*field = {v};
+        else c->*field = static_cast<T>(v);
+      },
+      o.field);
+}
+
+// Two valid job-file values of option o that differ: the top of its range
+// and a value just inside it (valid for every row, top's limit >= k too).
+std::string OptionJson(const MeasureOption& o, int which) {
+  return std::visit(
+      [&](auto field) -> std::string {
+        using T = std::remove_cvref_t<decltype(MeasureConfig().*field)>;
+        if constexpr (std::is_same_v<T, std::vector<double>>) {
+          return std::string("[").append(std::to_string(which == 0 ? o.lo : o.hi)).append("]");
+        } else if constexpr (std::is_same_v<T, double>) {
+          return std::to_string(which == 0 ? (o.lo + o.hi) / 2 : o.hi);
+        } else {
+          return std::to_string(static_cast<uint64_t>(o.hi) - (which == 0 ? 1 : 0));
+        }
+      },
+      o.field);
+}
+
+}  // namespace
+
+// Intent: plans fingerprinted before the registry keep their fingerprint, so
+// their run directories still resume. The text below is what the hand-listed
+// PlanCanonicalText of commit 3e10f86 produced for this job.
+TEST_CASE("the canonical text of a plan is the one earlier versions wrote") {
+  Result<JobSpec> spec = ParseJobSpec(R"J({"inputs": {"files": ["a"]}, "keep": "{/x} > 1",
+    "derive": [{"name": "d", "expr": "{/y} * 2"}], "group": ["{/g}"], "measures": [
+    {"name": "n", "fn": "count"},
+    {"name": "lat", "fn": "quantile", "of": "{/l}", "at": [0.5, 0.999], "limit": 5000},
+    {"name": "alat", "fn": "approx_quantile", "of": "d", "at": [0.1], "alpha": 0.02},
+    {"name": "u", "fn": "approx_distinct", "of": "{/u}", "precision": 14},
+    {"name": "t", "fn": "top", "of": "{/u}", "k": 3, "limit": 50},
+    {"name": "f", "fn": "first", "of": "{/u}", "by": "{/ts}"}]})J",
+                                      "job.json");
+  REQUIRE(spec.ok());
+  auto plan = CompileSpec(spec.value());
+  CHECK(PlanCanonicalText(*plan) ==
+        "fanfold-plan codec=2\n"
+        "format=ndjson\n"
+        "keep={/x} > 1\n"
+        "derive d={/y} * 2\n"
+        "group {/g}\n"
+        "measure n fn=count of= by= alpha=0.01 precision=12 k=10 limit=1000000 at=\n"
+        "measure lat fn=quantile of={/l} by= alpha=0.01 precision=12 k=10 limit=5000 at=0.5,0.999,\n"
+        "measure alat fn=approx_quantile of=d by= alpha=0.02 precision=12 k=10 limit=1000000 "
+        "at=0.10000000000000001,\n"
+        "measure u fn=approx_distinct of={/u} by= alpha=0.01 precision=14 k=10 limit=1000000 at=\n"
+        "measure t fn=top of={/u} by= alpha=0.01 precision=12 k=3 limit=50 at=\n"
+        "measure f fn=first of={/u} by={/ts} alpha=0.01 precision=12 k=10 limit=1000000 at=\n");
+  CHECK(plan->fingerprint == 0xc44d1f27e2aae4afULL);
+}
+
+// Intent: for every measure and every option of MeasureConfig (those the
+// measure ignores too), two configs that differ only in that option give two
+// fingerprints. Together with the static_assert in measure_options.cc (every
+// config field has an option row) no option can be left out of the text.
+TEST_CASE("changing any option of any measure changes the plan fingerprint") {
+  for (const MeasureRow& row : MeasureRows()) {
+    for (const MeasureOption& o : kMeasureOptions) {
+      INFO("fn " << std::string(row.fn) << ", option " << std::string(o.key));
+      JobSpec low = OneMeasureJob(row);
+      JobSpec high = low;
+      SetOption(o, 0, &low.measures[0].config);
+      SetOption(o, 1, &high.measures[0].config);
+      CHECK(CompileSpec(low)->fingerprint != CompileSpec(high)->fingerprint);
+    }
+  }
+}
+
+// Intent: the same through the job file, for each option a measure takes:
+// what the parser reads reaches the fingerprint.
+TEST_CASE("each option written in the job file changes the plan fingerprint") {
+  int checked = 0;
+  for (const MeasureRow& row : MeasureRows()) {
+    for (const MeasureOption& o : kMeasureOptions) {
+      if (!row.Takes(o.key)) continue;
+      INFO("fn " << std::string(row.fn) << ", option " << std::string(o.key));
+      uint64_t fingerprints[2];
+      for (int which : {0, 1}) {
+        std::string m = std::string(R"({"name": "m", "fn": ")") + row.fn + "\"";
+        if (row.arg_count >= 1) m += R"(, "of": "{/x}")";
+        if (row.arg_count >= 2) m += R"(, "by": "{/t}")";
+        if (row.Takes("at") && std::string(o.key) != "at") m += R"(, "at": [0.5])";
+        m += std::string(", \"") + o.key + "\": " + OptionJson(o, which);
+        Result<JobSpec> spec =
+            ParseJobSpec(R"({"inputs": {"files": ["a"]}, "measures": [)" + m + "}]}", "job.json");
+        REQUIRE_MESSAGE(spec.ok(), spec.status().message());
+        fingerprints[which] = CompileSpec(spec.value())->fingerprint;
+      }
+      CHECK(fingerprints[0] != fingerprints[1]);
+      ++checked;
+    }
+  }
+  CHECK(checked == 8);  // at x2, limit x3, alpha, precision, k: the options the rows take
+}
