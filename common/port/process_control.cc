@@ -133,10 +133,4 @@ const char* SignalName(int signal) {
   }
 }
 
-uint64_t MonotonicNanos() {
-  timespec ts;
-  ::clock_gettime(CLOCK_MONOTONIC, &ts);
-  return static_cast<uint64_t>(ts.tv_sec) * 1000000000u + static_cast<uint64_t>(ts.tv_nsec);
-}
-
 }  // namespace fanfold

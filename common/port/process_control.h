@@ -58,7 +58,4 @@ Status SetChildSubreaper(bool on);
 // "SIGKILL", "SIGSEGV", ...; "SIG?" for signals without a name here.
 const char* SignalName(int signal);
 
-// CLOCK_MONOTONIC in nanoseconds: comparable between processes on one host.
-uint64_t MonotonicNanos();
-
 }  // namespace fanfold

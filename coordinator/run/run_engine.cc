@@ -1,7 +1,5 @@
 #include "coordinator/run/run_engine.h"
 
-#include <unistd.h>
-
 #include <algorithm>
 #include <chrono>
 #include <cstdio>
@@ -13,7 +11,9 @@
 #include <nlohmann/json.hpp>
 
 #include "common/base/cell_text.h"
+#include "common/port/clock.h"
 #include "common/port/file_util.h"
+#include "common/port/process_control.h"
 #include "common/job/job_loader.h"
 #include "coordinator/output/output_table.h"
 #include "common/port/shm_segment.h"
@@ -30,12 +30,6 @@ namespace fanfold {
 namespace {
 
 using nlohmann::json;
-
-uint64_t WallNs() {
-  return static_cast<uint64_t>(std::chrono::duration_cast<std::chrono::nanoseconds>(
-                                   std::chrono::system_clock::now().time_since_epoch())
-                                   .count());
-}
 
 const char* OutcomeName(AttemptRecord::Outcome o) {
   switch (o) {
@@ -189,8 +183,8 @@ CommandOutcome ExecuteRun(const RunInput& in, const RunOptions& o) {
 
   int workers = o.workers > 0 ? o.workers : static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
   workers = std::max(1, std::min<int>(workers, static_cast<int>(in.pending.size())));
-  dir.StageJournal(json{{"event", "start"}, {"mode", in.mode}, {"pid", ::getpid()}, {"workers", workers},
-                        {"pending", in.pending.size()}, {"reused", in.reused.size()}, {"time_ns", WallNs()}}
+  dir.StageJournal(json{{"event", "start"}, {"mode", in.mode}, {"pid", CurrentPid()}, {"workers", workers},
+                        {"pending", in.pending.size()}, {"reused", in.reused.size()}, {"time_ns", WallNanos()}}
                        .dump());
   RunLoopResult loop;
   if (!in.pending.empty()) {
@@ -247,7 +241,7 @@ CommandOutcome ExecuteRun(const RunInput& in, const RunOptions& o) {
   summary.interrupted = loop.interrupted;
   summary.wall_seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
   if (loop.interrupted) {
-    dir.StageJournal(json{{"event", "interrupted"}, {"time_ns", WallNs()}}.dump());
+    dir.StageJournal(json{{"event", "interrupted"}, {"time_ns", WallNanos()}}.dump());
     (void)dir.Commit();
     for (const auto& line : FormatRunSummary(summary, list)) note(line);
     note("interrupted; finished shards are saved. To finish the run: fanfold resume " + dir.path());
@@ -269,7 +263,7 @@ CommandOutcome ExecuteRun(const RunInput& in, const RunOptions& o) {
   summary.wall_seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
   if (w.ok())
     w = dir.WriteFile("summary.json", SummaryJson(in, summary, merger, path, workers, loop.retries).dump(1) + "\n");
-  dir.StageJournal(json{{"event", "finish"}, {"time_ns", WallNs()}, {"failed", loop.failures.size()}}.dump());
+  dir.StageJournal(json{{"event", "finish"}, {"time_ns", WallNanos()}, {"failed", loop.failures.size()}}.dump());
   if (w.ok()) w = dir.Commit();
   if (!w.ok()) {
     out.status = w;
