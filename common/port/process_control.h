@@ -23,6 +23,12 @@ struct ExitInfo {
 int CurrentPid();
 int ParentPid();
 
+// The absolute path of this process's program (Linux /proc/self/exe);
+// false iff the system does not say.
+bool SelfExecutablePath(std::string* out);
+// True iff path names a file this process may execute (access X_OK).
+bool IsExecutable(const std::string& path);
+
 // True iff a process with this pid exists (zombies included) or exists but
 // belongs to another user; false iff the kernel says there is none (ESRCH).
 bool ProcessAlive(int pid);
