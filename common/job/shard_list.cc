@@ -1,6 +1,5 @@
 #include "common/job/shard_list.h"
 
-#include <sys/stat.h>
 #include <unistd.h>
 
 #include <algorithm>
@@ -10,6 +9,7 @@
 #include <system_error>
 
 #include "common/base/json_location.h"
+#include "common/port/file_identity.h"
 
 namespace fs = std::filesystem;
 
@@ -191,13 +191,13 @@ Result<ShardList> ExpandShards(const JobSpec& job) {
       list.format = fmt;
       have_format = true;
     }
-    struct stat st;
-    if (stat(path.c_str(), &st) != 0)
+    FileIdentity id;
+    if (!IdentifyFile(path, &id).ok())
       return Status::IoError("cannot stat input '" + path + "'");
     Shard s;
     s.path = path;
-    s.file_size = static_cast<uint64_t>(st.st_size);
-    s.mtime_ns = static_cast<int64_t>(st.st_mtim.tv_sec) * 1'000'000'000 + st.st_mtim.tv_nsec;
+    s.file_size = id.size;
+    s.mtime_ns = id.mtime_ns;
     s.compression = CompressionFromName(path);
     if (job.chunk_bytes > 0 && s.compression == Compression::kNone && RecordFormatRowOf(list.format).chunkable &&
         s.file_size > job.chunk_bytes) {

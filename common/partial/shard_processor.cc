@@ -1,7 +1,5 @@
 #include "common/partial/shard_processor.h"
 
-#include <sys/stat.h>
-
 #include <algorithm>
 #include <array>
 #include <chrono>
@@ -10,26 +8,22 @@
 
 #include "common/input/chunk_source.h"
 #include "common/partial/group_key.h"
+#include "common/port/clock.h"
+#include "common/port/file_identity.h"
 #include "common/input/record_reader.h"
 #include "common/base/scratch_arena.h"
 
 namespace fanfold {
 namespace {
 
-uint64_t NowNs() {
-  return static_cast<uint64_t>(std::chrono::duration_cast<std::chrono::nanoseconds>(
-                                   std::chrono::steady_clock::now().time_since_epoch())
-                                   .count());
-}
-
 // Counts the time spent inside the inner source (reading + decompressing).
 class TimedSource final : public ByteSource {
  public:
   explicit TimedSource(ByteSource* inner) : inner_(inner) {}
   Result<size_t> Read(char* dst, size_t cap) override {
-    uint64_t t0 = NowNs();
+    uint64_t t0 = MonotonicNanos();
     Result<size_t> r = inner_->Read(dst, cap);
-    ns_ += NowNs() - t0;
+    ns_ += MonotonicNanos() - t0;
     return r;
   }
   uint64_t compressed_bytes() const override { return inner_->compressed_bytes(); }
@@ -60,9 +54,9 @@ class Aggregator final : public RecordSink {
 
   bool OnRecord(Value* slots) override {
     if (seen_ % kSampleEvery == 0) {
-      uint64_t t0 = NowNs();
+      uint64_t t0 = MonotonicNanos();
       bool go_on = Apply(slots);
-      sampled_ns_ += NowNs() - t0;
+      sampled_ns_ += MonotonicNanos() - t0;
       return go_on;
     }
     return Apply(slots);
@@ -138,8 +132,8 @@ ShardProcessor::ShardProcessor(const Plan* plan) : plan_(plan) {
 
 Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
   const std::string where = "shard " + std::to_string(task.index) + " '" + task.path + "'";
-  struct stat st;
-  if (stat(task.path.c_str(), &st) != 0) return Status::IoError(where + ": cannot stat the file");
+  FileIdentity id;
+  if (!IdentifyFile(task.path, &id).ok()) return Status::IoError(where + ": cannot stat the file");
 
   Result<std::unique_ptr<ByteSource>> src = task.length == UINT64_MAX
                                                 ? OpenShardSource(task.path, task.compression)
@@ -150,14 +144,14 @@ Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
   Aggregator agg(*plan_, &state.groups, on_record, on_every_record);
   ReadStats stats;
   TimedSource timed(src->get());
-  const uint64_t t0 = NowNs();
+  const uint64_t t0 = MonotonicNanos();
   if (!reader_) {
     Result<std::unique_ptr<RecordReader>> r = RecordReader::Create(plan_->format, plan_->fields);
     if (!r.ok()) return r.status().WithContext(where);
     reader_ = std::move(r.value());
   }
   Status s = reader_->Read(timed, agg, &stats);
-  const uint64_t t1 = NowNs();
+  const uint64_t t1 = MonotonicNanos();
   if (!s.ok()) return s.WithContext(where);
   if (agg.over_limit() >= 0) {
     const CompiledMeasure& m = plan_->measures[agg.over_limit()];
@@ -177,8 +171,8 @@ Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
   PartialHeader& h = state.header;
   h.fingerprint = plan_->fingerprint;
   h.shard_index = task.index;
-  h.file_size = static_cast<uint64_t>(st.st_size);
-  h.mtime_ns = static_cast<int64_t>(st.st_mtim.tv_sec) * 1'000'000'000 + st.st_mtim.tv_nsec;
+  h.file_size = id.size;
+  h.mtime_ns = id.mtime_ns;
   h.offset = task.offset;
   h.length = task.length;
   h.path_hash = PathHash(task.path);
@@ -192,7 +186,7 @@ Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
   h.parse_ns = t1 - t0 - std::min(t1 - t0, h.read_ns + h.aggregate_ns);
   state.samples = std::move(stats.samples);
   EncodePartial(state, partial);
-  SetPartialEncodeTime(NowNs() - t1, partial);
+  SetPartialEncodeTime(MonotonicNanos() - t1, partial);
   return Status::Ok();
 }
 

@@ -12,4 +12,15 @@ std::string ErrnoText(int err) {
   return text;
 }
 
+Status IoFailure(std::string_view what, const std::string& path, int err) {
+  std::string m = "cannot ";
+  m.append(what).append(" '").append(path).append("': ").append(ErrnoText(err));
+  return Status::IoError(std::move(m));
+}
+
+Status OsError::ToStatus(std::string_view what, const std::string& path) const {
+  if (ok()) return Status::Ok();
+  return IoFailure(what, path, err_);
+}
+
 }  // namespace fanfold

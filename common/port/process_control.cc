@@ -6,9 +6,9 @@
 #include <unistd.h>
 
 #include <cerrno>
+#include <climits>
 #include <csignal>
 #include <cstring>
-#include <ctime>
 
 #include "common/port/os_error.h"
 
@@ -41,6 +41,16 @@ std::string ExitInfo::Describe() const {
 
 int CurrentPid() { return static_cast<int>(::getpid()); }
 int ParentPid() { return static_cast<int>(::getppid()); }
+
+bool SelfExecutablePath(std::string* out) {
+  char self[PATH_MAX];
+  ssize_t n = ::readlink("/proc/self/exe", self, sizeof self - 1);
+  if (n <= 0) return false;
+  out->assign(self, static_cast<size_t>(n));
+  return true;
+}
+
+bool IsExecutable(const std::string& path) { return ::access(path.c_str(), X_OK) == 0; }
 
 bool ProcessAlive(int pid) {
   if (pid <= 0) return false;
@@ -131,12 +141,6 @@ const char* SignalName(int signal) {
     case SIGSYS: return "SIGSYS";
     default: return "SIG?";
   }
-}
-
-uint64_t MonotonicNanos() {
-  timespec ts;
-  ::clock_gettime(CLOCK_MONOTONIC, &ts);
-  return static_cast<uint64_t>(ts.tv_sec) * 1000000000u + static_cast<uint64_t>(ts.tv_nsec);
 }
 
 }  // namespace fanfold

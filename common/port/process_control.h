@@ -23,6 +23,12 @@ struct ExitInfo {
 int CurrentPid();
 int ParentPid();
 
+// The absolute path of this process's program (Linux /proc/self/exe);
+// false iff the system does not say.
+bool SelfExecutablePath(std::string* out);
+// True iff path names a file this process may execute (access X_OK).
+bool IsExecutable(const std::string& path);
+
 // True iff a process with this pid exists (zombies included) or exists but
 // belongs to another user; false iff the kernel says there is none (ESRCH).
 bool ProcessAlive(int pid);
@@ -57,8 +63,5 @@ Status SetChildSubreaper(bool on);
 
 // "SIGKILL", "SIGSEGV", ...; "SIG?" for signals without a name here.
 const char* SignalName(int signal);
-
-// CLOCK_MONOTONIC in nanoseconds: comparable between processes on one host.
-uint64_t MonotonicNanos();
 
 }  // namespace fanfold

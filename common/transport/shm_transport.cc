@@ -7,6 +7,7 @@
 #include <filesystem>
 #include <system_error>
 
+#include "common/port/clock.h"
 #include "common/port/process_control.h"
 #include "common/port/process_spawner.h"
 #include "common/port/shm_segment.h"
@@ -33,12 +34,6 @@ std::string DescribeOutput(const ChildProcess& child) {
 }
 
 }  // namespace
-
-uint64_t WallNanos() {
-  return static_cast<uint64_t>(std::chrono::duration_cast<std::chrono::nanoseconds>(
-                                   std::chrono::system_clock::now().time_since_epoch())
-                                   .count());
-}
 
 struct ShmTransport::Slot {
   struct Queued {

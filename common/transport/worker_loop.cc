@@ -8,6 +8,7 @@
 #include <exception>
 
 #include "common/input/byte_source.h"
+#include "common/port/clock.h"
 #include "common/port/process_control.h"
 #include "common/transport/shm_layout.h"
 #include "common/port/shm_segment.h"
@@ -28,12 +29,6 @@ constexpr uint64_t kWakeWhenQueued = 1;
 void Beat(ShmChannel& ch) {
   ch.heartbeat_ns.store(MonotonicNanos(), std::memory_order_relaxed);
   ch.heartbeat_count.fetch_add(1, std::memory_order_relaxed);
-}
-
-uint64_t WallNanos() {
-  return static_cast<uint64_t>(std::chrono::duration_cast<std::chrono::nanoseconds>(
-                                   std::chrono::system_clock::now().time_since_epoch())
-                                   .count());
 }
 
 void SetFailed(ShmResult& r, std::string_view message) {

@@ -1,7 +1,5 @@
 #include "coordinator/cli/run_command.h"
 
-#include <sys/stat.h>
-
 #include <chrono>
 #include <ctime>
 #include <filesystem>
@@ -9,6 +7,7 @@
 
 #include "common/job/job_loader.h"
 #include "common/partial/partial_codec.h"
+#include "common/port/file_identity.h"
 #include "coordinator/rundir/run_directory.h"
 #include "coordinator/run/run_engine.h"
 
@@ -109,13 +108,12 @@ CommandOutcome ResumeRun(const RunOptions& o) {
       out.status = st;
       return out;
     }
-    struct stat now;
-    const bool exists = ::stat(s.path.c_str(), &now) == 0;
-    const int64_t mtime = exists ? static_cast<int64_t>(now.st_mtim.tv_sec) * 1'000'000'000 + now.st_mtim.tv_nsec : 0;
-    if (exists && (static_cast<uint64_t>(now.st_size) != s.file_size || mtime != s.mtime_ns)) {
+    FileIdentity now;
+    const bool exists = IdentifyFile(s.path, &now).ok();
+    if (exists && (now.size != s.file_size || now.mtime_ns != s.mtime_ns)) {
       if (!o.quiet) std::cerr << "fanfold: shard " << s.index << " '" << s.path << "' changed since the run started; recomputing it\n";
-      s.file_size = static_cast<uint64_t>(now.st_size);
-      s.mtime_ns = mtime;
+      s.file_size = now.size;
+      s.mtime_ns = now.mtime_ns;
       (*dir)->DiscardPartial(s.index);
       in.pending.push_back(s.index);
       continue;

@@ -1,8 +1,5 @@
 #include "coordinator/run/console_log.h"
 
-#include <sys/ioctl.h>
-#include <unistd.h>
-
 #include <cstdio>
 #include <cstdlib>
 #include <algorithm>
@@ -13,6 +10,8 @@
 #include <spdlog/details/null_mutex.h>
 #include <spdlog/logger.h>
 #include <spdlog/sinks/base_sink.h>
+
+#include "common/port/terminal.h"
 
 namespace fanfold {
 namespace {
@@ -25,11 +24,7 @@ void WriteRaw(std::string_view bytes) {
   std::fwrite(bytes.data(), 1, bytes.size(), stderr);
 }
 
-size_t TerminalColumns() {
-  struct winsize ws {};
-  if (::ioctl(STDERR_FILENO, TIOCGWINSZ, &ws) == 0 && ws.ws_col > 0) return ws.ws_col;
-  return 80;
-}
+size_t TerminalColumns() { return StderrColumns(80); }
 
 // Visible width of text: escape sequences (ESC [ ... letter) take none,
 // UTF-8 continuation bytes take none.
@@ -183,7 +178,7 @@ void WriteConsoleLine(const std::string& text) {
 }
 
 bool StderrIsLiveTerminal() {
-  if (!::isatty(STDERR_FILENO)) return false;
+  if (!StderrIsTerminal()) return false;
   const char* term = std::getenv("TERM");
   return !(term && std::strcmp(term, "dumb") == 0);
 }

@@ -6,6 +6,7 @@
 #include <cstdio>
 #include <ctime>
 
+#include "common/port/clock.h"
 #include "coordinator/run/console_log.h"
 
 namespace fanfold {
@@ -21,12 +22,6 @@ class ConsoleOutput final : public ProgressOutput {
   void Line(const std::string& text) override { WriteConsoleLine(text); }
   size_t Columns() const override { return ConsoleColumns(); }
 };
-
-uint64_t SteadyNs() {
-  return static_cast<uint64_t>(
-      std::chrono::duration_cast<std::chrono::nanoseconds>(std::chrono::steady_clock::now().time_since_epoch())
-          .count());
-}
 
 std::string UtcStamp() {
   std::time_t t = std::time(nullptr);
@@ -98,7 +93,7 @@ ProgressMeter::~ProgressMeter() {
   delete owned_;
 }
 
-uint64_t ProgressMeter::Now() const { return clock_ ? clock_() : SteadyNs(); }
+uint64_t ProgressMeter::Now() const { return clock_ ? clock_() : MonotonicNanos(); }
 
 void ProgressMeter::OnAttempt(const AttemptRecord& r) {
   const bool done = r.outcome == AttemptRecord::Outcome::kDone;

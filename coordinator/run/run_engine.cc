@@ -1,7 +1,5 @@
 #include "coordinator/run/run_engine.h"
 
-#include <unistd.h>
-
 #include <algorithm>
 #include <chrono>
 #include <cstdio>
@@ -13,7 +11,9 @@
 #include <nlohmann/json.hpp>
 
 #include "common/base/cell_text.h"
+#include "common/port/clock.h"
 #include "common/port/file_util.h"
+#include "common/port/process_control.h"
 #include "common/job/job_loader.h"
 #include "coordinator/output/output_table.h"
 #include "common/port/shm_segment.h"
@@ -30,12 +30,6 @@ namespace fanfold {
 namespace {
 
 using nlohmann::json;
-
-uint64_t WallNs() {
-  return static_cast<uint64_t>(std::chrono::duration_cast<std::chrono::nanoseconds>(
-                                   std::chrono::system_clock::now().time_since_epoch())
-                                   .count());
-}
 
 const char* OutcomeName(AttemptRecord::Outcome o) {
   switch (o) {
@@ -215,8 +209,8 @@ Status RunEngine::Reload() {
 }
 
 Status RunEngine::Run() {
-  dir_.StageJournal(json{{"event", "start"}, {"mode", in_.mode}, {"pid", ::getpid()}, {"workers", workers_},
-                         {"pending", in_.pending.size()}, {"reused", in_.reused.size()}, {"time_ns", WallNs()}}
+  dir_.StageJournal(json{{"event", "start"}, {"mode", in_.mode}, {"pid", CurrentPid()}, {"workers", workers_},
+                         {"pending", in_.pending.size()}, {"reused", in_.reused.size()}, {"time_ns", WallNanos()}}
                         .dump());
   if (in_.pending.empty()) return Status::Ok();
   Result<std::unique_ptr<Transport>> transport =
@@ -266,7 +260,7 @@ void RunEngine::Tally() {
 }
 
 Status RunEngine::Stop() {
-  dir_.StageJournal(json{{"event", "interrupted"}, {"time_ns", WallNs()}}.dump());
+  dir_.StageJournal(json{{"event", "interrupted"}, {"time_ns", WallNanos()}}.dump());
   (void)dir_.Commit();
   for (const auto& line : FormatRunSummary(summary_, list_)) Note(line);
   Note("interrupted; finished shards are saved. To finish the run: fanfold resume " + dir_.path());
@@ -295,7 +289,7 @@ Status RunEngine::Summarise(const Status& written) {
   if (w.ok())
     w = dir_.WriteFile("summary.json",
                        SummaryJson(in_, summary_, merger_, output_path_, workers_, loop_.retries).dump(1) + "\n");
-  dir_.StageJournal(json{{"event", "finish"}, {"time_ns", WallNs()}, {"failed", loop_.failures.size()}}.dump());
+  dir_.StageJournal(json{{"event", "finish"}, {"time_ns", WallNanos()}, {"failed", loop_.failures.size()}}.dump());
   if (w.ok()) w = dir_.Commit();
   return w;
 }

@@ -4,14 +4,10 @@
 #include <chrono>
 #include <deque>
 
+#include "common/port/clock.h"
+
 namespace fanfold {
 namespace {
-
-uint64_t WallNs() {
-  return static_cast<uint64_t>(std::chrono::duration_cast<std::chrono::nanoseconds>(
-                                   std::chrono::system_clock::now().time_since_epoch())
-                                   .count());
-}
 
 struct InFlight {
   uint32_t shard = 0;
@@ -53,7 +49,7 @@ Status RunShards(const ShardList& list, const std::vector<uint32_t>& order, Tran
     return held.empty() || held_bytes[static_cast<size_t>(w)] + bytes <= options.queue_bytes;
   };
   auto check_limits = [&]() -> Status {
-    last_limit_check_ns = WallNs();
+    last_limit_check_ns = WallNanos();
     for (int w = 0; w < static_cast<int>(workers.size()); ++w) {
       uint32_t shard = 0;
       uint64_t since = 0;
@@ -88,7 +84,7 @@ Status RunShards(const ShardList& list, const std::vector<uint32_t>& order, Tran
         task.length = s.length;
         task.compression = s.compression;
         task.attempt = attempt;
-        const uint64_t assign_ns = WallNs();
+        const uint64_t assign_ns = WallNanos();
         FF_RETURN_IF_ERROR(transport.Assign(w, task));
         workers[static_cast<size_t>(w)].push_back(InFlight{shard, attempt, s.bytes(), assign_ns, false});
         held_bytes[static_cast<size_t>(w)] += s.bytes();
@@ -99,7 +95,7 @@ Status RunShards(const ShardList& list, const std::vector<uint32_t>& order, Tran
     bool got = false;
     FF_RETURN_IF_ERROR(transport.Wait(limit_ns ? 50 : 200, &ev, &got));
     if (options.on_idle) FF_RETURN_IF_ERROR(options.on_idle());
-    if (limit_ns && (!got || WallNs() - last_limit_check_ns >= kLimitCheckNs)) FF_RETURN_IF_ERROR(check_limits());
+    if (limit_ns && (!got || WallNanos() - last_limit_check_ns >= kLimitCheckNs)) FF_RETURN_IF_ERROR(check_limits());
     if (!got) continue;
     if (ev.worker < 0 || ev.worker >= static_cast<int>(workers.size()))
       return Status::Internal("transport reported an event for an unknown worker");
@@ -123,7 +119,7 @@ Status RunShards(const ShardList& list, const std::vector<uint32_t>& order, Tran
     rec.attempt = job.attempt;
     rec.worker = ev.worker;
     rec.start_ns = ev.start_ns != 0 ? ev.start_ns : job.assign_ns;
-    rec.end_ns = ev.end_ns != 0 ? ev.end_ns : WallNs();
+    rec.end_ns = ev.end_ns != 0 ? ev.end_ns : WallNanos();
     if (rec.end_ns < rec.start_ns) rec.end_ns = rec.start_ns;
     switch (ev.kind) {
       case TransportEvent::Kind::kDone: {

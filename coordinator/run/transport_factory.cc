@@ -1,12 +1,10 @@
 #include "coordinator/run/transport_factory.h"
 
-#include <unistd.h>
-
-#include <climits>
 #include <cstdlib>
 #include <filesystem>
 
 #include "common/job/job_loader.h"
+#include "common/port/process_control.h"
 #include "common/transport/inprocess_transport.h"
 #include "common/transport/shm_transport.h"
 
@@ -17,12 +15,10 @@ namespace {
 // alike); FANFOLD_WORKER_BINARY overrides that for unusual layouts.
 Result<std::string> WorkerBinary() {
   if (const char* env = std::getenv("FANFOLD_WORKER_BINARY"); env && *env) return std::string(env);
-  char self[PATH_MAX];
-  ssize_t n = ::readlink("/proc/self/exe", self, sizeof self - 1);
-  if (n <= 0) return Status::IoError("cannot find the fanfold executable (/proc/self/exe)");
-  self[n] = '\0';
+  std::string self;
+  if (!SelfExecutablePath(&self)) return Status::IoError("cannot find the fanfold executable (/proc/self/exe)");
   std::filesystem::path worker = std::filesystem::path(self).parent_path() / "fanfold-worker";
-  if (::access(worker.c_str(), X_OK) != 0)
+  if (!IsExecutable(worker.string()))
     return Status::IoError("the worker program '" + worker.string() + "' is missing or not executable");
   return worker.string();
 }

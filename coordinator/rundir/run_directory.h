@@ -11,8 +11,9 @@
 // and fdatasyncs the journal lines that say so. A shard counts as done only
 // once its partial is committed; a coordinator killed at any instant leaves
 // a directory `resume` can finish. One pack per batch (not one file per
-// shard) keeps thousands of tiny shards cheap. Owned by the coordinator
-// thread; not thread-safe.
+// shard) keeps thousands of tiny shards cheap. Every file operation and
+// the commit timer go through a Platform (default: the real OS; tests pass a
+// MemoryPlatform). Owned by the coordinator thread; not thread-safe.
 //
 // Pack file: a sequence of entries, each
 //   u32 magic "FFPK", u32 shard index, u64 partial length,
@@ -22,7 +23,6 @@
 // shard appears in several packs the highest-numbered pack wins.
 #pragma once
 
-#include <chrono>
 #include <cstdint>
 #include <map>
 #include <memory>
@@ -31,6 +31,8 @@
 #include <vector>
 
 #include "common/base/status.h"
+#include "common/port/durable_write.h"
+#include "common/port/platform.h"
 #include "coordinator/rundir/run_manifest.h"
 
 namespace fanfold {
@@ -41,15 +43,17 @@ class RunDirectory {
 
   // What a path holds, for `run`'s refusal message.
   enum class State { kEmpty, kUnfinished, kFinished };
-  static State Probe(const std::string& path);
+  static State Probe(const std::string& path, Platform& platform = Platform::Posix());
 
   // Creates the directory (and parents), locks it and writes run.json.
   // REQUIRES: Probe(path) == kEmpty, or fresh == true (then an old run there
   // is removed first).
+  // REQUIRES (here and in Open): platform outlives the RunDirectory.
   static Result<std::unique_ptr<RunDirectory>> Create(const std::string& path, const RunManifest& manifest,
-                                                      bool fresh);
+                                                      bool fresh, Platform& platform = Platform::Posix());
   // Opens and locks an existing run directory; reads its manifest.
-  static Result<std::unique_ptr<RunDirectory>> Open(const std::string& path, RunManifest* manifest);
+  static Result<std::unique_ptr<RunDirectory>> Open(const std::string& path, RunManifest* manifest,
+                                                    Platform& platform = Platform::Posix());
 
   const std::string& path() const { return path_; }
 
@@ -78,20 +82,21 @@ class RunDirectory {
   Status WriteFile(const std::string& name, std::string_view data) const;
 
  private:
-  RunDirectory(std::string path, int lock_fd);
-  static Result<int> Lock(const std::string& path);
+  RunDirectory(Platform& platform, std::string path, std::unique_ptr<FileLock> lock);
+  static Result<std::unique_ptr<FileLock>> Lock(Platform& platform, const std::string& path);
   // Reads every committed pack into index_.
   void IndexPacks();
   std::string PackPath(uint64_t seq) const;
-  static Status ReadRange(const std::string& path, uint64_t offset, uint64_t length, std::string* out);
+  Status ReadRange(const std::string& path, uint64_t offset, uint64_t length, std::string* out) const;
 
   struct Location {
     uint64_t pack = 0;    // pack sequence number
     uint64_t offset = 0;  // of the partial's first byte
     uint64_t length = 0;
   };
+  Platform& platform_;
   std::string path_;
-  int lock_fd_ = -1;
+  std::unique_ptr<FileLock> lock_;
   std::map<uint32_t, Location> index_;  // committed partials by shard
   uint64_t next_pack_ = 1;
   static constexpr size_t kStageBufferBytes = size_t{1} << 20;
@@ -101,12 +106,12 @@ class RunDirectory {
   // Drops the batch: closes and removes the temporary pack.
   void DropBatch();
 
-  int pack_fd_ = -1;                    // the batch's temporary pack, or -1
+  std::unique_ptr<StagedFile> pack_;    // the batch's temporary pack, or null
   uint64_t pack_size_ = 0;              // bytes staged in it, buffered ones included
   std::string stage_buffer_;            // its last bytes, not yet written
   std::vector<std::pair<uint32_t, Location>> staged_;
   std::vector<std::string> journal_lines_;
-  std::chrono::steady_clock::time_point first_staged_;
+  uint64_t first_staged_ns_ = 0;        // platform_.MonotonicNanos() at the batch's first item
 };
 
 }  // namespace fanfold
