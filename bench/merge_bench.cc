@@ -114,7 +114,7 @@ void FillTemplate(const Plan& plan, const BenchOptions& o, uint64_t t, PartialSt
       const double latency = std::exp(2.4 + 0.8 * (static_cast<double>(h >> 11) / 9007199254740992.0 - 0.5) * 4);
       for (size_t m = 0; m < plan.measures.size(); ++m) {
         const MeasureKind kind = plan.measures[m].config.kind;
-        const bool text = kind == MeasureKind::kApproxDistinct || kind == MeasureKind::kDistinct ||
+        const bool text = kind == MeasureKind::kHyperLogLog || kind == MeasureKind::kDistinct ||
                           kind == MeasureKind::kTop;
         Value args[2] = {text ? Value::String(lamp) : Value::Number(latency),
                          Value::Number(static_cast<double>(r))};

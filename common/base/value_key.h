@@ -1,5 +1,5 @@
 // ValueKey: the canonical byte form of a scalar Value used by the measures
-// that count values (distinct, approx_distinct, top). A one-byte type tag
+// that count values (distinct, hyperloglog, top). A one-byte type tag
 // keeps the number 1 and the string "1" apart; numbers are canonicalised
 // (-0.0 == 0.0, one NaN) and stored order-preserving, so comparing keys
 // bytewise orders them bool < number < string, numbers numerically, strings

@@ -27,10 +27,10 @@ struct DeriveSpec {
 
 struct MeasureSpec {
   std::string name;
-  std::string fn;      // the job file's name for config.kind, e.g. "approx_quantile"
+  std::string fn;      // the job file's name for config.kind, e.g. "ddsketch"
   MeasureConfig config;
   std::string of;      // argument expression ("" for count)
-  std::string by;      // ordering expression (first/last only)
+  std::string by;      // ordering expression (at_lowest/at_highest only)
 };
 
 struct OrderSpec {
@@ -67,7 +67,7 @@ Result<JobSpec> ParseJobSpec(std::string_view json_text, const std::string& job_
 // Reads and parses the job file at path.
 Result<JobSpec> LoadJobSpec(const std::string& path);
 
-// The job file's name for a measure kind ("count", "approx_quantile", ...).
+// The job file's name for a measure kind ("count", "ddsketch", ...).
 // FormatName and FormatFromText are in common/input/record_format.h.
 const char* MeasureFnName(MeasureKind kind);
 const char* OutputFormatName(OutputFormat f);

@@ -18,7 +18,7 @@ DDSketchState::DDSketchState(const MeasureConfig& config)
 Status DDSketchState::Merge(const MeasureState& other) {
   const auto* o = dynamic_cast<const DDSketchState*>(&other);
   if (o == nullptr || o->alpha_ != alpha_)
-    return Status::Internal("approx_quantile: merge with a state of another measure");
+    return Status::Internal("ddsketch: merge with a state of another measure");
   neg_.MergeFrom(o->neg_);
   pos_.MergeFrom(o->pos_);
   MergeScalars(o->zero_, o->skipped_, o->count(), o->min_, o->max_);
@@ -83,7 +83,7 @@ int SignClass(double x) { return x < 0 ? 0 : (x == 0 ? 1 : 2); }
 
 Status DDSketchState::ReadEncoded(ByteReader& r, Encoded* e) {
   // Built only on failure: a Status holds a heap string, and this runs per state.
-  auto corrupt = [] { return Status::Corrupt("approx_quantile: bad or truncated state"); };
+  auto corrupt = [] { return Status::Corrupt("ddsketch: bad or truncated state"); };
   e->skipped = r.Varint();
   e->zero = r.Varint();
   if (!r.ok() || e->zero > DDSketchStore::kMaxTotal || !DDSketchStore::ReadRun(r, &e->neg) ||

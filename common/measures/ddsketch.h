@@ -1,4 +1,4 @@
-// DDSketchState: the state of `approx_quantile`, a DDSketch (Masson, Rim &
+// DDSketchState: the state of `ddsketch`, a DDSketch (Masson, Rim &
 // Lee 2019, PVLDB 12(12)). With gamma = (1+alpha)/(1-alpha), a value x > 0
 // is counted in bucket i = ceil(log_gamma x), the interval
 // (gamma^(i-1), gamma^i], whose estimate 2 gamma^i/(gamma+1) is within

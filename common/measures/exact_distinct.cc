@@ -20,7 +20,7 @@ bool ExactDistinctState::Add(const Value* args) {
 
 Status ExactDistinctState::LimitError() const {
   return Status::LimitExceeded("distinct: a group holds more than " + std::to_string(limit_) +
-                               " distinct values; raise \"limit\" or use approx_distinct");
+                               " distinct values; raise \"limit\" or use hyperloglog");
 }
 
 Status ExactDistinctState::Merge(const MeasureState& other) {

@@ -28,7 +28,7 @@ Status ExactQuantileState::Merge(const MeasureState& other) {
   if (o == nullptr) return Status::Internal("quantile: merge with a state of another measure");
   if (values_.size() + o->values_.size() > limit_) {
     return Status::LimitExceeded("quantile: a group holds more than " + std::to_string(limit_) +
-                                 " values; raise \"limit\" or use approx_quantile");
+                                 " values; raise \"limit\" or use ddsketch");
   }
   values_.insert(values_.end(), o->values_.begin(), o->values_.end());
   sorted_ = sorted_ && o->values_.empty();

@@ -66,7 +66,7 @@ std::vector<uint8_t> HyperLogLogState::DenseCopy() const {
 Status HyperLogLogState::Merge(const MeasureState& other) {
   const auto* o = dynamic_cast<const HyperLogLogState*>(&other);
   if (o == nullptr || o->p_ != p_)
-    return Status::Internal("approx_distinct: merge with a state of another measure");
+    return Status::Internal("hyperloglog: merge with a state of another measure");
   for (uint32_t e : o->sparse_) Raise(e >> 8, static_cast<uint8_t>(e & 0xff));
   if (!o->registers_.empty()) {
     if (registers_.empty()) Densify();
@@ -188,7 +188,7 @@ Status HyperLogLogState::Decode(ByteReader& r) {
   const uint64_t skipped = r.Varint();
   ByteReader check = r;
   if (!r.ok() || !ReadRegisters(check, p_, [](size_t, uint8_t) {}))
-    return Status::Corrupt("approx_distinct: bad or truncated state");
+    return Status::Corrupt("hyperloglog: bad or truncated state");
   skipped_ = skipped;
   sparse_.clear();
   registers_.clear();
@@ -200,7 +200,7 @@ Status HyperLogLogState::MergeEncoded(ByteReader& r, bool apply, MeasureState* /
   const uint64_t skipped = r.Varint();
   ByteReader check = r;
   if (!r.ok() || !ReadRegisters(check, p_, [](size_t, uint8_t) {}))
-    return Status::Corrupt("approx_distinct: bad or truncated state");
+    return Status::Corrupt("hyperloglog: bad or truncated state");
   if (!apply) {
     r = check;
     return Status::Ok();

@@ -1,4 +1,4 @@
-// HyperLogLogState: the state of `approx_distinct`, a HyperLogLog sketch
+// HyperLogLogState: the state of `hyperloglog`, a HyperLogLog sketch
 // (Flajolet, Fusy, Gandouet & Meunier 2007) with m = 2^precision one-byte
 // registers over a 64-bit hash (XXH3 of the value's ValueKey), so no
 // large-range correction is needed (Heule, Nunkesser & Hall 2013). Relative

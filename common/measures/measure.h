@@ -1,5 +1,5 @@
 // Measure: the mergeable state behind one named result column (count, sum,
-// mean, quantiles, distinct counts, top-k, first/last ...). A worker makes one
+// mean, quantiles, distinct counts, top-k, at_lowest/at_highest ...). A worker makes one
 // state per group per measure, feeds it records with Add(), encodes it into
 // the shard's partial state; the coordinator decodes states and folds them in
 // shard order with Merge(), then Finalize()s. Merging is associative, so any
@@ -33,12 +33,12 @@ enum class MeasureKind : uint8_t {
   kMin,
   kMax,
   kQuantile,            // exact, Hyndman & Fan type 7; keeps values up to `limit`
-  kApproxQuantile,      // DDSketch with relative accuracy alpha
+  kDdSketch,            // DDSketch with relative accuracy alpha
   kDistinct,            // exact distinct count; keeps values up to `limit`
-  kApproxDistinct,      // HyperLogLog with 2^precision registers
+  kHyperLogLog,         // HyperLogLog with 2^precision registers
   kTop,                 // the k most frequent values with their counts
-  kFirst,               // value at the smallest ordering key
-  kLast,                // value at the largest ordering key
+  kAtLowest,            // value at the smallest ordering key
+  kAtHighest,           // value at the largest ordering key
 };
 
 // Everything a state needs to know about its measure; filled by the job
@@ -47,9 +47,9 @@ enum class MeasureKind : uint8_t {
 // (common/measures/measure_options.h); a static_assert there enforces it.
 struct MeasureConfig {
   MeasureKind kind = MeasureKind::kCount;
-  std::vector<double> probabilities;  // kQuantile, kApproxQuantile: each in [0, 1]
-  double alpha = 0.01;                // kApproxQuantile: relative accuracy, [0.001, 0.5]
-  int precision = 12;                 // kApproxDistinct: register bits, 4..18 (2^p bytes per group)
+  std::vector<double> probabilities;  // kQuantile, kDdSketch: each in [0, 1]
+  double alpha = 0.01;                // kDdSketch: relative accuracy, [0.001, 0.5]
+  int precision = 12;                 // kHyperLogLog: register bits, 4..18 (2^p bytes per group)
   uint32_t k = 10;                    // kTop: how many values to report, >= 1
   uint64_t limit = 1'000'000;         // kQuantile, kDistinct: values kept per group; kTop: distinct values tracked
 };
@@ -68,13 +68,13 @@ class MeasureState {
   virtual ~MeasureState() = default;
 
   // Feeds one record. args holds the evaluated arguments: none for kCount,
-  // [value] for most, [value, ordering key] for kFirst/kLast.
+  // [value] for most, [value, ordering key] for kAtLowest/kAtHighest.
   // Returns false iff a bounded measure has just exceeded its limit; the
   // state is then unusable and the caller fails the shard.
   virtual bool Add(const Value* args) = 0;
 
   // Folds `other` (same config, possibly from another shard) into this state.
-  // `other` is the later input: order-sensitive measures (first/last ties)
+  // `other` is the later input: order-sensitive measures (at_lowest/at_highest ties)
   // keep this state's value on ties. Fails with LimitExceeded past a bound.
   virtual Status Merge(const MeasureState& other) = 0;
 

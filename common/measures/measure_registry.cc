@@ -10,7 +10,7 @@
 #include "common/measures/exact_distinct.h"
 #include "common/measures/exact_quantile.h"
 #include "common/measures/extreme.h"
-#include "common/measures/first_last.h"
+#include "common/measures/pick_by_order.h"
 #include "common/measures/hyperloglog.h"
 #include "common/measures/measure_options.h"
 #include "common/measures/moments.h"
@@ -66,14 +66,14 @@ std::vector<MeasureRow> BuildRows() {
       {K::kMax, "max", 1, {}, OneColumn, nullptr, MakeWith<ExtremeState, true>},
       {K::kQuantile, "quantile", 1, {"at", "limit"}, ColumnPerProbability, nullptr,
        MakeFromConfig<ExactQuantileState>},
-      {K::kApproxQuantile, "approx_quantile", 1, {"at", "alpha"}, ColumnPerProbability, nullptr,
+      {K::kDdSketch, "ddsketch", 1, {"at", "alpha"}, ColumnPerProbability, nullptr,
        MakeFromConfig<DDSketchState>},
       {K::kDistinct, "distinct", 1, {"limit"}, OneColumn, nullptr, MakeFromConfig<ExactDistinctState>},
-      {K::kApproxDistinct, "approx_distinct", 1, {"precision"}, OneColumn, nullptr,
+      {K::kHyperLogLog, "hyperloglog", 1, {"precision"}, OneColumn, nullptr,
        MakeFromConfig<HyperLogLogState>},
       {K::kTop, "top", 1, {"k", "limit"}, OneColumn, TopLimitAtLeastK, MakeFromConfig<TopState>},
-      {K::kFirst, "first", 2, {}, OneColumn, nullptr, MakeWith<FirstLastState, false>},
-      {K::kLast, "last", 2, {}, OneColumn, nullptr, MakeWith<FirstLastState, true>},
+      {K::kAtLowest, "at_lowest", 2, {}, OneColumn, nullptr, MakeWith<PickByOrderState, false>},
+      {K::kAtHighest, "at_highest", 2, {}, OneColumn, nullptr, MakeWith<PickByOrderState, true>},
   };
 }
 

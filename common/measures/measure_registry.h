@@ -24,7 +24,7 @@ struct OptionComplaint {
 
 struct MeasureRow {
   MeasureKind kind;
-  const char* fn;  // the job file's "fn", e.g. "approx_quantile"
+  const char* fn;  // the job file's "fn", e.g. "ddsketch"
   int arg_count;   // 0: none; 1: "of" (the value); 2: "of" and "by" (an ordering key)
   std::vector<const char*> options;  // keys of kMeasureOptions the job file may set
   // Output column names for a measure named `name` with this config.

@@ -225,20 +225,20 @@ def norm_key(key):
 
 def compare_cell(checks, where, fn, actual, expected):
     """One output cell against the reference, with the tolerance of its fn."""
-    if isinstance(expected, tuple) and expected and expected[0] == "approx_quantile":
+    if isinstance(expected, tuple) and expected and expected[0] == "ddsketch":
         _, lo, hi, alpha = expected
         # DDSketch (Masson et al. 2019): relative error <= alpha against a data
         # value at the requested rank; lo/hi bracket that rank.
         ok = isinstance(actual, (int, float)) and (
             min(lo * (1 - alpha), lo * (1 + alpha)) - 1e-12 <= actual <= max(hi * (1 + alpha), hi * (1 - alpha)) + 1e-12)
-        return checks.check(ok, "%s: approx_quantile %r outside [%r, %r] widened by alpha %r"
+        return checks.check(ok, "%s: ddsketch %r outside [%r, %r] widened by alpha %r"
                             % (where, actual, lo, hi, alpha))
-    if isinstance(expected, tuple) and expected and expected[0] == "approx_distinct":
+    if isinstance(expected, tuple) and expected and expected[0] == "hyperloglog":
         _, exact, p = expected
         # HyperLogLog (Flajolet et al. 2007): standard error 1.04/sqrt(2^p); allow 4 of them.
         bound = 4 * 1.04 / math.sqrt(2 ** p) * exact
         ok = isinstance(actual, (int, float)) and abs(actual - exact) <= max(bound, 0.5)
-        return checks.check(ok, "%s: approx_distinct %r vs exact %d (4 SE = %.2f)" % (where, actual, exact, bound))
+        return checks.check(ok, "%s: hyperloglog %r vs exact %d (4 SE = %.2f)" % (where, actual, exact, bound))
     if isinstance(expected, tuple) and expected and expected[0] == "top":
         _, counts, k = expected
         return compare_top(checks, where, actual, counts, k)
@@ -246,7 +246,7 @@ def compare_cell(checks, where, fn, actual, expected):
         # exact integers (Python len/Counter reference)
         return checks.check(isinstance(actual, (int, float)) and actual == expected,
                             "%s: %s %r, reference %r" % (where, fn, actual, expected))
-    if fn in ("first", "last"):
+    if fn in ("at_lowest", "at_highest"):
         return checks.check(actual == expected, "%s: %s %r, reference %r" % (where, fn, actual, expected))
     if expected is None:
         # An empty numeric group: null (sum may also read 0).

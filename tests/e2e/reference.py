@@ -237,7 +237,7 @@ class Measure:
         self.at, self.alpha, self.precision, self.k = at or [], alpha, precision, k
 
     def columns(self):
-        if self.fn in ("quantile", "approx_quantile"):
+        if self.fn in ("quantile", "ddsketch"):
             return [quantile_column(self.name, p) for p in self.at]
         return [self.name]
 
@@ -275,7 +275,7 @@ def aggregate(job, records):
         for m in job.measures:
             if m.fn == "count":
                 slot[m.name].append(1)
-            elif m.fn in ("first", "last"):
+            elif m.fn in ("at_lowest", "at_highest"):
                 slot[m.name].append((m.by(r), m.of(r)))
             else:
                 slot[m.name].append(m.of(r))
@@ -305,7 +305,7 @@ def _norm_distinct(v):
 def finalize(m, items):
     """Expected output cells of measure m over its collected items:
     {column: value}, where approximate measures give a tuple
-    ("approx_quantile", lo, hi, alpha) / ("approx_distinct", exact, precision)
+    ("ddsketch", lo, hi, alpha) / ("hyperloglog", exact, precision)
     and top gives ("top", Counter, k)."""
     out = {}
     if m.fn == "count":
@@ -314,11 +314,11 @@ def finalize(m, items):
     if m.fn == "count_present":
         out[m.name] = sum(1 for v in items if present(v))
         return out
-    if m.fn in ("first", "last"):
+    if m.fn in ("at_lowest", "at_highest"):
         keyed = [(k, v) for k, v in items if k is not None and present(v)]
         if not keyed:
             out[m.name] = None
-        elif m.fn == "first":
+        elif m.fn == "at_lowest":
             out[m.name] = min(keyed, key=lambda kv: kv[0])[1]  # min() keeps the earliest tie
         else:
             best = keyed[0]
@@ -327,9 +327,9 @@ def finalize(m, items):
                     best = kv
             out[m.name] = best[1]
         return out
-    if m.fn in ("distinct", "approx_distinct"):
+    if m.fn in ("distinct", "hyperloglog"):
         exact = len({_norm_distinct(v) for v in items if present(v)})
-        out[m.name] = exact if m.fn == "distinct" else ("approx_distinct", exact, m.precision)
+        out[m.name] = exact if m.fn == "distinct" else ("hyperloglog", exact, m.precision)
         return out
     if m.fn == "top":
         counts = collections.Counter(v for v in items if present(v) and not isinstance(v, (list, dict)))
@@ -352,7 +352,7 @@ def finalize(m, items):
         s = sorted(nums)
         for p in m.at:
             out[quantile_column(m.name, p)] = type7(s, p) if s else None
-    elif m.fn == "approx_quantile":
+    elif m.fn == "ddsketch":
         s = sorted(nums)
         for p in m.at:
             if not s:
@@ -361,7 +361,7 @@ def finalize(m, items):
             # A rank-based sketch answers with (about) a data value at rank
             # p (n - 1) (0-based), so bracket by the two neighbouring ranks.
             h = p * (len(s) - 1)
-            out[quantile_column(m.name, p)] = ("approx_quantile", s[math.floor(h)], s[math.ceil(h)], m.alpha)
+            out[quantile_column(m.name, p)] = ("ddsketch", s[math.floor(h)], s[math.ceil(h)], m.alpha)
     else:
         raise ValueError("reference has no measure fn %r" % m.fn)
     return out

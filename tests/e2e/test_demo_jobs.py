@@ -45,7 +45,7 @@ REFS = {
             M("avg_w", "mean", of=p("/power_w")),
             M("peak_w", "max", of=p("/power_w")),
             M("lat", "quantile", of=p("/latency_ms"), at=[0.5, 0.9, 0.99]),
-            M("lat_apx", "approx_quantile", of=p("/latency_ms"), at=[0.99], alpha=0.01),
+            M("lat_apx", "ddsketch", of=p("/latency_ms"), at=[0.99], alpha=0.01),
         ]),
     "fault_watch.json": RefJob(
         keep=lambda r: ptr(r, "/event") in ("fault", "reboot"),  # {/event} in ['fault', 'reboot']
@@ -55,7 +55,7 @@ REFS = {
             M("faults", "count_present", of=p("/fault")),
             M("codes", "top", of=p("/fault"), k=3),
             M("lamps", "distinct", of=p("/lamp")),
-            M("lamps_apx", "approx_distinct", of=p("/lamp"), precision=12),
+            M("lamps_apx", "hyperloglog", of=p("/lamp"), precision=12),
             M("min_w", "min", of=p("/power_w")),
         ]),
     "firmware_rollout.json": RefJob(
@@ -63,8 +63,8 @@ REFS = {
         group=[("lamp", p("/lamp"))],
         measures=[
             M("reports", "count"),
-            M("first_fw", "first", of=p("/fw/version"), by=t_json),
-            M("last_fw", "last", of=p("/fw/version"), by=t_json),
+            M("first_fw", "at_lowest", of=p("/fw/version"), by=t_json),
+            M("last_fw", "at_highest", of=p("/fw/version"), by=t_json),
             M("versions", "distinct", of=p("/fw/version")),
         ]),
     "night_profile.json": RefJob(
@@ -78,8 +78,8 @@ REFS = {
             M("temp_min", "min", of=p("/readings/0")),
             M("temp_max", "max", of=p("/readings/0")),
             M("humidity_var", "variance", of=p("/readings/1")),
-            M("power_med", "approx_quantile", of=p("/power_w"), at=[0.5], alpha=0.02),
-            M("lamps_apx", "approx_distinct", of=p("/lamp"), precision=10),
+            M("power_med", "ddsketch", of=p("/power_w"), at=[0.5], alpha=0.02),
+            M("lamps_apx", "hyperloglog", of=p("/lamp"), precision=10),
         ]),
     "csv_daily.json": RefJob(
         group=[("day", lambda r: ref.period_start(t_csv(r), "day")), ("weekday", lambda r: ref.weekday(t_csv(r))),
@@ -93,13 +93,13 @@ REFS = {
             M("latency_mean", "mean", of=c("latency_ms")),
             M("temp_min", "min", of=c("reading_0")),
             M("lamps", "distinct", of=c("lamp")),
-            M("lamps_apx", "approx_distinct", of=c("lamp"), precision=14),
+            M("lamps_apx", "hyperloglog", of=c("lamp"), precision=14),
         ]),
 }
 
 # Every measure fn of the spec must appear in some example job.
 ALL_FNS = {"count", "count_present", "sum", "mean", "variance", "stddev", "min", "max", "quantile",
-           "approx_quantile", "distinct", "approx_distinct", "top", "first", "last"}
+           "ddsketch", "distinct", "hyperloglog", "top", "at_lowest", "at_highest"}
 
 
 def expand_inputs(job_path, job):

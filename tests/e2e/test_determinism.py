@@ -83,8 +83,8 @@ def main():
                 {"name": "w", "fn": "sum", "of": "{/power_w}"},
                 {"name": "m", "fn": "mean", "of": "{/latency_ms}"},
                 {"name": "sd", "fn": "stddev", "of": "{/latency_ms}"},
-                {"name": "q", "fn": "approx_quantile", "of": "{/latency_ms}", "at": [0.5, 0.99]},
-                {"name": "first_fw", "fn": "first", "of": "{/fw/version}", "by": "{/ts}"},
+                {"name": "q", "fn": "ddsketch", "of": "{/latency_ms}", "at": [0.5, 0.99]},
+                {"name": "first_fw", "fn": "at_lowest", "of": "{/fw/version}", "by": "{/ts}"},
             ],
             "emit": {"format": "csv"},
         })

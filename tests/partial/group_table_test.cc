@@ -22,9 +22,9 @@ std::vector<MeasureConfig> ExactConfigs() {
   std::vector<MeasureConfig> configs(4);
   configs[0].kind = MeasureKind::kCount;
   configs[1].kind = MeasureKind::kMax;
-  configs[2].kind = MeasureKind::kApproxDistinct;
+  configs[2].kind = MeasureKind::kHyperLogLog;
   configs[2].precision = 8;
-  configs[3].kind = MeasureKind::kApproxQuantile;
+  configs[3].kind = MeasureKind::kDdSketch;
   configs[3].probabilities = {0.5, 0.95};
   return configs;
 }

@@ -22,7 +22,7 @@ namespace {
 std::unique_ptr<Plan> TestPlan() {
   const char* job = R"({"inputs": {"files": ["x.ndjson"]}, "group": ["{/k}"],
     "measures": [{"name": "n", "fn": "count"}, {"name": "s", "fn": "sum", "of": "{/v}"},
-                 {"name": "q", "fn": "approx_quantile", "of": "{/v}", "at": [0.5]}]})";
+                 {"name": "q", "fn": "ddsketch", "of": "{/v}", "at": [0.5]}]})";
   Result<JobSpec> spec = ParseJobSpec(job, "test.json");
   REQUIRE(spec.ok());
   Result<std::unique_ptr<Plan>> plan = CompilePlan(std::move(*spec), RecordFormat::kNdjson);

@@ -1,10 +1,10 @@
-#include "common/measures/first_last.h"
+#include "common/measures/pick_by_order.h"
 
 #include <cmath>
 
 namespace fanfold {
 
-int FirstLastState::CompareKeys(ValueKind a_kind, double a_num, std::string_view a_str,
+int PickByOrderState::CompareKeys(ValueKind a_kind, double a_num, std::string_view a_str,
                                 const Slot& b) {
   if (a_kind != b.kind) return a_kind == ValueKind::kNumber ? -1 : 1;  // numbers first
   if (a_kind == ValueKind::kNumber) return a_num < b.number ? -1 : (a_num > b.number ? 1 : 0);
@@ -12,7 +12,7 @@ int FirstLastState::CompareKeys(ValueKind a_kind, double a_num, std::string_view
   return c < 0 ? -1 : (c > 0 ? 1 : 0);
 }
 
-bool FirstLastState::Add(const Value* args) {
+bool PickByOrderState::Add(const Value* args) {
   const Value& value = args[0];
   const Value& key = args[1];
   double key_num = 0;
@@ -48,10 +48,10 @@ bool FirstLastState::Add(const Value* args) {
   return true;
 }
 
-Status FirstLastState::Merge(const MeasureState& other) {
-  const auto* o = dynamic_cast<const FirstLastState*>(&other);
-  if (o == nullptr || o->is_last_ != is_last_)
-    return Status::Internal("first/last: merge with a state of another measure");
+Status PickByOrderState::Merge(const MeasureState& other) {
+  const auto* o = dynamic_cast<const PickByOrderState*>(&other);
+  if (o == nullptr || o->highest_ != highest_)
+    return Status::Internal("at_lowest/at_highest: merge with a state of another measure");
   skipped_ += o->skipped_;
   if (!o->has_) return Status::Ok();
   if (Takes(has_ ? CompareKeys(o->key_.kind, o->key_.number, o->key_.str, key_) : 0)) {
@@ -62,7 +62,7 @@ Status FirstLastState::Merge(const MeasureState& other) {
   return Status::Ok();
 }
 
-void FirstLastState::EncodeSlot(const Slot& s, ByteWriter& w) {
+void PickByOrderState::EncodeSlot(const Slot& s, ByteWriter& w) {
   switch (s.kind) {
     case ValueKind::kBool:
       w.U8('b');
@@ -79,7 +79,7 @@ void FirstLastState::EncodeSlot(const Slot& s, ByteWriter& w) {
   }
 }
 
-bool FirstLastState::DecodeSlot(ByteReader& r, bool allow_bool, Slot* s) {
+bool PickByOrderState::DecodeSlot(ByteReader& r, bool allow_bool, Slot* s) {
   const uint8_t tag = r.U8();
   if (!r.ok()) return false;
   if (tag == 'b' && allow_bool) {
@@ -99,7 +99,7 @@ bool FirstLastState::DecodeSlot(ByteReader& r, bool allow_bool, Slot* s) {
   return r.ok();
 }
 
-void FirstLastState::Encode(ByteWriter& w) const {
+void PickByOrderState::Encode(ByteWriter& w) const {
   w.Varint(skipped_);
   w.U8(has_ ? 1 : 0);
   if (!has_) return;
@@ -107,9 +107,9 @@ void FirstLastState::Encode(ByteWriter& w) const {
   EncodeSlot(value_, w);
 }
 
-Status FirstLastState::Decode(ByteReader& r) {
+Status PickByOrderState::Decode(ByteReader& r) {
   // Built only on failure: a Status holds a heap string, and this runs per state.
-  auto corrupt = [] { return Status::Corrupt("first/last: bad or truncated state"); };
+  auto corrupt = [] { return Status::Corrupt("at_lowest/at_highest: bad or truncated state"); };
   const uint64_t skipped = r.Varint();
   const uint8_t has = r.U8();
   if (!r.ok() || has > 1) return corrupt();
@@ -129,7 +129,7 @@ Status FirstLastState::Decode(ByteReader& r) {
   return Status::Ok();
 }
 
-void FirstLastState::Finalize(std::vector<Cell>* out) const {
+void PickByOrderState::Finalize(std::vector<Cell>* out) const {
   if (!has_) {
     out->push_back(Cell::Null());
     return;

@@ -1,9 +1,9 @@
-// FirstLastState: the state of `first` and `last` — the value at the
+// PickByOrderState: the state of `at_lowest` and `at_highest` — the value at the
 // smallest (first) or largest (last) ordering key, with that key. Keys
 // compare numbers numerically (a string that Value::AsNumber accepts counts
 // as a number, so CSV epoch times order correctly) and other strings
 // bytewise (ISO 8601 times order correctly); every number sorts before
-// every string. On equal keys `first` keeps the earliest input and `last`
+// every string. On equal keys `at_lowest` keeps the earliest input and `at_highest`
 // the latest; in Merge the other state is the later input. Records with no
 // usable key (missing, null, bool, object, NaN) or no scalar value (missing,
 // null, object) are skipped. Single-threaded.
@@ -15,10 +15,10 @@
 
 namespace fanfold {
 
-class FirstLastState final : public MeasureState {
+class PickByOrderState final : public MeasureState {
  public:
-  // is_last: true for kLast, false for kFirst.
-  explicit FirstLastState(bool is_last) : is_last_(is_last) {}
+  // highest: true for kAtHighest, false for kAtLowest.
+  explicit PickByOrderState(bool highest) : highest_(highest) {}
 
   // args: [value, ordering key].
   bool Add(const Value* args) override;
@@ -43,11 +43,11 @@ class FirstLastState final : public MeasureState {
   // <0, 0, >0 as key a sorts before, with, after key b.
   static int CompareKeys(ValueKind a_kind, double a_num, std::string_view a_str, const Slot& b);
   // True iff a record with this key replaces the one held.
-  bool Takes(int cmp) const { return !has_ || (is_last_ ? cmp >= 0 : cmp < 0); }
+  bool Takes(int cmp) const { return !has_ || (highest_ ? cmp >= 0 : cmp < 0); }
   static void EncodeSlot(const Slot& s, ByteWriter& w);
   static bool DecodeSlot(ByteReader& r, bool allow_bool, Slot* s);
 
-  bool is_last_;
+  bool highest_;
   bool has_ = false;
   uint64_t skipped_ = 0;
   Slot key_;

@@ -1,6 +1,6 @@
-// FirstLastState: ordering keys, tie rules within a state and across
+// PickByOrderState: ordering keys, tie rules within a state and across
 // merges, skipped records.
-#include "common/measures/first_last.h"
+#include "common/measures/pick_by_order.h"
 
 #include <doctest/doctest.h>
 
@@ -22,44 +22,44 @@ Cell Final(const MeasureState& s) { return testing::FinalOf(s).at(0); }
 // Intent: first takes the smallest key, last the largest; numbers compare
 // numerically (10 > 9, also as CSV text), strings bytewise, numbers before
 // strings.
-TEST_CASE("first/last: key order") {
+TEST_CASE("at_lowest/at_highest: key order") {
   Rows rows;
   rows.Add(Value::String("b"), Value::Number(10));
   rows.Add(Value::String("a"), Value::String("9"));  // numeric text: the number 9
   rows.Add(Value::String("c"), Value::String("2024-01-02T00:00:00Z"));
   rows.Add(Value::String("d"), Value::String("2024-01-01T00:00:00Z"));
   rows.Add(Value::String("e"), Value::Number(-1.5));
-  CHECK(Final(*testing::Whole(Config(MeasureKind::kFirst), rows)).str == "e");
-  CHECK(Final(*testing::Whole(Config(MeasureKind::kLast), rows)).str == "c");
+  CHECK(Final(*testing::Whole(Config(MeasureKind::kAtLowest), rows)).str == "e");
+  CHECK(Final(*testing::Whole(Config(MeasureKind::kAtHighest), rows)).str == "c");
   // Without strings, last is the numerically largest (10, not "9").
   Rows numbers;
   numbers.Add(Value::String("ten"), Value::Number(10));
   numbers.Add(Value::String("nine"), Value::String("9"));
-  CHECK(Final(*testing::Whole(Config(MeasureKind::kLast), numbers)).str == "ten");
+  CHECK(Final(*testing::Whole(Config(MeasureKind::kAtHighest), numbers)).str == "ten");
 }
 
 // Intent: on equal keys first keeps the earliest record and last the latest,
 // within one state and across any split merged in shard order.
-TEST_CASE("first/last: ties by input order, also across merges") {
+TEST_CASE("at_lowest/at_highest: ties by input order, also across merges") {
   Rows rows;
   for (int i = 0; i < 200; ++i)
     rows.Add(Value::Number(i), Value::Number(i % 3 == 0 ? 0 : 5));  // keys 0 and 5 repeat
-  auto first = testing::Whole(Config(MeasureKind::kFirst), rows);
-  auto last = testing::Whole(Config(MeasureKind::kLast), rows);
+  auto first = testing::Whole(Config(MeasureKind::kAtLowest), rows);
+  auto last = testing::Whole(Config(MeasureKind::kAtHighest), rows);
   CHECK(Final(*first).number == 0);    // the earliest key-0 record
   CHECK(Final(*last).number == 199);   // the latest key-5 record (199 % 3 != 0)
   testing::TestLcg rng(3);
   for (int shards : {2, 7, 50, 300}) {
-    CHECK(testing::EncodeOf(*testing::SplitMerged(Config(MeasureKind::kFirst), rows, shards, rng)) ==
+    CHECK(testing::EncodeOf(*testing::SplitMerged(Config(MeasureKind::kAtLowest), rows, shards, rng)) ==
           testing::EncodeOf(*first));
-    CHECK(testing::EncodeOf(*testing::SplitMerged(Config(MeasureKind::kLast), rows, shards, rng)) ==
+    CHECK(testing::EncodeOf(*testing::SplitMerged(Config(MeasureKind::kAtHighest), rows, shards, rng)) ==
           testing::EncodeOf(*last));
   }
 }
 
 // Intent: a missing/null/bool key, or a missing/null/object value, skips
 // the record (counted); a bool or number value is returned as such.
-TEST_CASE("first/last: skipped records and value kinds") {
+TEST_CASE("at_lowest/at_highest: skipped records and value kinds") {
   Rows rows;
   rows.Add(Value::String("no key"), Value::Missing());
   rows.Add(Value::String("null key"), Value::Null());
@@ -67,13 +67,13 @@ TEST_CASE("first/last: skipped records and value kinds") {
   rows.Add(Value::Missing(), Value::Number(1));
   rows.Add(Value::Null(), Value::Number(1));
   rows.Add(Value::Other(), Value::Number(1));
-  auto s = testing::Whole(Config(MeasureKind::kFirst), rows);
+  auto s = testing::Whole(Config(MeasureKind::kAtLowest), rows);
   CHECK(Final(*s).kind == Cell::Kind::kNull);
   CHECK(s->skipped() == 6);
   rows.Add(Value::Bool(false), Value::Number(3));
   rows.Add(Value::Number(2.5), Value::Number(4));
-  CHECK(Final(*testing::Whole(Config(MeasureKind::kFirst), rows)).kind == Cell::Kind::kBool);
-  Cell last = Final(*testing::Whole(Config(MeasureKind::kLast), rows));
+  CHECK(Final(*testing::Whole(Config(MeasureKind::kAtLowest), rows)).kind == Cell::Kind::kBool);
+  Cell last = Final(*testing::Whole(Config(MeasureKind::kAtHighest), rows));
   CHECK(last.kind == Cell::Kind::kFloat);
   CHECK(last.number == 2.5);
 }
