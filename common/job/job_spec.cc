@@ -229,6 +229,7 @@ Status ParseEmit(Checker& c, const json& e, JobSpec* job) {
     else if (f == "ndjson") emit.format = OutputFormat::kNdjson;
     else if (f == "table") emit.format = OutputFormat::kTable;
     else return c.Error(p + "/format", Found(e["format"]), "\"csv\", \"json\", \"ndjson\" or \"table\"");
+    emit.format_given = true;
   }
   if (e.contains("path")) FF_RETURN_IF_ERROR(c.String(e["path"], p + "/path", &emit.path));
   if (e.contains("order")) {
