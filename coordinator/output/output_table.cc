@@ -73,12 +73,15 @@ bool IsNumeric(const Cell& c) { return c.kind == Cell::Kind::kInt || c.kind == C
 // For people reading a table, a list of {"value", "count"} records (top-k)
 // reads better as "a (12), b (7)" than as JSON; other cells as PlainText.
 std::string DisplayText(const Cell& c, const RenderOptions& o) {
+  if (c.kind == Cell::Kind::kNull) return kTableNull;
   if (c.kind != Cell::Kind::kList) return PlainText(c, o);
   std::string out;
   for (const Cell& item : c.items) {
     if (item.kind != Cell::Kind::kRecord || item.items.size() != 2) return CellText(c);
     if (!out.empty()) out += ", ";
-    out += PlainText(item.items[0], o) + " (" + PlainText(item.items[1], o) + ")";
+    const Cell& value = item.items[0];
+    out += value.kind == Cell::Kind::kNull ? std::string(kTableNull) : PlainText(value, o);
+    out += " (" + PlainText(item.items[1], o) + ")";
   }
   return out;
 }

@@ -14,6 +14,11 @@
 
 namespace fanfold {
 
+// How the aligned table shows a null cell (a key missing or null in the
+// record, or a measure with no value), so it cannot be taken for an empty
+// string, which shows as nothing. CSV has no null: an empty cell there.
+inline constexpr const char* kTableNull = "(null)";
+
 struct OutputTable {
   std::vector<std::string> columns;
   size_t key_columns = 0;  // the first key_columns columns are the group key

@@ -70,6 +70,24 @@ TEST_CASE("the aligned table right-aligns numbers") {
         "bb  123\n");
 }
 
+TEST_CASE("the aligned table tells null from the empty string") {
+  // Intent: a null key or value reads "(null)"; an empty string stays blank; CSV keeps both empty
+  // and JSON keeps null apart from "".
+  OutputTable t;
+  t.columns = {"k", "top"};
+  t.key_columns = 1;
+  t.rows.push_back({Cell::Null(), Cell::List({Cell::Record({"value", "count"}, {Cell::Null(), Cell::Int(2)})})});
+  t.rows.push_back({Cell::String(""), Cell::Null()});
+  CHECK(RenderTable(t, OutputFormat::kTable) ==
+        "k       top\n"
+        "------  ----------\n"
+        "(null)  (null) (2)\n"
+        "        (null)\n");
+  CHECK(RenderTable(t, OutputFormat::kCsv) == "k,top\n,\"[{\"\"value\"\":null,\"\"count\"\":2}]\"\n,\n");
+  CHECK(RenderTable(t, OutputFormat::kNdjson) ==
+        "{\"k\":null,\"top\":[{\"value\":null,\"count\":2}]}\n{\"k\":\"\",\"top\":null}\n");
+}
+
 TEST_CASE("--digits rounds CSV and table floats as Python's format(x, '.Ng') does") {
   // Intent: correct rounding with ties to even on the double's exact value; each
   // expected text is Python 3's format(x, '.%dg' % n) for that x and n.
