@@ -219,7 +219,7 @@ Status ParseMeasure(Checker& c, const json& m, const std::string& p, MeasureSpec
 Status ParseEmit(Checker& c, const json& e, JobSpec* job) {
   const std::string p = "/emit";
   if (!e.is_object()) return c.Error(p, Found(e), "an object");
-  FF_RETURN_IF_ERROR(c.OnlyKeys(e, p, {"format", "path", "order", "limit"}));
+  FF_RETURN_IF_ERROR(c.OnlyKeys(e, p, {"format", "path", "order", "limit", "digits"}));
   EmitSpec& emit = job->emit;
   if (e.contains("format")) {
     std::string f;
@@ -254,6 +254,11 @@ Status ParseEmit(Checker& c, const json& e, JobSpec* job) {
     uint64_t n = 0;
     FF_RETURN_IF_ERROR(c.Integer(e["limit"], p + "/limit", 0, UINT64_MAX >> 1, &n));
     emit.limit = n;
+  }
+  if (e.contains("digits")) {
+    uint64_t n = 0;
+    FF_RETURN_IF_ERROR(c.Integer(e["digits"], p + "/digits", 1, 17, &n));
+    emit.digits = static_cast<int>(n);
   }
   return Status::Ok();
 }

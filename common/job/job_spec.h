@@ -44,6 +44,7 @@ struct EmitSpec {
   std::string path;    // "" = stdout; relative paths are relative to the job file
   std::vector<OrderSpec> order;
   std::optional<uint64_t> limit;
+  int digits = 0;  // > 0: CSV/table floats shown with this many significant digits (--digits overrides)
 };
 
 struct JobSpec {

@@ -286,10 +286,9 @@ Status RunEngine::Render(const OutputTable& table) {
   const std::string text = RenderTable(table, plan_.spec.emit.format);
   output_path_ = OutputPath(options_, plan_);
   Status w = dir_.WriteFile(ResultName(plan_.spec.emit.format), text);
+  const int digits = options_.digits > 0 ? options_.digits : plan_.spec.emit.digits;
   if (w.ok())
-    w = WriteOutput(output_path_, options_.digits > 0
-                                      ? RenderTable(table, plan_.spec.emit.format, {.digits = options_.digits})
-                                      : text);
+    w = WriteOutput(output_path_, digits > 0 ? RenderTable(table, plan_.spec.emit.format, {.digits = digits}) : text);
   return w;
 }
 
