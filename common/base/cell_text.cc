@@ -43,7 +43,11 @@ void AppendCellJson(const Cell& c, std::string* out) {
     case Cell::Kind::kBool: *out += c.boolean ? "true" : "false"; break;
     case Cell::Kind::kInt: *out += std::to_string(c.integer); break;
     case Cell::Kind::kFloat:
-      *out += std::isfinite(c.number) ? NumberText(c.number) : "null";
+      // JSON has no literal for them: a non-finite number is the string
+      // CSV and the table print ("inf", "-inf", "nan"), so every format
+      // shows the same text and a reader can tell it from null.
+      if (std::isfinite(c.number)) *out += NumberText(c.number);
+      else AppendJsonString(NumberText(c.number), out);
       break;
     case Cell::Kind::kString: AppendJsonString(c.str, out); break;
     case Cell::Kind::kList:

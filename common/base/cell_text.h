@@ -12,7 +12,8 @@ namespace fanfold {
 // Appends s as a JSON string literal (RFC 8259 escaping) to *out.
 void AppendJsonString(const std::string& s, std::string* out);
 
-// The cell as JSON text (non-finite numbers become null).
+// The cell as JSON text. Non-finite numbers become the JSON strings "inf",
+// "-inf" and "nan": the text CSV and the table show for them.
 std::string CellJson(const Cell& c);
 void AppendCellJson(const Cell& c, std::string* out);
 

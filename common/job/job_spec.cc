@@ -216,7 +216,7 @@ Status ParseMeasure(Checker& c, const json& m, const std::string& p, MeasureSpec
 Status ParseEmit(Checker& c, const json& e, JobSpec* job) {
   const std::string p = "/emit";
   if (!e.is_object()) return c.Error(p, Found(e), "an object");
-  FF_RETURN_IF_ERROR(c.OnlyKeys(e, p, {"format", "path", "order", "limit"}));
+  FF_RETURN_IF_ERROR(c.OnlyKeys(e, p, {"format", "path", "order", "limit", "digits"}));
   EmitSpec& emit = job->emit;
   if (e.contains("format")) {
     std::string f;
@@ -226,6 +226,7 @@ Status ParseEmit(Checker& c, const json& e, JobSpec* job) {
     else if (f == "ndjson") emit.format = OutputFormat::kNdjson;
     else if (f == "table") emit.format = OutputFormat::kTable;
     else return c.Error(p + "/format", Found(e["format"]), "\"csv\", \"json\", \"ndjson\" or \"table\"");
+    emit.format_given = true;
   }
   if (e.contains("path")) FF_RETURN_IF_ERROR(c.String(e["path"], p + "/path", &emit.path));
   if (e.contains("order")) {
@@ -250,6 +251,11 @@ Status ParseEmit(Checker& c, const json& e, JobSpec* job) {
     uint64_t n = 0;
     FF_RETURN_IF_ERROR(c.Integer(e["limit"], p + "/limit", 0, UINT64_MAX >> 1, &n));
     emit.limit = n;
+  }
+  if (e.contains("digits")) {
+    uint64_t n = 0;
+    FF_RETURN_IF_ERROR(c.Integer(e["digits"], p + "/digits", 1, 17, &n));
+    emit.digits = static_cast<int>(n);
   }
   return Status::Ok();
 }

@@ -40,9 +40,11 @@ struct OrderSpec {
 
 struct EmitSpec {
   OutputFormat format = OutputFormat::kTable;
+  bool format_given = false;  // the job file sets "format" (a -o extension may not contradict it)
   std::string path;    // "" = stdout; relative paths are relative to the job file
   std::vector<OrderSpec> order;
   std::optional<uint64_t> limit;
+  int digits = 0;  // > 0: CSV/table floats shown with this many significant digits (--digits overrides)
 };
 
 struct JobSpec {

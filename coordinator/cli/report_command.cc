@@ -48,6 +48,27 @@ std::string TimingsJson(const RunRecord& r) {
   return out.dump(1) + "\n";
 }
 
+namespace {
+
+// Figures of another job, or of another plan of this one, would sit beside
+// this run's timeline as if they were its own: refuse them. A scale file
+// written before the plan fingerprint was kept is checked by its job alone.
+Status CheckScaleIsOfRun(const ScaleResult& scale, const RunRecord& rec, const ReportOptions& o) {
+  const RunManifest& m = rec.manifest;
+  if (scale.job != m.job_path)
+    return Status::InvalidArgument("--scale " + o.scale_json_path + ": its figures are of the job " + scale.job +
+                                   ", but the run " + o.run_dir + " is of the job " + m.job_path +
+                                   "; to time this run's job: fanfold scale " + m.job_path + " --json FILE");
+  if (!scale.fingerprint.empty() && scale.fingerprint != m.fingerprint)
+    return Status::InvalidArgument("--scale " + o.scale_json_path + ": its figures are of another plan of " + m.job_path +
+                                   " (plan " + scale.fingerprint + "; the run " + o.run_dir + " has plan " +
+                                   m.fingerprint + "): the job file changed in between; time it again: fanfold scale " +
+                                   m.job_path + " --json FILE");
+  return Status::Ok();
+}
+
+}  // namespace
+
 CommandOutcome ReportRun(const ReportOptions& o) {
   CommandOutcome out;
   Result<RunRecord> rec = ReadRunRecord(o.run_dir);
@@ -66,6 +87,10 @@ CommandOutcome ReportRun(const ReportOptions& o) {
     Result<ScaleResult> r = DecodeScaleJson(text, o.scale_json_path);
     if (!r.ok()) {
       out.status = r.status();
+      return out;
+    }
+    if (Status c = CheckScaleIsOfRun(*r, *rec, o); !c.ok()) {
+      out.status = c;
       return out;
     }
     scale = std::make_unique<ScaleResult>(std::move(*r));

@@ -8,6 +8,7 @@
 #include "common/job/job_loader.h"
 #include "common/partial/partial_codec.h"
 #include "common/port/file_identity.h"
+#include "coordinator/output/output_extension.h"
 #include "coordinator/rundir/run_directory.h"
 #include "coordinator/run/run_engine.h"
 
@@ -48,6 +49,12 @@ CommandOutcome RunJob(const RunOptions& o) {
     out.status = job.status();
     return out;
   }
+  Result<OutputFormat> format = ChooseOutputFormat(o.output_path, job->plan->spec.emit);
+  if (!format.ok()) {
+    out.status = format.status();
+    return out;
+  }
+  job->plan->spec.emit.format = *format;
   const std::string run_dir = o.run_dir.empty() ? DefaultRunDir(o.job_path) : o.run_dir;
   const std::string run_dir_abs = fs::absolute(run_dir).lexically_normal().string();
   RunDirectory::State state = RunDirectory::Probe(run_dir);
@@ -96,6 +103,12 @@ CommandOutcome ResumeRun(const RunOptions& o) {
                                          " --run-dir " + o.run_dir + " --fresh");
     return out;
   }
+  Result<OutputFormat> format = ChooseOutputFormat(o.output_path, (*plan)->spec.emit);
+  if (!format.ok()) {
+    out.status = format.status();
+    return out;
+  }
+  (*plan)->spec.emit.format = *format;
   RunInput in;
   in.plan = plan->get();
   in.shards = &manifest.shards;

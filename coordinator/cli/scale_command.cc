@@ -127,6 +127,7 @@ CommandOutcome ScaleJob(const ScaleOptions& o) {
     out.status = s;
     return out;
   }
+  result.fingerprint = warm.record.manifest.fingerprint;
   const SummaryRecord& ws = warm.record.summary;
   result.shards = ws.shards_total;
   result.bytes_compressed = ws.bytes_compressed;

@@ -21,6 +21,10 @@ constexpr WholeFlag kAttemptsFlag{.name = "--attempts", .min = 1, .max = 100};
 constexpr SecondsFlag kShardTimeLimitFlag{.name = "--shard-time-limit", .min = 0, .max = 1e6, .above_min = true};
 constexpr WholeFlag kScaleWorkersFlag{.name = "--workers", .min = 1, .max = 1024};
 constexpr WholeFlag kRepeatFlag{.name = "--repeat", .min = 1, .max = 100};
+// 17 significant digits identify every double (IEEE 754-2008, 5.12.2).
+constexpr WholeFlag kDigitsFlag{.name = "--digits", .min = 1, .max = 17};
+constexpr const char* kDigitsHelp =
+    "round CSV and table numbers to this many significant digits (1 to 17; default: every digit)";
 
 // Parses text into *out unless it is empty (the flag was not given, or given
 // as ""; both keep the default, as they always have).
@@ -45,6 +49,7 @@ class RunSubcommand final : public Subcommand {
     cmd->add_flag("--fresh", options_.fresh, "discard an earlier run in the run directory and start over");
     cmd->add_option("--attempts", attempts_, "tries per shard when its worker dies (default 3)");
     cmd->add_option("--shard-time-limit", time_limit_, "kill and retry a shard's worker after this many seconds");
+    cmd->add_option("--digits", digits_, kDigitsHelp);
     cmd->add_flag("--in-process", options_.in_process, "debugging: process shards inside the coordinator");
     cmd->add_flag("-q,--quiet", options_.quiet, "print nothing on stderr but errors");
     AddStderrFlags(cmd, &stderr_, /*with_progress=*/true);
@@ -53,6 +58,7 @@ class RunSubcommand final : public Subcommand {
     FF_RETURN_IF_ERROR(ApplyStderrFlags(stderr_, options_.quiet, &options_));
     FF_RETURN_IF_ERROR(ParseWholeIfGiven(kWorkersFlag, workers_, &options_.workers));
     FF_RETURN_IF_ERROR(ParseWholeIfGiven(kAttemptsFlag, attempts_, &options_.max_attempts));
+    FF_RETURN_IF_ERROR(ParseWholeIfGiven(kDigitsFlag, digits_, &options_.digits));
     if (!time_limit_.empty()) {
       Result<double> secs = ParseSecondsFlag(kShardTimeLimitFlag, time_limit_);
       if (!secs.ok()) return secs.status();
@@ -67,6 +73,7 @@ class RunSubcommand final : public Subcommand {
   std::string workers_;     // -j/--workers as typed ("" = one per core)
   std::string attempts_;    // --attempts as typed ("" = 3)
   std::string time_limit_;  // --shard-time-limit as typed ("" = none)
+  std::string digits_;      // --digits as typed ("" = every digit)
   StderrFlags stderr_;      // --progress, --progress-every, --log-level
 };
 
@@ -77,11 +84,13 @@ class ResumeSubcommand final : public Subcommand {
     cmd->add_option("RUN_DIR", options_.run_dir, "the run directory that `fanfold run` printed")->required();
     cmd->add_option("-j,--workers", workers_, "worker processes (default: one per core)");
     cmd->add_option("-o,--output", options_.output_path, "write the result here instead of the job's emit.path");
+    cmd->add_option("--digits", digits_, kDigitsHelp);
     cmd->add_flag("-q,--quiet", options_.quiet, "print nothing on stderr but errors");
     AddStderrFlags(cmd, &stderr_, /*with_progress=*/true);
   }
   Status CheckFlags() override {
     FF_RETURN_IF_ERROR(ApplyStderrFlags(stderr_, options_.quiet, &options_));
+    FF_RETURN_IF_ERROR(ParseWholeIfGiven(kDigitsFlag, digits_, &options_.digits));
     return ParseWholeIfGiven(kWorkersFlag, workers_, &options_.workers);
   }
   CommandOutcome Run() override { return ResumeRun(options_); }
@@ -89,6 +98,7 @@ class ResumeSubcommand final : public Subcommand {
  private:
   RunOptions options_;  // what ResumeRun gets (job_path unused: the run names its job)
   std::string workers_;  // -j/--workers as typed ("" = one per core)
+  std::string digits_;   // --digits as typed ("" = every digit)
   StderrFlags stderr_;   // --progress, --progress-every, --log-level
 };
 

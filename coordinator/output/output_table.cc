@@ -1,6 +1,8 @@
 #include "coordinator/output/output_table.h"
 
 #include <algorithm>
+#include <cmath>
+#include <cstdio>
 
 #include "common/base/cell_text.h"
 #include "common/partial/group_key.h"
@@ -21,7 +23,17 @@ void AppendCsvField(const std::string& s, std::string* out) {
   out->push_back('"');
 }
 
-std::string RenderCsv(const OutputTable& t) {
+// A scalar cell's CSV/table text: a finite float rounded to o.digits
+// significant digits when asked, anything else as CellText.
+std::string PlainText(const Cell& c, const RenderOptions& o) {
+  if (o.digits <= 0 || c.kind != Cell::Kind::kFloat || !std::isfinite(c.number)) return CellText(c);
+  if (c.number == 0) return "0";  // -0 too, as CellText prints it
+  char buf[64];
+  std::snprintf(buf, sizeof buf, "%.*g", o.digits, c.number);
+  return buf;
+}
+
+std::string RenderCsv(const OutputTable& t, const RenderOptions& o) {
   std::string out;
   for (size_t c = 0; c < t.columns.size(); ++c) {
     if (c) out.push_back(',');
@@ -31,7 +43,7 @@ std::string RenderCsv(const OutputTable& t) {
   for (const auto& row : t.rows) {
     for (size_t c = 0; c < row.size(); ++c) {
       if (c) out.push_back(',');
-      AppendCsvField(CellText(row[c]), &out);
+      AppendCsvField(PlainText(row[c], o), &out);
     }
     out.push_back('\n');
   }
@@ -59,25 +71,28 @@ size_t Width(const std::string& s) {
 bool IsNumeric(const Cell& c) { return c.kind == Cell::Kind::kInt || c.kind == Cell::Kind::kFloat; }
 
 // For people reading a table, a list of {"value", "count"} records (top-k)
-// reads better as "a (12), b (7)" than as JSON; other cells as CellText.
-std::string DisplayText(const Cell& c) {
-  if (c.kind != Cell::Kind::kList) return CellText(c);
+// reads better as "a (12), b (7)" than as JSON; other cells as PlainText.
+std::string DisplayText(const Cell& c, const RenderOptions& o) {
+  if (c.kind == Cell::Kind::kNull) return kTableNull;
+  if (c.kind != Cell::Kind::kList) return PlainText(c, o);
   std::string out;
   for (const Cell& item : c.items) {
     if (item.kind != Cell::Kind::kRecord || item.items.size() != 2) return CellText(c);
     if (!out.empty()) out += ", ";
-    out += CellText(item.items[0]) + " (" + CellText(item.items[1]) + ")";
+    const Cell& value = item.items[0];
+    out += value.kind == Cell::Kind::kNull ? std::string(kTableNull) : PlainText(value, o);
+    out += " (" + PlainText(item.items[1], o) + ")";
   }
   return out;
 }
 
-std::string RenderAligned(const OutputTable& t) {
+std::string RenderAligned(const OutputTable& t, const RenderOptions& o) {
   std::vector<std::vector<std::string>> text(t.rows.size());
   std::vector<size_t> width(t.columns.size());
   for (size_t c = 0; c < t.columns.size(); ++c) width[c] = Width(t.columns[c]);
   for (size_t r = 0; r < t.rows.size(); ++r) {
     for (size_t c = 0; c < t.rows[r].size(); ++c) {
-      std::string s = DisplayText(t.rows[r][c]);
+      std::string s = DisplayText(t.rows[r][c], o);
       for (char& ch : s)
         if (ch == '\n' || ch == '\t' || ch == '\r') ch = ' ';
       width[c] = std::max(width[c], Width(s));
@@ -134,10 +149,10 @@ void SortRows(OutputTable* t, const std::vector<OrderSpec>& order) {
   });
 }
 
-std::string RenderTable(const OutputTable& t, OutputFormat format) {
+std::string RenderTable(const OutputTable& t, OutputFormat format, const RenderOptions& o) {
   switch (format) {
-    case OutputFormat::kCsv: return RenderCsv(t);
-    case OutputFormat::kTable: return RenderAligned(t);
+    case OutputFormat::kCsv: return RenderCsv(t, o);
+    case OutputFormat::kTable: return RenderAligned(t, o);
     case OutputFormat::kNdjson: {
       std::string out;
       for (const auto& row : t.rows) {

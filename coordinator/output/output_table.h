@@ -14,6 +14,11 @@
 
 namespace fanfold {
 
+// How the aligned table shows a null cell (a key missing or null in the
+// record, or a measure with no value), so it cannot be taken for an empty
+// string, which shows as nothing. CSV has no null: an empty cell there.
+inline constexpr const char* kTableNull = "(null)";
+
 struct OutputTable {
   std::vector<std::string> columns;
   size_t key_columns = 0;  // the first key_columns columns are the group key
@@ -24,7 +29,16 @@ struct OutputTable {
 // ascending. Stable and total, so equal inputs give equal outputs.
 void SortRows(OutputTable* table, const std::vector<OrderSpec>& order);
 
+// How numbers are shown. digits > 0 rounds every finite float cell of CSV
+// and the table to that many significant digits, as C's "%.*g" (and
+// Python's format(x, '.Ng')) does: correctly rounded from the double's exact
+// binary value, a tie going to the even digit. Integers, JSON and NDJSON
+// keep every digit. 0 = shortest round-trip text (no rounding).
+struct RenderOptions {
+  int digits = 0;
+};
+
 // Renders the table in `format` (always ends with a newline unless empty).
-std::string RenderTable(const OutputTable& table, OutputFormat format);
+std::string RenderTable(const OutputTable& table, OutputFormat format, const RenderOptions& options = {});
 
 }  // namespace fanfold

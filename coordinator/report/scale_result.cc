@@ -105,6 +105,7 @@ std::string EncodeScaleJson(const ScaleResult& r) {
   }
   json doc = {{"fanfold_scale", kScaleFormatVersion},
               {"job", r.job},
+              {"plan", r.fingerprint},
               {"created", r.created},
               {"cores", r.cores},
               {"repeat", r.repeat},
@@ -130,6 +131,7 @@ Result<ScaleResult> DecodeScaleJson(const std::string& text, const std::string& 
     const int version = doc.at("fanfold_scale").get<int>();
     if (version != kScaleFormatVersion) return bad("version " + std::to_string(version));
     r.job = doc.value("job", "");
+    r.fingerprint = doc.value("plan", "");
     r.created = doc.value("created", "");
     r.cores = doc.value("cores", 0u);
     r.repeat = doc.value("repeat", 1);

@@ -33,6 +33,7 @@ struct ScalePoint {
 
 struct ScaleResult {
   std::string job;      // absolute path of the job file
+  std::string fingerprint;  // JSON "plan": 16 hex digits; "" in files written before it was kept
   std::string created;  // ISO 8601 UTC
   unsigned cores = 0;   // std::thread::hardware_concurrency()
   int repeat = 1;

@@ -276,10 +276,13 @@ Result<OutputTable> RunEngine::Finish() {
 }
 
 Status RunEngine::Render(const OutputTable& table) {
+  // The run directory keeps every digit; only what the user reads is rounded.
   const std::string text = RenderTable(table, plan_.spec.emit.format);
   output_path_ = OutputPath(options_, plan_);
   Status w = dir_.WriteFile(ResultName(plan_.spec.emit.format), text);
-  if (w.ok()) w = WriteOutput(output_path_, text);
+  const int digits = options_.digits > 0 ? options_.digits : plan_.spec.emit.digits;
+  if (w.ok())
+    w = WriteOutput(output_path_, digits > 0 ? RenderTable(table, plan_.spec.emit.format, {.digits = digits}) : text);
   return w;
 }
 
@@ -296,6 +299,11 @@ Status RunEngine::Summarise(const Status& written) {
 
 void RunEngine::PrintNotes() const {
   for (const auto& line : FormatRunSummary(summary_, list_)) Note(line);
+  // -q hides the summary, but the exit status 1 says shards failed: the
+  // user still sees which ones and why (unless --log-level off).
+  if (options_.quiet && CurrentLogLevel() <= LogLevel::kError)
+    for (const auto& f : loop_.failures)
+      WriteConsoleLine("fanfold: shard " + std::to_string(f.shard) + " '" + f.path + "' failed: " + f.message);
   for (size_t m = 0; m < plan_.measures.size(); ++m) {
     if (merger_.skipped()[m] > 0)
       Note("measure \"" + plan_.measures[m].name + "\" skipped " + GroupedInteger(merger_.skipped()[m]) +

@@ -30,6 +30,7 @@ struct RunOptions {
   bool quiet = false;         // only errors on stderr
   ProgressMode progress = ProgressMode::kAuto;  // progress on stderr (quiet: none)
   double progress_every_s = 5;  // plain progress: seconds between lines
+  int digits = 0;             // > 0: CSV/table floats rounded to this many significant digits
 };
 
 }  // namespace fanfold

@@ -172,6 +172,13 @@ def main():
         # Intent: the shard within the limit still counts (20 records), the failed one not at all.
         if checks.check(os.path.exists(out), "bad_record_limit: no result written"):
             checks.check(global_count(out) == 20, "bad_record_limit: count %r, want 20" % global_count(out))
+        rc, _, err = env.fanfold_run("run", job, "-j", args.workers, "-q", "--fresh", "-o", out)
+        # Intent: -q still says which shard failed and why (the exit status 1 alone does not),
+        # and only that: no summary, no notes.
+        lines = err.splitlines()
+        checks.check(rc == 1 and len(lines) == 1 and lines[0].startswith("fanfold: shard ")
+                     and "toobad.ndjson' failed: " in lines[0],
+                     "-q: exit %d, want 1 and one line naming the failed shard: %s" % (rc, lib.tail(err)))
 
         job = lib.write_job(env.path("limit25.json"),
                             count_job([os.path.join(d, "edge.ndjson")], {"bad_record_limit": 0.25}))

@@ -101,6 +101,40 @@ def main():
         checks.check(page.count('class="point" data-workers=') == 2 and "<script src" not in page
                      and "<link" not in page, "scale HTML lacks its chart or loads something")
 
+        # Intent: the scale file names the job and the plan it timed (the plan's 16-hex-digit fingerprint).
+        checks.check(s["job"] == os.path.abspath(job_path) and re.fullmatch(r"[0-9a-f]{16}", s.get("plan", "")),
+                     "scale JSON job %r plan %r" % (s["job"], s.get("plan")))
+        run_dir = env.path("run")
+        rc, _, err = env.fanfold_run("run", job_path, "-q", "-o", env.path("run.out"), "--run-dir", run_dir)
+        checks.check(rc == 0, "run for report --scale: exit %d: %s" % (rc, lib.tail(err)))
+        rc, _, err = env.fanfold_run("report", run_dir, "-q", "--scale", js, "-o", env.path("same.html"))
+        # Intent: figures of the run's own job and plan are taken.
+        checks.check(rc == 0, "report --scale of the same job: exit %d: %s" % (rc, lib.tail(err)))
+        with open(os.path.join(run_dir, "run.json")) as f:
+            run_fingerprint = json.load(f).get("plan")
+        for label, change, needles in [
+                ("another job", {"job": "/elsewhere/other.json"},
+                 ["its figures are of the job /elsewhere/other.json", os.path.abspath(job_path)]),
+                ("another plan", {"plan": "0123456789abcdef"},
+                 ["its figures are of another plan of", "plan 0123456789abcdef", "has plan %s" % run_fingerprint]),
+                ("an older file of another job", {"job": "/elsewhere/other.json", "plan": None}, ["/elsewhere/other.json"]),
+                ("an older file of this job", {"plan": None}, None)]:
+            forged = dict(s, **{k: v for k, v in change.items() if v is not None})
+            for k, v in change.items():
+                if v is None:
+                    forged.pop(k)
+            fj = env.path("forged.json")
+            with open(fj, "w") as f:
+                json.dump(forged, f)
+            rc, out, err = env.fanfold_run("report", run_dir, "-q", "--scale", fj, "-o", env.path("forged.html"))
+            if needles is None:
+                # Intent: a scale file from before the fingerprint was kept is read when its job is the run's.
+                checks.check(rc == 0, "report --scale, %s: exit %d: %s" % (label, rc, lib.tail(err)))
+                continue
+            # Intent: figures of another job or plan are refused (exit 2), the message naming both sides.
+            checks.check(rc == 2 and all(n in err for n in needles + [fj, run_dir]),
+                         "report --scale, %s: exit %d, stderr %s" % (label, rc, lib.tail(err)))
+
         # Intent: more workers than cores (std::thread::hardware_concurrency) is warned about.
         cores = os.cpu_count() or 1
         small = os.path.join(env.tmp, "small")

@@ -3,6 +3,8 @@
 
 #include "coordinator/output/output_table.h"
 
+#include <cmath>
+
 using namespace fanfold;
 
 namespace {
@@ -66,4 +68,76 @@ TEST_CASE("the aligned table right-aligns numbers") {
         "--  ---\n"
         "a     5\n"
         "bb  123\n");
+}
+
+TEST_CASE("the aligned table tells null from the empty string") {
+  // Intent: a null key or value reads "(null)"; an empty string stays blank; CSV keeps both empty
+  // and JSON keeps null apart from "".
+  OutputTable t;
+  t.columns = {"k", "top"};
+  t.key_columns = 1;
+  t.rows.push_back({Cell::Null(), Cell::List({Cell::Record({"value", "count"}, {Cell::Null(), Cell::Int(2)})})});
+  t.rows.push_back({Cell::String(""), Cell::Null()});
+  CHECK(RenderTable(t, OutputFormat::kTable) ==
+        "k       top\n"
+        "------  ----------\n"
+        "(null)  (null) (2)\n"
+        "        (null)\n");
+  CHECK(RenderTable(t, OutputFormat::kCsv) == "k,top\n,\"[{\"\"value\"\":null,\"\"count\"\":2}]\"\n,\n");
+  CHECK(RenderTable(t, OutputFormat::kNdjson) ==
+        "{\"k\":null,\"top\":[{\"value\":null,\"count\":2}]}\n{\"k\":\"\",\"top\":null}\n");
+}
+
+TEST_CASE("--digits rounds CSV and table floats as Python's format(x, '.Ng') does") {
+  // Intent: correct rounding with ties to even on the double's exact value; each
+  // expected text is Python 3's format(x, '.%dg' % n) for that x and n.
+  struct Case {
+    double x;
+    int n;
+    const char* python;
+  };
+  const Case cases[] = {
+      {0.125, 2, "0.12"},          {0.375, 2, "0.38"},  {2.675, 3, "2.67"},    {1234567.0, 3, "1.23e+06"},
+      {0.1 + 0.2, 3, "0.3"},       {1e21, 2, "1e+21"},  {-1.2345e-05, 2, "-1.2e-05"}, {2.5, 1, "2"},
+      {3.5, 1, "4"},               {1.0 / 3, 5, "0.33333"}, {99.95, 3, "100"}, {123456.0, 6, "123456"},
+  };
+  for (const Case& c : cases) {
+    OutputTable t;
+    t.columns = {"x"};
+    t.rows.push_back({Cell::Float(c.x)});
+    CAPTURE(c.x);
+    CAPTURE(c.n);
+    CHECK(RenderTable(t, OutputFormat::kCsv, {.digits = c.n}) == std::string("x\n") + c.python + "\n");
+  }
+}
+
+TEST_CASE("--digits leaves integers, JSON, NDJSON and non-finite numbers whole") {
+  // Intent: rounding is for reading; counts stay exact and JSON keeps every digit.
+  OutputTable t;
+  t.columns = {"n", "x"};
+  t.rows.push_back({Cell::Int(123456789), Cell::Float(0.1 + 0.2)});
+  t.rows.push_back({Cell::Int(-5), Cell::Float(-0.0)});
+  CHECK(RenderTable(t, OutputFormat::kCsv, {.digits = 2}) == "n,x\n123456789,0.3\n-5,0\n");
+  CHECK(RenderTable(t, OutputFormat::kNdjson, {.digits = 2}) ==
+        "{\"n\":123456789,\"x\":0.30000000000000004}\n{\"n\":-5,\"x\":0}\n");
+  CHECK(RenderTable(t, OutputFormat::kTable, {.digits = 2}) ==
+        "n          x\n"
+        "---------  ---\n"
+        "123456789  0.3\n"
+        "       -5    0\n");
+}
+
+TEST_CASE("an infinite or NaN result reads the same in every format") {
+  // Intent: "inf", "-inf", "nan" everywhere (JSON as strings, since RFC 8259 has
+  // no literal for them); Python's float() reads each text back to the same value.
+  OutputTable t;
+  t.columns = {"x"};
+  t.rows.push_back({Cell::Float(HUGE_VAL)});
+  t.rows.push_back({Cell::Float(-HUGE_VAL)});
+  t.rows.push_back({Cell::Float(std::nan(""))});
+  CHECK(RenderTable(t, OutputFormat::kCsv) == "x\ninf\n-inf\nnan\n");
+  CHECK(RenderTable(t, OutputFormat::kCsv, {.digits = 3}) == "x\ninf\n-inf\nnan\n");
+  CHECK(RenderTable(t, OutputFormat::kTable) == "x\n----\n inf\n-inf\n nan\n");
+  CHECK(RenderTable(t, OutputFormat::kNdjson) == "{\"x\":\"inf\"}\n{\"x\":\"-inf\"}\n{\"x\":\"nan\"}\n");
+  CHECK(RenderTable(t, OutputFormat::kJson) == "[\n {\"x\":\"inf\"},\n {\"x\":\"-inf\"},\n {\"x\":\"nan\"}\n]\n");
 }
