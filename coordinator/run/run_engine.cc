@@ -25,6 +25,7 @@
 #include "coordinator/run/run_summary.h"
 #include "coordinator/run/shard_scheduler.h"
 #include "coordinator/run/transport_factory.h"
+#include "coordinator/rundir/run_journal.h"
 
 namespace fanfold {
 namespace {
@@ -35,57 +36,6 @@ uint64_t WallNs() {
   return static_cast<uint64_t>(std::chrono::duration_cast<std::chrono::nanoseconds>(
                                    std::chrono::system_clock::now().time_since_epoch())
                                    .count());
-}
-
-const char* OutcomeName(AttemptRecord::Outcome o) {
-  switch (o) {
-    case AttemptRecord::Outcome::kDone: return "done";
-    case AttemptRecord::Outcome::kFailed: return "failed";
-    case AttemptRecord::Outcome::kDied: return "died";
-    case AttemptRecord::Outcome::kTimedOut: return "timed-out";
-    case AttemptRecord::Outcome::kRejected: return "rejected";
-  }
-  return "?";
-}
-
-// One journal line per attempt, written by hand rather than through a json
-// object: on thousands of tiny shards building that object cost more than
-// the rest of the journal (docs/run-directory.md lists the keys).
-std::string AttemptLine(const AttemptRecord& r) {
-  std::string line;
-  line.reserve(320);
-  auto number = [&line](const char* key, uint64_t v) {
-    line += ",\"";
-    line += key;
-    line += "\":";
-    line += std::to_string(v);
-  };
-  line += "{\"event\":\"attempt\"";
-  number("shard", r.shard);
-  number("attempt", r.attempt);
-  line += ",\"worker\":" + std::to_string(r.worker);
-  number("start_ns", r.start_ns);
-  number("end_ns", r.end_ns);
-  line += ",\"outcome\":";
-  AppendJsonString(OutcomeName(r.outcome), &line);
-  line += r.final ? ",\"final\":true" : ",\"final\":false";
-  if (r.outcome == AttemptRecord::Outcome::kDone) {
-    const PartialHeader& h = r.header;
-    number("records", h.records);
-    number("kept", h.kept);
-    number("malformed", h.malformed);
-    number("bytes_in", h.compressed_bytes);
-    number("bytes_raw", h.raw_bytes);
-    number("read_ns", h.read_ns);
-    number("parse_ns", h.parse_ns);
-    number("aggregate_ns", h.aggregate_ns);
-    number("encode_ns", h.encode_ns);
-  } else {
-    line += ",\"message\":";
-    AppendJsonString(r.message, &line);
-  }
-  line += '}';
-  return line;
 }
 
 std::string ResultName(OutputFormat f) {
@@ -189,9 +139,7 @@ CommandOutcome ExecuteRun(const RunInput& in, const RunOptions& o) {
 
   int workers = o.workers > 0 ? o.workers : static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
   workers = std::max(1, std::min<int>(workers, static_cast<int>(in.pending.size())));
-  dir.StageJournal(json{{"event", "start"}, {"mode", in.mode}, {"pid", ::getpid()}, {"workers", workers},
-                        {"pending", in.pending.size()}, {"reused", in.reused.size()}, {"time_ns", WallNs()}}
-                       .dump());
+  dir.StageJournal(StartEventLine(in.mode, ::getpid(), workers, in.pending.size(), in.reused.size(), WallNs()));
   RunLoopResult loop;
   if (!in.pending.empty()) {
     Result<std::unique_ptr<Transport>> transport =
@@ -215,7 +163,7 @@ CommandOutcome ExecuteRun(const RunInput& in, const RunOptions& o) {
     lo.shard_time_limit_ms = o.shard_time_limit_ms;
     lo.should_stop = [] { return SignalGuard::interrupted(); };
     lo.on_attempt = [&](const AttemptRecord& r) {
-      dir.StageJournal(AttemptLine(r));
+      dir.StageJournal(AttemptEventLine(r));
       meter.OnAttempt(r);
     };
     lo.on_partial = [&](uint32_t shard, const std::string& bytes) { return dir.StagePartial(shard, bytes); };
@@ -247,7 +195,7 @@ CommandOutcome ExecuteRun(const RunInput& in, const RunOptions& o) {
   summary.interrupted = loop.interrupted;
   summary.wall_seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
   if (loop.interrupted) {
-    dir.StageJournal(json{{"event", "interrupted"}, {"time_ns", WallNs()}}.dump());
+    dir.StageJournal(InterruptedEventLine(WallNs()));
     (void)dir.Commit();
     for (const auto& line : FormatRunSummary(summary, list)) note(line);
     note("interrupted; finished shards are saved. To finish the run: fanfold resume " + dir.path());
@@ -269,7 +217,7 @@ CommandOutcome ExecuteRun(const RunInput& in, const RunOptions& o) {
   summary.wall_seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
   if (w.ok())
     w = dir.WriteFile("summary.json", SummaryJson(in, summary, merger, path, workers, loop.retries).dump(1) + "\n");
-  dir.StageJournal(json{{"event", "finish"}, {"time_ns", WallNs()}, {"failed", loop.failures.size()}}.dump());
+  dir.StageJournal(FinishEventLine(WallNs(), loop.failures.size()));
   if (w.ok()) w = dir.Commit();
   if (!w.ok()) {
     out.status = w;
