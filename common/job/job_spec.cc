@@ -10,6 +10,7 @@
 
 #include <nlohmann/json.hpp>
 
+#include "common/base/json_document.h"
 #include "common/base/json_location.h"
 #include "common/measures/measure_options.h"
 #include "common/measures/measure_registry.h"
@@ -260,42 +261,11 @@ Status ParseEmit(Checker& c, const json& e, JobSpec* job) {
   return Status::Ok();
 }
 
-// "line L, column C" for a byte offset into text (1-based).
-std::string LineColumn(std::string_view text, size_t byte) {
-  size_t line = 1, col = 1;
-  for (size_t i = 0; i < byte && i < text.size(); ++i) {
-    if (text[i] == '\n') {
-      ++line;
-      col = 1;
-    } else {
-      ++col;
-    }
-  }
-  return "line " + std::to_string(line) + ", column " + std::to_string(col);
-}
-
 }  // namespace
 
 Result<JobSpec> ParseJobSpec(std::string_view text, const std::string& job_path) {
   json doc = json::parse(text, nullptr, /*allow_exceptions=*/false, /*ignore_comments=*/false);
-  if (doc.is_discarded()) {
-    // Re-parse with exceptions only to learn where it broke.
-    try {
-      const json thrown_away = json::parse(text);  // GCC warns on a (void) cast of [[nodiscard]]
-      (void)thrown_away;
-    } catch (const json::parse_error& e) {
-      std::string what = e.what();
-      auto pos = what.find("error while parsing");
-      return Status::InvalidArgument(job_path + ": not valid JSON at " + LineColumn(text, e.byte > 0 ? e.byte - 1 : 0) +
-                                     (pos == std::string::npos ? "" : ": " + what.substr(pos)));
-    } catch (const json::exception& e) {  // e.g. out_of_range 406: a number too large for a double
-      std::string what = e.what();
-      auto pos = what.find("] ");
-      return Status::InvalidArgument(job_path + ": not valid JSON: " +
-                                     (pos == std::string::npos ? what : what.substr(pos + 2)));
-    }
-    return Status::InvalidArgument(job_path + ": not valid JSON");
-  }
+  if (doc.is_discarded()) return Status::InvalidArgument(job_path + ": not valid JSON" + JsonSyntaxProblem(text));
   Checker c(job_path);
   JobSpec job;
   job.job_path = job_path;

@@ -24,25 +24,9 @@ std::string TimingsJson(const RunRecord& r) {
   nlohmann::json out = nlohmann::json::array();
   for (size_t i : order) {
     const AttemptEntry& a = r.attempts[i];
-    nlohmann::json j = {{"shard", a.shard},
-                        {"path", r.ShardPath(a.shard)},
-                        {"attempt", a.attempt},
-                        {"worker", a.worker},
-                        {"outcome", a.outcome},
-                        {"final", a.final},
-                        {"start_ns", a.start_ns},
-                        {"end_ns", a.end_ns},
-                        {"wall_ns", a.end_ns > a.start_ns ? a.end_ns - a.start_ns : 0},
-                        {"read_ns", a.read_ns},
-                        {"parse_ns", a.parse_ns},
-                        {"aggregate_ns", a.aggregate_ns},
-                        {"encode_ns", a.encode_ns},
-                        {"bytes_in", a.bytes_in},
-                        {"bytes_raw", a.bytes_raw},
-                        {"records", a.records},
-                        {"kept", a.kept},
-                        {"malformed", a.malformed}};
-    if (!a.done()) j["message"] = a.message;
+    nlohmann::json j = AttemptEntryJson(a);  // the journal's fields, then what the export adds
+    j["path"] = r.ShardPath(a.shard);
+    j["wall_ns"] = a.end_ns > a.start_ns ? a.end_ns - a.start_ns : 0;
     out.push_back(std::move(j));
   }
   return out.dump(1) + "\n";

@@ -7,6 +7,7 @@
 
 #include <nlohmann/json.hpp>
 
+#include "common/base/json_document.h"
 #include "coordinator/run/run_summary.h"
 
 namespace fanfold {
@@ -121,12 +122,10 @@ std::string EncodeScaleJson(const ScaleResult& r) {
 }
 
 Result<ScaleResult> DecodeScaleJson(const std::string& text, const std::string& where) {
-  json doc = json::parse(text, nullptr, false);
   auto bad = [&](const std::string& what) {
     return Status::InvalidArgument(where + ": not a fanfold scale result (" + what + ")");
   };
-  if (doc.is_discarded() || !doc.is_object()) return bad("not a JSON object");
-  try {
+  return DecodeJsonObject<ScaleResult>(text, bad, [&](const json& doc) -> Result<ScaleResult> {
     ScaleResult r;
     const int version = doc.at("fanfold_scale").get<int>();
     if (version != kScaleFormatVersion) return bad("version " + std::to_string(version));
@@ -157,9 +156,7 @@ Result<ScaleResult> DecodeScaleJson(const std::string& text, const std::string& 
     if (r.points.empty() || r.points[0].workers != 1) return bad("no 1-worker point");
     ComputeScaleDerived(&r);
     return r;
-  } catch (const json::exception& e) {
-    return bad(e.what());
-  }
+  });
 }
 
 }  // namespace fanfold

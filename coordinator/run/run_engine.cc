@@ -25,62 +25,12 @@
 #include "coordinator/run/run_summary.h"
 #include "coordinator/run/shard_scheduler.h"
 #include "coordinator/run/transport_factory.h"
+#include "coordinator/rundir/run_journal.h"
 
 namespace fanfold {
 namespace {
 
 using nlohmann::json;
-
-const char* OutcomeName(AttemptRecord::Outcome o) {
-  switch (o) {
-    case AttemptRecord::Outcome::kDone: return "done";
-    case AttemptRecord::Outcome::kFailed: return "failed";
-    case AttemptRecord::Outcome::kDied: return "died";
-    case AttemptRecord::Outcome::kTimedOut: return "timed-out";
-    case AttemptRecord::Outcome::kRejected: return "rejected";
-  }
-  return "?";
-}
-
-// One journal line per attempt, written by hand rather than through a json
-// object: on thousands of tiny shards building that object cost more than
-// the rest of the journal (docs/run-directory.md lists the keys).
-std::string AttemptLine(const AttemptRecord& r) {
-  std::string line;
-  line.reserve(320);
-  auto number = [&line](const char* key, uint64_t v) {
-    line += ",\"";
-    line += key;
-    line += "\":";
-    line += std::to_string(v);
-  };
-  line += "{\"event\":\"attempt\"";
-  number("shard", r.shard);
-  number("attempt", r.attempt);
-  line += ",\"worker\":" + std::to_string(r.worker);
-  number("start_ns", r.start_ns);
-  number("end_ns", r.end_ns);
-  line += ",\"outcome\":";
-  AppendJsonString(OutcomeName(r.outcome), &line);
-  line += r.final ? ",\"final\":true" : ",\"final\":false";
-  if (r.outcome == AttemptRecord::Outcome::kDone) {
-    const PartialHeader& h = r.header;
-    number("records", h.records);
-    number("kept", h.kept);
-    number("malformed", h.malformed);
-    number("bytes_in", h.compressed_bytes);
-    number("bytes_raw", h.raw_bytes);
-    number("read_ns", h.read_ns);
-    number("parse_ns", h.parse_ns);
-    number("aggregate_ns", h.aggregate_ns);
-    number("encode_ns", h.encode_ns);
-  } else {
-    line += ",\"message\":";
-    AppendJsonString(r.message, &line);
-  }
-  line += '}';
-  return line;
-}
 
 std::string ResultName(OutputFormat f) {
   switch (f) {
@@ -209,9 +159,8 @@ Status RunEngine::Reload() {
 }
 
 Status RunEngine::Run() {
-  dir_.StageJournal(json{{"event", "start"}, {"mode", in_.mode}, {"pid", CurrentPid()}, {"workers", workers_},
-                         {"pending", in_.pending.size()}, {"reused", in_.reused.size()}, {"time_ns", WallNanos()}}
-                        .dump());
+  dir_.StageJournal(
+      StartEventLine(in_.mode, CurrentPid(), workers_, in_.pending.size(), in_.reused.size(), WallNanos()));
   if (in_.pending.empty()) return Status::Ok();
   Result<std::unique_ptr<Transport>> transport =
       MakeTransport(plan_, options_, workers_, (std::filesystem::path(dir_.path()) / "partials").string());
@@ -229,7 +178,7 @@ Status RunEngine::Run() {
   lo.shard_time_limit_ms = options_.shard_time_limit_ms;
   lo.should_stop = [] { return SignalGuard::interrupted(); };
   lo.on_attempt = [&](const AttemptRecord& r) {
-    dir_.StageJournal(AttemptLine(r));
+    dir_.StageJournal(AttemptEventLine(r));
     meter.OnAttempt(r);
   };
   lo.on_partial = [&](uint32_t shard, const std::string& bytes) { return dir_.StagePartial(shard, bytes); };
@@ -260,7 +209,7 @@ void RunEngine::Tally() {
 }
 
 Status RunEngine::Stop() {
-  dir_.StageJournal(json{{"event", "interrupted"}, {"time_ns", WallNanos()}}.dump());
+  dir_.StageJournal(InterruptedEventLine(WallNanos()));
   (void)dir_.Commit();
   for (const auto& line : FormatRunSummary(summary_, list_)) Note(line);
   Note("interrupted; finished shards are saved. To finish the run: fanfold resume " + dir_.path());
@@ -292,7 +241,7 @@ Status RunEngine::Summarise(const Status& written) {
   if (w.ok())
     w = dir_.WriteFile("summary.json",
                        SummaryJson(in_, summary_, merger_, output_path_, workers_, loop_.retries).dump(1) + "\n");
-  dir_.StageJournal(json{{"event", "finish"}, {"time_ns", WallNanos()}, {"failed", loop_.failures.size()}}.dump());
+  dir_.StageJournal(FinishEventLine(WallNanos(), loop_.failures.size()));
   if (w.ok()) w = dir_.Commit();
   return w;
 }

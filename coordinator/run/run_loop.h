@@ -20,6 +20,7 @@
 #include "common/base/status.h"
 #include "coordinator/run/merger.h"
 #include "common/transport/transport.h"
+#include "coordinator/rundir/run_journal.h"
 
 namespace fanfold {
 
@@ -28,19 +29,6 @@ struct ShardFailure {
   std::string path;
   std::string message;
   uint32_t attempts = 0;
-};
-
-// One try at one shard, as the journal records it.
-struct AttemptRecord {
-  uint32_t shard = 0;
-  uint32_t attempt = 0;
-  int worker = -1;
-  uint64_t start_ns = 0;  // wall clock, ns since the Unix epoch
-  uint64_t end_ns = 0;
-  enum class Outcome { kDone, kFailed, kDied, kTimedOut, kRejected } outcome = Outcome::kDone;
-  std::string message;          // failures: why
-  bool final = true;            // false iff the shard will be retried
-  PartialHeader header;         // kDone: counts and the worker's timings
 };
 
 struct RunLoopResult {

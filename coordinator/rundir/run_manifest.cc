@@ -3,6 +3,7 @@
 #include <nlohmann/json.hpp>
 
 #include "common/base/cell_text.h"
+#include "common/base/json_document.h"
 #include "common/job/shard_list.h"
 
 namespace fanfold {
@@ -46,12 +47,10 @@ std::string EncodeManifest(const RunManifest& m) {
 }
 
 Result<RunManifest> DecodeManifest(const std::string& text, const std::string& where) {
-  json doc = json::parse(text, nullptr, false);
   auto bad = [&](const std::string& what) {
     return Status::Corrupt(where + ": not a fanfold run manifest (" + what + ")");
   };
-  if (doc.is_discarded() || !doc.is_object()) return bad("not a JSON object");
-  try {
+  return DecodeJsonObject<RunManifest>(text, bad, [&](const json& doc) -> Result<RunManifest> {
     RunManifest m;
     m.version = doc.at("fanfold_run").get<int>();
     if (m.version != kRunDirectoryVersion)
@@ -78,9 +77,7 @@ Result<RunManifest> DecodeManifest(const std::string& text, const std::string& w
       m.shards.shards.push_back(s);
     }
     return m;
-  } catch (const json::exception& e) {
-    return bad(e.what());
-  }
+  });
 }
 
 }  // namespace fanfold

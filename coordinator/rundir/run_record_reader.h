@@ -13,40 +13,10 @@
 #include <vector>
 
 #include "common/base/status.h"
+#include "coordinator/rundir/run_journal.h"
 #include "coordinator/rundir/run_manifest.h"
 
 namespace fanfold {
-
-// One "attempt" event of the journal.
-struct AttemptEntry {
-  uint32_t shard = 0;
-  uint32_t attempt = 1;
-  int worker = 0;
-  uint64_t start_ns = 0;  // wall clock, ns since the Unix epoch (coordinator)
-  uint64_t end_ns = 0;
-  std::string outcome;  // "done", "failed", "died", "timed-out"
-  bool final = true;    // false iff the shard was retried
-  size_t session = 0;   // index into RunRecord::sessions
-  // Done attempts only (zero otherwise), measured by the worker:
-  uint64_t records = 0, kept = 0, malformed = 0;
-  uint64_t bytes_in = 0, bytes_raw = 0;
-  uint64_t read_ns = 0, parse_ns = 0, aggregate_ns = 0, encode_ns = 0;
-  std::string message;  // failures: why
-
-  bool done() const { return outcome == "done"; }
-  double seconds() const { return end_ns > start_ns ? static_cast<double>(end_ns - start_ns) / 1e9 : 0.0; }
-};
-
-// One coordinator's stint: a "start" event up to its "finish"/"interrupted".
-struct RunSession {
-  std::string mode = "run";  // "run" or "resume"
-  int workers = 0;
-  uint64_t pending = 0, reused = 0;
-  uint64_t start_ns = 0;
-  uint64_t end_ns = 0;       // finish/interrupted time; 0 if the journal stops first
-  bool interrupted = false;
-  bool finished = false;
-};
 
 // summary.json, when present.
 struct SummaryRecord {
@@ -89,8 +59,9 @@ struct RunRecord {
 // cannot be read; a missing summary.json is not an error (unfinished run).
 Result<RunRecord> ReadRunRecord(const std::string& dir);
 
-// Parses journal text into record (sessions, attempts, warnings). Exposed
-// for tests. `where` names the file in warnings.
+// Parses journal text into record (sessions, attempts, warnings): the
+// journal's reader (coordinator/rundir/run_journal.h) filling a RunRecord.
+// Exposed for tests. `where` names the file in warnings.
 void ParseJournal(const std::string& text, const std::string& where, RunRecord* record);
 // Parses summary.json text into *out. Exposed for tests.
 Status ParseSummary(const std::string& text, const std::string& where, SummaryRecord* out);

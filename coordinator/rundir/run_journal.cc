@@ -1,0 +1,161 @@
+#include "coordinator/rundir/run_journal.h"
+
+#include "common/base/cell_text.h"
+#include "common/base/json_document.h"
+
+namespace fanfold {
+namespace {
+
+using nlohmann::json;
+
+const char* OutcomeName(AttemptRecord::Outcome o) {
+  switch (o) {
+    case AttemptRecord::Outcome::kDone: return "done";
+    case AttemptRecord::Outcome::kFailed: return "failed";
+    case AttemptRecord::Outcome::kDied: return "died";
+    case AttemptRecord::Outcome::kTimedOut: return "timed-out";
+    case AttemptRecord::Outcome::kRejected: return "rejected";
+  }
+  return "?";
+}
+
+}  // namespace
+
+// The start, interrupted and finish lines go through a json object, whose
+// dump orders keys alphabetically; the attempt line, written by hand, keeps
+// the order below. Both orders are what journals on disk already hold.
+std::string StartEventLine(const std::string& mode, int64_t pid, int workers, uint64_t pending, uint64_t reused,
+                           uint64_t time_ns) {
+  return json{{"event", "start"}, {"mode", mode},     {"pid", pid},         {"workers", workers},
+              {"pending", pending}, {"reused", reused}, {"time_ns", time_ns}}
+      .dump();
+}
+
+std::string InterruptedEventLine(uint64_t time_ns) {
+  return json{{"event", "interrupted"}, {"time_ns", time_ns}}.dump();
+}
+
+std::string FinishEventLine(uint64_t time_ns, uint64_t failed) {
+  return json{{"event", "finish"}, {"time_ns", time_ns}, {"failed", failed}}.dump();
+}
+
+std::string AttemptEventLine(const AttemptRecord& r) {
+  std::string line;
+  line.reserve(320);
+  auto number = [&line](const char* key, uint64_t v) {
+    line += ",\"";
+    line += key;
+    line += "\":";
+    line += std::to_string(v);
+  };
+  line += "{\"event\":\"attempt\"";
+  number("shard", r.shard);
+  number("attempt", r.attempt);
+  line += ",\"worker\":" + std::to_string(r.worker);
+  number("start_ns", r.start_ns);
+  number("end_ns", r.end_ns);
+  line += ",\"outcome\":";
+  AppendJsonString(OutcomeName(r.outcome), &line);
+  line += r.final ? ",\"final\":true" : ",\"final\":false";
+  if (r.outcome == AttemptRecord::Outcome::kDone) {
+    const PartialHeader& h = r.header;
+    number("records", h.records);
+    number("kept", h.kept);
+    number("malformed", h.malformed);
+    number("bytes_in", h.compressed_bytes);
+    number("bytes_raw", h.raw_bytes);
+    number("read_ns", h.read_ns);
+    number("parse_ns", h.parse_ns);
+    number("aggregate_ns", h.aggregate_ns);
+    number("encode_ns", h.encode_ns);
+  } else {
+    line += ",\"message\":";
+    AppendJsonString(r.message, &line);
+  }
+  line += '}';
+  return line;
+}
+
+void ParseJournal(const std::string& text, const std::string& where, std::vector<RunSession>* sessions,
+                  std::vector<AttemptEntry>* attempts, std::vector<std::string>* warnings) {
+  size_t pos = 0, line_no = 0;
+  while (pos < text.size()) {
+    size_t nl = text.find('\n', pos);
+    const bool last = nl == std::string::npos;
+    const std::string line = text.substr(pos, last ? std::string::npos : nl - pos);
+    pos = last ? text.size() : nl + 1;
+    ++line_no;
+    if (line.empty()) continue;
+    json j = json::parse(line, nullptr, false);
+    if (j.is_discarded() || !j.is_object() || !j.contains("event")) {
+      // A crash can cut the last line short; anything else is worth a word.
+      warnings->push_back(where + " line " + std::to_string(line_no) +
+                          (last ? ": cut short (an interrupted write); ignored" : ": not a journal event; skipped"));
+      continue;
+    }
+    const std::string event = JsonValueOr<std::string>(j, "event", "");
+    if (event == "start") {
+      RunSession s;
+      s.mode = JsonValueOr<std::string>(j, "mode", "run");
+      s.workers = JsonValueOr<int>(j, "workers", 0);
+      s.pending = JsonValueOr<uint64_t>(j, "pending", 0);
+      s.reused = JsonValueOr<uint64_t>(j, "reused", 0);
+      s.start_ns = JsonValueOr<uint64_t>(j, "time_ns", 0);
+      sessions->push_back(s);
+    } else if (event == "attempt") {
+      if (sessions->empty()) sessions->push_back(RunSession{});  // a journal without its start line
+      AttemptEntry a;
+      a.shard = JsonValueOr<uint32_t>(j, "shard", 0);
+      a.attempt = JsonValueOr<uint32_t>(j, "attempt", 1);
+      a.worker = JsonValueOr<int>(j, "worker", 0);
+      a.start_ns = JsonValueOr<uint64_t>(j, "start_ns", 0);
+      a.end_ns = JsonValueOr<uint64_t>(j, "end_ns", a.start_ns);
+      a.outcome = JsonValueOr<std::string>(j, "outcome", "?");
+      a.final = JsonValueOr<bool>(j, "final", true);
+      a.session = sessions->size() - 1;
+      a.records = JsonValueOr<uint64_t>(j, "records", 0);
+      a.kept = JsonValueOr<uint64_t>(j, "kept", 0);
+      a.malformed = JsonValueOr<uint64_t>(j, "malformed", 0);
+      a.bytes_in = JsonValueOr<uint64_t>(j, "bytes_in", 0);
+      a.bytes_raw = JsonValueOr<uint64_t>(j, "bytes_raw", 0);
+      a.read_ns = JsonValueOr<uint64_t>(j, "read_ns", 0);
+      a.parse_ns = JsonValueOr<uint64_t>(j, "parse_ns", 0);
+      a.aggregate_ns = JsonValueOr<uint64_t>(j, "aggregate_ns", 0);
+      a.encode_ns = JsonValueOr<uint64_t>(j, "encode_ns", 0);
+      a.message = JsonValueOr<std::string>(j, "message", "");
+      RunSession& s = sessions->back();
+      if (s.start_ns == 0 || a.start_ns < s.start_ns) s.start_ns = a.start_ns;
+      attempts->push_back(std::move(a));
+    } else if (event == "finish" || event == "interrupted") {
+      if (sessions->empty()) continue;
+      RunSession& s = sessions->back();
+      s.end_ns = JsonValueOr<uint64_t>(j, "time_ns", 0);
+      s.finished = event == "finish";
+      s.interrupted = event == "interrupted";
+    }
+    // Unknown events: written by a newer fanfold; nothing to draw.
+  }
+}
+
+json AttemptEntryJson(const AttemptEntry& a) {
+  json j = {{"shard", a.shard},
+            {"attempt", a.attempt},
+            {"worker", a.worker},
+            {"outcome", a.outcome},
+            {"final", a.final},
+            {"start_ns", a.start_ns},
+            {"end_ns", a.end_ns},
+            {"read_ns", a.read_ns},
+            {"parse_ns", a.parse_ns},
+            {"aggregate_ns", a.aggregate_ns},
+            {"encode_ns", a.encode_ns},
+            {"bytes_in", a.bytes_in},
+            {"bytes_raw", a.bytes_raw},
+            {"records", a.records},
+            {"kept", a.kept},
+            {"malformed", a.malformed}};
+  if (!a.done()) j["message"] = a.message;
+  return j;
+}
+
+}  // namespace fanfold

@@ -1,0 +1,138 @@
+// RunJournal: the exact bytes of each event line (journals on disk and the
+// e2e tests read them; keys as docs/run-directory.md lists them), and the
+// reader taking back what the writer wrote.
+#include "coordinator/rundir/run_journal.h"
+
+#include <doctest/doctest.h>
+
+#include <string>
+#include <vector>
+
+namespace fanfold {
+namespace {
+
+AttemptRecord DoneAttempt() {
+  AttemptRecord r;
+  r.shard = 4;
+  r.attempt = 2;
+  r.worker = 1;
+  r.start_ns = 1'700'000'000'000'000'000;
+  r.end_ns = 1'700'000'000'250'000'000;
+  r.outcome = AttemptRecord::Outcome::kDone;
+  r.final = true;
+  r.header.records = 10;
+  r.header.kept = 9;
+  r.header.malformed = 1;
+  r.header.compressed_bytes = 50;
+  r.header.raw_bytes = 400;
+  r.header.read_ns = 100;
+  r.header.parse_ns = 200;
+  r.header.aggregate_ns = 300;
+  r.header.encode_ns = 4;
+  return r;
+}
+
+// Intent: a done attempt's line, byte for byte: the documented keys in their
+// on-disk order, the worker's counts and timings from the partial header.
+TEST_CASE("run_journal: a done attempt's exact line") {
+  CHECK(AttemptEventLine(DoneAttempt()) ==
+        R"({"event":"attempt","shard":4,"attempt":2,"worker":1,"start_ns":1700000000000000000,)"
+        R"("end_ns":1700000000250000000,"outcome":"done","final":true,"records":10,"kept":9,"malformed":1,)"
+        R"("bytes_in":50,"bytes_raw":400,"read_ns":100,"parse_ns":200,"aggregate_ns":300,"encode_ns":4})");
+}
+
+// Intent: a failed attempt carries its message instead of counts, escaped as
+// RFC 8259 §7 requires (quote, backslash, control characters); each outcome
+// has its documented name.
+TEST_CASE("run_journal: failed attempts carry an escaped message and their outcome name") {
+  AttemptRecord r;
+  r.shard = 0;
+  r.attempt = 1;
+  r.worker = 0;
+  r.start_ns = 5;
+  r.end_ns = 6;
+  r.final = false;
+  r.message = "exit 70: \"bad\"\\\nline";
+  const std::pair<AttemptRecord::Outcome, const char*> names[] = {{AttemptRecord::Outcome::kFailed, "failed"},
+                                                                  {AttemptRecord::Outcome::kDied, "died"},
+                                                                  {AttemptRecord::Outcome::kTimedOut, "timed-out"},
+                                                                  {AttemptRecord::Outcome::kRejected, "rejected"}};
+  for (const auto& [outcome, name] : names) {
+    r.outcome = outcome;
+    CHECK(AttemptEventLine(r) ==
+          std::string(R"({"event":"attempt","shard":0,"attempt":1,"worker":0,"start_ns":5,"end_ns":6,"outcome":")") +
+              name + R"(","final":false,"message":"exit 70: \"bad\"\\\nline"})");
+  }
+}
+
+// Intent: the session lines keep the alphabetical key order they have on disk.
+TEST_CASE("run_journal: start, interrupted and finish lines") {
+  CHECK(StartEventLine("resume", 4242, 3, 7, 2, 99) ==
+        R"({"event":"start","mode":"resume","pending":7,"pid":4242,"reused":2,"time_ns":99,"workers":3})");
+  CHECK(InterruptedEventLine(123) == R"({"event":"interrupted","time_ns":123})");
+  CHECK(FinishEventLine(456, 1) == R"({"event":"finish","failed":1,"time_ns":456})");
+}
+
+// Intent: what the writer writes, the reader reads back field for field.
+TEST_CASE("run_journal: written lines read back") {
+  AttemptRecord died;
+  died.shard = 4;
+  died.attempt = 1;
+  died.worker = 0;
+  died.start_ns = 1000;
+  died.end_ns = 1500;
+  died.outcome = AttemptRecord::Outcome::kDied;
+  died.final = false;
+  died.message = "worker exited with signal 9";
+  const std::string text = StartEventLine("run", 1, 2, 1, 0, 900) + "\n" + AttemptEventLine(died) + "\n" +
+                           AttemptEventLine(DoneAttempt()) + "\n" + FinishEventLine(1'700'000'000'300'000'000, 0) +
+                           "\n";
+  std::vector<RunSession> sessions;
+  std::vector<AttemptEntry> attempts;
+  std::vector<std::string> warnings;
+  ParseJournal(text, "journal.ndjson", &sessions, &attempts, &warnings);
+  CHECK(warnings.empty());
+  REQUIRE(sessions.size() == 1);
+  CHECK(sessions[0].mode == "run");
+  CHECK(sessions[0].workers == 2);
+  CHECK(sessions[0].pending == 1);
+  CHECK(sessions[0].start_ns == 900);
+  CHECK(sessions[0].finished);
+  CHECK(sessions[0].end_ns == 1'700'000'000'300'000'000);
+  REQUIRE(attempts.size() == 2);
+  CHECK(attempts[0].outcome == "died");
+  CHECK(attempts[0].message == "worker exited with signal 9");
+  CHECK_FALSE(attempts[0].final);
+  const AttemptEntry& d = attempts[1];
+  CHECK(d.done());
+  CHECK(d.shard == 4);
+  CHECK(d.attempt == 2);
+  CHECK(d.worker == 1);
+  CHECK(d.end_ns - d.start_ns == 250'000'000);
+  CHECK(d.records == 10);
+  CHECK(d.kept == 9);
+  CHECK(d.malformed == 1);
+  CHECK(d.bytes_in == 50);
+  CHECK(d.bytes_raw == 400);
+  CHECK(d.read_ns + d.parse_ns + d.aggregate_ns + d.encode_ns == 604);
+  CHECK(d.message.empty());
+}
+
+// Intent: the export form lists every count even for a failed attempt, and
+// a message only for attempts that are not done.
+TEST_CASE("run_journal: AttemptEntryJson fields") {
+  AttemptEntry a;
+  a.outcome = "died";
+  a.message = "gone";
+  nlohmann::json j = AttemptEntryJson(a);
+  CHECK(j.size() == 17);
+  CHECK(j.at("records") == 0);
+  CHECK(j.at("message") == "gone");
+  a.outcome = "done";
+  j = AttemptEntryJson(a);
+  CHECK(j.size() == 16);
+  CHECK_FALSE(j.contains("message"));
+}
+
+}  // namespace
+}  // namespace fanfold
