@@ -236,13 +236,32 @@ Status RunDirectory::Commit() {
     OsError e = platform_.OpenForWrite(journal, CreateMode::kAppend, 0644, &file);
     if (!e.ok()) return e.ToStatus("open", journal);
     std::string text;
+    // A crash mid-append leaves a line without its newline: start on a line
+    // of our own, so the fragment stays one unreadable line (readers skip
+    // it) and the first new event is not glued to it.
+    if (!journal_checked_ && !JournalEndsLine(journal)) text = "\n";
     for (const auto& l : journal_lines_) text += l + "\n";
     e = file->Append(text);
     if (e.ok()) e = file->Sync(SyncDepth::kData);
     if (!e.ok()) return e.ToStatus(e.call() == std::string_view("write") ? "write" : "fsync", journal);
+    if (!journal_checked_) {
+      // The journal may have just been created: its name is durable only
+      // once the run directory is synced.
+      e = platform_.SyncDirectory(path_);
+      if (!e.ok()) return e.ToStatus("fsync", path_);
+      journal_checked_ = true;
+    }
     journal_lines_.clear();
   }
   return Status::Ok();
+}
+
+bool RunDirectory::JournalEndsLine(const std::string& journal) const {
+  std::unique_ptr<ReadableFile> file;
+  uint64_t size = 0;
+  if (!platform_.OpenForRead(journal, &file).ok() || !file->Size(&size).ok() || size == 0) return true;
+  char last = '\n';
+  return !file->ReadAt(size - 1, 1, &last).ok() || last == '\n';
 }
 
 Status RunDirectory::ReadRange(const std::string& path, uint64_t offset, uint64_t length, std::string* out) const {

@@ -103,6 +103,8 @@ class RunDirectory {
   // Writes the stage buffer to the temporary pack; on failure drops the
   // whole batch (those shards are simply not done).
   Status FlushStaged();
+  // True iff the journal is missing, empty, unreadable or ends in a newline.
+  bool JournalEndsLine(const std::string& journal) const;
   // Drops the batch: closes and removes the temporary pack.
   void DropBatch();
 
@@ -111,6 +113,11 @@ class RunDirectory {
   std::string stage_buffer_;            // its last bytes, not yet written
   std::vector<std::pair<uint32_t, Location>> staged_;
   std::vector<std::string> journal_lines_;
+  // Until this process's first journal append: whether the journal may end
+  // in a torn line (a crash mid-append) that the next line must not join,
+  // and whether the run directory must be synced so the journal's name
+  // survives a power loss.
+  bool journal_checked_ = false;
   uint64_t first_staged_ns_ = 0;        // platform_.MonotonicNanos() at the batch's first item
 };
 

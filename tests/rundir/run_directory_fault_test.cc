@@ -177,6 +177,28 @@ TEST_CASE("run directory faults: a torn journal write") {
   f.CrashAndReopen(Survival::kProcessCrash);
   CHECK(f.fs.FileData(kJournal) == before + "{\"event");
   CHECK(f.Committed() == FaultFixture::Expect({0, 1, 2}));
+  // The next session's first event starts a line of its own: the fragment
+  // stays one broken line, and the new event is whole.
+  f.dir->StageJournal("{\"event\":\"start\"}");
+  REQUIRE(f.dir->Commit().ok());
+  CHECK(f.fs.FileData(kJournal) == before + "{\"event\n{\"event\":\"start\"}\n");
+  // Only the first append of a session looks: the next goes straight on.
+  f.dir->StageJournal("{\"event\":\"finish\"}");
+  REQUIRE(f.dir->Commit().ok());
+  CHECK(f.fs.FileData(kJournal) == before + "{\"event\n{\"event\":\"start\"}\n{\"event\":\"finish\"}\n");
+}
+
+// Intent: the journal created by a run's first commit survives a power loss
+// right after it (its name is made durable by syncing the run directory),
+// and a journal that ends in a whole line gets no blank line on the next append.
+TEST_CASE("run directory faults: the journal's name survives a power loss") {
+  FaultFixture f;
+  const std::string before = f.fs.FileData(kJournal);
+  f.CrashAndReopen(Survival::kPowerLoss);
+  CHECK(f.fs.FileData(kJournal) == before);
+  f.dir->StageJournal("{\"event\":\"start\"}");
+  REQUIRE(f.dir->Commit().ok());
+  CHECK(f.fs.FileData(kJournal) == before + "{\"event\":\"start\"}\n");
 }
 
 // Intent: a full disk during a commit fails it with the path and ENOSPC's text, leaves no temporary, keeps every
