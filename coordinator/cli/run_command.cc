@@ -114,6 +114,7 @@ CommandOutcome ResumeRun(const RunOptions& o) {
   in.shards = &manifest.shards;
   in.dir = dir->get();
   in.mode = "resume";
+  bool identities_changed = false;
   for (Shard& s : manifest.shards.shards) {
     std::string bytes;
     Status st = (*dir)->LoadPartial(s.index, &bytes);
@@ -123,10 +124,19 @@ CommandOutcome ResumeRun(const RunOptions& o) {
     }
     FileIdentity now;
     const bool exists = IdentifyFile(s.path, &now).ok();
-    if (exists && (now.size != s.file_size || now.mtime_ns != s.mtime_ns)) {
+    if (!exists) {
+      // Never reuse a partial of a file that is gone: the shard is processed
+      // again, fails on the missing file, and is listed with the reason.
+      if (!o.quiet) std::cerr << "fanfold: shard " << s.index << " '" << s.path << "' is gone; it will fail\n";
+      (*dir)->DiscardPartial(s.index);
+      in.pending.push_back(s.index);
+      continue;
+    }
+    if (now.size != s.file_size || now.mtime_ns != s.mtime_ns) {
       if (!o.quiet) std::cerr << "fanfold: shard " << s.index << " '" << s.path << "' changed since the run started; recomputing it\n";
       s.file_size = now.size;
       s.mtime_ns = now.mtime_ns;
+      identities_changed = true;
       (*dir)->DiscardPartial(s.index);
       in.pending.push_back(s.index);
       continue;
@@ -145,6 +155,10 @@ CommandOutcome ResumeRun(const RunOptions& o) {
       (*dir)->DiscardPartial(s.index);
       in.pending.push_back(s.index);
     }
+  }
+  if (identities_changed) {
+    out.status = (*dir)->RewriteManifest(manifest);
+    if (!out.status.ok()) return out;
   }
   if (!o.quiet)
     std::cerr << "fanfold: resuming " << o.run_dir << ": " << in.reused.size() << " shards saved, "

@@ -96,6 +96,11 @@ Result<std::unique_ptr<RunDirectory>> RunDirectory::Create(const std::string& pa
   return dir;
 }
 
+Status RunDirectory::RewriteManifest(const RunManifest& manifest) {
+  return WriteFileDurably(platform_, (fs::path(path_) / "run.json").string(), EncodeManifest(manifest),
+                          AtomicFilePolicy());
+}
+
 Result<std::unique_ptr<RunDirectory>> RunDirectory::Open(const std::string& path, RunManifest* manifest,
                                                          Platform& platform) {
   const std::string run_json = (fs::path(path) / "run.json").string();

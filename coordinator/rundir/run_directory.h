@@ -1,5 +1,5 @@
 // RunDirectory: the on-disk record of one run (layout: docs/run-directory.md)
-//   run.json        RunManifest, written once at the start
+//   run.json        RunManifest, written at the start (resume rewrites it when shard files changed)
 //   journal.ndjson  append-only events (attempts, timings, failures), one JSON object a line
 //   partials/       packs of persisted partial states: pack-000007.ffpk, one
 //                   per commit batch (see kPackMagic below)
@@ -56,6 +56,11 @@ class RunDirectory {
                                                     Platform& platform = Platform::Posix());
 
   const std::string& path() const { return path_; }
+
+  // Replaces run.json durably (temp, sync, rename, directory sync): `resume`
+  // records the new identity of a shard file that changed, so it is
+  // recomputed once, not on every later resume.
+  Status RewriteManifest(const RunManifest& manifest);
 
   // Appends shard's partial to the batch's temporary pack (through a buffer
   // of up to kStageBufferBytes, so tiny partials cost no system call each);
