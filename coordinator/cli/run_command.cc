@@ -72,6 +72,8 @@ CommandOutcome RunJob(const RunOptions& o) {
   manifest.fingerprint = FingerprintHex(job->plan->fingerprint);
   manifest.plan_text = PlanCanonicalText(*job->plan);
   manifest.created_utc = NowIso();
+  manifest.attempts = o.max_attempts;
+  manifest.shard_time_limit_ms = o.shard_time_limit_ms;
   manifest.shards = job->shards;
   Result<std::unique_ptr<RunDirectory>> dir = RunDirectory::Create(run_dir_abs, manifest, o.fresh);
   if (!dir.ok()) {
@@ -87,15 +89,18 @@ CommandOutcome RunJob(const RunOptions& o) {
   return ExecuteRun(in, o);
 }
 
-CommandOutcome ResumeRun(const RunOptions& o) {
+CommandOutcome ResumeRun(const RunOptions& given) {
   CommandOutcome out;
   RunManifest manifest;
   Result<std::unique_ptr<RunDirectory>> dir =
-      RunDirectory::Open(fs::absolute(o.run_dir).lexically_normal().string(), &manifest);
+      RunDirectory::Open(fs::absolute(given.run_dir).lexically_normal().string(), &manifest);
   if (!dir.ok()) {
     out.status = dir.status();
     return out;
   }
+  RunOptions o = given;
+  if (o.max_attempts == kAttemptsOfTheRun) o.max_attempts = manifest.attempts;
+  if (o.shard_time_limit_ms == kTimeLimitOfTheRun) o.shard_time_limit_ms = manifest.shard_time_limit_ms;
   Result<std::unique_ptr<Plan>> plan = LoadWorkerPlan(manifest.job_path, manifest.format, manifest.fingerprint);
   if (!plan.ok()) {
     out.status = Status::InvalidArgument("cannot resume '" + o.run_dir + "': " + plan.status().message() +

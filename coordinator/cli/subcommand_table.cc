@@ -37,6 +37,15 @@ Status ParseWholeIfGiven(const WholeFlag& flag, const std::string& text, T* out)
   return Status::Ok();
 }
 
+// --shard-time-limit in seconds into *out_ms unless empty (as above).
+Status ParseTimeLimitIfGiven(const std::string& text, uint64_t* out_ms) {
+  if (text.empty()) return Status::Ok();
+  Result<double> secs = ParseSecondsFlag(kShardTimeLimitFlag, text);
+  if (!secs.ok()) return secs.status();
+  *out_ms = static_cast<uint64_t>(*secs * 1000 + 0.5);
+  return Status::Ok();
+}
+
 // `fanfold run JOB`.
 class RunSubcommand final : public Subcommand {
  public:
@@ -59,12 +68,7 @@ class RunSubcommand final : public Subcommand {
     FF_RETURN_IF_ERROR(ParseWholeIfGiven(kWorkersFlag, workers_, &options_.workers));
     FF_RETURN_IF_ERROR(ParseWholeIfGiven(kAttemptsFlag, attempts_, &options_.max_attempts));
     FF_RETURN_IF_ERROR(ParseWholeIfGiven(kDigitsFlag, digits_, &options_.digits));
-    if (!time_limit_.empty()) {
-      Result<double> secs = ParseSecondsFlag(kShardTimeLimitFlag, time_limit_);
-      if (!secs.ok()) return secs.status();
-      options_.shard_time_limit_ms = static_cast<uint64_t>(*secs * 1000 + 0.5);
-    }
-    return Status::Ok();
+    return ParseTimeLimitIfGiven(time_limit_, &options_.shard_time_limit_ms);
   }
   CommandOutcome Run() override { return RunJob(options_); }
 
@@ -84,6 +88,9 @@ class ResumeSubcommand final : public Subcommand {
     cmd->add_option("RUN_DIR", options_.run_dir, "the run directory that `fanfold run` printed")->required();
     cmd->add_option("-j,--workers", workers_, "worker processes (default: one per core)");
     cmd->add_option("-o,--output", options_.output_path, "write the result here instead of the job's emit.path");
+    cmd->add_option("--attempts", attempts_, "tries per shard when its worker dies (default: what the run used)");
+    cmd->add_option("--shard-time-limit", time_limit_,
+                    "kill and retry a shard's worker after this many seconds (default: what the run used)");
     cmd->add_option("--digits", digits_, kDigitsHelp);
     cmd->add_flag("-q,--quiet", options_.quiet, "print nothing on stderr but errors");
     AddStderrFlags(cmd, &stderr_, /*with_progress=*/true);
@@ -91,12 +98,18 @@ class ResumeSubcommand final : public Subcommand {
   Status CheckFlags() override {
     FF_RETURN_IF_ERROR(ApplyStderrFlags(stderr_, options_.quiet, &options_));
     FF_RETURN_IF_ERROR(ParseWholeIfGiven(kDigitsFlag, digits_, &options_.digits));
+    options_.max_attempts = kAttemptsOfTheRun;
+    FF_RETURN_IF_ERROR(ParseWholeIfGiven(kAttemptsFlag, attempts_, &options_.max_attempts));
+    options_.shard_time_limit_ms = kTimeLimitOfTheRun;
+    FF_RETURN_IF_ERROR(ParseTimeLimitIfGiven(time_limit_, &options_.shard_time_limit_ms));
     return ParseWholeIfGiven(kWorkersFlag, workers_, &options_.workers);
   }
   CommandOutcome Run() override { return ResumeRun(options_); }
 
  private:
   RunOptions options_;  // what ResumeRun gets (job_path unused: the run names its job)
+  std::string attempts_;    // --attempts as typed ("" = what the run used)
+  std::string time_limit_;  // --shard-time-limit as typed ("" = what the run used)
   std::string workers_;  // -j/--workers as typed ("" = one per core)
   std::string digits_;   // --digits as typed ("" = every digit)
   StderrFlags stderr_;   // --progress, --progress-every, --log-level

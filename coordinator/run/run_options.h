@@ -11,6 +11,10 @@
 
 namespace fanfold {
 
+// `resume` without --attempts / --shard-time-limit: take the run's own.
+inline constexpr uint32_t kAttemptsOfTheRun = 0;
+inline constexpr uint64_t kTimeLimitOfTheRun = UINT64_MAX;
+
 struct CommandOutcome {
   Status status;               // not ok: usage, job-file or system error
   bool shards_failed = false;  // finished, but some shards failed
@@ -24,8 +28,9 @@ struct RunOptions {
   std::string output_path;    // "" = the job's emit.path, else stdout
   std::string run_dir;        // "" = fanfold-runs/<job name> under the working directory
   bool fresh = false;         // discard an earlier run in run_dir instead of refusing
-  uint32_t max_attempts = 3;  // tries per shard when its worker dies (1 + retries)
-  uint64_t shard_time_limit_ms = 0;  // 0 = no limit
+  uint32_t max_attempts = 3;  // tries per shard when its worker dies (1 + retries);
+                              // resume: kAttemptsOfTheRun = what the run used
+  uint64_t shard_time_limit_ms = 0;  // 0 = no limit; resume: kTimeLimitOfTheRun = what the run used
   bool in_process = false;    // debugging: no worker processes
   bool quiet = false;         // only errors on stderr
   ProgressMode progress = ProgressMode::kAuto;  // progress on stderr (quiet: none)

@@ -28,6 +28,8 @@ std::string EncodeManifest(const RunManifest& m) {
   field("plan", m.fingerprint);
   field("plan_text", m.plan_text);
   field("created", m.created_utc);
+  out += " \"attempts\": " + std::to_string(m.attempts) + ",\n \"shard_time_limit_ms\": " +
+         std::to_string(m.shard_time_limit_ms) + ",\n";
   out += " \"shards\": [";
   bool first = true;
   for (const Shard& s : m.shards.shards) {
@@ -60,6 +62,9 @@ Result<RunManifest> DecodeManifest(const std::string& text, const std::string& w
     m.fingerprint = doc.at("plan").get<std::string>();
     m.plan_text = doc.at("plan_text").get<std::string>();
     m.created_utc = doc.at("created").get<std::string>();
+    // Absent from run directories written before `resume` took these flags.
+    if (doc.contains("attempts")) m.attempts = doc.at("attempts").get<uint32_t>();
+    if (doc.contains("shard_time_limit_ms")) m.shard_time_limit_ms = doc.at("shard_time_limit_ms").get<uint64_t>();
     if (!FormatFromText(m.format, &m.shards.format)) return bad("unknown format '" + m.format + "'");
     for (const json& j : doc.at("shards")) {
       Shard s;

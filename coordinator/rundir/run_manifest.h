@@ -24,6 +24,8 @@ struct RunManifest {
   std::string fingerprint;     // 16 hex digits
   std::string plan_text;       // PlanCanonicalText
   std::string created_utc;     // ISO 8601
+  uint32_t attempts = 3;              // --attempts of `run`: what `resume` uses unless told
+  uint64_t shard_time_limit_ms = 0;   // --shard-time-limit of `run` (0 = none), likewise
   ShardList shards;
 };
 

@@ -5,7 +5,10 @@
   other shards exactly (record counts recomputed by Python's json module from
   the files that remain);
 * a file changed after its run is recomputed once: the next resume reuses it
-  (run.json records the new identity).
+  (run.json records the new identity);
+* `resume` without --attempts uses the run's own (recorded in run.json), and
+  --attempts on `resume` overrides it (a worker crash injected on every first
+  attempt: the shard fails with 1 attempt, succeeds with 2).
 """
 
 import json
@@ -78,6 +81,22 @@ def main():
                 "the next resume should reuse every shard but the deleted one: %s" % lib.tail(err))
         rows = lib.read_rows(env.path("out3.csv"), "csv")
         c.check(len(rows) == 1 and rows[0]["n"] == want, "count after the touch %r, want %d" % (rows, want))
+
+        # --attempts: the run's own by default, the flag's when given.
+        run2 = env.path("runs", "a")
+        os.environ["FANFOLD_TEST_ONLY_FAULTS"] = "inject:crash:shard=1,attempt=1,after=5"
+        try:
+            rc, _, err = env.fanfold_run("run", job, "--run-dir", run2, "--attempts", 1, "-o", env.path("a0.csv"))
+            c.check(rc == 1, "run --attempts 1 with a crash: exit %d, want 1: %s" % (rc, lib.tail(err)))
+            with open(os.path.join(run2, "run.json")) as f:
+                c.check(json.load(f).get("attempts") == 1, "run.json does not record --attempts 1")
+            rc, _, err = env.fanfold_run("resume", run2, "-o", env.path("a1.csv"))
+            c.check(rc == 1 and "quarantined after 1 attempt" in err,
+                    "resume without --attempts should keep the run's 1 attempt: exit %d: %s" % (rc, lib.tail(err)))
+            rc, _, err = env.fanfold_run("resume", run2, "--attempts", 2, "-o", env.path("a2.csv"))
+            c.check(rc == 0, "resume --attempts 2 should retry the crashed shard: exit %d: %s" % (rc, lib.tail(err)))
+        finally:
+            del os.environ["FANFOLD_TEST_ONLY_FAULTS"]
     c.exit()
 
 

@@ -10,6 +10,15 @@ namespace {
 // Intent: every field survives Encode -> Decode, including paths that need
 // JSON escaping and a chunk's byte range; the text is one JSON document
 // (nlohmann's parser, an independent reader, accepts it) with one shard a line.
+// Intent: a run.json written before `resume` took --attempts / --shard-time-limit reads as 3 and none.
+TEST_CASE("run_manifest: older manifests without attempts and time limit") {
+  Result<RunManifest> m = DecodeManifest(R"({"fanfold_run": 1, "job": "/j.json", "format": "ndjson",
+      "plan": "0123456789abcdef", "plan_text": "x", "created": "2026-12-01T20:40:00Z", "shards": []})", "run.json");
+  REQUIRE(m.ok());
+  CHECK(m->attempts == 3);
+  CHECK(m->shard_time_limit_ms == 0);
+}
+
 TEST_CASE("run_manifest: encode and decode round trip") {
   RunManifest m;
   m.job_path = "/jobs/night \"shift\".json";
@@ -17,6 +26,8 @@ TEST_CASE("run_manifest: encode and decode round trip") {
   m.fingerprint = "0123456789abcdef";
   m.plan_text = "format ndjson\nkeep {/a} > 1\n";
   m.created_utc = "2026-12-01T20:40:00Z";
+  m.attempts = 5;
+  m.shard_time_limit_ms = 2500;
   m.shards.format = RecordFormat::kNdjson;
   m.shards.shards.resize(3);
   for (uint32_t i = 0; i < 3; ++i) {
@@ -31,12 +42,14 @@ TEST_CASE("run_manifest: encode and decode round trip") {
   m.shards.shards[2].length = 4096;
   const std::string text = EncodeManifest(m);
   CHECK(nlohmann::json::parse(text, nullptr, false).is_object());
-  CHECK(std::count(text.begin(), text.end(), '\n') == 13);  // "{", 6 fields, "\"shards\": [", 3 shards, "]", "}"
+  CHECK(std::count(text.begin(), text.end(), '\n') == 15);  // "{", 8 fields, "\"shards\": [", 3 shards, "]", "}"
   Result<RunManifest> back = DecodeManifest(text, "run.json");
   REQUIRE(back.ok());
   CHECK(back->job_path == m.job_path);
   CHECK(back->plan_text == m.plan_text);
   CHECK(back->created_utc == m.created_utc);
+  CHECK(back->attempts == 5);
+  CHECK(back->shard_time_limit_ms == 2500);
   REQUIRE(back->shards.shards.size() == 3);
   for (uint32_t i = 0; i < 3; ++i) {
     const Shard& a = m.shards.shards[i];
