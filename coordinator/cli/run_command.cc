@@ -8,6 +8,7 @@
 #include "common/job/job_loader.h"
 #include "common/partial/partial_codec.h"
 #include "common/port/file_identity.h"
+#include "common/port/file_util.h"
 #include "coordinator/output/output_extension.h"
 #include "coordinator/rundir/run_directory.h"
 #include "coordinator/run/run_engine.h"
@@ -15,6 +16,10 @@
 namespace fs = std::filesystem;
 
 namespace fanfold {
+
+// The run directory's copy of the job file (docs/run-directory.md).
+constexpr const char* kJobCopyName = "job.json";
+
 namespace {
 
 std::string NowIso() {
@@ -80,6 +85,12 @@ CommandOutcome RunJob(const RunOptions& o) {
     out.status = dir.status();
     return out;
   }
+  // A copy of the job file, so `resume` does not depend on the original
+  // staying where it is, unchanged.
+  std::string job_text;
+  out.status = ReadWholeFile(o.job_path, &job_text);
+  if (out.status.ok()) out.status = (*dir)->WriteFile(kJobCopyName, job_text);
+  if (!out.status.ok()) return out;
   if (!o.quiet) std::cerr << "fanfold: run directory: " << run_dir << "\n";
   RunInput in;
   in.plan = job->plan.get();
@@ -101,7 +112,23 @@ CommandOutcome ResumeRun(const RunOptions& given) {
   RunOptions o = given;
   if (o.max_attempts == kAttemptsOfTheRun) o.max_attempts = manifest.attempts;
   if (o.shard_time_limit_ms == kTimeLimitOfTheRun) o.shard_time_limit_ms = manifest.shard_time_limit_ms;
-  Result<std::unique_ptr<Plan>> plan = LoadWorkerPlan(manifest.job_path, manifest.format, manifest.fingerprint);
+  // The run's own copy of the job file when it has one (run directories of
+  // earlier versions do not): the original may have moved or changed.
+  const std::string copy = (fs::path((*dir)->path()) / kJobCopyName).string();
+  std::string copy_text, original_text;
+  const bool have_copy = ReadWholeFile(copy, &copy_text).ok();
+  if (have_copy && !o.quiet) {
+    if (!ReadWholeFile(manifest.job_path, &original_text).ok())
+      std::cerr << "fanfold: the job file '" << manifest.job_path << "' is gone; resuming with the run's copy '"
+                << copy << "'\n";
+    else if (original_text != copy_text)
+      std::cerr << "fanfold: the job file '" << manifest.job_path
+                << "' changed since the run started; resuming with the run's copy '" << copy << "'\n";
+  }
+  Result<std::unique_ptr<Plan>> plan =
+      LoadWorkerPlan(have_copy ? copy : manifest.job_path, manifest.format, manifest.fingerprint);
+  // Relative paths in the job (emit.path) still mean the original's directory.
+  if (plan.ok() && have_copy) (*plan)->spec.base_dir = fs::path(manifest.job_path).parent_path().string();
   if (!plan.ok()) {
     out.status = Status::InvalidArgument("cannot resume '" + o.run_dir + "': " + plan.status().message() +
                                          ". Start a fresh run instead: fanfold run " + manifest.job_path +

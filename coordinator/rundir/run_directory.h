@@ -1,5 +1,6 @@
 // RunDirectory: the on-disk record of one run (layout: docs/run-directory.md)
 //   run.json        RunManifest, written at the start (resume rewrites it when shard files changed)
+//   job.json        a copy of the job file (written by `run`, read by `resume`)
 //   journal.ndjson  append-only events (attempts, timings, failures), one JSON object a line
 //   partials/       packs of persisted partial states: pack-000007.ffpk, one
 //                   per commit batch (see kPackMagic below)

@@ -151,9 +151,14 @@ def main():
         starts = [e for e in journal(ref_dir) if e.get("event") == "start"]
         c.check(starts and starts[-1]["pending"] == 1, "bit flip: only shard 10 recomputed")
 
-        # Intent: a run directory from a different plan is refused.
+        # Intent: a job file changed after the run: resume keeps to the run's copy of it and says so;
+        # without that copy (a run directory of an earlier version) a different plan is refused.
         changed = dict(job_spec, measures=job_spec["measures"][:2])
         lib.write_job(job, changed)
+        rc, _, err = env.fanfold_run("resume", ref_dir, "-o", env.path("resumed-copy.csv"))
+        c.check(rc == 0 and "resuming with the run's copy" in err and read(env.path("resumed-copy.csv")) == ref,
+                "changed job file: resume with the copy: %d %s" % (rc, lib.tail(err)))
+        os.remove(os.path.join(ref_dir, "job.json"))
         rc, _, err = env.fanfold_run("resume", ref_dir)
         c.check(rc == 2 and "changed since the run started" in err and "--fresh" in err,
                 "fingerprint mismatch refused: %d %s" % (rc, lib.tail(err)))

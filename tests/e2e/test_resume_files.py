@@ -6,6 +6,8 @@
   the files that remain);
 * a file changed after its run is recomputed once: the next resume reuses it
   (run.json records the new identity);
+* the run directory keeps a copy of the job file: `resume` uses it, and says
+  so, when the original is gone or changed;
 * `resume` without --attempts uses the run's own (recorded in run.json), and
   --attempts on `resume` overrides it (a worker crash injected on every first
   attempt: the shard fails with 1 attempt, succeeds with 2).
@@ -81,6 +83,24 @@ def main():
                 "the next resume should reuse every shard but the deleted one: %s" % lib.tail(err))
         rows = lib.read_rows(env.path("out3.csv"), "csv")
         c.check(len(rows) == 1 and rows[0]["n"] == want, "count after the touch %r, want %d" % (rows, want))
+
+        # The job file moved, then changed: resume uses the run's copy and says so.
+        moved = env.path("elsewhere", "job.json")
+        os.rename(job, moved)
+        rc, _, err = env.fanfold_run("resume", run_dir, "-o", env.path("out4.csv"))
+        c.check(rc == 1 and "is gone; resuming with the run's copy" in err,
+                "resume with the job file moved: exit %d (want 1, the deleted shard): %s" % (rc, lib.tail(err)))
+        rows = lib.read_rows(env.path("out4.csv"), "csv")
+        c.check(len(rows) == 1 and rows[0]["n"] == want, "count from the copy %r, want %d" % (rows, want))
+        with open(moved) as f:
+            changed = json.load(f)
+        changed["measures"] = [{"name": "other", "fn": "count"}]
+        lib.write_job(job, changed)
+        rc, _, err = env.fanfold_run("resume", run_dir, "-o", env.path("out5.csv"))
+        c.check(rc == 1 and "changed since the run started; resuming with the run's copy" in err,
+                "resume with the job file changed: exit %d: %s" % (rc, lib.tail(err)))
+        rows = lib.read_rows(env.path("out5.csv"), "csv")
+        c.check(len(rows) == 1 and rows[0].get("n") == want, "the changed job leaked into the resume: %r" % rows)
 
         # --attempts: the run's own by default, the flag's when given.
         run2 = env.path("runs", "a")
