@@ -71,6 +71,21 @@ void AppendCellJson(const Cell& c, std::string* out) {
   }
 }
 
+void AppendCsvField(std::string_view s, char sep, std::string* out) {
+  bool quote = false;
+  for (char c : s) quote |= (c == sep || c == '"' || c == '\n' || c == '\r');
+  if (!quote) {
+    out->append(s);
+    return;
+  }
+  out->push_back('"');
+  for (char c : s) {
+    if (c == '"') out->push_back('"');
+    out->push_back(c);
+  }
+  out->push_back('"');
+}
+
 std::string CellJson(const Cell& c) {
   std::string s;
   AppendCellJson(c, &s);

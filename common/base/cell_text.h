@@ -4,6 +4,7 @@
 #pragma once
 
 #include <string>
+#include <string_view>
 
 #include "common/base/cell.h"
 
@@ -11,6 +12,10 @@ namespace fanfold {
 
 // Appends s as a JSON string literal (RFC 8259 escaping) to *out.
 void AppendJsonString(const std::string& s, std::string* out);
+
+// Appends s as one CSV/TSV field (RFC 4180): as it is, or in double quotes
+// with quotes doubled when it holds sep, a quote, CR or LF.
+void AppendCsvField(std::string_view s, char sep, std::string* out);
 
 // The cell as JSON text. Non-finite numbers become the JSON strings "inf",
 // "-inf" and "nan": the text CSV and the table show for them.

@@ -10,19 +10,6 @@
 namespace fanfold {
 namespace {
 
-void AppendCsvField(const std::string& s, std::string* out) {
-  if (s.find_first_of(",\"\r\n") == std::string::npos) {
-    *out += s;
-    return;
-  }
-  out->push_back('"');
-  for (char c : s) {
-    if (c == '"') out->push_back('"');
-    out->push_back(c);
-  }
-  out->push_back('"');
-}
-
 // A scalar cell's CSV/table text: a finite float rounded to o.digits
 // significant digits when asked, anything else as CellText.
 std::string PlainText(const Cell& c, const RenderOptions& o) {
@@ -37,13 +24,13 @@ std::string RenderCsv(const OutputTable& t, const RenderOptions& o) {
   std::string out;
   for (size_t c = 0; c < t.columns.size(); ++c) {
     if (c) out.push_back(',');
-    AppendCsvField(t.columns[c], &out);
+    AppendCsvField(t.columns[c], ',', &out);
   }
   out.push_back('\n');
   for (const auto& row : t.rows) {
     for (size_t c = 0; c < row.size(); ++c) {
       if (c) out.push_back(',');
-      AppendCsvField(PlainText(row[c], o), &out);
+      AppendCsvField(PlainText(row[c], o), ',', &out);
     }
     out.push_back('\n');
   }

@@ -3,6 +3,8 @@
 #include <charconv>
 #include <cstdio>
 
+#include "common/base/cell_text.h"
+
 namespace fanfold::gen {
 namespace {
 
@@ -172,21 +174,6 @@ void WriteBrokenJson(const LampWorld& w, const LampEvent& e, std::string* out) {
   }
 }
 
-void AppendCell(std::string_view s, char sep, std::string* out) {
-  bool quote = false;
-  for (char c : s) quote |= (c == sep || c == '"' || c == '\n' || c == '\r');
-  if (!quote) {
-    out->append(s);
-    return;
-  }
-  out->push_back('"');
-  for (char c : s) {
-    if (c == '"') out->push_back('"');
-    out->push_back(c);
-  }
-  out->push_back('"');
-}
-
 // The cells of one record, in CsvColumns() order.
 void CsvCells(const LampWorld& w, const LampEvent& e, std::string cells[kCsvFieldCount]) {
   for (int i = 0; i < kCsvFieldCount; ++i) cells[i].clear();
@@ -228,7 +215,7 @@ void WriteCsvRow(const LampWorld& w, const LampEvent& e, char sep, std::string c
   }
   for (int i = 0; i < fields; ++i) {
     if (i > 0) out->push_back(sep);
-    AppendCell(cells[i], sep, out);
+    AppendCsvField(cells[i], sep, out);
   }
   for (int i = 0; i < extra; ++i) {
     out->push_back(sep);
