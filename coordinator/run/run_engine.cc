@@ -211,6 +211,7 @@ void RunEngine::Tally() {
 Status RunEngine::Stop() {
   dir_.StageJournal(InterruptedEventLine(WallNanos()));
   (void)dir_.Commit();
+  summary_.shards_saved = dir_.committed_count();
   for (const auto& line : FormatRunSummary(summary_, list_)) Note(line);
   Note("interrupted; finished shards are saved. To finish the run: fanfold resume " + dir_.path());
   return Status::Interrupted("run interrupted by signal " + std::to_string(SignalGuard::signal_number()));

@@ -35,10 +35,18 @@ std::vector<std::string> FormatRunSummary(const RunSummary& s, const ShardList& 
   char rate[64];
   double mbps = s.wall_seconds > 0 ? static_cast<double>(t.raw_bytes) / 1e6 / s.wall_seconds : 0;
   snprintf(rate, sizeof rate, "%.2f s, %.1f MB/s", s.wall_seconds, mbps);
-  std::string line = std::to_string(t.shards_merged) + " of " + std::to_string(s.shards_total) + " shards done, " +
-                     std::to_string(s.failures.size()) + " failed";
-  if (s.interrupted) line += " (interrupted)";
-  line += " | records: " + GroupedInteger(t.records) + " read, " + GroupedInteger(t.kept) + " kept, " +
+  std::string line;
+  if (s.interrupted) {
+    // What is saved is what counts; the record totals cover only the shards
+    // merged (in shard order) before the signal, and say so.
+    line = std::to_string(s.shards_saved) + " of " + std::to_string(s.shards_total) + " shards saved, " +
+           std::to_string(s.failures.size()) + " failed (interrupted) | merged so far: " +
+           std::to_string(t.shards_merged) + " shards,";
+  } else {
+    line = std::to_string(t.shards_merged) + " of " + std::to_string(s.shards_total) + " shards done, " +
+           std::to_string(s.failures.size()) + " failed |";
+  }
+  line += " records: " + GroupedInteger(t.records) + " read, " + GroupedInteger(t.kept) + " kept, " +
           GroupedInteger(t.malformed) + " malformed | " + Megabytes(t.compressed_bytes) + " in, " +
           Megabytes(t.raw_bytes) + " decompressed | " + rate;
   lines.push_back(line);

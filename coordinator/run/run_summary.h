@@ -19,6 +19,10 @@ struct RunSummary {
   std::vector<ShardFailure> failures;
   double wall_seconds = 0;
   bool interrupted = false;
+  // Interrupted runs: shards whose partial is committed in the run directory
+  // (what `resume` keeps). Shards finish out of order and are merged in
+  // order, so this is usually more than totals.shards_merged.
+  size_t shards_saved = 0;
 };
 
 // "1,234,567"

@@ -9,6 +9,7 @@ import glob
 import json
 import os
 import random
+import re
 import signal
 import subprocess
 import sys
@@ -177,6 +178,13 @@ def main():
         err = err.decode()
         if proc.returncode == 130:
             c.check("fanfold resume" in err, "SIGINT: hint on how to resume")
+            # Intent: the summary's count is what the run directory holds (read back from the packs by the
+            # format in docs/run-directory.md, independently of fanfold).
+            m = re.search(r"(\d+) of (\d+) shards saved", err)
+            saved = len(pack_entries(rd))
+            c.check(m is not None and int(m.group(1)) == saved,
+                    "SIGINT: the summary says %s shards saved, the run directory holds %d: %s"
+                    % (m.group(1) if m else None, saved, lib.tail(err)))
             rc, _, err2 = env.fanfold_run("resume", rd, "-o", env.path("sigint.csv"))
             c.check(rc == 0 and read(env.path("sigint.csv")) == ref, "SIGINT: resume gives identical output")
         else:
@@ -184,6 +192,27 @@ def main():
         leaked = lib.leaked_segments()
         c.check(leaked == [], "SIGINT: no segment left: %s (the interrupted coordinator was pid %d, exit %d; %s)"
                 % (leaked, proc.pid, proc.returncode, lib.tail(err)))
+
+        # Intent: SIGINT at random moments while a shard hangs (so the run is surely still going): the
+        # summary's "N of M shards saved" equals the shards with committed partials, read back from the packs.
+        rng_int = random.Random(41)
+        for i in range(3):
+            rd = env.path("runs", "sigint-count-%d" % i)
+            os.environ["FANFOLD_TEST_ONLY_FAULTS"] = "inject:stall:shard=%d,attempt=1" % rng_int.randrange(len(shards))
+            try:
+                proc = subprocess.Popen([env.fanfold, "run", job, "-j", "2", "-o", env.path("sc.csv"), "--run-dir", rd],
+                                        stdout=subprocess.PIPE, stderr=subprocess.PIPE, cwd=env.tmp)
+            finally:
+                del os.environ["FANFOLD_TEST_ONLY_FAULTS"]
+            time.sleep(rng_int.uniform(0.05, 0.6))
+            proc.send_signal(signal.SIGINT)
+            _, err = proc.communicate(timeout=60)
+            err = err.decode()
+            m = re.search(r"(\d+) of (\d+) shards saved", err)
+            saved = len(pack_entries(rd))
+            c.check(proc.returncode == 130 and m is not None and int(m.group(1)) == saved,
+                    "SIGINT %d: exit %d, summary says %s saved, the run directory holds %d: %s"
+                    % (i, proc.returncode, m.group(1) if m else None, saved, lib.tail(err)))
 
         # Randomised: SIGKILL a random worker at a random moment.
         for t in range(TRIALS):

@@ -27,6 +27,24 @@ TEST_CASE("run_summary: malformed samples name the file, the chunk and the line"
   CHECK(lines[2].rfind("0 of 2 shards done, 0 failed", 0) == 0);
 }
 
+// Intent: an interrupted run counts the shards saved in the run directory
+// (21 committed, though only 2 could be merged in shard order), and labels
+// the record totals as those of the merged shards.
+TEST_CASE("run_summary: an interrupted run counts what is saved") {
+  ShardList list;
+  list.shards.resize(64);
+  RunSummary s;
+  s.shards_total = 64;
+  s.interrupted = true;
+  s.shards_saved = 21;
+  s.totals.shards_merged = 2;
+  s.totals.records = 1500;
+  const std::vector<std::string> lines = FormatRunSummary(s, list);
+  REQUIRE(lines.size() == 1);
+  CHECK(lines[0].rfind("21 of 64 shards saved, 0 failed (interrupted) | merged so far: 2 shards, records: 1,500 read",
+                       0) == 0);
+}
+
 // Intent: numbers are grouped by thousands and bytes given in decimal MB.
 TEST_CASE("run_summary: number formats") {
   CHECK(GroupedInteger(0) == "0");
