@@ -318,7 +318,9 @@ Result<JobSpec> LoadJobSpec(const std::string& path) {
   if (!in) return Status::InvalidArgument("cannot read job file '" + path + "'");
   std::stringstream ss;
   ss << in.rdbuf();
-  return ParseJobSpec(ss.str(), path);
+  Result<JobSpec> spec = ParseJobSpec(ss.str(), path);
+  if (spec.ok()) spec->source_text = ss.str();
+  return spec;
 }
 
 const char* MeasureFnName(MeasureKind kind) { return MeasureRowOf(kind).fn; }

@@ -50,6 +50,7 @@ struct EmitSpec {
 struct JobSpec {
   std::string job_path;   // as given by the user
   std::string base_dir;   // directory that relative paths start from
+  std::string source_text;  // LoadJobSpec: the file's bytes as read (the run directory keeps a copy)
   std::string about;
   std::vector<std::string> files;   // patterns and paths, as written
   std::optional<RecordFormat> format;  // absent = inferred per file name

@@ -17,9 +17,6 @@ namespace fs = std::filesystem;
 
 namespace fanfold {
 
-// The run directory's copy of the job file (docs/run-directory.md).
-constexpr const char* kJobCopyName = "job.json";
-
 namespace {
 
 std::string NowIso() {
@@ -85,11 +82,9 @@ CommandOutcome RunJob(const RunOptions& o) {
     out.status = dir.status();
     return out;
   }
-  // A copy of the job file, so `resume` does not depend on the original
-  // staying where it is, unchanged.
-  std::string job_text;
-  out.status = ReadWholeFile(o.job_path, &job_text);
-  if (out.status.ok()) out.status = (*dir)->WriteFile(kJobCopyName, job_text);
+  // A copy of the job file as compiled (not read again: it may have changed
+  // since), so `resume` does not depend on the original staying put.
+  out.status = (*dir)->WriteFile(kJobCopyFile, job->plan->spec.source_text);
   if (!out.status.ok()) return out;
   if (!o.quiet) std::cerr << "fanfold: run directory: " << run_dir << "\n";
   RunInput in;
@@ -114,7 +109,7 @@ CommandOutcome ResumeRun(const RunOptions& given) {
   if (o.shard_time_limit_ms == kTimeLimitOfTheRun) o.shard_time_limit_ms = manifest.shard_time_limit_ms;
   // The run's own copy of the job file when it has one (run directories of
   // earlier versions do not): the original may have moved or changed.
-  const std::string copy = (fs::path((*dir)->path()) / kJobCopyName).string();
+  const std::string copy = (fs::path((*dir)->path()) / kJobCopyFile).string();
   std::string copy_text, original_text;
   const bool have_copy = ReadWholeFile(copy, &copy_text).ok();
   if (have_copy && !o.quiet) {

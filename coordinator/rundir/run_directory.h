@@ -38,6 +38,9 @@
 
 namespace fanfold {
 
+// The run directory's copy of the job file (written by `run`, read by `resume`).
+inline constexpr const char* kJobCopyFile = "job.json";
+
 class RunDirectory {
  public:
   ~RunDirectory();
