@@ -15,7 +15,7 @@ struct Cell {
   enum class Kind : uint8_t { kNull, kBool, kInt, kFloat, kString, kList, kRecord };
   Kind kind = Kind::kNull;
   bool boolean = false;
-  int64_t integer = 0;
+  __int128 integer = 0;  // kInt: exact, so int64, uint64 and wider exact sums all print as they are
   double number = 0;
   std::string str;
   std::vector<Cell> items;          // kList: elements; kRecord: field values
@@ -23,7 +23,7 @@ struct Cell {
 
   static Cell Null() { return Cell{}; }
   static Cell Bool(bool b) { Cell c; c.kind = Kind::kBool; c.boolean = b; return c; }
-  static Cell Int(int64_t v) { Cell c; c.kind = Kind::kInt; c.integer = v; return c; }
+  static Cell Int(__int128 v) { Cell c; c.kind = Kind::kInt; c.integer = v; return c; }
   static Cell Float(double v) { Cell c; c.kind = Kind::kFloat; c.number = v; return c; }
   static Cell String(std::string s) { Cell c; c.kind = Kind::kString; c.str = std::move(s); return c; }
   static Cell List(std::vector<Cell> items) {

@@ -41,7 +41,7 @@ void AppendCellJson(const Cell& c, std::string* out) {
   switch (c.kind) {
     case Cell::Kind::kNull: *out += "null"; break;
     case Cell::Kind::kBool: *out += c.boolean ? "true" : "false"; break;
-    case Cell::Kind::kInt: *out += std::to_string(c.integer); break;
+    case Cell::Kind::kInt: AppendWideInt(c.integer, out); break;
     case Cell::Kind::kFloat:
       // JSON has no literal for them: a non-finite number is the string
       // CSV and the table print ("inf", "-inf", "nan"), so every format
@@ -96,7 +96,11 @@ std::string CellText(const Cell& c) {
   switch (c.kind) {
     case Cell::Kind::kNull: return "";
     case Cell::Kind::kBool: return c.boolean ? "true" : "false";
-    case Cell::Kind::kInt: return std::to_string(c.integer);
+    case Cell::Kind::kInt: {
+      std::string text;
+      AppendWideInt(c.integer, &text);
+      return text;
+    }
     case Cell::Kind::kFloat: return NumberText(c.number);
     case Cell::Kind::kString: return c.str;
     default: return CellJson(c);

@@ -21,4 +21,18 @@ std::string_view FormatNumber(double v, char* buf) {
   return {buf, static_cast<size_t>(r.ptr - buf)};
 }
 
+void AppendWideInt(__int128 v, std::string* out) {
+  // Digits of the magnitude, least significant first; unsigned so that the
+  // most negative value has a magnitude too.
+  unsigned __int128 m = v < 0 ? -static_cast<unsigned __int128>(v) : static_cast<unsigned __int128>(v);
+  char digits[40];
+  size_t n = 0;
+  do {
+    digits[n++] = static_cast<char>('0' + static_cast<int>(m % 10));
+    m /= 10;
+  } while (m != 0);
+  if (v < 0) out->push_back('-');
+  while (n > 0) out->push_back(digits[--n]);
+}
+
 }  // namespace fanfold

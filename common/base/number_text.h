@@ -5,6 +5,7 @@
 #pragma once
 
 #include <cstddef>
+#include <string>
 #include <string_view>
 
 namespace fanfold {
@@ -16,5 +17,8 @@ inline constexpr size_t kNumberTextMax = 40;
 // a view of it. Integers print without a fraction ("100000", not "1e+05");
 // -0 prints as "0"; NaN and infinities as "nan", "inf", "-inf".
 std::string_view FormatNumber(double v, char* buf);
+
+// Appends the decimal digits of the exact integer v (sign if negative) to *out.
+void AppendWideInt(__int128 v, std::string* out);
 
 }  // namespace fanfold

@@ -3,10 +3,16 @@
 // (valid until the reader moves to the next record) or into a ScratchArena
 // (valid until the arena is reset). Values never own memory, so evaluating a
 // record allocates nothing. Plain data; thread-compatible.
+//
+// Numbers are exact where the input is: a JSON integer or an integer text in
+// [-2^63, 2^64-1] is a number whose `rep` says it is an integer (int64 or, above
+// INT64_MAX, uint64), held exactly in `bits`; `number` is always its nearest
+// double, so code that only needs a double reads `number` as before.
 #pragma once
 
 #include <charconv>
 #include <cmath>
+#include <climits>
 #include <cstdint>
 #include <string_view>
 
@@ -16,23 +22,78 @@ enum class ValueKind : uint8_t {
   kMissing = 0,  // field absent (or empty CSV cell)
   kNull = 1,     // JSON null
   kBool = 2,
-  kNumber = 3,   // IEEE 754 double
+  kNumber = 3,   // a number: IEEE 754 double, or an exact integer (see NumberRep)
   kString = 4,
   kOther = 5,    // a JSON object or array: present, but not a scalar
 };
 
+// How a kNumber holds its exact value. Canonical: kUint64 only above INT64_MAX.
+enum class NumberRep : uint8_t {
+  kDouble = 0,  // `number` is the value
+  kInt64 = 1,   // static_cast<int64_t>(bits) is the value; `number` its nearest double
+  kUint64 = 2,  // bits is the value (> INT64_MAX); `number` its nearest double
+};
+
+// The widest exact integer arithmetic works in: every int64 and uint64, and
+// their sums, differences and products, without overflow.
+using WideInt = __int128;
+
 struct Value {
   ValueKind kind = ValueKind::kMissing;
   bool boolean = false;
+  NumberRep rep = NumberRep::kDouble;
   double number = 0;
+  uint64_t bits = 0;
   std::string_view str;
 
   static Value Missing() { return Value{}; }
-  static Value Null() { return Value{ValueKind::kNull, false, 0, {}}; }
-  static Value Bool(bool b) { return Value{ValueKind::kBool, b, 0, {}}; }
-  static Value Number(double d) { return Value{ValueKind::kNumber, false, d, {}}; }
-  static Value String(std::string_view s) { return Value{ValueKind::kString, false, 0, s}; }
-  static Value Other() { return Value{ValueKind::kOther, false, 0, {}}; }
+  static Value Null() { return Make(ValueKind::kNull); }
+  static Value Bool(bool b) {
+    Value v = Make(ValueKind::kBool);
+    v.boolean = b;
+    return v;
+  }
+  static Value Number(double d) {
+    Value v = Make(ValueKind::kNumber);
+    v.number = d;
+    return v;
+  }
+  static Value Int(int64_t i) {
+    Value v = Make(ValueKind::kNumber);
+    v.rep = NumberRep::kInt64;
+    v.bits = static_cast<uint64_t>(i);
+    v.number = static_cast<double>(i);
+    return v;
+  }
+  static Value Uint(uint64_t u) {
+    if (u <= static_cast<uint64_t>(INT64_MAX)) return Int(static_cast<int64_t>(u));
+    Value v = Make(ValueKind::kNumber);
+    v.rep = NumberRep::kUint64;
+    v.bits = u;
+    v.number = static_cast<double>(u);
+    return v;
+  }
+  // The exact integer w when it lies in [-2^63, 2^64-1]; beyond, the nearest
+  // double (the documented overflow rule of integer arithmetic).
+  static Value FromWide(WideInt w) {
+    if (w >= INT64_MIN && w <= INT64_MAX) return Int(static_cast<int64_t>(w));
+    if (w > 0 && w <= static_cast<WideInt>(UINT64_MAX)) return Uint(static_cast<uint64_t>(w));
+    return Number(static_cast<double>(w));
+  }
+  static Value String(std::string_view s) {
+    Value v = Make(ValueKind::kString);
+    v.str = s;
+    return v;
+  }
+  static Value Other() { return Make(ValueKind::kOther); }
+
+  // True iff this is a number held as an exact integer.
+  bool is_integer() const { return kind == ValueKind::kNumber && rep != NumberRep::kDouble; }
+  // The exact integer. REQUIRES: is_integer().
+  WideInt Wide() const {
+    return rep == NumberRep::kUint64 ? static_cast<WideInt>(bits)
+                                     : static_cast<WideInt>(static_cast<int64_t>(bits));
+  }
 
   bool is_missing() const { return kind == ValueKind::kMissing; }
   // "Present" means the record has something there other than null.
@@ -56,15 +117,54 @@ struct Value {
     return ec == std::errc() && p == e && std::isfinite(*out);
   }
 
+  // Exact numeric view: numbers as they are; a string that is an optional
+  // sign and decimal digits only, within [-2^63, 2^64-1], as that exact
+  // integer; any other string AsNumber accepts as its double.
+  // Returns true iff *out was set (to a kNumber).
+  bool AsNumeric(Value* out) const {
+    if (kind == ValueKind::kNumber) {
+      *out = *this;
+      return true;
+    }
+    if (kind != ValueKind::kString || str.empty()) return false;
+    const char* b = str.data();
+    const char* e = b + str.size();
+    const bool negative = *b == '-';
+    if (*b == '+' || *b == '-') ++b;
+    uint64_t magnitude = 0;
+    auto [p, ec] = std::from_chars(b, e, magnitude);
+    if (ec == std::errc() && p == e && b != e) {
+      if (!negative) {
+        *out = Uint(magnitude);
+        return true;
+      }
+      if (magnitude <= static_cast<uint64_t>(INT64_MAX) + 1) {
+        *out = FromWide(-static_cast<WideInt>(magnitude));
+        return true;
+      }
+    }
+    double d = 0;
+    if (!AsNumber(&d)) return false;
+    *out = Number(d);
+    return true;
+  }
+
   // Truthiness used by filters: true, non-zero numbers and non-empty strings.
   bool Truthy() const {
     switch (kind) {
       case ValueKind::kBool: return boolean;
-      case ValueKind::kNumber: return number != 0;
+      case ValueKind::kNumber: return is_integer() ? bits != 0 : number != 0;
       case ValueKind::kString: return !str.empty();
       case ValueKind::kOther: return true;
       default: return false;
     }
+  }
+
+ private:
+  static Value Make(ValueKind k) {
+    Value v;
+    v.kind = k;
+    return v;
   }
 };
 

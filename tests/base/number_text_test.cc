@@ -96,3 +96,26 @@ PYEOF
 }
 
 }  // namespace fanfold
+
+namespace fanfold {
+namespace {
+
+// Intent: exact integers print as Python's str(int) does, at the 64-bit edges and beyond.
+TEST_CASE("AppendWideInt prints exact integers") {
+  auto text = [](__int128 v) {
+    std::string s;
+    AppendWideInt(v, &s);
+    return s;
+  };
+  CHECK(text(0) == "0");
+  CHECK(text(-1) == "-1");
+  CHECK(text(INT64_MIN) == "-9223372036854775808");    // Python: str(-2**63)
+  CHECK(text(UINT64_MAX) == "18446744073709551615");   // Python: str(2**64 - 1)
+  CHECK(text(static_cast<__int128>(UINT64_MAX) * 1000 + 7) ==
+        "18446744073709551615007");                    // Python: str((2**64 - 1) * 1000 + 7)
+  const __int128 most_negative = -(static_cast<__int128>(1) << 126) * 2;
+  CHECK(text(most_negative) == "-170141183460469231731687303715884105728");  // Python: str(-2**127)
+}
+
+}  // namespace
+}  // namespace fanfold

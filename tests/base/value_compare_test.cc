@@ -63,3 +63,43 @@ TEST_CASE("CompareToConstant and MirrorCompareOp agree with CompareValues") {
 }
 
 }  // namespace fanfold
+
+namespace fanfold {
+namespace {
+
+// Intent: integer text reads exactly where Python's int() does, and falls back to the double beyond 64 bits.
+TEST_CASE("Value::AsNumeric keeps integer text exact") {
+  Value v;
+  REQUIRE(Value::String("9007199254740993").AsNumeric(&v));
+  CHECK(v.is_integer());
+  CHECK(v.Wide() == 9007199254740993);  // Python: int("9007199254740993")
+  REQUIRE(Value::String("18446744073709551615").AsNumeric(&v));
+  CHECK(v.rep == NumberRep::kUint64);
+  CHECK(v.bits == UINT64_MAX);
+  REQUIRE(Value::String("-9223372036854775808").AsNumeric(&v));
+  CHECK(v.rep == NumberRep::kInt64);
+  CHECK(v.Wide() == INT64_MIN);
+  REQUIRE(Value::String("+42").AsNumeric(&v));
+  CHECK(v.Wide() == 42);
+  REQUIRE(Value::String("-9223372036854775809").AsNumeric(&v));  // below int64: the double
+  CHECK_FALSE(v.is_integer());
+  CHECK(v.number == -9223372036854775809.0);
+  REQUIRE(Value::String("12.5").AsNumeric(&v));
+  CHECK_FALSE(v.is_integer());
+  CHECK(v.number == 12.5);
+  CHECK_FALSE(Value::String("12x").AsNumeric(&v));
+  CHECK_FALSE(Value::String("-").AsNumeric(&v));
+}
+
+// Intent: wide results beyond 64 bits become the nearest double; inside they stay exact.
+TEST_CASE("Value::FromWide canonicalises") {
+  CHECK(Value::FromWide(static_cast<WideInt>(INT64_MAX) + 1).rep == NumberRep::kUint64);
+  CHECK(Value::FromWide(5).rep == NumberRep::kInt64);
+  const Value beyond = Value::FromWide(static_cast<WideInt>(UINT64_MAX) + 1);
+  CHECK_FALSE(beyond.is_integer());
+  CHECK(beyond.number == 18446744073709551616.0);  // 2^64 exactly
+  CHECK(Value::Uint(7).rep == NumberRep::kInt64);
+}
+
+}  // namespace
+}  // namespace fanfold
