@@ -9,6 +9,6 @@
 
 namespace fanfold {
 
-inline constexpr uint16_t kPartialFormatVersion = 2;  // 2: DDSketch stores run-length encode empty buckets
+inline constexpr uint16_t kPartialFormatVersion = 3;  // 3: exact integers in value keys and group keys
 
 }  // namespace fanfold

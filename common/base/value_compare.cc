@@ -1,19 +1,22 @@
 #include "common/base/value_compare.h"
 
+#include <cmath>
 #include <string_view>
 
 namespace fanfold {
 namespace {
 
-// IEEE semantics: with a NaN only != holds.
-bool Order(CompareOp op, double x, double y) {
+// The answer of `op` given the order c of its operands (-1, 0, 1 or
+// kUnordered); unordered (IEEE 754 NaN) satisfies only !=.
+bool Holds(CompareOp op, int c) {
+  if (c == kUnordered) return op == CompareOp::kNe;
   switch (op) {
-    case CompareOp::kEq: return x == y;
-    case CompareOp::kNe: return x != y;
-    case CompareOp::kLt: return x < y;
-    case CompareOp::kLe: return x <= y;
-    case CompareOp::kGt: return x > y;
-    case CompareOp::kGe: return x >= y;
+    case CompareOp::kEq: return c == 0;
+    case CompareOp::kNe: return c != 0;
+    case CompareOp::kLt: return c < 0;
+    case CompareOp::kLe: return c <= 0;
+    case CompareOp::kGt: return c > 0;
+    case CompareOp::kGe: return c >= 0;
   }
   return false;
 }
@@ -21,7 +24,7 @@ bool Order(CompareOp op, double x, double y) {
 bool OrderText(CompareOp op, std::string_view a, std::string_view b) {
   // std::char_traits<char>::compare orders bytes as unsigned char.
   const int c = a.compare(b);
-  return Order(op, c, 0);
+  return Holds(op, c < 0 ? -1 : (c > 0 ? 1 : 0));
 }
 
 // Both present, not both numeric.
@@ -37,6 +40,38 @@ bool CompareNonNumeric(CompareOp op, const Value& l, const Value& r) {
 
 }  // namespace
 
+int CompareWideToDouble(WideInt w, double d) {
+  if (std::isnan(d)) return kUnordered;
+  // 2^127 bounds every WideInt; beyond it (infinities included) the double wins.
+  constexpr double kTwo127 = 170141183460469231731687303715884105728.0;
+  if (d >= kTwo127) return -1;
+  if (d < -kTwo127) return 1;
+  // floor(d) is an integer in [-2^127, 2^127): exact as a WideInt.
+  const double f = std::floor(d);
+  const WideInt fi = static_cast<WideInt>(f);
+  if (w < fi) return -1;
+  if (w > fi) return 1;
+  return d > f ? -1 : 0;  // w == floor(d): less iff d has a fraction
+}
+
+int CompareNumbers(const Value& a, const Value& b) {
+  if (a.is_integer()) {
+    if (b.is_integer()) {
+      const WideInt x = a.Wide(), y = b.Wide();
+      return x < y ? -1 : (x > y ? 1 : 0);
+    }
+    return CompareWideToDouble(a.Wide(), b.number);
+  }
+  if (b.is_integer()) {
+    const int c = CompareWideToDouble(b.Wide(), a.number);
+    return c == kUnordered ? c : -c;
+  }
+  const double x = a.number, y = b.number;
+  if (x < y) return -1;
+  if (x > y) return 1;
+  return x == y ? 0 : kUnordered;
+}
+
 CompareOp MirrorCompareOp(CompareOp op) {
   switch (op) {
     case CompareOp::kLt: return CompareOp::kGt;
@@ -49,24 +84,31 @@ CompareOp MirrorCompareOp(CompareOp op) {
 
 bool CompareValues(CompareOp op, const Value& l, const Value& r) {
   if (!l.is_present() || !r.is_present()) return false;
-  double x, y;
-  if (l.AsNumber(&x) && r.AsNumber(&y)) return Order(op, x, y);
+  Value x, y;
+  if (l.AsNumeric(&x) && r.AsNumeric(&y)) return Holds(op, CompareNumbers(x, y));
   return CompareNonNumeric(op, l, r);
 }
 
 CompareConstant MakeCompareConstant(const Value& v) {
   CompareConstant c;
   c.value = v;
-  c.numeric = v.AsNumber(&c.number);
+  c.numeric = v.AsNumeric(&c.number);
   return c;
 }
 
 bool CompareToConstant(CompareOp op, const Value& l, const CompareConstant& c) {
   if (!l.is_present() || !c.value.is_present()) return false;
   if (c.numeric) {
-    double x;
-    if (l.kind == ValueKind::kNumber) return Order(op, l.number, c.number);
-    if (l.AsNumber(&x)) return Order(op, x, c.number);
+    if (l.kind == ValueKind::kNumber) {
+      // The common case, two doubles, without the exact machinery.
+      if (!l.is_integer() && !c.number.is_integer()) {
+        const double x = l.number, y = c.number.number;
+        return Holds(op, x < y ? -1 : (x > y ? 1 : (x == y ? 0 : kUnordered)));
+      }
+      return Holds(op, CompareNumbers(l, c.number));
+    }
+    Value x;
+    if (l.AsNumeric(&x)) return Holds(op, CompareNumbers(x, c.number));
   }
   return CompareNonNumeric(op, l, c.value);
 }

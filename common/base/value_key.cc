@@ -3,7 +3,9 @@
 #include <xxhash.h>
 
 #include <bit>
+#include <climits>
 #include <cmath>
+#include <cstdint>
 #include <limits>
 
 namespace fanfold {
@@ -36,6 +38,48 @@ uint64_t GetBigEndian(const char* p) {
   return v;
 }
 
+constexpr int kResidualBias = 32768;
+constexpr size_t kNumberPayload = 10;  // the double's image and the residual
+
+// The nearest double of a number and what the exact value exceeds it by.
+// Doubles are exact (residual 0); integers round to nearest.
+void NumberParts(const Value& v, double* d, int* residual) {
+  if (!v.is_integer()) {
+    *d = CanonicalDouble(v.number);
+    *residual = 0;
+    return;
+  }
+  const WideInt w = v.Wide();
+  *d = static_cast<double>(w);
+  *residual = static_cast<int>(w - static_cast<WideInt>(*d));
+}
+
+void PutNumberPayload(const Value& v, char* p) {
+  double d;
+  int residual;
+  NumberParts(v, &d, &residual);
+  PutBigEndian(OrderedBits(d), p);
+  const unsigned biased = static_cast<unsigned>(residual + kResidualBias);
+  p[8] = static_cast<char>(biased >> 8);
+  p[9] = static_cast<char>(biased & 0xff);
+}
+
+int GetResidual(const char* p) {
+  return static_cast<int>((static_cast<unsigned>(static_cast<uint8_t>(p[0])) << 8) |
+                          static_cast<uint8_t>(p[1])) -
+         kResidualBias;
+}
+
+// The exact integer d + residual when it is one within [-2^63, 2^64).
+bool ExactInteger(double d, int residual, WideInt* out) {
+  constexpr double kTwo64 = 18446744073709551616.0;
+  if (!(d >= -kTwo64 && d <= kTwo64) || std::floor(d) != d) return false;
+  const WideInt w = static_cast<WideInt>(d) + residual;
+  if (w < static_cast<WideInt>(INT64_MIN) || w > static_cast<WideInt>(UINT64_MAX)) return false;
+  *out = w;
+  return true;
+}
+
 }  // namespace
 
 double CanonicalDouble(double d) {
@@ -50,9 +94,9 @@ bool MakeValueKey(const Value& v, std::string* out) {
       out->push_back(v.boolean ? 1 : 0);
       return true;
     case ValueKind::kNumber: {
-      char buf[9];
+      char buf[1 + kNumberPayload];
       buf[0] = kValueKeyNumber;
-      PutBigEndian(OrderedBits(CanonicalDouble(v.number)), buf + 1);
+      PutNumberPayload(v, buf + 1);
       out->assign(buf, sizeof buf);
       return true;
     }
@@ -72,8 +116,8 @@ uint64_t HashValueKey(const Value& v) {
       return XXH3_64bits_withSeed(&b, 1, kValueKeyBool);
     }
     case ValueKind::kNumber: {
-      char buf[8];
-      PutBigEndian(OrderedBits(CanonicalDouble(v.number)), buf);
+      char buf[kNumberPayload];
+      PutNumberPayload(v, buf);
       return XXH3_64bits_withSeed(buf, sizeof buf, kValueKeyNumber);
     }
     default:
@@ -87,9 +131,14 @@ bool IsValidValueKey(std::string_view key) {
     case kValueKeyBool:
       return key.size() == 2 && (key[1] == 0 || key[1] == 1);
     case kValueKeyNumber: {
-      if (key.size() != 9) return false;
+      if (key.size() != 1 + kNumberPayload) return false;
       const double d = FromOrderedBits(GetBigEndian(key.data() + 1));
-      return std::bit_cast<uint64_t>(d) == std::bit_cast<uint64_t>(CanonicalDouble(d));
+      if (std::bit_cast<uint64_t>(d) != std::bit_cast<uint64_t>(CanonicalDouble(d))) return false;
+      const int residual = GetResidual(key.data() + 9);
+      if (residual == 0) return true;
+      // Canonical: d is the nearest double of the exact integer d + residual.
+      WideInt w;
+      return ExactInteger(d, residual, &w) && static_cast<double>(w) == d;
     }
     case kValueKeyString:
       return true;
@@ -102,8 +151,12 @@ Cell ValueKeyToCell(std::string_view key) {
   switch (key[0]) {
     case kValueKeyBool:
       return Cell::Bool(key[1] != 0);
-    case kValueKeyNumber:
-      return Cell::Float(FromOrderedBits(GetBigEndian(key.data() + 1)));
+    case kValueKeyNumber: {
+      const double d = FromOrderedBits(GetBigEndian(key.data() + 1));
+      WideInt w;
+      if (ExactInteger(d, GetResidual(key.data() + 9), &w)) return Cell::Int(w);
+      return Cell::Float(d);
+    }
     default:
       return Cell::String(std::string(key.substr(1)));
   }

@@ -1,11 +1,21 @@
 #include "common/partial/group_key.h"
 
+#include <climits>
 #include <cmath>
+#include <cstdint>
 
 #include "common/base/byte_io.h"
 #include "common/base/cell_text.h"
+#include "common/base/value_compare.h"
 
 namespace fanfold {
+namespace {
+constexpr uint8_t kTagDouble = 0x03;
+constexpr uint8_t kTagInt64 = 0x05;
+constexpr uint8_t kTagUint64 = 0x06;
+constexpr double kTwo63 = 9223372036854775808.0;
+constexpr double kTwo64 = 18446744073709551616.0;
+}  // namespace
 
 void AppendKeyValue(const Value& v, std::string* key) {
   ByteWriter w(key);
@@ -13,10 +23,28 @@ void AppendKeyValue(const Value& v, std::string* key) {
     case ValueKind::kBool:
       w.U8(v.boolean ? 0x02 : 0x01);
       return;
-    case ValueKind::kNumber:
-      w.U8(0x03);
-      w.F64(v.number == 0 ? 0.0 : v.number);
+    case ValueKind::kNumber: {
+      if (v.is_integer()) {
+        w.U8(v.rep == NumberRep::kUint64 ? kTagUint64 : kTagInt64);
+        w.U64(v.bits);
+        return;
+      }
+      const double d = v.number;
+      // An integral double in range is keyed as that integer (see the header).
+      if (d >= -kTwo63 && d < kTwo64 && std::floor(d) == d) {
+        if (d < kTwo63) {
+          w.U8(kTagInt64);
+          w.I64(static_cast<int64_t>(d));
+        } else {
+          w.U8(kTagUint64);
+          w.U64(static_cast<uint64_t>(d));
+        }
+        return;
+      }
+      w.U8(kTagDouble);
+      w.F64(d);
       return;
+    }
     case ValueKind::kString:
       w.U8(0x04);
       w.Str(v.str);
@@ -35,8 +63,22 @@ Status DecodeKey(std::string_view key, size_t arity, std::vector<Cell>* out) {
       case 0x00: out->push_back(Cell::Null()); break;
       case 0x01: out->push_back(Cell::Bool(false)); break;
       case 0x02: out->push_back(Cell::Bool(true)); break;
-      case 0x03: out->push_back(Cell::Float(r.F64())); break;
+      case kTagDouble: {
+        const double d = r.F64();
+        if (d >= -kTwo63 && d < kTwo64 && std::floor(d) == d)
+          return Status::Corrupt("group key holds an integral double that should be an integer");
+        out->push_back(Cell::Float(d));
+        break;
+      }
       case 0x04: out->push_back(Cell::String(std::string(r.Str()))); break;
+      case kTagInt64: out->push_back(Cell::Int(r.I64())); break;
+      case kTagUint64: {
+        const uint64_t u = r.U64();
+        if (u <= static_cast<uint64_t>(INT64_MAX) && r.ok())
+          return Status::Corrupt("group key holds a small integer under the unsigned tag");
+        out->push_back(Cell::Int(u));
+        break;
+      }
       default: return Status::Corrupt("group key has unknown value tag " + std::to_string(tag));
     }
     if (!r.ok()) return Status::Corrupt("group key is truncated");
@@ -56,7 +98,6 @@ int Rank(const Cell& c) {
     default: return 4;
   }
 }
-double AsDouble(const Cell& c) { return c.kind == Cell::Kind::kInt ? static_cast<double>(c.integer) : c.number; }
 }  // namespace
 
 int CompareCells(const Cell& a, const Cell& b) {
@@ -68,7 +109,16 @@ int CompareCells(const Cell& a, const Cell& b) {
     case 2: {
       if (a.kind == Cell::Kind::kInt && b.kind == Cell::Kind::kInt)
         return a.integer < b.integer ? -1 : (a.integer > b.integer ? 1 : 0);
-      double x = AsDouble(a), y = AsDouble(b);
+      // An integer against a float exactly (2^53 + 1 > 2^53); NaN last.
+      if (a.kind == Cell::Kind::kInt) {
+        const int c = CompareWideToDouble(a.integer, b.number);
+        return c == kUnordered ? -1 : c;
+      }
+      if (b.kind == Cell::Kind::kInt) {
+        const int c = CompareWideToDouble(b.integer, a.number);
+        return c == kUnordered ? 1 : -c;
+      }
+      const double x = a.number, y = b.number;
       if (std::isnan(x) || std::isnan(y)) return std::isnan(x) - std::isnan(y);  // NaN last
       return x < y ? -1 : (x > y ? 1 : 0);
     }

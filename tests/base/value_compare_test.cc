@@ -16,7 +16,13 @@ std::vector<Value> Samples() {
           Value::Number(0), Value::Number(-0.0), Value::Number(12),   Value::Number(12.5),
           Value::String(""), Value::String("12"), Value::String("12.0"), Value::String("+12"),
           Value::String("abc"), Value::String("abd"), Value::String("Abc"), Value::String("nan"),
-          Value::String("\xc3\xa9"), Value::Other()};
+          Value::String("\xc3\xa9"), Value::Other(),
+          // Integers next to the doubles they round to, and their texts.
+          Value::Int(12), Value::Int(INT64_MIN), Value::Uint(UINT64_MAX),
+          Value::Int(9007199254740993), Value::Number(9007199254740992.0),
+          Value::Number(18446744073709551616.0), Value::Number(NAN),
+          Value::String("9007199254740993"), Value::String("18446744073709551615"),
+          Value::String("-9223372036854775808")};
 }
 
 constexpr CompareOp kOps[] = {CompareOp::kEq, CompareOp::kNe, CompareOp::kLt,
@@ -99,6 +105,56 @@ TEST_CASE("Value::FromWide canonicalises") {
   CHECK_FALSE(beyond.is_integer());
   CHECK(beyond.number == 18446744073709551616.0);  // 2^64 exactly
   CHECK(Value::Uint(7).rep == NumberRep::kInt64);
+}
+
+}  // namespace
+}  // namespace fanfold
+
+namespace fanfold {
+namespace {
+
+// Intent: integers compare exactly with integers and with doubles, as Python compares int and float.
+TEST_CASE("CompareValues is exact for integers") {
+  const Value i2p53p1 = Value::Int(9007199254740993);
+  const Value d2p53 = Value::Number(9007199254740992.0);
+  CHECK(CompareValues(CompareOp::kGt, i2p53p1, d2p53));  // Python: 9007199254740993 > 9007199254740992.0 is True
+  CHECK(CompareValues(CompareOp::kNe, i2p53p1, d2p53));  // Python: 9007199254740993 != 9007199254740992.0 is True
+  CHECK(CompareValues(CompareOp::kLt, d2p53, i2p53p1));  // Python: 9007199254740992.0 < 9007199254740993 is True
+  CHECK(CompareValues(CompareOp::kEq, Value::Int(9007199254740992), d2p53));  // Python: 2**53 == 2.0**53 is True
+  CHECK(CompareValues(CompareOp::kNe, Value::Int(9007199254740992), i2p53p1));  // Python: 2**53 != 2**53 + 1
+  const Value umax = Value::Uint(UINT64_MAX);
+  const Value d2p64 = Value::Number(18446744073709551616.0);
+  CHECK(CompareValues(CompareOp::kLt, umax, d2p64));  // Python: 2**64 - 1 < 2.0**64 is True
+  CHECK_FALSE(CompareValues(CompareOp::kEq, umax, Value::Number(static_cast<double>(UINT64_MAX))));  // Python: 2**64 - 1 == float(2**64 - 1) is False
+  CHECK(CompareValues(CompareOp::kGt, umax, Value::Int(INT64_MAX)));  // Python: 2**64 - 1 > 2**63 - 1
+  CHECK(CompareValues(CompareOp::kLt, Value::Int(INT64_MIN), Value::Int(INT64_MIN + 1)));  // Python: -2**63 < -2**63 + 1
+  CHECK(CompareValues(CompareOp::kEq, Value::Int(INT64_MIN), Value::Number(-9223372036854775808.0)));  // Python: -2**63 == -2.0**63
+  CHECK(CompareValues(CompareOp::kGt, Value::Int(INT64_MIN), Value::Number(-9223372036854777856.0)));  // Python: -2**63 > -9223372036854777856.0 (next double below)
+  CHECK(CompareValues(CompareOp::kLt, Value::Int(3), Value::Number(3.5)));   // Python: 3 < 3.5
+  CHECK(CompareValues(CompareOp::kGt, Value::Int(-3), Value::Number(-3.5)));  // Python: -3 > -3.5
+  CHECK(CompareValues(CompareOp::kLt, Value::Int(-4), Value::Number(-3.5)));  // Python: -4 < -3.5
+  CHECK(CompareValues(CompareOp::kLt, umax, Value::Number(INFINITY)));   // Python: 2**64 - 1 < float('inf')
+  CHECK(CompareValues(CompareOp::kGt, Value::Int(INT64_MIN), Value::Number(-INFINITY)));  // Python: -2**63 > float('-inf')
+  CHECK_FALSE(CompareValues(CompareOp::kEq, Value::Int(0), Value::Number(NAN)));  // Python: 0 == float('nan') is False
+  CHECK(CompareValues(CompareOp::kNe, Value::Int(0), Value::Number(NAN)));  // Python: 0 != float('nan') is True
+  // Numeric text reads exactly (Value::AsNumeric).
+  CHECK(CompareValues(CompareOp::kGt, Value::String("9007199254740993"), d2p53));  // Python: int("9007199254740993") > 2.0**53
+  CHECK(CompareValues(CompareOp::kLt, Value::String("9007199254740992"), Value::String("9007199254740993")));  // Python: int("9007199254740992") < int("9007199254740993")
+  CHECK(CompareValues(CompareOp::kEq, Value::String("18446744073709551615"), umax));  // Python: int("18446744073709551615") == 2**64 - 1
+}
+
+// Intent: the integer-against-double order holds across the whole 128-bit range a sum can reach.
+TEST_CASE("CompareWideToDouble at the edges") {
+  const WideInt two100 = static_cast<WideInt>(1) << 100;
+  CHECK(CompareWideToDouble(two100, 1267650600228229401496703205376.0) == 0);  // Python: 2**100 == 2.0**100
+  CHECK(CompareWideToDouble(two100 + 1, 1267650600228229401496703205376.0) == 1);  // Python: 2**100 + 1 > 2.0**100
+  CHECK(CompareWideToDouble(-two100 - 1, -1267650600228229401496703205376.0) == -1);  // Python: -2**100 - 1 < -2.0**100
+  CHECK(CompareWideToDouble(0, 1e300) == -1);  // Python: 0 < 1e300
+  CHECK(CompareWideToDouble(0, -1e300) == 1);  // Python: 0 > -1e300
+  CHECK(CompareWideToDouble(0, NAN) == kUnordered);
+  CHECK(CompareWideToDouble(0, -0.0) == 0);    // Python: 0 == -0.0
+  CHECK(CompareWideToDouble(-1, -0.5) == -1);  // Python: -1 < -0.5
+  CHECK(CompareWideToDouble(0, -0.5) == 1);    // Python: 0 > -0.5
 }
 
 }  // namespace
