@@ -1,7 +1,5 @@
 #include "common/measures/extreme.h"
 
-#include <bit>
-
 namespace fanfold {
 
 Status ExtremeState::Merge(const MeasureState& other) {
@@ -16,18 +14,16 @@ Status ExtremeState::Merge(const MeasureState& other) {
 void ExtremeState::Encode(ByteWriter& w) const {
   w.Varint(skipped_);
   w.U8(has_ ? 1 : 0);
-  if (has_) w.F64(value_);
+  if (has_) NumberEncoding::Write(value_, w);
 }
 
 Status ExtremeState::Decode(ByteReader& r) {
   const uint64_t skipped = r.Varint();
   const uint8_t has = r.U8();
-  double value = 0;
-  if (has == 1) value = r.F64();
-  if (!r.ok() || has > 1) return Status::Corrupt("min/max: bad or truncated state");
+  Value value;
   // Add never stores NaN or -0.0 (see the header), so neither can be ours.
-  if (std::isnan(value) || std::bit_cast<uint64_t>(value) == std::bit_cast<uint64_t>(-0.0))
-    return Status::Corrupt("min/max: non-canonical value");
+  if (!r.ok() || has > 1 || (has == 1 && !NumberEncoding::Read(r.U8(), r, /*any_double=*/false, &value)))
+    return Status::Corrupt("min/max: bad, non-canonical or truncated state");
   skipped_ = skipped;
   has_ = has == 1;
   value_ = value;
@@ -35,7 +31,7 @@ Status ExtremeState::Decode(ByteReader& r) {
 }
 
 void ExtremeState::Finalize(std::vector<Cell>* out) const {
-  out->push_back(has_ ? Cell::Float(value_) : Cell::Null());
+  out->push_back(has_ ? NumberEncoding::ToCell(value_) : Cell::Null());
 }
 
 }  // namespace fanfold

@@ -63,6 +63,16 @@ inline bool UsableNumber(const Value& v, double* x, uint64_t* skipped) {
   return false;
 }
 
+// The exact number a numeric measure reads from v (Value::AsNumeric: an
+// integer, also from integer text, stays exact): returns true iff v gives
+// one that is not NaN (*x set to a kNumber); otherwise counts one skipped
+// value. The same values are used as by UsableNumber.
+inline bool UsableNumeric(const Value& v, Value* x, uint64_t* skipped) {
+  if (v.AsNumeric(x) && !std::isnan(x->number)) return true;
+  ++*skipped;
+  return false;
+}
+
 class MeasureState {
  public:
   virtual ~MeasureState() = default;

@@ -7,6 +7,7 @@ namespace fanfold {
 void MomentsState::MergeSame(const MomentsState& o) {
   skipped_ += o.skipped_;
   if (o.n_ == 0) return;
+  all_integers_ = all_integers_ && o.all_integers_ && wide_.Add(o.wide_.total());
   if (n_ == 0) {
     n_ = o.n_;
     mean_ = o.mean_;
@@ -24,7 +25,12 @@ void MomentsState::MergeSame(const MomentsState& o) {
   n_ += o.n_;
 }
 
-void MomentsState::Encode(ByteWriter& w) const { CountedPair{skipped_, n_, mean_, m2_}.Encode(w); }
+void MomentsState::Encode(ByteWriter& w) const {
+  CountedPair{skipped_, n_, mean_, m2_}.Encode(w);
+  if (n_ == 0) return;
+  w.U8(all_integers_ ? 1 : 0);
+  if (all_integers_) wide_.Encode(w);
+}
 
 Status MomentsState::Decode(ByteReader& r) {
   CountedPair p;
@@ -36,7 +42,16 @@ Status MomentsState::Decode(ByteReader& r) {
   if (m2 < 0) return Status::Corrupt("moments: negative sum of squared deviations");
   if (n == 1 && m2 != 0 && !std::isnan(m2))
     return Status::Corrupt("moments: one value with a non-zero spread");
+  uint8_t all_integers = 1;
+  WideSum wide;
+  if (n > 0) {
+    all_integers = r.U8();
+    if (!r.ok() || all_integers > 1 || (all_integers == 1 && !wide.Decode(r, n)))
+      return Status::Corrupt("moments: bad or truncated integer sum");
+  }
   n_ = n;
+  all_integers_ = all_integers == 1;
+  wide_ = wide;
   skipped_ = p.skipped;
   mean_ = mean;
   m2_ = m2;
@@ -45,7 +60,7 @@ Status MomentsState::Decode(ByteReader& r) {
 
 void MomentsState::Finalize(std::vector<Cell>* out) const {
   if (kind_ == MeasureKind::kMean) {
-    out->push_back(n_ == 0 ? Cell::Null() : Cell::Float(mean_));
+    out->push_back(n_ == 0 ? Cell::Null() : Cell::Float(mean()));
     return;
   }
   if (n_ < 2) {

@@ -3,6 +3,8 @@
 // per value by Welford's method (Technometrics 4(3), 1962) and merged by the
 // pairwise formula of Chan, Golub & LeVeque (Stanford CS-TR-79-773, 1979).
 // Both avoid the cancellation of the textbook sum-of-squares formula.
+// Beside them, while every value is an integer, their exact sum (WideSum):
+// the mean of integers is that sum divided by n, rounded once.
 // Single-threaded.
 #pragma once
 
@@ -10,6 +12,7 @@
 
 #include "common/measures/measure.h"
 #include "common/measures/same_state_merge.h"
+#include "common/measures/wide_sum.h"
 
 namespace fanfold {
 
@@ -21,24 +24,34 @@ class MomentsState final : public SameStateMerge<MomentsState> {
   explicit MomentsState(MeasureKind kind) : kind_(kind) {}
 
   bool Add(const Value* args) override {
-    double x;
-    if (!UsableNumber(args[0], &x, &skipped_)) return true;
+    Value v;
+    if (!UsableNumeric(args[0], &v, &skipped_)) return true;
+    // An integer keeps the sum exact until it would leave the WideInt range
+    // (more than 2^63 values); a non-integer ends exactness for good.
+    all_integers_ = all_integers_ && v.is_integer() && wide_.Add(v.Wide());
+    const double x = v.number;
     ++n_;
     const double delta = x - mean_;
     mean_ += delta / static_cast<double>(n_);
     m2_ += delta * (x - mean_);
     return true;
   }
-  // Encoding: a CountedPair (common/measures/counted_pair.h) of mean and M2.
+  // Encoding: a CountedPair (common/measures/counted_pair.h) of mean and M2,
+  // then iff n > 0: u8 all_integers (0|1), iff 1 the exact sum (WideSum,
+  // 16 bytes).
   void Encode(ByteWriter& w) const override;
   Status Decode(ByteReader& r) override;
-  // mean: Float, Null iff n = 0. variance = M2/(n-1), stddev = its square
-  // root: Float, Null iff n < 2.
+  // mean: Float — the exact sum / n rounded once while every value was an
+  // integer, else the running mean; Null iff n = 0. variance = M2/(n-1),
+  // stddev = its square root: Float, Null iff n < 2.
   void Finalize(std::vector<Cell>* out) const override;
   uint64_t skipped() const override { return skipped_; }
 
   uint64_t n() const { return n_; }
-  double mean() const { return mean_; }
+  // The result of `mean` (0 when empty).
+  double mean() const { return all_integers_ && n_ > 0 ? WideSum::DivideRounded(wide_.total(), n_) : mean_; }
+  // True iff every value was an integer and their sum fits a WideInt.
+  bool all_integers() const { return all_integers_; }
   double m2() const { return m2_; }
 
  private:
@@ -52,6 +65,8 @@ class MomentsState final : public SameStateMerge<MomentsState> {
   uint64_t skipped_ = 0;
   double mean_ = 0;
   double m2_ = 0;
+  bool all_integers_ = true;  // vacuously while empty
+  WideSum wide_;              // the exact sum while all_integers_, else unused
 };
 
 }  // namespace fanfold

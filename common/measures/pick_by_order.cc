@@ -2,12 +2,15 @@
 
 #include <cmath>
 
+#include "common/base/value_compare.h"
+#include "common/measures/number_encoding.h"
+
 namespace fanfold {
 
-int PickByOrderState::CompareKeys(ValueKind a_kind, double a_num, std::string_view a_str,
-                                const Slot& b) {
+int PickByOrderState::CompareKeys(ValueKind a_kind, const Value& a_num, std::string_view a_str,
+                                  const Slot& b) {
   if (a_kind != b.kind) return a_kind == ValueKind::kNumber ? -1 : 1;  // numbers first
-  if (a_kind == ValueKind::kNumber) return a_num < b.number ? -1 : (a_num > b.number ? 1 : 0);
+  if (a_kind == ValueKind::kNumber) return CompareNumbers(a_num, b.number);  // never NaN: ordered
   const int c = a_str.compare(b.str);
   return c < 0 ? -1 : (c > 0 ? 1 : 0);
 }
@@ -15,15 +18,15 @@ int PickByOrderState::CompareKeys(ValueKind a_kind, double a_num, std::string_vi
 bool PickByOrderState::Add(const Value* args) {
   const Value& value = args[0];
   const Value& key = args[1];
-  double key_num = 0;
+  Value key_num;
   ValueKind key_kind;
-  if (key.AsNumber(&key_num)) {
-    if (std::isnan(key_num)) {
+  if (key.AsNumeric(&key_num)) {
+    if (std::isnan(key_num.number)) {
       ++skipped_;
       return true;
     }
     key_kind = ValueKind::kNumber;
-    if (key_num == 0) key_num = 0.0;  // -0.0 and 0.0 are one key
+    key_num = NumberEncoding::Canonical(key_num);  // -0.0 and 0.0 are one key
   } else if (key.kind == ValueKind::kString) {
     key_kind = ValueKind::kString;
   } else {
@@ -42,7 +45,7 @@ bool PickByOrderState::Add(const Value* args) {
   if (key_kind == ValueKind::kString) key_.str.assign(key.str.data(), key.str.size());
   value_.kind = value.kind;
   value_.boolean = value.boolean;
-  value_.number = value.number;
+  if (value.kind == ValueKind::kNumber) value_.number = value;  // as it came: -0.0 and NaN too
   if (value.kind == ValueKind::kString) value_.str.assign(value.str.data(), value.str.size());
   has_ = true;
   return true;
@@ -69,8 +72,7 @@ void PickByOrderState::EncodeSlot(const Slot& s, ByteWriter& w) {
       w.U8(s.boolean ? 1 : 0);
       break;
     case ValueKind::kNumber:
-      w.U8('n');
-      w.F64(s.number);
+      NumberEncoding::Write(s.number, w);
       break;
     default:
       w.U8('s');
@@ -87,9 +89,10 @@ bool PickByOrderState::DecodeSlot(ByteReader& r, bool allow_bool, Slot* s) {
     if (!r.ok() || b > 1) return false;
     s->kind = ValueKind::kBool;
     s->boolean = b == 1;
-  } else if (tag == 'n') {
+  } else if (NumberEncoding::IsTag(tag)) {
     s->kind = ValueKind::kNumber;
-    s->number = r.F64();
+    // Keys are never NaN or -0.0 (Add); a captured value may be either.
+    if (!NumberEncoding::Read(tag, r, /*any_double=*/allow_bool, &s->number)) return false;
   } else if (tag == 's') {
     s->kind = ValueKind::kString;
     s->str.assign(r.Str());
@@ -117,10 +120,6 @@ Status PickByOrderState::Decode(ByteReader& r) {
   if (has == 1) {
     if (!DecodeSlot(r, /*allow_bool=*/false, &key) || !DecodeSlot(r, /*allow_bool=*/true, &value))
       return corrupt();
-    // Add never keeps a NaN key, nor -0.0 (it stores 0.0).
-    if (key.kind == ValueKind::kNumber && (std::isnan(key.number) ||
-                                           (std::signbit(key.number) && key.number == 0)))
-      return corrupt();
   }
   skipped_ = skipped;
   has_ = has == 1;
@@ -136,7 +135,7 @@ void PickByOrderState::Finalize(std::vector<Cell>* out) const {
   }
   switch (value_.kind) {
     case ValueKind::kBool: out->push_back(Cell::Bool(value_.boolean)); break;
-    case ValueKind::kNumber: out->push_back(Cell::Float(value_.number)); break;
+    case ValueKind::kNumber: out->push_back(NumberEncoding::ToCell(value_.number)); break;
     default: out->push_back(Cell::String(value_.str)); break;
   }
 }

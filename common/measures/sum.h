@@ -1,14 +1,17 @@
-// SumState: the state of `sum`, a compensated sum (Neumaier 1974, ZAMM 54):
-// a running sum plus a running correction that captures the low-order bits
-// each addition loses, so the result is as if summed with about twice the
-// precision. Merge adds the other sum and its correction the same way.
-// Single-threaded.
+// SumState: the state of `sum`. Integer values (Value::AsNumeric: JSON
+// integers, integer text) add up exactly in a WideSum; other numbers in a
+// compensated sum (Neumaier 1974, ZAMM 54): a running sum plus a running
+// correction that captures the low-order bits each addition loses, so the
+// result is as if summed with about twice the precision. Merge adds both
+// parts the same way. The result is the exact integer while every value was
+// one, else the compensated sum of both parts. Single-threaded.
 #pragma once
 
 #include <cmath>
 
 #include "common/measures/measure.h"
 #include "common/measures/same_state_merge.h"
+#include "common/measures/wide_sum.h"
 
 namespace fanfold {
 
@@ -17,41 +20,61 @@ class SumState final : public SameStateMerge<SumState> {
   static constexpr const char* kLabel = "sum";
 
   bool Add(const Value* args) override {
-    double x;
-    if (!UsableNumber(args[0], &x, &skipped_)) return true;
+    Value x;
+    if (!UsableNumeric(args[0], &x, &skipped_)) return true;
     ++n_;
-    AddCompensated(x);
+    if (x.is_integer()) {
+      AddInteger(x.Wide());
+    } else {
+      float_result_ = true;
+      AddCompensated(x.number);
+    }
     return true;
   }
-  // Encoding: a CountedPair (common/measures/counted_pair.h) of sum and correction.
+  // Encoding: varint skipped, varint n, then iff n > 0: u8 flags (bit 0:
+  // the result is a Float; bit 1: a non-zero integer part follows), iff bit 1
+  // the integer part (WideSum, 16 bytes), iff bit 0 f64 sum, f64 correction.
   void Encode(ByteWriter& w) const override;
   Status Decode(ByteReader& r) override;
-  // Float(sum + correction), or Null when no usable value was added.
+  // Int(exact sum) while every value used was an integer; else
+  // Float(Result()); Null when no usable value was added.
   void Finalize(std::vector<Cell>* out) const override;
   uint64_t skipped() const override { return skipped_; }
 
-  // The compensated result; 0 when empty. Overflow gives +-inf, and
-  // inf + -inf gives NaN, as plain summation would.
-  double Result() const { return std::isfinite(sum_) ? sum_ + correction_ : sum_; }
+  // True iff Finalize gives a Float: a non-integer was added, or the
+  // integer part left the WideInt range (more than 2^63 values).
+  bool float_result() const { return float_result_; }
+  // The integer part and the compensated result of both parts, 0 when
+  // empty. Overflow gives +-inf, and inf + -inf gives NaN, as plain
+  // summation would.
+  WideInt integer_part() const { return wide_.total(); }
+  double Result() const;
 
  private:
   friend class SameStateMerge<SumState>;
   SumState EmptyLike() const { return SumState(); }
   bool SameConfig(const SumState&) const { return true; }
   void MergeSame(const SumState& o);  // Merge's arithmetic
-  void AddCompensated(double x) {
-    const double t = sum_ + x;
+  // Adds x to the integer part; on WideInt overflow (defined, not expected)
+  // the integer part moves into the compensated sum and the result becomes
+  // a Float.
+  void AddInteger(WideInt x);
+  void AddCompensated(double x) { AddCompensated(x, &sum_, &correction_); }
+  static void AddCompensated(double x, double* sum, double* correction) {
+    const double t = *sum + x;
     // Neumaier's branch: whichever operand is larger keeps its bits in t;
     // the smaller one's lost bits are recovered exactly.
-    if (std::fabs(sum_) >= std::fabs(x))
-      correction_ += (sum_ - t) + x;
+    if (std::fabs(*sum) >= std::fabs(x))
+      *correction += (*sum - t) + x;
     else
-      correction_ += (x - t) + sum_;
-    sum_ = t;
+      *correction += (x - t) + *sum;
+    *sum = t;
   }
 
   uint64_t n_ = 0;
   uint64_t skipped_ = 0;
+  bool float_result_ = false;
+  WideSum wide_;
   double sum_ = 0;
   double correction_ = 0;
 };

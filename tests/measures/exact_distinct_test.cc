@@ -29,6 +29,30 @@ TEST_CASE("distinct: exact count matches Python set size") {
   for (int shards : {2, 3, 10, 64}) CHECK(testing::EncodeOf(*testing::SplitMerged(DistinctConfig(), rows, shards, rng)) == bytes);
 }
 
+// Intent: 64-bit ids stay apart (the example: 2^53+1 and 2^53 are
+// two values, 2^64-1 keeps its own), equal numbers are one value however
+// they came (5, 5.0, CSV "5"), as Python's len(set(...)) over int and float.
+TEST_CASE("distinct: 64-bit integers exactly") {
+  Rows rows;
+  rows.Add(Value::Int(9007199254740993));
+  rows.Add(Value::Int(9007199254740992));
+  rows.Add(Value::Uint(UINT64_MAX));
+  rows.Add(Value::Int(1));
+  // Python: len({9007199254740993, 9007199254740992, 18446744073709551615, 1}) == 4
+  CHECK(testing::FinalOf(*testing::Whole(DistinctConfig(), rows))[0].integer == 4);
+  rows.AddNumber(9007199254740992.0);        // == 2^53: not new
+  rows.AddString("18446744073709551615");    // text: a string, a value of its own
+  rows.Add(Value::Int(INT64_MIN));
+  rows.AddNumber(-0x1p63);                   // == -2^63: not new
+  rows.Add(Value::Int(INT64_MIN + 1));
+  // Python: len({2**53+1, 2**53, 2**64-1, 1, 2.0**53, -2**63, -2.0**63, -2**63+1}) == 6, plus the string
+  auto whole = testing::Whole(DistinctConfig(), rows);
+  CHECK(testing::FinalOf(*whole)[0].integer == 7);
+  testing::TestLcg rng(12);
+  for (int shards : {2, 3, 4})
+    CHECK(testing::EncodeOf(*testing::SplitMerged(DistinctConfig(), rows, shards, rng)) == testing::EncodeOf(*whole));
+}
+
 // Intent: the number 1, the string "1", true, and the empty string are four
 // values; 0.0 and -0.0 one; missing, null and objects are skipped.
 TEST_CASE("distinct: typed values") {

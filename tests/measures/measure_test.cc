@@ -49,13 +49,17 @@ Rows MixedRows(uint64_t seed, int n) {
   Rows rows;
   for (int i = 0; i < n; ++i) {
     Value key = g.Next() % 10 == 0 ? Value::Missing() : Value::Number(static_cast<double>(g.Next() % 500));
-    switch (g.Next() % 8) {
+    switch (g.Next() % 10) {
       case 0: rows.Add(Value::Missing(), key); break;
       case 1: rows.Add(Value::Null(), key); break;
       case 2: rows.Add(Value::Bool(g.Next() % 2 == 0), key); break;
       case 3: rows.Add(Value::String(rows.Keep("w" + std::to_string(g.Next() % 300))), key); break;
       case 4: rows.Add(Value::String(rows.Keep(std::to_string((g.Uniform() - 0.3) * 100))), key); break;
       case 5: rows.Add(Value::Other(), key); break;
+      // Exact integers, around 2^53 and over the whole int64 and uint64 ranges.
+      case 6: rows.Add(Value::Int((int64_t{1} << 53) + static_cast<int64_t>(g.Next() % 5) - 2), key); break;
+      case 7: rows.Add(Value::Int(static_cast<int64_t>((g.Next() << 33) ^ (g.Next() << 2) ^ g.Next())), key); break;
+      case 8: rows.Add(Value::Uint(UINT64_MAX - g.Next() % 1000), key); break;
       default: rows.Add(Value::Number((g.Uniform() - 0.4) * 1e4), key); break;
     }
   }

@@ -138,6 +138,54 @@ TEST_CASE("moments: naive sum-of-squares is wrong on NumAcc4") {
   CHECK(std::fabs(naive_var - 0.01) > 1e-3);
 }
 
+// Intent: the mean of integers is their exact sum divided by n and rounded
+// once (Python's int / int), whole and split; the running mean of the
+// doubles, which rounds each value on the way in, differs on this data.
+TEST_CASE("moments: the mean of 64-bit integers is rounded once") {
+  Rows rows;
+  rows.Add(Value::Int((int64_t{1} << 53) + 1));
+  rows.AddString("9007199254740994");  // CSV cell: 2^53 + 2
+  // Python: (2**53+1 + 2**53+2) / 2 == 9007199254740994.0 (2^53 + 1.5, rounded once);
+  // the doubles 2^53 and 2^53 + 2 average to 9007199254740992.0.
+  auto whole = testing::Whole(Config(MeasureKind::kMean), rows);
+  CHECK(testing::FinalOf(*whole)[0].number == 9007199254740994.0);
+  testing::TestLcg rng(4);
+  for (int shards : {2, 3})
+    CHECK(testing::FinalOf(*testing::SplitMerged(Config(MeasureKind::kMean), rows, shards, rng))[0].number ==
+          9007199254740994.0);
+  Rows big;
+  for (int64_t v : {INT64_MAX, INT64_MAX, INT64_MIN, int64_t{-1}}) big.Add(Value::Int(v));
+  big.Add(Value::Uint(UINT64_MAX));
+  big.Add(Value::Uint(UINT64_MAX));
+  // Python: sum([2**63-1, 2**63-1, -2**63, -1, 2**64-1, 2**64-1]) / 6 == 7.686143364045647e+18
+  auto mean = testing::Whole(Config(MeasureKind::kMean), big);
+  CHECK(testing::FinalOf(*mean)[0].number == 7.686143364045647e+18);
+  // The state keeps its exact sum through encode -> decode.
+  auto back = testing::DecodeOf(Config(MeasureKind::kMean), testing::EncodeOf(*mean));
+  CHECK(testing::FinalOf(*back)[0].number == 7.686143364045647e+18);
+  CHECK(testing::EncodeOf(*back) == testing::EncodeOf(*mean));
+}
+
+// Intent: a non-integer ends exactness: the mean is the running mean of the
+// doubles (documented), and variance stays on doubles throughout.
+TEST_CASE("moments: a non-integer value gives the running mean") {
+  Rows rows;
+  rows.Add(Value::Int((int64_t{1} << 53) + 1));
+  rows.Add(Value::Int((int64_t{1} << 53) + 1));
+  rows.AddNumber(0.5);
+  auto mean = testing::Whole(Config(MeasureKind::kMean), rows);
+  auto* m = dynamic_cast<MomentsState*>(mean.get());
+  REQUIRE(m != nullptr);
+  CHECK_FALSE(m->all_integers());
+  // Python: statistics.fmean([float(2**53+1)] * 2 + [0.5]) == 6004799503160661.0;
+  // Welford's running mean is within 2 ulps (1 each here) of it.
+  CHECK(std::fabs(testing::FinalOf(*mean)[0].number - 6004799503160661.0) <= 2.0);
+  Rows ints;
+  for (int v : {1, 2, 3, 4}) ints.Add(Value::Int(v));
+  // Python: statistics.variance([1, 2, 3, 4]) == 1.6666666666666667
+  CHECK(testing::FinalOf(*testing::Whole(Config(MeasureKind::kVariance), ints))[0].number == 1.6666666666666667);
+}
+
 // Intent: n < 2 gives Null variance/stddev, n = 0 Null mean; unusable
 // values are skipped and counted.
 TEST_CASE("moments: empty, single value and skipped values") {

@@ -57,6 +57,39 @@ TEST_CASE("at_lowest/at_highest: ties by input order, also across merges") {
   }
 }
 
+// Intent: 64-bit integer keys order exactly (2^53 + 1 after 2^53, also
+// against the double 2^53 and as CSV text), and integer values come back
+// with every digit, as Python's min/max by key over int give them.
+TEST_CASE("at_lowest/at_highest: 64-bit integer keys and values exactly") {
+  Rows rows;
+  rows.Add(Value::Uint(UINT64_MAX), Value::Int((int64_t{1} << 53) + 1));
+  rows.Add(Value::Int(INT64_MIN), Value::Number(0x1p53));
+  rows.Add(Value::String("text"), Value::String("9007199254740994"));  // CSV cell: 2^53 + 2
+  rows.Add(Value::Int(-9007199254740993), Value::Int(int64_t{1} << 53));
+  // Python: keys [2**53+1, 2.0**53, 2**53+2, 2**53]; max by key -> "text";
+  // min by key: 2.0**53 == 2**53, the earlier (INT64_MIN) stays for at_lowest.
+  CHECK(Final(*testing::Whole(Config(MeasureKind::kAtHighest), rows)).str == "text");
+  Cell low = Final(*testing::Whole(Config(MeasureKind::kAtLowest), rows));
+  REQUIRE(low.kind == Cell::Kind::kInt);
+  CHECK(low.integer == INT64_MIN);
+  rows.Add(Value::Int(7), Value::String("18446744073709551615"));  // the largest key, as text
+  Cell high = Final(*testing::Whole(Config(MeasureKind::kAtHighest), rows));
+  REQUIRE(high.kind == Cell::Kind::kInt);
+  CHECK(high.integer == 7);
+  // at_highest takes the later of equal keys: 2^53 (int) after 2.0^53.
+  Rows ties;
+  ties.Add(Value::Uint(UINT64_MAX), Value::Number(0x1p53));
+  ties.Add(Value::Int(-9007199254740993), Value::Int(int64_t{1} << 53));
+  Cell later = Final(*testing::Whole(Config(MeasureKind::kAtHighest), ties));
+  CHECK(later.integer == -9007199254740993);
+  testing::TestLcg rng(6);
+  for (MeasureKind kind : {MeasureKind::kAtLowest, MeasureKind::kAtHighest}) {
+    const std::string whole = testing::EncodeOf(*testing::Whole(Config(kind), rows));
+    for (int shards : {2, 3, 5}) CHECK(testing::EncodeOf(*testing::SplitMerged(Config(kind), rows, shards, rng)) == whole);
+    CHECK(testing::EncodeOf(*testing::DecodeOf(Config(kind), whole)) == whole);
+  }
+}
+
 // Intent: a missing/null/bool key, or a missing/null/object value, skips
 // the record (counted); a bool or number value is returned as such.
 TEST_CASE("at_lowest/at_highest: skipped records and value kinds") {

@@ -111,6 +111,107 @@ TEST_CASE("sum: cancellation-heavy data against math.fsum, split") {
   }
 }
 
+// The exact integer a sum finalizes to. REQUIREs an Int cell.
+WideInt FinalInteger(const MeasureState& s) {
+  auto cells = testing::FinalOf(s);
+  REQUIRE(cells.size() == 1);
+  REQUIRE(cells[0].kind == Cell::Kind::kInt);
+  return cells[0].integer;
+}
+
+// Integers around 2^53, 2^63 and 2^64-1, of both signs, as JSON and CSV
+// readers give them: exact Values and integer text.
+Rows BigIntegerRows() {
+  Rows rows;
+  rows.Add(Value::Int(INT64_MAX));
+  rows.Add(Value::Int(INT64_MAX));
+  rows.Add(Value::Uint(UINT64_MAX));
+  rows.Add(Value::Int(INT64_MIN));
+  rows.Add(Value::Int((int64_t{1} << 53) + 1));
+  rows.AddString("18446744073709551615");  // CSV cell: 2^64 - 1
+  rows.AddString("-9007199254740993");      // CSV cell: -(2^53 + 1)
+  rows.Add(Value::Int(-1));
+  return rows;
+}
+
+// Intent: integers sum exactly into an Int, also past 2^64 and across
+// shards, where a double sum (even compensated: each value is rounded on
+// the way in) loses the low digits.
+TEST_CASE("sum: 64-bit integers sum exactly, whole and split") {
+  // Python: sum([2**63-1, 2**63-1]) == 18446744073709551614
+  Rows two;
+  two.Add(Value::Int(INT64_MAX));
+  two.Add(Value::Int(INT64_MAX));
+  CHECK(FinalInteger(*testing::Whole(SumConfig(), two)) == (static_cast<WideInt>(UINT64_MAX) - 1));
+  // Python: sum([2**63-1, 2**63-1, 2**64-1, -2**63, 2**53+1, 2**64-1, -(2**53+1), -1])
+  //         == 46116860184273879035
+  const WideInt expected = (static_cast<WideInt>(2) << 64) + 9223372036854775803;
+  Rows rows = BigIntegerRows();
+  CHECK(FinalInteger(*testing::Whole(SumConfig(), rows)) == expected);
+  testing::TestLcg rng(17);
+  for (int shards : {2, 3, 5, 8}) CHECK(FinalInteger(*testing::SplitMerged(SumConfig(), rows, shards, rng)) == expected);
+  // Discrimination: the double sum of the same values is not the integer.
+  double naive = 0;
+  for (size_t i = 0; i < rows.size(); ++i) {
+    double x;
+    REQUIRE(rows.args(i)[0].AsNumber(&x));
+    naive += x;
+  }
+  CHECK(static_cast<WideInt>(naive) != expected);
+}
+
+// Intent: once a non-integer arrives the result is the Float of the exact
+// integer part plus the compensated double part, rounded once at the end,
+// whatever the split and wherever the non-integer falls.
+TEST_CASE("sum: integers with a non-integer give the rounded exact total") {
+  Rows rows;
+  rows.Add(Value::Int((int64_t{1} << 53) + 1));
+  rows.Add(Value::Int((int64_t{1} << 53) + 1));
+  rows.AddNumber(0.5);
+  // Python: float(Fraction(2**53+1) * 2 + Fraction(1, 2)) == 1.8014398509481988e+16
+  // (plain float addition gives 1.8014398509481984e+16).
+  CHECK(FinalNumber(*testing::Whole(SumConfig(), rows)) == 1.8014398509481988e+16);
+  testing::TestLcg rng(5);
+  for (int shards : {2, 3, 4})
+    CHECK(FinalNumber(*testing::SplitMerged(SumConfig(), rows, shards, rng)) == 1.8014398509481988e+16);
+  // Python: float(Fraction(3 * (2**64-1)) + Fraction(-0.25)) == 5.5340232221128655e+19
+  Rows wide;
+  for (int i = 0; i < 3; ++i) wide.Add(Value::Uint(UINT64_MAX));
+  wide.AddString("-0.25");
+  CHECK(FinalNumber(*testing::Whole(SumConfig(), wide)) == 5.5340232221128655e+19);
+}
+
+// Intent: the integer part encodes exactly (16 bytes, only when non-zero),
+// and a state whose integer part is beyond what n values can reach, or
+// whose flags are unknown, is refused.
+TEST_CASE("sum: integer part encoding") {
+  Rows rows = BigIntegerRows();
+  auto s = testing::Whole(SumConfig(), rows);
+  const std::string bytes = testing::EncodeOf(*s);
+  auto back = testing::DecodeOf(SumConfig(), bytes);
+  CHECK(testing::EncodeOf(*back) == bytes);
+  CHECK(FinalInteger(*back) == FinalInteger(*s));
+  // skipped 0, n 8, flags 2 (integer part), then 16 bytes.
+  REQUIRE(bytes.size() == 3 + 16);
+  CHECK(bytes[2] == 2);
+  std::string bad_flags = bytes;
+  bad_flags[2] = 4;
+  auto fresh = NewMeasureState(SumConfig());
+  ByteReader r1(bad_flags);
+  CHECK(fresh->Decode(r1).code() == Status::Code::kCorrupt);
+  std::string too_big = bytes;
+  too_big[1] = 1;  // n = 1: one integer cannot sum to 2^65 and more
+  ByteReader r2(too_big);
+  CHECK(fresh->Decode(r2).code() == Status::Code::kCorrupt);
+  // Integers summing to 0 encode no integer part: flags 0.
+  Rows zero;
+  zero.Add(Value::Int(5));
+  zero.Add(Value::Int(-5));
+  const std::string z = testing::EncodeOf(*testing::Whole(SumConfig(), zero));
+  CHECK(z == std::string("\x00\x02\x00", 3));
+  CHECK(FinalInteger(*testing::DecodeOf(SumConfig(), z)) == 0);
+}
+
 // Intent: no usable value gives Null; unusable values are skipped and
 // counted; NaN text is skipped too; infinities propagate as in IEEE.
 TEST_CASE("sum: empty, skipped, infinities") {

@@ -215,6 +215,31 @@ TEST_CASE("top: bounded summary keeps the Misra-Gries bound") {
   }
 }
 
+// Intent: 64-bit ids are counted apart and come back as exact Int cells
+// with every digit, ranked as Python's collections.Counter(...).most_common
+// ranks them (ties by value ascending); 5 and 5.0 are one value.
+TEST_CASE("top: 64-bit integers exactly") {
+  Rows rows;
+  for (int i = 0; i < 3; ++i) rows.Add(Value::Uint(UINT64_MAX));
+  for (int i = 0; i < 2; ++i) rows.Add(Value::Int(9007199254740993));
+  rows.Add(Value::Int(9007199254740992));
+  rows.AddNumber(9007199254740992.0);
+  rows.Add(Value::Int(INT64_MIN));
+  // Python: Counter([2**64-1]*3 + [2**53+1]*2 + [2**53, 2.0**53, -2**63]).most_common()
+  //   == [(18446744073709551615, 3), (9007199254740993, 2), (9007199254740992, 2), (-9223372036854775808, 1)]
+  // (the tie of count 2 shown by value ascending: 2^53 before 2^53+1).
+  auto cells = testing::FinalOf(*testing::Whole(TopConfig(10, 100), rows));
+  const auto& list = cells[0].items;
+  REQUIRE(list.size() == 4);
+  const WideInt want_value[] = {static_cast<WideInt>(UINT64_MAX), 9007199254740992, 9007199254740993, INT64_MIN};
+  const int64_t want_count[] = {3, 2, 2, 1};
+  for (size_t i = 0; i < 4; ++i) {
+    REQUIRE(list[i].items[0].kind == Cell::Kind::kInt);
+    CHECK(list[i].items[0].integer == want_value[i]);
+    CHECK(list[i].items[1].integer == want_count[i]);
+  }
+}
+
 // Intent: missing, null and objects are skipped and counted; bools, numbers
 // and strings are separate values ("1" is not 1); -0.0 is 0.0.
 TEST_CASE("top: typed values and skipped") {
