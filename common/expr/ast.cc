@@ -31,8 +31,12 @@ namespace {
 void Append(const AstNode& n, std::string* out) {
   switch (n.kind) {
     case AstKind::kNumber: {
+      if (n.number.is_integer()) {
+        AppendWideInt(n.number.Wide(), out);
+        return;
+      }
       char buf[kNumberTextMax];
-      out->append(FormatNumber(n.number, buf));
+      out->append(FormatNumber(n.number.number, buf));
       return;
     }
     case AstKind::kString:

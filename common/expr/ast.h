@@ -6,6 +6,8 @@
 #include <string>
 #include <vector>
 
+#include "common/base/value.h"
+
 namespace fanfold {
 
 enum class AstKind : uint8_t {
@@ -34,7 +36,7 @@ struct AstNode {
   AstOp op = AstOp::kNone;
   int column = 0;  // 1-based: the literal, name, field, function name or operator
   int depth = 1;   // height of this subtree; bounded by the parser
-  double number = 0;
+  Value number;  // kNumber: a kNumber Value (exact for integer literals)
   bool boolean = false;
   bool negated = false;  // kIn: "not in"
   std::string text;

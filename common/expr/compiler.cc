@@ -49,7 +49,7 @@ class Compiler {
     const size_t sets_before = p_->sets.size();
     ExprNode n;
     switch (a.kind) {
-      case AstKind::kNumber: return Constant(Value::Number(a.number), index);
+      case AstKind::kNumber: return Constant(a.number, index);
       case AstKind::kString: return Constant(Value::String(Keep(a.text)), index);
       case AstKind::kBool: return Constant(Value::Bool(a.boolean), index);
       case AstKind::kNull: return Constant(Value::Null(), index);

@@ -1,10 +1,12 @@
 #include "common/expr/functions.h"
 
 #include <algorithm>
+#include <charconv>
 #include <cmath>
 #include <cstring>
 
 #include "common/base/number_text.h"
+#include "common/expr/number_arithmetic.h"
 
 namespace fanfold {
 namespace {
@@ -110,7 +112,16 @@ std::string ExprFunctionSignatures() {
 bool ValueText(const Value& v, char* buf, std::string_view* out) {
   switch (v.kind) {
     case ValueKind::kString: *out = v.str; return true;
-    case ValueKind::kNumber: *out = FormatNumber(v.number, buf); return true;
+    case ValueKind::kNumber:
+      if (v.is_integer()) {  // every digit: an id's text is the id
+        const auto r = v.rep == NumberRep::kUint64
+                           ? std::to_chars(buf, buf + kNumberTextMax, v.bits)
+                           : std::to_chars(buf, buf + kNumberTextMax, static_cast<int64_t>(v.bits));
+        *out = {buf, static_cast<size_t>(r.ptr - buf)};
+        return true;
+      }
+      *out = FormatNumber(v.number, buf);
+      return true;
     case ValueKind::kBool: *out = v.boolean ? "true" : "false"; return true;
     default: return false;
   }
@@ -136,7 +147,7 @@ Value ApplyExprFunction(ExprFunction function, const Value* args, int nargs, Tim
       char buf[kNumberTextMax];
       std::string_view s;
       if (!ValueText(args[0], buf, &s)) return Value::Missing();
-      return Value::Number(static_cast<double>(s.size()));
+      return Value::Uint(s.size());
     }
     case F::kSubstr: return Substr(args, nargs, arena);
     case F::kHas: return Value::Bool(args[0].is_present());
@@ -146,14 +157,14 @@ Value ApplyExprFunction(ExprFunction function, const Value* args, int nargs, Tim
         if (args[i].is_present()) return args[i];
       return Value::Missing();
     case F::kBucketStart: {
-      double x, w;
-      if (!args[0].AsNumber(&x) || !args[1].AsNumber(&w) || !(w > 0)) return Value::Missing();
-      return FiniteNumber(std::floor(x / w) * w);
+      Value x, w;
+      if (!args[0].AsNumeric(&x) || !args[1].AsNumeric(&w)) return Value::Missing();
+      return BucketStartOf(x, w);
     }
     case F::kNum: {
-      double d;
-      if (!args[0].AsNumber(&d)) return Value::Missing();
-      return FiniteNumber(d);
+      Value x;
+      if (!args[0].AsNumeric(&x)) return Value::Missing();
+      return x.is_integer() ? x : FiniteNumber(x.number);
     }
     case F::kText: {
       char buf[kNumberTextMax];
@@ -180,7 +191,7 @@ Value ApplyExprFunction(ExprFunction function, const Value* args, int nargs, Tim
       double t;
       if (!ValueEpochSeconds(args[0], 1, &t)) return Value::Missing();
       const int r = function == F::kClockHour ? ClockHour(t) : IsoWeekday(t);
-      return r < 0 ? Value::Missing() : Value::Number(r);
+      return r < 0 ? Value::Missing() : Value::Int(r);
     }
   }
   return Value::Missing();

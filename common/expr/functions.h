@@ -45,8 +45,9 @@ std::string ExprFunctionSignatures();
 Value ApplyExprFunction(ExprFunction function, const Value* args, int nargs, TimeUnit unit,
                         ScratchArena* arena);
 
-// The text a string function sees for `v`: strings as they are, numbers as
-// FormatNumber writes them into buf (at least kNumberTextMax bytes), bools
+// The text a string function sees for `v`: strings as they are, integers
+// as their exact digits and other numbers as FormatNumber writes them, into
+// buf (at least kNumberTextMax bytes), bools
 // as "true"/"false". Returns false iff v is missing, null or not a scalar.
 bool ValueText(const Value& v, char* buf, std::string_view* out);
 

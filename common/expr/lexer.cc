@@ -100,7 +100,9 @@ Status ScanField(std::string_view text, size_t* pos, std::string* out) {
 }
 
 // Scans digits [. digits] [e [+-] digits], or . digits [...], at text[*pos].
-Status ScanNumber(std::string_view text, size_t* pos, double* out) {
+// Digits alone are an integer literal: exact up to 2^64 - 1, its nearest
+// double beyond (Value::AsNumeric).
+Status ScanNumber(std::string_view text, size_t* pos, Value* out) {
   const size_t start = *pos;
   size_t i = start;
   auto digits = [&] {
@@ -125,7 +127,15 @@ Status ScanNumber(std::string_view text, size_t* pos, double* out) {
   if (!ok || end != i)
     return ErrorAt(start, "malformed number '" + std::string(text.substr(start, end - start)) + "'",
                    "a decimal number such as 12, 1.5, .5 or 1e-3");
-  auto [p, ec] = std::from_chars(text.data() + start, text.data() + i, *out);
+  const std::string_view literal = text.substr(start, i - start);
+  if (literal.find_first_not_of("0123456789") == std::string_view::npos &&
+      Value::String(literal).AsNumeric(out)) {
+    *pos = i;
+    return Status::Ok();
+  }
+  double d = 0;
+  auto [p, ec] = std::from_chars(text.data() + start, text.data() + i, d);
+  *out = Value::Number(d);
   if (ec != std::errc() || p != text.data() + i)
     return ErrorAt(start, "number " + std::string(text.substr(start, i - start)) +
                               " out of range", "a number a double can hold");

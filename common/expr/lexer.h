@@ -10,6 +10,8 @@
 #include <string_view>
 #include <vector>
 
+#include "common/base/value.h"
+
 #include "common/base/status.h"
 
 namespace fanfold {
@@ -31,7 +33,7 @@ struct Token {
   int column = 0;          // 1-based byte column of the first character
   std::string_view raw;    // the token as written (empty for kEnd)
   std::string text;        // kString, kField, kName
-  double number = 0;       // kNumber
+  Value number;            // kNumber: an exact integer for digits-only literals (value.h)
 };
 
 // How a token reads in an error message: "'+'", "number 12", "string 'x'",

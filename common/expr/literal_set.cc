@@ -3,16 +3,24 @@
 #include <algorithm>
 #include <cmath>
 
-namespace fanfold {
+#include "common/base/value_compare.h"
 
-void LiteralSet::AddNumber(double d) {
-  if (!std::isnan(d)) numbers_.push_back(d);  // NaN equals nothing
+namespace fanfold {
+namespace {
+
+// Exact numeric order; the set holds no NaN, so it is a strict weak order.
+bool NumberLess(const Value& a, const Value& b) { return CompareNumbers(a, b) < 0; }
+
+}  // namespace
+
+void LiteralSet::AddNumber(const Value& v) {
+  if (v.is_integer() || !std::isnan(v.number)) numbers_.push_back(v);  // NaN equals nothing
 }
 
 void LiteralSet::AddString(std::string_view s) {
-  double d;
-  if (Value::String(s).AsNumber(&d)) {
-    AddNumber(d);
+  Value v;
+  if (Value::String(s).AsNumeric(&v)) {
+    AddNumber(v);
   } else {
     strings_.emplace_back(s);
   }
@@ -21,25 +29,28 @@ void LiteralSet::AddString(std::string_view s) {
 void LiteralSet::AddBool(bool b) { (b ? has_true_ : has_false_) = true; }
 
 void LiteralSet::Seal() {
-  std::sort(numbers_.begin(), numbers_.end());
-  numbers_.erase(std::unique(numbers_.begin(), numbers_.end()), numbers_.end());
+  std::sort(numbers_.begin(), numbers_.end(), NumberLess);
+  numbers_.erase(std::unique(numbers_.begin(), numbers_.end(),
+                             [](const Value& a, const Value& b) { return CompareNumbers(a, b) == 0; }),
+                 numbers_.end());
   std::sort(strings_.begin(), strings_.end());
   strings_.erase(std::unique(strings_.begin(), strings_.end()), strings_.end());
 }
 
 bool LiteralSet::Contains(const Value& v) const {
-  double d;
+  Value n;
   switch (v.kind) {
     case ValueKind::kBool: return v.boolean ? has_true_ : has_false_;
     case ValueKind::kNumber:
       // binary_search would "find" NaN, which compares neither less nor greater.
-      return !std::isnan(v.number) &&
-             std::binary_search(numbers_.begin(), numbers_.end(), v.number);
+      return (v.is_integer() || !std::isnan(v.number)) &&
+             std::binary_search(numbers_.begin(), numbers_.end(), v, NumberLess);
     case ValueKind::kString:
       // Numeric text can only equal a number (every numeric element is one),
       // other text only a string element.
-      if (!numbers_.empty() && v.AsNumber(&d))
-        return !std::isnan(d) && std::binary_search(numbers_.begin(), numbers_.end(), d);
+      if (!numbers_.empty() && v.AsNumeric(&n))
+        return (n.is_integer() || !std::isnan(n.number)) &&
+               std::binary_search(numbers_.begin(), numbers_.end(), n, NumberLess);
       return std::binary_search(strings_.begin(), strings_.end(), v.str,
                                 [](const auto& a, const auto& b) {
                                   return std::string_view(a) < std::string_view(b);

@@ -5,6 +5,7 @@
 #include <vector>
 
 #include "common/expr/lexer.h"
+#include "common/expr/number_arithmetic.h"
 
 namespace fanfold {
 namespace {
@@ -167,7 +168,7 @@ class Parser {
         case TokenKind::kMinus:
           if (Peek().kind == TokenKind::kNumber) {
             lit.kind = AstKind::kNumber;
-            lit.number = -Next().number;
+            lit.number = NegateNumber(Next().number);
             break;
           }
           return Unexpected(Peek(), "a number after '-' in the list");

@@ -1,30 +1,24 @@
 #include "common/expr/program.h"
 
-#include <cmath>
+#include "common/expr/number_arithmetic.h"
 
 namespace fanfold {
 namespace {
 
 Value Arithmetic(ExprOp op, const Value& l, const Value& r) {
-  double x, y;
-  if (!l.AsNumber(&x) || !r.AsNumber(&y)) return Value::Missing();
-  double z;
+  Value x, y;
+  if (!l.AsNumeric(&x) || !r.AsNumeric(&y)) return Value::Missing();
+  NumberOp nop = NumberOp::kMod;
   switch (op) {
-    case ExprOp::kAdd: z = x + y; break;
-    case ExprOp::kSub: z = x - y; break;
-    case ExprOp::kMul: z = x * y; break;
-    case ExprOp::kDiv:
-      if (y == 0) return Value::Missing();
-      z = x / y;
-      break;
-    default:  // kMod
-      if (y == 0) return Value::Missing();
-      z = std::fmod(x, y);
-      break;
+    case ExprOp::kAdd: nop = NumberOp::kAdd; break;
+    case ExprOp::kSub: nop = NumberOp::kSub; break;
+    case ExprOp::kMul: nop = NumberOp::kMul; break;
+    case ExprOp::kDiv: nop = NumberOp::kDiv; break;
+    default: break;
   }
-  // Overflow to infinity (or NaN from "nan" text) has no place in a group
-  // key or a sum; treat it like any other unusable number.
-  return std::isfinite(z) ? Value::Number(z) : Value::Missing();
+  // Overflow to infinity (or NaN) has no place in a group key or a sum:
+  // ApplyNumberOp gives Missing, like any other unusable number.
+  return ApplyNumberOp(nop, x, y);
 }
 
 }  // namespace
@@ -54,9 +48,9 @@ Value Expr::Program::EvalAt(int32_t index, const Value* slots, ScratchArena* are
     case ExprOp::kMod:
       return Arithmetic(n.op, Kid(n, 0, slots, arena), Kid(n, 1, slots, arena));
     case ExprOp::kNeg: {
-      double x;
-      if (!Kid(n, 0, slots, arena).AsNumber(&x) || !std::isfinite(x)) return Value::Missing();
-      return Value::Number(-x);
+      Value x;
+      if (!Kid(n, 0, slots, arena).AsNumeric(&x)) return Value::Missing();
+      return NegateNumber(x);
     }
     case ExprOp::kCall: {
       Value a[3];

@@ -7,35 +7,21 @@
 #include <string>
 #include <vector>
 
-#include "common/input/json_pointer.h"
+#include "common/input/on_demand_line_parser.h"
+#include "common/input/pointer_trie.h"
 
 namespace fanfold {
 namespace {
 
 namespace dom = simdjson::dom;
 
-// One reference token of a pointer path; the root has an empty token.
-struct Node {
-  std::string token;
-  int64_t index = -1;  // the array index the token denotes, or -1
-  int slot = -1;       // slot to fill with the value here, or -1
-  std::vector<uint32_t> children;
-  int64_t max_child_index = -1;  // largest array index among children
-  uint64_t seen = 0;  // record generation that last consumed this node
-};
-
-// Keys are short, so comparing the first byte before memcmp skips most calls.
-inline bool TokenIs(const std::string& token, std::string_view key) {
-  return token.size() == key.size() && (key.empty() || (token[0] == key[0] && std::memcmp(token.data(), key.data(), key.size()) == 0));
-}
-
 bool IsJsonSpace(char c) { return c == ' ' || c == '\t' || c == '\r' || c == '\n'; }
 
 Value ToValue(dom::element el) {
   switch (el.type()) {
     // The type is checked first, so the unchecked getters cannot fail.
-    case dom::element_type::INT64: return Value::Number(static_cast<double>(el.get_int64().value_unsafe()));
-    case dom::element_type::UINT64: return Value::Number(static_cast<double>(el.get_uint64().value_unsafe()));
+    case dom::element_type::INT64: return Value::Int(el.get_int64().value_unsafe());
+    case dom::element_type::UINT64: return Value::Uint(el.get_uint64().value_unsafe());
     case dom::element_type::DOUBLE: return Value::Number(el.get_double().value_unsafe());
     case dom::element_type::STRING: return Value::String(el.get_string().value_unsafe());
     case dom::element_type::BOOL: return Value::Bool(el.get_bool().value_unsafe());
@@ -61,7 +47,7 @@ struct NdjsonReader::Impl {
 
   // Walks the value at trie node ni, filling slots where pointers end.
   void Walk(dom::element el, uint32_t ni) {
-    const Node& n = nodes[ni];
+    const PointerNode& n = nodes[ni];
     if (n.slot >= 0) slots[n.slot] = ToValue(el);
     if (n.children.empty()) return;
     const size_t want = n.children.size();
@@ -71,7 +57,7 @@ struct NdjsonReader::Impl {
       for (auto it = obj.begin(); it != obj.end(); ++it) {
         std::string_view key = it.key();
         for (uint32_t c : n.children) {
-          Node& child = nodes[c];
+          PointerNode& child = nodes[c];
           if (!TokenIs(child.token, key)) continue;
           if (child.seen != generation) {  // duplicate keys: the first one wins
             child.seen = generation;
@@ -97,8 +83,9 @@ struct NdjsonReader::Impl {
     }
   }
 
-  // Parses one line. Returns false iff the sink asked to stop.
-  bool OnLine(const char* p, size_t len, uint64_t line, RecordSink& sink, ReadStats& st) {
+  // Parses one line, readable up to p + capacity (the chunk's padding
+  // included). Returns false iff the sink asked to stop.
+  bool OnLine(const char* p, size_t len, size_t capacity, uint64_t line, RecordSink& sink, ReadStats& st) {
     while (len > 0 && p[len - 1] == '\r') --len;
     if (len == 0) return true;
     if (*p != '{') {
@@ -109,26 +96,32 @@ struct NdjsonReader::Impl {
     dom::element root;
     simdjson::error_code err = parser.parse(p, len, false).get(root);
     const char* reason = nullptr;
-    if (err) {
+    std::fill(slots.begin(), slots.end(), Value::Missing());
+    ++generation;
+    if (err == simdjson::NUMBER_ERROR) {
+      // A number the DOM parser cannot hold (beyond 64-bit integers, or
+      // 1e400) or a malformed one: the On-Demand pass tells them apart.
+      reason = slow_path.Parse(p, len, capacity, &nodes, generation, slots.data());
+    } else if (err) {
       reason = simdjson::error_message(err);
     } else if (root.type() != dom::element_type::OBJECT) {
       reason = "the line is not a JSON object";
+    } else {
+      Walk(root, 0);
     }
     if (reason != nullptr) {
       ++st.malformed;
       if (st.samples.size() < ReadStats::kMaxSamples) st.samples.push_back(MalformedSample{line, reason});
       return true;
     }
-    std::fill(slots.begin(), slots.end(), Value::Missing());
-    ++generation;
-    Walk(root, 0);
     ++st.records;
     return sink.OnRecord(slots.data());
   }
 
   ChunkBuffer chunk;
   dom::parser parser;
-  std::vector<Node> nodes;  // nodes[0] is the root
+  OnDemandLineParser slow_path;
+  std::vector<PointerNode> nodes;  // nodes[0] is the root
   std::vector<Value> slots;
   uint64_t generation = 0;
 };
@@ -137,40 +130,10 @@ NdjsonReader::NdjsonReader(std::unique_ptr<Impl> impl) : impl_(std::move(impl)) 
 NdjsonReader::~NdjsonReader() = default;
 
 Result<std::unique_ptr<NdjsonReader>> NdjsonReader::Create(const FieldTable& fields, const ChunkOptions& options) {
+  Result<std::vector<PointerNode>> nodes = BuildPointerTrie(fields);
+  if (!nodes.ok()) return nodes.status();
   auto impl = std::make_unique<Impl>(options, fields.size());
-  impl->nodes.emplace_back();
-  for (size_t s = 0; s < fields.size(); ++s) {
-    const FieldTable::Slot& slot = fields.slot(s);
-    if (slot.derived) continue;
-    if (slot.name.empty()) {
-      return Status::InvalidArgument(
-          "the JSON Pointer \"\" (the whole record) cannot be used as a field; name a member such as '/id'");
-    }
-    if (slot.name[0] != '/') {
-      return Status::InvalidArgument("NDJSON fields are JSON Pointers and start with '/': got '" + slot.name + "'");
-    }
-    Result<std::vector<std::string>> tokens = ParseJsonPointer(slot.name);
-    if (!tokens.ok()) return tokens.status();
-    uint32_t at = 0;
-    for (const std::string& token : *tokens) {
-      uint32_t next = 0;
-      for (uint32_t c : impl->nodes[at].children) {
-        if (impl->nodes[c].token == token) next = c;
-      }
-      if (next == 0) {
-        next = static_cast<uint32_t>(impl->nodes.size());
-        Node node;
-        node.token = token;
-        node.index = JsonPointerIndex(token);
-        impl->nodes.push_back(std::move(node));
-        Node& parent = impl->nodes[at];
-        parent.children.push_back(next);
-        parent.max_child_index = std::max(parent.max_child_index, impl->nodes[next].index);
-      }
-      at = next;
-    }
-    impl->nodes[at].slot = static_cast<int>(s);
-  }
+  impl->nodes = std::move(*nodes);
   return std::unique_ptr<NdjsonReader>(new NdjsonReader(std::move(impl)));
 }
 
@@ -206,7 +169,7 @@ Status NdjsonReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
         nl = end;
       }
       ++line;
-      if (!im.OnLine(p, static_cast<size_t>(nl - p), line, sink, st)) return Status::Ok();
+      if (!im.OnLine(p, static_cast<size_t>(nl - p), im.chunk.room_after(p), line, sink, st)) return Status::Ok();
       p = nl == end ? end : nl + 1;
     }
     if (last) return Status::Ok();

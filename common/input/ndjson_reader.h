@@ -2,8 +2,10 @@
 // fills the raw slots of a FieldTable, whose raw fields are JSON Pointers
 // (RFC 6901), then hands each well-formed record to a RecordSink. Pointers
 // are compiled once into a token trie; each line is parsed once (simdjson
-// DOM, every value validated) and walked only where a pointer leads. One
-// reader per thread; reusable across sources (build it once per worker).
+// DOM, every value validated) and walked only where a pointer leads. JSON
+// integers within [-2^63, 2^64) are exact integer Values; a line the DOM
+// parser refuses for a number is read again (OnDemandLineParser). One reader
+// per thread; reusable across sources (build it once per worker).
 #pragma once
 
 #include <cstddef>
@@ -30,7 +32,9 @@ class NdjsonReader final : public RecordReader {
   // Reads every record of src as ReadRecords does (common/input/record_reader.h).
   // A record is well formed iff its line is one complete JSON object; empty
   // and whitespace-only lines are skipped without counting. With duplicate
-  // keys the first occurrence wins. *stats (may be null) is overwritten.
+  // keys the first occurrence wins. A number beyond 64-bit integers is its
+  // nearest double; beyond the double range (1e400), +/-infinity.
+  // *stats (may be null) is overwritten.
   // A line longer than options.max_record_bytes is an error (Corrupt).
   Status Read(ByteSource& src, RecordSink& sink, ReadStats* stats) override;
 

@@ -11,6 +11,7 @@
 #include <utility>
 #include <vector>
 
+#include "common/base/number_text.h"
 #include "common/expr/expr.h"
 
 namespace fanfold::expr_testing {
@@ -18,13 +19,19 @@ namespace fanfold::expr_testing {
 // A record: raw fields by reference text, with the values a reader would give.
 using Record = std::vector<std::pair<std::string, Value>>;
 
-// How a value prints in these tests: missing, null, true, false, 12, 'text'.
+// How a value prints in these tests: missing, null, true, false, 12, 'text';
+// integers with every digit, other numbers as "%.17g".
 inline std::string Show(const Value& v) {
   switch (v.kind) {
     case ValueKind::kMissing: return "missing";
     case ValueKind::kNull: return "null";
     case ValueKind::kBool: return v.boolean ? "true" : "false";
     case ValueKind::kNumber: {
+      if (v.is_integer()) {  // exact digits, as Python's str(int)
+        std::string digits;
+        AppendWideInt(v.Wide(), &digits);
+        return digits;
+      }
       char buf[64];
       std::snprintf(buf, sizeof buf, "%.17g", v.number);
       return buf;

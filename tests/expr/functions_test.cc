@@ -89,7 +89,8 @@ TEST_CASE("presence and conversion functions") {
       {"text(100000)", "'100000'"},
       {"text(1e21)", "'1e+21'"},                // Python repr(1e21)
       {"text(123456789012345680000)", "'1.2345678901234568e+20'"},  // Python repr
-      {"text(9007199254740993)", "'9007199254740992'"},  // 2^53 + 1 rounds to 2^53
+      {"text(9007199254740993)", "'9007199254740993'"},  // an integer literal is exact: Python str(2**53 + 1)
+      {"text(9007199254740993.0)", "'9007199254740992'"},  // a double: Python int(9007199254740993.0) == 2**53
       {"text(0.000001)", "'0.000001'"},
       {"text(1e-7)", "'1e-07'"},                // Python repr(1e-7)
       {"text(-0)", "'0'"},

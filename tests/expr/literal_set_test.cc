@@ -29,7 +29,7 @@ TEST_CASE("LiteralSet matches the == rule") {
       LiteralSet set;
       for (size_t i = from; i < to; ++i) {
         const Value& v = literals[i];
-        if (v.kind == ValueKind::kNumber) set.AddNumber(v.number);
+        if (v.kind == ValueKind::kNumber) set.AddNumber(v);
         else if (v.kind == ValueKind::kString) set.AddString(v.str);
         else set.AddBool(v.boolean);
       }
@@ -49,7 +49,7 @@ TEST_CASE("LiteralSet matches the == rule") {
 TEST_CASE("LiteralSet size after Seal") {
   LiteralSet set;
   set.AddString("200");
-  set.AddNumber(200);
+  set.AddNumber(Value::Number(200));
   set.AddString("north");
   set.AddString("north");
   set.AddBool(true);

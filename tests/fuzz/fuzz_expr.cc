@@ -58,6 +58,13 @@ extern "C" int LLVMFuzzerTestOneInput(const uint8_t* data, size_t size) {
   for (size_t i = 0; i < n; ++i) slots[i] = Value::Number(kNumbers[i % std::size(kNumbers)]);
   EvalOn(e, slots, &arena);
 
+  // Exact integers at the edges of the 64-bit range, where WideInt arithmetic
+  // must not overflow.
+  const Value kIntegers[] = {Value::Int(INT64_MIN), Value::Uint(UINT64_MAX), Value::Int(-1), Value::Int(0),
+                             Value::Int(9007199254740993), Value::Uint(uint64_t{1} << 63), Value::Int(INT64_MAX)};
+  for (size_t i = 0; i < n; ++i) slots[i] = kIntegers[i % std::size(kIntegers)];
+  EvalOn(e, slots, &arena);
+
   static const std::string kLong(300, 'x');
   const std::string_view kStrings[] = {"2026-03-01T00:00:03.454Z", "", "12", "L-70804", "\xc3\xa9t\xc3\xa9",
                                        " 5", "2026-02-29T25:61:61+14:00", "1e400", kLong, "week",

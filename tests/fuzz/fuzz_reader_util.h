@@ -5,6 +5,7 @@
 #pragma once
 
 #include <algorithm>
+#include <bit>
 #include <cstddef>
 #include <cstdint>
 #include <cstring>
@@ -24,6 +25,8 @@ class TouchSink : public RecordSink {
       const Value& v = slots[i];
       if (static_cast<uint8_t>(v.kind) > static_cast<uint8_t>(ValueKind::kOther)) __builtin_trap();
       for (char c : v.str) hash_ = hash_ * 31 + static_cast<unsigned char>(c);
+      // Numbers by their exact form too (integer or double, and its bits).
+      hash_ = hash_ * 31 + static_cast<uint8_t>(v.rep) + v.bits + std::bit_cast<uint64_t>(v.number);
       double d;
       (void)v.AsNumber(&d);
     }

@@ -9,19 +9,28 @@
 #include <vector>
 
 #include "common/input/record_reader.h"
+#include "common/base/number_text.h"
 #include "common/base/value.h"
 
 namespace fanfold {
 namespace {
 
-// A short text form of a slot, so whole records compare as strings.
+// A short text form of a slot, so whole records compare as strings; exact
+// integers print their digits, other numbers as "%.17g".
 inline std::string Show(const Value& v) {
   char buf[40];
   switch (v.kind) {
     case ValueKind::kMissing: return "-";
     case ValueKind::kNull: return "null";
     case ValueKind::kBool: return v.boolean ? "true" : "false";
-    case ValueKind::kNumber: std::snprintf(buf, sizeof buf, "%.17g", v.number); return buf;
+    case ValueKind::kNumber:
+      if (v.is_integer()) {  // exact digits, as Python's str(int) prints them
+        std::string digits;
+        AppendWideInt(v.Wide(), &digits);
+        return digits;
+      }
+      std::snprintf(buf, sizeof buf, "%.17g", v.number);
+      return buf;
     case ValueKind::kString: return "'" + std::string(v.str) + "'";
     case ValueKind::kOther: return "{}";
   }
