@@ -7,9 +7,9 @@
 // Single-threaded.
 #pragma once
 
+#include "common/base/number_encoding.h"
 #include "common/base/value_compare.h"
 #include "common/measures/measure.h"
-#include "common/measures/number_encoding.h"
 
 namespace fanfold {
 

@@ -2,8 +2,8 @@
 
 #include <cmath>
 
+#include "common/base/number_encoding.h"
 #include "common/base/value_compare.h"
-#include "common/measures/number_encoding.h"
 
 namespace fanfold {
 

@@ -9,9 +9,9 @@
 
 #include <cmath>
 
+#include "common/base/wide_sum.h"
 #include "common/measures/measure.h"
 #include "common/measures/same_state_merge.h"
-#include "common/measures/wide_sum.h"
 
 namespace fanfold {
 

@@ -1,7 +1,7 @@
 // WideSum: the exact integer part of sum and mean, its encoding, its split
 // into two doubles and its once-rounded division, against Python's int
 // (arbitrary precision) and int / int true division (correctly rounded).
-#include "common/measures/wide_sum.h"
+#include "common/base/wide_sum.h"
 
 #include <doctest/doctest.h>
 

@@ -1,4 +1,4 @@
-#include "common/measures/number_encoding.h"
+#include "common/base/number_encoding.h"
 
 #include <bit>
 #include <cmath>

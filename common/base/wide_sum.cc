@@ -1,4 +1,4 @@
-#include "common/measures/wide_sum.h"
+#include "common/base/wide_sum.h"
 
 #include <cmath>
 
