@@ -1,5 +1,6 @@
 #include "common/job/plan.h"
 
+#include <charconv>
 #include <set>
 
 #include <xxhash.h>
@@ -164,9 +165,22 @@ Result<std::unique_ptr<Plan>> CompilePlan(JobSpec spec, RecordFormat format) {
   return plan;
 }
 
+namespace {
+constexpr std::string_view kPlanTextCodecPrefix = "fanfold-plan codec=";
+}  // namespace
+
+int PlanTextCodecVersion(std::string_view plan_text) {
+  if (plan_text.substr(0, kPlanTextCodecPrefix.size()) != kPlanTextCodecPrefix) return -1;
+  const std::string_view rest = plan_text.substr(kPlanTextCodecPrefix.size());
+  int version = -1;
+  const auto [end, ec] = std::from_chars(rest.data(), rest.data() + rest.size(), version);
+  if (ec != std::errc() || end == rest.data() || end == rest.data() + rest.size() || *end != '\n') return -1;
+  return version;
+}
+
 std::string PlanCanonicalText(const Plan& plan) {
   const JobSpec& s = plan.spec;
-  std::string out = "fanfold-plan codec=" + std::to_string(kPartialFormatVersion) + "\n";
+  std::string out = std::string(kPlanTextCodecPrefix) + std::to_string(kPartialFormatVersion) + "\n";
   out += std::string("format=") + FormatName(plan.format) + "\n";
   out += "keep=" + s.keep + "\n";
   for (const auto& d : s.derive) out += "derive " + d.name + "=" + d.expr + "\n";

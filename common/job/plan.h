@@ -10,6 +10,7 @@
 #include <memory>
 #include <optional>
 #include <string>
+#include <string_view>
 #include <vector>
 
 #include "common/expr/expr.h"
@@ -57,5 +58,10 @@ Result<std::unique_ptr<Plan>> CompilePlan(JobSpec spec, RecordFormat format);
 // A stable, human-readable description of everything the fingerprint
 // covers (format, filter, derived fields, keys, measures, codec version).
 std::string PlanCanonicalText(const Plan& plan);
+
+// The partial-state format version a canonical plan text names in its first
+// line ("fanfold-plan codec=N"), or -1 if it names none: how `resume` tells
+// a run directory of another format from one whose job changed.
+int PlanTextCodecVersion(std::string_view plan_text);
 
 }  // namespace fanfold

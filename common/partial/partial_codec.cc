@@ -127,8 +127,8 @@ Status DecodePartialHeader(std::string_view bytes, PartialHeader* h) {
   uint16_t version = r.U16();
   uint16_t header_size = r.U16();
   if (version != kPartialFormatVersion)
-    return Status::Corrupt("partial state format version " + std::to_string(version) + "; expected " +
-                           std::to_string(kPartialFormatVersion));
+    return Status::Corrupt("partial state format version " + std::to_string(version) + "; this fanfold reads version " +
+                           std::to_string(kPartialFormatVersion) + " only");
   if (header_size != kPartialHeaderSize) return Status::Corrupt("partial state header size mismatch");
   h->fingerprint = r.U64();
   h->shard_index = r.U32();

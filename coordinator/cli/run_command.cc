@@ -105,6 +105,17 @@ CommandOutcome ResumeRun(const RunOptions& given) {
     return out;
   }
   RunOptions o = given;
+  // A run directory of another partial-state format: its partials cannot be
+  // read, and its plan fingerprint cannot match, but the job did not change.
+  const int codec = PlanTextCodecVersion(manifest.plan_text);
+  if (codec != kPartialFormatVersion) {
+    out.status = Status::InvalidArgument(
+        "cannot resume '" + o.run_dir + "': its run.json says its partial states are in format version " +
+        (codec < 0 ? std::string("(none given)") : std::to_string(codec)) + ", and this fanfold reads version " +
+        std::to_string(kPartialFormatVersion) + " only. Start a fresh run instead: fanfold run " +
+        manifest.job_path + " --run-dir " + o.run_dir + " --fresh");
+    return out;
+  }
   if (o.max_attempts == kAttemptsOfTheRun) o.max_attempts = manifest.attempts;
   if (o.shard_time_limit_ms == kTimeLimitOfTheRun) o.shard_time_limit_ms = manifest.shard_time_limit_ms;
   // The run's own copy of the job file when it has one (run directories of
@@ -177,8 +188,8 @@ CommandOutcome ResumeRun(const RunOptions& given) {
       in.reused.push_back(s.index);
     } else {
       if (!o.quiet)
-        std::cerr << "fanfold: warning: discarding the saved partial of shard " << s.index << " (" << problem
-                  << "); recomputing it\n";
+        std::cerr << "fanfold: warning: discarding the saved partial of shard " << s.index << " in '"
+                  << (*dir)->PartialFile(s.index) << "' (" << problem << "); recomputing it\n";
       (*dir)->DiscardPartial(s.index);
       in.pending.push_back(s.index);
     }

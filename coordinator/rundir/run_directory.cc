@@ -289,6 +289,11 @@ Status RunDirectory::LoadPartial(uint32_t shard, std::string* out) const {
   return ReadRange(PackPath(it->second.pack), it->second.offset, it->second.length, out);
 }
 
+std::string RunDirectory::PartialFile(uint32_t shard) const {
+  auto it = index_.find(shard);
+  return it == index_.end() ? std::string() : PackPath(it->second.pack);
+}
+
 Status RunDirectory::LoadStagedOrCommitted(uint32_t shard, std::string* out) const {
   const uint64_t written = pack_size_ - stage_buffer_.size();  // bytes of the batch already in its file
   for (const auto& [s, loc] : staged_) {

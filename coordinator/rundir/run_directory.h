@@ -79,6 +79,8 @@ class RunDirectory {
 
   // Reads shard's committed partial (empty string iff there is none).
   Status LoadPartial(uint32_t shard, std::string* out) const;
+  // The pack file holding shard's committed partial, for messages ("" iff none).
+  std::string PartialFile(uint32_t shard) const;
   // Reads shard's partial staged in the open batch, else its committed one.
   Status LoadStagedOrCommitted(uint32_t shard, std::string* out) const;
   // Forgets shard's committed partial (a corrupt or stale one); a later

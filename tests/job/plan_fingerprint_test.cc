@@ -7,6 +7,7 @@
 #include <type_traits>
 #include <variant>
 
+#include "common/base/format_version.h"
 #include "common/job/plan.h"
 #include "common/measures/measure_options.h"
 #include "common/measures/measure_registry.h"
@@ -138,4 +139,19 @@ TEST_CASE("each option written in the job file changes the plan fingerprint") {
     }
   }
   CHECK(checked == 8);  // at x2, limit x3, alpha, precision, k: the options the rows take
+}
+
+// Intent: the codec version is read back from a plan text's first line (the
+// current one from a compiled plan, older ones from run.json of earlier
+// versions), and text without that line names none.
+TEST_CASE("the codec version of a plan text") {
+  Result<JobSpec> spec =
+      ParseJobSpec(R"J({"inputs": {"files": ["a"]}, "measures": [{"name": "n", "fn": "count"}]})J", "job.json");
+  REQUIRE(spec.ok());
+  auto plan = CompileSpec(spec.value());
+  CHECK(PlanTextCodecVersion(PlanCanonicalText(*plan)) == kPartialFormatVersion);
+  CHECK(PlanTextCodecVersion("fanfold-plan codec=2\nformat=ndjson\n") == 2);
+  CHECK(PlanTextCodecVersion("fanfold-plan codec=\n") == -1);
+  CHECK(PlanTextCodecVersion("fanfold-plan codec=2") == -1);
+  CHECK(PlanTextCodecVersion("format=ndjson\n") == -1);
 }

@@ -164,4 +164,13 @@ TEST_CASE("small bodies are stored raw, large ones compressed, both decode alike
   lengths[104] = static_cast<char>(lengths[104] + 1);
   SetPartialEncodeTime(0, &lengths);
   CHECK(DecodePartialHeader(lengths, &h).message() == "partial state body is stored raw but its two lengths differ");
+  // A partial of format version 2 (before exact integers), resealed so only
+  // the version is wrong, is refused by name of both versions.
+  std::string old_version = a;
+  old_version[4] = 2;
+  old_version[5] = 0;
+  SetPartialEncodeTime(0, &old_version);
+  const Status refused = DecodePartialHeader(old_version, &h);
+  CHECK(refused.code() == Status::Code::kCorrupt);
+  CHECK(refused.message() == "partial state format version 2; this fanfold reads version 3 only");
 }
