@@ -186,6 +186,26 @@ TEST_CASE("moments: a non-integer value gives the running mean") {
   CHECK(testing::FinalOf(*testing::Whole(Config(MeasureKind::kVariance), ints))[0].number == 1.6666666666666667);
 }
 
+// Intent: an integer sum past the 128-bit range (two decoded states of 3 *
+// 2^61 values each) ends exactness as documented: the mean falls back to the
+// running mean, here exactly 2^64 (Python: 2 * 3 * 2**125 / (3 * 2**62) == 2.0**64).
+TEST_CASE("moments: integer sum overflow falls back to the running mean") {
+  std::string bytes;
+  ByteWriter w(&bytes);
+  w.Varint(0);                  // skipped
+  w.Varint(uint64_t{3} << 61);  // n
+  w.F64(0x1p64);                // mean
+  w.F64(0);                     // M2
+  w.U8(1);                      // all integers
+  w.U64(0);
+  w.U64(uint64_t{3} << 61);     // their sum, 3 * 2^125
+  auto a = testing::DecodeOf(Config(MeasureKind::kMean), bytes);
+  auto b = testing::DecodeOf(Config(MeasureKind::kMean), bytes);
+  REQUIRE(a->Merge(*b).ok());
+  CHECK_FALSE(dynamic_cast<MomentsState*>(a.get())->all_integers());
+  CHECK(testing::FinalOf(*a)[0].number == 0x1p64);
+}
+
 // Intent: n < 2 gives Null variance/stddev, n = 0 Null mean; unusable
 // values are skipped and counted.
 TEST_CASE("moments: empty, single value and skipped values") {

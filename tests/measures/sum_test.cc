@@ -212,6 +212,27 @@ TEST_CASE("sum: integer part encoding") {
   CHECK(FinalInteger(*testing::DecodeOf(SumConfig(), z)) == 0);
 }
 
+// Intent: the integer part's overflow (more than 2^63 values: reached here
+// by merging two decoded states) is defined: the result becomes the Float
+// of the whole sum, not a wrapped integer.
+TEST_CASE("sum: integer part overflow falls back to the double sum") {
+  // n = 3 * 2^61 integers summing to 3 * 2^125 (within n * 2^64), twice.
+  std::string bytes;
+  ByteWriter w(&bytes);
+  w.Varint(0);                    // skipped
+  w.Varint(uint64_t{3} << 61);    // n
+  w.U8(2);                        // flags: integer part
+  w.U64(0);
+  w.U64(uint64_t{3} << 61);       // 3 * 2^125, little-endian halves
+  auto a = testing::DecodeOf(SumConfig(), bytes);
+  CHECK(FinalInteger(*a) == static_cast<WideInt>(3) << 125);
+  auto b = testing::DecodeOf(SumConfig(), bytes);
+  REQUIRE(a->Merge(*b).ok());
+  // Python: float(2 * 3 * 2**125) == 2.5521177519070385e+38 (past 2^127: no WideInt holds it)
+  CHECK(FinalNumber(*a) == 2.5521177519070385e+38);
+  CHECK(FinalNumber(*testing::DecodeOf(SumConfig(), testing::EncodeOf(*a))) == 2.5521177519070385e+38);
+}
+
 // Intent: no usable value gives Null; unusable values are skipped and
 // counted; NaN text is skipped too; infinities propagate as in IEEE.
 TEST_CASE("sum: empty, skipped, infinities") {
