@@ -42,6 +42,12 @@ bool CompareNonNumeric(CompareOp op, const Value& l, const Value& r) {
 
 int CompareWideToDouble(WideInt w, double d) {
   if (std::isnan(d)) return kUnordered;
+  // The common case: w is exact as a double, so the double order is exact.
+  constexpr WideInt kTwo53 = WideInt{1} << 53;
+  if (w >= -kTwo53 && w <= kTwo53) {
+    const double x = static_cast<double>(w);
+    return x < d ? -1 : (x > d ? 1 : 0);
+  }
   // 2^127 bounds every WideInt; beyond it (infinities included) the double wins.
   constexpr double kTwo127 = 170141183460469231731687303715884105728.0;
   if (d >= kTwo127) return -1;

@@ -75,10 +75,13 @@ def main():
         # Intent: CSV and the table print each id's exact digits (Python's str(int)).
         job = lib.write_job(env.path("ids_plain.json"), {
             "inputs": {"files": files}, "group": ["{/id}"], "measures": [{"name": "n", "fn": "count"}]})
-        rc, _, err = env.fanfold_run("run", job, "-q", "-o", env.path("ids.csv"))
+        # --digits rounds doubles only: an integer keeps every digit.
+        rc, _, err = env.fanfold_run("run", job, "-q", "--digits", "2", "-o", env.path("ids.csv"))
         with open(env.path("ids.csv"), newline="") as f:
             csv_ids = {r["id"] for r in csv.DictReader(f)}
         c.check(rc == 0 and {str(i) for i in IDS} <= csv_ids, "CSV ids %r" % sorted(csv_ids))
+        c.check(format(float(123456789012345678901234567890), ".2g") in csv_ids,
+                "CSV --digits 2: the double key is not rounded as Python's format(x, '.2g'): %r" % sorted(csv_ids))
         rc, _, err = env.fanfold_run("run", job, "-q", "-o", env.path("ids.txt"))
         with open(env.path("ids.txt")) as f:
             table_ids = {line.split()[0] for line in f.read().splitlines()[2:] if line.strip()}

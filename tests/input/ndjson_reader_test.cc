@@ -8,7 +8,6 @@
 #include <stdlib.h>
 #include <unistd.h>
 
-#include <cmath>
 #include <cstdio>
 #include <cstring>
 #include <filesystem>
@@ -18,7 +17,6 @@
 #include <vector>
 
 #include "common/input/chunk_source.h"
-#include "common/input/on_demand_line_parser.h"
 #include "common/input/record_reader.h"
 #include "tests/input/reader_test_util.h"
 
@@ -149,60 +147,6 @@ TEST_CASE("malformed lines counted exactly with line numbers") {
   CHECK(o.stats.samples[1].reason == "A string is opened, but never closed.");  // simdjson's wording
   CHECK(o.stats.samples[2].reason == "the line is not a JSON object");
   CHECK(o.stats.raw_bytes == input.size());
-}
-
-// Integers are exact within [-2^63, 2^64); wider integers are their nearest
-// double and 1e400 is infinity, not a malformed line. Python: json.loads gives
-// these ints exactly and float('inf') for 1e400 (its decoder applies float()).
-TEST_CASE("numbers beyond 64 bits and beyond the double range") {
-  FieldTable f = Fields({"/n", "/s", "/a/1"});
-  Outcome o = Run(f,
-                  R"({"n":9007199254740993,"s":"x"})" "\n"      // Python: 2**53 + 1
-                  R"({"n":18446744073709551615})" "\n"          // Python: 2**64 - 1
-                  R"({"n":-9223372036854775808})" "\n"          // Python: -2**63
-                  R"({"n":123456789012345678901234567890,"s":"y","a":[0,1e400]})" "\n"
-                  R"({"a":[-9223372036854775809,-1e400],"n":1e400})" "\n"
-                  R"({"n":-9223372036854775809,"n":1})" "\n"    // duplicate: the first wins here too
-                  R"({"n":01,"s":1e400})" "\n");                 // malformed, also on the second pass
-  REQUIRE(o.status.ok());
-  CHECK(o.stats.records == 6);
-  CHECK(o.stats.malformed == 1);
-  REQUIRE(o.rows.size() == 6);
-  CHECK(o.rows[0] == "9007199254740993|'x'|-");
-  CHECK(o.rows[1] == "18446744073709551615|-|-");
-  CHECK(o.rows[2] == "-9223372036854775808|-|-");
-  // Python: '%.17g' % float(123456789012345678901234567890) == '1.2345678901234568e+29'
-  CHECK(o.rows[3] == "1.2345678901234568e+29|'y'|inf");
-  CHECK(o.rows[4] == "inf|-|-inf");
-  // Python: '%.17g' % float(-9223372036854775809) == '-9.2233720368547758e+18'
-  CHECK(o.rows[5] == "-9.2233720368547758e+18|-|-");
-  REQUIRE(o.stats.samples.size() == 1);
-  CHECK(o.stats.samples[0].line == 7);
-  CHECK(o.stats.samples[0].reason == "Problem while parsing a number");  // simdjson's wording
-}
-
-// The number grammar of RFC 8259 section 6 and the values of the second pass,
-// judged by Python's json.loads (named beside each).
-TEST_CASE("ParseJsonNumber") {
-  Value v;
-  REQUIRE(ParseJsonNumber("-0", &v));
-  CHECK((v.is_integer() && v.Wide() == 0));  // Python: json.loads('-0') == 0
-  REQUIRE(ParseJsonNumber("18446744073709551616", &v));
-  CHECK((!v.is_integer() && v.number == 18446744073709551616.0));  // Python: float(2**64)
-  REQUIRE(ParseJsonNumber("-1e400", &v));
-  CHECK(v.number == -HUGE_VAL);  // Python: json.loads('-1e400') == float('-inf')
-  REQUIRE(ParseJsonNumber("1e-400", &v));
-  CHECK(v.number == 0);  // Python: json.loads('1e-400') == 0.0
-  REQUIRE(ParseJsonNumber("0.000000000000000000000000001e-300", &v));
-  CHECK(v.number == 0);  // Python: json.loads('0.000000000000000000000000001e-300') == 0.0
-  REQUIRE(ParseJsonNumber("1000000000000000000000000000000e280", &v));
-  CHECK(v.number == HUGE_VAL);  // Python: json.loads('1000000000000000000000000000000e280') == float('inf')
-  REQUIRE(ParseJsonNumber("0.0000000000000000000001e320", &v));
-  CHECK(v.number == 1e298);  // Python: json.loads('0.0000000000000000000001e320') == 1e298
-  for (const char* bad : {"", "-", "01", "1.", ".5", "+1", "1e", "1e+", "0x10", "1 ", "--1", "1.5.2", "inf", "NaN"}) {
-    INFO(bad);
-    CHECK_FALSE(ParseJsonNumber(bad, &v));  // not a number token in RFC 8259 section 6's grammar
-  }
 }
 
 // CRLF line ends, a last line without a newline, and CR-only "blank" lines.
