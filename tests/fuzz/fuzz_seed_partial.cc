@@ -5,7 +5,8 @@
 // measure state's encoding on their own (mode 3). The states are filled with
 // a deterministic mix of values that reaches every encoding form (sparse and
 // dense HyperLogLog, exact and bounded top, negative/zero/positive DDSketch
-// buckets). Usage: fuzz_seed_partial DIR
+// buckets, integer-only and mixed sums and moments, int64/uint64/double
+// numbers in min/max and at_lowest/at_highest). Usage: fuzz_seed_partial DIR
 #include <cstdio>
 #include <fstream>
 #include <string>
@@ -47,8 +48,10 @@ int main(int argc, char** argv) {
   p.samples.push_back({17, "unclosed string"});
 
   const char* kWords[] = {"amber", "birch", "cedar", "dune", "elm", "fern", "gale", "heath", "iris", "juniper"};
-  // Group "small": few values, every state in its compact form.
-  // Group "big": enough values for dense HyperLogLog and bounded top.
+  // Group "small": few values, every state in its compact form; its numbers
+  // are exact 64-bit integers (int64 and uint64), so sums and means keep an
+  // integer part only. Group "big": enough values for dense HyperLogLog and
+  // bounded top; doubles with a few integers mixed in.
   for (int g = 0; g < 2; ++g) {
     std::string key;
     AppendKeyValue(Value::String(g == 0 ? "small" : "big"), &key);
@@ -58,13 +61,15 @@ int main(int argc, char** argv) {
     for (int i = 0; i < n; ++i) {
       std::string text = std::string(kWords[i % 10]) + "-" + std::to_string(i % (g == 0 ? 5 : 997));
       Value num = Value::Number(i % 7 == 0 ? 0.0 : (i % 3 == 0 ? -1.0 : 1.0) * (0.5 + i * 1.25));
+      if (g == 0) num = i % 2 == 0 ? Value::Uint(UINT64_MAX - static_cast<uint64_t>(i)) : Value::Int(-9007199254740993 - i);
+      if (g == 1 && i % 11 == 0) num = Value::Int(9007199254740993 + i);
       Value str = Value::String(text);
       for (size_t j = 0; j < configs.size(); ++j) {
         const MeasureConfig& c = configs[j];
-        Value args[2] = {num, Value::Number(1772323200.0 + i)};
+        Value args[2] = {num, g == 0 ? Value::Int(1772323200 + i) : Value::Number(1772323200.0 + i)};
         if (c.kind == MeasureKind::kDistinct || c.kind == MeasureKind::kHyperLogLog ||
             c.kind == MeasureKind::kTop || c.kind == MeasureKind::kAtLowest || c.kind == MeasureKind::kAtHighest)
-          args[0] = str;
+          args[0] = g == 0 && i % 3 == 0 ? num : str;
         if (c.kind == MeasureKind::kCountPresent && i % 4 == 0) args[0] = Value::Null();
         // Keep the bounded exact states within their limits.
         if ((c.kind == MeasureKind::kQuantile || c.kind == MeasureKind::kDistinct) && i >= 40) continue;
