@@ -9,6 +9,8 @@
 
 namespace fanfold {
 
-inline constexpr uint16_t kPartialFormatVersion = 2;  // 2: DDSketch stores run-length encode empty buckets
+// 2: DDSketch stores run-length encode empty buckets; 3: per-field presence
+// counts in the body.
+inline constexpr uint16_t kPartialFormatVersion = 3;
 
 }  // namespace fanfold
