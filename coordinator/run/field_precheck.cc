@@ -70,13 +70,17 @@ FieldPrecheck PrecheckFields(const Plan& plan, const ShardList& list, const Samp
     const std::string at = WhereFieldIsRead(plan, field);
     return plan.spec.job_path + ": " + (at.empty() ? "" : at + ": ");
   };
+  uint32_t tried = 0;    // shards opened or tried, in order
+  bool all_read = true;  // no shard failed to open or read
   for (const Shard& shard : list.shards) {
     if (!sampler.wants_more()) break;
+    ++tried;
     Result<std::unique_ptr<ByteSource>> src = shard.length == UINT64_MAX
                                                   ? OpenShardSource(shard.path, shard.compression)
                                                   : OpenChunkSource(shard.path, shard.offset, shard.length);
     Status read = src.ok() ? sampler.AddShard(**src) : src.status();
     if (!read.ok()) {
+      all_read = false;
       out.warnings.push_back("cannot read " + ShardName(shard) + " for the field check: " + read.message());
       if (!src.ok()) continue;
     }
@@ -95,12 +99,12 @@ FieldPrecheck PrecheckFields(const Plan& plan, const ShardList& list, const Samp
     }
   }
   out.names_seen = sampler.names();
-  const uint32_t read = sampler.shards();
+  const uint32_t read = tried;
   if (csv) {
     out.sampled = "the header of " + ShardsText(read, list.shards.size());
     return out;
   }
-  const bool whole = sampler.read_whole() && read == list.shards.size();
+  const bool whole = all_read && sampler.read_whole() && read == list.shards.size();
   const std::string records = GroupedInteger(sampler.records()) + (sampler.records() == 1 ? " record" : " records");
   out.sampled = records + (whole ? " of " : " from ") + ShardsText(read, list.shards.size());
   if (sampler.records() == 0) return out;  // nothing to judge by
@@ -108,9 +112,10 @@ FieldPrecheck PrecheckFields(const Plan& plan, const ShardList& list, const Samp
   for (size_t f = 0; f < sampler.raw_names().size(); ++f) {
     if (sampler.present()[f] > 0) continue;
     const std::string& field = sampler.raw_names()[f];
-    out.warnings.push_back(where(field) + "field " + FieldInBraces(field) + " is in none of the " +
-                           (whole ? records + " of " : records + " sampled from ") +
-                           ShardsText(read, list.shards.size()) + FieldSuggestion(field, out.names_seen));
+    const std::string in_none = sampler.records() == 1 ? " is not in the one record" : " is in none of the " + records;
+    out.warnings.push_back(where(field) + "field " + FieldInBraces(field) + in_none +
+                           (whole ? " of " : " sampled from ") + ShardsText(read, list.shards.size()) +
+                           FieldSuggestion(field, out.names_seen));
     ++out.unseen;
   }
   return out;

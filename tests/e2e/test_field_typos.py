@@ -15,7 +15,7 @@
 * a CSV column missing from the header: exit status 2 from `check` and from
   `run`, and `run` creates no run directory (no work done);
 * a huge first shard (gzip) does not make the sample slow: it reads 1,000
-  records of it, not all.
+  records of it, not all; a first shard that cannot be read is a warning.
 """
 
 import gzip
@@ -160,6 +160,21 @@ def main():
         rc, _, err = env.fanfold_run("run", csv_job, "--run-dir", csv_dir)
         c.check(rc == 2 and "(did you mean {kw}?)" in err, "CSV run: exit %d: %s" % (rc, lib.tail(err)))
         c.check(not os.path.exists(csv_dir), "CSV run: the run directory was created before the error")
+
+        # A first shard that cannot be read (named .gz, not gzip): a warning, and the
+        # sample goes on to the next shard.
+        with open(env.path("bad", "a.ndjson.gz"), "w") as f:
+            f.write('{"feeder": "F-1"}\n')
+        with open(env.path("bad", "b.ndjson"), "w") as f:
+            f.write('{"feeder": "F-2"}\n')
+        bad_job = lib.write_job(env.path("bad.json"), {
+            "inputs": {"files": [env.path("bad", "*.ndjson*")]},
+            "group": ["{/feeder}"], "measures": [{"name": "n", "fn": "count"}]})
+        rc, out, err = env.run([env.fanfold, "check", bad_job])
+        c.check(rc == 0 and "warning: cannot read shard 0 '" in err and "a.ndjson.gz' for the field check: " in err,
+                "unreadable shard: exit %d: %s" % (rc, lib.tail(err)))
+        c.check("sampled: 1 record from the job's 2 shards; every field seen" in out,
+                "unreadable shard: the sampled line: %s" % lib.tail(out))
 
         # A huge first shard (gzip, 60 MB of NDJSON): the sample reads 1,000 records, quickly.
         big = env.path("big", "a.ndjson.gz")

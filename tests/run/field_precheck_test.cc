@@ -85,7 +85,8 @@ TEST_CASE("field precheck: NDJSON fields never seen are warnings") {
   one.max_records = 1;
   FieldPrecheck q = PrecheckFields(*j.plan, j.shards, one);
   REQUIRE(q.warnings.size() == 1);
-  CHECK(q.warnings[0].find("is in none of the 1 record sampled from the first of 2 shards") != std::string::npos);
+  CHECK(q.warnings[0].find("field {/feedr} is not in the one record sampled from the first of 2 shards") !=
+        std::string::npos);
 }
 
 // Intent: the place a field is first read follows the job file's order
