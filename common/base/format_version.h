@@ -9,6 +9,8 @@
 
 namespace fanfold {
 
-inline constexpr uint16_t kPartialFormatVersion = 3;  // 3: exact integers in value keys and group keys
+// 3: exact integers in value keys, group keys and number-holding states, and
+// per-field presence counts in the body.
+inline constexpr uint16_t kPartialFormatVersion = 3;
 
 }  // namespace fanfold

@@ -34,6 +34,9 @@ class CsvReader final : public RecordReader {
   // overwritten.
   Status Read(ByteSource& src, RecordSink& sink, ReadStats* stats) override;
 
+  // The header row of the last source read (its column names, unquoted).
+  const std::vector<std::string>& header() const { return header_; }
+
  private:
   enum class CutKind { kRecord, kBlank, kNeedMore };
   struct Cut {

@@ -46,8 +46,8 @@ ZstdContexts& Contexts() {
   return ctx;
 }
 
-// Reads the malformed-record samples at the start of out->body and points
-// out->groups at the rest.
+// Reads the malformed-record samples and the field counts at the start of
+// out->body and points out->groups at the rest.
 Status ReadSamples(OpenedPartial* out);
 
 }  // namespace
@@ -62,6 +62,8 @@ void EncodePartialBody(const PartialState& p, std::string* body) {
     bw.Varint(s.line);
     bw.Str(s.reason);
   }
+  bw.Varint(p.field_present.size());
+  for (uint64_t n : p.field_present) bw.Varint(n);
   p.groups.Encode(bw);
 }
 
@@ -217,6 +219,11 @@ Status ReadSamples(OpenedPartial* out) {
     if (!r.ok()) return Status::Corrupt("partial state samples are truncated");
     out->samples.push_back(std::move(s));
   }
+  const uint64_t nf = r.Count(1);
+  if (!r.ok()) return Status::Corrupt("partial state has a bad field count");
+  out->field_present.clear();
+  for (uint64_t i = 0; i < nf; ++i) out->field_present.push_back(r.Varint());
+  if (!r.ok()) return Status::Corrupt("partial state field counts are truncated");
   out->groups = std::string_view(body).substr(body.size() - r.remaining());
   return Status::Ok();
 }
@@ -231,6 +238,7 @@ Status DecodePartial(std::string_view bytes, PartialState* out) {
   if (!r.at_end()) return Status::Corrupt("partial state body has trailing bytes");
   out->header = opened.header;
   out->samples = std::move(opened.samples);
+  out->field_present = std::move(opened.field_present);
   return Status::Ok();
 }
 

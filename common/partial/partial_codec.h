@@ -21,6 +21,8 @@
 //   152    8 checksum: XXH3-64 of bytes [0, 152) followed by the stored body
 //   160      body: one zstd frame (raw bytes if under 4 KiB) of
 //              varint sample count, per sample: varint line, string reason;
+//              varint raw-field count, per raw field of the plan (FieldTable
+//              order): varint records in which it had a value;
 //              the GroupTable encoding (common/partial/group_table.h)
 //
 // Decoding checks every length against the input and the checksum before
@@ -67,6 +69,10 @@ struct PartialHeader {
 struct PartialState {
   PartialHeader header;
   std::vector<MalformedSample> samples;
+  // Per raw field of the plan, in FieldTable order: the well-formed records
+  // in which the field had a value (null included; an empty CSV cell has
+  // none). The run's end warns about a field no record had.
+  std::vector<uint64_t> field_present;
   GroupTable groups;
   explicit PartialState(const std::vector<MeasureConfig>* configs) : groups(configs) {}
 };
@@ -78,7 +84,7 @@ uint64_t PathHash(std::string_view path);
 // written once and read once, so speed beats ratio.
 void EncodePartial(const PartialState& p, std::string* out);
 
-// The body alone, before compression (samples, then the group table).
+// The body alone, before compression (samples, field counts, then the group table).
 void EncodePartialBody(const PartialState& p, std::string* body);
 
 // Rewrites the encode-time field of an encoded partial (and its checksum):
@@ -98,6 +104,7 @@ struct OpenedPartial {
   OpenedPartial& operator=(const OpenedPartial&) = delete;
   PartialHeader header;
   std::vector<MalformedSample> samples;
+  std::vector<uint64_t> field_present;  // as PartialState::field_present
   std::string body;
   std::string_view groups;
 };

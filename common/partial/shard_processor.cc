@@ -7,6 +7,7 @@
 #include <cstdio>
 
 #include "common/input/chunk_source.h"
+#include "common/input/presence_counter.h"
 #include "common/partial/group_key.h"
 #include "common/port/clock.h"
 #include "common/port/file_identity.h"
@@ -142,6 +143,7 @@ Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
 
   PartialState state(&configs_);
   Aggregator agg(*plan_, &state.groups, on_record, on_every_record);
+  PresenceCounter present(plan_->fields, &agg);  // counts each raw field's values
   ReadStats stats;
   TimedSource timed(src->get());
   const uint64_t t0 = MonotonicNanos();
@@ -150,7 +152,7 @@ Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
     if (!r.ok()) return r.status().WithContext(where);
     reader_ = std::move(r.value());
   }
-  Status s = reader_->Read(timed, agg, &stats);
+  Status s = reader_->Read(timed, present, &stats);
   const uint64_t t1 = MonotonicNanos();
   if (!s.ok()) return s.WithContext(where);
   if (agg.over_limit() >= 0) {
@@ -185,6 +187,7 @@ Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
   h.aggregate_ns = std::min(agg.estimated_ns(), t1 - t0 - std::min(t1 - t0, h.read_ns));
   h.parse_ns = t1 - t0 - std::min(t1 - t0, h.read_ns + h.aggregate_ns);
   state.samples = std::move(stats.samples);
+  state.field_present = present.counts();
   EncodePartial(state, partial);
   SetPartialEncodeTime(MonotonicNanos() - t1, partial);
   return Status::Ok();

@@ -1,4 +1,5 @@
-// `fanfold check`: validate the job, then print the plan and the shard list.
+// `fanfold check`: validate the job, sample the first shards for misspelt
+// fields, then print the plan and the shard list.
 #include <cstdio>
 #include <iostream>
 
@@ -6,6 +7,8 @@
 #include "common/job/job_spec.h"
 #include "common/job/job_loader.h"
 #include "coordinator/cli/run_command.h"
+#include "coordinator/run/console_log.h"
+#include "coordinator/run/field_precheck.h"
 #include "coordinator/run/run_summary.h"
 
 namespace fanfold {
@@ -19,6 +22,14 @@ CommandOutcome CheckJob(const CheckOptions& o) {
   }
   const Plan& plan = *job->plan;
   const JobSpec& s = plan.spec;
+  // A column missing from a header is certainly wrong (exit status 2); a
+  // field in none of the sampled records may only be rare (a warning).
+  const FieldPrecheck fields = PrecheckFields(plan, job->shards);
+  if (!fields.error.ok()) {
+    out.status = fields.error;
+    return out;
+  }
+  for (const std::string& w : fields.warnings) LogWarning(w);
   std::string text;
   text += "job " + s.job_path + " is valid";
   if (!s.about.empty()) text += " — " + s.about;
@@ -41,6 +52,12 @@ CommandOutcome CheckJob(const CheckOptions& o) {
   text += "\n  output:  " + std::string(OutputFormatName(s.emit.format)) + " to " +
           (s.emit.path.empty() ? std::string("stdout") : s.emit.path);
   if (s.emit.limit) text += ", at most " + std::to_string(*s.emit.limit) + " rows";
+  text += "\n  sampled: " + fields.sampled;
+  if (fields.unseen > 0)
+    text += "; " + std::to_string(fields.unseen) + (fields.unseen == 1 ? " field" : " fields") +
+            " in none of them (warnings on stderr)";
+  else if (fields.judged)
+    text += plan.format == RecordFormat::kNdjson ? "; every field seen" : "; every column found";
   text += "\n";
 
   const auto& shards = job->shards.shards;

@@ -10,6 +10,8 @@
 #include "common/port/file_identity.h"
 #include "common/port/file_util.h"
 #include "coordinator/output/output_extension.h"
+#include "coordinator/run/console_log.h"
+#include "coordinator/run/field_precheck.h"
 #include "coordinator/rundir/run_directory.h"
 #include "coordinator/run/run_engine.h"
 
@@ -68,6 +70,17 @@ CommandOutcome RunJob(const RunOptions& o) {
         " ; to start over: fanfold run " + o.job_path + " --fresh (or choose another --run-dir)");
     return out;
   }
+  // A column missing from a header stops the run before it starts; a field
+  // in none of the sampled records is only a warning (it may be rare).
+  FieldPrecheck fields;
+  if (o.check_fields) {
+    fields = PrecheckFields(*job->plan, job->shards);
+    if (!fields.error.ok()) {
+      out.status = fields.error;
+      return out;
+    }
+    for (const std::string& w : fields.warnings) LogWarning(w);
+  }
   RunManifest manifest;
   manifest.job_path = fs::absolute(o.job_path).lexically_normal().string();
   manifest.format = FormatName(job->plan->format);
@@ -92,6 +105,7 @@ CommandOutcome RunJob(const RunOptions& o) {
   in.shards = &job->shards;
   in.dir = dir->get();
   for (const Shard& s : job->shards.shards) in.pending.push_back(s.index);
+  in.names_seen = std::move(fields.names_seen);
   return ExecuteRun(in, o);
 }
 
@@ -152,6 +166,8 @@ CommandOutcome ResumeRun(const RunOptions& given) {
   in.shards = &manifest.shards;
   in.dir = dir->get();
   in.mode = "resume";
+  // Only for the end-of-run suggestions: the run itself warned already.
+  if (o.check_fields) in.names_seen = PrecheckFields(**plan, manifest.shards).names_seen;
   bool identities_changed = false;
   for (Shard& s : manifest.shards.shards) {
     std::string bytes;

@@ -1,7 +1,8 @@
 // `fanfold run`: load and check the job, expand its shards, fan them out to
 // workers, merge in shard order, write the result table and the run summary.
-// `fanfold check`: the same up to the shard list, then print the plan and
-// the shards and run nothing. Each returns a CommandOutcome; main() maps it
+// `fanfold check`: the same up to the shard list and the field check (a
+// sample of the first shards), then print the plan and the shards and run
+// nothing. Each returns a CommandOutcome; main() maps it
 // to the exit status.
 #pragma once
 

@@ -14,6 +14,8 @@ Merger::Merger(const Plan* plan, uint32_t shard_count, uint64_t waiting_budget)
       waiting_budget_(waiting_budget),
       failed_(shard_count, false) {
   for (const auto& m : plan->measures) configs_.push_back(m.config);
+  for (const auto& slot : plan->fields.slots())
+    if (!slot.derived) totals_.field_present.push_back(0);
 }
 
 Status Merger::Add(uint32_t shard, std::string partial) {
@@ -78,6 +80,11 @@ void Merger::Drain() {
     totals_.malformed += p.header.malformed;
     totals_.raw_bytes += p.header.raw_bytes;
     totals_.compressed_bytes += p.header.compressed_bytes;
+    if (p.field_present.size() == totals_.field_present.size()) {
+      for (size_t f = 0; f < p.field_present.size(); ++f) totals_.field_present[f] += p.field_present[f];
+    } else {
+      totals_.field_counts_known = false;
+    }
     for (auto& sample : p.samples)
       if (samples_.size() < kMaxReportedSamples) samples_.push_back({next_, std::move(sample)});
     ++next_;

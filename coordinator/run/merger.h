@@ -25,6 +25,13 @@ struct MergeTotals {
   uint64_t malformed = 0;
   uint64_t raw_bytes = 0;
   uint64_t compressed_bytes = 0;
+  // Per raw field of the plan (FieldTable order, derived fields skipped):
+  // the merged records in which it had a value. Known iff every merged
+  // partial carried one count per raw field (partials made by hand in
+  // tests and benchmarks may carry none); the run's end warns about a
+  // field no record had only when they are known.
+  std::vector<uint64_t> field_present;
+  bool field_counts_known = true;
 };
 
 // A malformed record seen in some shard, for the run summary.

@@ -23,6 +23,7 @@
 #include "coordinator/run/progress_meter.h"
 #include "coordinator/run/run_loop.h"
 #include "coordinator/run/run_summary.h"
+#include "coordinator/run/run_warnings.h"
 #include "coordinator/run/shard_scheduler.h"
 #include "coordinator/run/transport_factory.h"
 #include "coordinator/rundir/run_journal.h"
@@ -83,6 +84,21 @@ json SummaryJson(const RunInput& in, const RunSummary& s, const Merger& merger, 
     if (merger.degraded()[m] > 0) inexact[plan.measures[m].name] = merger.degraded()[m];
   }
   const MergeTotals& t = s.totals;
+  // Per raw field, the records that had it (null when a partial lacked the
+  // counts); the warnings as on stderr.
+  json presence = nullptr;
+  if (t.field_counts_known) {
+    presence = json::object();
+    size_t f = 0;
+    for (const FieldTable::Slot& slot : plan.fields.slots())
+      if (!slot.derived && f < t.field_present.size()) presence[slot.name] = t.field_present[f++];
+  }
+  json warnings = json::array();
+  for (const RunWarning& w : EndOfRunWarnings(plan, t, in.names_seen)) {
+    json item = {{"kind", w.kind}, {"message", w.text}};
+    if (!w.field.empty()) item["field"] = w.field;
+    warnings.push_back(std::move(item));
+  }
   return {{"job", plan.spec.job_path},
           {"plan", FingerprintHex(plan.fingerprint)},
           {"run_dir", in.dir->path()},
@@ -96,6 +112,8 @@ json SummaryJson(const RunInput& in, const RunSummary& s, const Merger& merger, 
           {"malformed_samples", samples},
           {"skipped", skipped},
           {"inexact_groups", inexact},
+          {"field_presence", presence},
+          {"warnings", warnings},
           {"output", output.empty() ? "stdout" : output}};
 }
 
@@ -265,6 +283,7 @@ void RunEngine::PrintNotes() const {
            std::to_string(plan_.measures[m].config.limit) + " in " + GroupedInteger(merger_.degraded()[m]) +
            " groups; its counts there are lower bounds (raise \"limit\" for exact counts)");
   }
+  for (const RunWarning& w : EndOfRunWarnings(plan_, merger_.totals(), in_.names_seen)) LogWarning(w.text);
   if (!output_path_.empty()) Note("result written to " + output_path_);
 }
 

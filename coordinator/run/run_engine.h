@@ -31,6 +31,9 @@ struct RunInput {
   std::vector<uint32_t> pending;  // shards to process
   std::vector<uint32_t> reused;   // shards whose committed partial is merged as it is
   const char* mode = "run";       // "run" or "resume", for the journal
+  // The data's field names from the sample taken before the run (may be
+  // empty): the end-of-run warnings suggest the nearest ones.
+  std::vector<std::string> names_seen;
 };
 
 CommandOutcome ExecuteRun(const RunInput& input, const RunOptions& options);

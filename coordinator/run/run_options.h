@@ -36,6 +36,7 @@ struct RunOptions {
   ProgressMode progress = ProgressMode::kAuto;  // progress on stderr (quiet: none)
   double progress_every_s = 5;  // plain progress: seconds between lines
   int digits = 0;             // > 0: CSV/table floats rounded to this many significant digits
+  bool check_fields = true;   // sample the first shards for misspelt fields first (scale's timed runs: not)
 };
 
 }  // namespace fanfold

@@ -157,4 +157,35 @@ TEST_CASE("merger: early partials past the budget wait on disk, not in memory") 
 }
 
 }  // namespace
+
+// Intent: the merged totals add up each raw field's present count over the
+// shards (reused ones come through Add as well), and a partial without the
+// counts makes them unknown rather than wrong.
+TEST_CASE("merger: per-field present counts add up over shards") {
+  const auto plan = TestPlan();  // raw fields {/k}, {/v}
+  std::vector<MeasureConfig> configs;
+  for (const auto& m : plan->measures) configs.push_back(m.config);
+  const auto partial = [&](uint32_t shard, std::vector<uint64_t> present) {
+    PartialState p(&configs);
+    p.header.fingerprint = plan->fingerprint;
+    p.header.shard_index = shard;
+    p.field_present = std::move(present);
+    std::string out;
+    EncodePartial(p, &out);
+    return out;
+  };
+  Merger m(plan.get(), 3);
+  REQUIRE(m.Add(2, partial(2, {5, 0})).ok());
+  REQUIRE(m.Add(0, partial(0, {7, 0})).ok());
+  m.MarkFailed(1);
+  REQUIRE(m.complete());
+  CHECK(m.totals().field_counts_known);
+  CHECK(m.totals().field_present == std::vector<uint64_t>{12, 0});
+
+  Merger lacking(plan.get(), 2);
+  REQUIRE(lacking.Add(0, partial(0, {7, 1})).ok());
+  REQUIRE(lacking.Add(1, partial(1, {})).ok());
+  CHECK_FALSE(lacking.totals().field_counts_known);
+}
+
 }  // namespace fanfold
