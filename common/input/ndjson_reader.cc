@@ -7,6 +7,7 @@
 #include <string>
 #include <vector>
 
+#include "common/base/json_syntax.h"
 #include "common/input/json_pointer.h"
 
 namespace fanfold {
@@ -23,6 +24,26 @@ struct Node {
   int64_t max_child_index = -1;  // largest array index among children
   uint64_t seen = 0;  // record generation that last consumed this node
 };
+
+// Why simdjson refused a line, in our words: the column and what was
+// expected (JsonSyntaxProblem), or, for a line that is JSON by RFC 8259 but
+// beyond what the reader takes, the limit it passed.
+std::string MalformedReason(std::string_view line, simdjson::error_code err) {
+  std::string problem = JsonSyntaxProblem(line);
+  if (const size_t at = problem.find("column "); !problem.empty() && at != std::string::npos) {
+    // One line: "column C: expected ..., found ...", without "line 1, " inside either.
+    problem = problem.substr(at);
+    for (size_t k; (k = problem.find("line 1, column ")) != std::string::npos;) problem.erase(k, 8);
+    return problem;
+  }
+  switch (err) {
+    case simdjson::DEPTH_ERROR: return "nested deeper than the reader's limit of 1024 levels";
+    case simdjson::NUMBER_ERROR:
+    case simdjson::UTF8_ERROR: return "bytes that are not UTF-8";
+    case simdjson::CAPACITY: return "a line longer than the reader's limit of 4 GiB";
+    default: return "not valid JSON";
+  }
+}
 
 // Keys are short, so comparing the first byte before memcmp skips most calls.
 inline bool TokenIs(const std::string& token, std::string_view key) {
@@ -108,15 +129,11 @@ struct NdjsonReader::Impl {
     }
     dom::element root;
     simdjson::error_code err = parser.parse(p, len, false).get(root);
-    const char* reason = nullptr;
-    if (err) {
-      reason = simdjson::error_message(err);
-    } else if (root.type() != dom::element_type::OBJECT) {
-      reason = "the line is not a JSON object";
-    }
-    if (reason != nullptr) {
+    if (err || root.type() != dom::element_type::OBJECT) {
       ++st.malformed;
-      if (st.samples.size() < ReadStats::kMaxSamples) st.samples.push_back(MalformedSample{line, reason});
+      if (st.samples.size() < ReadStats::kMaxSamples)
+        st.samples.push_back(MalformedSample{
+            line, err ? MalformedReason(std::string_view(p, len), err) : "the line is not a JSON object"});
       return true;
     }
     std::fill(slots.begin(), slots.end(), Value::Missing());

@@ -265,9 +265,9 @@ TEST_CASE("compile errors: golden messages") {
     CAPTURE(text);
     CHECK(Eval(text) == c.expected);
   }
-  CHECK(Eval("lowr({/lamp})") == "!! column 1: unknown function 'lowr'; expected one of " + all);
+  CHECK(Eval("lowr({/lamp})") == "!! column 1: unknown function 'lowr' (did you mean lower()?); expected one of " + all);
   CHECK(Eval("{/a} or Lower({/a})") ==
-        "!! column 9: unknown function 'Lower'; expected one of " + all);
+        "!! column 9: unknown function 'Lower' (did you mean lower()?); expected one of " + all);
   // Syntax errors come through Compile unchanged.
   CHECK(Eval("{/a} == ") == "!! column 9: end of expression; expected an operand: a number, "
                             "string, {field}, name, function call or '('");
