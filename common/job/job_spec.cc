@@ -148,7 +148,7 @@ Status ParseInputs(Checker& c, const json& in, JobSpec* job) {
 // The keys a measure object may hold: name, fn, the argument keys and every
 // option of kMeasureOptions (which of them a given fn takes is its row's).
 std::set<std::string> MeasureKeys() {
-  std::set<std::string> keys = {"name", "fn", "of", "by"};
+  std::set<std::string> keys = {"name", "fn", "of", "by", "shown_digits"};
   for (const MeasureOption& o : kMeasureOptions) keys.insert(o.key);
   return keys;
 }
@@ -220,6 +220,12 @@ Status ParseMeasure(Checker& c, const json& m, const std::string& p, MeasureSpec
     } else if (o.required_text != nullptr && row->Takes(o.key)) {
       return c.Error(p, "no \"" + std::string(o.key) + "\"", o.required_text);
     }
+  }
+  if (m.contains("shown_digits")) {
+    // 17 significant digits identify every double (IEEE 754-2008, 5.12.2).
+    uint64_t n = 0;
+    FF_RETURN_IF_ERROR(c.Integer(m["shown_digits"], p + "/shown_digits", 1, 17, &n));
+    out->shown_digits = static_cast<int>(n);
   }
   if (row->check != nullptr) {
     if (std::optional<OptionComplaint> bad = row->check(cfg)) {
