@@ -248,6 +248,8 @@ class Scanner {
       return "";
     }
     constexpr const char* kEscapes = "one of \\\" \\\\ \\/ \\b \\f \\n \\r \\t \\uXXXX";
+    if (static_cast<unsigned char>(e) < 0x20 || static_cast<unsigned char>(e) >= 0x7F || at + 1 >= t_.size())
+      return At(at, "found '\\' then " + Found(at + 1) + " in a string; expected " + kEscapes);
     if (e != 'u') return At(at, "found '\\" + std::string(1, e) + "' in a string; expected " + kEscapes);
     unsigned code = 0;
     if (!Hex4(at + 2, &code)) return At(at, "expected four hexadecimal digits after \\u");

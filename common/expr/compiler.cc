@@ -220,7 +220,11 @@ class Compiler {
       if (unit.kind != AstKind::kString)
         return ErrorAt(unit.column, "a unit that is not a string literal", kUnits);
       if (!ParseTimeUnit(unit.text, &n->unit))
-        return ErrorAt(unit.column, "unit '" + unit.text + "'", kUnits);
+        return ErrorAt(unit.column,
+                       "unit '" + unit.text + "'" +
+                           DidYouMean(unit.text, {"minute", "hour", "day", "week", "month"},
+                                      [](std::string_view u) { return std::string("'").append(u).append("'"); }),
+                       kUnits);
       return Kids(a, 1, n);  // the unit is compiled into the node
     }
     return Kids(a, got, n);

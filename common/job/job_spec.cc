@@ -344,6 +344,9 @@ Result<JobSpec> ParseJobSpec(std::string_view text, const std::string& job_path)
 }
 
 Result<JobSpec> LoadJobSpec(const std::string& path) {
+  std::error_code ec;
+  if (std::filesystem::is_directory(path, ec))
+    return Status::InvalidArgument("cannot read job file '" + path + "': it is a directory; expected a JSON file");
   std::ifstream in(path, std::ios::binary);
   if (!in) return Status::InvalidArgument("cannot read job file '" + path + "'");
   std::stringstream ss;

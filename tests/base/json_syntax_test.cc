@@ -6,6 +6,8 @@
 
 #include <string>
 
+#include <nlohmann/json.hpp>
+
 namespace fanfold {
 namespace {
 
@@ -82,6 +84,33 @@ TEST_CASE("json_syntax: deep nesting") {
   const std::string deep = std::string(200000, '[') + std::string(200000, ']');
   CHECK(JsonSyntaxProblem(deep) == "");
   CHECK(Place(JsonSyntaxProblem(std::string(200000, '['))) == " at line 1, column 200001: ");
+}
+
+// Intent: the scanner and the JSON reader (nlohmann's accept) agree on which
+// texts are JSON, for every prefix of a job file, every one-byte deletion and
+// every one-byte replacement by a character that commonly breaks JSON; the
+// reader refusing a text the scanner passes would leave a message without a place.
+TEST_CASE("json_syntax: agrees with the JSON reader on mutated job files") {
+  const std::string job =
+      "\xef\xbb\xbf{\n  \"about\": \"caf\xc3\xa9 \\u00e9 \\\"q\\\"\",\n  \"inputs\": {\"files\": [\"a/*.ndjson\"], "
+      "\"bad_record_limit\": 0.05},\n  \"group\": [],\n  \"measures\": [{\"name\": \"n\", \"fn\": \"count\", "
+      "\"at\": [-1.5e-3, 0, 10, true, false, null]}]\n}\n";
+  REQUIRE(nlohmann::json::accept(job));
+  size_t texts = 0;
+  auto agree = [&](const std::string& text) {
+    ++texts;
+    const bool reader = nlohmann::json::accept(text);
+    const std::string problem = JsonSyntaxProblem(text);
+    CAPTURE(text);
+    CAPTURE(problem);
+    CHECK(reader == problem.empty());
+  };
+  for (size_t n = 0; n <= job.size(); ++n) agree(job.substr(0, n));
+  for (size_t i = 0; i < job.size(); ++i) agree(job.substr(0, i) + job.substr(i + 1));
+  for (size_t i = 0; i < job.size(); ++i)
+    for (char c : std::string(",:]}[{\"'\\x0-.e \n\t\x01\xff"))
+      agree(job.substr(0, i) + c + job.substr(i + 1));
+  CHECK(texts > 3000);
 }
 
 }  // namespace

@@ -249,7 +249,7 @@ TEST_CASE("compile errors: golden messages") {
                                        "one of 'minute', 'hour', 'day', 'week', 'month'"},
       {"period_start({/ts}, 'year')", "!! column 21: unit 'year'; expected one of 'minute', 'hour', "
                                       "'day', 'week', 'month'"},
-      {"period_start({/ts}, 'Hour')", "!! column 21: unit 'Hour'; expected one of 'minute', 'hour', "
+      {"period_start({/ts}, 'Hour')", "!! column 21: unit 'Hour' (did you mean 'hour'?); expected one of 'minute', 'hour', "
                                       "'day', 'week', 'month'"},
       {"{/note} == null", "!! column 12: comparison with null, which is always false; expected "
                           "has(x) or lacks(x) to test for null or missing values"},
