@@ -50,7 +50,14 @@ class Scanner {
     // Containers open around the current position: '{' or '[', with the
     // last key read in each object (for "after the value of \"key\"").
     std::vector<Open> open;
-    enum class Want { kValue, kValueAfterComma, kKeyOrClose, kKeyAfterComma, kColon, kCommaOrClose } want = Want::kValue;
+    enum class Want {
+      kValue,
+      kValueAfterComma,
+      kKeyOrClose,
+      kKeyAfterComma,
+      kColon,
+      kCommaOrClose
+    } want = Want::kValue;
     for (;;) {
       SkipSpace();
       const char c = i_ < t_.size() ? t_[i_] : '\0';
@@ -85,9 +92,9 @@ class Scanner {
             break;
           }
           if (end || c != '"') {
-            std::string hint = want == Want::kKeyAfterComma && c == '}' && !end
-                                   ? " (JSON allows no comma before '}')"
-                                   : end ? EndHint(open) : Hint(i_);
+            std::string hint = want == Want::kKeyAfterComma && c == '}' && !end ? " (JSON allows no comma before '}')"
+                               : end                                            ? EndHint(open)
+                                                                                : Hint(i_);
             return At(i_, std::string("expected a key in double quotes") +
                               (want == Want::kKeyOrClose ? " or '}'" : " after ','") + ", found " + Found(i_) + hint);
           }
@@ -136,8 +143,8 @@ class Scanner {
 
   // A container open where the text ended.
   struct Open {
-    char kind;    // '{' or '['
-    size_t at;    // its byte offset
+    char kind;        // '{' or '['
+    size_t at;        // its byte offset
     std::string key;  // objects: the last key read
   };
 
@@ -228,15 +235,15 @@ class Scanner {
         if (std::string p = Escape(); !p.empty()) return p;
         continue;
       }
-      if (c == '\n') return At(i_, "expected '\"' to close the string before the line ends (write a line break as \\n)");
-      if (c < 0x20)
-        return At(i_, "found " + Found(i_) + " inside a string; expected it escaped (\\t, \\r or \\u00XX)");
+      if (c == '\n')
+        return At(i_, "expected '\"' to close the string before the line ends (write a line break as \\n)");
+      if (c < 0x20) return At(i_, "found " + Found(i_) + " inside a string; expected it escaped (\\t, \\r or \\u00XX)");
       const size_t n = Utf8Length(t_, i_);
       if (n == 0) return At(i_, "found a byte that is not UTF-8 inside a string; expected UTF-8 text");
       i_ += n;
     }
-    return At(i_, "expected '\"' to close the string that starts at " + LineColumn(start) +
-                      ", found the end of the text");
+    return At(i_,
+              "expected '\"' to close the string that starts at " + LineColumn(start) + ", found the end of the text");
   }
 
   // A backslash escape at i_ (RFC 8259 §7).

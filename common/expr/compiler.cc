@@ -65,8 +65,8 @@ class Compiler {
         n.op = ExprOp::kSlot;
         n.slot = fields_->FindDerived(a.text);
         if (n.slot < 0)
-          return Status::InvalidArgument("column " + std::to_string(a.column) +
-                                         ": unknown derived field '" + a.text + "'" + NearDerived(a.text) +
+          return Status::InvalidArgument("column " + std::to_string(a.column) + ": unknown derived field '" + a.text +
+                                         "'" + NearDerived(a.text) +
                                          "; derived fields must be defined earlier in \"derive\"");
         return Push(n, index);
       case AstKind::kUnary:

@@ -190,7 +190,8 @@ Status ParseMeasure(Checker& c, const json& m, const std::string& p, MeasureSpec
     for (const MeasureRow& r : MeasureRows()) names.insert(r.fn);
     std::string list;
     for (const auto& name : names) list += (list.empty() ? "" : ", ") + name;
-    return c.Error(p + "/fn", "unknown measure " + Quoted(out->fn) + DidYouMean(out->fn, {names.begin(), names.end()}, Quoted),
+    return c.Error(p + "/fn",
+                   "unknown measure " + Quoted(out->fn) + DidYouMean(out->fn, {names.begin(), names.end()}, Quoted),
                    "one of: " + list);
   }
   MeasureConfig& cfg = out->config;

@@ -60,8 +60,7 @@ std::string UnexpectedText(const CLI::App& cmd, std::vector<std::string> left) {
     std::vector<std::string> near;
     for (const std::string& s : spellings)
       if ((s.rfind("--", 0) == 0) == is_long && (is_long || EditDistance(s, flag) == 0)) near.push_back(s);
-    return Prefix(cmd) + "unknown flag '" + flag + "'" + DidYouMean(flag, near) + "; expected one of: " +
-           Join(display);
+    return Prefix(cmd) + "unknown flag '" + flag + "'" + DidYouMean(flag, near) + "; expected one of: " + Join(display);
   }
   std::string positionals;
   for (const CLI::Option* opt : cmd.get_options())
@@ -70,7 +69,6 @@ std::string UnexpectedText(const CLI::App& cmd, std::vector<std::string> left) {
          (positionals.empty() ? "flags" : positionals + " and flags") + " (see 'fanfold " + cmd.get_name() +
          " --help')";
 }
-
 
 }  // namespace
 
@@ -89,8 +87,7 @@ std::string ParseErrorText(const CLI::ParseError& e, const CLI::App& cmd, const 
   const std::string what = e.what();
   const bool required = dynamic_cast<const CLI::RequiredError*>(&e) != nullptr;
   const bool mismatch = dynamic_cast<const CLI::ArgumentMismatch*>(&e) != nullptr;
-  if (required && cmd.get_parent() == nullptr)
-    return "missing a command; expected one of: " + Join(commands);
+  if (required && cmd.get_parent() == nullptr) return "missing a command; expected one of: " + Join(commands);
   if (required) {
     // "JOB is required": find the positional by its name.
     for (const CLI::Option* opt : cmd.get_options()) {
@@ -103,8 +100,8 @@ std::string ParseErrorText(const CLI::ParseError& e, const CLI::App& cmd, const 
   if (mismatch) {
     // "--workers: 1 required TEXT missing": the flag ended the command line.
     if (const CLI::Option* opt = OptionNamedIn(cmd, what); opt != nullptr && what.find(" missing") != std::string::npos)
-      return Prefix(cmd) + DisplayName(*opt) + ": found no value after it; expected its value: " +
-             opt->get_description();
+      return Prefix(cmd) + DisplayName(*opt) +
+             ": found no value after it; expected its value: " + opt->get_description();
   }
   if (mismatch && what.find(": At Most ") != std::string::npos) {
     // "--output: At Most 1 required but received 2": the flag was repeated.

@@ -278,8 +278,8 @@ void RunEngine::PrintQuietEssentials() const {
   if (!options_.quiet || CurrentLogLevel() > LogLevel::kError) return;
   if (loop_.interrupted)
     WriteConsoleLine("fanfold: interrupted: " + std::to_string(summary_.shards_saved) + " of " +
-                     std::to_string(summary_.shards_total) + " shards saved, " +
-                     std::to_string(loop_.failures.size()) + " failed");
+                     std::to_string(summary_.shards_total) + " shards saved, " + std::to_string(loop_.failures.size()) +
+                     " failed");
   for (const auto& f : loop_.failures)
     WriteConsoleLine("fanfold: shard " + std::to_string(f.shard) + " '" + f.path + "' failed: " + f.message);
   if (loop_.interrupted) WriteConsoleLine("fanfold: to finish the run: fanfold resume " + dir_.path());

@@ -45,9 +45,8 @@ TEST_CASE("json_document: exceptions inside decode become the caller's error") {
   Result<int> wrong = DecodeA(R"({"a": "seven"})");
   REQUIRE_FALSE(wrong.ok());
   CHECK(wrong.status().message() == "doc: found a string where a number belongs");
-  Result<int> scalar = DecodeJsonObject<int>(R"({"a": 1})", Bad, [](const nlohmann::json& j) -> Result<int> {
-    return j.at("a").at("b").get<int>();
-  });
+  Result<int> scalar = DecodeJsonObject<int>(
+      R"({"a": 1})", Bad, [](const nlohmann::json& j) -> Result<int> { return j.at("a").at("b").get<int>(); });
   REQUIRE_FALSE(scalar.ok());
   CHECK(scalar.status().message() == "doc: found a number where an object belongs");
 }

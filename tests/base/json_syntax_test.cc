@@ -2,10 +2,9 @@
 // there, in our words; positions checked against Python's json module.
 #include "common/base/json_syntax.h"
 
-#include <doctest/doctest.h>
-
 #include <string>
 
+#include <doctest/doctest.h>
 #include <nlohmann/json.hpp>
 
 namespace fanfold {
@@ -23,11 +22,16 @@ TEST_CASE("json_syntax: positions agree with Python's json.loads") {
     const char* text;
     const char* place;  // from json.loads(text) raising JSONDecodeError
   } cases[] = {
-      {"{\n  \"a\": }", " at line 2, column 8: "},  {"{\"a\": 1,}", " at line 1, column 9: "},
-      {"[1,]", " at line 1, column 4: "},           {"{\"a\" 1}", " at line 1, column 6: "},
-      {"{\"a\": 1 \"b\": 2}", " at line 1, column 9: "}, {"{\"a\": 1} x", " at line 1, column 10: "},
-      {"{\"\xc3\xa9\": x}", " at line 1, column 7: "},  {"{\"a\": [1, 2}", " at line 1, column 12: "},
-      {"", " at line 1, column 1: "},               {"{\"a\": \"b\\q\"}", " at line 1, column 9: "},
+      {"{\n  \"a\": }", " at line 2, column 8: "},
+      {"{\"a\": 1,}", " at line 1, column 9: "},
+      {"[1,]", " at line 1, column 4: "},
+      {"{\"a\" 1}", " at line 1, column 6: "},
+      {"{\"a\": 1 \"b\": 2}", " at line 1, column 9: "},
+      {"{\"a\": 1} x", " at line 1, column 10: "},
+      {"{\"\xc3\xa9\": x}", " at line 1, column 7: "},
+      {"{\"a\": [1, 2}", " at line 1, column 12: "},
+      {"", " at line 1, column 1: "},
+      {"{\"a\": \"b\\q\"}", " at line 1, column 9: "},
   };
   for (const auto& c : cases) {
     CAPTURE(c.text);
@@ -108,8 +112,7 @@ TEST_CASE("json_syntax: agrees with the JSON reader on mutated job files") {
   for (size_t n = 0; n <= job.size(); ++n) agree(job.substr(0, n));
   for (size_t i = 0; i < job.size(); ++i) agree(job.substr(0, i) + job.substr(i + 1));
   for (size_t i = 0; i < job.size(); ++i)
-    for (char c : std::string(",:]}[{\"'\\x0-.e \n\t\x01\xff"))
-      agree(job.substr(0, i) + c + job.substr(i + 1));
+    for (char c : std::string(",:]}[{\"'\\x0-.e \n\t\x01\xff")) agree(job.substr(0, i) + c + job.substr(i + 1));
   CHECK(texts > 3000);
 }
 

@@ -109,7 +109,8 @@ TEST_CASE("misspelt keys, measures and formats get the nearest names") {
   CHECK(ErrorOf(R"({"inputs": {"files": ["a"]}, "measures": [{"name": "n", "fn": "count"}],
                    "emit": {"order": [{"by": "n", "dsc": true}]}})")
             .find("/emit/order/0/dsc: found unknown key \"dsc\" (did you mean \"desc\"?)") != std::string::npos);
-  CHECK(ErrorOf(R"({"inputs": {"files": ["a"]}, "measures": [{"name": "n", "fn": "count"}], "emit": {"format": "cvs"}})") ==
+  CHECK(ErrorOf(
+            R"({"inputs": {"files": ["a"]}, "measures": [{"name": "n", "fn": "count"}], "emit": {"format": "cvs"}})") ==
         "job.json: /emit/format: found unknown format \"cvs\" (did you mean \"csv\"?); expected \"csv\", \"json\", "
         "\"ndjson\" or \"table\"");
   // Nothing near: the message has no suggestion at all.

@@ -144,8 +144,8 @@ TEST_CASE("shown_digits is for display only: the fingerprint ignores it") {
   // Intent: a measure's shown_digits rounds what the user reads, not what is
   // computed, so changing it must not change the plan (resume reuses partials).
   auto plan_of = [](const char* measure) {
-    Result<JobSpec> spec = ParseJobSpec(std::string(R"({"inputs": {"files": ["a"]}, "measures": [)") + measure + "]}",
-                                        "job.json");
+    Result<JobSpec> spec =
+        ParseJobSpec(std::string(R"({"inputs": {"files": ["a"]}, "measures": [)") + measure + "]}", "job.json");
     REQUIRE(spec.ok());
     return CompileSpec(spec.value());
   };
