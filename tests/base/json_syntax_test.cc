@@ -134,9 +134,13 @@ TEST_CASE("json_syntax: agrees with the JSON reader on random edits") {
       const size_t pos = rng() % (t.size() + 1);
       const char c = alphabet[rng() % alphabet.size()];
       switch (rng() % 3) {
-        case 0: if (pos < t.size()) t.erase(pos, 1); break;
+        case 0:
+          if (pos < t.size()) t.erase(pos, 1);
+          break;
         case 1: t.insert(pos, 1, c); break;
-        default: if (pos < t.size()) t[pos] = c; break;
+        default:
+          if (pos < t.size()) t[pos] = c;
+          break;
       }
     }
     if (nlohmann::json::accept(t) != JsonSyntaxProblem(t).empty() && ++disagreements <= 5) {
