@@ -3,38 +3,31 @@
 namespace fanfold {
 namespace {
 
-// "line L, column C" for a byte offset into text (1-based).
-std::string LineColumn(std::string_view text, size_t byte) {
-  size_t line = 1, col = 1;
-  for (size_t i = 0; i < byte && i < text.size(); ++i) {
-    if (text[i] == '\n') {
-      ++line;
-      col = 1;
-    } else {
-      ++col;
-    }
-  }
-  return "line " + std::to_string(line) + ", column " + std::to_string(col);
+// "a number" for nlohmann's type names ("number", "string", "object", ...).
+std::string WithArticle(const std::string& type) {
+  if (type == "null") return "null";
+  if (type == "object" || type == "array") return "an " + type;
+  return "a " + type;
 }
 
 }  // namespace
 
-std::string JsonSyntaxProblem(std::string_view text) {
-  // Parse again with exceptions only to learn where it broke.
-  try {
-    const nlohmann::json thrown_away = nlohmann::json::parse(text);  // GCC warns on a (void) cast of [[nodiscard]]
-    (void)thrown_away;
-  } catch (const nlohmann::json::parse_error& e) {
-    std::string what = e.what();
-    auto pos = what.find("error while parsing");
-    return " at " + LineColumn(text, e.byte > 0 ? e.byte - 1 : 0) +
-           (pos == std::string::npos ? "" : ": " + what.substr(pos));
-  } catch (const nlohmann::json::exception& e) {  // e.g. out_of_range 406: a number too large for a double
-    std::string what = e.what();
-    auto pos = what.find("] ");
-    return ": " + (pos == std::string::npos ? what : what.substr(pos + 2));
+std::string JsonDecodeProblem(const nlohmann::json::exception& e) {
+  // what() is "[json.exception.type_error.302] type must be number, but is string":
+  // the tag, then nlohmann's sentence.
+  std::string rest = e.what();
+  if (size_t tag = rest.find("] "); tag != std::string::npos) rest = rest.substr(tag + 2);
+  if (rest.rfind("type must be ", 0) == 0) {
+    const size_t but = rest.find(", but is ");
+    if (but != std::string::npos)
+      return "found " + WithArticle(rest.substr(but + 9)) + " where " + WithArticle(rest.substr(13, but - 13)) +
+             " belongs";
   }
-  return "";
+  if (rest.rfind("key '", 0) == 0 && rest.size() > 16 && rest.compare(rest.size() - 11, 11, "' not found") == 0)
+    return "found no \"" + rest.substr(5, rest.size() - 16) + "\" key where one belongs";
+  if (rest.rfind("cannot use at() with ", 0) == 0)
+    return "found " + WithArticle(rest.substr(21)) + " where an object belongs";
+  return "unreadable: " + rest;
 }
 
 const nlohmann::json& JsonObjectOrEmpty(const nlohmann::json& j, const char* key) {

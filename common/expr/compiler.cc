@@ -2,6 +2,7 @@
 
 #include <string>
 
+#include "common/base/nearest_names.h"
 #include "common/expr/program.h"
 #include "common/base/scratch_arena.h"
 
@@ -36,6 +37,9 @@ ExprOp ToArithmeticOp(AstOp op) {
   }
 }
 
+// "lower()" for a suggested function name.
+std::string Parens(std::string_view name) { return std::string(name) + "()"; }
+
 bool IsComparison(AstOp op) { return op >= AstOp::kEq && op <= AstOp::kGe; }
 
 class Compiler {
@@ -61,9 +65,9 @@ class Compiler {
         n.op = ExprOp::kSlot;
         n.slot = fields_->FindDerived(a.text);
         if (n.slot < 0)
-          return Status::InvalidArgument("column " + std::to_string(a.column) +
-                                         ": unknown derived field '" + a.text +
-                                         "'; derived fields must be defined earlier in \"derive\"");
+          return Status::InvalidArgument("column " + std::to_string(a.column) + ": unknown derived field '" + a.text +
+                                         "'" + NearDerived(a.text) +
+                                         "; derived fields must be defined earlier in \"derive\"");
         return Push(n, index);
       case AstKind::kUnary:
         n.op = a.op == AstOp::kNot ? ExprOp::kNot : ExprOp::kNeg;
@@ -190,7 +194,7 @@ class Compiler {
   Status Call(const AstNode& a, ExprNode* n) {
     const ExprFunctionInfo* f = FindExprFunction(a.text);
     if (f == nullptr)
-      return ErrorAt(a.column, "unknown function '" + a.text + "'",
+      return ErrorAt(a.column, "unknown function '" + a.text + "'" + DidYouMean(a.text, ExprFunctionNames(), Parens),
                      "one of " + ExprFunctionSignatures());
     const int got = static_cast<int>(a.kids.size());
     if (got < f->min_args || got > f->max_args)
@@ -216,10 +220,22 @@ class Compiler {
       if (unit.kind != AstKind::kString)
         return ErrorAt(unit.column, "a unit that is not a string literal", kUnits);
       if (!ParseTimeUnit(unit.text, &n->unit))
-        return ErrorAt(unit.column, "unit '" + unit.text + "'", kUnits);
+        return ErrorAt(unit.column,
+                       "unit '" + unit.text + "'" +
+                           DidYouMean(unit.text, {"minute", "hour", "day", "week", "month"},
+                                      [](std::string_view u) { return std::string("'").append(u).append("'"); }),
+                       kUnits);
       return Kids(a, 1, n);  // the unit is compiled into the node
     }
     return Kids(a, got, n);
+  }
+
+  // " (did you mean hour?)" from the derived fields defined so far.
+  std::string NearDerived(const std::string& name) const {
+    std::vector<std::string> names;
+    for (const FieldTable::Slot& s : fields_->slots())
+      if (s.derived) names.push_back(s.name);
+    return DidYouMean(name, names);
   }
 
   FieldTable* fields_;

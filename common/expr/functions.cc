@@ -100,6 +100,12 @@ const ExprFunctionInfo* FindExprFunction(std::string_view name) {
   return nullptr;
 }
 
+std::vector<std::string> ExprFunctionNames() {
+  std::vector<std::string> names;
+  for (const ExprFunctionInfo& f : kFunctions) names.emplace_back(f.name);
+  return names;
+}
+
 std::string ExprFunctionSignatures() {
   std::string out;
   for (const ExprFunctionInfo& f : kFunctions) {

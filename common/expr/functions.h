@@ -8,6 +8,7 @@
 #include <cstdint>
 #include <string>
 #include <string_view>
+#include <vector>
 
 #include "common/base/scratch_arena.h"
 #include "common/expr/time_functions.h"
@@ -34,6 +35,9 @@ inline constexpr int kMaxFunctionArgs = 16;
 
 // Returns the catalogue entry called `name`, or nullptr iff there is none.
 const ExprFunctionInfo* FindExprFunction(std::string_view name);
+
+// Every function's name, in catalogue order (for "did you mean").
+std::vector<std::string> ExprFunctionNames();
 
 // "lower(s), upper(s), ..." — every signature, for error messages.
 std::string ExprFunctionSignatures();

@@ -5,6 +5,7 @@
 #include <unistd.h>
 #include <zlib.h>
 #include <zstd.h>
+#include <zstd_errors.h>
 
 #include <algorithm>
 #include <cerrno>
@@ -23,6 +24,25 @@ constexpr size_t kInputBlock = 1 << 20;
 constexpr size_t kMaxPlainRead = 1 << 30;
 
 std::string Quoted(const std::string& path) { return "'" + path + "'"; }
+
+// What a zstd error code means for a user, in our words (the library's
+// names for them are its own).
+const char* ZstdProblem(size_t ret) {
+  switch (ZSTD_getErrorCode(ret)) {
+    case ZSTD_error_prefix_unknown: return "no zstd frame starts here (not zstd data?)";
+    case ZSTD_error_checksum_wrong: return "the frame's checksum does not match its contents";
+    case ZSTD_error_frameParameter_windowTooLarge: return "the frame needs a larger window than the reader allows";
+    case ZSTD_error_memory_allocation: return "out of memory";
+    default: return "the compressed data is damaged";
+  }
+}
+
+// The same for zlib: a bad header means the file is not gzip at all.
+const char* GzipProblem(int ret, const char* msg) {
+  if (ret == Z_MEM_ERROR) return "out of memory";
+  if (msg != nullptr && std::strcmp(msg, "incorrect header check") == 0) return "no gzip header here (not gzip data?)";
+  return "the compressed data is damaged";
+}
 
 bool EndsWith(const std::string& s, const char* suffix) {
   size_t n = std::strlen(suffix);
@@ -222,7 +242,7 @@ class ZstdSource final : public ByteSource {
       size_t ret = ZSTD_decompressStream(dctx_, &out, &buf_);
       if (ZSTD_isError(ret)) {
         return Status::Corrupt(Quoted(in_.path()) + ": corrupt zstd data at compressed byte " +
-                               std::to_string(Offset()) + ": " + ZSTD_getErrorName(ret));
+                               std::to_string(Offset()) + ": " + ZstdProblem(ret));
       }
       // ret == 0 exactly when a frame has been decoded and flushed; a call
       // that moved nothing says nothing about the frame state.
@@ -304,9 +324,8 @@ class GzipSource final : public ByteSource {
         in_member_ = false;
         member_ended_ = true;
       } else if (ret != Z_OK && ret != Z_BUF_ERROR) {
-        const char* msg = strm_.msg != nullptr ? strm_.msg : zError(ret);
         return Status::Corrupt(Quoted(in_.path()) + ": corrupt gzip data at compressed byte " +
-                               std::to_string(in_.file_bytes() - strm_.avail_in) + ": " + msg);
+                               std::to_string(in_.file_bytes() - strm_.avail_in) + ": " + GzipProblem(ret, strm_.msg));
       }
       if (strm_.avail_out == 0) return cap;
     }

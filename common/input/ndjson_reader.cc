@@ -7,6 +7,7 @@
 #include <string>
 #include <vector>
 
+#include "common/base/json_syntax.h"
 #include "common/input/on_demand_line_parser.h"
 #include "common/input/pointer_trie.h"
 
@@ -14,6 +15,26 @@ namespace fanfold {
 namespace {
 
 namespace dom = simdjson::dom;
+
+// Why simdjson refused a line, in our words: the column and what was
+// expected (JsonSyntaxProblem), or, for a line that is JSON by RFC 8259 but
+// beyond what the reader takes, the limit it passed.
+std::string MalformedReason(std::string_view line, simdjson::error_code err) {
+  std::string problem = JsonSyntaxProblem(line);
+  if (const size_t at = problem.find("column "); !problem.empty() && at != std::string::npos) {
+    // One line: "column C: expected ..., found ...", without "line 1, " inside either.
+    problem = problem.substr(at);
+    for (size_t k; (k = problem.find("line 1, column ")) != std::string::npos;) problem.erase(k, 8);
+    return problem;
+  }
+  switch (err) {
+    case simdjson::DEPTH_ERROR: return "nested deeper than the reader's limit of 1024 levels";
+    case simdjson::NUMBER_ERROR: return "a number that is not valid JSON";
+    case simdjson::UTF8_ERROR: return "bytes that are not UTF-8";
+    case simdjson::CAPACITY: return "a line longer than the reader's limit of 4 GiB";
+    default: return "not valid JSON";
+  }
+}
 
 bool IsJsonSpace(char c) { return c == ' ' || c == '\t' || c == '\r' || c == '\n'; }
 
@@ -101,17 +122,19 @@ struct NdjsonReader::Impl {
     if (err == simdjson::NUMBER_ERROR) {
       // A number the DOM parser cannot hold (beyond 64-bit integers, or
       // 1e400) or a malformed one: the On-Demand pass tells them apart.
-      reason = slow_path.Parse(p, len, capacity, &nodes, generation, slots.data());
-    } else if (err) {
-      reason = simdjson::error_message(err);
-    } else if (root.type() != dom::element_type::OBJECT) {
+      // Its refusal is worded from the line itself, as the DOM's are.
+      if (slow_path.Parse(p, len, capacity, &nodes, generation, slots.data()) == nullptr)
+        err = simdjson::SUCCESS;
+    } else if (!err && root.type() != dom::element_type::OBJECT) {
       reason = "the line is not a JSON object";
-    } else {
+    } else if (!err) {
       Walk(root, 0);
     }
-    if (reason != nullptr) {
+    if (err || reason != nullptr) {
       ++st.malformed;
-      if (st.samples.size() < ReadStats::kMaxSamples) st.samples.push_back(MalformedSample{line, reason});
+      if (st.samples.size() < ReadStats::kMaxSamples)
+        st.samples.push_back(MalformedSample{
+            line, err ? MalformedReason(std::string_view(p, len), err) : std::string(reason)});
       return true;
     }
     ++st.records;

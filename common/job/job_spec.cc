@@ -12,6 +12,8 @@
 
 #include "common/base/json_document.h"
 #include "common/base/json_location.h"
+#include "common/base/json_syntax.h"
+#include "common/base/nearest_names.h"
 #include "common/measures/measure_options.h"
 #include "common/measures/measure_registry.h"
 
@@ -44,6 +46,12 @@ std::string Found(const json& v) {
   return TypeName(v);
 }
 
+// "\"name\"", for DidYouMean over job-file keys and measure names.
+std::string Quoted(std::string_view name) {
+  std::string out = "\"";  // appended: GCC 12 falsely warns on "\"" + string (-Wrestrict)
+  return out.append(name).append("\"");
+}
+
 // Walks a job document, recording the first error with its location.
 class Checker {
  public:
@@ -60,8 +68,9 @@ class Checker {
       if (allowed.count(it.key())) continue;
       std::string list;
       for (const auto& k : allowed) list += (list.empty() ? "" : ", ") + k;
-      return Error(ChildPointer(pointer, it.key()), "unknown key \"" + it.key() + "\"",
-                   "one of: " + list);
+      const std::vector<std::string> names(allowed.begin(), allowed.end());
+      return Error(ChildPointer(pointer, it.key()),
+                   "unknown key \"" + it.key() + "\"" + DidYouMean(it.key(), names, Quoted), "one of: " + list);
     }
     return Status::Ok();
   }
@@ -116,7 +125,13 @@ Status ParseInputs(Checker& c, const json& in, JobSpec* job) {
     std::string f;
     FF_RETURN_IF_ERROR(c.String(in["format"], p + "/format", &f));
     RecordFormat fmt;
-    if (!FormatFromText(f, &fmt)) return c.Error(p + "/format", Found(in["format"]), FormatNameList());
+    if (!FormatFromText(f, &fmt)) {
+      std::vector<std::string> names;
+      for (const RecordFormatRow& row : RecordFormatRows()) names.push_back(row.name);
+      const std::string near = DidYouMean(f, names, Quoted);
+      return c.Error(p + "/format", near.empty() ? Found(in["format"]) : "unknown format " + Quoted(f) + near,
+                     FormatNameList());
+    }
     job->format = fmt;
   }
   if (in.contains("bad_record_limit")) {
@@ -133,7 +148,7 @@ Status ParseInputs(Checker& c, const json& in, JobSpec* job) {
 // The keys a measure object may hold: name, fn, the argument keys and every
 // option of kMeasureOptions (which of them a given fn takes is its row's).
 std::set<std::string> MeasureKeys() {
-  std::set<std::string> keys = {"name", "fn", "of", "by"};
+  std::set<std::string> keys = {"name", "fn", "of", "by", "shown_digits"};
   for (const MeasureOption& o : kMeasureOptions) keys.insert(o.key);
   return keys;
 }
@@ -175,7 +190,9 @@ Status ParseMeasure(Checker& c, const json& m, const std::string& p, MeasureSpec
     for (const MeasureRow& r : MeasureRows()) names.insert(r.fn);
     std::string list;
     for (const auto& name : names) list += (list.empty() ? "" : ", ") + name;
-    return c.Error(p + "/fn", Found(m["fn"]), "one of: " + list);
+    return c.Error(p + "/fn",
+                   "unknown measure " + Quoted(out->fn) + DidYouMean(out->fn, {names.begin(), names.end()}, Quoted),
+                   "one of: " + list);
   }
   MeasureConfig& cfg = out->config;
   cfg.kind = row->kind;
@@ -205,6 +222,12 @@ Status ParseMeasure(Checker& c, const json& m, const std::string& p, MeasureSpec
       return c.Error(p, "no \"" + std::string(o.key) + "\"", o.required_text);
     }
   }
+  if (m.contains("shown_digits")) {
+    // 17 significant digits identify every double (IEEE 754-2008, 5.12.2).
+    uint64_t n = 0;
+    FF_RETURN_IF_ERROR(c.Integer(m["shown_digits"], p + "/shown_digits", 1, 17, &n));
+    out->shown_digits = static_cast<int>(n);
+  }
   if (row->check != nullptr) {
     if (std::optional<OptionComplaint> bad = row->check(cfg)) {
       const std::string found = m.contains(bad->key) ? Found(m[bad->key]) : "the default";
@@ -226,7 +249,11 @@ Status ParseEmit(Checker& c, const json& e, JobSpec* job) {
     else if (f == "json") emit.format = OutputFormat::kJson;
     else if (f == "ndjson") emit.format = OutputFormat::kNdjson;
     else if (f == "table") emit.format = OutputFormat::kTable;
-    else return c.Error(p + "/format", Found(e["format"]), "\"csv\", \"json\", \"ndjson\" or \"table\"");
+    else {
+      const std::string near = DidYouMean(f, {"csv", "json", "ndjson", "table"}, Quoted);
+      return c.Error(p + "/format", near.empty() ? Found(e["format"]) : "unknown format " + Quoted(f) + near,
+                     "\"csv\", \"json\", \"ndjson\" or \"table\"");
+    }
     emit.format_given = true;
   }
   if (e.contains("path")) FF_RETURN_IF_ERROR(c.String(e["path"], p + "/path", &emit.path));
@@ -265,7 +292,11 @@ Status ParseEmit(Checker& c, const json& e, JobSpec* job) {
 
 Result<JobSpec> ParseJobSpec(std::string_view text, const std::string& job_path) {
   json doc = json::parse(text, nullptr, /*allow_exceptions=*/false, /*ignore_comments=*/false);
-  if (doc.is_discarded()) return Status::InvalidArgument(job_path + ": not valid JSON" + JsonSyntaxProblem(text));
+  if (doc.is_discarded()) {
+    const std::string problem = JsonSyntaxProblem(text);
+    return Status::InvalidArgument(job_path + ": not valid JSON" +
+                                   (problem.empty() ? " (the JSON reader refused it)" : problem));
+  }
   Checker c(job_path);
   JobSpec job;
   job.job_path = job_path;
@@ -314,6 +345,9 @@ Result<JobSpec> ParseJobSpec(std::string_view text, const std::string& job_path)
 }
 
 Result<JobSpec> LoadJobSpec(const std::string& path) {
+  std::error_code ec;
+  if (std::filesystem::is_directory(path, ec))
+    return Status::InvalidArgument("cannot read job file '" + path + "': it is a directory; expected a JSON file");
   std::ifstream in(path, std::ios::binary);
   if (!in) return Status::InvalidArgument("cannot read job file '" + path + "'");
   std::stringstream ss;

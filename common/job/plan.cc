@@ -7,6 +7,7 @@
 
 #include "common/base/json_location.h"
 #include "common/base/format_version.h"
+#include "common/base/nearest_names.h"
 #include "common/measures/measure_options.h"
 #include "common/measures/measure_registry.h"
 
@@ -133,8 +134,10 @@ Result<std::unique_ptr<Plan>> CompilePlan(JobSpec spec, RecordFormat format) {
     if (!names.count(s.emit.order[i].by)) {
       std::string list;
       for (const auto& c : plan->columns) list += (list.empty() ? "" : ", ") + c;
+      const std::string near = DidYouMean(s.emit.order[i].by, plan->columns,
+                                          [](std::string_view c) { return std::string("\"").append(c).append("\""); });
       return Status::InvalidArgument(s.job_path + ": " + ChildPointer("/emit/order", i) + "/by: found \"" +
-                                     s.emit.order[i].by + "\"; expected an output column: " + list);
+                                     s.emit.order[i].by + "\"" + near + "; expected an output column: " + list);
     }
   }
   // Derived fields the filter reads (directly or through other derived

@@ -7,6 +7,7 @@
 #include <CLI/CLI.hpp>
 
 #include "coordinator/cli/subcommand_table.h"
+#include "coordinator/cli/usage_text.h"
 
 namespace fanfold {
 namespace {
@@ -19,17 +20,22 @@ CliOutcome UsageError(const std::string& message) {
   return result;
 }
 
+// The subcommands' names, in table order.
+std::vector<std::string> CommandNames() {
+  std::vector<std::string> names;
+  for (const SubcommandRow& row : SubcommandTable()) names.emplace_back(row.name);
+  return names;
+}
+
 // "" iff argv names no subcommand or a known one; else the usage message.
 // Checked before CLI11 parses, whose own message for this case is vaguer.
 std::string UnknownSubcommand(int argc, char** argv) {
-  if (argc < 2 || argv[1][0] == '-') return "";
+  if (argc < 2) return "";
   const std::string name = argv[1];
-  std::string list;
-  for (const SubcommandRow& row : SubcommandTable()) {
+  if (name.empty() || name[0] == '-') return TopLevelFlagText(name, CommandNames());
+  for (const SubcommandRow& row : SubcommandTable())
     if (row.name == name) return "";
-    list += (list.empty() ? "" : ", ") + std::string(row.name);
-  }
-  return "unknown command '" + name + "'; expected one of: " + list;
+  return UnknownCommandText(name, CommandNames());
 }
 
 }  // namespace
@@ -43,6 +49,7 @@ CliOutcome ParseAndRun(int argc, char** argv) {
   std::vector<std::pair<CLI::App*, std::unique_ptr<Subcommand>>> commands;
   for (const SubcommandRow& row : SubcommandTable()) {
     CLI::App* cmd = app.add_subcommand(row.name, row.summary);
+    cmd->allow_extras();  // LeftoverArgumentsText words them, not CLI11
     std::unique_ptr<Subcommand> command = row.make();
     command->AddFlags(cmd);
     cmd->footer(std::string("Example:\n  ") + row.example);
@@ -58,10 +65,20 @@ CliOutcome ParseAndRun(int argc, char** argv) {
     result.exit_zero_early = true;
     return result;
   } catch (const CLI::ParseError& e) {
-    return UsageError(e.what());
+    // The subcommand being parsed, if CLI11 got that far.
+    const CLI::App* where = &app;
+    const char* example = nullptr;
+    for (size_t i = 0; i < commands.size(); ++i) {
+      if (commands[i].first->parsed()) {
+        where = commands[i].first;
+        example = SubcommandTable()[i].example;
+      }
+    }
+    return UsageError(ParseErrorText(e, *where, example, CommandNames()));
   }
   for (auto& [cmd, command] : commands) {
     if (!cmd->parsed()) continue;
+    if (std::string e = LeftoverArgumentsText(*cmd); !e.empty()) return UsageError(e);
     if (Status s = command->CheckFlags(); !s.ok()) return UsageError(s.message());
     result.outcome = command->Run();
     break;

@@ -10,13 +10,13 @@
 namespace fanfold {
 namespace {
 
-// A scalar cell's CSV/table text: a finite float rounded to o.digits
-// significant digits when asked, anything else as CellText.
-std::string PlainText(const Cell& c, const RenderOptions& o) {
-  if (o.digits <= 0 || c.kind != Cell::Kind::kFloat || !std::isfinite(c.number)) return CellText(c);
+// A scalar cell's CSV/table text: a finite float rounded to `digits`
+// significant digits when asked (> 0), anything else as CellText.
+std::string PlainText(const Cell& c, int digits) {
+  if (digits <= 0 || c.kind != Cell::Kind::kFloat || !std::isfinite(c.number)) return CellText(c);
   if (c.number == 0) return "0";  // -0 too, as CellText prints it
   char buf[64];
-  std::snprintf(buf, sizeof buf, "%.*g", o.digits, c.number);
+  std::snprintf(buf, sizeof buf, "%.*g", digits, c.number);
   return buf;
 }
 
@@ -30,7 +30,7 @@ std::string RenderCsv(const OutputTable& t, const RenderOptions& o) {
   for (const auto& row : t.rows) {
     for (size_t c = 0; c < row.size(); ++c) {
       if (c) out.push_back(',');
-      AppendCsvField(PlainText(row[c], o), ',', &out);
+      AppendCsvField(PlainText(row[c], o.DigitsFor(c)), ',', &out);
     }
     out.push_back('\n');
   }
@@ -59,16 +59,16 @@ bool IsNumeric(const Cell& c) { return c.kind == Cell::Kind::kInt || c.kind == C
 
 // For people reading a table, a list of {"value", "count"} records (top-k)
 // reads better as "a (12), b (7)" than as JSON; other cells as PlainText.
-std::string DisplayText(const Cell& c, const RenderOptions& o) {
+std::string DisplayText(const Cell& c, int digits) {
   if (c.kind == Cell::Kind::kNull) return kTableNull;
-  if (c.kind != Cell::Kind::kList) return PlainText(c, o);
+  if (c.kind != Cell::Kind::kList) return PlainText(c, digits);
   std::string out;
   for (const Cell& item : c.items) {
     if (item.kind != Cell::Kind::kRecord || item.items.size() != 2) return CellText(c);
     if (!out.empty()) out += ", ";
     const Cell& value = item.items[0];
-    out += value.kind == Cell::Kind::kNull ? std::string(kTableNull) : PlainText(value, o);
-    out += " (" + PlainText(item.items[1], o) + ")";
+    out += value.kind == Cell::Kind::kNull ? std::string(kTableNull) : PlainText(value, digits);
+    out += " (" + PlainText(item.items[1], digits) + ")";
   }
   return out;
 }
@@ -79,7 +79,7 @@ std::string RenderAligned(const OutputTable& t, const RenderOptions& o) {
   for (size_t c = 0; c < t.columns.size(); ++c) width[c] = Width(t.columns[c]);
   for (size_t r = 0; r < t.rows.size(); ++r) {
     for (size_t c = 0; c < t.rows[r].size(); ++c) {
-      std::string s = DisplayText(t.rows[r][c], o);
+      std::string s = DisplayText(t.rows[r][c], o.DigitsFor(c));
       for (char& ch : s)
         if (ch == '\n' || ch == '\t' || ch == '\r') ch = ' ';
       width[c] = std::max(width[c], Width(s));

@@ -5,6 +5,7 @@
 // NDJSON (one row object per line) or an aligned text table. Plain data.
 #pragma once
 
+#include <algorithm>
 #include <cstddef>
 #include <string>
 #include <vector>
@@ -34,8 +35,18 @@ void SortRows(OutputTable* table, const std::vector<OrderSpec>& order);
 // Python's format(x, '.Ng')) does: correctly rounded from the double's exact
 // binary value, a tie going to the even digit. Integers, JSON and NDJSON
 // keep every digit. 0 = shortest round-trip text (no rounding).
+// column_digits[c] > 0 overrides digits for column c (a measure's
+// "shown_digits"); columns past its end, or with 0, take digits.
 struct RenderOptions {
   int digits = 0;
+  std::vector<int> column_digits = {};
+
+  int DigitsFor(size_t column) const {
+    return column < column_digits.size() && column_digits[column] > 0 ? column_digits[column] : digits;
+  }
+  bool rounds() const {
+    return digits > 0 || std::any_of(column_digits.begin(), column_digits.end(), [](int d) { return d > 0; });
+  }
 };
 
 // Renders the table in `format` (always ends with a newline unless empty).

@@ -232,6 +232,7 @@ Status RunEngine::Stop() {
   summary_.shards_saved = dir_.committed_count();
   for (const auto& line : FormatRunSummary(summary_, list_)) Note(line);
   Note("interrupted; finished shards are saved. To finish the run: fanfold resume " + dir_.path());
+  PrintQuietEssentials();
   return Status::Interrupted("run interrupted by signal " + std::to_string(SignalGuard::signal_number()));
 }
 
@@ -248,9 +249,16 @@ Status RunEngine::Render(const OutputTable& table) {
   const std::string text = RenderTable(table, plan_.spec.emit.format);
   output_path_ = OutputPath(options_, plan_);
   Status w = dir_.WriteFile(ResultName(plan_.spec.emit.format), text);
-  const int digits = options_.digits > 0 ? options_.digits : plan_.spec.emit.digits;
-  if (w.ok())
-    w = WriteOutput(output_path_, digits > 0 ? RenderTable(table, plan_.spec.emit.format, {.digits = digits}) : text);
+  // --digits wins over everything; else a measure's shown_digits over emit.digits.
+  RenderOptions shown;
+  shown.digits = options_.digits > 0 ? options_.digits : plan_.spec.emit.digits;
+  if (options_.digits == 0) {
+    shown.column_digits.assign(plan_.group_columns.size(), 0);
+    for (size_t m = 0; m < plan_.measures.size(); ++m)
+      shown.column_digits.insert(shown.column_digits.end(), plan_.measures[m].columns.size(),
+                                 plan_.spec.measures[m].shown_digits);
+  }
+  if (w.ok()) w = WriteOutput(output_path_, shown.rounds() ? RenderTable(table, plan_.spec.emit.format, shown) : text);
   return w;
 }
 
@@ -267,11 +275,7 @@ Status RunEngine::Summarise(const Status& written) {
 
 void RunEngine::PrintNotes() const {
   for (const auto& line : FormatRunSummary(summary_, list_)) Note(line);
-  // -q hides the summary, but the exit status 1 says shards failed: the
-  // user still sees which ones and why (unless --log-level off).
-  if (options_.quiet && CurrentLogLevel() <= LogLevel::kError)
-    for (const auto& f : loop_.failures)
-      WriteConsoleLine("fanfold: shard " + std::to_string(f.shard) + " '" + f.path + "' failed: " + f.message);
+  PrintQuietEssentials();
   for (size_t m = 0; m < plan_.measures.size(); ++m) {
     if (merger_.skipped()[m] > 0)
       Note("measure \"" + plan_.measures[m].name + "\" skipped " + GroupedInteger(merger_.skipped()[m]) +
@@ -285,6 +289,19 @@ void RunEngine::PrintNotes() const {
   }
   for (const RunWarning& w : EndOfRunWarnings(plan_, merger_.totals(), in_.names_seen)) LogWarning(w.text);
   if (!output_path_.empty()) Note("result written to " + output_path_);
+}
+
+void RunEngine::PrintQuietEssentials() const {
+  // The exit status (1 or 130) says something went wrong; -q still says what
+  // (unless --log-level off).
+  if (!options_.quiet || CurrentLogLevel() > LogLevel::kError) return;
+  if (loop_.interrupted)
+    WriteConsoleLine("fanfold: interrupted: " + std::to_string(summary_.shards_saved) + " of " +
+                     std::to_string(summary_.shards_total) + " shards saved, " + std::to_string(loop_.failures.size()) +
+                     " failed");
+  for (const auto& f : loop_.failures)
+    WriteConsoleLine("fanfold: shard " + std::to_string(f.shard) + " '" + f.path + "' failed: " + f.message);
+  if (loop_.interrupted) WriteConsoleLine("fanfold: to finish the run: fanfold resume " + dir_.path());
 }
 
 void RunEngine::Note(const std::string& line) const {

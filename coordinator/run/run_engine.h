@@ -85,6 +85,9 @@ class RunEngine {
   void PrintNotes() const;
 
   void Note(const std::string& line) const;  // an info line, unless quiet
+  // -q hides the summary, but not what the exit status stands for: the failed
+  // shards and why (and, when interrupted, what is saved and how to finish).
+  void PrintQuietEssentials() const;
   double ElapsedSeconds() const;
 
   const RunInput& in_;

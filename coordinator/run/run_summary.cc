@@ -27,8 +27,10 @@ std::vector<std::string> FormatRunSummary(const RunSummary& s, const ShardList& 
     // rather than print a line number that is wrong for the whole file.
     const Shard& shard = list.shards[m.shard];
     const std::string where = shard.offset > 0 ? " (the chunk from byte " + std::to_string(shard.offset) + ")" : "";
-    lines.push_back("malformed record: " + shard.path + where + " line " + std::to_string(m.sample.line) + ": " +
-                    m.sample.reason);
+    // An NDJSON reason starts "column C: ...": "line L, column C: ...".
+    const bool column = m.sample.reason.rfind("column ", 0) == 0;
+    lines.push_back("malformed record: " + shard.path + where + " line " + std::to_string(m.sample.line) +
+                    (column ? ", " : ": ") + m.sample.reason);
   }
   for (const auto& f : s.failures) lines.push_back("shard " + std::to_string(f.shard) + " failed: " + f.message);
   const MergeTotals& t = s.totals;

@@ -214,6 +214,36 @@ def main():
                     "SIGINT %d: exit %d, summary says %s saved, the run directory holds %d: %s"
                     % (i, proc.returncode, m.group(1) if m else None, saved, lib.tail(err)))
 
+        # Intent: -q on an interrupted run still prints what is essential: that it was interrupted, how many
+        # shards are saved (as many as the packs hold), each failed shard with its reason, and how to
+        # finish. Every shard but one exits with status 3 (failing after 3 attempts); that one stalls, so
+        # the run is surely still going when SIGINT comes.
+        rd = env.path("runs", "sigint-quiet")
+        stalled = 11
+        faults = ["stall:shard=%d" % stalled] + ["exit:shard=%d,code=3" % i for i in range(total) if i != stalled]
+        os.environ["FANFOLD_TEST_ONLY_FAULTS"] = "inject:" + ";".join(faults)
+        try:
+            proc = subprocess.Popen([env.fanfold, "run", job, "-j", "2", "-q", "-o", env.path("sq.csv"), "--run-dir", rd],
+                                    stdout=subprocess.PIPE, stderr=subprocess.PIPE, cwd=env.tmp)
+        finally:
+            del os.environ["FANFOLD_TEST_ONLY_FAULTS"]
+        time.sleep(3.0)
+        proc.send_signal(signal.SIGINT)
+        _, err = proc.communicate(timeout=60)
+        err = err.decode()
+        m = re.search(r"^fanfold: interrupted: (\d+) of (\d+) shards saved, (\d+) failed$", err, re.M)
+        failed_lines = re.findall(r"^fanfold: shard (\d+) '[^']*' failed: (.+)$", err, re.M)
+        c.check(proc.returncode == 130 and m is not None and int(m.group(1)) == len(pack_entries(rd))
+                and int(m.group(2)) == total,
+                "-q SIGINT: exit %d, want 130 and 'interrupted: N of %d shards saved' matching the packs: %s"
+                % (proc.returncode, total, lib.tail(err)))
+        c.check(m is not None and int(m.group(3)) >= 1 and int(m.group(3)) == len(failed_lines)
+                and all("exit" in why or "status 3" in why for _, why in failed_lines),
+                "-q SIGINT: every failed shard listed with its reason (status 3): %s" % lib.tail(err))
+        c.check(("fanfold: to finish the run: fanfold resume " + rd) in err, "-q SIGINT: says how to resume: %s"
+                % lib.tail(err))
+        c.check("records:" not in err, "-q SIGINT: no full summary line under -q: %s" % lib.tail(err))
+
         # Randomised: SIGKILL a random worker at a random moment.
         for t in range(TRIALS):
             rd = env.path("runs", "wk%d" % t)

@@ -148,8 +148,9 @@ def main():
         rd = env.path("chunked-run")
         rc, _, err = env.fanfold_run("run", job, "-j", args.workers, "-o", env.path("chunked.out"), "--run-dir", rd)
         if checks.check(rc == 0, "chunked: exit %d: %s" % (rc, lib.tail(err))):
-            named = "malformed record: %s (the chunk from byte %d) line %d:" % (os.path.realpath(cut), chunk_start, want_line)
-            checks.check(named in err, "chunked: stderr lacks %r: %s" % (named, lib.tail(err)))
+            named = "malformed record: %s (the chunk from byte %d) line %d" % (os.path.realpath(cut), chunk_start, want_line)
+            checks.check(named + ":" in err or named + ", column " in err,
+                         "chunked: stderr lacks %r: %s" % (named, lib.tail(err)))
             with open(os.path.join(rd, "summary.json")) as f:
                 samples = json.load(f)["malformed_samples"]
             checks.check([(x.get("chunk_offset"), x["line"]) for x in samples] == [(chunk_start, want_line)],

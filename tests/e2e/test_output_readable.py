@@ -1,5 +1,5 @@
-"""Output a user can read: -o FILE's extension picks the format; --digits and
-emit.digits round CSV and table numbers as Python's format(x, '.Ng') does
+"""Output a user can read: -o FILE's extension picks the format; --digits,
+emit.digits and a measure's shown_digits round CSV and table numbers as Python's format(x, '.Ng') does
 (Python stdlib, the reference here), while JSON, NDJSON and the run
 directory's copy of the result keep every digit (read back with float() and
 json, Python stdlib); the table tells a null key from the empty string.
@@ -60,6 +60,20 @@ def main():
             got = {r["k"]: r["lo"] for r in rows if r["k"]}
             want = {k: format(v, ".%dg" % n) for k, v in LOWEST.items() if k}
             c.check(rc == 0 and got == want, "digits %d (%r): exit %d, %r, want %r" % (n, extra, rc, got, want))
+
+        # Intent: a measure's shown_digits rounds its own columns over emit.digits (another measure keeps
+        # emit.digits), and --digits overrides both; texts are Python's format(x, '.Ng').
+        per = dict(job, measures=[{"name": "lo", "fn": "min", "of": "{/x}", "shown_digits": 2},
+                                  {"name": "hi", "fn": "max", "of": "{/x}"}, {"name": "n", "fn": "count"}],
+                   emit={"format": "csv", "digits": 4})
+        per_job = lib.write_job(env.path("per.json"), per)
+        for extra, lo_n, hi_n in (([], 2, 4), (["--digits", "6"], 6, 6)):
+            rc, _, err = env.fanfold_run("run", per_job, "-q", "-o", env.path("p.out"), *extra)
+            rows = read_csv(env.path("p.out")) if rc == 0 else []
+            got = {r["k"]: (r["lo"], r["hi"]) for r in rows if r["k"]}
+            want = {k: (format(v, ".%dg" % lo_n), format(v, ".%dg" % hi_n)) for k, v in LOWEST.items() if k}
+            c.check(rc == 0 and got == want, "shown_digits (%r): exit %d, %r, want %r: %s"
+                    % (extra, rc, got, want, lib.tail(err)))
 
         # Intent: -o x.jsonl writes NDJSON with every digit, --digits or not; null is null, "" is "".
         rc, _, err = env.fanfold_run("run", plain, "-q", "--digits", "2", "-o", env.path("x.jsonl"))

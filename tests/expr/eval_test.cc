@@ -249,7 +249,7 @@ TEST_CASE("compile errors: golden messages") {
                                        "one of 'minute', 'hour', 'day', 'week', 'month'"},
       {"period_start({/ts}, 'year')", "!! column 21: unit 'year'; expected one of 'minute', 'hour', "
                                       "'day', 'week', 'month'"},
-      {"period_start({/ts}, 'Hour')", "!! column 21: unit 'Hour'; expected one of 'minute', 'hour', "
+      {"period_start({/ts}, 'Hour')", "!! column 21: unit 'Hour' (did you mean 'hour'?); expected one of 'minute', 'hour', "
                                       "'day', 'week', 'month'"},
       {"{/note} == null", "!! column 12: comparison with null, which is always false; expected "
                           "has(x) or lacks(x) to test for null or missing values"},
@@ -265,9 +265,9 @@ TEST_CASE("compile errors: golden messages") {
     CAPTURE(text);
     CHECK(Eval(text) == c.expected);
   }
-  CHECK(Eval("lowr({/lamp})") == "!! column 1: unknown function 'lowr'; expected one of " + all);
+  CHECK(Eval("lowr({/lamp})") == "!! column 1: unknown function 'lowr' (did you mean lower()?); expected one of " + all);
   CHECK(Eval("{/a} or Lower({/a})") ==
-        "!! column 9: unknown function 'Lower'; expected one of " + all);
+        "!! column 9: unknown function 'Lower' (did you mean lower()?); expected one of " + all);
   // Syntax errors come through Compile unchanged.
   CHECK(Eval("{/a} == ") == "!! column 9: end of expression; expected an operand: a number, "
                             "string, {field}, name, function call or '('");

@@ -61,7 +61,7 @@ TEST_CASE("errors name the JSON Pointer, what was found and what was expected") 
         "job.json: /inputs/files: found \"a\" (a string); expected an array of strings (wrap it in [ ])");
   std::string fn = ErrorOf(R"({"inputs": {"files": ["a"]}, "measures": [{"name": "n", "fn": "count"},
                                 {"name": "m", "fn": "avg", "of": "{/x}"}]})");
-  CHECK(fn.find("/measures/1/fn: found \"avg\" (a string); expected one of: ") != std::string::npos);
+  CHECK(fn.find("/measures/1/fn: found unknown measure \"avg\"; expected one of: ") != std::string::npos);
   CHECK(ErrorOf(R"({"inputs": {"files": ["a"]}, "measures": [{"name": "s", "fn": "sum"}]})") ==
         "job.json: /measures/0: found no \"of\"; expected \"of\": the expression fn \"sum\" reads");
   CHECK(ErrorOf(R"({"inputs": {"files": ["a"]}, "measures": [{"name": "n", "fn": "count", "of": "{/x}"}]})") ==
@@ -90,4 +90,30 @@ TEST_CASE("keys that need escaping are escaped in pointers") {
   // Intent: RFC 6901 §3 escaping of '/' and '~' in reported locations.
   std::string m = ErrorOf(R"({"inputs": {"files": ["a"], "a/b~": 1}, "measures": [{"name": "n", "fn": "count"}]})");
   CHECK(m.find("/inputs/a~1b~0: found unknown key") != std::string::npos);
+}
+
+TEST_CASE("misspelt keys, measures and formats get the nearest names") {
+  // Intent: at every level of the job file, an unknown key names the likely
+  // intended one (nearest by edit distance), keeping the message's shape.
+  CHECK(ErrorOf(R"({"input": {"files": ["a"]}, "measures": [{"name": "n", "fn": "count"}]})") ==
+        "job.json: /input: found unknown key \"input\" (did you mean \"inputs\"?); expected one of: about, derive, "
+        "emit, group, inputs, keep, measures");
+  CHECK(ErrorOf(R"({"inputs": {"file": ["a"]}, "measures": [{"name": "n", "fn": "count"}]})")
+            .find("/inputs/file: found unknown key \"file\" (did you mean \"files\"?)") != std::string::npos);
+  CHECK(ErrorOf(R"({"inputs": {"files": ["a"]}, "measures": [{"name": "n", "fn": "coutn"}]})")
+            .find("/measures/0/fn: found unknown measure \"coutn\" (did you mean \"count\"?); expected one of: ") !=
+        std::string::npos);
+  CHECK(ErrorOf(R"({"inputs": {"files": ["a"]}, "measures": [{"name": "q", "fn": "quantile", "of": "{/x}",
+                   "att": [0.5]}]})")
+            .find("/measures/0/att: found unknown key \"att\" (did you mean \"at\"?)") != std::string::npos);
+  CHECK(ErrorOf(R"({"inputs": {"files": ["a"]}, "measures": [{"name": "n", "fn": "count"}],
+                   "emit": {"order": [{"by": "n", "dsc": true}]}})")
+            .find("/emit/order/0/dsc: found unknown key \"dsc\" (did you mean \"desc\"?)") != std::string::npos);
+  CHECK(ErrorOf(
+            R"({"inputs": {"files": ["a"]}, "measures": [{"name": "n", "fn": "count"}], "emit": {"format": "cvs"}})") ==
+        "job.json: /emit/format: found unknown format \"cvs\" (did you mean \"csv\"?); expected \"csv\", \"json\", "
+        "\"ndjson\" or \"table\"");
+  // Nothing near: the message has no suggestion at all.
+  CHECK(ErrorOf(R"({"inputs": {"files": ["a"]}, "measures": [{"name": "n", "fn": "count"}], "zzzzzz": 1})")
+            .find("did you mean") == std::string::npos);
 }

@@ -155,3 +155,19 @@ TEST_CASE("the codec version of a plan text") {
   CHECK(PlanTextCodecVersion("fanfold-plan codec=2") == -1);
   CHECK(PlanTextCodecVersion("format=ndjson\n") == -1);
 }
+
+TEST_CASE("shown_digits is for display only: the fingerprint ignores it") {
+  // Intent: a measure's shown_digits rounds what the user reads, not what is
+  // computed, so changing it must not change the plan (resume reuses partials).
+  auto plan_of = [](const char* measure) {
+    Result<JobSpec> spec =
+        ParseJobSpec(std::string(R"({"inputs": {"files": ["a"]}, "measures": [)") + measure + "]}", "job.json");
+    REQUIRE(spec.ok());
+    return CompileSpec(spec.value());
+  };
+  const auto plain = plan_of(R"({"name": "m", "fn": "mean", "of": "{/x}"})");
+  const auto three = plan_of(R"({"name": "m", "fn": "mean", "of": "{/x}", "shown_digits": 3})");
+  CHECK(three->spec.measures[0].shown_digits == 3);
+  CHECK(plain->fingerprint == three->fingerprint);
+  CHECK(PlanCanonicalText(*plain) == PlanCanonicalText(*three));
+}

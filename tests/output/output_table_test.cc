@@ -127,6 +127,25 @@ TEST_CASE("--digits leaves integers, JSON, NDJSON and non-finite numbers whole")
         "       -5    0\n");
 }
 
+TEST_CASE("a column's own digits override the table's") {
+  // Intent: column_digits (a measure's shown_digits) rounds its column, others
+  // keep the table-wide digits (or every digit at 0); texts from Python's
+  // format(1/3, '.3g') = 0.333, format(2/3, '.5g') = 0.66667, format(1/7, '.2g') = 0.14.
+  OutputTable t;
+  t.columns = {"k", "a", "b"};
+  t.key_columns = 1;
+  t.rows.push_back({Cell::Float(1.0 / 7), Cell::Float(1.0 / 3), Cell::Float(2.0 / 3)});
+  RenderOptions o;
+  o.column_digits = {0, 3, 0};
+  CHECK(RenderTable(t, OutputFormat::kCsv, o) == "k,a,b\n0.14285714285714285,0.333,0.6666666666666666\n");
+  o.digits = 2;
+  o.column_digits = {0, 3, 5};
+  CHECK(RenderTable(t, OutputFormat::kCsv, o) == "k,a,b\n0.14,0.333,0.66667\n");
+  CHECK(RenderTable(t, OutputFormat::kTable, o) == "k     a      b\n----  -----  -------\n0.14  0.333  0.66667\n");
+  CHECK(RenderTable(t, OutputFormat::kJson, o) ==
+        "[\n {\"k\":0.14285714285714285,\"a\":0.3333333333333333,\"b\":0.6666666666666666}\n]\n");
+}
+
 TEST_CASE("an infinite or NaN result reads the same in every format") {
   // Intent: "inf", "-inf", "nan" everywhere (JSON as strings, since RFC 8259 has
   // no literal for them); Python's float() reads each text back to the same value.

@@ -20,8 +20,12 @@ TEST_CASE("run_summary: malformed samples name the file, the chunk and the line"
   s.shards_total = 2;
   s.samples.push_back({0, MalformedSample{7, "the line is not a JSON object"}});
   s.samples.push_back({1, MalformedSample{3, "the line is not a JSON object"}});
-  const std::vector<std::string> lines = FormatRunSummary(s, list);
-  REQUIRE(lines.size() == 3);
+  s.samples.push_back({0, MalformedSample{9, "column 4: expected ':' after the key \"k\", found '1'"}});
+  std::vector<std::string> lines = FormatRunSummary(s, list);
+  REQUIRE(lines.size() == 4);
+  // A reason with its column reads as one place: "line 9, column 4".
+  CHECK(lines[2] == "malformed record: /logs/a.ndjson line 9, column 4: expected ':' after the key \"k\", found '1'");
+  lines.erase(lines.begin() + 2);
   CHECK(lines[0] == "malformed record: /logs/a.ndjson line 7: the line is not a JSON object");
   CHECK(lines[1] == "malformed record: /logs/a.ndjson (the chunk from byte 65536) line 3: the line is not a JSON object");
   CHECK(lines[2].rfind("0 of 2 shards done, 0 failed", 0) == 0);
