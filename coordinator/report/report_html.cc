@@ -271,8 +271,9 @@ std::string PhaseSection(const RunAnalysis& a) {
               DurationText(p.ns / 1e9) + " (" + Fmt("%.1f%%", pct) + ")</li>";
   }
   return "<section id=\"phases\"><h2>Where the workers' time went</h2><p class=\"lead\">Summed over every finished "
-         "attempt, as each worker measured it: " + DurationText(total / 1e9) + " in all.</p>" + bar + "</div>" +
-         legend + "</ul></section>";
+         "attempt, as each worker clocked it (per block read and per batch of records): " +
+         DurationText(total / 1e9) + " in all (" + Esc(PhasesProvenance(a)) + ").</p>" + bar + "</div>" + legend +
+         "</ul></section>";
 }
 
 std::string BadRecordsSection(const RunRecord& r, const RunAnalysis& a) {

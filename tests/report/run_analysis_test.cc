@@ -71,3 +71,21 @@ TEST_CASE("analysis: sub-millisecond shards never flag one another as stragglers
     CHECK(an.straggler_count == (slow_ns > 20'000'000 ? 1u : 0u));
   }
 }
+
+TEST_CASE("analysis: the phases say whether they were measured") {
+  // Intent: journal lines with "phases":"measured" give "measured" and the share of the attempts'
+  // time they fill (3/4 + 1/8 of each attempt: 87.5%); lines without it are called estimates.
+  RunRecord r = SampleRecord();
+  for (AttemptEntry& e : r.attempts) e.phases_measured = true;
+  CHECK(PhasesProvenance(AnalyzeRun(r)) == "measured; they fill 100.0% of the attempts' time");
+  for (AttemptEntry& e : r.attempts) e.encode_ns = 0;
+  CHECK(PhasesProvenance(AnalyzeRun(r)) == "measured; they fill 87.5% of the attempts' time");
+  r.attempts[0].phases_measured = false;
+  CHECK(PhasesProvenance(AnalyzeRun(r)) ==
+        "estimated for 1 of 10 attempts: journal lines that predate measured phases");
+  for (AttemptEntry& e : r.attempts) e.phases_measured = false;
+  CHECK(PhasesProvenance(AnalyzeRun(r)) == "estimated, not measured: the journal predates measured phases");
+  const std::vector<std::string> text = FormatReportText(r, AnalyzeRun(r));
+  CHECK(text[4].rfind("worker time: ", 0) == 0);
+  CHECK(text[4].find("(estimated, not measured") != std::string::npos);
+}
