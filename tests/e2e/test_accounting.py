@@ -193,6 +193,7 @@ def main():
     checks = lib.Checks("test_accounting")
     with lib.Env(args) as env:
         check_chunks(env, checks)
+        check_resume(env, checks)
         check_phases(env, checks)
     checks.exit()
 
