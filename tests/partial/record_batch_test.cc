@@ -45,6 +45,22 @@ TEST_CASE("a string longer than the arena's block survives in the batch") {
   CHECK(batch.record(0)[0].str == std::string(200000, 'q'));
 }
 
+TEST_CASE("records with long strings fill a batch early") {
+  // Intent: 200 kB strings fill the batch at the sixth record (6 x 200,000
+  // bytes >= 1 MiB), not at the 256th: memory stays bounded by the budget.
+  RecordBatch batch(1);
+  std::string big(200000, 'q');
+  Value v = Value::String(big);
+  size_t added = 0;
+  while (!batch.full()) {
+    batch.Add(&v);
+    ++added;
+  }
+  CHECK(added == 6);
+  batch.Clear();
+  CHECK(!batch.full());
+}
+
 TEST_CASE("a batch of records without fields counts them") {
   // Intent: a job that reads no field (a bare count) has zero slots per
   // record; the batch still fills up and empties, touching no slot.
