@@ -218,7 +218,9 @@ std::string ProcessedRateText(const RunTotals& t) {
   const double mbps =
       t.processed_seconds > 0 ? static_cast<double>(t.processed_bytes_decompressed) / 1e6 / t.processed_seconds : 0;
   char rate[96];
-  if (t.shards_reused > 0)
+  if (t.shards_reused > 0 && t.processed_shards == 0)
+    std::snprintf(rate, sizeof rate, "nothing processed, %.2f s", t.processed_seconds);
+  else if (t.shards_reused > 0)
     std::snprintf(rate, sizeof rate, "processed: %s decompressed in %.2f s, %.1f MB/s",
                   Megabytes(t.processed_bytes_decompressed).c_str(), t.processed_seconds, mbps);
   else

@@ -53,7 +53,8 @@ struct RunTotals {
 };
 
 // "0.41 s, 104.3 MB/s", or with reused shards "processed: 16.8 MB
-// decompressed in 0.52 s, 32.3 MB/s": the rate over the processed shards.
+// decompressed in 0.52 s, 32.3 MB/s" ("nothing processed, 0.05 s" when all
+// were reused): the rate over the processed shards.
 std::string ProcessedRateText(const RunTotals& totals);
 
 struct RunAnalysis {

@@ -36,7 +36,9 @@ std::vector<std::string> FormatRunSummary(const RunSummary& s, const ShardList& 
   // Over the bytes read in this session: a resumed run's reused shards were
   // read by an earlier one.
   const double mbps = s.wall_seconds > 0 ? static_cast<double>(s.processed.raw_bytes) / 1e6 / s.wall_seconds : 0;
-  if (s.shards_reused > 0)
+  if (s.shards_reused > 0 && s.processed.shards == 0)
+    snprintf(rate, sizeof rate, "nothing processed, %.2f s", s.wall_seconds);
+  else if (s.shards_reused > 0)
     snprintf(rate, sizeof rate, "processed: %s decompressed in %.2f s, %.1f MB/s",
              Megabytes(s.processed.raw_bytes).c_str(), s.wall_seconds, mbps);
   else

@@ -65,6 +65,13 @@ TEST_CASE("run_summary: a resume counts reused shards apart and rates the proces
   CHECK(lines[0] ==
         "64 of 64 shards done (21 reused from the run directory, 43 processed), 0 failed | records: 128,000 read, 0 "
         "kept, 0 malformed | 3.2 MB in, 25.6 MB decompressed | processed: 8.4 MB decompressed in 0.50 s, 16.8 MB/s");
+  // Intent: a resume with nothing left to do gives no rate at all.
+  RunSummary all_reused = s;
+  all_reused.shards_reused = 64;
+  all_reused.processed = {};
+  CHECK(FormatRunSummary(all_reused, list)[0].find("(64 reused from the run directory, 0 processed), 0 failed |") !=
+        std::string::npos);
+  CHECK(FormatRunSummary(all_reused, list)[0].find("| nothing processed, 0.50 s") != std::string::npos);
   // Intent: interrupted, the saved count says the same split.
   s.interrupted = true;
   s.shards_saved = 30;
