@@ -1,10 +1,7 @@
-// RecordBatch: a few hundred records copied out of the reader, so that the
-// shard processor aggregates them in one go and can time parsing and
-// aggregating per batch (two clock reads per batch, not per record). Each
-// record keeps all its slots; its strings are copied into the batch's own
-// memory, since a reader's strings live only during its sink call. Owns its
-// memory, reused from batch to batch; one per shard processor; not
-// thread-safe.
+// RecordBatch: records copied out of the reader (strings included, since a
+// reader's strings live only during its sink call), so the shard processor
+// aggregates and times them a batch at a time: two clock reads per batch, not
+// per record. Owns its memory, reused between batches; not thread-safe.
 #pragma once
 
 #include <cstddef>
