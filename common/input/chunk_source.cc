@@ -60,13 +60,17 @@ class ChunkSource final : public ByteSource {
       head_ += n;
       pos_ += n;
       last_ = p[n - 1];
+      handed_out_ += n;
       if (pos_ >= end_ && last_ == '\n') done_ = true;
       return n;
     }
     return size_t{0};
   }
 
-  uint64_t compressed_bytes() const override { return inner_->compressed_bytes(); }
+  // The chunk's own bytes, not the file bytes read to find its edges (the
+  // tail of the line before it, the block read past its end): so a cut
+  // file's chunks add up to its size, each line counted once.
+  uint64_t compressed_bytes() const override { return handed_out_; }
   bool starts_file() const override { return starts_file_; }
 
  private:
@@ -79,6 +83,7 @@ class ChunkSource final : public ByteSource {
   bool starts_file_;    // offset == 0
   bool done_ = false;
   char last_ = '\n';    // last byte handed out
+  uint64_t handed_out_ = 0;  // bytes returned by Read
 };
 
 }  // namespace

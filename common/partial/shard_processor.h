@@ -12,6 +12,7 @@
 #include <vector>
 
 #include "common/partial/partial_codec.h"
+#include "common/partial/record_batch.h"
 #include "common/job/plan.h"
 #include "common/input/record_reader.h"
 #include "common/job/shard_task.h"
@@ -23,7 +24,10 @@ class ShardProcessor {
  public:
   explicit ShardProcessor(const Plan* plan);
 
-  // Processes task and writes its encoded partial state to *partial.
+  // Processes task and writes its encoded partial state to *partial, whose
+  // header holds the time spent reading, parsing, aggregating and encoding,
+  // each measured (with a clock read per block read and per batch of
+  // records) and together the whole of this call.
   // Fails (naming the shard's path) on an unreadable, truncated or corrupt
   // shard, a bounded measure past its limit, or a malformed fraction above
   // the job's bad_record_limit.
@@ -39,6 +43,7 @@ class ShardProcessor {
   const Plan* plan_;
   std::vector<MeasureConfig> configs_;
   std::unique_ptr<RecordReader> reader_;  // made on first use, kept across shards
+  RecordBatch batch_;                      // records waiting to be aggregated
 };
 
 }  // namespace fanfold

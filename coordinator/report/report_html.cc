@@ -164,8 +164,10 @@ std::string Card(const std::string& label, const std::string& value, const std::
 
 std::string SummarySection(const RunRecord& r, const RunAnalysis& a) {
   const RunTotals& t = a.totals;
-  const double mbps = t.wall_seconds > 0 ? static_cast<double>(t.bytes_decompressed) / 1e6 / t.wall_seconds : 0;
-  const double rps = t.wall_seconds > 0 ? static_cast<double>(t.records_read) / t.wall_seconds : 0;
+  // Rates over the shards this session processed, not those it reused.
+  const double secs = t.processed_seconds;
+  const double mbps = secs > 0 ? static_cast<double>(t.processed_bytes_decompressed) / 1e6 / secs : 0;
+  const double rps = secs > 0 ? static_cast<double>(t.processed_records) / secs : 0;
   std::string h = "<section id=\"summary\" data-source=\"" + std::string(t.from_summary ? "summary.json" : "journal") +
                   "\"><h2>Summary</h2><p class=\"lead\">" +
                   (t.from_summary ? std::string("From the run's summary.json.")
@@ -185,6 +187,7 @@ std::string SummarySection(const RunRecord& r, const RunAnalysis& a) {
                 " decompressed");
   h += Card("Wall time", Num("wall_seconds", Fmt("%.17g", t.wall_seconds), Fmt("%.2f s", t.wall_seconds)),
             Fmt("%.1f MB/s", mbps) + " · " + GroupedInteger(static_cast<uint64_t>(rps + 0.5)) + " records/s" +
+                (t.shards_reused > 0 ? " over the " + GroupedInteger(t.processed_shards) + " shards processed" : "") +
                 (r.sessions.size() > 1 && t.from_summary ? " (the last session)" : ""));
   h += Card("Workers", Num("workers", std::to_string(t.workers), std::to_string(t.workers)),
             std::to_string(r.sessions.size()) + (r.sessions.size() == 1 ? " session" : " sessions"));
@@ -271,8 +274,9 @@ std::string PhaseSection(const RunAnalysis& a) {
               DurationText(p.ns / 1e9) + " (" + Fmt("%.1f%%", pct) + ")</li>";
   }
   return "<section id=\"phases\"><h2>Where the workers' time went</h2><p class=\"lead\">Summed over every finished "
-         "attempt, as each worker measured it: " + DurationText(total / 1e9) + " in all.</p>" + bar + "</div>" +
-         legend + "</ul></section>";
+         "attempt, as each worker clocked it (per block read and per batch of records): " +
+         DurationText(total / 1e9) + " in all (" + Esc(PhasesProvenance(a)) + ").</p>" + bar + "</div>" + legend +
+         "</ul></section>";
 }
 
 std::string BadRecordsSection(const RunRecord& r, const RunAnalysis& a) {

@@ -56,7 +56,27 @@ RunTotals JournalTotals(const RunRecord& r) {
   t.shards_failed = failed.size();
   t.wall_seconds = last > first ? static_cast<double>(last - first) / 1e9 : 0;
   t.workers = r.sessions.empty() ? 0 : r.sessions.back().workers;
+  t.shards_reused = r.sessions.empty() ? 0 : r.sessions.back().reused;
   return t;
+}
+
+// The done attempts of the last session, and its span: what that session's
+// workers did, apart from the shards it reused.
+void LastSessionWork(const RunRecord& r, RunTotals* t) {
+  if (r.sessions.empty()) return;
+  const size_t last = r.sessions.size() - 1;
+  // ParseJournal sets a session's start to its first event, attempts included.
+  const uint64_t start_ns = r.sessions[last].start_ns;
+  uint64_t end_ns = r.sessions[last].end_ns;
+  for (const AttemptEntry& a : r.attempts) {
+    if (a.session != last) continue;
+    end_ns = std::max(end_ns, a.end_ns);
+    if (!a.done()) continue;
+    ++t->processed_shards;
+    t->processed_records += a.records;
+    t->processed_bytes_decompressed += a.bytes_raw;
+  }
+  t->processed_seconds = end_ns > start_ns ? static_cast<double>(end_ns - start_ns) / 1e9 : 0;
 }
 
 }  // namespace
@@ -82,6 +102,22 @@ RunAnalysis AnalyzeRun(const RunRecord& r) {
                 s.wall_seconds, s.workers};
   } else {
     a.totals = JournalTotals(r);
+  }
+  RunTotals& t = a.totals;
+  if (r.summary.present && r.summary.has_processed) {
+    t.processed_shards = r.summary.processed_shards;
+    t.processed_records = r.summary.processed_records;
+    t.processed_bytes_decompressed = r.summary.processed_bytes_decompressed;
+    t.processed_seconds = t.wall_seconds;
+  } else if (t.shards_reused == 0) {
+    // Nothing reused: everything counted was processed, in the time shown.
+    t.processed_shards = t.shards_done;
+    t.processed_records = t.records_read;
+    t.processed_bytes_decompressed = t.bytes_decompressed;
+    t.processed_seconds = t.wall_seconds;
+  } else {
+    LastSessionWork(r, &t);  // a summary from before it counted the reused apart, or none
+    if (r.summary.present) t.processed_seconds = t.wall_seconds;
   }
 
   // Sessions: lanes and throughput.
@@ -134,6 +170,9 @@ RunAnalysis AnalyzeRun(const RunRecord& r) {
     a.parse_ns += e.parse_ns;
     a.aggregate_ns += e.aggregate_ns;
     a.encode_ns += e.encode_ns;
+    ++a.done_attempts;
+    a.phases_estimated += !e.phases_measured;
+    a.attempts_ns += e.end_ns > e.start_ns ? e.end_ns - e.start_ns : 0;
   }
   std::vector<double> secs;
   for (const auto& [shard, e] : done) {
@@ -175,6 +214,36 @@ RunAnalysis AnalyzeRun(const RunRecord& r) {
   return a;
 }
 
+std::string ProcessedRateText(const RunTotals& t) {
+  const double mbps =
+      t.processed_seconds > 0 ? static_cast<double>(t.processed_bytes_decompressed) / 1e6 / t.processed_seconds : 0;
+  char rate[96];
+  if (t.shards_reused > 0 && t.processed_shards == 0)
+    std::snprintf(rate, sizeof rate, "nothing processed, %.2f s", t.processed_seconds);
+  else if (t.shards_reused > 0)
+    std::snprintf(rate, sizeof rate, "processed: %s decompressed in %.2f s, %.1f MB/s",
+                  Megabytes(t.processed_bytes_decompressed).c_str(), t.processed_seconds, mbps);
+  else
+    std::snprintf(rate, sizeof rate, "%.2f s, %.1f MB/s", t.processed_seconds, mbps);
+  return rate;
+}
+
+std::string PhasesProvenance(const RunAnalysis& a) {
+  if (a.phases_estimated > 0) {
+    // Journal lines of earlier versions: parsing was what a sampled guess
+    // at aggregating left over, so the split is not to be trusted.
+    return a.phases_estimated == a.done_attempts
+               ? std::string("estimated, not measured: the journal predates measured phases")
+               : "estimated for " + std::to_string(a.phases_estimated) + " of " + std::to_string(a.done_attempts) +
+                     " attempts: journal lines that predate measured phases";
+  }
+  const uint64_t busy = a.read_ns + a.parse_ns + a.aggregate_ns + a.encode_ns;
+  char fill[96];
+  std::snprintf(fill, sizeof fill, "measured; they fill %.1f%% of the attempts' time",
+                a.attempts_ns ? 100.0 * static_cast<double>(busy) / static_cast<double>(a.attempts_ns) : 0.0);
+  return fill;
+}
+
 std::vector<std::string> FormatReportText(const RunRecord& r, const RunAnalysis& a) {
   std::vector<std::string> lines;
   const RunTotals& t = a.totals;
@@ -187,9 +256,7 @@ std::vector<std::string> FormatReportText(const RunRecord& r, const RunAnalysis&
   status += "; " + std::to_string(t.workers) + (t.workers == 1 ? " worker" : " workers");
   if (!t.from_summary) status += " (totals from the journal: no summary.json)";
   lines.push_back(status);
-  char rate[64];
-  std::snprintf(rate, sizeof rate, "%.2f s, %.1f MB/s", t.wall_seconds,
-                t.wall_seconds > 0 ? static_cast<double>(t.bytes_decompressed) / 1e6 / t.wall_seconds : 0.0);
+  const std::string rate = ProcessedRateText(t);
   lines.push_back("records: " + GroupedInteger(t.records_read) + " read, " + GroupedInteger(t.records_kept) +
                   " kept, " + GroupedInteger(t.records_malformed) + " malformed | " +
                   Megabytes(t.bytes_compressed) + " in, " + Megabytes(t.bytes_decompressed) + " decompressed | " +
@@ -208,7 +275,7 @@ std::vector<std::string> FormatReportText(const RunRecord& r, const RunAnalysis&
   if (busy > 0)
     lines.push_back("worker time: reading+decompressing " + Pct(a.read_ns, busy) + ", parsing " +
                     Pct(a.parse_ns, busy) + ", filtering+aggregating " + Pct(a.aggregate_ns, busy) + ", encoding " +
-                    Pct(a.encode_ns, busy));
+                    Pct(a.encode_ns, busy) + " (" + PhasesProvenance(a) + ")");
   for (const FailureView& f : a.failures)
     lines.push_back("failed: shard " + std::to_string(f.shard) + " (" + f.path + "): " + f.reason);
   for (const std::string& w : r.warnings) lines.push_back("note: " + w);

@@ -104,10 +104,14 @@ json SummaryJson(const RunInput& in, const RunSummary& s, const Merger& merger, 
           {"run_dir", in.dir->path()},
           {"workers", workers},
           {"shards", {{"total", s.shards_total}, {"done", t.shards_merged}, {"failed", s.failures.size()},
-                      {"reused", in.reused.size()}, {"retries", retries}}},
+                      {"reused", in.reused.size()}, {"processed", s.processed.shards}, {"retries", retries}}},
           {"records", {{"read", t.records}, {"kept", t.kept}, {"malformed", t.malformed}}},
           {"bytes", {{"compressed", t.compressed_bytes}, {"decompressed", t.raw_bytes}}},
           {"wall_seconds", s.wall_seconds},
+          // This session's work alone (a resume reuses the rest): rates are over these.
+          {"processed", {{"records", s.processed.records},
+                         {"bytes", {{"compressed", s.processed.compressed_bytes},
+                                    {"decompressed", s.processed.raw_bytes}}}}},
           {"failed", failed},
           {"malformed_samples", samples},
           {"skipped", skipped},
@@ -196,6 +200,13 @@ Status RunEngine::Run() {
   lo.shard_time_limit_ms = options_.shard_time_limit_ms;
   lo.should_stop = [] { return SignalGuard::interrupted(); };
   lo.on_attempt = [&](const AttemptRecord& r) {
+    if (r.outcome == AttemptRecord::Outcome::kDone) {
+      ProcessedTotals& p = summary_.processed;
+      ++p.shards;
+      p.records += r.header.records;
+      p.compressed_bytes += r.header.compressed_bytes;
+      p.raw_bytes += r.header.raw_bytes;
+    }
     dir_.StageJournal(AttemptEventLine(r));
     meter.OnAttempt(r);
   };
@@ -223,6 +234,7 @@ void RunEngine::Tally() {
   summary_.samples = merger_.malformed_samples();
   summary_.failures = loop_.failures;
   summary_.interrupted = loop_.interrupted;
+  summary_.shards_reused = in_.reused.size();
   summary_.wall_seconds = ElapsedSeconds();
 }
 

@@ -34,18 +34,30 @@ std::vector<std::string> FormatRunSummary(const RunSummary& s, const ShardList& 
   }
   for (const auto& f : s.failures) lines.push_back("shard " + std::to_string(f.shard) + " failed: " + f.message);
   const MergeTotals& t = s.totals;
-  char rate[64];
-  double mbps = s.wall_seconds > 0 ? static_cast<double>(t.raw_bytes) / 1e6 / s.wall_seconds : 0;
-  snprintf(rate, sizeof rate, "%.2f s, %.1f MB/s", s.wall_seconds, mbps);
+  char rate[96];
+  // Over the bytes read in this session: a resumed run's reused shards were
+  // read by an earlier one.
+  const double mbps = s.wall_seconds > 0 ? static_cast<double>(s.processed.raw_bytes) / 1e6 / s.wall_seconds : 0;
+  if (s.shards_reused > 0 && s.processed.shards == 0)
+    snprintf(rate, sizeof rate, "nothing processed, %.2f s", s.wall_seconds);
+  else if (s.shards_reused > 0)
+    snprintf(rate, sizeof rate, "processed: %s decompressed in %.2f s, %.1f MB/s",
+             Megabytes(s.processed.raw_bytes).c_str(), s.wall_seconds, mbps);
+  else
+    snprintf(rate, sizeof rate, "%.2f s, %.1f MB/s", s.wall_seconds, mbps);
+  const std::string split = s.shards_reused > 0 ? " (" + std::to_string(s.shards_reused) +
+                                                      " reused from the run directory, " +
+                                                      std::to_string(s.processed.shards) + " processed)"
+                                                : "";
   std::string line;
   if (s.interrupted) {
     // What is saved is what counts; the record totals cover only the shards
     // merged (in shard order) before the signal, and say so.
-    line = std::to_string(s.shards_saved) + " of " + std::to_string(s.shards_total) + " shards saved, " +
-           std::to_string(s.failures.size()) + " failed (interrupted) | merged so far: " +
+    line = std::to_string(s.shards_saved) + " of " + std::to_string(s.shards_total) + " shards saved" + split +
+           ", " + std::to_string(s.failures.size()) + " failed (interrupted) | merged so far: " +
            std::to_string(t.shards_merged) + " shards,";
   } else {
-    line = std::to_string(t.shards_merged) + " of " + std::to_string(s.shards_total) + " shards done, " +
+    line = std::to_string(t.shards_merged) + " of " + std::to_string(s.shards_total) + " shards done" + split + ", " +
            std::to_string(s.failures.size()) + " failed |";
   }
   line += " records: " + GroupedInteger(t.records) + " read, " + GroupedInteger(t.kept) + " kept, " +

@@ -12,6 +12,16 @@
 
 namespace fanfold {
 
+// What this session's workers did: the shards they finished, their records
+// and bytes. Rates are computed over these alone; a resumed run's reused
+// shards cost no reading, so counting them would inflate MB/s.
+struct ProcessedTotals {
+  uint64_t shards = 0;
+  uint64_t records = 0;  // read, malformed included
+  uint64_t compressed_bytes = 0;
+  uint64_t raw_bytes = 0;
+};
+
 struct RunSummary {
   size_t shards_total = 0;
   MergeTotals totals;
@@ -23,6 +33,8 @@ struct RunSummary {
   // (what `resume` keeps). Shards finish out of order and are merged in
   // order, so this is usually more than totals.shards_merged.
   size_t shards_saved = 0;
+  size_t shards_reused = 0;   // merged from the run directory as they were
+  ProcessedTotals processed;  // done in this session (MB/s is over these)
 };
 
 // "1,234,567"
@@ -30,7 +42,9 @@ std::string GroupedInteger(uint64_t n);
 // "12.3 MB" (decimal megabytes, as disks and networks are sold)
 std::string Megabytes(uint64_t bytes);
 
-// The lines to print, each without a trailing newline.
+// The lines to print, each without a trailing newline. With reused shards
+// the count says how many were reused and how many processed, and the rate
+// is over the processed shards only.
 std::vector<std::string> FormatRunSummary(const RunSummary& s, const ShardList& list);
 
 }  // namespace fanfold

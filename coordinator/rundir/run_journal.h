@@ -44,6 +44,9 @@ struct AttemptEntry {
   uint64_t records = 0, kept = 0, malformed = 0;
   uint64_t bytes_in = 0, bytes_raw = 0;
   uint64_t read_ns = 0, parse_ns = 0, aggregate_ns = 0, encode_ns = 0;
+  // True iff the line says the four phases were measured ("phases":
+  // "measured"); journals of earlier versions hold estimates without it.
+  bool phases_measured = false;
   std::string message;  // failures: why
 
   bool done() const { return outcome == "done"; }
@@ -68,7 +71,8 @@ struct RunSession {
 std::string StartEventLine(const std::string& mode, int64_t pid, int workers, uint64_t pending, uint64_t reused,
                            uint64_t time_ns);
 // One attempt at one shard. Done attempts carry the worker's counts and
-// timings from the partial's header, the others their message. Written by
+// timings from the partial's header (and "phases":"measured"), the others
+// their message. Written by
 // hand, not through a json object: on thousands of tiny shards building
 // that object cost more than the rest of the journal.
 std::string AttemptEventLine(const AttemptRecord& r);

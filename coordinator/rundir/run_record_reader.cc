@@ -36,6 +36,14 @@ Result<SummaryRecord> SummaryFrom(const json& j) {
   s.bytes_compressed = JsonValueOr<uint64_t>(bytes, "compressed", 0);
   s.bytes_decompressed = JsonValueOr<uint64_t>(bytes, "decompressed", 0);
   s.wall_seconds = JsonValueOr<double>(j, "wall_seconds", 0);
+  if (j.contains("processed")) {
+    const json& processed = JsonObjectOrEmpty(j, "processed");
+    s.has_processed = true;
+    s.processed_shards = JsonValueOr<uint64_t>(shards, "processed", 0);
+    s.processed_records = JsonValueOr<uint64_t>(processed, "records", 0);
+    s.processed_bytes_decompressed =
+        JsonValueOr<uint64_t>(JsonObjectOrEmpty(processed, "bytes"), "decompressed", 0);
+  }
   if (auto it = j.find("failed"); it != j.end() && it->is_array()) {
     for (const json& f : *it) {
       if (!f.is_object()) continue;

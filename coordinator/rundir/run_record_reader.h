@@ -27,6 +27,10 @@ struct SummaryRecord {
   uint64_t records_read = 0, records_kept = 0, records_malformed = 0;
   uint64_t bytes_compressed = 0, bytes_decompressed = 0;
   double wall_seconds = 0;
+  // This session's own work ("processed"; a resume reuses the rest), when
+  // the summary has it (written since fanfold counts reused shards apart).
+  bool has_processed = false;
+  uint64_t processed_shards = 0, processed_records = 0, processed_bytes_decompressed = 0;
   struct Failed {
     uint32_t shard = 0;
     std::string path, reason;

@@ -43,11 +43,13 @@ TEST_CASE("chunks of any size partition the lines of a file") {
     REQUIRE(WriteFileAtomic(tmpl, text).ok());
     uint64_t chunk = 1 + rng() % 600;
     std::string joined;
+    uint64_t counted = 0;  // the chunks' compressed_bytes(), added up
     for (uint64_t off = 0; off < text.size(); off += chunk) {
       uint64_t len = std::min<uint64_t>(chunk, text.size() - off);
       Result<std::unique_ptr<ByteSource>> s = OpenChunkSource(tmpl, off, len);
       REQUIRE(s.ok());
       std::string part = ReadAll(**s, 1 + rng() % 700);
+      counted += (*s)->compressed_bytes();
       const size_t start = joined.size();  // where this chunk's bytes begin in the file
       if (!part.empty()) {
         CHECK((start == 0 || text[start - 1] == '\n'));
@@ -57,6 +59,9 @@ TEST_CASE("chunks of any size partition the lines of a file") {
       joined += part;
     }
     CHECK(joined == text);
+    // Intent: the chunks' input byte counts add up to the file's size, each
+    // byte once (they used to count the blocks read past each chunk's end).
+    CHECK(counted == text.size());
   }
   unlink(tmpl);
 }

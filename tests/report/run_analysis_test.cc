@@ -71,3 +71,61 @@ TEST_CASE("analysis: sub-millisecond shards never flag one another as stragglers
     CHECK(an.straggler_count == (slow_ns > 20'000'000 ? 1u : 0u));
   }
 }
+
+TEST_CASE("analysis: a resumed run's rate is over the shards it processed") {
+  // Intent: a second session that reused 8 shards and processed 2 (1 MB each
+  // in 0.5 s) reports 2 MB / 0.5 s = 4.0 MB/s, not all 10 MB over that time.
+  RunRecord r = SampleRecord();
+  RunSession resume;
+  resume.mode = "resume";
+  resume.workers = 2;
+  resume.reused = 8;
+  resume.start_ns = 10'000'000'000;
+  resume.end_ns = 10'500'000'000;
+  r.sessions.push_back(resume);
+  for (uint32_t s : {3u, 9u}) {
+    AttemptEntry a;
+    a.shard = s;
+    a.attempt = 1;
+    a.worker = static_cast<int>(s % 2);
+    a.start_ns = 10'100'000'000;
+    a.end_ns = 10'400'000'000;
+    a.outcome = "done";
+    a.records = 1000;
+    a.bytes_raw = 1'000'000;
+    a.session = 1;
+    r.attempts.push_back(a);
+  }
+  RunAnalysis a = AnalyzeRun(r);
+  CHECK(a.totals.shards_reused == 8);
+  CHECK(a.totals.processed_shards == 2);
+  CHECK(a.totals.processed_bytes_decompressed == 2'000'000);
+  CHECK(a.totals.processed_seconds == doctest::Approx(0.5));
+  CHECK(ProcessedRateText(a.totals) == "processed: 2.0 MB decompressed in 0.50 s, 4.0 MB/s");
+  // Intent: a summary.json that counts the processed shards is taken as it is.
+  r.summary.present = true;
+  r.summary.shards_reused = 8;
+  r.summary.wall_seconds = 0.25;
+  r.summary.has_processed = true;
+  r.summary.processed_shards = 2;
+  r.summary.processed_bytes_decompressed = 2'000'000;
+  CHECK(ProcessedRateText(AnalyzeRun(r).totals) == "processed: 2.0 MB decompressed in 0.25 s, 8.0 MB/s");
+}
+
+TEST_CASE("analysis: the phases say whether they were measured") {
+  // Intent: journal lines with "phases":"measured" give "measured" and the share of the attempts'
+  // time they fill (3/4 + 1/8 of each attempt: 87.5%); lines without it are called estimates.
+  RunRecord r = SampleRecord();
+  for (AttemptEntry& e : r.attempts) e.phases_measured = true;
+  CHECK(PhasesProvenance(AnalyzeRun(r)) == "measured; they fill 100.0% of the attempts' time");
+  for (AttemptEntry& e : r.attempts) e.encode_ns = 0;
+  CHECK(PhasesProvenance(AnalyzeRun(r)) == "measured; they fill 87.5% of the attempts' time");
+  r.attempts[0].phases_measured = false;
+  CHECK(PhasesProvenance(AnalyzeRun(r)) ==
+        "estimated for 1 of 10 attempts: journal lines that predate measured phases");
+  for (AttemptEntry& e : r.attempts) e.phases_measured = false;
+  CHECK(PhasesProvenance(AnalyzeRun(r)) == "estimated, not measured: the journal predates measured phases");
+  const std::vector<std::string> text = FormatReportText(r, AnalyzeRun(r));
+  CHECK(text[4].rfind("worker time: ", 0) == 0);
+  CHECK(text[4].find("(estimated, not measured") != std::string::npos);
+}

@@ -38,7 +38,8 @@ TEST_CASE("run_journal: a done attempt's exact line") {
   CHECK(AttemptEventLine(DoneAttempt()) ==
         R"({"event":"attempt","shard":4,"attempt":2,"worker":1,"start_ns":1700000000000000000,)"
         R"("end_ns":1700000000250000000,"outcome":"done","final":true,"records":10,"kept":9,"malformed":1,)"
-        R"("bytes_in":50,"bytes_raw":400,"read_ns":100,"parse_ns":200,"aggregate_ns":300,"encode_ns":4})");
+        R"("bytes_in":50,"bytes_raw":400,"read_ns":100,"parse_ns":200,"aggregate_ns":300,"encode_ns":4,)"
+        R"("phases":"measured"})");
 }
 
 // Intent: a failed attempt carries its message instead of counts, escaped as
@@ -115,6 +116,7 @@ TEST_CASE("run_journal: written lines read back") {
   CHECK(d.bytes_in == 50);
   CHECK(d.bytes_raw == 400);
   CHECK(d.read_ns + d.parse_ns + d.aggregate_ns + d.encode_ns == 604);
+  CHECK(d.phases_measured);
   CHECK(d.message.empty());
 }
 
@@ -130,8 +132,27 @@ TEST_CASE("run_journal: AttemptEntryJson fields") {
   CHECK(j.at("message") == "gone");
   a.outcome = "done";
   j = AttemptEntryJson(a);
-  CHECK(j.size() == 16);
+  CHECK(j.size() == 17);
   CHECK_FALSE(j.contains("message"));
+  CHECK(j.at("phases") == "estimated");  // a journal line without "phases"
+  a.phases_measured = true;
+  CHECK(AttemptEntryJson(a).at("phases") == "measured");
+}
+
+// Intent: a done attempt from a journal written before the phases were
+// measured (no "phases" key) reads back as estimated, not as measured.
+TEST_CASE("run_journal: an attempt line without phases is an estimate") {
+  const std::string text =
+      R"({"event":"attempt","shard":0,"attempt":1,"worker":0,"start_ns":5,"end_ns":9,"outcome":"done","final":true,)"
+      R"("records":1,"kept":1,"malformed":0,"bytes_in":3,"bytes_raw":3,"read_ns":1,"parse_ns":0,"aggregate_ns":2,"encode_ns":1})"
+      "\n";
+  std::vector<RunSession> sessions;
+  std::vector<AttemptEntry> attempts;
+  std::vector<std::string> warnings;
+  ParseJournal(text, "journal.ndjson", &sessions, &attempts, &warnings);
+  REQUIRE(attempts.size() == 1);
+  CHECK(attempts[0].done());
+  CHECK_FALSE(attempts[0].phases_measured);
 }
 
 }  // namespace
