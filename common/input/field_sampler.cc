@@ -92,6 +92,27 @@ struct NameWalk {
   }
 };
 
+// The line with every number token outside strings replaced by "0" and
+// spaces: the same structure and names, and no number the DOM parser refuses
+// (integers beyond 64 bits, 1e400), which the reader's second pass reads.
+std::string WithNumbersZeroed(const char* p, size_t len) {
+  std::string line(p, len);
+  bool in_string = false;
+  for (size_t i = 0; i < line.size(); ++i) {
+    const char c = line[i];
+    if (in_string) {
+      if (c == '\\') ++i;
+      else if (c == '"') in_string = false;
+    } else if (c == '"') {
+      in_string = true;
+    } else if (c == '-' || (c >= '0' && c <= '9')) {
+      line[i] = '0';
+      while (i + 1 < line.size() && std::strchr("+-.0123456789eE", line[i + 1]) != nullptr) line[++i] = ' ';
+    }
+  }
+  return line;
+}
+
 // Stops the CSV reader at the first record: only the header is wanted.
 class StopAtFirstRecord final : public RecordSink {
  public:
@@ -215,7 +236,12 @@ void FieldSampler::OnLine(const char* p, size_t len) {
   while (len > 0 && (p[len - 1] == '\r' || p[len - 1] == ' ' || p[len - 1] == '\t')) --len;
   if (len == 0) return;
   dom::element root;
-  if (json_->parser.parse(p, len, true).get(root) || root.type() != dom::element_type::OBJECT) return;
+  simdjson::error_code err = json_->parser.parse(p, len, true).get(root);
+  if (err == simdjson::NUMBER_ERROR) {
+    const std::string zeroed = WithNumbersZeroed(p, len);
+    err = json_->parser.parse(zeroed.data(), zeroed.size(), true).get(root);
+  }
+  if (err || root.type() != dom::element_type::OBJECT) return;
   ++records_;
   for (size_t f = 0; f < tokens_.size(); ++f)
     if (tokens_[f] && Resolves(root, *tokens_[f])) ++present_[f];

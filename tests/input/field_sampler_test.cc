@@ -51,6 +51,22 @@ TEST_CASE("field sampler: NDJSON names and present counts") {
   CHECK_FALSE(Has(s.names(), "/feedr"));
 }
 
+// Intent: a record holding a number the fast parser refuses (an integer
+// beyond 64 bits, 1e400) is a record for the sample too, as it is for the
+// reader's second pass; numbers inside strings are left alone.
+TEST_CASE("field sampler: records with numbers beyond 64 bits count") {
+  const FieldTable fields = Fields({"/id", "/note"});
+  FieldSampler s(RecordFormat::kNdjson, fields);
+  auto src = MemorySource(
+      "{\"id\": 123456789012345678901234567890, \"note\": \"-1e400 \\\" 5\"}\n"
+      "{\"id\": 1e400, \"x\": {\"y\": -1e400}}\n"
+      "{\"id\": 1}\n");
+  REQUIRE(s.AddShard(*src).ok());
+  CHECK(s.records() == 3);
+  CHECK(s.present() == std::vector<uint64_t>{3, 1});
+  CHECK(Has(s.names(), "/x/y"));
+}
+
 // Intent: a byte-order mark at the start of a shard is skipped, so the first
 // record counts.
 TEST_CASE("field sampler: a BOM does not cost the first record") {
