@@ -218,7 +218,7 @@ def check_split(env, checks):
         path = env.path(name + ".json")
         lib.write_job(path, job)
         best = None
-        for trial in range(2):  # the smaller of two runs: a busy machine only ever adds time
+        for trial in range(3):  # the smallest of three runs: a busy machine only ever adds time
             run_dir = env.path("runs", "%s%d" % (name, trial))
             rc, _, err = env.fanfold_run("run", path, "-j", 1, "--run-dir", run_dir, "-q", "-o", env.path("split.out"))
             if not checks.check(rc == 0, "%s run: exit %d: %s" % (name, rc, lib.tail(err))):
@@ -230,9 +230,11 @@ def check_split(env, checks):
     lp, la = totals["light"]["parse_ns"], totals["light"]["aggregate_ns"]
     hp, ha = totals["heavy"]["parse_ns"], totals["heavy"]["aggregate_ns"]
     # Intent: the heavy job's extra work is counted as aggregating (measured ~45x here), not as parsing
-    # (measured 1.1-1.5x on the build VM: both read the same two fields).
+    # (measured 1.1-1.5x on the build VM: both read the same two fields; 2.2x once
+    # with other builds running beside it, hence the bound of 4x, which still
+    # catches the heavy job's aggregation counted as parsing, ~45x).
     checks.check(ha >= 10 * la and ha > hp, "aggregate_ns light %d, heavy %d (parse_ns heavy %d)" % (la, ha, hp))
-    checks.check(hp <= 2 * lp, "parse_ns light %d, heavy %d: the aggregation leaks into parsing" % (lp, hp))
+    checks.check(hp <= 4 * lp, "parse_ns light %d, heavy %d: the aggregation leaks into parsing" % (lp, hp))
 
 
 def main():
