@@ -285,7 +285,22 @@ def main():
                 rc, _, err = env.fanfold_run("run", job, "-q", "-o", out, "--run-dir", rd, "--fresh")
             c.check(rc == 0, "coordinator-kill trial %d: finishing exits 0 (got %d) %s" % (t, rc, lib.tail(err)))
             c.check(os.path.exists(out) and read(out) == ref, "coordinator-kill trial %d: output identical" % t)
-            c.check(lib.leaked_segments() == [], "coordinator-kill trial %d: /dev/shm clean after the next start" % t)
+            leaked = lib.leaked_segments()
+            c.check(leaked == [], "coordinator-kill trial %d: /dev/shm clean after the next start: %s" % (t, leaked))
+
+        # A coordinator killed after its last commit leaves its segment and a run
+        # with nothing left to do; the resume that starts no worker removes it too
+        # (the run engine sweeps before it knows whether it needs workers).
+        dead = subprocess.Popen(["true"])
+        dead.wait()
+        stale = "/dev/shm/fanfold-%d-00000000deadbeef" % dead.pid
+        with open(stale, "wb") as f:
+            f.write(b"x" * 64)
+        rc, _, err = env.fanfold_run("resume", rd, "-q", "-o", out)
+        c.check(rc == 0 and not os.path.exists(stale),
+                "resume with nothing to process removes a dead coordinator's segment: %d %s" % (rc, lib.tail(err)))
+        if os.path.exists(stale):
+            os.unlink(stale)
 
         # Storage faults: a run directory that cannot be created; a full disk.
         blocker = env.path("not-a-dir")
