@@ -1,11 +1,12 @@
 """Conditional counts and sums per group, through whole runs: a job sums
 one_if(...) and branch(...) values per district and per power level (a
-branch() with three tests and an otherwise value), over four NDJSON shards
-with missing and null events and power readings and integer ids past 2^53.
-The reference is Python's sqlite3 module running the same question as
-SUM(CASE WHEN ... THEN 1 ELSE 0 END) and SUM(CASE WHEN ... THEN x ELSE 0 END)
-with GROUP BY; fanfold's CSV at -j 1 and -j 2 must be byte-identical to each
-other and hold sqlite's numbers.
+branch() with three tests and an otherwise value), and has measures with
+their own filter ("only"), over four NDJSON shards with missing and null
+events and power readings and integer ids past 2^53. The reference is
+Python's sqlite3 module running the same question as
+SUM(CASE WHEN ... THEN 1 ELSE 0 END), SUM(CASE WHEN ... THEN x ELSE 0 END)
+and aggregates with FILTER (WHERE ...), with GROUP BY; fanfold's CSV at -j 1
+and -j 2 must be byte-identical to each other and hold sqlite's numbers.
 """
 
 import csv
@@ -59,7 +60,10 @@ SELECT district, %s AS level,
        SUM(CASE WHEN event = 'fault' THEN 1 ELSE 0 END) AS faults,
        SUM(CASE WHEN event IN ('fault', 'reboot') AND power_w > 50 THEN 1 ELSE 0 END) AS hot_trouble,
        SUM(CASE WHEN event = 'fault' THEN id ELSE 0 END) AS fault_ids,
-       SUM(CASE WHEN event = 'fault' THEN power_w ELSE 0 END) AS fault_w
+       SUM(CASE WHEN event = 'fault' THEN power_w ELSE 0 END) AS fault_w,
+       COUNT(*) FILTER (WHERE event = 'fault') AS fault_events,
+       SUM(power_w) FILTER (WHERE event = 'fault') AS fault_w_only,
+       MAX(power_w) FILTER (WHERE event = 'reboot') AS reboot_max_w
 FROM r GROUP BY 1, 2 ORDER BY 1, 2
 """ % LEVEL_SQL
 
@@ -69,6 +73,9 @@ JOB_MEASURES = [
     {"name": "hot_trouble", "fn": "sum", "of": "one_if({/event} in ['fault', 'reboot'] and {/power_w} > 50)"},
     {"name": "fault_ids", "fn": "sum", "of": "branch({/event} == 'fault', {/id}, 0)"},
     {"name": "fault_w", "fn": "sum", "of": "branch({/event} == 'fault', {/power_w}, 0)"},
+    {"name": "fault_events", "fn": "count", "only": "{/event} == 'fault'"},
+    {"name": "fault_w_only", "fn": "sum", "of": "{/power_w}", "only": "{/event} == 'fault'"},
+    {"name": "reboot_max_w", "fn": "max", "of": "{/power_w}", "only": "{/event} == 'reboot'"},
 ]
 
 
@@ -100,8 +107,9 @@ def main():
             "measures": JOB_MEASURES,
             "emit": {"format": "csv", "order": [{"by": "district"}, {"by": "level"}]}})
         want = sqlite_rows(records)
-        # Intent: the data does exercise the cases (faults, gaps, every level).
-        c.check(len(want) == len(DISTRICTS) * 4 and all(row[3] > 0 for row in want),
+        # Intent: the data does exercise the cases (faults, gaps, every level, a filtered sum over nothing).
+        c.check(len(want) == len(DISTRICTS) * 4 and all(row[3] > 0 for row in want)
+                and any(row[8] is None for row in want),
                 "the generated data lacks a case: %r" % want)
 
         outputs = {}
@@ -114,11 +122,13 @@ def main():
                 outputs[workers] = f.read()
             rows = list(csv.reader(io.StringIO(outputs[workers].decode("utf-8"), newline="")))
             header, body = rows[0], rows[1:]
-            c.check(header == ["district", "level", "events", "faults", "hot_trouble", "fault_ids", "fault_w"],
+            c.check(header == ["district", "level", "events", "faults", "hot_trouble", "fault_ids", "fault_w",
+                              "fault_events", "fault_w_only", "reboot_max_w"],
                     "-j %s: header %r" % (workers, header))
             # Intent: every group and every conditional count and sum is sqlite3's
-            # (SUM(CASE WHEN ... THEN 1 ELSE 0 END), GROUP BY district, level), integers exact.
-            got = [(r[0], r[1]) + tuple(int(x) for x in r[2:]) for r in body]
+            # (SUM(CASE WHEN ... THEN 1 ELSE 0 END), GROUP BY district, level), integers exact;
+            # a filtered sum or max over no value is empty, as sqlite's NULL.
+            got = [(r[0], r[1]) + tuple(int(x) if x != "" else None for x in r[2:]) for r in body]
             c.check(got == want, "-j %s: rows differ from sqlite3's:\n%r\nvs\n%r" % (workers, got[:4], want[:4]))
             # Intent: a fault without a power reading makes branch() give missing, which sum
             # skips and the summary counts (Python: faults whose power_w is None or absent).
@@ -128,6 +138,11 @@ def main():
                     "-j %s: summary should count %d skipped fault_w values: %s" % (workers, no_power, lib.tail(err)))
             c.check(not re.search(r'measure "(faults|hot_trouble|fault_ids)" skipped', err),
                     "-j %s: one_if() or a branch over ids skipped values: %s" % (workers, lib.tail(err)))
+            # Intent: records an "only" filter leaves out are not the measure's input, so they are
+            # not skipped values: the filtered sum skips exactly the faults without power.
+            m = re.search(r'measure "fault_w_only" skipped (\d+) values', err)
+            c.check(m is not None and int(m.group(1)) == no_power,
+                    "-j %s: fault_w_only should skip %d values: %s" % (workers, no_power, lib.tail(err)))
         # Intent: the result does not depend on the worker count, byte for byte.
         c.check(len(outputs) == 2 and outputs["1"] == outputs["2"], "-j 1 and -j 2 outputs differ")
     c.exit()
