@@ -112,6 +112,12 @@ def main():
                 and any(row[8] is None for row in want),
                 "the generated data lacks a case: %r" % want)
 
+        # Intent: `check` shows each measure's own filter in the plan it prints.
+        rc, out, err = env.run([env.fanfold, "check", job])
+        c.check(rc == 0 and "  measure: fault_w_only = sum({/power_w}), only where {/event} == 'fault'\n" in out
+                and "  measure: fault_events = count, only where {/event} == 'fault'\n" in out,
+                "check output lacks the only filters (exit %d): %s %s" % (rc, out, lib.tail(err)))
+
         outputs = {}
         for workers in ("1", "2"):
             out_path = env.path("out%s.csv" % workers)

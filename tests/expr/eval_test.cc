@@ -323,7 +323,8 @@ TEST_CASE("evaluation does not allocate") {
       " or contains(upper({/district}), 'NORTH') or period_start({/ts}, 'week') == '2026-W10'"
       " or text({/power_w}) == '3' or substr({/power_w}, 1) == 'x'"
       " or coalesce({/absent}, {/note}, {/lamp}) == 'x' or weekday(time({/ts})) == 9"
-      " or bucket_start(time_ms({/epoch_ms}), 3600) < 0",
+      " or bucket_start(time_ms({/epoch_ms}), 3600) < 0"
+      " or branch({/power_w} > 1, lower({/event}), upper({/lamp})) == 'x' or one_if({/note}) > 1",
       &fields);
   REQUIRE(e.ok());
   std::vector<Value> slots(fields.size());
