@@ -1,8 +1,7 @@
 // Conditional functions of the expression language: branch(test, value, ...,
-// otherwise), which picks the value of the first test that holds, and
-// one_if(test), which turns a truth value into the integer 1 or 0 (so that a
-// count under a condition is the sum of one_if). The compile-time checks of
-// their calls live here; evaluation is Expr::Program's. Stateless; thread-safe.
+// otherwise) picks the value of the first test that holds; one_if(test) turns
+// a truth value into the integer 1 or 0. Their compile-time checks and
+// evaluation rules; Expr::Program calls them. Stateless; thread-safe.
 #pragma once
 
 #include "common/base/status.h"
