@@ -3,6 +3,7 @@
 #include <string>
 
 #include "common/base/nearest_names.h"
+#include "common/expr/conditional_functions.h"
 #include "common/expr/program.h"
 #include "common/base/scratch_arena.h"
 
@@ -115,7 +116,7 @@ class Compiler {
   bool IsConstant(int32_t i) const { return p_->nodes[i].op == ExprOp::kConst; }
 
   bool AllKidsConstant(const ExprNode& n) const {
-    if (n.op == ExprOp::kCoalesce) {
+    if (n.op == ExprOp::kCoalesce || n.op == ExprOp::kBranch) {
       for (int k = 0; k < n.nargs; ++k)
         if (!IsConstant(p_->args[n.first_arg + k])) return false;
       return true;
@@ -197,6 +198,11 @@ class Compiler {
       return ErrorAt(a.column, "unknown function '" + a.text + "'" + DidYouMean(a.text, ExprFunctionNames(), Parens),
                      "one of " + ExprFunctionSignatures());
     const int got = static_cast<int>(a.kids.size());
+    if (f->function == ExprFunction::kBranch) {
+      FF_RETURN_IF_ERROR(CheckBranchCall(a));
+      n->function = f->function;
+      return LazyArgs(a, ExprOp::kBranch, n);
+    }
     if (got < f->min_args || got > f->max_args)
       return ErrorAt(a.column,
                      a.text + "() with " + std::to_string(got) +
@@ -228,6 +234,21 @@ class Compiler {
       return Kids(a, 1, n);  // the unit is compiled into the node
     }
     return Kids(a, got, n);
+  }
+
+  // Lowers every argument of `a` into Program::args for an op that
+  // evaluates its arguments only as needed (branch; coalesce does the same
+  // inline).
+  Status LazyArgs(const AstNode& a, ExprOp op, ExprNode* n) {
+    const int got = static_cast<int>(a.kids.size());
+    n->op = op;
+    n->nargs = static_cast<uint8_t>(got);
+    // Arguments first, then their indices: Lower appends to args as well.
+    std::vector<int32_t> kids(got);
+    for (int k = 0; k < got; ++k) FF_RETURN_IF_ERROR(Lower(a.kids[k], &kids[k]));
+    n->first_arg = static_cast<int32_t>(p_->args.size());
+    p_->args.insert(p_->args.end(), kids.begin(), kids.end());
+    return Status::Ok();
   }
 
   // " (did you mean hour?)" from the derived fields defined so far.

@@ -6,6 +6,7 @@
 #include <cstring>
 
 #include "common/base/number_text.h"
+#include "common/expr/conditional_functions.h"
 #include "common/expr/number_arithmetic.h"
 
 namespace fanfold {
@@ -32,6 +33,8 @@ constexpr ExprFunctionInfo kFunctions[] = {
     {"period_start", F::kPeriodStart, 2, 2, "period_start(t, unit)"},
     {"clock_hour", F::kClockHour, 1, 1, "clock_hour(t)"},
     {"weekday", F::kWeekday, 1, 1, "weekday(t)"},
+    {"branch", F::kBranch, 3, kMaxBranchArgs, "branch(test, value, ..., otherwise)"},
+    {"one_if", F::kOneIf, 1, 1, "one_if(test)"},
 };
 
 // A view that stays valid until the arena's next Reset(): the text of a
@@ -199,6 +202,8 @@ Value ApplyExprFunction(ExprFunction function, const Value* args, int nargs, Tim
       const int r = function == F::kClockHour ? ClockHour(t) : IsoWeekday(t);
       return r < 0 ? Value::Missing() : Value::Int(r);
     }
+    case F::kOneIf: return OneIf(args[0]);
+    case F::kBranch: break;  // lazy: Expr::Program evaluates it
   }
   return Value::Missing();
 }

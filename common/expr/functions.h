@@ -20,6 +20,7 @@ enum class ExprFunction : uint8_t {
   kLower, kUpper, kStartsWith, kEndsWith, kContains, kLen, kSubstr,
   kHas, kLacks, kCoalesce, kBucketStart, kNum, kText,
   kTime, kTimeMs, kPeriodStart, kClockHour, kWeekday,
+  kBranch, kOneIf,  // conditional_functions.h
 };
 
 struct ExprFunctionInfo {
@@ -30,7 +31,7 @@ struct ExprFunctionInfo {
   std::string_view signature;  // as shown in error messages, e.g. "substr(s, start[, count])"
 };
 
-// Most arguments any function takes (coalesce).
+// Most arguments coalesce takes (branch takes more: kMaxBranchArgs).
 inline constexpr int kMaxFunctionArgs = 16;
 
 // Returns the catalogue entry called `name`, or nullptr iff there is none.
@@ -43,8 +44,8 @@ std::vector<std::string> ExprFunctionNames();
 std::string ExprFunctionSignatures();
 
 // Evaluates `function` on args[0..nargs). `unit` is the compile-time unit of
-// period_start (its second argument is not consulted). Not for kCoalesce,
-// whose arguments the evaluator evaluates lazily.
+// period_start (its second argument is not consulted). Not for kCoalesce
+// and kBranch, whose arguments the evaluator evaluates lazily.
 // REQUIRES: nargs is within the function's arity.
 Value ApplyExprFunction(ExprFunction function, const Value* args, int nargs, TimeUnit unit,
                         ScratchArena* arena);

@@ -1,5 +1,6 @@
 #include "common/expr/program.h"
 
+#include "common/expr/conditional_functions.h"
 #include "common/expr/number_arithmetic.h"
 
 namespace fanfold {
@@ -63,6 +64,8 @@ Value Expr::Program::EvalAt(int32_t index, const Value* slots, ScratchArena* are
         if (v.is_present()) return v;
       }
       return Value::Missing();
+    case ExprOp::kBranch:
+      return EvalBranch(n.nargs, [&](int k) { return EvalAt(args[n.first_arg + k], slots, arena); });
   }
   return Value::Missing();
 }

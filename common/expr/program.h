@@ -29,6 +29,7 @@ enum class ExprOp : uint8_t {
   kNeg,           // kid 0
   kCall,          // function on kids 0..nargs
   kCoalesce,      // first present of Program::args[first_arg .. first_arg + nargs)
+  kBranch,        // branch() over the same args: tests and values, then otherwise
 };
 
 struct ExprNode {
@@ -39,7 +40,7 @@ struct ExprNode {
   bool negated = false;            // kIn
   uint8_t nargs = 0;
   int32_t kids[3] = {-1, -1, -1};  // node indices, all smaller than this node's
-  int32_t first_arg = 0;           // kCoalesce
+  int32_t first_arg = 0;           // kCoalesce, kBranch
   int32_t slot = -1;               // kSlot: the FieldTable slot; kIn: index into sets
   CompareConstant constant;        // kConst: constant.value; kCompareConst: the right side
 };
@@ -47,7 +48,7 @@ struct ExprNode {
 struct Expr::Program {
   std::string text;
   std::vector<ExprNode> nodes;  // the root is the last node
-  std::vector<int32_t> args;    // node indices of kCoalesce arguments
+  std::vector<int32_t> args;    // node indices of kCoalesce and kBranch arguments
   std::vector<LiteralSet> sets;
   std::deque<std::string> strings;  // texts that constants point to; never moves them
 

@@ -148,7 +148,7 @@ Status ParseInputs(Checker& c, const json& in, JobSpec* job) {
 // The keys a measure object may hold: name, fn, the argument keys and every
 // option of kMeasureOptions (which of them a given fn takes is its row's).
 std::set<std::string> MeasureKeys() {
-  std::set<std::string> keys = {"name", "fn", "of", "by", "shown_digits"};
+  std::set<std::string> keys = {"name", "fn", "of", "by", "only", "shown_digits"};
   for (const MeasureOption& o : kMeasureOptions) keys.insert(o.key);
   return keys;
 }
@@ -213,6 +213,9 @@ Status ParseMeasure(Checker& c, const json& m, const std::string& p, MeasureSpec
   if (args >= 2) {
     if (!m.contains("by")) return c.Error(p, "no \"by\"", "\"by\": the ordering expression for \"" + out->fn + "\"");
     FF_RETURN_IF_ERROR(c.String(m["by"], p + "/by", &out->by));
+  }
+  if (m.contains("only")) {
+    FF_RETURN_IF_ERROR(c.String(m["only"], p + "/only", &out->only));
   }
   // Only options the row takes are left (allow() refused the others).
   for (const MeasureOption& o : kMeasureOptions) {

@@ -31,6 +31,9 @@ struct MeasureSpec {
   MeasureConfig config;
   std::string of;      // argument expression ("" for count)
   std::string by;      // ordering expression (at_lowest/at_highest only)
+  // The measure's own filter: it reads only records (kept by "keep") for
+  // which this expression is true; "" = every record. In the fingerprint.
+  std::string only;
   // > 0: CSV/table floats of this measure's columns shown with this many
   // significant digits (over emit.digits; --digits overrides). Display only:
   // not in the plan's fingerprint, so resume reuses partials either way.

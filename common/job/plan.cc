@@ -118,6 +118,11 @@ Result<std::unique_ptr<Plan>> CompilePlan(JobSpec spec, RecordFormat format) {
       if (!e.ok()) return e.status();
       cm.args.push_back(std::move(e.value()));
     }
+    if (!ms.only.empty()) {
+      Result<Expr> e = CompileAt(*plan, fields, ms.only, p + "/only");
+      if (!e.ok()) return e.status();
+      cm.only.emplace(std::move(e.value()));
+    }
     cm.columns = MeasureRowOf(ms.config.kind).columns(ms.name, ms.config);
     for (const auto& col : cm.columns) {
       if (!names.insert(col).second)
@@ -153,9 +158,12 @@ Result<std::unique_ptr<Plan>> CompilePlan(JobSpec spec, RecordFormat format) {
     for (int s : plan->keep->SlotsRead()) for_keep[s] = true;
   for (const Expr& g : plan->group)
     for (int s : g.SlotsRead()) for_rest[s] = true;
-  for (const CompiledMeasure& m : plan->measures)
+  for (const CompiledMeasure& m : plan->measures) {
     for (const Expr& a : m.args)
       for (int s : a.SlotsRead()) for_rest[s] = true;
+    if (m.only)
+      for (int s : m.only->SlotsRead()) for_rest[s] = true;
+  }
   for_keep = closure(for_keep);
   for_rest = closure(for_rest);
   for (size_t i = 0; i < plan->derive.size(); ++i) {
@@ -188,8 +196,12 @@ std::string PlanCanonicalText(const Plan& plan) {
   out += "keep=" + s.keep + "\n";
   for (const auto& d : s.derive) out += "derive " + d.name + "=" + d.expr + "\n";
   for (const auto& g : s.group) out += "group " + g + "\n";
-  for (const auto& m : s.measures)
-    out += "measure " + m.name + " fn=" + MeasureRowOf(m.config.kind).fn + " of=" + m.of + " by=" + m.by + MeasureOptionsText(m.config) + "\n";
+  for (const auto& m : s.measures) {
+    out += "measure " + m.name + " fn=" + MeasureRowOf(m.config.kind).fn + " of=" + m.of + " by=" + m.by + MeasureOptionsText(m.config);
+    // Only when set, so that plans without it keep their earlier text.
+    if (!m.only.empty()) out += " only=" + m.only;
+    out += "\n";
+  }
   return out;
 }
 

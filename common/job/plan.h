@@ -30,6 +30,7 @@ struct CompiledMeasure {
   std::string name;
   MeasureConfig config;
   std::vector<Expr> args;            // MeasureArgCount(config.kind) expressions
+  std::optional<Expr> only;          // the measure's own filter (MeasureSpec::only)
   std::vector<std::string> columns;  // output column names
 };
 

@@ -95,6 +95,7 @@ class Aggregator final : public RecordSink {
     Value args[2];
     for (size_t m = 0; m < plan_.measures.size(); ++m) {
       const CompiledMeasure& cm = plan_.measures[m];
+      if (cm.only && !cm.only->Eval(slots, &arena_).Truthy()) continue;  // not this measure's input
       for (size_t a = 0; a < cm.args.size(); ++a) {
         const int d = arg_direct_[m][a];
         args[a] = d >= 0 ? slots[d] : cm.args[a].Eval(slots, &arena_);

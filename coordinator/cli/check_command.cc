@@ -45,6 +45,7 @@ CommandOutcome CheckJob(const CheckOptions& o) {
   for (const auto& m : s.measures) {
     text += "  measure: " + m.name + " = " + m.fn;
     if (!m.of.empty()) text += "(" + m.of + (m.by.empty() ? "" : " by " + m.by) + ")";
+    if (!m.only.empty()) text += ", only where " + m.only;
     text += "\n";
   }
   text += "  columns: ";

@@ -56,9 +56,11 @@ std::string WhereFieldIsRead(const Plan& plan, const std::string& name) {
   if (plan.keep && reads(*plan.keep)) return "/keep";
   for (size_t i = 0; i < plan.group.size(); ++i)
     if (reads(plan.group[i])) return ChildPointer("/group", i);
-  for (size_t i = 0; i < plan.measures.size(); ++i)
+  for (size_t i = 0; i < plan.measures.size(); ++i) {
     for (size_t a = 0; a < plan.measures[i].args.size(); ++a)
       if (reads(plan.measures[i].args[a])) return ChildPointer("/measures", i) + (a == 0 ? "/of" : "/by");
+    if (plan.measures[i].only && reads(*plan.measures[i].only)) return ChildPointer("/measures", i) + "/only";
+  }
   return "";
 }
 

@@ -235,7 +235,8 @@ TEST_CASE("compile errors: golden messages") {
   const std::string all =
       "lower(s), upper(s), starts_with(s, prefix), ends_with(s, suffix), contains(s, part), "
       "len(s), substr(s, start[, count]), has(x), lacks(x), coalesce(a, b, ...), bucket_start(x, width), "
-      "num(x), text(x), time(x), time_ms(x), period_start(t, unit), clock_hour(t), weekday(t)";
+      "num(x), text(x), time(x), time_ms(x), period_start(t, unit), clock_hour(t), weekday(t), "
+      "branch(test, value, ..., otherwise), one_if(test)";
   const Case cases[] = {
       {"lower({/a}, {/b})", "!! column 1: lower() with 2 arguments; expected lower(s)"},
       {"1 + substr({/a})", "!! column 5: substr() with 1 argument; expected substr(s, start[, count])"},
@@ -322,7 +323,8 @@ TEST_CASE("evaluation does not allocate") {
       " or contains(upper({/district}), 'NORTH') or period_start({/ts}, 'week') == '2026-W10'"
       " or text({/power_w}) == '3' or substr({/power_w}, 1) == 'x'"
       " or coalesce({/absent}, {/note}, {/lamp}) == 'x' or weekday(time({/ts})) == 9"
-      " or bucket_start(time_ms({/epoch_ms}), 3600) < 0",
+      " or bucket_start(time_ms({/epoch_ms}), 3600) < 0"
+      " or branch({/power_w} > 1, lower({/event}), upper({/lamp})) == 'x' or one_if({/note}) > 1",
       &fields);
   REQUIRE(e.ok());
   std::vector<Value> slots(fields.size());
@@ -362,6 +364,7 @@ TEST_CASE("random expressions compile or fail cleanly") {
       "{/a}", "{/b}", "{c}", "zone", "1", "-2.5", ".5", "1e3", "'x'", "\"NW\"", "''", "true",
       "false", "null", "and", "or", "not", "in", "==", "!=", "<", "<=", ">", ">=", "+", "-", "*",
       "/", "%", "(", ")", "[", "]", ",", "lower(", "substr(", "coalesce(", "period_start(", "'day'",
+      "branch(", "one_if(",
       "time(", "has(", "bucket_start(", "text(", "weekday(", "{", "}", "'", "\\", "@", " ", "nope(",
   };
   const int kPieces = sizeof pieces / sizeof pieces[0];

@@ -171,3 +171,24 @@ TEST_CASE("shown_digits is for display only: the fingerprint ignores it") {
   CHECK(plain->fingerprint == three->fingerprint);
   CHECK(PlanCanonicalText(*plain) == PlanCanonicalText(*three));
 }
+
+// Intent: a measure's "only" filter changes what the measure computes, so it
+// is part of the fingerprint (resume never reuses a partial computed with
+// another filter); without it the text is the one earlier versions wrote.
+TEST_CASE("a measure's only filter is part of the plan fingerprint") {
+  auto plan_of = [](const char* measure) {
+    Result<JobSpec> spec =
+        ParseJobSpec(std::string(R"({"inputs": {"files": ["a"]}, "measures": [)") + measure + "]}", "job.json");
+    REQUIRE(spec.ok());
+    return CompileSpec(spec.value());
+  };
+  const auto plain = plan_of(R"({"name": "m", "fn": "sum", "of": "{/x}"})");
+  const auto faults = plan_of(R"({"name": "m", "fn": "sum", "of": "{/x}", "only": "{/e} == 'fault'"})");
+  const auto reboots = plan_of(R"({"name": "m", "fn": "sum", "of": "{/x}", "only": "{/e} == 'reboot'"})");
+  CHECK(plain->fingerprint != faults->fingerprint);
+  CHECK(faults->fingerprint != reboots->fingerprint);
+  const std::string text = PlanCanonicalText(*faults);
+  CHECK(text.substr(text.find("measure m")) ==
+        "measure m fn=sum of={/x} by= alpha=0.01 precision=12 k=10 limit=1000000 at= only={/e} == 'fault'\n");
+  CHECK(PlanCanonicalText(*plain).find("only=") == std::string::npos);
+}
