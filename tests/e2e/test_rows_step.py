@@ -175,6 +175,24 @@ def main():
         c.check(rc == 0, "ndjson run: exit %d: %s" % (rc, lib.tail(err)))
         compare(c, "ndjson", [json.loads(line) for line in out.splitlines()], want)
 
+        # shown_digits of an added column, and --digits over it (Python's format(x, '.Ng')).
+        job["rows"] = dict(ROWS_A, add=[dict(a, shown_digits=3) if a["name"] == "share" else a
+                                        for a in ROWS_A["add"]])
+        job["emit"]["format"] = "csv"
+        lib.write_job(job_path, job)
+        for flags, digits in (([], 3), (["--digits", 2], 2)):
+            rc, out, err = env.fanfold_run("run", job_path, "-q", "-o", "-", *flags)
+            got = list(csv.DictReader(out.splitlines()))
+            c.check(rc == 0 and len(got) == len(want), "shown_digits run %r: exit %d: %s" % (flags, rc, lib.tail(err)))
+            for g, w in zip(got, want):
+                c.check(g["share"] == format(w["share"], ".%dg" % digits),
+                        "%r: share of %s shows %r, Python's format gives %r"
+                        % (flags, w["g"], g["share"], format(w["share"], ".%dg" % digits)))
+        rc, out, err = env.fanfold_run("check", job_path)
+        c.check(rc == 0 and "  add:     share = faults / n\n" in out and
+                "  rows:    keep rest > 150 and n >= 180\n" in out and "w_per_share\n" in out,
+                "check does not show the rows step: exit %d: %s" % (rc, out + err))
+
         # Only the rows step changes: resume reuses every partial and applies it.
         run_dir = env.path("runs", "j2")
         job["rows"] = ROWS_B
