@@ -305,7 +305,7 @@ void RunEngine::PrintNotes() const {
   for (size_t i = 0; i < plan_.rows.add.size(); ++i) {
     if (rows_.no_value[i] > 0)
       Note("column \"" + plan_.rows.add[i].name + "\" has no value in " + GroupedInteger(rows_.no_value[i]) +
-           " rows (a column it reads had none, or a division by zero)");
+           (rows_.no_value[i] == 1 ? " row" : " rows") + " (a column it reads had none, or a division by zero)");
   }
   if (plan_.rows.keep)
     Note("rows.keep kept " + GroupedInteger(rows_.rows_in - rows_.rows_dropped) + " of " +

@@ -161,7 +161,8 @@ def main():
                                               "w_per_share": zero + 1}},
                         "summary.json rows %r; sqlite3: %d groups, %d kept, %d without faults"
                         % (rows, len(all_groups), len(kept), zero))
-                c.check('column "per_fault" has no value in %d rows' % zero in err,
+                c.check('column "per_fault" has no value in %d %s (' % (zero, "row" if zero == 1 else "rows") in err
+                        and 'column "w_per_share" has no value in %d rows (' % (zero + 1) in err,
                         "stderr does not count per_fault's missing values: %s" % lib.tail(err))
                 c.check("rows.keep kept %d of %d result rows" % (len(kept), len(all_groups)) in err,
                         "stderr does not say what rows.keep kept: %s" % lib.tail(err))
