@@ -13,9 +13,13 @@ namespace fanfold {
 Result<Expr> Expr::Compile(std::string_view text, FieldTable* fields) {
   Result<AstNode> ast = ParseExpr(text);
   if (!ast.ok()) return ast.status();
+  return CompileTree(ast.value(), text, fields);
+}
+
+Result<Expr> Expr::CompileTree(const AstNode& root, std::string_view text, FieldTable* fields) {
   auto program = std::make_unique<Program>();
   program->text = std::string(text);
-  FF_RETURN_IF_ERROR(CompileExprAst(ast.value(), fields, program.get()));
+  FF_RETURN_IF_ERROR(CompileExprAst(root, fields, program.get()));
   return Expr(std::move(program));
 }
 

@@ -11,6 +11,7 @@
 #include <string_view>
 #include <vector>
 
+#include "common/expr/ast.h"
 #include "common/input/field_table.h"
 #include "common/base/scratch_arena.h"
 #include "common/base/status.h"
@@ -26,6 +27,10 @@ class Expr {
   // "column N: " (1-based, counting bytes of `text`) and says what was
   // found and what was expected.
   static Result<Expr> Compile(std::string_view text, FieldTable* fields);
+
+  // As Compile, from a tree ParseExpr made of `text` (callers that check or
+  // rewrite names first, such as the result-row step of common/job).
+  static Result<Expr> CompileTree(const AstNode& root, std::string_view text, FieldTable* fields);
 
   // REQUIRES: slots has one Value per slot of the FieldTable used to compile.
   // The result may point into slots' strings or into *arena.

@@ -240,6 +240,45 @@ Status ParseMeasure(Checker& c, const json& m, const std::string& p, MeasureSpec
   return Status::Ok();
 }
 
+// {"name": ..., "expr": ...} at p (a derived field or an added column);
+// with digits non-null, also an optional "shown_digits".
+Status ParseNamedExpr(Checker& c, const json& v, const std::string& p, const char* name_text, int* digits,
+                      std::string* name, std::string* expr) {
+  if (!v.is_object()) return c.Error(p, Found(v), "an object {\"name\": ..., \"expr\": ...}");
+  if (digits == nullptr) FF_RETURN_IF_ERROR(c.OnlyKeys(v, p, {"name", "expr"}));
+  else FF_RETURN_IF_ERROR(c.OnlyKeys(v, p, {"name", "expr", "shown_digits"}));
+  if (!v.contains("name")) return c.Error(p, "no \"name\"", std::string("\"name\": ") + name_text);
+  FF_RETURN_IF_ERROR(c.String(v["name"], p + "/name", name));
+  if (!v.contains("expr")) return c.Error(p, "no \"expr\"", "\"expr\": an expression");
+  FF_RETURN_IF_ERROR(c.String(v["expr"], p + "/expr", expr));
+  if (digits != nullptr && v.contains("shown_digits")) {
+    uint64_t n = 0;
+    FF_RETURN_IF_ERROR(c.Integer(v["shown_digits"], p + "/shown_digits", 1, 17, &n));
+    *digits = static_cast<int>(n);
+  }
+  return Status::Ok();
+}
+
+// "rows": {"add": [{"name", "expr", "shown_digits"}...], "keep": expr}.
+Status ParseRows(Checker& c, const json& r, RowsSpec* rows) {
+  const std::string p = "/rows";
+  if (!r.is_object()) return c.Error(p, Found(r), "an object with \"add\" and/or \"keep\"");
+  FF_RETURN_IF_ERROR(c.OnlyKeys(r, p, {"add", "keep"}));
+  rows->given = true;
+  if (r.contains("add")) {
+    const json& a = r["add"];
+    if (!a.is_array()) return c.Error(p + "/add", Found(a), "an array of {\"name\": ..., \"expr\": ...}");
+    for (size_t i = 0; i < a.size(); ++i) {
+      AddedColumnSpec col;
+      FF_RETURN_IF_ERROR(ParseNamedExpr(c, a[i], ChildPointer(p + "/add", i), "the new column's name",
+                                        &col.shown_digits, &col.name, &col.expr));
+      rows->add.push_back(std::move(col));
+    }
+  }
+  if (r.contains("keep")) FF_RETURN_IF_ERROR(c.String(r["keep"], p + "/keep", &rows->keep));
+  return Status::Ok();
+}
+
 Status ParseEmit(Checker& c, const json& e, JobSpec* job) {
   const std::string p = "/emit";
   if (!e.is_object()) return c.Error(p, Found(e), "an object");
@@ -306,7 +345,7 @@ Result<JobSpec> ParseJobSpec(std::string_view text, const std::string& job_path)
   std::filesystem::path base = std::filesystem::path(job_path).parent_path();
   job.base_dir = base.empty() ? "." : base.string();
   if (!doc.is_object()) return c.Error("", Found(doc), "a JSON object with \"inputs\" and \"measures\"");
-  FF_RETURN_IF_ERROR(c.OnlyKeys(doc, "", {"about", "inputs", "keep", "derive", "group", "measures", "emit"}));
+  FF_RETURN_IF_ERROR(c.OnlyKeys(doc, "", {"about", "inputs", "keep", "derive", "group", "measures", "rows", "emit"}));
   if (doc.contains("about")) FF_RETURN_IF_ERROR(c.String(doc["about"], "/about", &job.about, false));
   if (!doc.contains("inputs")) return c.Error("", "no \"inputs\"", "\"inputs\": {\"files\": [...]}");
   FF_RETURN_IF_ERROR(ParseInputs(c, doc["inputs"], &job));
@@ -315,14 +354,9 @@ Result<JobSpec> ParseJobSpec(std::string_view text, const std::string& job_path)
     const json& d = doc["derive"];
     if (!d.is_array()) return c.Error("/derive", Found(d), "an array of {\"name\": ..., \"expr\": ...}");
     for (size_t i = 0; i < d.size(); ++i) {
-      const std::string p = ChildPointer("/derive", i);
-      if (!d[i].is_object()) return c.Error(p, Found(d[i]), "an object {\"name\": ..., \"expr\": ...}");
-      FF_RETURN_IF_ERROR(c.OnlyKeys(d[i], p, {"name", "expr"}));
       DeriveSpec spec;
-      if (!d[i].contains("name")) return c.Error(p, "no \"name\"", "\"name\": an identifier");
-      FF_RETURN_IF_ERROR(c.String(d[i]["name"], p + "/name", &spec.name));
-      if (!d[i].contains("expr")) return c.Error(p, "no \"expr\"", "\"expr\": an expression");
-      FF_RETURN_IF_ERROR(c.String(d[i]["expr"], p + "/expr", &spec.expr));
+      FF_RETURN_IF_ERROR(ParseNamedExpr(c, d[i], ChildPointer("/derive", i), "an identifier", nullptr,
+                                        &spec.name, &spec.expr));
       job.derive.push_back(spec);
     }
   }
@@ -343,6 +377,7 @@ Result<JobSpec> ParseJobSpec(std::string_view text, const std::string& job_path)
     FF_RETURN_IF_ERROR(ParseMeasure(c, ms[i], ChildPointer("/measures", i), &spec));
     job.measures.push_back(std::move(spec));
   }
+  if (doc.contains("rows")) FF_RETURN_IF_ERROR(ParseRows(c, doc["rows"], &job.rows));
   if (doc.contains("emit")) FF_RETURN_IF_ERROR(ParseEmit(c, doc["emit"], &job));
   return job;
 }

@@ -45,6 +45,22 @@ struct OrderSpec {
   bool descending = false;
 };
 
+// A column computed from the finished columns of a result row ("rows.add").
+struct AddedColumnSpec {
+  std::string name;
+  std::string expr;
+  int shown_digits = 0;  // as MeasureSpec::shown_digits: display only
+};
+
+// What happens to result rows after the merge, before ordering and limit
+// ("rows" in the job file). Not in the plan fingerprint: partials never
+// depend on it, so resume reuses every one when only this changes.
+struct RowsSpec {
+  std::vector<AddedColumnSpec> add;  // in order; each may read the earlier ones
+  std::string keep;                  // "" = keep every row
+  bool given = false;                // the job file has a "rows" object
+};
+
 struct EmitSpec {
   OutputFormat format = OutputFormat::kTable;
   bool format_given = false;  // the job file sets "format" (a -o extension may not contradict it)
@@ -67,6 +83,7 @@ struct JobSpec {
   std::vector<DeriveSpec> derive;
   std::vector<std::string> group;
   std::vector<MeasureSpec> measures;
+  RowsSpec rows;
   EmitSpec emit;
 };
 

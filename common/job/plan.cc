@@ -135,11 +135,19 @@ Result<std::unique_ptr<Plan>> CompilePlan(JobSpec spec, RecordFormat format) {
   plan->columns = plan->group_columns;
   for (const auto& m : plan->measures)
     plan->columns.insert(plan->columns.end(), m.columns.begin(), m.columns.end());
+  Result<RowsPlan> rows = CompileRowsPlan(s, plan->columns);
+  if (!rows.ok()) return rows.status();
+  plan->rows = std::move(rows.value());
+  std::vector<std::string> shown = plan->columns;  // what emit.order may name
+  for (const AddedColumn& a : plan->rows.add) {
+    names.insert(a.name);
+    shown.push_back(a.name);
+  }
   for (size_t i = 0; i < s.emit.order.size(); ++i) {
     if (!names.count(s.emit.order[i].by)) {
       std::string list;
-      for (const auto& c : plan->columns) list += (list.empty() ? "" : ", ") + c;
-      const std::string near = DidYouMean(s.emit.order[i].by, plan->columns,
+      for (const auto& c : shown) list += (list.empty() ? "" : ", ") + c;
+      const std::string near = DidYouMean(s.emit.order[i].by, shown,
                                           [](std::string_view c) { return std::string("\"").append(c).append("\""); });
       return Status::InvalidArgument(s.job_path + ": " + ChildPointer("/emit/order", i) + "/by: found \"" +
                                      s.emit.order[i].by + "\"" + near + "; expected an output column: " + list);

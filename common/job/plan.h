@@ -16,6 +16,7 @@
 #include "common/expr/expr.h"
 #include "common/input/field_table.h"
 #include "common/job/job_spec.h"
+#include "common/job/rows_plan.h"
 #include "common/input/record_reader.h"
 #include "common/base/status.h"
 
@@ -48,7 +49,8 @@ struct Plan {
   std::vector<Expr> group;                 // one expression per key
   std::vector<std::string> group_columns;  // their output names
   std::vector<CompiledMeasure> measures;
-  std::vector<std::string> columns;        // every output column, in order
+  std::vector<std::string> columns;        // every column the merge gives, in order
+  RowsPlan rows;  // the "rows" step after the merge: added columns, row filter (not fingerprinted)
   uint64_t fingerprint = 0;
 };
 

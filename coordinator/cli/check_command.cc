@@ -48,8 +48,11 @@ CommandOutcome CheckJob(const CheckOptions& o) {
     if (!m.only.empty()) text += ", only where " + m.only;
     text += "\n";
   }
+  for (const auto& a : s.rows.add) text += "  add:     " + a.name + " = " + a.expr + "\n";
+  if (!s.rows.keep.empty()) text += "  rows:    keep " + s.rows.keep + "\n";
   text += "  columns: ";
   for (size_t i = 0; i < plan.columns.size(); ++i) text += (i ? ", " : "") + plan.columns[i];
+  for (const auto& a : s.rows.add) text += ", " + a.name;
   text += "\n  output:  " + std::string(OutputFormatName(s.emit.format)) + " to " +
           (s.emit.path.empty() ? std::string("stdout") : s.emit.path);
   if (s.emit.limit) text += ", at most " + std::to_string(*s.emit.limit) + " rows";

@@ -40,6 +40,29 @@ std::string PartialProblem(const std::string& bytes, const Shard& s, const Plan&
   return "";
 }
 
+// Whether the edited job file at m.job_path computes what the run's copy
+// does — the same plan fingerprint and the same inputs — so that only what
+// runs after the merge (rows, emit, shown_digits, about) differs. *why says
+// why it cannot be used when it does not load at all.
+bool OnlyAfterMergeChanged(const RunManifest& m, const std::string& copy_text, std::string* why) {
+  Result<std::unique_ptr<Plan>> edited = LoadWorkerPlan(m.job_path, m.format, m.fingerprint);
+  Result<JobSpec> before = ParseJobSpec(copy_text, m.job_path);
+  if (!before.ok()) return false;
+  if (!edited.ok()) {
+    Result<JobSpec> spec = LoadJobSpec(m.job_path);
+    RecordFormat f = RecordFormat::kNdjson;
+    (void)FormatFromText(m.format, &f);
+    if (!spec.ok()) *why = spec.status().message();
+    else if (Result<std::unique_ptr<Plan>> plan = CompilePlan(std::move(spec.value()), f); !plan.ok())
+      *why = plan.status().message();
+    return false;
+  }
+  const JobSpec& a = (*edited)->spec;
+  const JobSpec& b = before.value();
+  return a.files == b.files && a.format == b.format && a.bad_record_limit == b.bad_record_limit &&
+         a.chunk_bytes == b.chunk_bytes;
+}
+
 }  // namespace
 
 std::string DefaultRunDir(const std::string& job_path) {
@@ -137,13 +160,26 @@ CommandOutcome ResumeRun(const RunOptions& given) {
   const std::string copy = (fs::path((*dir)->path()) / kJobCopyFile).string();
   std::string copy_text, original_text;
   const bool have_copy = ReadWholeFile(copy, &copy_text).ok();
-  if (have_copy && !o.quiet) {
-    if (!ReadWholeFile(manifest.job_path, &original_text).ok())
+  const bool have_original = have_copy && ReadWholeFile(manifest.job_path, &original_text).ok();
+  std::string why;
+  // An edit after the merge only (a new rows step, other output options)
+  // applies to the saved partials as they are: the edited file becomes the copy.
+  if (have_original && original_text != copy_text && OnlyAfterMergeChanged(manifest, copy_text, &why)) {
+    out.status = (*dir)->WriteFile(kJobCopyFile, original_text);
+    if (!out.status.ok()) return out;
+    if (!o.quiet)
+      std::cerr << "fanfold: the job file '" << manifest.job_path
+                << "' changed only in what runs after the merge (rows, emit, shown_digits); resuming with it "
+                   "and every saved partial (the run's copy '"
+                << copy << "' updated)\n";
+  } else if (have_copy && !o.quiet) {
+    if (!have_original)
       std::cerr << "fanfold: the job file '" << manifest.job_path << "' is gone; resuming with the run's copy '"
                 << copy << "'\n";
     else if (original_text != copy_text)
       std::cerr << "fanfold: the job file '" << manifest.job_path
-                << "' changed since the run started; resuming with the run's copy '" << copy << "'\n";
+                << "' changed since the run started; resuming with the run's copy '" << copy << "'"
+                << (why.empty() ? "" : " (the edited file does not load: " + why + ")") << "\n";
   }
   Result<std::unique_ptr<Plan>> plan =
       LoadWorkerPlan(have_copy ? copy : manifest.job_path, manifest.format, manifest.fingerprint);

@@ -16,6 +16,7 @@
 #include "common/port/process_control.h"
 #include "common/job/job_loader.h"
 #include "coordinator/output/output_table.h"
+#include "coordinator/output/rows_step.h"
 #include "common/port/shm_segment.h"
 #include "common/port/signal_guard.h"
 #include "coordinator/run/console_log.h"
@@ -251,6 +252,7 @@ Status RunEngine::Stop() {
 Result<OutputTable> RunEngine::Finish() {
   Result<OutputTable> table = merger_.Finish();
   if (!table.ok()) return table;
+  rows_ = ApplyRowsStep(plan_.rows, &*table);
   SortRows(&*table, plan_.spec.emit.order);
   if (plan_.spec.emit.limit && table->rows.size() > *plan_.spec.emit.limit) table->rows.resize(*plan_.spec.emit.limit);
   return table;
@@ -269,6 +271,7 @@ Status RunEngine::Render(const OutputTable& table) {
     for (size_t m = 0; m < plan_.measures.size(); ++m)
       shown.column_digits.insert(shown.column_digits.end(), plan_.measures[m].columns.size(),
                                  plan_.spec.measures[m].shown_digits);
+    for (const AddedColumn& a : plan_.rows.add) shown.column_digits.push_back(a.shown_digits);
   }
   if (w.ok()) w = WriteOutput(output_path_, shown.rounds() ? RenderTable(table, plan_.spec.emit.format, shown) : text);
   return w;
@@ -277,9 +280,15 @@ Status RunEngine::Render(const OutputTable& table) {
 Status RunEngine::Summarise(const Status& written) {
   Status w = written;
   summary_.wall_seconds = ElapsedSeconds();
-  if (w.ok())
-    w = dir_.WriteFile("summary.json",
-                       SummaryJson(in_, summary_, merger_, output_path_, workers_, loop_.retries).dump(1) + "\n");
+  if (w.ok()) {
+    json j = SummaryJson(in_, summary_, merger_, output_path_, workers_, loop_.retries);
+    if (plan_.spec.rows.given) {
+      json no_value = json::object();
+      for (size_t i = 0; i < plan_.rows.add.size(); ++i) no_value[plan_.rows.add[i].name] = rows_.no_value[i];
+      j["rows"] = {{"merged", rows_.rows_in}, {"dropped", rows_.rows_dropped}, {"no_value", no_value}};
+    }
+    w = dir_.WriteFile("summary.json", j.dump(1) + "\n");
+  }
   dir_.StageJournal(FinishEventLine(WallNanos(), loop_.failures.size()));
   if (w.ok()) w = dir_.Commit();
   return w;
@@ -293,6 +302,14 @@ void RunEngine::PrintNotes() const {
       Note("measure \"" + plan_.measures[m].name + "\" skipped " + GroupedInteger(merger_.skipped()[m]) +
            " values that were missing, null or not usable");
   }
+  for (size_t i = 0; i < plan_.rows.add.size(); ++i) {
+    if (rows_.no_value[i] > 0)
+      Note("column \"" + plan_.rows.add[i].name + "\" has no value in " + GroupedInteger(rows_.no_value[i]) +
+           (rows_.no_value[i] == 1 ? " row" : " rows") + " (a column it reads had none, or a division by zero)");
+  }
+  if (plan_.rows.keep)
+    Note("rows.keep kept " + GroupedInteger(rows_.rows_in - rows_.rows_dropped) + " of " +
+         GroupedInteger(rows_.rows_in) + " result rows");
   for (size_t m = 0; m < plan_.measures.size(); ++m) {
     if (merger_.degraded()[m] > 0)
       Note("warning: measure \"" + plan_.measures[m].name + "\" saw more distinct values than its limit of " +

@@ -17,6 +17,7 @@
 #include "common/port/signal_guard.h"
 #include "coordinator/run/run_options.h"
 #include "coordinator/output/output_table.h"
+#include "coordinator/output/rows_step.h"
 #include "coordinator/run/merger.h"
 #include "coordinator/run/run_loop.h"
 #include "coordinator/run/run_summary.h"
@@ -72,7 +73,8 @@ class RunEngine {
   // After an interruption: journals it, commits, prints the summary lines and
   // how to resume. Returns the Interrupted status for the exit code.
   Status Stop();
-  // The merged table, sorted and cut to the job's emit.order and emit.limit.
+  // The merged table with the job's rows step applied (added columns, row
+  // filter), sorted and cut to the job's emit.order and emit.limit.
   Result<OutputTable> Finish();
   // Renders table in the job's format and writes it as result.<ext> in the
   // run directory, then to the output (a file, or stdout).
@@ -101,6 +103,7 @@ class RunEngine {
   int workers_ = 1;          // worker processes (Prepare)
   RunLoopResult loop_;       // failures, retries, interruption (Run, Tally)
   RunSummary summary_;       // what the summary lines and summary.json say (Tally)
+  RowsStepCounts rows_;      // what the rows step did (Finish)
   std::string output_path_;  // where Render wrote the result; "" = stdout
 };
 
