@@ -235,7 +235,8 @@ TEST_CASE("compile errors: golden messages") {
   const std::string all =
       "lower(s), upper(s), starts_with(s, prefix), ends_with(s, suffix), contains(s, part), "
       "len(s), substr(s, start[, count]), has(x), lacks(x), coalesce(a, b, ...), bucket_start(x, width), "
-      "num(x), text(x), time(x), time_ms(x), period_start(t, unit), clock_hour(t), weekday(t)";
+      "num(x), text(x), time(x), time_ms(x), period_start(t, unit[, zone]), clock_hour(t[, zone]), "
+      "weekday(t[, zone]), span_start(t, length[, zone])";
   const Case cases[] = {
       {"lower({/a}, {/b})", "!! column 1: lower() with 2 arguments; expected lower(s)"},
       {"1 + substr({/a})", "!! column 5: substr() with 1 argument; expected substr(s, start[, count])"},
