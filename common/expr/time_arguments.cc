@@ -38,6 +38,9 @@ Status ReadZone(const AstNode& arg, TimeBucket* time) {
   if (arg.kind != AstKind::kString)
     return ErrorAt(arg.column, "a time zone that is not a string literal", kZones);
   if (TimeZone::Find(arg.text, &time->zone)) return Status::Ok();
+  if (TimeZone::Names().empty())
+    return ErrorAt(arg.column, "time zone '" + arg.text + "' but no readable tz database on this system",
+                   "the tzdata package installed");
   return ErrorAt(arg.column,
                  "unknown time zone '" + arg.text + "'" + DidYouMean(arg.text, TimeZone::Names(), Quote),
                  kZones);

@@ -128,6 +128,8 @@ int64_t TimeBucket::Start(int64_t s, int32_t* offset) const {
 
 size_t TimeBucket::Label(double t, char* out) const {
   if (!(t >= kMinEpochSeconds && t < kEndEpochSeconds)) return 0;  // NaN fails too
+  // The plain UTC units: no slot arithmetic.
+  if (zone.is_utc() && count == 1 && !from_epoch) return FormatTimeBucket(t, unit, out);
   const int64_t s = static_cast<int64_t>(std::floor(t));
   if (unit == TimeUnit::kMinute || unit == TimeUnit::kHour || from_epoch) {
     int32_t offset;
