@@ -35,9 +35,11 @@ class TimeZone {
     int32_t offset;
   };
 
-  // The span holding epoch second s. Instants after the database's last
-  // transition (2037 for zones with daylight saving) keep that transition's
-  // offset.
+  // The span holding epoch second s. The database's transitions end in
+  // 2037; for 2038..2099 a zone still changing offsets in 2037 repeats the
+  // offsets of the latest year up to 2037 whose calendar matches (same
+  // weekday on March 1, or on January 1 for January and February); other
+  // zones, and instants from 2100, keep the last transition's offset.
   Span SpanAt(int64_t s) const;
 
   // Local-time seconds (as if the zone were UTC) of epoch second s.

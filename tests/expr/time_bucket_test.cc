@@ -93,14 +93,14 @@ for name in zones:
     # for 14 hours each way.
     t = int(datetime(2025, 1, 1, tzinfo=timezone.utc).timestamp())
     end = int(datetime(2027, 1, 1, tzinfo=timezone.utc).timestamp())
-    off = tz.utcoffset(datetime.fromtimestamp(t, timezone.utc))
+    off = datetime.fromtimestamp(t, tz).utcoffset()
     while t < end:
-        o = tz.utcoffset(datetime.fromtimestamp(t + 3600, timezone.utc))
+        o = datetime.fromtimestamp(t + 3600, tz).utcoffset()
         if o != off:
             lo, hi = t, t + 3600
             while hi - lo > 1:
                 mid = (lo + hi) // 2
-                if tz.utcoffset(datetime.fromtimestamp(mid, timezone.utc)) == off: lo = mid
+                if datetime.fromtimestamp(mid, tz).utcoffset() == off: lo = mid
                 else: hi = mid
             instants += [hi - 1, hi, hi + 1] + [hi + k * 37 * 60 + 13 for k in range(-23, 23)]
             off = o
@@ -226,6 +226,79 @@ TEST_CASE("time arguments: golden compile errors") {
         "minutes' (span_start() cuts fixed lengths; period_start() follows the calendar)");
   CHECK(Eval("period_start(0, '15 minutes')") == "'1970-01-01T00:00'");
   CHECK(Eval("period_start(0, '1 hours')") == "'1970-01-01T00'");
+}
+
+}  // namespace fanfold
+
+namespace fanfold {
+
+// Intent: records alternating between zones (each thread caches one offset
+// span per zone) still get each zone's own local hour, as Python's zoneinfo
+// gives it, across the March 2026 transitions of both zones.
+TEST_CASE("alternating zones keep their own offsets") {
+  const std::string out = RunPython(R"(
+from datetime import datetime
+from zoneinfo import ZoneInfo
+b, n = ZoneInfo("Europe/Berlin"), ZoneInfo("America/New_York")
+for t in range(1772841600, 1774915200, 1200):
+    print(t, datetime.fromtimestamp(t, b).hour, datetime.fromtimestamp(t, n).hour)
+)");
+  REQUIRE_MESSAGE(out.size() > 10000, "python3 did not run");
+  FieldTable fields;
+  Result<Expr> berlin = Expr::Compile("clock_hour({/t}, 'Europe/Berlin')", &fields);
+  Result<Expr> new_york = Expr::Compile("clock_hour({/t}, 'America/New_York')", &fields);
+  REQUIRE(berlin.ok());
+  REQUIRE(new_york.ok());
+  std::istringstream in(out);
+  int64_t t;
+  int64_t want_b, want_n;
+  int lines = 0;
+  ScratchArena arena;
+  std::vector<Value> slots(fields.size());
+  while (in >> t >> want_b >> want_n) {
+    CAPTURE(t);
+    slots[0] = Value::Int(t);
+    CHECK(berlin.value().Eval(slots.data(), &arena).Wide() == want_b);
+    CHECK(new_york.value().Eval(slots.data(), &arena).Wide() == want_n);
+    ++lines;
+  }
+  CHECK(lines > 1000);
+}
+
+}  // namespace fanfold
+
+namespace fanfold {
+
+// Intent: past the database's 2037 horizon, offsets follow the zones' current
+// rules as Python's zoneinfo (which reads the TZ rule at the end of each
+// file) gives them, for 2038..2099, in zones of both hemispheres, a zone whose
+// rules changed in 2023 (America/Nuuk, Africa/Cairo) and zones without
+// daylight saving now (Asia/Kolkata, America/Sao_Paulo).
+TEST_CASE("offsets after 2037 follow the current rules") {
+  const std::string out = RunPython(R"(
+from datetime import datetime
+from zoneinfo import ZoneInfo
+import random
+rnd = random.Random(2099)
+for name in ["Europe/Berlin", "America/New_York", "Australia/Lord_Howe", "America/Santiago",
+             "Africa/Cairo", "America/Nuuk", "Asia/Kolkata", "America/Sao_Paulo", "Pacific/Chatham"]:
+    tz = ZoneInfo(name)
+    for _ in range(400):
+        t = rnd.randrange(2145916800, 4102444800)
+        print(name, t, datetime.fromtimestamp(t // 60 * 60, tz).isoformat(timespec="minutes"))
+)");
+  REQUIRE_MESSAGE(out.size() > 10000, "python3 did not run");
+  std::istringstream in(out);
+  std::string zone, want;
+  int64_t t;
+  int lines = 0;
+  while (in >> zone >> t >> want) {
+    CAPTURE(zone);
+    CAPTURE(t);
+    CHECK(Eval("period_start(" + std::to_string(t) + ", 'minute', '" + zone + "')") == "'" + want + "'");
+    ++lines;
+  }
+  CHECK(lines == 3600);
 }
 
 }  // namespace fanfold
