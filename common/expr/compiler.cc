@@ -5,12 +5,11 @@
 #include "common/base/nearest_names.h"
 #include "common/expr/conditional_functions.h"
 #include "common/expr/program.h"
+#include "common/expr/time_arguments.h"
 #include "common/base/scratch_arena.h"
 
 namespace fanfold {
 namespace {
-
-constexpr const char* kUnits = "one of 'minute', 'hour', 'day', 'week', 'month'";
 
 Status ErrorAt(int column, const std::string& found, const std::string& expected) {
   return Status::InvalidArgument("column " + std::to_string(column) + ": " + found +
@@ -221,17 +220,9 @@ class Compiler {
       return Status::Ok();
     }
     n->op = ExprOp::kCall;
-    if (f->function == ExprFunction::kPeriodStart) {
-      const AstNode& unit = a.kids[1];
-      if (unit.kind != AstKind::kString)
-        return ErrorAt(unit.column, "a unit that is not a string literal", kUnits);
-      if (!ParseTimeUnit(unit.text, &n->unit))
-        return ErrorAt(unit.column,
-                       "unit '" + unit.text + "'" +
-                           DidYouMean(unit.text, {"minute", "hour", "day", "week", "month"},
-                                      [](std::string_view u) { return std::string("'").append(u).append("'"); }),
-                       kUnits);
-      return Kids(a, 1, n);  // the unit is compiled into the node
+    if (TakesTimeArguments(f->function)) {
+      FF_RETURN_IF_ERROR(ReadTimeArguments(a, f->function, &n->time));
+      return Kids(a, 1, n);  // the unit and zone are compiled into the node
     }
     return Kids(a, got, n);
   }

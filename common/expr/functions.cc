@@ -30,9 +30,10 @@ constexpr ExprFunctionInfo kFunctions[] = {
     {"text", F::kText, 1, 1, "text(x)"},
     {"time", F::kTime, 1, 1, "time(x)"},
     {"time_ms", F::kTimeMs, 1, 1, "time_ms(x)"},
-    {"period_start", F::kPeriodStart, 2, 2, "period_start(t, unit)"},
-    {"clock_hour", F::kClockHour, 1, 1, "clock_hour(t)"},
-    {"weekday", F::kWeekday, 1, 1, "weekday(t)"},
+    {"period_start", F::kPeriodStart, 2, 3, "period_start(t, unit[, zone])"},
+    {"clock_hour", F::kClockHour, 1, 2, "clock_hour(t[, zone])"},
+    {"weekday", F::kWeekday, 1, 2, "weekday(t[, zone])"},
+    {"span_start", F::kSpanStart, 2, 3, "span_start(t, length[, zone])"},
     {"branch", F::kBranch, 3, kMaxBranchArgs, "branch(test, value, ..., otherwise)"},
     {"one_if", F::kOneIf, 1, 1, "one_if(test)"},
 };
@@ -144,7 +145,7 @@ bool ValueEpochSeconds(const Value& v, double units_per_second, double* out) {
   return true;
 }
 
-Value ApplyExprFunction(ExprFunction function, const Value* args, int nargs, TimeUnit unit,
+Value ApplyExprFunction(ExprFunction function, const Value* args, int nargs, const TimeBucket& time,
                         ScratchArena* arena) {
   switch (function) {
     case F::kLower: return ChangeCase(args[0], false, arena);
@@ -187,11 +188,12 @@ Value ApplyExprFunction(ExprFunction function, const Value* args, int nargs, Tim
       if (!ValueEpochSeconds(args[0], function == F::kTime ? 1 : 1000, &t)) return Value::Missing();
       return FiniteNumber(t);
     }
-    case F::kPeriodStart: {
+    case F::kPeriodStart:
+    case F::kSpanStart: {
       double t;
-      char label[kTimeLabelMax];
+      char label[kBucketLabelMax];
       size_t n;
-      if (!ValueEpochSeconds(args[0], 1, &t) || (n = FormatTimeBucket(t, unit, label)) == 0)
+      if (!ValueEpochSeconds(args[0], 1, &t) || (n = time.Label(t, label)) == 0)
         return Value::Missing();
       return Value::String(arena->Copy({label, n}));
     }
@@ -199,7 +201,7 @@ Value ApplyExprFunction(ExprFunction function, const Value* args, int nargs, Tim
     case F::kWeekday: {
       double t;
       if (!ValueEpochSeconds(args[0], 1, &t)) return Value::Missing();
-      const int r = function == F::kClockHour ? ClockHour(t) : IsoWeekday(t);
+      const int r = function == F::kClockHour ? ClockHour(t, time.zone) : IsoWeekday(t, time.zone);
       return r < 0 ? Value::Missing() : Value::Int(r);
     }
     case F::kOneIf: return OneIf(args[0]);

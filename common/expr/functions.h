@@ -11,7 +11,7 @@
 #include <vector>
 
 #include "common/base/scratch_arena.h"
-#include "common/expr/time_functions.h"
+#include "common/expr/time_bucket.h"
 #include "common/base/value.h"
 
 namespace fanfold {
@@ -19,7 +19,7 @@ namespace fanfold {
 enum class ExprFunction : uint8_t {
   kLower, kUpper, kStartsWith, kEndsWith, kContains, kLen, kSubstr,
   kHas, kLacks, kCoalesce, kBucketStart, kNum, kText,
-  kTime, kTimeMs, kPeriodStart, kClockHour, kWeekday,
+  kTime, kTimeMs, kPeriodStart, kClockHour, kWeekday, kSpanStart,
   kBranch, kOneIf,  // conditional_functions.h
 };
 
@@ -43,11 +43,12 @@ std::vector<std::string> ExprFunctionNames();
 // "lower(s), upper(s), ..." — every signature, for error messages.
 std::string ExprFunctionSignatures();
 
-// Evaluates `function` on args[0..nargs). `unit` is the compile-time unit of
-// period_start (its second argument is not consulted). Not for kCoalesce
+// Evaluates `function` on args[0..nargs). `time` is what the compiler read
+// from the literal unit and zone arguments of period_start, span_start,
+// clock_hour and weekday (only their first argument is passed). Not for kCoalesce
 // and kBranch, whose arguments the evaluator evaluates lazily.
 // REQUIRES: nargs is within the function's arity.
-Value ApplyExprFunction(ExprFunction function, const Value* args, int nargs, TimeUnit unit,
+Value ApplyExprFunction(ExprFunction function, const Value* args, int nargs, const TimeBucket& time,
                         ScratchArena* arena);
 
 // The text a string function sees for `v`: strings as they are, integers

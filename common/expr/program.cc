@@ -56,7 +56,7 @@ Value Expr::Program::EvalAt(int32_t index, const Value* slots, ScratchArena* are
     case ExprOp::kCall: {
       Value a[3];
       for (int k = 0; k < n.nargs; ++k) a[k] = Kid(n, k, slots, arena);
-      return ApplyExprFunction(n.function, a, n.nargs, n.unit, arena);
+      return ApplyExprFunction(n.function, a, n.nargs, n.time, arena);
     }
     case ExprOp::kCoalesce:
       for (int k = 0; k < n.nargs; ++k) {

@@ -36,7 +36,7 @@ struct ExprNode {
   ExprOp op = ExprOp::kConst;
   CompareOp compare = CompareOp::kEq;
   ExprFunction function = ExprFunction::kHas;
-  TimeUnit unit = TimeUnit::kDay;  // kCall of period_start
+  TimeBucket time;                 // kCall of a time function: unit, count, zone
   bool negated = false;            // kIn
   uint8_t nargs = 0;
   int32_t kids[3] = {-1, -1, -1};  // node indices, all smaller than this node's

@@ -134,10 +134,13 @@ bool ParseIsoTimestamp(std::string_view text, double* epoch_seconds) {
         ++pos;
       } else if (z == '+' || z == '-') {
         ++pos;
-        int oh, om;
+        // ±hh, ±hhmm or ±hh:mm, as Python's datetime.fromisoformat (3.11)
+        // reads them.
+        int oh, om = 0;
         if (!Digits(text, &pos, 2, &oh)) return false;
         if (pos < text.size() && text[pos] == ':') ++pos;
-        if (!Digits(text, &pos, 2, &om) || oh > 23 || om > 59) return false;
+        if ((pos < text.size() || text[pos - 1] == ':') && !Digits(text, &pos, 2, &om)) return false;
+        if (oh > 23 || om > 59) return false;
         const int64_t offset = oh * 3600 + om * 60;
         seconds += z == '+' ? -offset : offset;  // local = UTC + offset
       } else {
@@ -191,15 +194,19 @@ size_t FormatTimeBucket(double t, TimeUnit unit, char* out) {
   return 16;
 }
 
-int ClockHour(double t) {
+int ClockHour(double t, const TimeZone& zone) {
   int64_t s;
   if (!WholeSeconds(t, &s)) return -1;
+  s = zone.Local(s);
+  if (!WholeSeconds(static_cast<double>(s), &s)) return -1;
   return static_cast<int>((s - FloorDiv(s, kSecondsPerDay) * kSecondsPerDay) / 3600);
 }
 
-int IsoWeekday(double t) {
+int IsoWeekday(double t, const TimeZone& zone) {
   int64_t s;
   if (!WholeSeconds(t, &s)) return -1;
+  s = zone.Local(s);
+  if (!WholeSeconds(static_cast<double>(s), &s)) return -1;
   return IsoWeekdayFromDays(FloorDiv(s, kSecondsPerDay));
 }
 

@@ -8,6 +8,8 @@
 #include <cstdint>
 #include <string_view>
 
+#include "common/expr/time_zone.h"
+
 namespace fanfold {
 
 // Epoch seconds of 0001-01-01T00:00:00Z and 10000-01-01T00:00:00Z: the range
@@ -37,7 +39,7 @@ int IsoWeekdayFromDays(int64_t days);
 
 // Parses one of
 //   YYYY-MM-DD
-//   YYYY-MM-DD{T| }hh:mm[:ss[{.|,}fraction]][Z|±hh:mm|±hhmm]
+//   YYYY-MM-DD{T| }hh:mm[:ss[{.|,}fraction]][Z|±hh:mm|±hhmm|±hh]
 // (no offset means UTC; 't' and 'z' are accepted as RFC 3339 allows) into
 // epoch seconds. Fields are range-checked (month length and leap years
 // included; hour 24 and second 60 are rejected). Fraction digits beyond the
@@ -60,9 +62,10 @@ inline constexpr size_t kTimeLabelMax = 16;
 // [kMinEpochSeconds, kEndEpochSeconds).
 size_t FormatTimeBucket(double t, TimeUnit unit, char* out);
 
-// UTC hour 0..23 / ISO weekday 1..7 of epoch second t; -1 iff t is NaN or
-// outside [kMinEpochSeconds, kEndEpochSeconds).
-int ClockHour(double t);
-int IsoWeekday(double t);
+// Hour 0..23 / ISO weekday 1..7 of epoch second t on the clock of `zone`
+// (UTC by default); -1 iff t or its local time is NaN or outside
+// [kMinEpochSeconds, kEndEpochSeconds).
+int ClockHour(double t, const TimeZone& zone = TimeZone());
+int IsoWeekday(double t, const TimeZone& zone = TimeZone());
 
 }  // namespace fanfold

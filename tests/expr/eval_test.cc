@@ -235,8 +235,8 @@ TEST_CASE("compile errors: golden messages") {
   const std::string all =
       "lower(s), upper(s), starts_with(s, prefix), ends_with(s, suffix), contains(s, part), "
       "len(s), substr(s, start[, count]), has(x), lacks(x), coalesce(a, b, ...), bucket_start(x, width), "
-      "num(x), text(x), time(x), time_ms(x), period_start(t, unit), clock_hour(t), weekday(t), "
-      "branch(test, value, ..., otherwise), one_if(test)";
+      "num(x), text(x), time(x), time_ms(x), period_start(t, unit[, zone]), clock_hour(t[, zone]), "
+      "weekday(t[, zone]), span_start(t, length[, zone]), branch(test, value, ..., otherwise), one_if(test)";
   const Case cases[] = {
       {"lower({/a}, {/b})", "!! column 1: lower() with 2 arguments; expected lower(s)"},
       {"1 + substr({/a})", "!! column 5: substr() with 1 argument; expected substr(s, start[, count])"},
@@ -319,6 +319,12 @@ TEST_CASE("constants and moves") {
 TEST_CASE("evaluation does not allocate") {
   FieldTable fields;
   Result<Expr> e = Expr::Compile(
+      // Local time over four years of New York transitions and 45 of Berlin's
+      // (past 2037 too): the zone lookups a changing offset needs allocate
+      // nothing either.
+      "period_start(1772719629 + ({/epoch_ms} - 1772719629250) * 600, '15 minutes', "
+      "'America/New_York') == 'x' or "
+      "clock_hour(1772719629 + ({/epoch_ms} - 1772719629250) * 7200, 'Europe/Berlin') == 99 or "
       "(lower({/event}) in ['fault', 'reboot'] and {/power_w} * 2 > {/latency_ms})"
       " or contains(upper({/district}), 'NORTH') or period_start({/ts}, 'week') == '2026-W10'"
       " or text({/power_w}) == '3' or substr({/power_w}, 1) == 'x'"
