@@ -6,15 +6,15 @@
 #include <cstdlib>
 
 #include "common/measures/count.h"
-#include "common/measures/ddsketch.h"
 #include "common/measures/exact_distinct.h"
 #include "common/measures/exact_quantile.h"
 #include "common/measures/extreme.h"
 #include "common/measures/pick_by_order.h"
-#include "common/measures/hyperloglog.h"
 #include "common/measures/measure_options.h"
 #include "common/measures/moments.h"
 #include "common/measures/sum.h"
+#include "common/measures/sketches/ddsketch.h"
+#include "common/measures/sketches/hyperloglog.h"
 #include "common/measures/top.h"
 
 namespace fanfold {
