@@ -186,3 +186,19 @@ TEST_CASE("shown_digits is for display only: the fingerprint ignores it") {
   CHECK(plain->fingerprint == three->fingerprint);
   CHECK(PlanCanonicalText(*plain) == PlanCanonicalText(*three));
 }
+
+// Intent: the histogram's options reach the canonical text only when set,
+// after the options every plan has, so plans without a histogram keep
+// their text (pinned above) and one with a histogram names its bins.
+TEST_CASE("the canonical text of a histogram names its bins") {
+  Result<JobSpec> spec = ParseJobSpec(R"J({"inputs": {"files": ["a"]}, "measures": [
+    {"name": "e", "fn": "histogram", "of": "{/x}", "edges": [0, 2.5, 10]},
+    {"name": "w", "fn": "histogram", "of": "{/x}", "from": 0, "to": 1, "width": 0.1}]})J",
+                                      "job.json");
+  REQUIRE(spec.ok());
+  const std::string text = PlanCanonicalText(*CompileSpec(spec.value()));
+  CHECK(text.find("measure e fn=histogram of={/x} by= alpha=0.01 precision=12 k=10 limit=1000000 at= "
+                  "edges=0,2.5,10,\n") != std::string::npos);
+  CHECK(text.find("measure w fn=histogram of={/x} by= alpha=0.01 precision=12 k=10 limit=1000000 from=0 to=1 "
+                  "width=0.10000000000000001 at=\n") != std::string::npos);
+}
