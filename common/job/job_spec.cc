@@ -14,6 +14,8 @@
 #include "common/base/json_location.h"
 #include "common/base/json_syntax.h"
 #include "common/base/nearest_names.h"
+#include "common/base/number_text.h"
+#include "common/base/value_compare.h"
 #include "common/measures/measure_options.h"
 #include "common/measures/measure_registry.h"
 
@@ -85,6 +87,17 @@ class Checker {
   Status Number(const json& v, const std::string& p, double lo, double hi, bool open, double* out) {
     if (!v.is_number()) return Error(p, Found(v), "a number");
     double d = v.get<double>();
+    // An integer the nearest double would change (2^53 + 1) is refused
+    // rather than read as another number than the one written.
+    if (v.is_number_integer()) {
+      const WideInt w = v.is_number_unsigned() ? static_cast<WideInt>(v.get<uint64_t>())
+                                               : static_cast<WideInt>(v.get<int64_t>());
+      if (CompareWideToDouble(w, d) != 0) {
+        char buf[kNumberTextMax];
+        return Error(p, Found(v), "a number a double holds exactly (this one would be read as " +
+                                      std::string(FormatNumber(d, buf)) + ")");
+      }
+    }
     bool in = open ? (d > lo && d < hi) : (d >= lo && d <= hi);
     if (!in || !std::isfinite(d)) {
       std::ostringstream range;
@@ -233,8 +246,14 @@ Status ParseMeasure(Checker& c, const json& m, const std::string& p, MeasureSpec
   }
   if (row->check != nullptr) {
     if (std::optional<OptionComplaint> bad = row->check(cfg)) {
-      const std::string found = m.contains(bad->key) ? Found(m[bad->key]) : "the default";
-      return c.Error(ChildPointer(p, bad->key), found, bad->expected);
+      if (!m.contains(bad->key)) return c.Error(p, "no " + Quoted(bad->key), bad->expected);
+      std::string at = ChildPointer(p, bad->key);
+      const json* v = &m[bad->key];
+      if (bad->index >= 0 && v->is_array() && static_cast<size_t>(bad->index) < v->size()) {
+        at = ChildPointer(at, static_cast<size_t>(bad->index));
+        v = &(*v)[static_cast<size_t>(bad->index)];
+      }
+      return c.Error(at, Found(*v), bad->expected);
     }
   }
   return Status::Ok();

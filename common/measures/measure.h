@@ -39,6 +39,7 @@ enum class MeasureKind : uint8_t {
   kTop,                 // the k most frequent values with their counts
   kAtLowest,            // value at the smallest ordering key
   kAtHighest,           // value at the largest ordering key
+  kHistogram,           // counts per fixed bin, below and above the range
 };
 
 // Everything a state needs to know about its measure; filled by the job
@@ -52,6 +53,13 @@ struct MeasureConfig {
   int precision = 12;                 // kHyperLogLog: register bits, 4..18 (2^p bytes per group)
   uint32_t k = 10;                    // kTop: how many values to report, >= 1
   uint64_t limit = 1'000'000;         // kQuantile, kDistinct: values kept per group; kTop: distinct values tracked
+  // kHistogram: the bins, either by edges (2 to 257, strictly increasing)
+  // or by from/to/width (see common/measures/histogram_bins.h). Unset is
+  // empty / NaN: a JSON number is never NaN, so unset cannot be written.
+  std::vector<double> edges;
+  double from = std::nan("");
+  double to = std::nan("");
+  double width = std::nan("");
 };
 
 // The number a numeric measure reads from v: returns true iff v gives one

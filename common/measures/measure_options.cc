@@ -1,5 +1,6 @@
 #include "common/measures/measure_options.h"
 
+#include <cmath>
 #include <cstdio>
 #include <cstring>
 #include <type_traits>
@@ -32,13 +33,17 @@ std::string NumberText(double v) {
   return buf;
 }
 
-// " key=value" for a scalar option; "" for an array.
+// " key=value" for a scalar option; "" for an array, or an unset option
+// whose text appears only when set.
 std::string ScalarText(const MeasureOption& o, const MeasureConfig& c) {
   return std::visit(
       [&](auto field) -> std::string {
         using T = std::remove_cvref_t<decltype(c.*field)>;
         if constexpr (std::is_same_v<T, std::vector<double>>) return "";
-        else if constexpr (std::is_same_v<T, double>) return std::string(" ") + o.key + "=" + NumberText(c.*field);
+        else if constexpr (std::is_same_v<T, double>) {
+          if (o.text_only_when_set && std::isnan(c.*field)) return "";
+          return std::string(" ") + o.key + "=" + NumberText(c.*field);
+        }
         else return std::string(" ") + o.key + "=" + std::to_string(c.*field);
       },
       o.field);
@@ -52,6 +57,7 @@ std::string ArrayText(const MeasureOption& o, const MeasureConfig& c) {
         if constexpr (!std::is_same_v<T, std::vector<double>>) {
           return "";
         } else {
+          if (o.text_only_when_set && (c.*field).empty()) return "";
           std::string out = std::string(" ") + o.key + "=";
           for (double v : c.*field) out += NumberText(v) + ",";
           return out;

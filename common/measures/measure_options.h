@@ -8,6 +8,7 @@
 #include <array>
 #include <cstddef>
 #include <cstdint>
+#include <limits>
 #include <string>
 #include <variant>
 #include <vector>
@@ -32,25 +33,37 @@ struct MeasureOption {
   // Non-null iff a measure that takes the option must set it (it has no
   // default): what the job file must hold, for the "no ..." message.
   const char* required_text;
+  // True for options added after plans were first fingerprinted: their
+  // text appears only when set (a number not NaN, a non-empty array), so
+  // the plans of every earlier job keep their text and fingerprint.
+  bool text_only_when_set;
 };
 
 // In the job file's order: the parser checks and reads options in this order,
 // so with two bad options the first one listed is the one reported.
-inline constexpr std::array<MeasureOption, 5> kMeasureOptions = {{
+inline constexpr double kMaxFinite = std::numeric_limits<double>::max();
+inline constexpr std::array<MeasureOption, 9> kMeasureOptions = {{
     {"at", &MeasureConfig::probabilities, 0, 1, 64, "an array of 1 to 64 probabilities in [0, 1]",
-     "\"at\": a list of probabilities in [0, 1]"},
+     "\"at\": a list of probabilities in [0, 1]", false},
     // Below 0.001 the sketch folds its lowest buckets early and loses its bound.
-    {"alpha", &MeasureConfig::alpha, 0.001, 0.5, 0, nullptr, nullptr},
-    {"precision", &MeasureConfig::precision, 4, 18, 0, nullptr, nullptr},
-    {"k", &MeasureConfig::k, 1, 100000, 0, nullptr, nullptr},
-    {"limit", &MeasureConfig::limit, 1, 4294967296.0, 0, nullptr, nullptr},
+    {"alpha", &MeasureConfig::alpha, 0.001, 0.5, 0, nullptr, nullptr, false},
+    {"precision", &MeasureConfig::precision, 4, 18, 0, nullptr, nullptr, false},
+    {"k", &MeasureConfig::k, 1, 100000, 0, nullptr, nullptr, false},
+    {"limit", &MeasureConfig::limit, 1, 4294967296.0, 0, nullptr, nullptr, false},
+    // histogram: any finite numbers here; the row's check (histogram_bins.h)
+    // says which of them make bins, so its messages can name the rule.
+    {"edges", &MeasureConfig::edges, -kMaxFinite, kMaxFinite, 257, "an array of 2 to 257 numbers", nullptr, true},
+    {"from", &MeasureConfig::from, -kMaxFinite, kMaxFinite, 0, nullptr, nullptr, true},
+    {"to", &MeasureConfig::to, -kMaxFinite, kMaxFinite, 0, nullptr, nullptr, true},
+    {"width", &MeasureConfig::width, -kMaxFinite, kMaxFinite, 0, nullptr, nullptr, true},
 }};
 
 // Returns the option named key, or nullptr.
 const MeasureOption* FindMeasureOption(const std::string& key);
 
 // The fingerprint text of every option of config (those its measure ignores
-// too, at their defaults): " key=value" per option, numbers as %.17g;
+// too, at their defaults; text_only_when_set ones only when set):
+// " key=value" per option, numbers as %.17g;
 // scalars first, then arrays (each element followed by ','), which keeps the
 // text of plans fingerprinted before the options had one home.
 std::string MeasureOptionsText(const MeasureConfig& config);

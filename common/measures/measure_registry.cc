@@ -6,15 +6,17 @@
 #include <cstdlib>
 
 #include "common/measures/count.h"
-#include "common/measures/ddsketch.h"
 #include "common/measures/exact_distinct.h"
 #include "common/measures/exact_quantile.h"
 #include "common/measures/extreme.h"
+#include "common/measures/histogram.h"
+#include "common/measures/histogram_bins.h"
 #include "common/measures/pick_by_order.h"
-#include "common/measures/hyperloglog.h"
 #include "common/measures/measure_options.h"
 #include "common/measures/moments.h"
 #include "common/measures/sum.h"
+#include "common/measures/sketches/ddsketch.h"
+#include "common/measures/sketches/hyperloglog.h"
 #include "common/measures/top.h"
 
 namespace fanfold {
@@ -50,7 +52,7 @@ std::vector<std::string> ColumnPerProbability(const std::string& name, const Mea
 // top reports k values out of at most `limit` tracked.
 std::optional<OptionComplaint> TopLimitAtLeastK(const MeasureConfig& config) {
   if (config.limit >= config.k) return std::nullopt;
-  return OptionComplaint{"limit", "a limit of at least k (" + std::to_string(config.k) + ")"};
+  return OptionComplaint{"limit", "a limit of at least k (" + std::to_string(config.k) + ")", -1};
 }
 
 std::vector<MeasureRow> BuildRows() {
@@ -74,6 +76,8 @@ std::vector<MeasureRow> BuildRows() {
       {K::kTop, "top", 1, {"k", "limit"}, OneColumn, TopLimitAtLeastK, MakeFromConfig<TopState>},
       {K::kAtLowest, "at_lowest", 2, {}, OneColumn, nullptr, MakeWith<PickByOrderState, false>},
       {K::kAtHighest, "at_highest", 2, {}, OneColumn, nullptr, MakeWith<PickByOrderState, true>},
+      {K::kHistogram, "histogram", 1, {"edges", "from", "to", "width"}, HistogramColumns, CheckHistogramBins,
+       MakeFromConfig<HistogramState>},
   };
 }
 

@@ -16,10 +16,13 @@
 namespace fanfold {
 
 // What a row's cross-option check found wrong: the job-file key to point at
-// and what was expected there.
+// (when the job file has no such key, the message points at the measure
+// and says the key is missing), the element of an array option when
+// index >= 0, and what was expected there.
 struct OptionComplaint {
   std::string key;
   std::string expected;
+  int index = -1;
 };
 
 struct MeasureRow {

@@ -36,6 +36,14 @@ inline std::vector<MeasureConfig> FuzzMeasureConfigs() {
         c.k = 3;
         c.limit = 8;
         break;
+      case MeasureKind::kHistogram:  // by edges, 2^53 among them; then by width
+        c.edges = {-5, 0, 2.5, 100, 9007199254740992.0};
+        out.push_back(c);
+        c.edges.clear();
+        c.from = 0;
+        c.to = 1;
+        c.width = 0.1;
+        break;
       default: break;
     }
     out.push_back(c);

@@ -6,7 +6,8 @@
 // a deterministic mix of values that reaches every encoding form (sparse and
 // dense HyperLogLog, exact and bounded top, negative/zero/positive DDSketch
 // buckets, integer-only and mixed sums and moments, int64/uint64/double
-// numbers in min/max and at_lowest/at_highest). Usage: fuzz_seed_partial DIR
+// numbers in min/max and at_lowest/at_highest, histograms by edges and by
+// width with counts below, within and above). Usage: fuzz_seed_partial DIR
 #include <cstdio>
 #include <fstream>
 #include <string>
@@ -117,12 +118,14 @@ int main(int argc, char** argv) {
     const bool small = p.groups.key(g).find("small") != std::string::npos;
     for (size_t j = 0; j < configs.size(); ++j) {
       const MeasureKind kind = configs[j].kind;
-      if (!small && kind != MeasureKind::kHyperLogLog && kind != MeasureKind::kTop) continue;
+      if (!small && kind != MeasureKind::kHyperLogLog && kind != MeasureKind::kTop && kind != MeasureKind::kHistogram)
+        continue;
       std::string state;
       ByteWriter sw(&state);
       p.groups.states(g)[j]->Encode(sw);
       std::string name = std::string("state_") + MeasureFnName(kind) + (small ? "_small" : "_big");
       if (kind == MeasureKind::kHyperLogLog) name += "_p" + std::to_string(configs[j].precision);
+      if (kind == MeasureKind::kHistogram) name += configs[j].edges.empty() ? "_width" : "_edges";
       ok = ok && Write(dir, name, 3, state);
     }
   }

@@ -28,6 +28,7 @@ JobSpec OneMeasureJob(const MeasureRow& row) {
   if (row.arg_count >= 1) m += R"(, "of": "{/x}")";
   if (row.arg_count >= 2) m += R"(, "by": "{/t}")";
   if (row.Takes("at")) m += R"(, "at": [0.5])";
+  if (row.Takes("edges")) m += R"(, "edges": [0, 1])";
   Result<JobSpec> spec = ParseJobSpec(R"({"inputs": {"files": ["a"]}, "measures": [)" + m + "}]}", "job.json");
   REQUIRE(spec.ok());
   return spec.value();
@@ -52,7 +53,9 @@ std::string OptionJson(const MeasureOption& o, int which) {
       [&](auto field) -> std::string {
         using T = std::remove_cvref_t<decltype(MeasureConfig().*field)>;
         if constexpr (std::is_same_v<T, std::vector<double>>) {
-          return std::string("[").append(std::to_string(which == 0 ? o.lo : o.hi)).append("]");
+          // Two elements, increasing (histogram edges need that), the last one differing.
+          return std::string("[").append(std::to_string(o.lo)).append(", ")
+              .append(std::to_string(which == 0 ? (o.lo + o.hi) / 2 : o.hi)).append("]");
         } else if constexpr (std::is_same_v<T, double>) {
           return std::to_string(which == 0 ? (o.lo + o.hi) / 2 : o.hi);
         } else {
@@ -128,7 +131,19 @@ TEST_CASE("each option written in the job file changes the plan fingerprint") {
         if (row.arg_count >= 1) m += R"(, "of": "{/x}")";
         if (row.arg_count >= 2) m += R"(, "by": "{/t}")";
         if (row.Takes("at") && std::string(o.key) != "at") m += R"(, "at": [0.5])";
-        m += std::string(", \"") + o.key + "\": " + OptionJson(o, which);
+        const std::string key = o.key;
+        if (key == "from" || key == "to" || key == "width") {
+          // histogram by width: the other two fixed, this one at two valid values.
+          const char* kBins[][2] = {{"from", "0"}, {"to", "10"}, {"width", "1"}};
+          const char* kOther[][2] = {{"from", "-10"}, {"to", "20"}, {"width", "2"}};
+          for (const auto& kv : kBins) {
+            const bool varied = key == kv[0];
+            const char* value = varied && which == 1 ? kOther[&kv - kBins][1] : kv[1];
+            m += std::string(", \"") + kv[0] + "\": " + value;
+          }
+        } else {
+          m += std::string(", \"") + o.key + "\": " + OptionJson(o, which);
+        }
         Result<JobSpec> spec =
             ParseJobSpec(R"({"inputs": {"files": ["a"]}, "measures": [)" + m + "}]}", "job.json");
         REQUIRE_MESSAGE(spec.ok(), spec.status().message());
@@ -138,7 +153,7 @@ TEST_CASE("each option written in the job file changes the plan fingerprint") {
       ++checked;
     }
   }
-  CHECK(checked == 8);  // at x2, limit x3, alpha, precision, k: the options the rows take
+  CHECK(checked == 12);  // at x2, limit x3, alpha, precision, k, edges, from, to, width: the options the rows take
 }
 
 // Intent: the codec version is read back from a plan text's first line (the
@@ -191,4 +206,20 @@ TEST_CASE("a measure's only filter is part of the plan fingerprint") {
   CHECK(text.substr(text.find("measure m")) ==
         "measure m fn=sum of={/x} by= alpha=0.01 precision=12 k=10 limit=1000000 at= only={/e} == 'fault'\n");
   CHECK(PlanCanonicalText(*plain).find("only=") == std::string::npos);
+}
+
+// Intent: the histogram's options reach the canonical text only when set,
+// after the options every plan has, so plans without a histogram keep
+// their text (pinned above) and one with a histogram names its bins.
+TEST_CASE("the canonical text of a histogram names its bins") {
+  Result<JobSpec> spec = ParseJobSpec(R"J({"inputs": {"files": ["a"]}, "measures": [
+    {"name": "e", "fn": "histogram", "of": "{/x}", "edges": [0, 2.5, 10]},
+    {"name": "w", "fn": "histogram", "of": "{/x}", "from": 0, "to": 1, "width": 0.1}]})J",
+                                      "job.json");
+  REQUIRE(spec.ok());
+  const std::string text = PlanCanonicalText(*CompileSpec(spec.value()));
+  CHECK(text.find("measure e fn=histogram of={/x} by= alpha=0.01 precision=12 k=10 limit=1000000 at= "
+                  "edges=0,2.5,10,\n") != std::string::npos);
+  CHECK(text.find("measure w fn=histogram of={/x} by= alpha=0.01 precision=12 k=10 limit=1000000 from=0 to=1 "
+                  "width=0.10000000000000001 at=\n") != std::string::npos);
 }

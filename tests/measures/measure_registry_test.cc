@@ -53,10 +53,13 @@ TEST_CASE("measure registry: columns match what the state finalizes") {
       MeasureConfig c;
       c.kind = row.kind;
       c.probabilities = at;
+      c.edges = {0};  // histogram: below, a bin per pair of edges, above
+      c.edges.insert(c.edges.end(), at.begin(), at.end());
       const std::vector<std::string> columns = row.columns("m", c);
       CHECK(columns.size() == OutputColumnCount(c));
       CHECK(testing::FinalOf(*NewMeasureState(c)).size() == columns.size());
-      CHECK(columns.size() == (row.Takes("at") ? at.size() : 1u));
+      const size_t expected = row.Takes("at") ? at.size() : row.Takes("edges") ? at.size() + 2 : 1u;
+      CHECK(columns.size() == expected);
     }
   }
 }

@@ -33,6 +33,8 @@ MeasureConfig ConfigFor(MeasureKind kind) {
   c.precision = 10;
   c.k = 5;
   c.limit = 100000;
+  // histogram: bins around the values MixedRows makes, 2^53 among the edges.
+  c.edges = {-1000, -0.5, 0, 10, 1000, 9007199254740992.0, 9223372036854775808.0};
   return c;
 }
 
@@ -81,7 +83,8 @@ TEST_CASE("measure: factory shapes") {
     const MeasureConfig c = ConfigFor(kind);
     REQUIRE(NewMeasureState(c) != nullptr);
     const bool quantile = kind == MeasureKind::kQuantile || kind == MeasureKind::kDdSketch;
-    CHECK(OutputColumnCount(c) == (quantile ? 3u : 1u));
+    const size_t columns = quantile ? 3u : kind == MeasureKind::kHistogram ? c.edges.size() + 1 : 1u;
+    CHECK(OutputColumnCount(c) == columns);
     CHECK(testing::FinalOf(*NewMeasureState(c)).size() == OutputColumnCount(c));
     const int args = kind == MeasureKind::kCount ? 0 : (kind == MeasureKind::kAtLowest || kind == MeasureKind::kAtHighest ? 2 : 1);
     CHECK(MeasureArgCount(kind) == args);

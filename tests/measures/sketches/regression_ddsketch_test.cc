@@ -7,7 +7,7 @@
 #include <string>
 
 #include "common/base/byte_io.h"
-#include "common/measures/ddsketch_store.h"
+#include "common/measures/sketches/ddsketch_store.h"
 #include "common/measures/measure.h"
 
 using namespace fanfold;

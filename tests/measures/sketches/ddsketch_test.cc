@@ -1,8 +1,8 @@
 // DDSketchState: the relative-error guarantee of Masson, Rim & Lee (2019),
-// as stated in common/measures/ddsketch.h, checked against exact type-7
+// as stated in common/measures/sketches/ddsketch.h, checked against exact type-7
 // quantiles (Hyndman & Fan 1996) on generated distributions; merges of
 // splits must give identical buckets.
-#include "common/measures/ddsketch.h"
+#include "common/measures/sketches/ddsketch.h"
 
 #include <doctest/doctest.h>
 

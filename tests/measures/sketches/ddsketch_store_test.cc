@@ -1,5 +1,5 @@
 // DDSketchStore: rank lookup, the fold past kMaxSpan, and strict decoding.
-#include "common/measures/ddsketch_store.h"
+#include "common/measures/sketches/ddsketch_store.h"
 
 #include <doctest/doctest.h>
 

@@ -1,4 +1,4 @@
-#include "common/measures/hyperloglog.h"
+#include "common/measures/sketches/hyperloglog.h"
 
 #include <algorithm>
 #include <cmath>

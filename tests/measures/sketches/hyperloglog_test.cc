@@ -1,6 +1,6 @@
 // HyperLogLogState: accuracy against the standard error 1.04/sqrt(m) of
 // Flajolet et al. (2007) over many seeds, and register-identical merges.
-#include "common/measures/hyperloglog.h"
+#include "common/measures/sketches/hyperloglog.h"
 
 #include <doctest/doctest.h>
 #include <malloc.h>

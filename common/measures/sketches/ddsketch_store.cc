@@ -1,4 +1,4 @@
-#include "common/measures/ddsketch_store.h"
+#include "common/measures/sketches/ddsketch_store.h"
 
 #include <algorithm>
 

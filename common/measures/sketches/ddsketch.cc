@@ -1,4 +1,4 @@
-#include "common/measures/ddsketch.h"
+#include "common/measures/sketches/ddsketch.h"
 
 #include <algorithm>
 #include <bit>

@@ -25,7 +25,7 @@
 #include <cmath>
 #include <vector>
 
-#include "common/measures/ddsketch_store.h"
+#include "common/measures/sketches/ddsketch_store.h"
 #include "common/measures/measure.h"
 
 namespace fanfold {
