@@ -45,7 +45,7 @@ TEST_CASE("only is compiled as the measure's filter") {
         "job.json: /measures/0/only: found an empty string; expected a non-empty string");
   CHECK(ErrorOf(R"({"name": "f", "fn": "count", "onyl": "{/a}"})") ==
         "job.json: /measures/0/onyl: found unknown key \"onyl\" (did you mean \"only\"?); expected one of: "
-        "alpha, at, by, fn, k, limit, name, of, only, precision, shown_digits");
+        "alpha, at, by, edges, fn, from, k, limit, name, of, only, precision, shown_digits, to, width");
 }
 
 // Intent: derived fields that only an "only" filter reads are still
