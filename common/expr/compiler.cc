@@ -209,16 +209,7 @@ class Compiler {
                      std::string(f->signature) +
                          (f->function == ExprFunction::kCoalesce ? " with 1 to 16 arguments" : ""));
     n->function = f->function;
-    if (f->function == ExprFunction::kCoalesce) {
-      n->op = ExprOp::kCoalesce;
-      n->nargs = static_cast<uint8_t>(got);
-      // Arguments first, then their indices: Lower appends to args as well.
-      std::vector<int32_t> kids(got);
-      for (int k = 0; k < got; ++k) FF_RETURN_IF_ERROR(Lower(a.kids[k], &kids[k]));
-      n->first_arg = static_cast<int32_t>(p_->args.size());
-      p_->args.insert(p_->args.end(), kids.begin(), kids.end());
-      return Status::Ok();
-    }
+    if (f->function == ExprFunction::kCoalesce) return LazyArgs(a, ExprOp::kCoalesce, n);
     n->op = ExprOp::kCall;
     if (TakesTimeArguments(f->function)) {
       FF_RETURN_IF_ERROR(ReadTimeArguments(a, f->function, &n->time));
@@ -228,8 +219,7 @@ class Compiler {
   }
 
   // Lowers every argument of `a` into Program::args for an op that
-  // evaluates its arguments only as needed (branch; coalesce does the same
-  // inline).
+  // evaluates its arguments only as needed (coalesce, branch).
   Status LazyArgs(const AstNode& a, ExprOp op, ExprNode* n) {
     const int got = static_cast<int>(a.kids.size());
     n->op = op;

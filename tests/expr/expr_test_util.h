@@ -1,6 +1,7 @@
 // Helpers shared by the expression tests: a record of raw fields, a
 // one-call compile-and-evaluate that prints the result, and the demo record
-// (one streetlight controller's event) most cases evaluate against.
+// (one streetlight controller's event) most cases evaluate against, and a
+// runner for the Python scripts some tests compare with.
 #pragma once
 
 #include <doctest/doctest.h>
@@ -15,6 +16,19 @@
 #include "common/expr/expr.h"
 
 namespace fanfold::expr_testing {
+
+// Runs a Python script with the system's python3 (the outside reference of
+// the time tests) and returns what it printed; "" if it cannot start.
+inline std::string RunPython(const std::string& script) {
+  std::string out;
+  FILE* f = popen(("python3 - <<'PYEOF'\n" + script + "\nPYEOF\n").c_str(), "r");
+  if (f == nullptr) return out;
+  char buf[4096];
+  size_t n;
+  while ((n = fread(buf, 1, sizeof buf, f)) > 0) out.append(buf, n);
+  pclose(f);
+  return out;
+}
 
 // A record: raw fields by reference text, with the values a reader would give.
 using Record = std::vector<std::pair<std::string, Value>>;

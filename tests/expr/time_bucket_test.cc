@@ -19,17 +19,8 @@ namespace fanfold {
 namespace {
 
 using expr_testing::Eval;
+using expr_testing::RunPython;
 
-std::string RunPython(const std::string& script) {
-  std::string out;
-  FILE* f = popen(("python3 - <<'PYEOF'\n" + script + "\nPYEOF\n").c_str(), "r");
-  if (f == nullptr) return out;
-  char buf[4096];
-  size_t n;
-  while ((n = fread(buf, 1, sizeof buf, f)) > 0) out.append(buf, n);
-  pclose(f);
-  return out;
-}
 
 // The expressions the sweep evaluates, in the order the script prints its
 // answers; ZONE is replaced by the zone's name.

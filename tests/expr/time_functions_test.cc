@@ -3,6 +3,8 @@
 // sweep that runs python3 at test time).
 #include "common/expr/time_functions.h"
 
+#include "tests/expr/expr_test_util.h"
+
 #include <doctest/doctest.h>
 
 #include <cmath>
@@ -19,17 +21,6 @@ std::string Bucket(double t, TimeUnit unit) {
   return std::string(buf, n);
 }
 
-// Runs a shell command and returns its stdout.
-std::string RunCommand(const std::string& cmd) {
-  std::string out;
-  FILE* f = popen(cmd.c_str(), "r");
-  if (f == nullptr) return out;
-  char buf[4096];
-  size_t n;
-  while ((n = fread(buf, 1, sizeof buf, f)) > 0) out.append(buf, n);
-  pclose(f);
-  return out;
-}
 
 }  // namespace
 
@@ -179,8 +170,7 @@ TEST_CASE("DaysFromCivil and CivilFromDays round-trip every day of 0001..9999") 
 // Intent: a random sweep over the whole range agrees with Python's datetime
 // on every label, the hour and the weekday, and on parsing offsets.
 TEST_CASE("random timestamps agree with python3 datetime") {
-  const std::string out = RunCommand(R"(python3 - <<'PYEOF'
-import random
+  const std::string out = expr_testing::RunPython(R"(import random
 from datetime import datetime, timezone, timedelta
 rnd = random.Random(20260305)
 E = datetime(1970, 1, 1, tzinfo=timezone.utc)
@@ -200,7 +190,6 @@ for _ in range(1000):
     text = "%04d" % local.year + text[text.index("-"):]
     assert (datetime.fromisoformat(text) - E).total_seconds() == t
     print("P %s %d" % (text, t))
-PYEOF
 )");
   REQUIRE_MESSAGE(out.size() > 1000, "python3 did not run");
   std::istringstream in(out);
