@@ -1,8 +1,8 @@
 """Independent reference answers for fanfold's end-to-end tests.
 
 Python 3 standard library only (json, csv, gzip, math.fsum, statistics,
-collections.Counter); .zst shards are decompressed with the `zstd` command
-of Debian's zstd package. Nothing here parses fanfold's expression language:
+collections.Counter, bisect, zoneinfo); .zst shards are decompressed with
+the `zstd` command of Debian's zstd package. Nothing here parses fanfold's expression language:
 each test writes its filter, keys and measure arguments as Python lambdas
 over the parsed records, following the job-file spec's semantics:
 
@@ -12,9 +12,13 @@ over the parsed records, following the job-file spec's semantics:
   - comparisons with missing/null are false;
   - time(): ISO 8601 text (offsets honoured) or epoch seconds -> epoch seconds;
     time_ms(): numbers are epoch milliseconds;
-  - period_start labels are UTC: "2026-03-05T14", "2026-03-05", "2026-W10".
+  - period_start labels are UTC: "2026-03-05T14", "2026-03-05", "2026-W10";
+    with a zone, day/week/month labels are the local date (zoneinfo);
+  - a measure's `only` keeps the records it reads; `rows` adds columns
+    computed from a finished row and drops the rows its keep rejects.
 """
 
+import bisect
 import collections
 import csv
 import datetime
@@ -26,6 +30,7 @@ import math
 import re
 import statistics
 import subprocess
+import zoneinfo
 
 
 class _Missing:
@@ -201,10 +206,18 @@ def _utc(t):
     return datetime.datetime.fromtimestamp(math.floor(t), datetime.timezone.utc)
 
 
-def period_start(t, unit):
+def period_start(t, unit, zone=None):
     if t is None:
         return None
     d = _utc(t)
+    if zone is not None:
+        # A zone cuts the local calendar: Python's zoneinfo over the system's
+        # tz database (Debian's tzdata), the database fanfold reads too. Only
+        # the units labelled by a local date; hour and minute labels carry
+        # an offset and are not re-stated here.
+        if unit not in ("day", "week", "month"):
+            raise ValueError("reference has no zoned period_start for %r" % unit)
+        d = d.astimezone(zoneinfo.ZoneInfo(zone))
     if unit == "minute":
         return d.strftime("%Y-%m-%dT%H:%M")
     if unit == "hour":
@@ -230,15 +243,21 @@ def weekday(t):
 # ---------------------------------------------------------------- jobs
 
 class Measure:
-    """One measure of a reference job. `of` and `by` map a record to a value."""
+    """One measure of a reference job. `of` and `by` map a record to a value;
+    `only` (record -> bool) keeps the records the measure reads; `edges` are
+    a histogram's bin edges."""
 
-    def __init__(self, name, fn, of=None, by=None, at=None, alpha=0.01, precision=14, k=10):
+    def __init__(self, name, fn, of=None, by=None, at=None, alpha=0.01, precision=14, k=10,
+                 only=None, edges=None):
         self.name, self.fn, self.of, self.by = name, fn, of, by
         self.at, self.alpha, self.precision, self.k = at or [], alpha, precision, k
+        self.only, self.edges = only, edges or []
 
     def columns(self):
         if self.fn in ("quantile", "ddsketch"):
             return [quantile_column(self.name, p) for p in self.at]
+        if self.fn == "histogram":
+            return histogram_columns(self.name, self.edges)
         return [self.name]
 
 
@@ -251,11 +270,28 @@ def quantile_column(name, p):
     return "%s_p%s" % (name, text)
 
 
-class RefJob:
-    """A job written out by hand: keep(record) -> bool, group = [(column, fn)]."""
+def _edge_text(e):
+    """An edge as a histogram column names it; integral edges only here
+    (10 -> "10"), which is all the example jobs use."""
+    if float(e) != int(e):
+        raise ValueError("reference names only integral histogram edges, not %r" % e)
+    return str(int(e))
 
-    def __init__(self, group, measures, keep=None):
+
+def histogram_columns(name, edges):
+    """<name>_below, <name>_<a>_<b> per bin [a, b), <name>_above."""
+    bins = ["%s_%s_%s" % (name, _edge_text(a), _edge_text(b)) for a, b in zip(edges, edges[1:])]
+    return ["%s_below" % name] + bins + ["%s_above" % name]
+
+
+class RefJob:
+    """A job written out by hand: keep(record) -> bool, group = [(column, fn)];
+    rows_add = [(column, fn(row dict) -> value)] and rows_keep(row dict) -> bool
+    re-state the job's `rows` step."""
+
+    def __init__(self, group, measures, keep=None, rows_add=None, rows_keep=None):
         self.group, self.measures, self.keep = group, measures, keep
+        self.rows_add, self.rows_keep = rows_add or [], rows_keep
 
     def group_columns(self):
         return [name for name, _ in self.group]
@@ -273,6 +309,8 @@ def aggregate(job, records):
         if slot is None:
             slot = groups[key] = {m.name: [] for m in job.measures}
         for m in job.measures:
+            if m.only is not None and not m.only(r):
+                continue  # not this measure's input (job-file spec: `only`)
             if m.fn == "count":
                 slot[m.name].append(1)
             elif m.fn in ("at_lowest", "at_highest"):
@@ -336,6 +374,14 @@ def finalize(m, items):
         out[m.name] = ("top", counts, m.k)
         return out
     nums = [x for x in (num(v) for v in items) if x is not None]
+    if m.fn == "histogram":
+        # The slot of x is the number of edges <= x: Python's bisect.bisect_right
+        # (slot 0 below the range, slot len(edges) at or above the last edge).
+        slots = [0] * (len(m.edges) + 1)
+        for x in nums:
+            slots[bisect.bisect_right(m.edges, x)] += 1
+        out.update(zip(histogram_columns(m.name, m.edges), slots))
+        return out
     if m.fn == "sum":
         out[m.name] = math.fsum(nums) if nums else None
     elif m.fn == "mean":
@@ -374,6 +420,11 @@ def evaluate(job, records):
         row = {}
         for m in job.measures:
             row.update(finalize(m, slot[m.name]))
+        named = dict(zip(job.group_columns(), key))
+        for name, fn in job.rows_add:
+            row[name] = fn({**named, **row})
+        if job.rows_keep is not None and job.rows_keep({**named, **row}) is not True:
+            continue  # the rows step drops it (null is not true)
         result[key] = row
     return result
 

@@ -34,6 +34,18 @@ def c(name):
     return lambda r: col(r, name)
 
 
+def one_if(test):  # one_if(test): 1 when the test holds, else 0 (docs/expressions.md)
+    return 1 if test else 0
+
+
+def ratio(a, b):  # a / b in a rows step: null when a side is null or b is 0 (docs/job-file.md)
+    return None if a is None or b is None or b == 0 else a / b
+
+
+def is_fault(r):  # {/event} == 'fault'
+    return ptr(r, "/event") == "fault"
+
+
 # Group column names follow docs/job-file.md: a derived field's name, the last
 # token of a lone field reference ({/district} -> district), else the text.
 REFS = {
@@ -81,6 +93,18 @@ REFS = {
             M("power_med", "ddsketch", of=p("/power_w"), at=[0.5], alpha=0.02),
             M("lamps_apx", "hyperloglog", of=p("/lamp"), precision=10),
         ]),
+    "fault_share.json": RefJob(
+        # period_start(t, 'day', 'Europe/Berlin'): the local date per zoneinfo
+        group=[("day", lambda r: ref.period_start(t_json(r), "day", "Europe/Berlin")), ("district", p("/district"))],
+        measures=[
+            M("events", "count"),
+            M("faults", "sum", of=lambda r: one_if(is_fault(r))),
+            M("fault_lat", "mean", of=p("/latency_ms"), only=is_fault),
+            M("lat", "histogram", of=p("/latency_ms"), edges=[0, 10, 25, 50, 100, 250]),
+        ],
+        rows_add=[("fault_share", lambda row: ratio(row["faults"], row["events"]))],  # faults / events
+        # fault_share >= 0.03 (a null share is not kept)
+        rows_keep=lambda row: row["fault_share"] is not None and row["fault_share"] >= 0.03),
     "csv_daily.json": RefJob(
         group=[("day", lambda r: ref.period_start(t_csv(r), "day")), ("weekday", lambda r: ref.weekday(t_csv(r))),
                ("fw_channel", c("fw_channel"))],
@@ -99,7 +123,47 @@ REFS = {
 
 # Every measure fn of the spec must appear in some example job.
 ALL_FNS = {"count", "count_present", "sum", "mean", "variance", "stddev", "min", "max", "quantile",
-           "ddsketch", "distinct", "hyperloglog", "top", "at_lowest", "at_highest"}
+           "ddsketch", "distinct", "hyperloglog", "top", "at_lowest", "at_highest", "histogram"}
+
+
+def compare_exact_columns(checks, name, rows, expected, rjob):
+    """Histogram slots and rows.add columns, which compare_results leaves out
+    or compares with a tolerance, compared exactly: a slot is a count
+    (bisect.bisect_right into the edges), and a ratio of two exact integers
+    is one correctly rounded division in Python as in IEEE 754."""
+    group_columns = rjob.group_columns()
+    exact = [c for m in rjob.measures if m.fn == "histogram" for c in m.columns()]
+    exact += [a for a, _ in rjob.rows_add]
+    want = {lib.norm_key(k): v for k, v in expected.items()}
+    for row in rows:
+        key = lib.key_of(row, group_columns)
+        exp = want.get(key)
+        if exp is None:
+            continue
+        for c in exact:
+            got = row.get(c, "<no column>")
+            ok = got == exp[c] and isinstance(got, bool) == isinstance(exp[c], bool)
+            checks.check(ok, "%s %r %s: %r, reference %r" % (name, key, c, got, exp[c]))
+
+
+def check_table_digits(checks, name, job, table_path, rows):
+    """shown_digits in the shipped table: the last column, when it is a
+    rows.add column with shown_digits, reads as Python's format(x, '.Ng')
+    of the JSON copy's full value (docs/job-file.md: printf %.*g)."""
+    adds = job.get("rows", {}).get("add", [])
+    if not adds or "shown_digits" not in adds[-1]:
+        return
+    col_name, digits = adds[-1]["name"], adds[-1]["shown_digits"]
+    with open(table_path, encoding="utf-8") as f:
+        lines = f.read().splitlines()
+    # Header, dashes, then one line per row in the same order as the JSON copy.
+    checks.check(len(lines) == len(rows) + 2 and lines[0].split()[-1] == col_name,
+                 "%s: table has %d lines for %d rows, header ends %r" % (name, len(lines), len(rows), lines[:1]))
+    for line, row in zip(lines[2:], rows):
+        v = row.get(col_name)
+        want = "" if v is None else (str(v) if isinstance(v, int) else format(v, ".%dg" % digits))
+        got = line.split()[-1] if line.split() else ""
+        checks.check(got == want, "%s: table %s %r, format(%r, '.%dg') is %r" % (name, col_name, got, v, digits, want))
 
 
 def expand_inputs(job_path, job):
@@ -181,6 +245,9 @@ def main():
             # Intent: the reference re-states this job (same measure names and fns).
             checks.check([(m["name"], m["fn"]) for m in job["measures"]] == [(m.name, m.fn) for m in rjob.measures],
                          "%s: measures differ from the reference's" % name)
+            checks.check([a["name"] for a in job.get("rows", {}).get("add", [])] == [a for a, _ in rjob.rows_add]
+                         and ("keep" in job.get("rows", {})) == (rjob.rows_keep is not None),
+                         "%s: rows step differs from the reference's" % name)
 
             # A copy of the job with absolute inputs and JSON output, to read typed values.
             copy = json.loads(json.dumps(job))
@@ -202,6 +269,7 @@ def main():
             expected = ref.evaluate(rjob, records)
             # Intent: every group and cell equals the reference (tolerances in e2e_lib.compare_cell).
             lib.compare_results(checks, name, rows, expected, rjob, emit.get("order"), emit.get("limit"))
+            compare_exact_columns(checks, name, rows, expected, rjob)
 
             # Intent: the shipped output format carries the same rows (CSV/JSON readable back).
             fmt = job.get("emit", {}).get("format", "table")
@@ -209,6 +277,8 @@ def main():
                 shipped = lib.read_rows(shipped_out, fmt)
                 checks.check(len(shipped) == len(rows), "%s: shipped %s output has %d rows, JSON copy %d"
                              % (name, fmt, len(shipped), len(rows)))
+            if fmt == "table" and os.path.exists(shipped_out):
+                check_table_digits(checks, name, job, shipped_out, rows)
 
         # Intent: together the example jobs use every measure fn of the spec.
         checks.check(ALL_FNS <= used_fns, "example jobs miss measure fns %s" % sorted(ALL_FNS - used_fns))
