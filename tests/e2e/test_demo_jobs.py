@@ -103,8 +103,9 @@ REFS = {
             M("lat", "histogram", of=p("/latency_ms"), edges=[0, 10, 25, 50, 100, 250]),
         ],
         rows_add=[("fault_share", lambda row: ratio(row["faults"], row["events"]))],  # faults / events
-        # fault_share >= 0.03 (a null share is not kept)
-        rows_keep=lambda row: row["fault_share"] is not None and row["fault_share"] >= 0.03),
+        # events >= 1000 and fault_share >= 0.03 (a null share is not kept)
+        rows_keep=lambda row: (row["events"] >= 1000
+                               and row["fault_share"] is not None and row["fault_share"] >= 0.03)),
     "csv_daily.json": RefJob(
         group=[("day", lambda r: ref.period_start(t_csv(r), "day")), ("weekday", lambda r: ref.weekday(t_csv(r))),
                ("fw_channel", c("fw_channel"))],
