@@ -42,7 +42,7 @@ std::string Quote(std::string_view text) {
 
 class Scanner {
  public:
-  explicit Scanner(std::string_view text) : t_(text) {
+  Scanner(std::string_view text, bool one_line) : t_(text), one_line_(one_line) {
     if (t_.substr(0, 3) == "\xEF\xBB\xBF") start_ = i_ = 3;
   }
 
@@ -158,7 +158,7 @@ class Scanner {
   // " at line L, column C: " + what, for the character at byte `at`.
   std::string At(size_t at, const std::string& what) const { return " at " + LineColumn(at) + ": " + what; }
 
-  // "line L, column C" of the character at byte `at`.
+  // "line L, column C" of the character at byte `at` ("column C" for one line).
   std::string LineColumn(size_t at) const {
     size_t line = 1, column = 1;
     for (size_t k = start_; k < at && k < t_.size(); ++k) {
@@ -169,6 +169,7 @@ class Scanner {
         ++column;  // a UTF-8 continuation byte is part of the character before
       }
     }
+    if (one_line_) return "column " + std::to_string(column);
     return "line " + std::to_string(line) + ", column " + std::to_string(column);
   }
 
@@ -313,12 +314,19 @@ class Scanner {
   }
 
   std::string_view t_;
+  bool one_line_;     // places named by column only
   size_t start_ = 0;  // past a byte-order mark, which no editor counts as a column
   size_t i_ = 0;
 };
 
 }  // namespace
 
-std::string JsonSyntaxProblem(std::string_view text) { return Scanner(text).Run(); }
+std::string JsonSyntaxProblem(std::string_view text) { return Scanner(text, false).Run(); }
+
+std::string JsonLineSyntaxProblem(std::string_view line) {
+  std::string problem = Scanner(line, true).Run();
+  if (problem.rfind(" at ", 0) == 0) problem.erase(0, 4);
+  return problem;
+}
 
 }  // namespace fanfold

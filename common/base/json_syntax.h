@@ -15,4 +15,9 @@ namespace fanfold {
 // A leading UTF-8 byte-order mark is skipped, as the JSON reader skips it.
 std::string JsonSyntaxProblem(std::string_view text);
 
+// The same for one line of NDJSON, whose line number the caller knows:
+// "column C: expected ..., found ..." (every place named by its column
+// only), or "" iff the scanner finds the line to be JSON.
+std::string JsonLineSyntaxProblem(std::string_view line);
+
 }  // namespace fanfold

@@ -17,16 +17,11 @@ namespace {
 namespace dom = simdjson::dom;
 
 // Why simdjson refused a line, in our words: the column and what was
-// expected (JsonSyntaxProblem), or, for a line that is JSON by RFC 8259 but
+// expected (JsonLineSyntaxProblem), or, for a line that is JSON by RFC 8259 but
 // beyond what the reader takes, the limit it passed.
 std::string MalformedReason(std::string_view line, simdjson::error_code err) {
-  std::string problem = JsonSyntaxProblem(line);
-  if (const size_t at = problem.find("column "); !problem.empty() && at != std::string::npos) {
-    // One line: "column C: expected ..., found ...", without "line 1, " inside either.
-    problem = problem.substr(at);
-    for (size_t k; (k = problem.find("line 1, column ")) != std::string::npos;) problem.erase(k, 8);
-    return problem;
-  }
+  std::string problem = JsonLineSyntaxProblem(line);
+  if (problem.rfind("column ", 0) == 0) return problem;
   switch (err) {
     case simdjson::DEPTH_ERROR: return "nested deeper than the reader's limit of 1024 levels";
     case simdjson::NUMBER_ERROR: return "a number that is not valid JSON";
