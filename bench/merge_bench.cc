@@ -107,13 +107,13 @@ void FillTemplate(const Plan& plan, const BenchOptions& o, uint64_t t, PartialSt
   const uint64_t shift = o.groups / 20 + 1;
   char lamp[16];
   for (uint64_t g = t * shift; g < t * shift + o.groups; ++g) {
-    MeasureState* const* states = p->groups.FindOrAdd(GroupKey(g));
+    MeasureState* const* states = p->reductions[0].groups.FindOrAdd(GroupKey(g));
     for (uint64_t r = 0; r < o.values; ++r) {
       const uint64_t h = Mix(Mix(t * 1000003 + g) + r);
       std::snprintf(lamp, sizeof lamp, "L-%05u", static_cast<unsigned>(h % 4000));
       const double latency = std::exp(2.4 + 0.8 * (static_cast<double>(h >> 11) / 9007199254740992.0 - 0.5) * 4);
-      for (size_t m = 0; m < plan.measures.size(); ++m) {
-        const MeasureKind kind = plan.measures[m].config.kind;
+      for (size_t m = 0; m < plan.reductions[0].measures.size(); ++m) {
+        const MeasureKind kind = plan.reductions[0].measures[m].config.kind;
         const bool text = kind == MeasureKind::kHyperLogLog || kind == MeasureKind::kDistinct ||
                           kind == MeasureKind::kTop;
         Value args[2] = {text ? Value::String(lamp) : Value::Number(latency),
@@ -138,7 +138,7 @@ int Run(const BenchOptions& o) {
   }
   const Plan& pl = **plan;
   std::vector<MeasureConfig> configs;
-  for (const CompiledMeasure& m : pl.measures) configs.push_back(m.config);
+  for (const CompiledMeasure& m : pl.reductions[0].measures) configs.push_back(m.config);
 
   const auto build_start = std::chrono::steady_clock::now();
   std::vector<std::string> encoded;
@@ -184,7 +184,7 @@ int Run(const BenchOptions& o) {
     return 3;
   }
   const auto f0 = std::chrono::steady_clock::now();
-  Result<OutputTable> table = merger.Finish();
+  Result<OutputTable> table = merger.Finish(0);
   const double finish_s = Seconds(std::chrono::steady_clock::now() - f0);
   if (!table.ok()) {
     std::fprintf(stderr, "merge_bench: %s\n", table.status().message().c_str());
@@ -208,7 +208,7 @@ int Run(const BenchOptions& o) {
       "\"per_partial_ms\": {\"median\": %.3f, \"min\": %.3f, \"max\": %.3f}, \"peak_rss_kib\": %ld}\n",
       static_cast<unsigned long long>(o.partials), static_cast<unsigned long long>(merged),
       static_cast<unsigned long long>(o.groups), static_cast<unsigned long long>(o.values), table->rows.size(),
-      pl.measures.size(), static_cast<double>(encoded_bytes) / static_cast<double>(merged), build_s, merge_s,
+      pl.reductions[0].measures.size(), static_cast<double>(encoded_bytes) / static_cast<double>(merged), build_s, merge_s,
       merge_s * static_cast<double>(o.partials) / static_cast<double>(merged), merge_cpu_s,
       merge_cpu_s * static_cast<double>(o.partials) / static_cast<double>(merged), finish_s,
       1000 * sorted[sorted.size() / 2], 1000 * sorted.front(), 1000 * sorted.back(), ru.ru_maxrss);

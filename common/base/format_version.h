@@ -11,6 +11,7 @@ namespace fanfold {
 
 // 3: exact integers in value keys, group keys and number-holding states, and
 // per-field presence counts in the body.
-inline constexpr uint16_t kPartialFormatVersion = 3;
+// 4: one group table per reduction, each with its own kept count.
+inline constexpr uint16_t kPartialFormatVersion = 4;
 
 }  // namespace fanfold

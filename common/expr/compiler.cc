@@ -236,7 +236,7 @@ class Compiler {
   std::string NearDerived(const std::string& name) const {
     std::vector<std::string> names;
     for (const FieldTable::Slot& s : fields_->slots())
-      if (s.derived) names.push_back(s.name);
+      if (s.derived && !s.hidden) names.push_back(s.name);
     return DidYouMean(name, names);
   }
 

@@ -16,6 +16,9 @@ class FieldTable {
   struct Slot {
     bool derived = false;
     std::string name;  // raw: the reference text; derived: the field's name
+    // A derived field out of scope (HideDerived): it keeps its slot, but
+    // names no longer find it.
+    bool hidden = false;
   };
 
   // Returns the slot of raw field `ref`, adding it on first use.
@@ -33,12 +36,17 @@ class FieldTable {
     return static_cast<int>(slots_.size() - 1);
   }
 
-  // Returns the slot of derived field `name`, or -1 iff there is none.
+  // Returns the slot of derived field `name` in scope, or -1 iff there is none.
   int FindDerived(std::string_view name) const {
     for (size_t i = 0; i < slots_.size(); ++i)
-      if (slots_[i].derived && slots_[i].name == name) return static_cast<int>(i);
+      if (slots_[i].derived && !slots_[i].hidden && slots_[i].name == name) return static_cast<int>(i);
     return -1;
   }
+
+  // Takes derived slot `slot` out of scope: FindDerived no longer finds it
+  // and AddDerived may reuse its name (a reduction's own derived fields are
+  // hidden from the reductions after it). REQUIRES: slot is derived.
+  void HideDerived(int slot) { slots_[static_cast<size_t>(slot)].hidden = true; }
 
   size_t size() const { return slots_.size(); }
   const Slot& slot(size_t i) const { return slots_[i]; }

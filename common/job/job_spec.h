@@ -1,6 +1,7 @@
-// JobSpec: a job file as written — inputs, filter, derived fields, group
-// keys, measures and output options — validated for shape and types but with
-// expressions still as text (Plan compiles them). Errors name the job file
+// JobSpec: a job file as written — inputs, the shared filter and derived
+// fields, and one or more reductions (each its own filter, derived fields,
+// group keys, measures, rows step and output options) — validated for shape
+// and types but with expressions still as text (Plan compiles them). Errors name the job file
 // and the JSON Pointer (RFC 6901) of the offending value, say what was found
 // and what was expected. The schema is documented in docs/job-file.md.
 // Plain data; thread-compatible.
@@ -70,6 +71,20 @@ struct EmitSpec {
   int digits = 0;  // > 0: CSV/table floats shown with this many significant digits (--digits overrides)
 };
 
+// One reduction: what to group by, compute and print over the records the
+// job's shared filter kept. A job file without "reductions" has exactly one,
+// unnamed, whose keys sit at the top level.
+struct ReductionSpec {
+  std::string name;     // "" iff the job has no "reductions" array
+  std::string pointer;  // JSON Pointer of its object: "" (top level) or "/reductions/N"
+  std::string keep;     // "" = every record the job's filter kept
+  std::vector<DeriveSpec> derive;  // its own derived fields, after the job's
+  std::vector<std::string> group;
+  std::vector<MeasureSpec> measures;
+  RowsSpec rows;
+  EmitSpec emit;
+};
+
 struct JobSpec {
   std::string job_path;   // as given by the user
   std::string base_dir;   // directory that relative paths start from
@@ -79,12 +94,12 @@ struct JobSpec {
   std::optional<RecordFormat> format;  // absent = inferred per file name
   std::optional<double> bad_record_limit;
   uint64_t chunk_bytes = 0;         // 0 = never cut files into chunks
-  std::string keep;                 // "" = keep every record
-  std::vector<DeriveSpec> derive;
-  std::vector<std::string> group;
-  std::vector<MeasureSpec> measures;
-  RowsSpec rows;
-  EmitSpec emit;
+  std::string keep;                 // "" = keep every record (shared by every reduction)
+  std::vector<DeriveSpec> derive;   // shared by every reduction
+  std::vector<ReductionSpec> reductions;  // at least one
+  // True iff the file has a "reductions" array (names are then non-empty
+  // and each reduction's result file is named after it).
+  bool named_reductions() const { return !reductions.empty() && !reductions.front().name.empty(); }
 };
 
 // Parses the text of a job file. job_path is used in messages and for

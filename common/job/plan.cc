@@ -64,47 +64,58 @@ std::string GroupColumnName(const std::string& text) {
 
 }  // namespace
 
-Result<std::unique_ptr<Plan>> CompilePlan(JobSpec spec, RecordFormat format) {
-  auto plan = std::make_unique<Plan>();
-  plan->spec = std::move(spec);
-  plan->format = format;
-  const JobSpec& s = plan->spec;
-  FieldTable* fields = &plan->fields;
+namespace {
 
-  for (size_t i = 0; i < s.derive.size(); ++i) {
-    const std::string p = ChildPointer("/derive", i);
-    if (!IsIdentifier(s.derive[i].name))
-      return Status::InvalidArgument(s.job_path + ": " + p + "/name: found \"" + s.derive[i].name +
+// Compiles derived fields `derive` found at `pointer` into plan->derive.
+// Returns the slots they took.
+Result<std::vector<int>> CompileDerives(Plan* plan, const std::vector<DeriveSpec>& derive, const std::string& pointer) {
+  const std::string& job = plan->spec.job_path;
+  std::vector<int> slots;
+  for (size_t i = 0; i < derive.size(); ++i) {
+    const std::string p = ChildPointer(pointer, i);
+    if (!IsIdentifier(derive[i].name))
+      return Status::InvalidArgument(job + ": " + p + "/name: found \"" + derive[i].name +
                                      "\"; expected an identifier (letters, digits, _; not starting with a digit)");
     // Compile before adding the name, so a field cannot refer to itself.
-    Result<Expr> e = CompileAt(*plan, fields, s.derive[i].expr, p + "/expr");
+    Result<Expr> e = CompileAt(*plan, &plan->fields, derive[i].expr, p + "/expr");
     if (!e.ok()) return e.status();
-    int slot = fields->AddDerived(s.derive[i].name);
+    int slot = plan->fields.AddDerived(derive[i].name);
     if (slot < 0)
-      return Status::InvalidArgument(s.job_path + ": " + p + "/name: found \"" + s.derive[i].name +
+      return Status::InvalidArgument(job + ": " + p + "/name: found \"" + derive[i].name +
                                      "\" again; expected a name not used by an earlier derived field");
-    plan->derive.push_back(CompiledDerive{slot, std::move(e.value())});
+    plan->derive.push_back(CompiledDerive{slot, std::move(e.value()), p + "/expr"});
+    slots.push_back(slot);
   }
-  if (!s.keep.empty()) {
-    Result<Expr> e = CompileAt(*plan, fields, s.keep, "/keep");
+  return slots;
+}
+
+// Compiles reduction r's filter, keys, measures, rows step and output order
+// into *out; its own derived fields are already in plan->derive.
+Status CompileReduction(Plan* plan, const ReductionSpec& r, ReductionPlan* out) {
+  const std::string& job = plan->spec.job_path;
+  FieldTable* fields = &plan->fields;
+  const std::string& at = r.pointer;
+  out->name = r.name;
+  if (!r.keep.empty()) {
+    Result<Expr> e = CompileAt(*plan, fields, r.keep, at + "/keep");
     if (!e.ok()) return e.status();
-    plan->keep.emplace(std::move(e.value()));
+    out->keep.emplace(std::move(e.value()));
   }
   std::set<std::string> names;
-  for (size_t i = 0; i < s.group.size(); ++i) {
-    const std::string p = ChildPointer("/group", i);
-    Result<Expr> e = CompileAt(*plan, fields, s.group[i], p);
+  for (size_t i = 0; i < r.group.size(); ++i) {
+    const std::string p = ChildPointer(at + "/group", i);
+    Result<Expr> e = CompileAt(*plan, fields, r.group[i], p);
     if (!e.ok()) return e.status();
-    plan->group.push_back(std::move(e.value()));
-    std::string column = GroupColumnName(s.group[i]);
+    out->group.push_back(std::move(e.value()));
+    std::string column = GroupColumnName(r.group[i]);
     if (!names.insert(column).second)
-      return Status::InvalidArgument(s.job_path + ": " + p + ": found \"" + s.group[i] + "\" (column \"" +
-                                     column + "\") twice; expected each group column name once");
-    plan->group_columns.push_back(column);
+      return Status::InvalidArgument(job + ": " + p + ": found \"" + r.group[i] + "\" (column \"" + column +
+                                     "\") twice; expected each group column name once");
+    out->group_columns.push_back(column);
   }
-  for (size_t i = 0; i < s.measures.size(); ++i) {
-    const MeasureSpec& ms = s.measures[i];
-    const std::string p = ChildPointer("/measures", i);
+  for (size_t i = 0; i < r.measures.size(); ++i) {
+    const MeasureSpec& ms = r.measures[i];
+    const std::string p = ChildPointer(at + "/measures", i);
     CompiledMeasure cm;
     cm.name = ms.name;
     cm.config = ms.config;
@@ -126,59 +137,111 @@ Result<std::unique_ptr<Plan>> CompilePlan(JobSpec spec, RecordFormat format) {
     cm.columns = MeasureRowOf(ms.config.kind).columns(ms.name, ms.config);
     for (const auto& col : cm.columns) {
       if (!names.insert(col).second)
-        return Status::InvalidArgument(s.job_path + ": " + p + "/name: output column \"" + col +
+        return Status::InvalidArgument(job + ": " + p + "/name: output column \"" + col +
                                        "\" is already used; expected a name distinct from the group keys "
                                        "and other measures");
     }
-    plan->measures.push_back(std::move(cm));
+    out->configs.push_back(cm.config);
+    out->measures.push_back(std::move(cm));
   }
-  plan->columns = plan->group_columns;
-  for (const auto& m : plan->measures)
-    plan->columns.insert(plan->columns.end(), m.columns.begin(), m.columns.end());
-  Result<RowsPlan> rows = CompileRowsPlan(s, plan->columns);
+  out->columns = out->group_columns;
+  for (const auto& m : out->measures) out->columns.insert(out->columns.end(), m.columns.begin(), m.columns.end());
+  Result<RowsPlan> rows = CompileRowsPlan(job, r, out->columns);
   if (!rows.ok()) return rows.status();
-  plan->rows = std::move(rows.value());
-  std::vector<std::string> shown = plan->columns;  // what emit.order may name
-  for (const AddedColumn& a : plan->rows.add) {
+  out->rows = std::move(rows.value());
+  std::vector<std::string> shown = out->columns;  // what emit.order may name
+  for (const AddedColumn& a : out->rows.add) {
     names.insert(a.name);
     shown.push_back(a.name);
   }
-  for (size_t i = 0; i < s.emit.order.size(); ++i) {
-    if (!names.count(s.emit.order[i].by)) {
+  for (size_t i = 0; i < r.emit.order.size(); ++i) {
+    if (!names.count(r.emit.order[i].by)) {
       std::string list;
       for (const auto& c : shown) list += (list.empty() ? "" : ", ") + c;
-      const std::string near = DidYouMean(s.emit.order[i].by, shown,
+      const std::string near = DidYouMean(r.emit.order[i].by, shown,
                                           [](std::string_view c) { return std::string("\"").append(c).append("\""); });
-      return Status::InvalidArgument(s.job_path + ": " + ChildPointer("/emit/order", i) + "/by: found \"" +
-                                     s.emit.order[i].by + "\"" + near + "; expected an output column: " + list);
+      return Status::InvalidArgument(job + ": " + ChildPointer(at + "/emit/order", i) + "/by: found \"" +
+                                     r.emit.order[i].by + "\"" + near + "; expected an output column: " + list);
     }
   }
-  // Derived fields the filter reads (directly or through other derived
-  // fields), then those only keys and measures read.
+  return Status::Ok();
+}
+
+// Marks the slots e reads in *need.
+void MarkRead(const Expr& e, std::vector<bool>* need) {
+  for (int s : e.SlotsRead()) (*need)[static_cast<size_t>(s)] = true;
+}
+
+// What a reduction reads besides its filter: keys, measure arguments and filters.
+void MarkRest(const ReductionPlan& r, std::vector<bool>* need) {
+  for (const Expr& g : r.group) MarkRead(g, need);
+  for (const CompiledMeasure& m : r.measures) {
+    for (const Expr& a : m.args) MarkRead(a, need);
+    if (m.only) MarkRead(*m.only, need);
+  }
+}
+
+// Which derived fields to evaluate, and when: the job's before its filter iff
+// the filter reads them, after it iff some reduction does; a reduction's own
+// before its filter iff that reads them, after it iff its keys or measures do.
+void OrderDerives(Plan* plan, size_t shared_count) {
+  // Derived fields read only earlier slots, so one backward pass closes the
+  // set over derived fields reading derived fields.
   auto closure = [&](std::vector<bool> need) {
     for (size_t i = plan->derive.size(); i-- > 0;)
-      if (need[plan->derive[i].slot])
-        for (int s : plan->derive[i].expr.SlotsRead()) need[s] = true;
+      if (need[static_cast<size_t>(plan->derive[i].slot)]) MarkRead(plan->derive[i].expr, &need);
     return need;
   };
-  std::vector<bool> for_keep(fields->size(), false), for_rest(fields->size(), false);
-  if (plan->keep)
-    for (int s : plan->keep->SlotsRead()) for_keep[s] = true;
-  for (const Expr& g : plan->group)
-    for (int s : g.SlotsRead()) for_rest[s] = true;
-  for (const CompiledMeasure& m : plan->measures) {
-    for (const Expr& a : m.args)
-      for (int s : a.SlotsRead()) for_rest[s] = true;
-    if (m.only)
-      for (int s : m.only->SlotsRead()) for_rest[s] = true;
+  const size_t n = plan->fields.size();
+  std::vector<bool> job_keep(n, false), any_reduction(n, false);
+  if (plan->keep) MarkRead(*plan->keep, &job_keep);
+  job_keep = closure(job_keep);
+  for (ReductionPlan& r : plan->reductions) {
+    std::vector<bool> keep(n, false), rest(n, false);
+    if (r.keep) MarkRead(*r.keep, &keep);
+    MarkRest(r, &rest);
+    keep = closure(keep);
+    rest = closure(rest);
+    for (size_t i = 0; i < n; ++i) any_reduction[i] = any_reduction[i] || keep[i] || rest[i];
+    for (size_t i = shared_count; i < plan->derive.size(); ++i) {
+      const size_t slot = static_cast<size_t>(plan->derive[i].slot);
+      if (keep[slot]) r.derive_before_keep.push_back(i);
+      else if (rest[slot]) r.derive_after_keep.push_back(i);
+    }
   }
-  for_keep = closure(for_keep);
-  for_rest = closure(for_rest);
-  for (size_t i = 0; i < plan->derive.size(); ++i) {
-    const int slot = plan->derive[i].slot;
-    if (for_keep[slot]) plan->derive_before_keep.push_back(i);
-    else if (for_rest[slot]) plan->derive_after_keep.push_back(i);
+  for (size_t i = 0; i < shared_count; ++i) {
+    const size_t slot = static_cast<size_t>(plan->derive[i].slot);
+    if (job_keep[slot]) plan->derive_before_keep.push_back(i);
+    else if (any_reduction[slot]) plan->derive_after_keep.push_back(i);
   }
+}
+
+}  // namespace
+
+Result<std::unique_ptr<Plan>> CompilePlan(JobSpec spec, RecordFormat format) {
+  auto plan = std::make_unique<Plan>();
+  plan->spec = std::move(spec);
+  plan->format = format;
+  const JobSpec& s = plan->spec;
+  Result<std::vector<int>> shared = CompileDerives(plan.get(), s.derive, "/derive");
+  if (!shared.ok()) return shared.status();
+  if (!s.keep.empty()) {
+    Result<Expr> e = CompileAt(*plan, &plan->fields, s.keep, "/keep");
+    if (!e.ok()) return e.status();
+    plan->keep.emplace(std::move(e.value()));
+  }
+  const size_t shared_count = plan->derive.size();
+  plan->reductions.resize(s.reductions.size());
+  for (size_t r = 0; r < s.reductions.size(); ++r) {
+    const ReductionSpec& rs = s.reductions[r];
+    Result<std::vector<int>> own = CompileDerives(plan.get(), rs.derive, rs.pointer + "/derive");
+    if (!own.ok()) return own.status();
+    FF_RETURN_IF_ERROR(CompileReduction(plan.get(), rs, &plan->reductions[r]));
+    // A reduction's own derived fields are its alone: the next ones cannot
+    // read them, and may use their names for fields of their own.
+    for (int slot : *own) plan->fields.HideDerived(slot);
+  }
+  OrderDerives(plan.get(), shared_count);
   const std::string canon = PlanCanonicalText(*plan);
   plan->fingerprint = XXH3_64bits(canon.data(), canon.size());
   return plan;
@@ -203,12 +266,18 @@ std::string PlanCanonicalText(const Plan& plan) {
   out += std::string("format=") + FormatName(plan.format) + "\n";
   out += "keep=" + s.keep + "\n";
   for (const auto& d : s.derive) out += "derive " + d.name + "=" + d.expr + "\n";
-  for (const auto& g : s.group) out += "group " + g + "\n";
-  for (const auto& m : s.measures) {
-    out += "measure " + m.name + " fn=" + MeasureRowOf(m.config.kind).fn + " of=" + m.of + " by=" + m.by + MeasureOptionsText(m.config);
-    // Only when set, so that plans without it keep their earlier text.
-    if (!m.only.empty()) out += " only=" + m.only;
-    out += "\n";
+  for (const ReductionSpec& r : s.reductions) {
+    out += "reduction" + (r.name.empty() ? std::string() : " " + r.name) + "\n";
+    out += " keep=" + r.keep + "\n";
+    for (const auto& d : r.derive) out += " derive " + d.name + "=" + d.expr + "\n";
+    for (const auto& g : r.group) out += " group " + g + "\n";
+    for (const auto& m : r.measures) {
+      out += " measure " + m.name + " fn=" + MeasureRowOf(m.config.kind).fn + " of=" + m.of + " by=" + m.by +
+             MeasureOptionsText(m.config);
+      // Only when set, so that plans without it keep their earlier text.
+      if (!m.only.empty()) out += " only=" + m.only;
+      out += "\n";
+    }
   }
   return out;
 }

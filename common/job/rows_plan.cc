@@ -87,9 +87,9 @@ class NameCheck {
 
 // Compiles the expression at `pointer` over the slots of *fields, whose
 // derived names are `names`.
-Result<Expr> CompileOver(const JobSpec& spec, const std::string& text, const std::string& pointer,
+Result<Expr> CompileOver(const std::string& job_path, const std::string& text, const std::string& pointer,
                          const std::vector<std::string>& names, FieldTable* fields) {
-  const std::string where = spec.job_path + ": " + pointer;
+  const std::string where = job_path + ": " + pointer;
   Result<AstNode> tree = ParseExpr(text);
   if (!tree.ok()) {
     // lat_p99.9 reads as a name and a number: say how to write such a name.
@@ -114,7 +114,8 @@ std::vector<std::string> RowsPlan::AddedNames() const {
   return out;
 }
 
-Result<RowsPlan> CompileRowsPlan(const JobSpec& spec, const std::vector<std::string>& columns) {
+Result<RowsPlan> CompileRowsPlan(const std::string& job_path, const ReductionSpec& spec,
+                                 const std::vector<std::string>& columns) {
   RowsPlan plan;
   std::vector<std::string> names;
   for (const std::string& c : columns) {
@@ -124,19 +125,19 @@ Result<RowsPlan> CompileRowsPlan(const JobSpec& spec, const std::vector<std::str
   plan.merged_columns = columns.size();
   for (size_t i = 0; i < spec.rows.add.size(); ++i) {
     const AddedColumnSpec& a = spec.rows.add[i];
-    const std::string p = ChildPointer("/rows/add", i);
+    const std::string p = ChildPointer(spec.pointer + "/rows/add", i);
     // Compiled before its name is added, so a column cannot read itself.
-    Result<Expr> e = CompileOver(spec, a.expr, p + "/expr", names, &plan.fields);
+    Result<Expr> e = CompileOver(job_path, a.expr, p + "/expr", names, &plan.fields);
     if (!e.ok()) return e.status();
     if (std::find(names.begin(), names.end(), a.name) != names.end())
-      return Status::InvalidArgument(spec.job_path + ": " + p + "/name: found \"" + a.name +
+      return Status::InvalidArgument(job_path + ": " + p + "/name: found \"" + a.name +
                                      "\", a column the result already has; expected a new column name");
     plan.fields.AddDerived(a.name);
     names.push_back(a.name);
     plan.add.push_back(AddedColumn{a.name, std::move(e.value()), a.shown_digits});
   }
   if (!spec.rows.keep.empty()) {
-    Result<Expr> e = CompileOver(spec, spec.rows.keep, "/rows/keep", names, &plan.fields);
+    Result<Expr> e = CompileOver(job_path, spec.rows.keep, spec.pointer + "/rows/keep", names, &plan.fields);
     if (!e.ok()) return e.status();
     plan.keep.emplace(std::move(e.value()));
   }

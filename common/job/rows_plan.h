@@ -33,11 +33,13 @@ struct RowsPlan {
   std::vector<std::string> AddedNames() const;
 };
 
-// Compiles spec.rows over the merged result's `columns`. In its expressions a
+// Compiles spec.rows (of a reduction of the job file at job_path) over the
+// merged result's `columns`. In its expressions a
 // bare name, or column('any name'), is a column of the row; a field reference
 // {...} is an error (there are no records after the merge). Errors name the
 // job file, the JSON Pointer and the column inside the expression, and offer
 // the nearest column names.
-Result<RowsPlan> CompileRowsPlan(const JobSpec& spec, const std::vector<std::string>& columns);
+Result<RowsPlan> CompileRowsPlan(const std::string& job_path, const ReductionSpec& spec,
+                                 const std::vector<std::string>& columns);
 
 }  // namespace fanfold

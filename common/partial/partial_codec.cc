@@ -46,8 +46,9 @@ ZstdContexts& Contexts() {
   return ctx;
 }
 
-// Reads the malformed-record samples and the field counts at the start of
-// out->body and points out->groups at the rest.
+// Reads the malformed-record samples, the field counts and the reductions'
+// kept counts from out->body, and points each reduction's groups at its
+// group table inside it.
 Status ReadSamples(OpenedPartial* out);
 
 }  // namespace
@@ -64,7 +65,15 @@ void EncodePartialBody(const PartialState& p, std::string* body) {
   }
   bw.Varint(p.field_present.size());
   for (uint64_t n : p.field_present) bw.Varint(n);
-  p.groups.Encode(bw);
+  bw.Varint(p.reductions.size());
+  std::string table;
+  for (const ReductionPartial& r : p.reductions) {
+    bw.Varint(r.kept);
+    table.clear();
+    ByteWriter tw(&table);
+    r.groups.Encode(tw);
+    bw.Str(table);
+  }
 }
 
 void EncodePartial(const PartialState& p, std::string* out) {
@@ -224,7 +233,17 @@ Status ReadSamples(OpenedPartial* out) {
   out->field_present.clear();
   for (uint64_t i = 0; i < nf; ++i) out->field_present.push_back(r.Varint());
   if (!r.ok()) return Status::Corrupt("partial state field counts are truncated");
-  out->groups = std::string_view(body).substr(body.size() - r.remaining());
+  const uint64_t nr = r.Count(2);
+  if (!r.ok() || nr == 0) return Status::Corrupt("partial state has a bad reduction count");
+  out->reductions.clear();
+  for (uint64_t i = 0; i < nr; ++i) {
+    OpenedReduction red;
+    red.kept = r.Varint();
+    red.groups = r.Str();
+    if (!r.ok()) return Status::Corrupt("partial state reduction " + std::to_string(i) + " is truncated");
+    out->reductions.push_back(red);
+  }
+  if (!r.at_end()) return Status::Corrupt("partial state body has trailing bytes");
   return Status::Ok();
 }
 
@@ -233,9 +252,15 @@ Status ReadSamples(OpenedPartial* out) {
 Status DecodePartial(std::string_view bytes, PartialState* out) {
   OpenedPartial opened;
   FF_RETURN_IF_ERROR(OpenPartial(bytes, &opened));
-  ByteReader r(opened.groups);
-  FF_RETURN_IF_ERROR(out->groups.Decode(r));
-  if (!r.at_end()) return Status::Corrupt("partial state body has trailing bytes");
+  if (opened.reductions.size() != out->reductions.size())
+    return Status::Corrupt("partial state has " + std::to_string(opened.reductions.size()) + " reductions; expected " +
+                           std::to_string(out->reductions.size()));
+  for (size_t i = 0; i < opened.reductions.size(); ++i) {
+    ByteReader r(opened.reductions[i].groups);
+    FF_RETURN_IF_ERROR(out->reductions[i].groups.Decode(r));
+    if (!r.at_end()) return Status::Corrupt("partial state group table has trailing bytes");
+    out->reductions[i].kept = opened.reductions[i].kept;
+  }
   out->header = opened.header;
   out->samples = std::move(opened.samples);
   out->field_present = std::move(opened.field_present);

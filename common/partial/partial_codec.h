@@ -23,7 +23,10 @@
 //              varint sample count, per sample: varint line, string reason;
 //              varint raw-field count, per raw field of the plan (FieldTable
 //              order): varint records in which it had a value;
-//              the GroupTable encoding (common/partial/group_table.h)
+//              varint reduction count, per reduction of the plan (in job
+//              order): varint records it kept (past the job's filter and
+//              its own), varint length + that many bytes of its GroupTable
+//              encoding (common/partial/group_table.h)
 //
 // Decoding checks every length against the input and the checksum before
 // decompressing, so corrupt or hostile bytes give Status::Corrupt, never a
@@ -66,6 +69,13 @@ struct PartialHeader {
   uint64_t encode_ns = 0;
 };
 
+// One reduction's part of a shard's partial state.
+struct ReductionPartial {
+  uint64_t kept = 0;  // records past the job's filter and the reduction's own
+  GroupTable groups;
+  explicit ReductionPartial(const std::vector<MeasureConfig>* configs) : groups(configs) {}
+};
+
 struct PartialState {
   PartialHeader header;
   std::vector<MalformedSample> samples;
@@ -73,8 +83,15 @@ struct PartialState {
   // in which the field had a value (null included; an empty CSV cell has
   // none). The run's end warns about a field no record had.
   std::vector<uint64_t> field_present;
-  GroupTable groups;
-  explicit PartialState(const std::vector<MeasureConfig>* configs) : groups(configs) {}
+  std::vector<ReductionPartial> reductions;  // one per reduction of the plan, in order
+  // One reduction per configs entry (each the measure configs of one
+  // reduction, outliving the state).
+  explicit PartialState(const std::vector<const std::vector<MeasureConfig>*>& configs) {
+    reductions.reserve(configs.size());
+    for (const std::vector<MeasureConfig>* c : configs) reductions.emplace_back(c);
+  }
+  // A state of one reduction.
+  explicit PartialState(const std::vector<MeasureConfig>* configs) { reductions.emplace_back(configs); }
 };
 
 // XXH3-64 of a shard path, as stored in the header.
@@ -84,7 +101,8 @@ uint64_t PathHash(std::string_view path);
 // written once and read once, so speed beats ratio.
 void EncodePartial(const PartialState& p, std::string* out);
 
-// The body alone, before compression (samples, field counts, then the group table).
+// The body alone, before compression (samples, field counts, then each
+// reduction's kept count and group table).
 void EncodePartialBody(const PartialState& p, std::string* body);
 
 // Rewrites the encode-time field of an encoded partial (and its checksum):
@@ -94,10 +112,17 @@ void SetPartialEncodeTime(uint64_t ns, std::string* partial);
 // Reads only the fixed header (checksum verified against the whole input).
 Status DecodePartialHeader(std::string_view bytes, PartialHeader* out);
 
+// One reduction of an opened partial: `groups` views its GroupTable
+// encoding inside OpenedPartial::body.
+struct OpenedReduction {
+  uint64_t kept = 0;
+  std::string_view groups;
+};
+
 // A partial state with its header and samples read and its body checked
-// and decompressed; `groups` views the GroupTable encoding inside `body`,
-// for GroupTable::CheckEncoded / MergeEncoded. Neither copied nor moved,
-// since `groups` points into `body`.
+// and decompressed; each reduction's `groups` views its GroupTable encoding
+// inside `body`, for GroupTable::CheckEncoded / MergeEncoded (not checked
+// here). Neither copied nor moved, since the views point into `body`.
 struct OpenedPartial {
   OpenedPartial() = default;
   OpenedPartial(const OpenedPartial&) = delete;
@@ -106,12 +131,13 @@ struct OpenedPartial {
   std::vector<MalformedSample> samples;
   std::vector<uint64_t> field_present;  // as PartialState::field_present
   std::string body;
-  std::string_view groups;
+  std::vector<OpenedReduction> reductions;
 };
 Status OpenPartial(std::string_view bytes, OpenedPartial* out);
 
-// Decodes bytes into *out, whose GroupTable must be empty and built with the
-// plan's measure configs.
+// Decodes bytes into *out, whose group tables must be empty and built with
+// the plan's measure configs (one per reduction; a partial of another
+// reduction count is corrupt).
 Status DecodePartial(std::string_view bytes, PartialState* out);
 
 }  // namespace fanfold

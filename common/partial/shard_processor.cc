@@ -37,18 +37,36 @@ class TimedSource final : public ByteSource {
   uint64_t ns_ = 0;
 };
 
-// Receives records from the reader and applies the plan to them.
+// One reduction's view of the plan for the aggregator: its group table and
+// where its keys and measure arguments can be read without evaluating.
+struct ReductionFeed {
+  const ReductionPlan* plan = nullptr;
+  GroupTable* table = nullptr;
+  uint64_t kept = 0;
+  std::vector<int> group_direct;              // Expr::DirectSlot of each key
+  std::vector<std::array<int, 2>> arg_direct;  // ... of each measure argument
+};
+
+// Receives records from the reader and applies the plan to them: the job's
+// derived fields and filter once per record, then every reduction.
 class Aggregator final : public RecordSink {
  public:
-  // REQUIRES: batch is empty and has the plan's width; it outlives this.
-  Aggregator(const Plan& plan, GroupTable* table, RecordBatch* batch, const std::function<void(uint64_t)>& hook,
+  // REQUIRES: batch is empty and has the plan's width; state has the plan's
+  // reductions; both outlive this.
+  Aggregator(const Plan& plan, PartialState* state, RecordBatch* batch, const std::function<void(uint64_t)>& hook,
              bool every)
-      : plan_(plan), table_(table), hook_(hook), hook_mask_(every ? 0 : 4095), batch_(*batch) {
-    for (const Expr& g : plan.group) group_direct_.push_back(g.DirectSlot());
-    for (const CompiledMeasure& m : plan.measures) {
-      std::array<int, 2> d = {-1, -1};
-      for (size_t a = 0; a < m.args.size() && a < 2; ++a) d[a] = m.args[a].DirectSlot();
-      arg_direct_.push_back(d);
+      : plan_(plan), hook_(hook), hook_mask_(every ? 0 : 4095), batch_(*batch) {
+    for (size_t r = 0; r < plan.reductions.size(); ++r) {
+      ReductionFeed f;
+      f.plan = &plan.reductions[r];
+      f.table = &state->reductions[r].groups;
+      for (const Expr& g : f.plan->group) f.group_direct.push_back(g.DirectSlot());
+      for (const CompiledMeasure& m : f.plan->measures) {
+        std::array<int, 2> d = {-1, -1};
+        for (size_t a = 0; a < m.args.size() && a < 2; ++a) d[a] = m.args[a].DirectSlot();
+        f.arg_direct.push_back(d);
+      }
+      feeds_.push_back(std::move(f));
     }
   }
 
@@ -71,6 +89,10 @@ class Aggregator final : public RecordSink {
   }
 
   uint64_t aggregate_ns() const { return aggregate_ns_; }
+  uint64_t kept() const { return kept_; }
+  uint64_t kept_by(size_t r) const { return feeds_[r].kept; }
+  // The reduction and measure that ran past its limit, or {-1, -1}.
+  std::pair<int, int> over_limit() const { return over_limit_; }
 
  private:
   void Derive(size_t i, Value* slots) {
@@ -86,46 +108,51 @@ class Aggregator final : public RecordSink {
     if (plan_.keep && !plan_.keep->Eval(slots, &arena_).Truthy()) return true;
     for (size_t i : plan_.derive_after_keep) Derive(i, slots);
     ++kept_;
+    for (size_t r = 0; r < feeds_.size(); ++r)
+      if (!Feed(static_cast<int>(r), feeds_[r], slots)) return false;
+    return true;
+  }
+
+  // Feeds one record to one reduction. Returns false iff a measure ran past its limit.
+  bool Feed(int r, ReductionFeed& f, Value* slots) {
+    const ReductionPlan& rp = *f.plan;
+    for (size_t i : rp.derive_before_keep) Derive(i, slots);
+    if (rp.keep && !rp.keep->Eval(slots, &arena_).Truthy()) return true;
+    for (size_t i : rp.derive_after_keep) Derive(i, slots);
+    ++f.kept;
     key_.clear();
-    for (size_t g = 0; g < plan_.group.size(); ++g) {
-      const int d = group_direct_[g];
-      AppendKeyValue(d >= 0 ? slots[d] : plan_.group[g].Eval(slots, &arena_), &key_);
+    for (size_t g = 0; g < rp.group.size(); ++g) {
+      const int d = f.group_direct[g];
+      AppendKeyValue(d >= 0 ? slots[d] : rp.group[g].Eval(slots, &arena_), &key_);
     }
-    MeasureState* const* states = table_->FindOrAdd(key_);
+    MeasureState* const* states = f.table->FindOrAdd(key_);
     Value args[2];
-    for (size_t m = 0; m < plan_.measures.size(); ++m) {
-      const CompiledMeasure& cm = plan_.measures[m];
+    for (size_t m = 0; m < rp.measures.size(); ++m) {
+      const CompiledMeasure& cm = rp.measures[m];
       if (cm.only && !cm.only->Eval(slots, &arena_).Truthy()) continue;  // not this measure's input
       for (size_t a = 0; a < cm.args.size(); ++a) {
-        const int d = arg_direct_[m][a];
+        const int d = f.arg_direct[m][a];
         args[a] = d >= 0 ? slots[d] : cm.args[a].Eval(slots, &arena_);
       }
       if (!states[m]->Add(args)) {
-        over_limit_ = static_cast<int>(m);
+        over_limit_ = {r, static_cast<int>(m)};
         return false;
       }
     }
     return true;
   }
 
- public:
-  uint64_t kept() const { return kept_; }
-  int over_limit() const { return over_limit_; }
-
- private:
   const Plan& plan_;
-  GroupTable* table_;
   const std::function<void(uint64_t)>& hook_;
   uint64_t hook_mask_;  // the hook runs when (records & mask) == 0
   ScratchArena arena_;
   std::string key_;
   uint64_t seen_ = 0;
   uint64_t kept_ = 0;
-  int over_limit_ = -1;
+  std::pair<int, int> over_limit_ = {-1, -1};
   RecordBatch& batch_;
   uint64_t aggregate_ns_ = 0;  // inside Drain
-  std::vector<int> group_direct_;              // Expr::DirectSlot of each key
-  std::vector<std::array<int, 2>> arg_direct_;  // ... of each measure argument
+  std::vector<ReductionFeed> feeds_;
 };
 
 std::string Percent(double f) {
@@ -137,7 +164,7 @@ std::string Percent(double f) {
 }  // namespace
 
 ShardProcessor::ShardProcessor(const Plan* plan) : plan_(plan), batch_(plan->fields.size()) {
-  for (const auto& m : plan->measures) configs_.push_back(m.config);
+  for (const ReductionPlan& r : plan->reductions) configs_.push_back(&r.configs);
 }
 
 Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
@@ -157,9 +184,9 @@ Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
                                                 : OpenChunkSource(task.path, task.offset, task.length);
   if (!src.ok()) return src.status().WithContext(where);
 
-  PartialState state(&configs_);
+  PartialState state(configs_);
   batch_.Clear();  // a failed shard may have left records behind
-  Aggregator agg(*plan_, &state.groups, &batch_, on_record, on_every_record);
+  Aggregator agg(*plan_, &state, &batch_, on_record, on_every_record);
   PresenceCounter present(plan_->fields, &agg);  // counts each raw field's values
   ReadStats stats;
   TimedSource timed(src->get());
@@ -170,12 +197,14 @@ Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
     reader_ = std::move(r.value());
   }
   Status s = reader_->Read(timed, present, &stats);
-  if (s.ok() && agg.over_limit() < 0) agg.Drain();
+  if (s.ok() && agg.over_limit().first < 0) agg.Drain();
   const uint64_t t1 = MonotonicNanos();
   if (!s.ok()) return s.WithContext(where);
-  if (agg.over_limit() >= 0) {
-    const CompiledMeasure& m = plan_->measures[agg.over_limit()];
-    return Status::LimitExceeded(where + ": measure \"" + m.name + "\" kept more than its limit of " +
+  if (const auto [r, m_index] = agg.over_limit(); r >= 0) {
+    const ReductionPlan& red = plan_->reductions[static_cast<size_t>(r)];
+    const CompiledMeasure& m = red.measures[static_cast<size_t>(m_index)];
+    const std::string in = red.name.empty() ? "" : " of reduction \"" + red.name + "\"";
+    return Status::LimitExceeded(where + ": measure \"" + m.name + "\"" + in + " kept more than its limit of " +
                                  std::to_string(m.config.limit) +
                                  " values in one group; raise \"limit\" or use an approximate measure");
   }
@@ -207,6 +236,7 @@ Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
   h.parse_ns = in_reader - std::min(in_reader, timed.ns() + h.aggregate_ns);
   state.samples = std::move(stats.samples);
   state.field_present = present.counts();
+  for (size_t r = 0; r < state.reductions.size(); ++r) state.reductions[r].kept = agg.kept_by(r);
   EncodePartial(state, partial);
   SetPartialEncodeTime(MonotonicNanos() - t1, partial);
   return Status::Ok();

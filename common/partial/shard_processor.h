@@ -1,6 +1,7 @@
 // ShardProcessor: the whole of a worker's job for one shard — open and
-// decompress it, read records, derive fields, filter, group and feed the
-// measures — producing the shard's encoded partial state. Holds the
+// decompress it, read records once, derive fields, filter, and for every
+// reduction filter again, group and feed the measures — producing the
+// shard's encoded partial state. Holds the
 // per-worker buffers (arena, key scratch) so they are reused across shards.
 // One instance per worker thread/process; the Plan must outlive it.
 #pragma once
@@ -41,7 +42,7 @@ class ShardProcessor {
 
  private:
   const Plan* plan_;
-  std::vector<MeasureConfig> configs_;
+  std::vector<const std::vector<MeasureConfig>*> configs_;  // per reduction, the plan's
   std::unique_ptr<RecordReader> reader_;  // made on first use, kept across shards
   RecordBatch batch_;                      // records waiting to be aggregated
 };

@@ -39,24 +39,35 @@ CommandOutcome CheckJob(const CheckOptions& o) {
   text += std::string("  records: ") + FormatName(plan.format) + "\n";
   text += "  keep:    " + (s.keep.empty() ? std::string("every record") : s.keep) + "\n";
   for (const auto& d : s.derive) text += "  derive:  " + d.name + " = " + d.expr + "\n";
-  if (s.group.empty()) text += "  group:   (none: one row for all records)\n";
-  for (size_t i = 0; i < s.group.size(); ++i)
-    text += "  group:   " + plan.group_columns[i] + (plan.group_columns[i] == s.group[i] ? "" : " = " + s.group[i]) + "\n";
-  for (const auto& m : s.measures) {
-    text += "  measure: " + m.name + " = " + m.fn;
-    if (!m.of.empty()) text += "(" + m.of + (m.by.empty() ? "" : " by " + m.by) + ")";
-    if (!m.only.empty()) text += ", only where " + m.only;
+  for (size_t r = 0; r < plan.reductions.size(); ++r) {
+    const ReductionPlan& red = plan.reductions[r];
+    const ReductionSpec& rs = s.reductions[r];
+    // A named reduction's lines are indented under its name.
+    const std::string in = rs.name.empty() ? "  " : "    ";
+    if (!rs.name.empty()) text += "  reduction " + rs.name + ":\n";
+    if (!rs.keep.empty()) text += in + "keep:    " + rs.keep + "\n";
+    for (const auto& d : rs.derive) text += in + "derive:  " + d.name + " = " + d.expr + "\n";
+    if (rs.group.empty()) text += in + "group:   (none: one row for all records)\n";
+    for (size_t i = 0; i < rs.group.size(); ++i)
+      text += in + "group:   " + red.group_columns[i] +
+              (red.group_columns[i] == rs.group[i] ? "" : " = " + rs.group[i]) + "\n";
+    for (const auto& m : rs.measures) {
+      text += in + "measure: " + m.name + " = " + m.fn;
+      if (!m.of.empty()) text += "(" + m.of + (m.by.empty() ? "" : " by " + m.by) + ")";
+      if (!m.only.empty()) text += ", only where " + m.only;
+      text += "\n";
+    }
+    for (const auto& a : rs.rows.add) text += in + "add:     " + a.name + " = " + a.expr + "\n";
+    if (!rs.rows.keep.empty()) text += in + "rows:    keep " + rs.rows.keep + "\n";
+    text += in + "columns: ";
+    for (size_t i = 0; i < red.columns.size(); ++i) text += (i ? ", " : "") + red.columns[i];
+    for (const auto& a : rs.rows.add) text += ", " + a.name;
+    text += "\n" + in + "output:  " + std::string(OutputFormatName(rs.emit.format)) + " to " +
+            (rs.emit.path.empty() ? std::string("stdout") : rs.emit.path);
+    if (rs.emit.limit) text += ", at most " + std::to_string(*rs.emit.limit) + " rows";
     text += "\n";
   }
-  for (const auto& a : s.rows.add) text += "  add:     " + a.name + " = " + a.expr + "\n";
-  if (!s.rows.keep.empty()) text += "  rows:    keep " + s.rows.keep + "\n";
-  text += "  columns: ";
-  for (size_t i = 0; i < plan.columns.size(); ++i) text += (i ? ", " : "") + plan.columns[i];
-  for (const auto& a : s.rows.add) text += ", " + a.name;
-  text += "\n  output:  " + std::string(OutputFormatName(s.emit.format)) + " to " +
-          (s.emit.path.empty() ? std::string("stdout") : s.emit.path);
-  if (s.emit.limit) text += ", at most " + std::to_string(*s.emit.limit) + " rows";
-  text += "\n  sampled: " + fields.sampled;
+  text += "  sampled: " + fields.sampled;
   if (fields.unseen > 0)
     text += "; " + std::to_string(fields.unseen) + (fields.unseen == 1 ? " field" : " fields") +
             " in none of them (warnings on stderr)";

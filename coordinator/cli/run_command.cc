@@ -76,12 +76,8 @@ CommandOutcome RunJob(const RunOptions& o) {
     out.status = job.status();
     return out;
   }
-  Result<OutputFormat> format = ChooseOutputFormat(o.output_path, job->plan->spec.emit);
-  if (!format.ok()) {
-    out.status = format.status();
-    return out;
-  }
-  job->plan->spec.emit.format = *format;
+  out.status = ApplyOutputOption(o.output_path, &job->plan->spec);
+  if (!out.status.ok()) return out;
   const std::string run_dir = o.run_dir.empty() ? DefaultRunDir(o.job_path) : o.run_dir;
   const std::string run_dir_abs = fs::absolute(run_dir).lexically_normal().string();
   RunDirectory::State state = RunDirectory::Probe(run_dir);
@@ -191,12 +187,8 @@ CommandOutcome ResumeRun(const RunOptions& given) {
                                          " --run-dir " + o.run_dir + " --fresh");
     return out;
   }
-  Result<OutputFormat> format = ChooseOutputFormat(o.output_path, (*plan)->spec.emit);
-  if (!format.ok()) {
-    out.status = format.status();
-    return out;
-  }
-  (*plan)->spec.emit.format = *format;
+  out.status = ApplyOutputOption(o.output_path, &(*plan)->spec);
+  if (!out.status.ok()) return out;
   RunInput in;
   in.plan = plan->get();
   in.shards = &manifest.shards;

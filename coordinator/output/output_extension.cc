@@ -37,4 +37,17 @@ Result<OutputFormat> ChooseOutputFormat(const std::string& output_path, const Em
                                  OutputFormatName(emit.format) + " there");
 }
 
+Status ApplyOutputOption(const std::string& output_path, JobSpec* spec) {
+  if (!output_path.empty() && output_path != "-" && spec->reductions.size() > 1)
+    return Status::InvalidArgument("-o " + output_path + ": the job has " + std::to_string(spec->reductions.size()) +
+                                   " reductions, which cannot share one file; give each an emit.path in the job "
+                                   "file, or use -o - to show them all on stdout");
+  for (ReductionSpec& r : spec->reductions) {
+    Result<OutputFormat> f = ChooseOutputFormat(output_path, r.emit);
+    if (!f.ok()) return f.status();
+    r.emit.format = *f;
+  }
+  return Status::Ok();
+}
+
 }  // namespace fanfold

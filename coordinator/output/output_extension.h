@@ -22,4 +22,9 @@ std::optional<OutputFormat> FormatForExtension(const std::string& path);
 // emit.format the job sets is a usage error naming both.
 Result<OutputFormat> ChooseOutputFormat(const std::string& output_path, const EmitSpec& emit);
 
+// Sets every reduction's emit.format for a run with -o output_path (as
+// ChooseOutputFormat). A file (not "" or "-") for a job of several
+// reductions is a usage error: they cannot share one file.
+Status ApplyOutputOption(const std::string& output_path, JobSpec* spec);
+
 }  // namespace fanfold

@@ -51,15 +51,21 @@ std::string WhereFieldIsRead(const Plan& plan, const std::string& name) {
     }
     return false;
   };
-  for (size_t i = 0; i < plan.derive.size(); ++i)
-    if (reads(plan.derive[i].expr)) return ChildPointer("/derive", i) + "/expr";
+  for (const CompiledDerive& d : plan.derive)
+    if (reads(d.expr)) return d.pointer;
   if (plan.keep && reads(*plan.keep)) return "/keep";
-  for (size_t i = 0; i < plan.group.size(); ++i)
-    if (reads(plan.group[i])) return ChildPointer("/group", i);
-  for (size_t i = 0; i < plan.measures.size(); ++i) {
-    for (size_t a = 0; a < plan.measures[i].args.size(); ++a)
-      if (reads(plan.measures[i].args[a])) return ChildPointer("/measures", i) + (a == 0 ? "/of" : "/by");
-    if (plan.measures[i].only && reads(*plan.measures[i].only)) return ChildPointer("/measures", i) + "/only";
+  for (size_t r = 0; r < plan.reductions.size(); ++r) {
+    const ReductionPlan& red = plan.reductions[r];
+    const std::string& at = plan.spec.reductions[r].pointer;
+    if (red.keep && reads(*red.keep)) return at + "/keep";
+    for (size_t i = 0; i < red.group.size(); ++i)
+      if (reads(red.group[i])) return ChildPointer(at + "/group", i);
+    for (size_t i = 0; i < red.measures.size(); ++i) {
+      const std::string p = ChildPointer(at + "/measures", i);
+      for (size_t a = 0; a < red.measures[i].args.size(); ++a)
+        if (reads(red.measures[i].args[a])) return p + (a == 0 ? "/of" : "/by");
+      if (red.measures[i].only && reads(*red.measures[i].only)) return p + "/only";
+    }
   }
   return "";
 }

@@ -10,10 +10,11 @@ constexpr size_t kMaxReportedSamples = ReadStats::kMaxSamples;
 Merger::Merger(const Plan* plan, uint32_t shard_count, uint64_t waiting_budget)
     : plan_(plan),
       shard_count_(shard_count),
-      result_(&configs_),
       waiting_budget_(waiting_budget),
       failed_(shard_count, false) {
-  for (const auto& m : plan->measures) configs_.push_back(m.config);
+  results_.reserve(plan->reductions.size());
+  for (const ReductionPlan& r : plan->reductions) results_.emplace_back(&r.configs);
+  totals_.kept_by_reduction.assign(plan->reductions.size(), 0);
   for (const auto& slot : plan->fields.slots())
     if (!slot.derived) totals_.field_present.push_back(0);
 }
@@ -63,17 +64,23 @@ void Merger::Drain() {
     waiting_bytes_ -= bytes.size();
     Status s = bytes.empty() && reload_ ? reload_(next_, &bytes) : Status::Ok();
     if (s.ok()) s = OpenPartial(bytes, &p);
+    if (s.ok() && p.reductions.size() != results_.size())
+      s = Status::Corrupt("partial state has " + std::to_string(p.reductions.size()) + " reductions; the plan has " +
+                          std::to_string(results_.size()));
     // Every byte is checked before any is merged, so a bad partial leaves
     // the result as it was and costs only its own shard.
-    if (s.ok()) s = result_.CheckEncoded(p.groups);
+    for (size_t r = 0; r < results_.size() && s.ok(); ++r) s = results_[r].table.CheckEncoded(p.reductions[r].groups);
     if (!s.ok()) {  // the checksum matched, so this is a bug or a forged file
       late_failures_.push_back({next_, s.message()});
       failed_[next_] = true;
       ++next_;
       continue;
     }
-    Status m = result_.MergeEncoded(p.groups);
-    if (!m.ok() && fatal_.ok()) fatal_ = m.WithContext("merging shard " + std::to_string(next_));
+    for (size_t r = 0; r < results_.size(); ++r) {
+      Status m = results_[r].table.MergeEncoded(p.reductions[r].groups);
+      if (!m.ok() && fatal_.ok()) fatal_ = m.WithContext("merging shard " + std::to_string(next_));
+      totals_.kept_by_reduction[r] += p.reductions[r].kept;
+    }
     totals_.shards_merged++;
     totals_.records += p.header.records;
     totals_.kept += p.header.kept;
@@ -91,26 +98,30 @@ void Merger::Drain() {
   }
 }
 
-Result<OutputTable> Merger::Finish() {
+Result<OutputTable> Merger::Finish(size_t r) {
   if (!complete()) return Status::Internal("Merger::Finish before every shard was merged");
   if (!fatal_.ok()) return fatal_;
+  const ReductionPlan& plan = plan_->reductions[r];
+  GroupTable& result = results_[r].table;
   OutputTable t;
-  t.columns = plan_->columns;
-  t.key_columns = plan_->group.size();
+  t.columns = plan.columns;
+  t.key_columns = plan.group.size();
   // With no group keys there is always exactly one row, even over no input.
-  if (plan_->group.empty() && result_.group_count() == 0) (void)result_.FindOrAdd("");
-  t.rows.reserve(result_.group_count());
-  skipped_.assign(plan_->measures.size(), 0);
-  degraded_.assign(plan_->measures.size(), 0);
-  for (size_t g = 0; g < result_.group_count(); ++g) {
+  if (plan.group.empty() && result.group_count() == 0) (void)result.FindOrAdd("");
+  t.rows.reserve(result.group_count());
+  std::vector<uint64_t>& skipped = results_[r].skipped;
+  std::vector<uint64_t>& degraded = results_[r].degraded;
+  skipped.assign(plan.measures.size(), 0);
+  degraded.assign(plan.measures.size(), 0);
+  for (size_t g = 0; g < result.group_count(); ++g) {
     std::vector<Cell> row;
     row.reserve(t.columns.size());
-    FF_RETURN_IF_ERROR(DecodeKey(result_.key(g), plan_->group.size(), &row));
-    MeasureState* const* states = result_.states(g);
-    for (size_t m = 0; m < plan_->measures.size(); ++m) {
+    FF_RETURN_IF_ERROR(DecodeKey(result.key(g), plan.group.size(), &row));
+    MeasureState* const* states = result.states(g);
+    for (size_t m = 0; m < plan.measures.size(); ++m) {
       states[m]->Finalize(&row);
-      skipped_[m] += states[m]->skipped();
-      degraded_[m] += states[m]->degraded() ? 1 : 0;
+      skipped[m] += states[m]->skipped();
+      degraded[m] += states[m]->degraded() ? 1 : 0;
     }
     t.rows.push_back(std::move(row));
   }

@@ -21,7 +21,8 @@ namespace fanfold {
 struct MergeTotals {
   uint64_t shards_merged = 0;
   uint64_t records = 0;    // read, malformed included
-  uint64_t kept = 0;
+  uint64_t kept = 0;       // past the job's filter
+  std::vector<uint64_t> kept_by_reduction;  // past the job's filter and each reduction's own
   uint64_t malformed = 0;
   uint64_t raw_bytes = 0;
   uint64_t compressed_bytes = 0;
@@ -71,16 +72,16 @@ class Merger {
   // turn came (a bug or a forged file): shard and message.
   const std::vector<std::pair<uint32_t, std::string>>& late_failures() const { return late_failures_; }
 
-  // The finished table: key columns, then the measures' columns; sorted by
-  // key. Fails if merging pushed a bounded measure past its limit.
-  // REQUIRES: complete().
-  Result<OutputTable> Finish();
-  // After Finish: per measure, the values it skipped (missing, null or not
-  // usable, e.g. text for a numeric measure), over all groups.
-  const std::vector<uint64_t>& skipped() const { return skipped_; }
-  // After Finish: per measure, the groups whose result is not exact although
-  // the measure is exact within its bound (MeasureState::degraded).
-  const std::vector<uint64_t>& degraded() const { return degraded_; }
+  // Reduction r's finished table: key columns, then the measures' columns;
+  // sorted by key. Fails if merging pushed a bounded measure past its limit.
+  // REQUIRES: complete(); r < the plan's reduction count; called once per r.
+  Result<OutputTable> Finish(size_t r);
+  // After Finish(r): per measure of reduction r, the values it skipped
+  // (missing, null or not usable, e.g. text for a numeric measure), over all groups.
+  const std::vector<uint64_t>& skipped(size_t r) const { return results_[r].skipped; }
+  // After Finish(r): per measure of reduction r, the groups whose result is
+  // not exact although the measure is exact within its bound (MeasureState::degraded).
+  const std::vector<uint64_t>& degraded(size_t r) const { return results_[r].degraded; }
 
  private:
   void Drain();  // merges every ready partial starting at next_
@@ -88,8 +89,13 @@ class Merger {
   const Plan* plan_;
   uint32_t shard_count_;
   uint32_t next_ = 0;  // lowest shard not yet merged or skipped
-  std::vector<MeasureConfig> configs_;
-  GroupTable result_;
+  struct ReductionResult {
+    GroupTable table;
+    std::vector<uint64_t> skipped;
+    std::vector<uint64_t> degraded;
+    explicit ReductionResult(const std::vector<MeasureConfig>* configs) : table(configs) {}
+  };
+  std::vector<ReductionResult> results_;  // per reduction
   uint64_t waiting_budget_;
   std::map<uint32_t, std::string> waiting_;  // early partials by shard ("" = reload it)
   uint64_t waiting_bytes_ = 0;               // their total size
@@ -98,8 +104,6 @@ class Merger {
   MergeTotals totals_;
   std::vector<MalformedReport> samples_;
   std::vector<std::pair<uint32_t, std::string>> late_failures_;
-  std::vector<uint64_t> skipped_;
-  std::vector<uint64_t> degraded_;
   Status fatal_;  // first merge failure (a limit exceeded across shards)
 };
 

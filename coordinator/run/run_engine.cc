@@ -34,19 +34,22 @@ namespace {
 
 using nlohmann::json;
 
-std::string ResultName(OutputFormat f) {
+// The result's file in the run directory: result.<ext> for a job of one
+// unnamed reduction, result-<name>.<ext> for each named one.
+std::string ResultName(const std::string& reduction, OutputFormat f) {
+  std::string name = reduction.empty() ? "result" : "result-" + reduction;
   switch (f) {
-    case OutputFormat::kCsv: return "result.csv";
-    case OutputFormat::kJson: return "result.json";
-    case OutputFormat::kNdjson: return "result.ndjson";
-    case OutputFormat::kTable: return "result.txt";
+    case OutputFormat::kCsv: return name + ".csv";
+    case OutputFormat::kJson: return name + ".json";
+    case OutputFormat::kNdjson: return name + ".ndjson";
+    case OutputFormat::kTable: return name + ".txt";
   }
-  return "result";
+  return name;
 }
 
-std::string OutputPath(const RunOptions& o, const Plan& plan) {
+std::string OutputPath(const RunOptions& o, const Plan& plan, size_t r) {
   if (!o.output_path.empty()) return o.output_path == "-" ? "" : o.output_path;
-  const std::string& p = plan.spec.emit.path;
+  const std::string& p = plan.spec.reductions[r].emit.path;
   if (p.empty()) return "";
   std::filesystem::path path(p);
   return path.is_absolute() ? p : (std::filesystem::path(plan.spec.base_dir) / path).string();
@@ -65,8 +68,7 @@ Status WriteOutput(const std::string& path, const std::string& text) {
   return WriteFileAtomic(path, text);
 }
 
-json SummaryJson(const RunInput& in, const RunSummary& s, const Merger& merger, const std::string& output,
-                 int workers, uint64_t retries) {
+json SummaryJson(const RunInput& in, const RunSummary& s, int workers, uint64_t retries) {
   const Plan& plan = *in.plan;
   json failed = json::array();
   for (const auto& f : s.failures)
@@ -77,12 +79,6 @@ json SummaryJson(const RunInput& in, const RunSummary& s, const Merger& merger, 
     json sample = {{"shard", m.shard}, {"path", shard.path}, {"line", m.sample.line}, {"reason", m.sample.reason}};
     if (shard.offset > 0) sample["chunk_offset"] = shard.offset;  // the line counts from there
     samples.push_back(std::move(sample));
-  }
-  json skipped = json::object();
-  json inexact = json::object();
-  for (size_t m = 0; m < plan.measures.size() && m < merger.skipped().size(); ++m) {
-    skipped[plan.measures[m].name] = merger.skipped()[m];
-    if (merger.degraded()[m] > 0) inexact[plan.measures[m].name] = merger.degraded()[m];
   }
   const MergeTotals& t = s.totals;
   // Per raw field, the records that had it (null when a partial lacked the
@@ -115,11 +111,28 @@ json SummaryJson(const RunInput& in, const RunSummary& s, const Merger& merger, 
                                     {"decompressed", s.processed.raw_bytes}}}}},
           {"failed", failed},
           {"malformed_samples", samples},
-          {"skipped", skipped},
-          {"inexact_groups", inexact},
           {"field_presence", presence},
-          {"warnings", warnings},
-          {"output", output.empty() ? "stdout" : output}};
+          {"warnings", warnings}};
+}
+
+// What summary.json says of one reduction: its measures' skipped values and
+// inexact groups, its rows step, where its result went.
+json ReductionJson(const ReductionPlan& plan, const ReductionSpec& spec, const Merger& merger, size_t r,
+                   const FinishedReduction& f) {
+  json skipped = json::object();
+  json inexact = json::object();
+  for (size_t m = 0; m < plan.measures.size() && m < merger.skipped(r).size(); ++m) {
+    skipped[plan.measures[m].name] = merger.skipped(r)[m];
+    if (merger.degraded(r)[m] > 0) inexact[plan.measures[m].name] = merger.degraded(r)[m];
+  }
+  json out = {{"skipped", skipped}, {"inexact_groups", inexact}};
+  if (spec.rows.given) {
+    json no_value = json::object();
+    for (size_t i = 0; i < plan.rows.add.size(); ++i) no_value[plan.rows.add[i].name] = f.rows.no_value[i];
+    out["rows"] = {{"merged", f.rows.rows_in}, {"dropped", f.rows.rows_dropped}, {"no_value", no_value}};
+  }
+  out["output"] = f.output_path.empty() ? "stdout" : f.output_path;
+  return out;
 }
 
 }  // namespace
@@ -146,12 +159,17 @@ CommandOutcome RunEngine::Execute() {
     out.status = Stop();
     return out;
   }
-  Result<OutputTable> table = Finish();
-  if (!table.ok()) {
-    out.status = table.status();
-    return out;
+  Status written = Status::Ok();
+  finished_.resize(plan_.reductions.size());
+  for (size_t r = 0; r < plan_.reductions.size() && written.ok(); ++r) {
+    // One reduction at a time: its table is gone before the next is made.
+    Result<OutputTable> table = Finish(r);
+    if (!table.ok()) {
+      out.status = table.status();
+      return out;
+    }
+    written = Render(r, *table);
   }
-  const Status written = Render(*table);
   out.status = Summarise(written);
   if (!out.status.ok()) return out;
   PrintNotes();
@@ -249,43 +267,61 @@ Status RunEngine::Stop() {
   return Status::Interrupted("run interrupted by signal " + std::to_string(SignalGuard::signal_number()));
 }
 
-Result<OutputTable> RunEngine::Finish() {
-  Result<OutputTable> table = merger_.Finish();
+Result<OutputTable> RunEngine::Finish(size_t r) {
+  Result<OutputTable> table = merger_.Finish(r);
   if (!table.ok()) return table;
-  rows_ = ApplyRowsStep(plan_.rows, &*table);
-  SortRows(&*table, plan_.spec.emit.order);
-  if (plan_.spec.emit.limit && table->rows.size() > *plan_.spec.emit.limit) table->rows.resize(*plan_.spec.emit.limit);
+  const ReductionPlan& plan = plan_.reductions[r];
+  const EmitSpec& emit = plan_.spec.reductions[r].emit;
+  finished_[r].rows = ApplyRowsStep(plan.rows, &*table);
+  SortRows(&*table, emit.order);
+  if (emit.limit && table->rows.size() > *emit.limit) table->rows.resize(*emit.limit);
   return table;
 }
 
-Status RunEngine::Render(const OutputTable& table) {
+Status RunEngine::Render(size_t r, const OutputTable& table) {
+  const ReductionPlan& plan = plan_.reductions[r];
+  const ReductionSpec& spec = plan_.spec.reductions[r];
   // The run directory keeps every digit; only what the user reads is rounded.
-  const std::string text = RenderTable(table, plan_.spec.emit.format);
-  output_path_ = OutputPath(options_, plan_);
-  Status w = dir_.WriteFile(ResultName(plan_.spec.emit.format), text);
+  const std::string text = RenderTable(table, spec.emit.format);
+  const std::string path = OutputPath(options_, plan_, r);
+  finished_[r].output_path = path;
+  Status w = dir_.WriteFile(ResultName(spec.name, spec.emit.format), text);
   // --digits wins over everything; else a measure's shown_digits over emit.digits.
   RenderOptions shown;
-  shown.digits = options_.digits > 0 ? options_.digits : plan_.spec.emit.digits;
+  shown.digits = options_.digits > 0 ? options_.digits : spec.emit.digits;
   if (options_.digits == 0) {
-    shown.column_digits.assign(plan_.group_columns.size(), 0);
-    for (size_t m = 0; m < plan_.measures.size(); ++m)
-      shown.column_digits.insert(shown.column_digits.end(), plan_.measures[m].columns.size(),
-                                 plan_.spec.measures[m].shown_digits);
-    for (const AddedColumn& a : plan_.rows.add) shown.column_digits.push_back(a.shown_digits);
+    shown.column_digits.assign(plan.group_columns.size(), 0);
+    for (size_t m = 0; m < plan.measures.size(); ++m)
+      shown.column_digits.insert(shown.column_digits.end(), plan.measures[m].columns.size(),
+                                 spec.measures[m].shown_digits);
+    for (const AddedColumn& a : plan.rows.add) shown.column_digits.push_back(a.shown_digits);
   }
-  if (w.ok()) w = WriteOutput(output_path_, shown.rounds() ? RenderTable(table, plan_.spec.emit.format, shown) : text);
-  return w;
+  if (!w.ok()) return w;
+  std::string shown_text = shown.rounds() ? RenderTable(table, spec.emit.format, shown) : text;
+  // Named reductions on stdout, one after another, each under its title.
+  if (path.empty() && !spec.name.empty())
+    shown_text = (stdout_used_ ? "\n== " : "== ") + spec.name + " ==\n" + shown_text;
+  if (path.empty()) stdout_used_ = true;
+  return WriteOutput(path, shown_text);
 }
 
 Status RunEngine::Summarise(const Status& written) {
   Status w = written;
   summary_.wall_seconds = ElapsedSeconds();
   if (w.ok()) {
-    json j = SummaryJson(in_, summary_, merger_, output_path_, workers_, loop_.retries);
-    if (plan_.spec.rows.given) {
-      json no_value = json::object();
-      for (size_t i = 0; i < plan_.rows.add.size(); ++i) no_value[plan_.rows.add[i].name] = rows_.no_value[i];
-      j["rows"] = {{"merged", rows_.rows_in}, {"dropped", rows_.rows_dropped}, {"no_value", no_value}};
+    json j = SummaryJson(in_, summary_, workers_, loop_.retries);
+    if (plan_.spec.named_reductions()) {
+      json list = json::array();
+      for (size_t r = 0; r < plan_.reductions.size(); ++r) {
+        json one = ReductionJson(plan_.reductions[r], plan_.spec.reductions[r], merger_, r, finished_[r]);
+        one["name"] = plan_.reductions[r].name;
+        one["kept"] = merger_.totals().kept_by_reduction[r];
+        one["result"] = ResultName(plan_.reductions[r].name, plan_.spec.reductions[r].emit.format);
+        list.push_back(std::move(one));
+      }
+      j["reductions"] = std::move(list);
+    } else {
+      j.update(ReductionJson(plan_.reductions[0], plan_.spec.reductions[0], merger_, 0, finished_[0]));
     }
     w = dir_.WriteFile("summary.json", j.dump(1) + "\n");
   }
@@ -297,27 +333,36 @@ Status RunEngine::Summarise(const Status& written) {
 void RunEngine::PrintNotes() const {
   for (const auto& line : FormatRunSummary(summary_, list_)) Note(line);
   PrintQuietEssentials();
-  for (size_t m = 0; m < plan_.measures.size(); ++m) {
-    if (merger_.skipped()[m] > 0)
-      Note("measure \"" + plan_.measures[m].name + "\" skipped " + GroupedInteger(merger_.skipped()[m]) +
+  for (size_t r = 0; r < plan_.reductions.size(); ++r) PrintReductionNotes(r);
+  for (const RunWarning& w : EndOfRunWarnings(plan_, merger_.totals(), in_.names_seen)) LogWarning(w.text);
+  for (const FinishedReduction& f : finished_)
+    if (!f.output_path.empty()) Note("result written to " + f.output_path);
+}
+
+void RunEngine::PrintReductionNotes(size_t r) const {
+  const ReductionPlan& plan = plan_.reductions[r];
+  const RowsStepCounts& rows = finished_[r].rows;
+  // "measure "x" of reduction "daily"" when the job has named reductions.
+  const std::string of = plan.name.empty() ? "" : " of reduction \"" + plan.name + "\"";
+  for (size_t m = 0; m < plan.measures.size(); ++m) {
+    if (merger_.skipped(r)[m] > 0)
+      Note("measure \"" + plan.measures[m].name + "\"" + of + " skipped " + GroupedInteger(merger_.skipped(r)[m]) +
            " values that were missing, null or not usable");
   }
-  for (size_t i = 0; i < plan_.rows.add.size(); ++i) {
-    if (rows_.no_value[i] > 0)
-      Note("column \"" + plan_.rows.add[i].name + "\" has no value in " + GroupedInteger(rows_.no_value[i]) +
-           (rows_.no_value[i] == 1 ? " row" : " rows") + " (a column it reads had none, or a division by zero)");
+  for (size_t i = 0; i < plan.rows.add.size(); ++i) {
+    if (rows.no_value[i] > 0)
+      Note("column \"" + plan.rows.add[i].name + "\"" + of + " has no value in " + GroupedInteger(rows.no_value[i]) +
+           (rows.no_value[i] == 1 ? " row" : " rows") + " (a column it reads had none, or a division by zero)");
   }
-  if (plan_.rows.keep)
-    Note("rows.keep kept " + GroupedInteger(rows_.rows_in - rows_.rows_dropped) + " of " +
-         GroupedInteger(rows_.rows_in) + " result rows");
-  for (size_t m = 0; m < plan_.measures.size(); ++m) {
-    if (merger_.degraded()[m] > 0)
-      Note("warning: measure \"" + plan_.measures[m].name + "\" saw more distinct values than its limit of " +
-           std::to_string(plan_.measures[m].config.limit) + " in " + GroupedInteger(merger_.degraded()[m]) +
+  if (plan.rows.keep)
+    Note("rows.keep" + of + " kept " + GroupedInteger(rows.rows_in - rows.rows_dropped) + " of " +
+         GroupedInteger(rows.rows_in) + " result rows");
+  for (size_t m = 0; m < plan.measures.size(); ++m) {
+    if (merger_.degraded(r)[m] > 0)
+      Note("warning: measure \"" + plan.measures[m].name + "\"" + of + " saw more distinct values than its limit of " +
+           std::to_string(plan.measures[m].config.limit) + " in " + GroupedInteger(merger_.degraded(r)[m]) +
            " groups; its counts there are lower bounds (raise \"limit\" for exact counts)");
   }
-  for (const RunWarning& w : EndOfRunWarnings(plan_, merger_.totals(), in_.names_seen)) LogWarning(w.text);
-  if (!output_path_.empty()) Note("result written to " + output_path_);
 }
 
 void RunEngine::PrintQuietEssentials() const {

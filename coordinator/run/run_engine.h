@@ -39,6 +39,12 @@ struct RunInput {
 
 CommandOutcome ExecuteRun(const RunInput& input, const RunOptions& options);
 
+// What became of one reduction's result.
+struct FinishedReduction {
+  RowsStepCounts rows;      // what its rows step did
+  std::string output_path;  // where its result went; "" = stdout
+};
+
 // One execution of a run. Constructing it installs the SIGINT/SIGTERM guard
 // for its lifetime. REQUIRES: input, what it points to and options outlive it.
 class RunEngine {
@@ -73,18 +79,21 @@ class RunEngine {
   // After an interruption: journals it, commits, prints the summary lines and
   // how to resume. Returns the Interrupted status for the exit code.
   Status Stop();
-  // The merged table with the job's rows step applied (added columns, row
-  // filter), sorted and cut to the job's emit.order and emit.limit.
-  Result<OutputTable> Finish();
-  // Renders table in the job's format and writes it as result.<ext> in the
-  // run directory, then to the output (a file, or stdout).
-  Status Render(const OutputTable& table);
+  // Reduction r's merged table with its rows step applied (added columns,
+  // row filter), sorted and cut to its emit.order and emit.limit.
+  Result<OutputTable> Finish(size_t r);
+  // Renders reduction r's table in its format and writes it as
+  // result[-NAME].<ext> in the run directory, then to its output (a file, or
+  // stdout: under a title line when the reduction is named).
+  Status Render(size_t r, const OutputTable& table);
   // Given written, what Render returned: writes summary.json (iff written is
   // ok), journals the finish, and commits (iff all went well).
   Status Summarise(const Status& written);
   // The notes on stderr after a finished run: the summary lines, measures
   // that skipped values or ran past their limit, and where the result went.
   void PrintNotes() const;
+  // The notes of reduction r: skipped values, its rows step, inexact groups.
+  void PrintReductionNotes(size_t r) const;
 
   void Note(const std::string& line) const;  // an info line, unless quiet
   // -q hides the summary, but not what the exit status stands for: the failed
@@ -103,8 +112,8 @@ class RunEngine {
   int workers_ = 1;          // worker processes (Prepare)
   RunLoopResult loop_;       // failures, retries, interruption (Run, Tally)
   RunSummary summary_;       // what the summary lines and summary.json say (Tally)
-  RowsStepCounts rows_;      // what the rows step did (Finish)
-  std::string output_path_;  // where Render wrote the result; "" = stdout
+  std::vector<FinishedReduction> finished_;  // per reduction (Finish, Render)
+  bool stdout_used_ = false;  // a result went to stdout already (Render)
 };
 
 }  // namespace fanfold

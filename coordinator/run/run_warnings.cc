@@ -35,6 +35,14 @@ std::vector<RunWarning> EndOfRunWarnings(const Plan& plan, const MergeTotals& to
   }
   if (plan.keep && totals.kept == 0)
     out.push_back({"filter_kept_none", "", where("/keep") + "the filter kept none of " + records});
+  // A reduction's own filter is judged only on records the job's filter kept.
+  const std::string passed = plan.keep ? " that the job's filter kept" : "";
+  for (size_t r = 0; r < plan.reductions.size() && totals.kept > 0; ++r) {
+    if (!plan.reductions[r].keep || r >= totals.kept_by_reduction.size() || totals.kept_by_reduction[r] > 0) continue;
+    const std::string of = totals.kept == 1 ? "the one record" + passed : "the " + GroupedInteger(totals.kept) + " records" + passed;
+    out.push_back({"filter_kept_none", "", where(plan.spec.reductions[r].pointer + "/keep") + "the filter of reduction \"" +
+                                               plan.reductions[r].name + "\" kept none of " + of});
+  }
   return out;
 }
 

@@ -26,7 +26,7 @@ unsigned Touch(const Value& v) {
 
 void RunPlan(const Plan& plan) {
   std::vector<MeasureConfig> configs;
-  for (const CompiledMeasure& m : plan.measures) configs.push_back(m.config);
+  for (const CompiledMeasure& m : plan.reductions[0].measures) configs.push_back(m.config);
   GroupTable table(&configs);
   ScratchArena arena;
   std::vector<Value> slots(plan.fields.size());
@@ -44,12 +44,12 @@ void RunPlan(const Plan& plan) {
       sink = sink + Touch(slots[d.slot]);
     }
     std::string key;
-    for (const Expr& g : plan.group) AppendKeyValue(g.Eval(slots.data(), &arena), &key);
+    for (const Expr& g : plan.reductions[0].group) AppendKeyValue(g.Eval(slots.data(), &arena), &key);
     MeasureState* const* states = table.FindOrAdd(key);
-    for (size_t j = 0; j < plan.measures.size(); ++j) {
+    for (size_t j = 0; j < plan.reductions[0].measures.size(); ++j) {
       Value args[2];
-      for (size_t a = 0; a < plan.measures[j].args.size() && a < 2; ++a)
-        args[a] = plan.measures[j].args[a].Eval(slots.data(), &arena);
+      for (size_t a = 0; a < plan.reductions[0].measures[j].args.size() && a < 2; ++a)
+        args[a] = plan.reductions[0].measures[j].args[a].Eval(slots.data(), &arena);
       if (!states[j]->Add(args)) return;  // past a bound: the state is unusable
     }
   }
@@ -62,7 +62,7 @@ void RunPlan(const Plan& plan) {
   std::vector<Cell> cells;
   for (size_t g = 0; g < back.group_count(); ++g) {
     cells.clear();
-    if (!DecodeKey(back.key(g), plan.group.size(), &cells).ok()) __builtin_trap();
+    if (!DecodeKey(back.key(g), plan.reductions[0].group.size(), &cells).ok()) __builtin_trap();
     for (size_t j = 0; j < back.measure_count(); ++j) back.states(g)[j]->Finalize(&cells);
   }
 }

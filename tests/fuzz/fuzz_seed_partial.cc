@@ -57,7 +57,7 @@ int main(int argc, char** argv) {
     std::string key;
     AppendKeyValue(Value::String(g == 0 ? "small" : "big"), &key);
     AppendKeyValue(Value::Number(g), &key);
-    MeasureState* const* states = p.groups.FindOrAdd(key);
+    MeasureState* const* states = p.reductions[0].groups.FindOrAdd(key);
     const int n = g == 0 ? 12 : 2000;
     for (int i = 0; i < n; ++i) {
       std::string text = std::string(kWords[i % 10]) + "-" + std::to_string(i % (g == 0 ? 5 : 997));
@@ -109,20 +109,20 @@ int main(int argc, char** argv) {
 
   std::string table;
   ByteWriter tw(&table);
-  p.groups.Encode(tw);
+  p.reductions[0].groups.Encode(tw);
   ok = ok && Write(dir, "group_table", 3, table);
 
   // Every state of group "small"; of group "big" only those whose form
   // differs (dense HyperLogLog registers, bounded top).
-  for (size_t g = 0; g < p.groups.group_count(); ++g) {
-    const bool small = p.groups.key(g).find("small") != std::string::npos;
+  for (size_t g = 0; g < p.reductions[0].groups.group_count(); ++g) {
+    const bool small = p.reductions[0].groups.key(g).find("small") != std::string::npos;
     for (size_t j = 0; j < configs.size(); ++j) {
       const MeasureKind kind = configs[j].kind;
       if (!small && kind != MeasureKind::kHyperLogLog && kind != MeasureKind::kTop && kind != MeasureKind::kHistogram)
         continue;
       std::string state;
       ByteWriter sw(&state);
-      p.groups.states(g)[j]->Encode(sw);
+      p.reductions[0].groups.states(g)[j]->Encode(sw);
       std::string name = std::string("state_") + MeasureFnName(kind) + (small ? "_small" : "_big");
       if (kind == MeasureKind::kHyperLogLog) name += "_p" + std::to_string(configs[j].precision);
       if (kind == MeasureKind::kHistogram) name += configs[j].edges.empty() ? "_width" : "_edges";

@@ -23,9 +23,9 @@ TEST_CASE("a minimal job parses with defaults") {
   REQUIRE(r.ok());
   CHECK(r->base_dir == "dir");
   CHECK(r->files == std::vector<std::string>{"a.ndjson"});
-  CHECK(r->measures.size() == 1);
-  CHECK(r->measures[0].config.kind == MeasureKind::kCount);
-  CHECK(r->emit.format == OutputFormat::kTable);
+  CHECK(r->reductions[0].measures.size() == 1);
+  CHECK(r->reductions[0].measures[0].config.kind == MeasureKind::kCount);
+  CHECK(r->reductions[0].emit.format == OutputFormat::kTable);
   CHECK(r->keep.empty());
   CHECK(!r->format.has_value());
 }
@@ -42,21 +42,21 @@ TEST_CASE("every measure option is read") {
   REQUIRE(r.ok());
   CHECK(*r->format == RecordFormat::kCsv);
   CHECK(*r->bad_record_limit == 0.1);
-  CHECK(r->measures[0].config.probabilities == std::vector<double>{0.5, 0.99});
-  CHECK(r->measures[0].config.alpha == 0.02);
-  CHECK(r->measures[1].config.precision == 10);
-  CHECK(r->measures[2].config.k == 3);
-  CHECK(r->measures[2].config.limit == 50);
-  CHECK(r->measures[3].by == "{t}");
-  CHECK(r->emit.order[0].descending);
-  CHECK(*r->emit.limit == 5);
+  CHECK(r->reductions[0].measures[0].config.probabilities == std::vector<double>{0.5, 0.99});
+  CHECK(r->reductions[0].measures[0].config.alpha == 0.02);
+  CHECK(r->reductions[0].measures[1].config.precision == 10);
+  CHECK(r->reductions[0].measures[2].config.k == 3);
+  CHECK(r->reductions[0].measures[2].config.limit == 50);
+  CHECK(r->reductions[0].measures[3].by == "{t}");
+  CHECK(r->reductions[0].emit.order[0].descending);
+  CHECK(*r->reductions[0].emit.limit == 5);
 }
 
 TEST_CASE("errors name the JSON Pointer, what was found and what was expected") {
   // Intent: golden messages for the common mistakes.
   CHECK(ErrorOf(R"({"inputs": {"files": ["a"]}, "measures": [{"name": "n", "fn": "count"}], "colour": 1})") ==
         "job.json: /colour: found unknown key \"colour\"; expected one of: about, derive, emit, group, inputs, "
-        "keep, measures, rows");
+        "keep, measures, reductions, rows");
   CHECK(ErrorOf(R"({"inputs": {"files": "a"}, "measures": [{"name": "n", "fn": "count"}]})") ==
         "job.json: /inputs/files: found \"a\" (a string); expected an array of strings (wrap it in [ ])");
   std::string fn = ErrorOf(R"({"inputs": {"files": ["a"]}, "measures": [{"name": "n", "fn": "count"},
@@ -97,7 +97,7 @@ TEST_CASE("misspelt keys, measures and formats get the nearest names") {
   // intended one (nearest by edit distance), keeping the message's shape.
   CHECK(ErrorOf(R"({"input": {"files": ["a"]}, "measures": [{"name": "n", "fn": "count"}]})") ==
         "job.json: /input: found unknown key \"input\" (did you mean \"inputs\"?); expected one of: about, derive, "
-        "emit, group, inputs, keep, measures, rows");
+        "emit, group, inputs, keep, measures, reductions, rows");
   CHECK(ErrorOf(R"({"inputs": {"file": ["a"]}, "measures": [{"name": "n", "fn": "count"}]})")
             .find("/inputs/file: found unknown key \"file\" (did you mean \"files\"?)") != std::string::npos);
   CHECK(ErrorOf(R"({"inputs": {"files": ["a"]}, "measures": [{"name": "n", "fn": "coutn"}]})")

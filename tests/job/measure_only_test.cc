@@ -34,9 +34,9 @@ TEST_CASE("only is compiled as the measure's filter") {
                     {"name": "w", "fn": "sum", "of": "{/power_w}", "only": "{/power_w} > 50"},
                     {"name": "n", "fn": "count"})");
   REQUIRE_MESSAGE(plan.ok(), plan.status().message());
-  CHECK((*plan)->measures[0].only.has_value());
-  CHECK((*plan)->measures[1].only->text() == "{/power_w} > 50");
-  CHECK_FALSE((*plan)->measures[2].only.has_value());
+  CHECK((*plan)->reductions[0].measures[0].only.has_value());
+  CHECK((*plan)->reductions[0].measures[1].only->text() == "{/power_w} > 50");
+  CHECK_FALSE((*plan)->reductions[0].measures[2].only.has_value());
   CHECK(ErrorOf(R"({"name": "f", "fn": "count", "only": "{/event} = 'fault'"})") ==
         "job.json: /measures/0/only: column 10: '='; expected '==' to compare for equality");
   CHECK(ErrorOf(R"({"name": "f", "fn": "count", "only": true})") ==

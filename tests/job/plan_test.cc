@@ -33,14 +33,14 @@ TEST_CASE("derived fields are evaluated only where needed") {
     "keep": "b > 3", "group": ["c"], "measures": [{"name": "n", "fn": "count"}]})J");
   CHECK(plan->derive_before_keep == std::vector<size_t>{0, 1});
   CHECK(plan->derive_after_keep == std::vector<size_t>{2});
-  CHECK(plan->columns == std::vector<std::string>{"c", "n"});
+  CHECK(plan->reductions[0].columns == std::vector<std::string>{"c", "n"});
 }
 
 TEST_CASE("column names and quantile columns") {
   // Intent: a lone field reference is named by its last pointer token; quantiles get _pNN.
   auto plan = Compile(R"J({"inputs": {"files": ["a"]}, "group": ["{/site/district}", "lower({/k})"],
     "measures": [{"name": "lat", "fn": "quantile", "of": "{/l}", "at": [0.5, 0.999]}]})J");
-  CHECK(plan->columns == std::vector<std::string>{"district", "lower({/k})", "lat_p50", "lat_p99.9"});
+  CHECK(plan->reductions[0].columns == std::vector<std::string>{"district", "lower({/k})", "lat_p50", "lat_p99.9"});
 }
 
 TEST_CASE("the fingerprint covers the computation, not the output options") {

@@ -39,7 +39,7 @@ TEST_CASE("rows plan compiles added columns and the row filter over named column
                   {"name": "twice", "expr": "per * 2"}],
           "keep": "events > 10 and district != 'x' and twice > 0"})j");
   REQUIRE(plan.ok());
-  const RowsPlan& r = (*plan)->rows;
+  const RowsPlan& r = (*plan)->reductions[0].rows;
   CHECK(r.merged_columns == 5);
   REQUIRE(r.add.size() == 3);
   CHECK(r.add[0].shown_digits == 3);
@@ -50,7 +50,7 @@ TEST_CASE("rows plan compiles added columns and the row filter over named column
   REQUIRE(r.keep.has_value());
   CHECK(r.keep->SlotsRead() == std::vector<int>{0, 1, 7});
   // The record side never sees the rows step's names.
-  CHECK((*plan)->columns.size() == 5);
+  CHECK((*plan)->reductions[0].columns.size() == 5);
 }
 
 // Changing only the rows step keeps the fingerprint, so resume reuses every partial.

@@ -42,7 +42,7 @@ TEST_CASE("added columns are computed from each row's finished cells") {
   OutputTable t = Table({{Cell::String("a"), Cell::Int(4), Cell::Int(10)},
                          {Cell::String("b"), Cell::Int(0), Cell::Int(3)},
                          {Cell::Null(), Cell::Int(2), Cell::Null()}});
-  RowsStepCounts c = ApplyRowsStep(plan->rows, &t);
+  RowsStepCounts c = ApplyRowsStep(plan->reductions[0].rows, &t);
   CHECK(t.columns == std::vector<std::string>{"district", "n", "s", "per", "rest", "loud"});
   REQUIRE(t.rows.size() == 3);
   CHECK(t.rows[0][3].kind == Cell::Kind::kFloat);
@@ -67,7 +67,7 @@ TEST_CASE("integer columns stay exact where the expression language keeps them")
   const __int128 wider = big * 4;                          // an exact wide sum
   OutputTable t = Table({{Cell::String("a"), Cell::Int(1), Cell::Int(big)},
                          {Cell::String("b"), Cell::Int(1), Cell::Int(wider)}});
-  ApplyRowsStep(plan->rows, &t);
+  ApplyRowsStep(plan->reductions[0].rows, &t);
   CHECK(t.rows[0][3].kind == Cell::Kind::kInt);
   CHECK(t.rows[0][3].integer == big - 1);  // 18446744073709551614: a double would round it
   CHECK(t.rows[1][3].kind == Cell::Kind::kFloat);
@@ -83,7 +83,7 @@ TEST_CASE("rows.keep drops the rows it does not keep and counts them") {
                          {Cell::String("b"), Cell::Int(0), Cell::Int(3)},
                          {Cell::String("c"), Cell::Int(2), Cell::Int(2)},
                          {Cell::String("d"), Cell::Int(1), Cell::Float(7.5)}});
-  RowsStepCounts c = ApplyRowsStep(plan->rows, &t);
+  RowsStepCounts c = ApplyRowsStep(plan->reductions[0].rows, &t);
   REQUIRE(t.rows.size() == 2);
   CHECK(t.rows[0][0].str == "a");
   CHECK(t.rows[1][0].str == "d");
@@ -97,7 +97,7 @@ TEST_CASE("rows.keep drops the rows it does not keep and counts them") {
 TEST_CASE("list cells read as present but not numbers") {
   auto plan = PlanWith(R"j({"add": [{"name": "plus", "expr": "s + 1"}, {"name": "same", "expr": "column('s')"}]})j");
   OutputTable t = Table({{Cell::String("a"), Cell::Int(1), Cell::List({Cell::Int(5)})}});
-  RowsStepCounts c = ApplyRowsStep(plan->rows, &t);
+  RowsStepCounts c = ApplyRowsStep(plan->reductions[0].rows, &t);
   CHECK(t.rows[0][3].kind == Cell::Kind::kNull);
   CHECK(t.rows[0][4].kind == Cell::Kind::kList);
   CHECK(c.no_value == std::vector<uint64_t>{1, 0});

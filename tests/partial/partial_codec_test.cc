@@ -34,7 +34,7 @@ void Fill(PartialState* p) {
     std::string key;
     AppendKeyValue(Value::String(i % 2 ? "odd" : "even"), &key);
     AppendKeyValue(Value::Number(i % 5), &key);
-    MeasureState* const* s = p->groups.FindOrAdd(key);
+    MeasureState* const* s = p->reductions[0].groups.FindOrAdd(key);
     Value args[1] = {Value::Number(i * 0.5)};
     s[0]->Add(nullptr);
     s[1]->Add(args);
@@ -58,7 +58,7 @@ TEST_CASE("encode, decode, re-encode gives the same bytes") {
   CHECK(q.samples.size() == 1);
   CHECK(q.samples[0].line == 12);
   CHECK(q.field_present == std::vector<uint64_t>{98, 0, uint64_t{1} << 40});
-  CHECK(q.groups.group_count() == 10);
+  CHECK(q.reductions[0].groups.group_count() == 10);
   std::string b;
   EncodePartial(q, &b);
   CHECK(a == b);
@@ -143,7 +143,7 @@ TEST_CASE("small bodies are stored raw, large ones compressed, both decode alike
   for (int i = 0; i < 3000; ++i) {
     std::string key;
     AppendKeyValue(Value::Number(1000 + i), &key);
-    big.groups.FindOrAdd(key)[0]->Add(nullptr);
+    big.reductions[0].groups.FindOrAdd(key)[0]->Add(nullptr);
   }
   std::string b;
   EncodePartial(big, &b);
@@ -174,5 +174,5 @@ TEST_CASE("small bodies are stored raw, large ones compressed, both decode alike
   SetPartialEncodeTime(0, &old_version);
   const Status refused = DecodePartialHeader(old_version, &h);
   CHECK(refused.code() == Status::Code::kCorrupt);
-  CHECK(refused.message() == "partial state format version 2; this fanfold reads version 3 only");
+  CHECK(refused.message() == "partial state format version 2; this fanfold reads version 4 only");
 }

@@ -137,7 +137,7 @@ TEST_CASE("shard processor: per-field present counts reach the partial") {
   std::string bytes;
   REQUIRE(processor.Process(task, &bytes).ok());
   std::vector<MeasureConfig> configs;
-  for (const auto& m : (*plan)->measures) configs.push_back(m.config);
+  for (const auto& m : (*plan)->reductions[0].measures) configs.push_back(m.config);
   PartialState p(&configs);
   REQUIRE(DecodePartial(bytes, &p).ok());
   CHECK(p.header.records == 4);

@@ -34,7 +34,7 @@ std::unique_ptr<Plan> TestPlan() {
 // rounding depend on the order of merging. `pad` groups add bulk.
 std::string PartialFor(const Plan& plan, uint32_t shard, int pad = 0) {
   std::vector<MeasureConfig> configs;
-  for (const auto& m : plan.measures) configs.push_back(m.config);
+  for (const auto& m : plan.reductions[0].measures) configs.push_back(m.config);
   PartialState p(&configs);
   p.header.fingerprint = plan.fingerprint;
   p.header.shard_index = shard;
@@ -42,7 +42,7 @@ std::string PartialFor(const Plan& plan, uint32_t shard, int pad = 0) {
   for (int g = 0; g < 4 + pad; ++g) {
     std::string key;
     AppendKeyValue(Value::Number(static_cast<double>(g < 4 ? shard % 5 + g : 1000 + g)), &key);
-    MeasureState* const* states = p.groups.FindOrAdd(key);
+    MeasureState* const* states = p.reductions[0].groups.FindOrAdd(key);
     const Value v = Value::Number(shard % 2 == 0 ? 1e16 : 1.0 + shard * 0.1);
     for (size_t m = 0; m < configs.size(); ++m) states[m]->Add(&v);
   }
@@ -52,7 +52,7 @@ std::string PartialFor(const Plan& plan, uint32_t shard, int pad = 0) {
 }
 
 std::string ResultText(Merger& merger) {
-  Result<OutputTable> t = merger.Finish();
+  Result<OutputTable> t = merger.Finish(0);
   REQUIRE(t.ok());
   std::string text;
   for (const auto& row : t->rows)
@@ -111,7 +111,7 @@ TEST_CASE("merger: a malformed body costs only its shard") {
   const std::string expected = ResultText(without);
 
   std::vector<MeasureConfig> configs;
-  for (const auto& m : plan->measures) configs.push_back(m.config);
+  for (const auto& m : plan->reductions[0].measures) configs.push_back(m.config);
   PartialState p(&configs);
   REQUIRE(DecodePartial(parts[2], &p).ok());
   std::string body;
@@ -164,7 +164,7 @@ TEST_CASE("merger: early partials past the budget wait on disk, not in memory") 
 TEST_CASE("merger: per-field present counts add up over shards") {
   const auto plan = TestPlan();  // raw fields {/k}, {/v}
   std::vector<MeasureConfig> configs;
-  for (const auto& m : plan->measures) configs.push_back(m.config);
+  for (const auto& m : plan->reductions[0].measures) configs.push_back(m.config);
   const auto partial = [&](uint32_t shard, std::vector<uint64_t> present) {
     PartialState p(&configs);
     p.header.fingerprint = plan->fingerprint;

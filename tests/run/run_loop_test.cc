@@ -35,7 +35,7 @@ std::unique_ptr<Plan> LoopPlan() {
 // Shard s read 1 record (k = 0, v = s, t = 0).
 std::string ShardPartial(const Plan& plan, uint32_t shard) {
   std::vector<MeasureConfig> configs;
-  for (const auto& m : plan.measures) configs.push_back(m.config);
+  for (const auto& m : plan.reductions[0].measures) configs.push_back(m.config);
   PartialState p(&configs);
   p.header.fingerprint = plan.fingerprint;
   p.header.shard_index = shard;
@@ -43,7 +43,7 @@ std::string ShardPartial(const Plan& plan, uint32_t shard) {
   p.header.kept = 1;
   std::string key;
   AppendKeyValue(Value::Number(0), &key);
-  MeasureState* const* states = p.groups.FindOrAdd(key);
+  MeasureState* const* states = p.reductions[0].groups.FindOrAdd(key);
   const Value none[1] = {Value::Number(0)};
   const Value value_and_key[2] = {Value::Number(static_cast<double>(shard)), Value::Number(0)};
   states[0]->Add(none);
@@ -111,7 +111,7 @@ struct Harness {
 
 // The result's one row: count, then the `at_highest` value.
 std::pair<int64_t, double> Row(Merger& merger) {
-  Result<OutputTable> t = merger.Finish();
+  Result<OutputTable> t = merger.Finish(0);
   REQUIRE(t.ok());
   REQUIRE(t->rows.size() == 1);
   return {t->rows[0][1].integer, t->rows[0][2].number};
