@@ -64,6 +64,11 @@ class Compiler {
       case AstKind::kName:
         n.op = ExprOp::kSlot;
         n.slot = fields_->FindDerived(a.text);
+        if (n.slot < 0 && HiddenDerived(a.text))
+          return Status::InvalidArgument("column " + std::to_string(a.column) + ": derived field '" + a.text +
+                                         "' belongs to an earlier reduction; expected a field of this reduction's "
+                                         "or the job's \"derive\" (move it to the job's top-level \"derive\" "
+                                         "to share it)");
         if (n.slot < 0)
           return Status::InvalidArgument("column " + std::to_string(a.column) + ": unknown derived field '" + a.text +
                                          "'" + NearDerived(a.text) +
@@ -230,6 +235,13 @@ class Compiler {
     n->first_arg = static_cast<int32_t>(p_->args.size());
     p_->args.insert(p_->args.end(), kids.begin(), kids.end());
     return Status::Ok();
+  }
+
+  // True iff `name` is a derived field out of scope (another reduction's).
+  bool HiddenDerived(const std::string& name) const {
+    for (const FieldTable::Slot& s : fields_->slots())
+      if (s.derived && s.hidden && s.name == name) return true;
+    return false;
   }
 
   // " (did you mean hour?)" from the derived fields defined so far.

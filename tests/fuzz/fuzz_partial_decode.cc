@@ -70,7 +70,7 @@ std::string WithHeader(std::string_view stored, uint64_t raw_len) {
     p.header.shard_index = 3;
     p.header.records = 5;
     p.samples.push_back({2, "unclosed string"});
-    (void)p.groups.FindOrAdd("k");
+    (void)p.reductions[0].groups.FindOrAdd("k");
     std::string e;
     EncodePartial(p, &e);
     uint64_t raw_len = 0;

@@ -92,7 +92,7 @@ int main(int argc, char** argv) {
   {
     std::string key;
     AppendKeyValue(Value::String("one"), &key);
-    MeasureState* const* states = small.groups.FindOrAdd(key);
+    MeasureState* const* states = small.reductions[0].groups.FindOrAdd(key);
     for (size_t j = 0; j < configs.size(); ++j) {
       Value args[2] = {Value::Number(2.5), Value::Number(1772323200.0)};
       (void)states[j]->Add(args);

@@ -83,3 +83,35 @@ TEST_CASE("DirectSlot names the slot of a plain reference only") {
   REQUIRE(derived.ok());
   CHECK(derived->DirectSlot() == fields.FindDerived("d"));
 }
+
+TEST_CASE("several reductions: shared and own derived fields, scopes and columns") {
+  // Intent: the job's derived fields are evaluated once, after the job's
+  // filter, iff some reduction reads them; a reduction's own come after its
+  // filter (or before it, when the filter reads them); a later reduction may
+  // reuse an earlier one's derived name for a field of its own.
+  auto plan = Compile(R"J({"inputs": {"files": ["a"]},
+    "derive": [{"name": "t", "expr": "{/x} + 1"}, {"name": "unused", "expr": "{/y}"}],
+    "keep": "{/z} > 0",
+    "reductions": [
+      {"name": "a", "derive": [{"name": "k", "expr": "t * 2"}], "keep": "k > 3", "group": ["k"],
+       "measures": [{"name": "n", "fn": "count"}]},
+      {"name": "b", "derive": [{"name": "k", "expr": "lower({/s})"}], "group": ["k"],
+       "measures": [{"name": "n", "fn": "count"}, {"name": "s", "fn": "sum", "of": "t"}]}]})J");
+  REQUIRE(plan->reductions.size() == 2);
+  CHECK(plan->derive_before_keep.empty());
+  CHECK(plan->derive_after_keep == std::vector<size_t>{0});  // t; unused never
+  CHECK(plan->reductions[0].derive_before_keep == std::vector<size_t>{2});
+  CHECK(plan->reductions[0].derive_after_keep.empty());
+  CHECK(plan->reductions[1].derive_before_keep.empty());
+  CHECK(plan->reductions[1].derive_after_keep == std::vector<size_t>{3});
+  CHECK(plan->reductions[0].columns == std::vector<std::string>{"k", "n"});
+  CHECK(plan->reductions[1].columns == std::vector<std::string>{"k", "n", "s"});
+  CHECK(plan->derive[3].pointer == "/reductions/1/derive/0/expr");
+  // Intent: the canonical text names each reduction, so renaming one changes the fingerprint.
+  auto renamed = Compile(R"J({"inputs": {"files": ["a"]}, "reductions": [
+      {"name": "c", "measures": [{"name": "n", "fn": "count"}]}]})J");
+  auto original = Compile(R"J({"inputs": {"files": ["a"]}, "reductions": [
+      {"name": "d", "measures": [{"name": "n", "fn": "count"}]}]})J");
+  CHECK(renamed->fingerprint != original->fingerprint);
+  CHECK(PlanCanonicalText(*renamed).find("\nreduction c\n keep=\n measure n fn=count") != std::string::npos);
+}

@@ -176,3 +176,39 @@ TEST_CASE("small bodies are stored raw, large ones compressed, both decode alike
   CHECK(refused.code() == Status::Code::kCorrupt);
   CHECK(refused.message() == "partial state format version 2; this fanfold reads version 4 only");
 }
+
+TEST_CASE("a partial carries every reduction's kept count and group table, in order") {
+  // Intent: two reductions with their own measures round-trip (encode → decode
+  // → re-encode, same bytes), and a partial of another reduction count is refused
+  // as corrupt rather than merged into the wrong tables.
+  auto first = Configs();
+  std::vector<MeasureConfig> second(1);
+  second[0].kind = MeasureKind::kCount;
+  PartialState p({&first, &second});
+  Fill(&p);
+  p.reductions[0].kept = 90;
+  p.reductions[1].kept = 3;
+  for (const char* k : {"a", "b", "c"}) {
+    std::string key;
+    AppendKeyValue(Value::String(k), &key);
+    p.reductions[1].groups.FindOrAdd(key)[0]->Add(nullptr);
+  }
+  std::string a;
+  EncodePartial(p, &a);
+  PartialState q({&first, &second});
+  REQUIRE(DecodePartial(a, &q).ok());
+  CHECK(q.reductions[0].kept == 90);
+  CHECK(q.reductions[1].kept == 3);
+  CHECK(q.reductions[0].groups.group_count() == 10);
+  CHECK(q.reductions[1].groups.group_count() == 3);
+  std::string b;
+  EncodePartial(q, &b);
+  CHECK(a == b);
+  OpenedPartial opened;
+  REQUIRE(OpenPartial(a, &opened).ok());
+  CHECK(opened.reductions.size() == 2);
+  PartialState one(&first);
+  Status refused = DecodePartial(a, &one);
+  CHECK(refused.code() == Status::Code::kCorrupt);
+  CHECK(refused.message() == "partial state has 2 reductions; expected 1");
+}
