@@ -63,7 +63,7 @@ std::string Seconds(double s) {
 struct OneRun {
   double wall_s = 0;
   bool shards_failed = false;
-  std::string output;  // the result file's bytes
+  std::string output;  // the bytes of the run's result files, in name order
   RunRecord record;
 };
 
@@ -73,7 +73,7 @@ Status RunOnce(const ScaleOptions& o, const std::string& scratch, const std::str
   ro.job_path = o.job_path;
   ro.workers = workers;
   ro.run_dir = (fs::path(scratch) / name).string();
-  ro.output_path = (fs::path(scratch) / (name + ".out")).string();
+  ro.results_in_run_dir_only = true;
   ro.fresh = true;
   ro.quiet = true;
   ro.progress = ProgressMode::kOff;
@@ -83,13 +83,22 @@ Status RunOnce(const ScaleOptions& o, const std::string& scratch, const std::str
   out->wall_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
   if (!c.status.ok()) return c.status.WithContext("scale: the run at " + std::to_string(workers) + " workers");
   out->shards_failed = c.shards_failed;
-  FF_RETURN_IF_ERROR(ReadWholeFile(ro.output_path, &out->output));
+  // Every reduction's result file (result.<ext> or result-<name>.<ext>).
+  std::vector<fs::path> results;
+  for (const fs::directory_entry& e : fs::directory_iterator(ro.run_dir))
+    if (e.path().filename().string().rfind("result", 0) == 0) results.push_back(e.path());
+  std::sort(results.begin(), results.end());
+  out->output.clear();
+  for (const fs::path& p : results) {
+    std::string bytes;
+    FF_RETURN_IF_ERROR(ReadWholeFile(p.string(), &bytes));
+    out->output += p.filename().string() + "\n" + bytes;
+  }
   Result<RunRecord> rec = ReadRunRecord(ro.run_dir);
   if (!rec.ok()) return rec.status();
   out->record = std::move(*rec);
   std::error_code ec;
   fs::remove_all(ro.run_dir, ec);
-  fs::remove(ro.output_path, ec);
   return Status::Ok();
 }
 

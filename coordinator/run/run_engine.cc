@@ -284,8 +284,12 @@ Status RunEngine::Render(size_t r, const OutputTable& table) {
   // The run directory keeps every digit; only what the user reads is rounded.
   const std::string text = RenderTable(table, spec.emit.format);
   const std::string path = OutputPath(options_, plan_, r);
-  finished_[r].output_path = path;
   Status w = dir_.WriteFile(ResultName(spec.name, spec.emit.format), text);
+  if (!w.ok() || options_.results_in_run_dir_only) {
+    finished_[r].output_path = (std::filesystem::path(dir_.path()) / ResultName(spec.name, spec.emit.format)).string();
+    return w;
+  }
+  finished_[r].output_path = path;
   // --digits wins over everything; else a measure's shown_digits over emit.digits.
   RenderOptions shown;
   shown.digits = options_.digits > 0 ? options_.digits : spec.emit.digits;
@@ -296,7 +300,6 @@ Status RunEngine::Render(size_t r, const OutputTable& table) {
                                  spec.measures[m].shown_digits);
     for (const AddedColumn& a : plan.rows.add) shown.column_digits.push_back(a.shown_digits);
   }
-  if (!w.ok()) return w;
   std::string shown_text = shown.rounds() ? RenderTable(table, spec.emit.format, shown) : text;
   // Named reductions on stdout, one after another, each under its title.
   if (path.empty() && !spec.name.empty())

@@ -26,6 +26,9 @@ struct RunOptions {
   std::string job_path;       // JOB: the job file (run only)
   int workers = 0;            // 0 = one per available core
   std::string output_path;    // "" = the job's emit.path, else stdout
+  // Results go only to the run directory (result*.<ext>), not to emit.path
+  // or stdout: `scale` compares them between worker counts.
+  bool results_in_run_dir_only = false;
   std::string run_dir;        // "" = fanfold-runs/<job name> under the working directory
   bool fresh = false;         // discard an earlier run in run_dir instead of refusing
   uint32_t max_attempts = 3;  // tries per shard when its worker dies (1 + retries);

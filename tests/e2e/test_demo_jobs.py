@@ -106,6 +106,26 @@ REFS = {
         # events >= 1000 and fault_share >= 0.03 (a null share is not kept)
         rows_keep=lambda row: (row["events"] >= 1000
                                and row["fault_share"] is not None and row["fault_share"] >= 0.03)),
+    # Two reductions over one read: REFS holds one RefJob per reduction, by name.
+    "district_and_firmware.json": {
+        "district_day": RefJob(
+            group=[("day", lambda r: ref.period_start(t_json(r), "day")), ("district", p("/district"))],
+            measures=[
+                M("events", "count"),
+                M("faults", "sum", of=lambda r: one_if(is_fault(r))),  # is_fault = one_if({/event} == 'fault')
+                M("lat", "quantile", of=p("/latency_ms"), at=[0.95]),
+            ]),
+        "firmware": RefJob(
+            keep=lambda r: ref.present(ptr(r, "/fw/version")),  # has({/fw/version})
+            group=[("version", p("/fw/version"))],
+            measures=[
+                M("events", "count"),
+                M("lamps", "distinct", of=p("/lamp")),
+                M("faults", "sum", of=lambda r: one_if(is_fault(r))),
+            ],
+            rows_add=[("fault_share", lambda row: ratio(row["faults"], row["events"]))],  # faults / events
+            rows_keep=lambda row: row["lamps"] >= 100),  # lamps >= 100
+    },
     "csv_daily.json": RefJob(
         group=[("day", lambda r: ref.period_start(t_csv(r), "day")), ("weekday", lambda r: ref.weekday(t_csv(r))),
                ("fw_channel", c("fw_channel"))],
@@ -178,6 +198,57 @@ def expand_inputs(job_path, job):
     return sorted(files)
 
 
+def check_part(env, checks, args, name, job, part, rjob, files, records, shipped_out):
+    """One reduction of a job (the job itself when it has no "reductions")
+    against its hand-written reference."""
+    label = name + ("" if not part["name"] else " " + part["name"])
+    # Intent: the reference re-states this job (same measure names and fns).
+    checks.check([(m["name"], m["fn"]) for m in part["measures"]] == [(m.name, m.fn) for m in rjob.measures],
+                 "%s: measures differ from the reference's" % label)
+    checks.check([a["name"] for a in part.get("rows", {}).get("add", [])] == [a for a, _ in rjob.rows_add]
+                 and ("keep" in part.get("rows", {})) == (rjob.rows_keep is not None),
+                 "%s: rows step differs from the reference's" % label)
+
+    # A copy of the job with absolute inputs and JSON output, to read typed
+    # values; of a job of several reductions, only this reduction.
+    copy = json.loads(json.dumps(job))
+    copy["inputs"]["files"] = files
+    if "reductions" in copy:
+        copy["reductions"] = [r for r in copy["reductions"] if r["name"] == part["name"]]
+        target = copy["reductions"][0]
+    else:
+        target = copy
+    emit = target.get("emit", {})
+    emit.pop("path", None)
+    emit["format"] = "json"
+    target["emit"] = emit
+    copy_path = lib.write_job(env.path(label, "as-json.json"), copy)
+    out_path = env.path(label, "result.json")
+    rc, _, err = env.fanfold_run("run", copy_path, "-j", args.workers, "-o", out_path)
+    if not checks.check(rc == 0, "%s (json copy): exit %d: %s" % (label, rc, lib.tail(err))):
+        return
+    try:
+        rows = lib.read_rows(out_path, "json")
+    except (OSError, ValueError) as e:
+        checks.fail("%s: cannot read JSON result: %s" % (label, e))
+        return
+    expected = ref.evaluate(rjob, records)
+    # Intent: every group and cell equals the reference (tolerances in e2e_lib.compare_cell).
+    lib.compare_results(checks, label, rows, expected, rjob, emit.get("order"), emit.get("limit"))
+    compare_exact_columns(checks, label, rows, expected, rjob)
+
+    # Intent: the shipped output format carries the same rows (CSV/JSON readable back).
+    fmt = part.get("emit", {}).get("format", "table")
+    if "reductions" in job:
+        return  # its shipped output went to stdout (checked above)
+    if fmt in ("csv", "json", "ndjson") and os.path.exists(shipped_out):
+        shipped = lib.read_rows(shipped_out, fmt)
+        checks.check(len(shipped) == len(rows), "%s: shipped %s output has %d rows, JSON copy %d"
+                     % (label, fmt, len(shipped), len(rows)))
+    if fmt == "table" and os.path.exists(shipped_out):
+        check_table_digits(checks, label, job, shipped_out, rows)
+
+
 def manifest_malformed(files):
     """Malformed lines per file according to the generator's manifest.json."""
     out = {}
@@ -200,7 +271,10 @@ def main():
             name = os.path.basename(job_path)
             with open(job_path) as f:
                 job = json.load(f)
-            used_fns.update(m["fn"] for m in job["measures"])
+            # A job of several reductions is checked reduction by reduction.
+            parts = job.get("reductions", [dict(job, name="")])
+            for part in parts:
+                used_fns.update(m["fn"] for m in part["measures"])
             # Intent: each example job says what it is for.
             checks.check(isinstance(job.get("about"), str) and job["about"].strip(), "%s: has an about text" % name)
             files = expand_inputs(job_path, job)
@@ -215,10 +289,15 @@ def main():
 
             # Intent: the job runs as shipped (its own emit format) with exit 0.
             shipped_out = env.path(name, "shipped.out")
-            rc, out, err = env.fanfold_run("run", job_path, "-j", args.workers, "-o", shipped_out)
-            checks.check(rc == 0, "%s: fanfold run exit %d, stderr: %s" % (name, rc, lib.tail(err)))
-            checks.check(os.path.exists(shipped_out) and os.path.getsize(shipped_out) > 0,
-                         "%s: run -o wrote a non-empty result" % name)
+            if "reductions" in job:  # several results: all on stdout, each under its title
+                rc, out, err = env.fanfold_run("run", job_path, "-j", args.workers, "-o", "-")
+                checks.check(rc == 0 and all("== %s ==\n" % r["name"] in out for r in parts),
+                             "%s: fanfold run exit %d, titles in %s, stderr: %s" % (name, rc, out[:300], lib.tail(err)))
+            else:
+                rc, out, err = env.fanfold_run("run", job_path, "-j", args.workers, "-o", shipped_out)
+                checks.check(rc == 0, "%s: fanfold run exit %d, stderr: %s" % (name, rc, lib.tail(err)))
+                checks.check(os.path.exists(shipped_out) and os.path.getsize(shipped_out) > 0,
+                             "%s: run -o wrote a non-empty result" % name)
 
             # Intent: malformed count in the summary == the generator's manifest (exact).
             man = manifest_malformed(files)
@@ -239,47 +318,17 @@ def main():
                              % (name, f, len(recs), bad, man[f]["records"], man[f]["malformed"]))
                 records.extend(recs)
 
-            rjob = REFS.get(name)
-            if rjob is None:
+            refs = REFS.get(name)
+            if refs is None:
                 checks.fail("%s: no hand-written reference in test_demo_jobs.py" % name)
                 continue
-            # Intent: the reference re-states this job (same measure names and fns).
-            checks.check([(m["name"], m["fn"]) for m in job["measures"]] == [(m.name, m.fn) for m in rjob.measures],
-                         "%s: measures differ from the reference's" % name)
-            checks.check([a["name"] for a in job.get("rows", {}).get("add", [])] == [a for a, _ in rjob.rows_add]
-                         and ("keep" in job.get("rows", {})) == (rjob.rows_keep is not None),
-                         "%s: rows step differs from the reference's" % name)
-
-            # A copy of the job with absolute inputs and JSON output, to read typed values.
-            copy = json.loads(json.dumps(job))
-            copy["inputs"]["files"] = files
-            emit = copy.get("emit", {})
-            emit.pop("path", None)
-            emit["format"] = "json"
-            copy["emit"] = emit
-            copy_path = lib.write_job(env.path(name, "as-json.json"), copy)
-            out_path = env.path(name, "result.json")
-            rc, _, err = env.fanfold_run("run", copy_path, "-j", args.workers, "-o", out_path)
-            if not checks.check(rc == 0, "%s (json copy): exit %d: %s" % (name, rc, lib.tail(err))):
-                continue
-            try:
-                rows = lib.read_rows(out_path, "json")
-            except (OSError, ValueError) as e:
-                checks.fail("%s: cannot read JSON result: %s" % (name, e))
-                continue
-            expected = ref.evaluate(rjob, records)
-            # Intent: every group and cell equals the reference (tolerances in e2e_lib.compare_cell).
-            lib.compare_results(checks, name, rows, expected, rjob, emit.get("order"), emit.get("limit"))
-            compare_exact_columns(checks, name, rows, expected, rjob)
-
-            # Intent: the shipped output format carries the same rows (CSV/JSON readable back).
-            fmt = job.get("emit", {}).get("format", "table")
-            if fmt in ("csv", "json", "ndjson") and os.path.exists(shipped_out):
-                shipped = lib.read_rows(shipped_out, fmt)
-                checks.check(len(shipped) == len(rows), "%s: shipped %s output has %d rows, JSON copy %d"
-                             % (name, fmt, len(shipped), len(rows)))
-            if fmt == "table" and os.path.exists(shipped_out):
-                check_table_digits(checks, name, job, shipped_out, rows)
+            if not isinstance(refs, dict):
+                refs = {"": refs}
+            checks.check(sorted(refs) == sorted(part["name"] for part in parts),
+                         "%s: the reference's reductions %r differ from the job's" % (name, sorted(refs)))
+            for part in parts:
+                if part["name"] in refs:
+                    check_part(env, checks, args, name, job, part, refs[part["name"]], files, records, shipped_out)
 
         # Intent: together the example jobs use every measure fn of the spec.
         checks.check(ALL_FNS <= used_fns, "example jobs miss measure fns %s" % sorted(ALL_FNS - used_fns))

@@ -34,14 +34,16 @@ def absolutize(job, job_dir):
     """Input globs in docs are relative to jobs/; the test's job lives elsewhere."""
     files = job.get("inputs", {}).get("files", [])
     job["inputs"]["files"] = [f if os.path.isabs(f) else os.path.normpath(os.path.join(job_dir, f)) for f in files]
-    job.get("emit", {}).pop("path", None)
+    for part in job.get("reductions", [job]):
+        part.get("emit", {}).pop("path", None)
     return job
 
 
 def run_job(env, job, name, fmt="csv"):
     path = env.path(name + ".json")
     job = json.loads(json.dumps(job))
-    job.setdefault("emit", {})["format"] = fmt
+    for part in job.get("reductions", [job]):
+        part.setdefault("emit", {})["format"] = fmt
     lib.write_job(path, job)
     return env.fanfold_run("run", path, "--fresh", "-j", "2", "-q", "-o", "-")
 
@@ -82,10 +84,13 @@ def check_json_blocks(env, c, doc, text):
         rc, out, err = run_job(env, job, "doc_%d" % line)
         if not c.check(rc == 0, "%s: the example job exits %d: %s" % (where, rc, lib.tail(err))):
             continue
-        rows = list(lib.csv.reader(lib.io.StringIO(out)))
-        keys = len(job.get("group", []))
-        blank = [r for r in rows[1:] if any(cell == "" for cell in r[:keys])]
-        c.check(not blank, "%s: the example's result has rows with a blank group key: %s" % (where, blank[:3]))
+        # Several reductions come one after another on stdout, each under "== name ==".
+        parts = re.split(r"(?:^|\n\n)== [\w-]+ ==\n", out) if "reductions" in job else [out]
+        for part, spec in zip([p for p in parts if p], job.get("reductions", [job])):
+            rows = list(lib.csv.reader(lib.io.StringIO(part)))
+            keys = len(spec.get("group", []))
+            blank = [r for r in rows[1:] if any(cell == "" for cell in r[:keys])]
+            c.check(not blank, "%s: the example's result has rows with a blank group key: %s" % (where, blank[:3]))
 
 
 def check_run_json(env, c, text):
