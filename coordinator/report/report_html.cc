@@ -192,11 +192,22 @@ std::string SummarySection(const RunRecord& r, const RunAnalysis& a) {
   h += Card("Workers", Num("workers", std::to_string(t.workers), std::to_string(t.workers)),
             std::to_string(r.sessions.size()) + (r.sessions.size() == 1 ? " session" : " sessions"));
   h += "</div>";
-  if (!r.summary.skipped.empty()) {
+  const auto skipped_text = [](const std::map<std::string, uint64_t>& skipped) {
     std::string sk;
-    for (const auto& [m, n] : r.summary.skipped)
+    for (const auto& [m, n] : skipped)
       if (n) sk += (sk.empty() ? "" : ", ") + Esc(m) + " " + GroupedInteger(n);
-    if (!sk.empty()) h += "<p class=\"note\">Values skipped by numeric measures (missing, null or not numbers): " + sk + ".</p>";
+    return sk;
+  };
+  if (const std::string sk = skipped_text(r.summary.skipped); !sk.empty())
+    h += "<p class=\"note\">Values skipped by numeric measures (missing, null or not numbers): " + sk + ".</p>";
+  if (!r.summary.reductions.empty()) {
+    // One read fed several reductions: what each kept and where its result is.
+    h += "<table id=\"reductions\"><tr><th>reduction</th><th>records kept</th><th>result</th><th>output</th>"
+         "<th>values skipped</th></tr>";
+    for (const SummaryRecord::Reduction& red : r.summary.reductions)
+      h += "<tr><td>" + Esc(red.name) + "</td><td class=\"n\">" + GroupedInteger(red.kept) + "</td><td>" +
+           Esc(red.result) + "</td><td>" + Esc(red.output) + "</td><td>" + skipped_text(red.skipped) + "</td></tr>";
+    h += "</table>";
   }
   return h + "</section>";
 }

@@ -58,9 +58,24 @@ Result<SummaryRecord> SummaryFrom(const json& j) {
                            JsonValueOr<std::string>(m, "reason", ""), JsonValueOr<uint64_t>(m, "line", 0)});
     }
   }
-  if (auto it = j.find("skipped"); it != j.end() && it->is_object()) {
-    for (auto kv = it->begin(); kv != it->end(); ++kv)
-      if (kv->is_number_unsigned()) s.skipped[kv.key()] = kv->get<uint64_t>();
+  const auto read_skipped = [](const json& obj, std::map<std::string, uint64_t>* out) {
+    if (auto it = obj.find("skipped"); it != obj.end() && it->is_object()) {
+      for (auto kv = it->begin(); kv != it->end(); ++kv)
+        if (kv->is_number_unsigned()) (*out)[kv.key()] = kv->get<uint64_t>();
+    }
+  };
+  read_skipped(j, &s.skipped);
+  if (auto it = j.find("reductions"); it != j.end() && it->is_array()) {
+    for (const json& r : *it) {
+      if (!r.is_object()) continue;
+      SummaryRecord::Reduction red;
+      red.name = JsonValueOr<std::string>(r, "name", "");
+      red.result = JsonValueOr<std::string>(r, "result", "");
+      red.output = JsonValueOr<std::string>(r, "output", "");
+      red.kept = JsonValueOr<uint64_t>(r, "kept", 0);
+      read_skipped(r, &red.skipped);
+      s.reductions.push_back(std::move(red));
+    }
   }
   return s;
 }

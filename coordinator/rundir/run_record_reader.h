@@ -43,7 +43,14 @@ struct SummaryRecord {
     uint64_t line = 0;
   };
   std::vector<Sample> samples;
-  std::map<std::string, uint64_t> skipped;  // per measure
+  std::map<std::string, uint64_t> skipped;  // per measure (a job of one unnamed reduction)
+  // A job of several reductions: each one's part of the summary, in job order.
+  struct Reduction {
+    std::string name, result, output;
+    uint64_t kept = 0;
+    std::map<std::string, uint64_t> skipped;  // per measure
+  };
+  std::vector<Reduction> reductions;
 };
 
 struct RunRecord {

@@ -10,7 +10,8 @@ GROUP BY queries (CASE, WHERE, HAVING) over the same records. Also:
 - stdout shows the reductions one after another under their titles; -o FILE
   is refused for several reductions; each emit.path is honoured;
 - a shard that fails (its worker killed on every attempt) is recomputed by
-  `resume`, which gives the same bytes as an undisturbed run.
+  `resume`, which gives the same bytes as an undisturbed run; `report` lists
+  the reductions.
 """
 
 import csv
@@ -223,6 +224,15 @@ def main():
             for red in JOB_REDUCTIONS:
                 with open(os.path.join(run_dir, "result-%s.csv" % red["name"]), "rb") as f:
                     c.check(f.read() == results["-j 1"][red["name"]], "resumed %s differs" % red["name"])
+        # Intent: the report of a resumed run of three reductions lists each with its kept
+        # count and result file (the same numbers as summary.json).
+        html = env.path("report.html")
+        rc, _, err = env.run([env.fanfold, "report", run_dir, "-o", html, "-q"])
+        page = open(html).read() if rc == 0 else ""
+        faults = sum(1 for r in records if r["event"] == "fault")
+        c.check(rc == 0 and '<table id="reductions">' in page
+                and "<td>fault_levels</td><td class=\"n\">{:,}</td><td>result-fault_levels.csv</td>".format(faults)
+                in page, "report: exit %d: %s" % (rc, lib.tail(err)))
     c.exit()
 
 
