@@ -13,8 +13,9 @@ GroupTable::GroupTable(const std::vector<MeasureConfig>* configs) : configs_(con
 
 uint32_t GroupTable::AddGroup(std::string_view key) {
   uint32_t id = static_cast<uint32_t>(keys_.size());
-  keys_.emplace_back(key);
-  index_.emplace(std::string(key), id);
+  const std::string_view stored = key_bytes_.Add(key);
+  keys_.push_back(stored);
+  index_.emplace(stored, id);
   for (const MeasureConfig& c : *configs_) {
     owned_.push_back(NewMeasureState(c));
     states_.push_back(owned_.back().get());
@@ -65,13 +66,53 @@ Status GroupTable::WalkEncoded(std::string_view encoded, bool apply) {
   return Status::Ok();
 }
 
+namespace {
+
+// The 8 bytes of key at [offset, offset + 8) as a big-endian integer, zeros
+// past the key's end.
+uint64_t KeyWindow(std::string_view key, size_t offset) {
+  uint64_t w = 0;
+  for (size_t i = 0; i < 8; ++i)
+    w = (w << 8) | (offset + i < key.size() ? static_cast<unsigned char>(key[offset + i]) : 0u);
+  return w;
+}
+
+}  // namespace
+
+void GroupTable::SortRange(SortEntry* begin, SortEntry* end, size_t offset) const {
+  // Sorted 8 bytes at a time (most significant first): each pass is one
+  // integer compare per pair; only groups whose keys agree on these 8 bytes
+  // go on to the next 8. Keys of one shard often share a long prefix (a
+  // tag, a length, "2026-03-01T"), which a byte-wise compare would read
+  // again at every comparison.
+  for (SortEntry* e = begin; e != end; ++e) e->window = KeyWindow(keys_[e->group], offset);
+  std::sort(begin, end, [](const SortEntry& a, const SortEntry& b) { return a.window < b.window; });
+  for (SortEntry* run = begin; run != end;) {
+    SortEntry* next = run + 1;
+    while (next != end && next->window == run->window) ++next;
+    if (next - run > 1) {
+      bool longer = false;  // does any key go on past this window?
+      for (SortEntry* e = run; e != next && !longer; ++e) longer = keys_[e->group].size() > offset + 8;
+      if (longer) SortRange(run, next, offset + 8);
+      else  // equal up to their ends but for zero padding: the shorter first
+        std::sort(run, next, [this](const SortEntry& a, const SortEntry& b) { return keys_[a.group] < keys_[b.group]; });
+    }
+    run = next;
+  }
+}
+
+std::vector<GroupTable::SortEntry> GroupTable::SortedByKey() const {
+  std::vector<SortEntry> order(keys_.size());
+  for (uint32_t g = 0; g < keys_.size(); ++g) order[g].group = g;
+  if (!order.empty()) SortRange(order.data(), order.data() + order.size(), 0);
+  return order;
+}
+
 void GroupTable::Encode(ByteWriter& w) const {
-  std::vector<uint32_t> order(keys_.size());
-  std::iota(order.begin(), order.end(), 0);
-  std::sort(order.begin(), order.end(), [&](uint32_t a, uint32_t b) { return keys_[a] < keys_[b]; });
   w.Varint(keys_.size());
   std::string scratch;
-  for (uint32_t g : order) {
+  for (const SortEntry& e : SortedByKey()) {
+    const uint32_t g = e.group;
     w.Str(keys_[g]);
     for (size_t j = 0; j < measure_count(); ++j) {
       scratch.clear();

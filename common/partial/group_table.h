@@ -19,6 +19,7 @@
 #include <boost/unordered/unordered_flat_map.hpp>
 
 #include "common/base/byte_io.h"
+#include "common/partial/key_arena.h"
 #include "common/measures/measure.h"
 #include "common/base/status.h"
 
@@ -40,7 +41,7 @@ class GroupTable {
   size_t measure_count() const { return configs_->size(); }
 
   // Group i's key and states, for i < group_count() (insertion order).
-  const std::string& key(size_t i) const { return keys_[i]; }
+  std::string_view key(size_t i) const { return keys_[i]; }
   MeasureState* const* states(size_t i) const { return &states_[i * measure_count()]; }
 
   // Checks that `encoded` (Encode's bytes, from a later shard) is a valid
@@ -66,13 +67,22 @@ class GroupTable {
     bool operator()(std::string_view a, std::string_view b) const { return a == b; }
   };
   uint32_t AddGroup(std::string_view key);
+  // Every group in ascending key-byte order (for Encode).
+  struct SortEntry {
+    uint64_t window = 0;  // 8 key bytes at the current offset, big-endian (SortRange)
+    uint32_t group = 0;
+  };
+  std::vector<SortEntry> SortedByKey() const;
+  // Sorts [begin, end), whose keys agree on their first `offset` bytes.
+  void SortRange(SortEntry* begin, SortEntry* end, size_t offset) const;
   // The one walk over an encoded table behind CheckEncoded (apply false)
   // and MergeEncoded (apply true).
   Status WalkEncoded(std::string_view encoded, bool apply);
 
   const std::vector<MeasureConfig>* configs_;
-  boost::unordered_flat_map<std::string, uint32_t, Hash, Eq> index_;
-  std::vector<std::string> keys_;
+  KeyArena key_bytes_;  // every key's bytes, once; keys_ and index_ view them
+  boost::unordered_flat_map<std::string_view, uint32_t, Hash, Eq> index_;
+  std::vector<std::string_view> keys_;
   // Group-major states; states_[i] == owned_[i].get() always (states_ is
   // the raw view FindOrAdd hands out).
   std::vector<MeasureState*> states_;

@@ -66,13 +66,15 @@ void EncodePartialBody(const PartialState& p, std::string* body) {
   bw.Varint(p.field_present.size());
   for (uint64_t n : p.field_present) bw.Varint(n);
   bw.Varint(p.reductions.size());
-  std::string table;
   for (const ReductionPartial& r : p.reductions) {
     bw.Varint(r.kept);
-    table.clear();
-    ByteWriter tw(&table);
-    r.groups.Encode(tw);
-    bw.Str(table);
+    // The table's length is patched in after it is written in place: a
+    // fixed-width field, so that the table need not be copied behind a varint.
+    const size_t at = body->size();
+    bw.U64(0);
+    r.groups.Encode(bw);
+    const uint64_t length = body->size() - at - 8;
+    std::memcpy(body->data() + at, &length, 8);
   }
 }
 
@@ -239,7 +241,7 @@ Status ReadSamples(OpenedPartial* out) {
   for (uint64_t i = 0; i < nr; ++i) {
     OpenedReduction red;
     red.kept = r.Varint();
-    red.groups = r.Str();
+    red.groups = r.Take(r.U64());
     if (!r.ok()) return Status::Corrupt("partial state reduction " + std::to_string(i) + " is truncated");
     out->reductions.push_back(red);
   }

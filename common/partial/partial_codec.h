@@ -25,7 +25,7 @@
 //              order): varint records in which it had a value;
 //              varint reduction count, per reduction of the plan (in job
 //              order): varint records it kept (past the job's filter and
-//              its own), varint length + that many bytes of its GroupTable
+//              its own), u64 length + that many bytes of its GroupTable
 //              encoding (common/partial/group_table.h)
 //
 // Decoding checks every length against the input and the checksum before
