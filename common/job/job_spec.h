@@ -14,6 +14,7 @@
 
 #include "common/measures/measure.h"
 #include "common/input/record_reader.h"
+#include "common/job/table_spec.h"
 #include "common/base/status.h"
 
 namespace fanfold {
@@ -80,6 +81,7 @@ struct JobSpec {
   std::optional<double> bad_record_limit;
   uint64_t chunk_bytes = 0;         // 0 = never cut files into chunks
   std::string keep;                 // "" = keep every record
+  std::vector<TableSpec> tables;    // lookup tables, job-level (table_spec.h)
   std::vector<DeriveSpec> derive;
   std::vector<std::string> group;
   std::vector<MeasureSpec> measures;

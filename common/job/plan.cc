@@ -71,6 +71,14 @@ Result<std::unique_ptr<Plan>> CompilePlan(JobSpec spec, RecordFormat format) {
   const JobSpec& s = plan->spec;
   FieldTable* fields = &plan->fields;
 
+  // Tables first: their fields read like derived fields everywhere after.
+  for (size_t i = 0; i < s.tables.size(); ++i) {
+    Result<Expr> match = CompileAt(*plan, fields, s.tables[i].match, ChildPointer("/tables", i) + "/match");
+    if (!match.ok()) return match.status();
+    Result<CompiledLookup> lookup = CompileLookup(s, i, std::move(match.value()), fields);
+    if (!lookup.ok()) return lookup.status();
+    plan->lookups.push_back(std::move(lookup.value()));
+  }
   for (size_t i = 0; i < s.derive.size(); ++i) {
     const std::string p = ChildPointer("/derive", i);
     if (!IsIdentifier(s.derive[i].name))
@@ -82,7 +90,7 @@ Result<std::unique_ptr<Plan>> CompilePlan(JobSpec spec, RecordFormat format) {
     int slot = fields->AddDerived(s.derive[i].name);
     if (slot < 0)
       return Status::InvalidArgument(s.job_path + ": " + p + "/name: found \"" + s.derive[i].name +
-                                     "\" again; expected a name not used by an earlier derived field");
+                                     "\" again; expected a name not used by an earlier derived field or a table's field");
     plan->derive.push_back(CompiledDerive{slot, std::move(e.value())});
   }
   if (!s.keep.empty()) {
@@ -201,6 +209,9 @@ std::string PlanCanonicalText(const Plan& plan) {
   const JobSpec& s = plan.spec;
   std::string out = std::string(kPlanTextCodecPrefix) + std::to_string(kPartialFormatVersion) + "\n";
   out += std::string("format=") + FormatName(plan.format) + "\n";
+  // Only when there are tables, so that plans without them keep their text.
+  for (size_t i = 0; i < plan.lookups.size() && i < s.tables.size(); ++i)
+    out += LookupCanonicalLine(plan.lookups[i], s.tables[i]) + "\n";
   out += "keep=" + s.keep + "\n";
   for (const auto& d : s.derive) out += "derive " + d.name + "=" + d.expr + "\n";
   for (const auto& g : s.group) out += "group " + g + "\n";

@@ -16,6 +16,7 @@
 #include "common/expr/expr.h"
 #include "common/input/field_table.h"
 #include "common/job/job_spec.h"
+#include "common/job/lookup_plan.h"
 #include "common/job/rows_plan.h"
 #include "common/input/record_reader.h"
 #include "common/base/status.h"
@@ -39,6 +40,9 @@ struct Plan {
   JobSpec spec;
   RecordFormat format = RecordFormat::kNdjson;
   FieldTable fields;
+  // The lookup tables, in job-file order: each record is looked up in
+  // every one before "keep" (lookup_plan.h). Loaded once per plan.
+  std::vector<CompiledLookup> lookups;
   std::optional<Expr> keep;
   std::vector<CompiledDerive> derive;
   // Which derived fields to evaluate, as indices into `derive` in order:
@@ -59,7 +63,8 @@ struct Plan {
 Result<std::unique_ptr<Plan>> CompilePlan(JobSpec spec, RecordFormat format);
 
 // A stable, human-readable description of everything the fingerprint
-// covers (format, filter, derived fields, keys, measures, codec version).
+// covers (format, lookup tables with their files' identity and content hash,
+// filter, derived fields, keys, measures, codec version).
 std::string PlanCanonicalText(const Plan& plan);
 
 // The partial-state format version a canonical plan text names in its first

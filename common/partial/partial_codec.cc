@@ -46,7 +46,7 @@ ZstdContexts& Contexts() {
   return ctx;
 }
 
-// Reads the malformed-record samples and the field counts at the start of
+// Reads the malformed-record samples, the field and lookup counts at the start of
 // out->body and points out->groups at the rest.
 Status ReadSamples(OpenedPartial* out);
 
@@ -64,6 +64,8 @@ void EncodePartialBody(const PartialState& p, std::string* body) {
   }
   bw.Varint(p.field_present.size());
   for (uint64_t n : p.field_present) bw.Varint(n);
+  bw.Varint(p.lookup_unmatched.size());
+  for (uint64_t n : p.lookup_unmatched) bw.Varint(n);
   p.groups.Encode(bw);
 }
 
@@ -224,6 +226,11 @@ Status ReadSamples(OpenedPartial* out) {
   out->field_present.clear();
   for (uint64_t i = 0; i < nf; ++i) out->field_present.push_back(r.Varint());
   if (!r.ok()) return Status::Corrupt("partial state field counts are truncated");
+  const uint64_t nt = r.Count(1);
+  if (!r.ok()) return Status::Corrupt("partial state has a bad lookup-table count");
+  out->lookup_unmatched.clear();
+  for (uint64_t i = 0; i < nt; ++i) out->lookup_unmatched.push_back(r.Varint());
+  if (!r.ok()) return Status::Corrupt("partial state lookup counts are truncated");
   out->groups = std::string_view(body).substr(body.size() - r.remaining());
   return Status::Ok();
 }
@@ -239,6 +246,7 @@ Status DecodePartial(std::string_view bytes, PartialState* out) {
   out->header = opened.header;
   out->samples = std::move(opened.samples);
   out->field_present = std::move(opened.field_present);
+  out->lookup_unmatched = std::move(opened.lookup_unmatched);
   return Status::Ok();
 }
 

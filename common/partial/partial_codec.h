@@ -23,6 +23,8 @@
 //              varint sample count, per sample: varint line, string reason;
 //              varint raw-field count, per raw field of the plan (FieldTable
 //              order): varint records in which it had a value;
+//              varint lookup-table count, per table of the plan (job-file
+//              order): varint records whose match found no row;
 //              the GroupTable encoding (common/partial/group_table.h)
 //
 // Decoding checks every length against the input and the checksum before
@@ -73,6 +75,9 @@ struct PartialState {
   // in which the field had a value (null included; an empty CSV cell has
   // none). The run's end warns about a field no record had.
   std::vector<uint64_t> field_present;
+  // Per lookup table of the plan, in job-file order: the well-formed
+  // records whose match value found no row (common/job/lookup_plan.h).
+  std::vector<uint64_t> lookup_unmatched;
   GroupTable groups;
   explicit PartialState(const std::vector<MeasureConfig>* configs) : groups(configs) {}
 };
@@ -84,7 +89,7 @@ uint64_t PathHash(std::string_view path);
 // written once and read once, so speed beats ratio.
 void EncodePartial(const PartialState& p, std::string* out);
 
-// The body alone, before compression (samples, field counts, then the group table).
+// The body alone, before compression (samples, field counts, lookup counts, then the group table).
 void EncodePartialBody(const PartialState& p, std::string* body);
 
 // Rewrites the encode-time field of an encoded partial (and its checksum):
@@ -105,6 +110,7 @@ struct OpenedPartial {
   PartialHeader header;
   std::vector<MalformedSample> samples;
   std::vector<uint64_t> field_present;  // as PartialState::field_present
+  std::vector<uint64_t> lookup_unmatched;  // as PartialState::lookup_unmatched
   std::string body;
   std::string_view groups;
 };

@@ -50,6 +50,7 @@ class Aggregator final : public RecordSink {
       for (size_t a = 0; a < m.args.size() && a < 2; ++a) d[a] = m.args[a].DirectSlot();
       arg_direct_.push_back(d);
     }
+    unmatched_.assign(plan.lookups.size(), 0);
   }
 
   // Records wait in a batch and are aggregated a batch at a time, so the
@@ -82,6 +83,8 @@ class Aggregator final : public RecordSink {
     arena_.Reset();
     ++seen_;
     if ((seen_ & hook_mask_) == 0 && hook_) hook_(seen_);
+    for (size_t t = 0; t < plan_.lookups.size(); ++t)
+      if (!plan_.lookups[t].Fill(slots, &arena_, &lookup_key_)) ++unmatched_[t];
     for (size_t i : plan_.derive_before_keep) Derive(i, slots);
     if (plan_.keep && !plan_.keep->Eval(slots, &arena_).Truthy()) return true;
     for (size_t i : plan_.derive_after_keep) Derive(i, slots);
@@ -111,6 +114,8 @@ class Aggregator final : public RecordSink {
  public:
   uint64_t kept() const { return kept_; }
   int over_limit() const { return over_limit_; }
+  // Per lookup table: the records whose match value found no row.
+  const std::vector<uint64_t>& unmatched() const { return unmatched_; }
 
  private:
   const Plan& plan_;
@@ -119,6 +124,8 @@ class Aggregator final : public RecordSink {
   uint64_t hook_mask_;  // the hook runs when (records & mask) == 0
   ScratchArena arena_;
   std::string key_;
+  std::string lookup_key_;
+  std::vector<uint64_t> unmatched_;
   uint64_t seen_ = 0;
   uint64_t kept_ = 0;
   int over_limit_ = -1;
@@ -207,6 +214,7 @@ Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
   h.parse_ns = in_reader - std::min(in_reader, timed.ns() + h.aggregate_ns);
   state.samples = std::move(stats.samples);
   state.field_present = present.counts();
+  state.lookup_unmatched = agg.unmatched();
   EncodePartial(state, partial);
   SetPartialEncodeTime(MonotonicNanos() - t1, partial);
   return Status::Ok();

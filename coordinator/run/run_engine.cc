@@ -94,6 +94,14 @@ json SummaryJson(const RunInput& in, const RunSummary& s, const Merger& merger, 
     for (const FieldTable::Slot& slot : plan.fields.slots())
       if (!slot.derived && f < t.field_present.size()) presence[slot.name] = t.field_present[f++];
   }
+  // Per lookup table: its rows and the records whose match found no row
+  // (null when a partial lacked the counts).
+  json lookups = json::object();
+  for (size_t i = 0; i < plan.lookups.size(); ++i) {
+    json unmatched = nullptr;
+    if (t.lookup_counts_known && i < t.lookup_unmatched.size()) unmatched = t.lookup_unmatched[i];
+    lookups[plan.lookups[i].name] = {{"rows", plan.lookups[i].table->row_count()}, {"unmatched", unmatched}};
+  }
   json warnings = json::array();
   for (const RunWarning& w : EndOfRunWarnings(plan, t, in.names_seen)) {
     json item = {{"kind", w.kind}, {"message", w.text}};
@@ -118,6 +126,7 @@ json SummaryJson(const RunInput& in, const RunSummary& s, const Merger& merger, 
           {"skipped", skipped},
           {"inexact_groups", inexact},
           {"field_presence", presence},
+          {"lookups", lookups},
           {"warnings", warnings},
           {"output", output.empty() ? "stdout" : output}};
 }
@@ -297,6 +306,13 @@ Status RunEngine::Summarise(const Status& written) {
 void RunEngine::PrintNotes() const {
   for (const auto& line : FormatRunSummary(summary_, list_)) Note(line);
   PrintQuietEssentials();
+  const MergeTotals& totals = merger_.totals();
+  for (size_t i = 0; i < plan_.lookups.size() && totals.lookup_counts_known; ++i) {
+    const uint64_t looked_up = totals.records - std::min(totals.records, totals.malformed);
+    Note("lookup table \"" + plan_.lookups[i].name + "\" (" + GroupedInteger(plan_.lookups[i].table->row_count()) +
+         " rows): " + GroupedInteger(totals.lookup_unmatched[i]) + " of " + GroupedInteger(looked_up) +
+         " records found no row");
+  }
   for (size_t m = 0; m < plan_.measures.size(); ++m) {
     if (merger_.skipped()[m] > 0)
       Note("measure \"" + plan_.measures[m].name + "\" skipped " + GroupedInteger(merger_.skipped()[m]) +
