@@ -4,6 +4,7 @@ the generator's manifest, and every result cell equals an independent
 Python-stdlib computation (reference.py) written out by hand per job below.
 """
 
+import csv
 import glob
 import json
 import os
@@ -44,6 +45,26 @@ def ratio(a, b):  # a / b in a rows step: null when a side is null or b is 0 (do
 
 def is_fault(r):  # {/event} == 'fault'
     return ptr(r, "/event") == "fault"
+
+
+def lamp_table():
+    """demo_data/lamp_models.csv read with Python's csv module: {lamp_id: (model, installed year)}."""
+    path = os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "..", "demo_data", "lamp_models.csv")
+    with open(path, newline="") as f:
+        return {row["lamp_id"]: (row["model"], int(row["installed"])) for row in csv.DictReader(f)}
+
+
+LAMPS = lamp_table()
+
+
+def lamp_field(r, i):  # a field of the lamp table row whose lamp_id == {/lamp}; None without one (left join)
+    row = LAMPS.get(ptr(r, "/lamp"))
+    return None if row is None else row[i]
+
+
+def decade(r):  # installed - installed % 10, missing without a year
+    year = lamp_field(r, 1)
+    return None if year is None else year - year % 10
 
 
 # Group column names follow docs/job-file.md: a derived field's name, the last
@@ -106,6 +127,14 @@ REFS = {
         # events >= 1000 and fault_share >= 0.03 (a null share is not kept)
         rows_keep=lambda row: (row["events"] >= 1000
                                and row["fault_share"] is not None and row["fault_share"] >= 0.03)),
+    "lamp_models.json": RefJob(
+        group=[("model", lambda r: lamp_field(r, 0)), ("decade", decade)],
+        measures=[
+            M("events", "count"),
+            M("faults", "sum", of=lambda r: one_if(is_fault(r))),
+            M("lamps", "distinct", of=p("/lamp")),
+        ],
+        rows_add=[("fault_share", lambda row: ratio(row["faults"], row["events"]))]),  # faults / events
     "csv_daily.json": RefJob(
         group=[("day", lambda r: ref.period_start(t_csv(r), "day")), ("weekday", lambda r: ref.weekday(t_csv(r))),
                ("fw_channel", c("fw_channel"))],
@@ -253,6 +282,8 @@ def main():
             # A copy of the job with absolute inputs and JSON output, to read typed values.
             copy = json.loads(json.dumps(job))
             copy["inputs"]["files"] = files
+            for table in copy.get("tables", []):  # relative to the job file, as the inputs
+                table["path"] = os.path.normpath(os.path.join(os.path.dirname(job_path), table["path"]))
             emit = copy.get("emit", {})
             emit.pop("path", None)
             emit["format"] = "json"
