@@ -43,6 +43,7 @@ Result<CompiledLookup> CompileLookup(const JobSpec& spec, size_t index, Expr mat
   const std::string p = ChildPointer("/tables", index);
   TableSource source;
   source.job_path = spec.job_path;
+  source.pointer = p;
   source.name = t.name;
   std::filesystem::path path(t.path);
   if (path.is_relative()) path = std::filesystem::path(spec.base_dir) / path;

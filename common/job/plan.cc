@@ -74,6 +74,10 @@ Result<std::unique_ptr<Plan>> CompilePlan(JobSpec spec, RecordFormat format) {
   // Tables first: their fields read like derived fields everywhere after.
   for (size_t i = 0; i < s.tables.size(); ++i) {
     Result<Expr> match = CompileAt(*plan, fields, s.tables[i].match, ChildPointer("/tables", i) + "/match");
+    if (!match.ok() && match.status().message().find("unknown derived field") != std::string::npos)
+      return Status::InvalidArgument(match.status().message() +
+                                     " (a match reads the records' own fields and earlier tables' fields, which "
+                                     "come before \"derive\")");
     if (!match.ok()) return match.status();
     Result<CompiledLookup> lookup = CompileLookup(s, i, std::move(match.value()), fields);
     if (!lookup.ok()) return lookup.status();

@@ -146,10 +146,11 @@ Result<std::shared_ptr<const LookupTable>> LoadLookupTable(const TableSource& s,
     if (!x.ok()) return x.status();
     values.push_back(std::move(x.value()));
   }
-  const std::string where = "lookup table \"" + s.name + "\" '" + s.path + "'";
+  const std::string where = s.job_path + ": " + s.pointer + ": lookup table \"" + s.name + "\" '" + s.path + "'";
   FileIdentity before;
   if (OsError e = IdentifyFile(s.path, &before); !e.ok())
-    return Status::InvalidArgument(s.job_path + ": " + e.ToStatus("read lookup table \"" + s.name + "\"", s.path).message());
+    return Status::InvalidArgument(s.job_path + ": " + s.pointer + "/path: " +
+                                   e.ToStatus("read lookup table \"" + s.name + "\"", s.path).message());
   if (s.compression == Compression::kNone && before.size > limits.max_bytes)
     return Status::InvalidArgument(where + ": " + std::to_string(before.size) +
                                    " bytes; expected a table within the limit of " +

@@ -34,6 +34,7 @@ struct TableExpr {
 
 struct TableSource {
   std::string job_path;  // for messages: "<job_path>: <pointer>: ..."
+  std::string pointer;   // the table's JSON Pointer in the job file ("/tables/0")
   std::string name;      // the table's name in the job file
   std::string path;      // absolute path of the file
   RecordFormat format = RecordFormat::kCsv;
@@ -43,8 +44,9 @@ struct TableSource {
   std::vector<TableExpr> field_exprs;    // one per name
 };
 
-// Loads `source`. Expression errors name the job file and pointer; errors
-// in the file name its path and line ("... 'lamps.csv' line 7: ...").
+// Loads `source`. Every error names the job file and a JSON Pointer;
+// errors in the table's file then name its path and line
+// ("job.json: /tables/0: lookup table \"lamps\" '/abs/lamps.csv' line 7: ...").
 Result<std::shared_ptr<const LookupTable>> LoadLookupTable(const TableSource& source,
                                                            const TableLimits& limits = {});
 

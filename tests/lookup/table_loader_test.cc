@@ -55,6 +55,7 @@ TableSource Source(const std::string& path, RecordFormat format, const std::stri
                    std::vector<std::pair<std::string, std::string>> fields) {
   TableSource s;
   s.job_path = "job.json";
+  s.pointer = "/tables/0";
   s.name = "lamps";
   s.path = path;
   s.format = format;
