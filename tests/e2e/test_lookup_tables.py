@@ -161,6 +161,19 @@ def main():
         rc, _, err = env.fanfold_run("resume", env.path("runs", "j2"), "-o", again)
         c.check(rc == 0 and open(again, "rb").read() == outputs.get("2"),
                 "resume without changes: exit %d: %s" % (rc, lib.tail(err)))
+        # Intent: a touched shard is recomputed on resume by workers that load the tables from the
+        # run's copy of the job (job.json in the run directory), relative paths still meaning the
+        # original job file's directory; the result is the same bytes.
+        st = os.stat(files[0])
+        os.utime(files[0], ns=(st.st_atime_ns, st.st_mtime_ns + 1_000_000_000))
+        rc, _, err = env.fanfold_run("resume", env.path("runs", "j2"), "-j", "2", "-o", again)
+        c.check(rc == 0 and "recomputing it" in err and open(again, "rb").read() == outputs.get("2"),
+                "resume recomputing a shard: exit %d: %s" % (rc, lib.tail(err)))
+        # Intent: `check` shows each table with its file, row count, key, match and fields.
+        rc, out, err = env.fanfold_run("check", job)
+        c.check(rc == 0 and "  table:   lamps = %s (csv, %d rows), key {lamp_id}, matched by {/lamp}, brings model, "
+                "installed, district\n" % (lamp_csv, len(lamps)) in out,
+                "check output lacks the lamps table (exit %d): %s %s" % (rc, out, lib.tail(err)))
         # Intent: a changed lookup table makes resume refuse, naming the table, and say how to start afresh
         # (docs/job-file.md, "tables": the table's size, mtime and content hash are in the plan fingerprint).
         with open(lamp_csv, "a", newline="") as f:
