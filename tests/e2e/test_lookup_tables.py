@@ -161,6 +161,12 @@ def main():
         rc, _, err = env.fanfold_run("resume", env.path("runs", "j2"), "-o", again)
         c.check(rc == 0 and open(again, "rb").read() == outputs.get("2"),
                 "resume without changes: exit %d: %s" % (rc, lib.tail(err)))
+        # Intent: reused partials carry their unmatched counts: the resumed summary has the same totals.
+        with open(os.path.join(env.path("runs", "j2"), "summary.json")) as f:
+            resumed = json.load(f)
+        c.check(resumed.get("lookups", {}).get("lamps", {}).get("unmatched") == no_lamp
+                and resumed["shards"]["reused"] == 4 and resumed["shards"]["processed"] == 0,
+                "resumed summary.json: %r %r" % (resumed.get("lookups"), resumed.get("shards")))
         # Intent: a touched shard is recomputed on resume by workers that load the tables from the
         # run's copy of the job (job.json in the run directory), relative paths still meaning the
         # original job file's directory; the result is the same bytes.
