@@ -13,12 +13,12 @@
 int main(int argc, char** argv) {
   using namespace fanfold;
   Result<WorkerLaunch> launch = ParseWorkerLaunch(argc, argv);
-  if (!launch.ok() || launch->extra.size() != 3) {
+  if (!launch.ok() || launch->extra.size() != 4) {
     std::cerr << "fanfold-worker: started by fanfold itself; "
-              << (launch.ok() ? "expected JOB FORMAT PLAN after the slot" : launch.status().message()) << "\n";
+              << (launch.ok() ? "expected JOB FORMAT PLAN BASE_DIR after the slot" : launch.status().message()) << "\n";
     return kExitUsage;
   }
-  Result<std::unique_ptr<Plan>> plan = LoadWorkerPlan(launch->extra[0], launch->extra[1], launch->extra[2]);
+  Result<std::unique_ptr<Plan>> plan = LoadWorkerPlan(launch->extra[0], launch->extra[1], launch->extra[2], launch->extra[3]);
   if (!plan.ok()) {
     std::cerr << "fanfold-worker: " << plan.status().message() << "\n";
     return ExitCodeFor(plan.status());

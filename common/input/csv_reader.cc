@@ -270,6 +270,7 @@ Status CsvReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
         slots_[cell.slot] = Value::String(std::string_view(ptr, cell.len));
       }
       ++st.records;
+      sink.set_record_line(record_line);
       if (!sink.OnRecord(slots_.data())) return Status::Ok();
     }
     if (last) return Status::Ok();

@@ -133,6 +133,7 @@ struct NdjsonReader::Impl {
       return true;
     }
     ++st.records;
+    sink.set_record_line(line);
     return sink.OnRecord(slots.data());
   }
 

@@ -38,6 +38,15 @@ class RecordSink {
   virtual ~RecordSink() = default;
   // slots has fields.size() entries. Return false to stop reading early.
   virtual bool OnRecord(Value* slots) = 0;
+
+  // The 1-based line on which the record now handed to OnRecord starts: the
+  // readers set it just before each call (a lookup table's errors name
+  // lines). A sink that wraps another does not pass it on.
+  uint64_t record_line() const { return record_line_; }
+  void set_record_line(uint64_t line) { record_line_ = line; }
+
+ private:
+  uint64_t record_line_ = 0;
 };
 
 // Reads every record of src. Returns an error for an unreadable/corrupt

@@ -33,17 +33,22 @@ std::string FingerprintHex(uint64_t fingerprint) {
 }
 
 Result<std::unique_ptr<Plan>> LoadWorkerPlan(const std::string& job_path, const std::string& format,
-                                             const std::string& fingerprint_hex) {
+                                             const std::string& fingerprint_hex, const std::string& base_dir,
+                                             std::string_view expected_plan_text) {
   RecordFormat f;
   if (!FormatFromText(format, &f)) return Status::InvalidArgument("unknown record format '" + format + "'");
   Result<JobSpec> spec = LoadJobSpec(job_path);
   if (!spec.ok()) return spec.status();
+  if (!base_dir.empty()) spec->base_dir = base_dir;
   Result<std::unique_ptr<Plan>> plan = CompilePlan(std::move(spec.value()), f);
   if (!plan.ok()) return plan.status();
-  if (FingerprintHex((*plan)->fingerprint) != fingerprint_hex)
-    return Status::InvalidArgument("job file '" + job_path + "' changed since the run started (plan " +
-                                   FingerprintHex((*plan)->fingerprint) + ", expected " + fingerprint_hex + ")");
-  return plan;
+  if (FingerprintHex((*plan)->fingerprint) == fingerprint_hex) return plan;
+  const std::string tables = ChangedLookupTables(expected_plan_text, PlanCanonicalText(**plan));
+  if (!tables.empty())
+    return Status::InvalidArgument(tables + " changed since the run started (its size, modification time or "
+                                   "content), so the saved partials may no longer hold");
+  return Status::InvalidArgument("job file '" + job_path + "' changed since the run started (plan " +
+                                 FingerprintHex((*plan)->fingerprint) + ", expected " + fingerprint_hex + ")");
 }
 
 }  // namespace fanfold

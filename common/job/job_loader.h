@@ -5,6 +5,7 @@
 
 #include <memory>
 #include <string>
+#include <string_view>
 
 #include "common/job/plan.h"
 #include "common/job/shard_list.h"
@@ -26,8 +27,14 @@ namespace fanfold {
 // The worker's view: compiles the job file's plan for `format` ("ndjson",
 // "csv", "tsv") and checks it against the coordinator's fingerprint (hex),
 // so a job file edited after the run started is refused, not half-applied.
+// base_dir, when not empty, is the directory the job's relative paths
+// (lookup tables) start from instead of the job file's own (a run's copy of
+// the job lives in the run directory). expected_plan_text, when given, is
+// the run's canonical plan text: a refusal then names the lookup tables
+// whose file changed.
 Result<std::unique_ptr<Plan>> LoadWorkerPlan(const std::string& job_path, const std::string& format,
-                                             const std::string& fingerprint_hex);
+                                             const std::string& fingerprint_hex, const std::string& base_dir = "",
+                                             std::string_view expected_plan_text = {});
 
 // The fingerprint as 16 lowercase hex digits.
 std::string FingerprintHex(uint64_t fingerprint);

@@ -72,10 +72,11 @@ Result<JobSpec> ParseJobSpec(std::string_view text, const std::string& job_path)
   job.base_dir = base.empty() ? "." : base.string();
   if (!doc.is_object()) return c.Error("", FoundText(doc), "a JSON object with \"inputs\" and \"measures\"");
   FF_RETURN_IF_ERROR(
-      c.OnlyKeys(doc, "", {"about", "inputs", "keep", "derive", "reductions", "group", "measures", "rows", "emit"}));
+      c.OnlyKeys(doc, "", {"about", "inputs", "tables", "keep", "derive", "reductions", "group", "measures", "rows", "emit"}));
   if (doc.contains("about")) FF_RETURN_IF_ERROR(c.String(doc["about"], "/about", &job.about, false));
   if (!doc.contains("inputs")) return c.Error("", "no \"inputs\"", "\"inputs\": {\"files\": [...]}");
   FF_RETURN_IF_ERROR(ParseInputs(c, doc["inputs"], &job));
+  if (doc.contains("tables")) FF_RETURN_IF_ERROR(ParseTableSpecs(doc["tables"], job_path, &job.tables));
   if (doc.contains("keep")) FF_RETURN_IF_ERROR(c.String(doc["keep"], "/keep", &job.keep));
   if (doc.contains("derive")) FF_RETURN_IF_ERROR(ParseDerive(c, doc["derive"], "/derive", &job.derive));
   if (doc.contains("reductions")) {

@@ -15,6 +15,7 @@
 
 #include "common/measures/measure.h"
 #include "common/input/record_reader.h"
+#include "common/job/table_spec.h"
 #include "common/base/status.h"
 
 namespace fanfold {
@@ -95,6 +96,7 @@ struct JobSpec {
   std::optional<double> bad_record_limit;
   uint64_t chunk_bytes = 0;         // 0 = never cut files into chunks
   std::string keep;                 // "" = keep every record (shared by every reduction)
+  std::vector<TableSpec> tables;    // lookup tables, job-level (table_spec.h)
   std::vector<DeriveSpec> derive;   // shared by every reduction
   std::vector<ReductionSpec> reductions;  // at least one
   // True iff the file has a "reductions" array (names are then non-empty

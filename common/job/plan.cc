@@ -82,7 +82,7 @@ Result<std::vector<int>> CompileDerives(Plan* plan, const std::vector<DeriveSpec
     int slot = plan->fields.AddDerived(derive[i].name);
     if (slot < 0)
       return Status::InvalidArgument(job + ": " + p + "/name: found \"" + derive[i].name +
-                                     "\" again; expected a name not used by an earlier derived field");
+                                     "\" again; expected a name not used by an earlier derived field or a table's field");
     plan->derive.push_back(CompiledDerive{slot, std::move(e.value()), p + "/expr"});
     slots.push_back(slot);
   }
@@ -223,6 +223,18 @@ Result<std::unique_ptr<Plan>> CompilePlan(JobSpec spec, RecordFormat format) {
   plan->spec = std::move(spec);
   plan->format = format;
   const JobSpec& s = plan->spec;
+  // Tables first: their fields read like derived fields everywhere after.
+  for (size_t i = 0; i < s.tables.size(); ++i) {
+    Result<Expr> match = CompileAt(*plan, &plan->fields, s.tables[i].match, ChildPointer("/tables", i) + "/match");
+    if (!match.ok() && match.status().message().find("unknown derived field") != std::string::npos)
+      return Status::InvalidArgument(match.status().message() +
+                                     " (a match reads the records' own fields and earlier tables' fields, which "
+                                     "come before \"derive\")");
+    if (!match.ok()) return match.status();
+    Result<CompiledLookup> lookup = CompileLookup(s, i, std::move(match.value()), &plan->fields);
+    if (!lookup.ok()) return lookup.status();
+    plan->lookups.push_back(std::move(lookup.value()));
+  }
   Result<std::vector<int>> shared = CompileDerives(plan.get(), s.derive, "/derive");
   if (!shared.ok()) return shared.status();
   if (!s.keep.empty()) {
@@ -264,6 +276,9 @@ std::string PlanCanonicalText(const Plan& plan) {
   const JobSpec& s = plan.spec;
   std::string out = std::string(kPlanTextCodecPrefix) + std::to_string(kPartialFormatVersion) + "\n";
   out += std::string("format=") + FormatName(plan.format) + "\n";
+  // Only when there are tables, so that plans without them keep their text.
+  for (size_t i = 0; i < plan.lookups.size() && i < s.tables.size(); ++i)
+    out += LookupCanonicalLine(plan.lookups[i], s.tables[i]) + "\n";
   out += "keep=" + s.keep + "\n";
   for (const auto& d : s.derive) out += "derive " + d.name + "=" + d.expr + "\n";
   for (const ReductionSpec& r : s.reductions) {

@@ -17,6 +17,7 @@
 #include "common/expr/expr.h"
 #include "common/input/field_table.h"
 #include "common/job/job_spec.h"
+#include "common/job/lookup_plan.h"
 #include "common/job/rows_plan.h"
 #include "common/input/record_reader.h"
 #include "common/base/status.h"
@@ -57,6 +58,9 @@ struct Plan {
   JobSpec spec;
   RecordFormat format = RecordFormat::kNdjson;
   FieldTable fields;
+  // The lookup tables, in job-file order: each record is looked up in
+  // every one before "keep" (lookup_plan.h). Loaded once per plan.
+  std::vector<CompiledLookup> lookups;
   std::optional<Expr> keep;            // the job's filter, shared by every reduction
   // Every derived field: the job's, then each reduction's own.
   std::vector<CompiledDerive> derive;
@@ -74,8 +78,9 @@ struct Plan {
 Result<std::unique_ptr<Plan>> CompilePlan(JobSpec spec, RecordFormat format);
 
 // A stable, human-readable description of everything the fingerprint
-// covers (codec version, format, the job's filter and derived fields, then
-// per reduction its name, filter, derived fields, keys and measures).
+// covers (codec version, format, lookup tables with their files' identity
+// and content hash, the job's filter and derived fields, then per reduction
+// its name, filter, derived fields, keys and measures).
 std::string PlanCanonicalText(const Plan& plan);
 
 // The partial-state format version a canonical plan text names in its first

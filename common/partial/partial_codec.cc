@@ -46,9 +46,9 @@ ZstdContexts& Contexts() {
   return ctx;
 }
 
-// Reads the malformed-record samples, the field counts and the reductions'
-// kept counts from out->body, and points each reduction's groups at its
-// group table inside it.
+// Reads the malformed-record samples, the field and lookup counts and the
+// reductions' kept counts from out->body, and points each reduction's groups
+// at its group table inside it.
 Status ReadSamples(OpenedPartial* out);
 
 }  // namespace
@@ -65,6 +65,8 @@ void EncodePartialBody(const PartialState& p, std::string* body) {
   }
   bw.Varint(p.field_present.size());
   for (uint64_t n : p.field_present) bw.Varint(n);
+  bw.Varint(p.lookup_unmatched.size());
+  for (uint64_t n : p.lookup_unmatched) bw.Varint(n);
   bw.Varint(p.reductions.size());
   for (const ReductionPartial& r : p.reductions) {
     bw.Varint(r.kept);
@@ -235,6 +237,11 @@ Status ReadSamples(OpenedPartial* out) {
   out->field_present.clear();
   for (uint64_t i = 0; i < nf; ++i) out->field_present.push_back(r.Varint());
   if (!r.ok()) return Status::Corrupt("partial state field counts are truncated");
+  const uint64_t nt = r.Count(1);
+  if (!r.ok()) return Status::Corrupt("partial state has a bad lookup-table count");
+  out->lookup_unmatched.clear();
+  for (uint64_t i = 0; i < nt; ++i) out->lookup_unmatched.push_back(r.Varint());
+  if (!r.ok()) return Status::Corrupt("partial state lookup counts are truncated");
   const uint64_t nr = r.Count(2);
   if (!r.ok() || nr == 0) return Status::Corrupt("partial state has a bad reduction count");
   out->reductions.clear();
@@ -266,6 +273,7 @@ Status DecodePartial(std::string_view bytes, PartialState* out) {
   out->header = opened.header;
   out->samples = std::move(opened.samples);
   out->field_present = std::move(opened.field_present);
+  out->lookup_unmatched = std::move(opened.lookup_unmatched);
   return Status::Ok();
 }
 

@@ -23,6 +23,8 @@
 //              varint sample count, per sample: varint line, string reason;
 //              varint raw-field count, per raw field of the plan (FieldTable
 //              order): varint records in which it had a value;
+//              varint lookup-table count, per table of the plan (job-file
+//              order): varint records whose match found no row;
 //              varint reduction count, per reduction of the plan (in job
 //              order): varint records it kept (past the job's filter and
 //              its own), u64 length + that many bytes of its GroupTable
@@ -83,6 +85,9 @@ struct PartialState {
   // in which the field had a value (null included; an empty CSV cell has
   // none). The run's end warns about a field no record had.
   std::vector<uint64_t> field_present;
+  // Per lookup table of the plan, in job-file order: the well-formed
+  // records whose match value found no row (common/job/lookup_plan.h).
+  std::vector<uint64_t> lookup_unmatched;
   std::vector<ReductionPartial> reductions;  // one per reduction of the plan, in order
   // One reduction per configs entry (each the measure configs of one
   // reduction, outliving the state).
@@ -101,8 +106,8 @@ uint64_t PathHash(std::string_view path);
 // written once and read once, so speed beats ratio.
 void EncodePartial(const PartialState& p, std::string* out);
 
-// The body alone, before compression (samples, field counts, then each
-// reduction's kept count and group table).
+// The body alone, before compression (samples, field counts, lookup
+// counts, then each reduction's kept count and group table).
 void EncodePartialBody(const PartialState& p, std::string* body);
 
 // Rewrites the encode-time field of an encoded partial (and its checksum):
@@ -130,6 +135,7 @@ struct OpenedPartial {
   PartialHeader header;
   std::vector<MalformedSample> samples;
   std::vector<uint64_t> field_present;  // as PartialState::field_present
+  std::vector<uint64_t> lookup_unmatched;  // as PartialState::lookup_unmatched
   std::string body;
   std::vector<OpenedReduction> reductions;
 };

@@ -68,6 +68,7 @@ class Aggregator final : public RecordSink {
       }
       feeds_.push_back(std::move(f));
     }
+    unmatched_.assign(plan.lookups.size(), 0);
   }
 
   // Records wait in a batch and are aggregated a batch at a time, so the
@@ -93,6 +94,8 @@ class Aggregator final : public RecordSink {
   uint64_t kept_by(size_t r) const { return feeds_[r].kept; }
   // The reduction and measure that ran past its limit, or {-1, -1}.
   std::pair<int, int> over_limit() const { return over_limit_; }
+  // Per lookup table: the records whose match value found no row.
+  const std::vector<uint64_t>& unmatched() const { return unmatched_; }
 
  private:
   void Derive(size_t i, Value* slots) {
@@ -104,6 +107,8 @@ class Aggregator final : public RecordSink {
     arena_.Reset();
     ++seen_;
     if ((seen_ & hook_mask_) == 0 && hook_) hook_(seen_);
+    for (size_t t = 0; t < plan_.lookups.size(); ++t)
+      if (!plan_.lookups[t].Fill(slots, &arena_, &lookup_key_)) ++unmatched_[t];
     for (size_t i : plan_.derive_before_keep) Derive(i, slots);
     if (plan_.keep && !plan_.keep->Eval(slots, &arena_).Truthy()) return true;
     for (size_t i : plan_.derive_after_keep) Derive(i, slots);
@@ -147,6 +152,8 @@ class Aggregator final : public RecordSink {
   uint64_t hook_mask_;  // the hook runs when (records & mask) == 0
   ScratchArena arena_;
   std::string key_;
+  std::string lookup_key_;
+  std::vector<uint64_t> unmatched_;
   uint64_t seen_ = 0;
   uint64_t kept_ = 0;
   std::pair<int, int> over_limit_ = {-1, -1};
@@ -237,6 +244,7 @@ Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
   state.samples = std::move(stats.samples);
   state.field_present = present.counts();
   for (size_t r = 0; r < state.reductions.size(); ++r) state.reductions[r].kept = agg.kept_by(r);
+  state.lookup_unmatched = agg.unmatched();
   EncodePartial(state, partial);
   SetPartialEncodeTime(MonotonicNanos() - t1, partial);
   return Status::Ok();

@@ -37,6 +37,14 @@ CommandOutcome CheckJob(const CheckOptions& o) {
   snprintf(fp, sizeof fp, "%016llx", static_cast<unsigned long long>(plan.fingerprint));
   text += "\nplan " + std::string(fp) + "\n";
   text += std::string("  records: ") + FormatName(plan.format) + "\n";
+  for (size_t i = 0; i < plan.lookups.size() && i < s.tables.size(); ++i) {
+    const TableSpec& t = s.tables[i];
+    const LookupTable& table = *plan.lookups[i].table;
+    text += "  table:   " + t.name + " = " + table.identity().path + " (" + FormatName(t.format) + ", " +
+            GroupedInteger(table.row_count()) + " rows), key " + t.key + ", matched by " + t.match + ", brings ";
+    for (size_t f = 0; f < t.fields.size(); ++f) text += (f ? ", " : "") + t.fields[f].name;
+    text += "\n";
+  }
   text += "  keep:    " + (s.keep.empty() ? std::string("every record") : s.keep) + "\n";
   for (const auto& d : s.derive) text += "  derive:  " + d.name + " = " + d.expr + "\n";
   for (size_t r = 0; r < plan.reductions.size(); ++r) {

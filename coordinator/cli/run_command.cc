@@ -177,10 +177,10 @@ CommandOutcome ResumeRun(const RunOptions& given) {
                 << "' changed since the run started; resuming with the run's copy '" << copy << "'"
                 << (why.empty() ? "" : " (the edited file does not load: " + why + ")") << "\n";
   }
+  // Relative paths in the job (lookup tables, emit.path) still mean the original's directory.
   Result<std::unique_ptr<Plan>> plan =
-      LoadWorkerPlan(have_copy ? copy : manifest.job_path, manifest.format, manifest.fingerprint);
-  // Relative paths in the job (emit.path) still mean the original's directory.
-  if (plan.ok() && have_copy) (*plan)->spec.base_dir = fs::path(manifest.job_path).parent_path().string();
+      LoadWorkerPlan(have_copy ? copy : manifest.job_path, manifest.format, manifest.fingerprint,
+                     fs::path(manifest.job_path).parent_path().string(), manifest.plan_text);
   if (!plan.ok()) {
     out.status = Status::InvalidArgument("cannot resume '" + o.run_dir + "': " + plan.status().message() +
                                          ". Start a fresh run instead: fanfold run " + manifest.job_path +

@@ -51,6 +51,8 @@ std::string WhereFieldIsRead(const Plan& plan, const std::string& name) {
     }
     return false;
   };
+  for (size_t i = 0; i < plan.lookups.size(); ++i)
+    if (reads(plan.lookups[i].match)) return ChildPointer("/tables", i) + "/match";
   for (const CompiledDerive& d : plan.derive)
     if (reads(d.expr)) return d.pointer;
   if (plan.keep && reads(*plan.keep)) return "/keep";

@@ -17,6 +17,7 @@ Merger::Merger(const Plan* plan, uint32_t shard_count, uint64_t waiting_budget)
   totals_.kept_by_reduction.assign(plan->reductions.size(), 0);
   for (const auto& slot : plan->fields.slots())
     if (!slot.derived) totals_.field_present.push_back(0);
+  totals_.lookup_unmatched.assign(plan->lookups.size(), 0);
 }
 
 Status Merger::Add(uint32_t shard, std::string partial) {
@@ -91,6 +92,11 @@ void Merger::Drain() {
       for (size_t f = 0; f < p.field_present.size(); ++f) totals_.field_present[f] += p.field_present[f];
     } else {
       totals_.field_counts_known = false;
+    }
+    if (p.lookup_unmatched.size() == totals_.lookup_unmatched.size()) {
+      for (size_t t = 0; t < p.lookup_unmatched.size(); ++t) totals_.lookup_unmatched[t] += p.lookup_unmatched[t];
+    } else {
+      totals_.lookup_counts_known = false;
     }
     for (auto& sample : p.samples)
       if (samples_.size() < kMaxReportedSamples) samples_.push_back({next_, std::move(sample)});

@@ -33,6 +33,11 @@ struct MergeTotals {
   // field no record had only when they are known.
   std::vector<uint64_t> field_present;
   bool field_counts_known = true;
+  // Per lookup table of the plan (job-file order): the merged records whose
+  // match value found no row; known iff every merged partial carried one
+  // count per table.
+  std::vector<uint64_t> lookup_unmatched;
+  bool lookup_counts_known = true;
 };
 
 // A malformed record seen in some shard, for the run summary.

@@ -90,6 +90,14 @@ json SummaryJson(const RunInput& in, const RunSummary& s, int workers, uint64_t 
     for (const FieldTable::Slot& slot : plan.fields.slots())
       if (!slot.derived && f < t.field_present.size()) presence[slot.name] = t.field_present[f++];
   }
+  // Per lookup table: its rows and the records whose match found no row
+  // (null when a partial lacked the counts).
+  json lookups = json::object();
+  for (size_t i = 0; i < plan.lookups.size(); ++i) {
+    json unmatched = nullptr;
+    if (t.lookup_counts_known && i < t.lookup_unmatched.size()) unmatched = t.lookup_unmatched[i];
+    lookups[plan.lookups[i].name] = {{"rows", plan.lookups[i].table->row_count()}, {"unmatched", unmatched}};
+  }
   json warnings = json::array();
   for (const RunWarning& w : EndOfRunWarnings(plan, t, in.names_seen)) {
     json item = {{"kind", w.kind}, {"message", w.text}};
@@ -112,6 +120,7 @@ json SummaryJson(const RunInput& in, const RunSummary& s, int workers, uint64_t 
           {"failed", failed},
           {"malformed_samples", samples},
           {"field_presence", presence},
+          {"lookups", lookups},
           {"warnings", warnings}};
 }
 
@@ -336,6 +345,13 @@ Status RunEngine::Summarise(const Status& written) {
 void RunEngine::PrintNotes() const {
   for (const auto& line : FormatRunSummary(summary_, list_)) Note(line);
   PrintQuietEssentials();
+  const MergeTotals& totals = merger_.totals();
+  for (size_t i = 0; i < plan_.lookups.size() && totals.lookup_counts_known; ++i) {
+    const uint64_t looked_up = totals.records - std::min(totals.records, totals.malformed);
+    Note("lookup table \"" + plan_.lookups[i].name + "\" (" + GroupedInteger(plan_.lookups[i].table->row_count()) +
+         " rows): " + GroupedInteger(totals.lookup_unmatched[i]) + " of " + GroupedInteger(looked_up) +
+         " records found no row");
+  }
   for (size_t r = 0; r < plan_.reductions.size(); ++r) PrintReductionNotes(r);
   for (const RunWarning& w : EndOfRunWarnings(plan_, merger_.totals(), in_.names_seen)) LogWarning(w.text);
   for (const FinishedReduction& f : finished_)

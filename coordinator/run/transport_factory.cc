@@ -36,7 +36,9 @@ Result<std::unique_ptr<Transport>> MakeTransport(const Plan& plan, const RunOpti
   ShmTransportOptions o;
   o.worker_binary = *binary;
   o.worker_args = {std::filesystem::absolute(plan.spec.job_path).string(), FormatName(plan.format),
-                   FingerprintHex(plan.fingerprint)};
+                   FingerprintHex(plan.fingerprint),
+                   // where the job's relative paths start (a resumed run's job is the run's copy)
+                   std::filesystem::absolute(plan.spec.base_dir).string()};
   o.worker_count = workers;
   o.spill_dir = spill_dir;
   Result<std::unique_ptr<ShmTransport>> t = ShmTransport::Create(o);

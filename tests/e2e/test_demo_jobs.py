@@ -4,6 +4,7 @@ the generator's manifest, and every result cell equals an independent
 Python-stdlib computation (reference.py) written out by hand per job below.
 """
 
+import csv
 import glob
 import json
 import os
@@ -44,6 +45,26 @@ def ratio(a, b):  # a / b in a rows step: null when a side is null or b is 0 (do
 
 def is_fault(r):  # {/event} == 'fault'
     return ptr(r, "/event") == "fault"
+
+
+def lamp_table():
+    """demo_data/lamp_models.csv read with Python's csv module: {lamp_id: (model, installed year)}."""
+    path = os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "..", "demo_data", "lamp_models.csv")
+    with open(path, newline="") as f:
+        return {row["lamp_id"]: (row["model"], int(row["installed"])) for row in csv.DictReader(f)}
+
+
+LAMPS = lamp_table()
+
+
+def lamp_field(r, i):  # a field of the lamp table row whose lamp_id == {/lamp}; None without one (left join)
+    row = LAMPS.get(ptr(r, "/lamp"))
+    return None if row is None else row[i]
+
+
+def decade(r):  # installed - installed % 10, missing without a year
+    year = lamp_field(r, 1)
+    return None if year is None else year - year % 10
 
 
 # Group column names follow docs/job-file.md: a derived field's name, the last
@@ -126,6 +147,14 @@ REFS = {
             rows_add=[("fault_share", lambda row: ratio(row["faults"], row["events"]))],  # faults / events
             rows_keep=lambda row: row["lamps"] >= 100),  # lamps >= 100
     },
+    "lamp_models.json": RefJob(
+        group=[("model", lambda r: lamp_field(r, 0)), ("decade", decade)],
+        measures=[
+            M("events", "count"),
+            M("faults", "sum", of=lambda r: one_if(is_fault(r))),
+            M("lamps", "distinct", of=p("/lamp")),
+        ],
+        rows_add=[("fault_share", lambda row: ratio(row["faults"], row["events"]))]),  # faults / events
     "csv_daily.json": RefJob(
         group=[("day", lambda r: ref.period_start(t_csv(r), "day")), ("weekday", lambda r: ref.weekday(t_csv(r))),
                ("fw_channel", c("fw_channel"))],
@@ -198,7 +227,7 @@ def expand_inputs(job_path, job):
     return sorted(files)
 
 
-def check_part(env, checks, args, name, job, part, rjob, files, records, shipped_out):
+def check_part(env, checks, args, name, job_path, job, part, rjob, files, records, shipped_out):
     """One reduction of a job (the job itself when it has no "reductions")
     against its hand-written reference."""
     label = name + ("" if not part["name"] else " " + part["name"])
@@ -213,6 +242,8 @@ def check_part(env, checks, args, name, job, part, rjob, files, records, shipped
     # values; of a job of several reductions, only this reduction.
     copy = json.loads(json.dumps(job))
     copy["inputs"]["files"] = files
+    for table in copy.get("tables", []):  # relative to the job file, as the inputs
+        table["path"] = os.path.normpath(os.path.join(os.path.dirname(job_path), table["path"]))
     if "reductions" in copy:
         copy["reductions"] = [r for r in copy["reductions"] if r["name"] == part["name"]]
         target = copy["reductions"][0]
@@ -328,7 +359,7 @@ def main():
                          "%s: the reference's reductions %r differ from the job's" % (name, sorted(refs)))
             for part in parts:
                 if part["name"] in refs:
-                    check_part(env, checks, args, name, job, part, refs[part["name"]], files, records, shipped_out)
+                    check_part(env, checks, args, name, job_path, job, part, refs[part["name"]], files, records, shipped_out)
 
         # Intent: together the example jobs use every measure fn of the spec.
         checks.check(ALL_FNS <= used_fns, "example jobs miss measure fns %s" % sorted(ALL_FNS - used_fns))

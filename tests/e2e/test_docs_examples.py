@@ -34,6 +34,9 @@ def absolutize(job, job_dir):
     """Input globs in docs are relative to jobs/; the test's job lives elsewhere."""
     files = job.get("inputs", {}).get("files", [])
     job["inputs"]["files"] = [f if os.path.isabs(f) else os.path.normpath(os.path.join(job_dir, f)) for f in files]
+    for table in job.get("tables", []):  # lookup tables: relative to jobs/ as well
+        if not os.path.isabs(table.get("path", "/")):
+            table["path"] = os.path.normpath(os.path.join(job_dir, table["path"]))
     for part in job.get("reductions", [job]):
         part.get("emit", {}).pop("path", None)
     return job

@@ -73,6 +73,9 @@ extern "C" int LLVMFuzzerTestOneInput(const uint8_t* data, size_t size) {
   std::string_view text(reinterpret_cast<const char*>(data), size);
   Result<JobSpec> spec = ParseJobSpec(text, "fuzz/job.json");
   if (!spec.ok()) return 0;
+  // A fuzzed "tables" entry names a file to read (/dev/stdin would block):
+  // its parsing is fuzzed above; plans are compiled without the tables.
+  spec->tables.clear();
   for (RecordFormat f : {RecordFormat::kNdjson, RecordFormat::kCsv, RecordFormat::kTsv}) {
     Result<std::unique_ptr<Plan>> plan = CompilePlan(*spec, f);
     if (!plan.ok()) continue;

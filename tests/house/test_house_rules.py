@@ -18,7 +18,7 @@ import subprocess
 import sys
 
 COMMON = ["common/base", "common/port", "common/input", "common/expr", "common/measures",
-          "common/job", "common/partial", "common/transport"]
+          "common/lookup", "common/job", "common/partial", "common/transport"]
 # folder -> folders it may include besides itself. Lower layers never include higher ones.
 ALLOWED = {
     "common/base": [],
@@ -29,9 +29,11 @@ ALLOWED = {
     # they implement measure.h, and the registry includes them.
     "common/measures": ["common/base", "common/measures/sketches"],
     "common/measures/sketches": ["common/base", "common/measures"],
-    "common/job": ["common/base", "common/port", "common/input", "common/expr", "common/measures"],
+    "common/lookup": ["common/base", "common/port", "common/input", "common/expr"],
+    "common/job": ["common/base", "common/port", "common/input", "common/expr", "common/measures",
+                   "common/lookup"],
     "common/partial": ["common/base", "common/port", "common/input", "common/expr", "common/measures",
-                       "common/job"],
+                       "common/lookup", "common/job"],
     "common/transport": ["common/base", "common/port", "common/input", "common/job", "common/partial"],
     "coordinator/output": COMMON,
     "coordinator/rundir": COMMON,

@@ -30,6 +30,7 @@ void Fill(PartialState* p) {
   p->header.path_hash = PathHash("/x/y.ndjson");
   p->samples.push_back({12, "unclosed string"});
   p->field_present = {98, 0, uint64_t{1} << 40};
+  p->lookup_unmatched = {5, 0, uint64_t{1} << 33};
   for (int i = 0; i < 50; ++i) {
     std::string key;
     AppendKeyValue(Value::String(i % 2 ? "odd" : "even"), &key);
@@ -58,6 +59,7 @@ TEST_CASE("encode, decode, re-encode gives the same bytes") {
   CHECK(q.samples.size() == 1);
   CHECK(q.samples[0].line == 12);
   CHECK(q.field_present == std::vector<uint64_t>{98, 0, uint64_t{1} << 40});
+  CHECK(q.lookup_unmatched == std::vector<uint64_t>{5, 0, uint64_t{1} << 33});
   CHECK(q.reductions[0].groups.group_count() == 10);
   std::string b;
   EncodePartial(q, &b);
