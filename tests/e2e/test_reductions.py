@@ -224,6 +224,23 @@ def main():
             for red in JOB_REDUCTIONS:
                 with open(os.path.join(run_dir, "result-%s.csv" % red["name"]), "rb") as f:
                     c.check(f.read() == results["-j 1"][red["name"]], "resumed %s differs" % red["name"])
+        # Intent: a lookup table feeds every reduction: the demo job jobs/lamp_models.json
+        # asked as one reduction beside another gives its own result byte for byte.
+        with open(os.path.join(env.src, "jobs", "lamp_models.json")) as f:
+            lamp_job = json.load(f)
+        demo = os.path.join(env.src, "demo_data")
+        inputs = {"files": [os.path.join(demo, "lamps", "*.ndjson.zst")]}
+        tables = [dict(t, path=os.path.join(demo, os.path.basename(t["path"]))) for t in lamp_job["tables"]]
+        alone = dict(lamp_job, inputs=inputs, tables=tables, emit={"format": "csv"})
+        rc, alone_out, err = env.fanfold_run("run", lib.write_job(env.path("alone.json"), alone), "-q")
+        both = {"inputs": inputs, "tables": tables, "reductions": [
+            {"name": "by_district", "group": ["{/district}"], "measures": [{"name": "n", "fn": "count"}]},
+            {"name": "models", "derive": lamp_job["derive"], "group": lamp_job["group"],
+             "measures": lamp_job["measures"], "rows": lamp_job["rows"], "emit": {"format": "csv"}}]}
+        rc2, both_out, err2 = env.fanfold_run("run", lib.write_job(env.path("both.json"), both), "-q")
+        c.check(rc == 0 and rc2 == 0 and both_out.endswith("\n== models ==\n" + alone_out),
+                "lookup + reductions: exit %d/%d: %s %s" % (rc, rc2, lib.tail(err), lib.tail(err2)))
+
         # Intent: the report of a resumed run of three reductions lists each with its kept
         # count and result file (the same numbers as summary.json).
         html = env.path("report.html")
