@@ -8,7 +8,6 @@
 #include <thread>
 #include <unordered_set>
 
-#include <nlohmann/json.hpp>
 
 #include "common/base/cell_text.h"
 #include "common/port/clock.h"
@@ -24,6 +23,7 @@
 #include "coordinator/run/progress_meter.h"
 #include "coordinator/run/run_loop.h"
 #include "coordinator/run/run_summary.h"
+#include "coordinator/run/summary_json.h"
 #include "coordinator/run/run_warnings.h"
 #include "coordinator/run/shard_scheduler.h"
 #include "coordinator/run/transport_factory.h"
@@ -31,21 +31,6 @@
 
 namespace fanfold {
 namespace {
-
-using nlohmann::json;
-
-// The result's file in the run directory: result.<ext> for a job of one
-// unnamed reduction, result-<name>.<ext> for each named one.
-std::string ResultName(const std::string& reduction, OutputFormat f) {
-  std::string name = reduction.empty() ? "result" : "result-" + reduction;
-  switch (f) {
-    case OutputFormat::kCsv: return name + ".csv";
-    case OutputFormat::kJson: return name + ".json";
-    case OutputFormat::kNdjson: return name + ".ndjson";
-    case OutputFormat::kTable: return name + ".txt";
-  }
-  return name;
-}
 
 std::string OutputPath(const RunOptions& o, const Plan& plan, size_t r) {
   if (!o.output_path.empty()) return o.output_path == "-" ? "" : o.output_path;
@@ -66,82 +51,6 @@ Status WriteOutput(const std::string& path, const std::string& text) {
   std::error_code ec;
   if (!parent.empty()) std::filesystem::create_directories(parent, ec);
   return WriteFileAtomic(path, text);
-}
-
-json SummaryJson(const RunInput& in, const RunSummary& s, int workers, uint64_t retries) {
-  const Plan& plan = *in.plan;
-  json failed = json::array();
-  for (const auto& f : s.failures)
-    failed.push_back({{"shard", f.shard}, {"path", f.path}, {"attempts", f.attempts}, {"reason", f.message}});
-  json samples = json::array();
-  for (const auto& m : s.samples) {
-    const Shard& shard = in.shards->shards[m.shard];
-    json sample = {{"shard", m.shard}, {"path", shard.path}, {"line", m.sample.line}, {"reason", m.sample.reason}};
-    if (shard.offset > 0) sample["chunk_offset"] = shard.offset;  // the line counts from there
-    samples.push_back(std::move(sample));
-  }
-  const MergeTotals& t = s.totals;
-  // Per raw field, the records that had it (null when a partial lacked the
-  // counts); the warnings as on stderr.
-  json presence = nullptr;
-  if (t.field_counts_known) {
-    presence = json::object();
-    size_t f = 0;
-    for (const FieldTable::Slot& slot : plan.fields.slots())
-      if (!slot.derived && f < t.field_present.size()) presence[slot.name] = t.field_present[f++];
-  }
-  // Per lookup table: its rows and the records whose match found no row
-  // (null when a partial lacked the counts).
-  json lookups = json::object();
-  for (size_t i = 0; i < plan.lookups.size(); ++i) {
-    json unmatched = nullptr;
-    if (t.lookup_counts_known && i < t.lookup_unmatched.size()) unmatched = t.lookup_unmatched[i];
-    lookups[plan.lookups[i].name] = {{"rows", plan.lookups[i].table->row_count()}, {"unmatched", unmatched}};
-  }
-  json warnings = json::array();
-  for (const RunWarning& w : EndOfRunWarnings(plan, t, in.names_seen)) {
-    json item = {{"kind", w.kind}, {"message", w.text}};
-    if (!w.field.empty()) item["field"] = w.field;
-    warnings.push_back(std::move(item));
-  }
-  return {{"job", plan.spec.job_path},
-          {"plan", FingerprintHex(plan.fingerprint)},
-          {"run_dir", in.dir->path()},
-          {"workers", workers},
-          {"shards", {{"total", s.shards_total}, {"done", t.shards_merged}, {"failed", s.failures.size()},
-                      {"reused", in.reused.size()}, {"processed", s.processed.shards}, {"retries", retries}}},
-          {"records", {{"read", t.records}, {"kept", t.kept}, {"malformed", t.malformed}}},
-          {"bytes", {{"compressed", t.compressed_bytes}, {"decompressed", t.raw_bytes}}},
-          {"wall_seconds", s.wall_seconds},
-          // This session's work alone (a resume reuses the rest): rates are over these.
-          {"processed", {{"records", s.processed.records},
-                         {"bytes", {{"compressed", s.processed.compressed_bytes},
-                                    {"decompressed", s.processed.raw_bytes}}}}},
-          {"failed", failed},
-          {"malformed_samples", samples},
-          {"field_presence", presence},
-          {"lookups", lookups},
-          {"warnings", warnings}};
-}
-
-// What summary.json says of one reduction: its measures' skipped values and
-// inexact groups, its rows step, where its result went.
-json ReductionJson(const ReductionPlan& plan, const ReductionSpec& spec, const Merger& merger, size_t r,
-                   const FinishedReduction& f) {
-  json skipped = json::object();
-  json inexact = json::object();
-  for (size_t m = 0; m < plan.measures.size() && m < merger.skipped(r).size(); ++m) {
-    skipped[plan.measures[m].name] = merger.skipped(r)[m];
-    if (merger.degraded(r)[m] > 0) inexact[plan.measures[m].name] = merger.degraded(r)[m];
-  }
-  json out = {{"skipped", skipped}, {"inexact_groups", inexact}};
-  if (spec.rows.given) {
-    json no_value = json::object();
-    for (size_t i = 0; i < plan.rows.add.size(); ++i) no_value[plan.rows.add[i].name] = f.rows.no_value[i];
-    out["rows"] = {{"merged", f.rows.rows_in}, {"dropped", f.rows.rows_dropped}, {"no_value", no_value}};
-  }
-  out["output"] = f.output_path.empty() ? "stdout" : f.output_path;
-  return out;
 }
 
 }  // namespace
@@ -293,9 +202,9 @@ Status RunEngine::Render(size_t r, const OutputTable& table) {
   // The run directory keeps every digit; only what the user reads is rounded.
   const std::string text = RenderTable(table, spec.emit.format);
   const std::string path = OutputPath(options_, plan_, r);
-  Status w = dir_.WriteFile(ResultName(spec.name, spec.emit.format), text);
+  Status w = dir_.WriteFile(ResultFileName(spec.name, spec.emit.format), text);
   if (!w.ok() || options_.results_in_run_dir_only) {
-    finished_[r].output_path = (std::filesystem::path(dir_.path()) / ResultName(spec.name, spec.emit.format)).string();
+    finished_[r].output_path = (std::filesystem::path(dir_.path()) / ResultFileName(spec.name, spec.emit.format)).string();
     return w;
   }
   finished_[r].output_path = path;
@@ -321,21 +230,7 @@ Status RunEngine::Summarise(const Status& written) {
   Status w = written;
   summary_.wall_seconds = ElapsedSeconds();
   if (w.ok()) {
-    json j = SummaryJson(in_, summary_, workers_, loop_.retries);
-    if (plan_.spec.named_reductions()) {
-      json list = json::array();
-      for (size_t r = 0; r < plan_.reductions.size(); ++r) {
-        json one = ReductionJson(plan_.reductions[r], plan_.spec.reductions[r], merger_, r, finished_[r]);
-        one["name"] = plan_.reductions[r].name;
-        one["kept"] = merger_.totals().kept_by_reduction[r];
-        one["result"] = ResultName(plan_.reductions[r].name, plan_.spec.reductions[r].emit.format);
-        list.push_back(std::move(one));
-      }
-      j["reductions"] = std::move(list);
-    } else {
-      j.update(ReductionJson(plan_.reductions[0], plan_.spec.reductions[0], merger_, 0, finished_[0]));
-    }
-    w = dir_.WriteFile("summary.json", j.dump(1) + "\n");
+    w = dir_.WriteFile("summary.json", SummaryJsonText(in_, summary_, merger_, finished_, workers_, loop_.retries));
   }
   dir_.StageJournal(FinishEventLine(WallNanos(), loop_.failures.size()));
   if (w.ok()) w = dir_.Commit();
