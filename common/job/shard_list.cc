@@ -9,6 +9,7 @@
 #include <system_error>
 
 #include "common/base/json_location.h"
+#include "common/port/directory_listing.h"
 #include "common/port/file_identity.h"
 
 namespace fs = std::filesystem;
@@ -33,71 +34,96 @@ std::vector<std::string> Segments(const std::string& pattern) {
 }
 
 struct Match {
-  fs::path path;
+  std::string path;  // as listed: relative or absolute, not normalized
   bool symlink = false;
 };
 
-// Appends to *out every regular file under dir matching segs[i..].
-void Walk(const fs::path& dir, const std::vector<std::string>& segs, size_t i, std::vector<Match>* out) {
+// Appends to *out every regular file under dir ("" = the working
+// directory) matching segs[i..].
+void Walk(const std::string& dir, const std::vector<std::string>& segs, size_t i, std::vector<Match>* out) {
   std::error_code ec;
+  const auto join = [&](const std::string& name) {
+    return dir.empty() ? name : dir.back() == '/' ? dir + name : dir + "/" + name;
+  };
   if (i == segs.size()) {
     if (fs::is_regular_file(dir, ec)) out->push_back({dir, fs::is_symlink(dir, ec)});
     return;
   }
   const std::string& seg = segs[i];
-  if (seg == "**") {
-    Walk(dir, segs, i + 1, out);  // zero directories
-    for (fs::directory_iterator it(dir, ec), end; !ec && it != end; it.increment(ec)) {
-      if (it->is_directory(ec) && it->path().filename().string()[0] != '.') Walk(it->path(), segs, i, out);
-    }
-    return;
-  }
   if (!HasWildcard(seg)) {
-    Walk(dir / seg, segs, i + 1, out);
+    Walk(join(seg), segs, i + 1, out);
     return;
   }
+  // The listing's own entry types decide (no stat, unless the file system
+  // gives none or the entry is a symlink): a glob over thousands of files
+  // should not cost a system call each just to be listed.
+  if (seg == "**") Walk(dir, segs, i + 1, out);  // zero directories
+  std::vector<DirectoryEntry> entries;
+  if (!ListDirectoryEntries(dir, &entries).ok()) return;
+  using Type = DirectoryEntry::Type;
   const bool leaf = i + 1 == segs.size();
-  for (fs::directory_iterator it(dir, ec), end; !ec && it != end; it.increment(ec)) {
-    std::string name = it->path().filename().string();
-    if (name[0] == '.' && seg[0] != '.') continue;  // hidden files only by explicit pattern
-    if (!GlobMatch(seg, name)) continue;
-    // At the last segment the entry's own type (from the directory listing,
-    // no stat unless it is a symlink) decides: a glob over thousands of
-    // files should not cost a system call each just to be listed.
-    std::error_code type_ec;
-    if (!leaf) Walk(it->path(), segs, i + 1, out);
-    else if (it->is_regular_file(type_ec)) out->push_back({it->path(), it->is_symlink(type_ec)});
+  for (const DirectoryEntry& e : entries) {
+    const bool hidden = e.name[0] == '.';
+    if (seg == "**") {
+      if (hidden) continue;
+      const std::string path = join(e.name);
+      if (e.type == Type::kDirectory || ((e.type == Type::kSymlink || e.type == Type::kUnknown) &&
+                                         fs::is_directory(path, ec)))
+        Walk(path, segs, i, out);
+      continue;
+    }
+    if (hidden && seg[0] != '.') continue;  // hidden files only by explicit pattern
+    if (fnmatch(seg.c_str(), e.name.c_str(), FNM_PERIOD) != 0) continue;
+    const std::string path = join(e.name);
+    if (!leaf) {
+      Walk(path, segs, i + 1, out);
+    } else if (e.type == Type::kFile) {
+      out->push_back({path, false});
+    } else if (e.type == Type::kSymlink || e.type == Type::kUnknown) {
+      if (fs::is_regular_file(path, ec)) out->push_back({path, fs::is_symlink(path, ec)});
+    }
   }
 }
 
 // The absolute, symlink-free form of each path, for sorting and removing
 // duplicates. Directories are resolved once each, not once per file in
-// them; a file that is itself a symlink is resolved whole.
+// them (the last one is kept at hand: a glob lists a directory's files
+// together); a file that is itself a symlink is resolved whole.
 class PathResolver {
  public:
   PathResolver() {
     std::error_code ec;
-    cwd_ = fs::current_path(ec);
+    cwd_ = fs::current_path(ec).native();
   }
-  fs::path Resolve(const Match& m) {
+  std::string Resolve(const Match& m) {
     std::error_code ec;
-    const fs::path abs = m.path.is_absolute() ? m.path : cwd_ / m.path;
+    const std::string abs = !m.path.empty() && m.path[0] == '/' ? m.path : cwd_ + "/" + m.path;
     if (m.symlink) {
       fs::path whole = fs::weakly_canonical(abs, ec);
-      return ec ? abs.lexically_normal() : whole;
+      return ec ? fs::path(abs).lexically_normal().native() : whole.native();
     }
-    const fs::path parent = abs.parent_path();
-    auto it = dirs_.find(parent);
-    if (it == dirs_.end()) {
-      fs::path canon = fs::weakly_canonical(parent, ec);
-      it = dirs_.emplace(parent, ec ? parent.lexically_normal() : canon).first;
+    const size_t slash = abs.rfind('/');
+    const std::string_view parent(abs.data(), slash == 0 ? 1 : slash);
+    if (parent != last_parent_) {
+      auto it = dirs_.find(std::string(parent));
+      if (it == dirs_.end()) {
+        const fs::path p(parent);
+        fs::path canon = fs::weakly_canonical(p, ec);
+        it = dirs_.emplace(std::string(parent), ec ? p.lexically_normal().native() : canon.native()).first;
+      }
+      last_parent_ = it->first;
+      last_canon_ = it->second;
     }
-    return it->second / abs.filename();
+    std::string out = last_canon_;
+    if (out.empty() || out.back() != '/') out += '/';
+    out.append(abs, slash + 1, std::string::npos);
+    return out;
   }
 
  private:
-  fs::path cwd_;
-  std::map<fs::path, fs::path> dirs_;
+  std::string cwd_;
+  std::map<std::string, std::string> dirs_;
+  std::string last_parent_, last_canon_;
 };
 
 std::string StripCompression(const std::string& name) {
@@ -133,7 +159,7 @@ bool FormatFromName(const std::string& path, RecordFormat* out) {
 }
 
 Result<ShardList> ExpandShards(const JobSpec& job) {
-  std::vector<fs::path> files;
+  std::vector<std::string> files;
   PathResolver resolver;
   for (size_t i = 0; i < job.files.size(); ++i) {
     const std::string where = job.job_path + ": " + ChildPointer("/inputs/files", i);
@@ -142,7 +168,7 @@ Result<ShardList> ExpandShards(const JobSpec& job) {
     std::vector<Match> matched;
     if (HasWildcard(pattern)) {
       std::string p = full.lexically_normal().string();
-      Walk(p[0] == '/' ? fs::path("/") : fs::path("."), Segments(p), 0, &matched);
+      Walk(p[0] == '/' ? "/" : "", Segments(p), 0, &matched);
       if (matched.empty())
         return Status::InvalidArgument(where + ": pattern '" + pattern + "' (" + p + ") matched no files");
     } else {
@@ -151,11 +177,11 @@ Result<ShardList> ExpandShards(const JobSpec& job) {
         return Status::InvalidArgument(where + ": input file '" + full.string() + "' does not exist");
       if (!fs::is_regular_file(full, ec))
         return Status::InvalidArgument(where + ": input '" + full.string() + "' is not a regular file");
-      matched.push_back({full, fs::is_symlink(full, ec)});
+      matched.push_back({full.native(), fs::is_symlink(full, ec)});
     }
     for (const Match& m : matched) {
       if (access(m.path.c_str(), R_OK) != 0)
-        return Status::InvalidArgument(where + ": input file '" + m.path.string() + "' is not readable");
+        return Status::InvalidArgument(where + ": input file '" + m.path + "' is not readable");
       files.push_back(resolver.Resolve(m));
     }
   }
@@ -163,12 +189,8 @@ Result<ShardList> ExpandShards(const JobSpec& job) {
   // turned into '\0' (a byte no path holds) so that it sorts below every
   // other — the same order for normal absolute paths, and a memcmp instead
   // of std::filesystem::path's compare.
-  std::vector<std::string> names;
-  names.reserve(files.size());
-  for (const fs::path& f : files) {
-    names.push_back(f.string());
-    std::replace(names.back().begin(), names.back().end(), '/', '\0');
-  }
+  std::vector<std::string> names = std::move(files);
+  for (std::string& n : names) std::replace(n.begin(), n.end(), '/', '\0');
   std::sort(names.begin(), names.end());
   names.erase(std::unique(names.begin(), names.end()), names.end());
   for (std::string& n : names) std::replace(n.begin(), n.end(), '\0', '/');

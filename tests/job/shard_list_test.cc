@@ -1,5 +1,6 @@
 // ExpandShards: globs, explicit names, symlinks and duplicates.
 #include "common/job/shard_list.h"
+#include "common/port/directory_listing.h"
 
 #include <doctest/doctest.h>
 #include <unistd.h>
@@ -90,4 +91,39 @@ TEST_CASE("shard_list: nothing matched is an error naming where") {
 }
 
 }  // namespace
+}  // namespace fanfold
+
+namespace fanfold {
+
+// Intent: "**" matches any number of directories, zero included, but not
+// hidden ones; a relative base directory works; a directory that matches a
+// file pattern is no shard. The reference: Python 3.11's
+// glob.glob("y/**/*.ndjson", recursive=True) over this tree, kept to regular
+// files (os.path.isfile), gives the same three (run by hand).
+TEST_CASE("shard_list: ** descends through directories, not hidden ones") {
+  ScratchDir d;
+  fs::create_directories(d.path / "y" / "2026" / "03");
+  fs::create_directories(d.path / "y" / ".cache");
+  fs::create_directories(d.path / "y" / "dir.ndjson");
+  Touch(d.path / "y" / "top.ndjson");
+  Touch(d.path / "y" / "2026" / "mid.ndjson");
+  Touch(d.path / "y" / "2026" / "03" / "deep.ndjson");
+  Touch(d.path / "y" / ".cache" / "skip.ndjson");
+  JobSpec job;
+  job.job_path = (d.path / "job.json").string();
+  job.base_dir = d.path.string();
+  job.files = {"y/**/*.ndjson"};
+  Result<ShardList> list = ExpandShards(job);
+  REQUIRE(list.ok());
+  const fs::path real = fs::canonical(d.path / "y");
+  std::vector<std::string> got;
+  for (const Shard& s : list->shards) got.push_back(s.path);
+  CHECK(got == std::vector<std::string>{(real / "2026" / "03" / "deep.ndjson").string(),
+                                        (real / "2026" / "mid.ndjson").string(), (real / "top.ndjson").string()});
+  std::vector<DirectoryEntry> entries;
+  REQUIRE(ListDirectoryEntries((d.path / "y").string(), &entries).ok());
+  CHECK(entries.size() == 4);  // top.ndjson, 2026, .cache, dir.ndjson: no "." or ".."
+  CHECK_FALSE(ListDirectoryEntries((d.path / "nope").string(), &entries).ok());
+}
+
 }  // namespace fanfold
