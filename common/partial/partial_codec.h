@@ -115,7 +115,9 @@ void EncodePartialBody(const PartialState& p, std::string* body);
 void SetPartialEncodeTime(uint64_t ns, std::string* partial);
 
 // Reads only the fixed header (checksum verified against the whole input).
-Status DecodePartialHeader(std::string_view bytes, PartialHeader* out);
+// With checksum_checked (the caller checked these very bytes before, e.g.
+// when it received them), everything but the checksum is checked again.
+Status DecodePartialHeader(std::string_view bytes, PartialHeader* out, bool checksum_checked = false);
 
 // One reduction of an opened partial: `groups` views its GroupTable
 // encoding inside OpenedPartial::body.
@@ -139,7 +141,8 @@ struct OpenedPartial {
   std::string body;
   std::vector<OpenedReduction> reductions;
 };
-Status OpenPartial(std::string_view bytes, OpenedPartial* out);
+// checksum_checked as for DecodePartialHeader.
+Status OpenPartial(std::string_view bytes, OpenedPartial* out, bool checksum_checked = false);
 
 // Decodes bytes into *out, whose group tables must be empty and built with
 // the plan's measure configs (one per reduction; a partial of another

@@ -20,11 +20,12 @@ Merger::Merger(const Plan* plan, uint32_t shard_count, uint64_t waiting_budget)
   totals_.lookup_unmatched.assign(plan->lookups.size(), 0);
 }
 
-Status Merger::Add(uint32_t shard, std::string partial) {
+Status Merger::Add(uint32_t shard, std::string partial, const PartialHeader* checked) {
   if (shard >= shard_count_ || shard < next_ || waiting_.count(shard))
     return Status::Internal("partial for shard " + std::to_string(shard) + " delivered twice or out of range");
   PartialHeader h;
-  FF_RETURN_IF_ERROR(DecodePartialHeader(partial, &h));
+  if (checked != nullptr) h = *checked;
+  else FF_RETURN_IF_ERROR(DecodePartialHeader(partial, &h));
   if (h.fingerprint != plan_->fingerprint) return Status::Corrupt("partial state is from a different job plan");
   if (h.shard_index != shard)
     return Status::Corrupt("partial state is for shard " + std::to_string(h.shard_index) + ", not " +
@@ -63,8 +64,11 @@ void Merger::Drain() {
     std::string bytes = std::move(it->second);
     waiting_.erase(it);
     waiting_bytes_ -= bytes.size();
-    Status s = bytes.empty() && reload_ ? reload_(next_, &bytes) : Status::Ok();
-    if (s.ok()) s = OpenPartial(bytes, &p);
+    // Bytes kept in memory since Add had their checksum checked there;
+    // reloaded ones are checked again.
+    const bool reloaded = bytes.empty() && reload_;
+    Status s = reloaded ? reload_(next_, &bytes) : Status::Ok();
+    if (s.ok()) s = OpenPartial(bytes, &p, /*checksum_checked=*/!reloaded);
     if (s.ok() && p.reductions.size() != results_.size())
       s = Status::Corrupt("partial state has " + std::to_string(p.reductions.size()) + " reductions; the plan has " +
                           std::to_string(results_.size()));

@@ -57,7 +57,11 @@ class Merger {
   // Accepts shard's encoded partial. Fails if its header or checksum is bad
   // or it is from another plan; the caller then treats the shard as failed
   // (MarkFailed).
-  Status Add(uint32_t shard, std::string partial);
+  // With `checked`, the caller decoded this header from these bytes with
+  // DecodePartialHeader (checksum included), which is then not done again;
+  // bytes the merger keeps in memory are not checksummed again either,
+  // only those it reloads from the run directory.
+  Status Add(uint32_t shard, std::string partial, const PartialHeader* checked = nullptr);
   // Records that shard will never deliver a partial.
   void MarkFailed(uint32_t shard);
 

@@ -125,7 +125,7 @@ Status RunShards(const ShardList& list, const std::vector<uint32_t>& order, Tran
       case TransportEvent::Kind::kDone: {
         Status rejected = DecodePartialHeader(ev.partial, &rec.header);
         if (rejected.ok() && options.on_partial) FF_RETURN_IF_ERROR(options.on_partial(job.shard, ev.partial));
-        if (rejected.ok()) rejected = merger.Add(job.shard, std::move(ev.partial));
+        if (rejected.ok()) rejected = merger.Add(job.shard, std::move(ev.partial), &rec.header);
         if (!rejected.ok()) {
           rec.outcome = AttemptRecord::Outcome::kRejected;
           rec.message = "its partial state was rejected: " + rejected.message();
