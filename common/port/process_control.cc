@@ -1,6 +1,7 @@
 #include "common/port/process_control.h"
 
 #include <sys/prctl.h>
+#include <sys/resource.h>
 #include <sys/types.h>
 #include <sys/wait.h>
 #include <unistd.h>
@@ -37,6 +38,16 @@ std::string ExitInfo::Describe() const {
     return "was killed by signal " + std::to_string(signal) + " (" + SignalName(signal) + ")";
   }
   return "exited with status " + std::to_string(code);
+}
+
+uint64_t PeakRssBytes() {
+  rusage ru{};
+  return ::getrusage(RUSAGE_SELF, &ru) == 0 ? static_cast<uint64_t>(ru.ru_maxrss) * 1024 : 0;  // ru_maxrss is KiB
+}
+
+uint64_t PeakChildRssBytes() {
+  rusage ru{};
+  return ::getrusage(RUSAGE_CHILDREN, &ru) == 0 ? static_cast<uint64_t>(ru.ru_maxrss) * 1024 : 0;
 }
 
 int CurrentPid() { return static_cast<int>(::getpid()); }

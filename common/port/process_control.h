@@ -23,6 +23,12 @@ struct ExitInfo {
 int CurrentPid();
 int ParentPid();
 
+// Peak resident memory (getrusage ru_maxrss) in bytes: of this process; and
+// of the largest of its children that have ended and been reaped (0 if
+// none). Measured by the kernel, not estimated.
+uint64_t PeakRssBytes();
+uint64_t PeakChildRssBytes();
+
 // The absolute path of this process's program (Linux /proc/self/exe);
 // false iff the system does not say.
 bool SelfExecutablePath(std::string* out);

@@ -173,6 +173,8 @@ void RunEngine::Tally() {
   summary_.interrupted = loop_.interrupted;
   summary_.shards_reused = in_.reused.size();
   summary_.wall_seconds = ElapsedSeconds();
+  summary_.peak_rss = PeakRssBytes();
+  summary_.peak_worker_rss = PeakChildRssBytes();
 }
 
 Status RunEngine::Stop() {
@@ -229,6 +231,9 @@ Status RunEngine::Render(size_t r, const OutputTable& table) {
 Status RunEngine::Summarise(const Status& written) {
   Status w = written;
   summary_.wall_seconds = ElapsedSeconds();
+  // Again after the merge's tables were finished and rendered, which can
+  // be the coordinator's peak.
+  summary_.peak_rss = PeakRssBytes();
   if (w.ok()) {
     w = dir_.WriteFile("summary.json", SummaryJsonText(in_, summary_, merger_, finished_, workers_, loop_.retries));
   }

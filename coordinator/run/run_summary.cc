@@ -63,6 +63,9 @@ std::vector<std::string> FormatRunSummary(const RunSummary& s, const ShardList& 
   line += " records: " + GroupedInteger(t.records) + " read, " + GroupedInteger(t.kept) + " kept, " +
           GroupedInteger(t.malformed) + " malformed | " + Megabytes(t.compressed_bytes) + " in, " +
           Megabytes(t.raw_bytes) + " decompressed | " + rate;
+  if (s.peak_rss > 0)
+    line += " | peak memory: coordinator " + Megabytes(s.peak_rss) +
+            (s.peak_worker_rss > 0 ? ", largest worker " + Megabytes(s.peak_worker_rss) : "");
   lines.push_back(line);
   return lines;
 }

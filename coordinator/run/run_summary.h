@@ -35,6 +35,11 @@ struct RunSummary {
   size_t shards_saved = 0;
   size_t shards_reused = 0;   // merged from the run directory as they were
   ProcessedTotals processed;  // done in this session (MB/s is over these)
+  // Peak resident memory in bytes, as the kernel counts it (getrusage): of
+  // the coordinator, and of the largest worker process this session ended
+  // (0 when none did: --in-process, or nothing to process).
+  uint64_t peak_rss = 0;
+  uint64_t peak_worker_rss = 0;
 };
 
 // "1,234,567"

@@ -65,7 +65,10 @@ json SummaryJson(const RunInput& in, const RunSummary& s, int workers, uint64_t 
           {"malformed_samples", samples},
           {"field_presence", presence},
           {"lookups", lookups},
-          {"warnings", warnings}};
+          {"warnings", warnings},
+          // Measured by the kernel (getrusage); null for a worker when none ran.
+          {"peak_rss_bytes", {{"coordinator", s.peak_rss},
+                              {"largest_worker", s.peak_worker_rss > 0 ? json(s.peak_worker_rss) : json(nullptr)}}}};
 }
 
 // What summary.json says of one reduction: its measures' skipped values and

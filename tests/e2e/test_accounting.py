@@ -237,6 +237,40 @@ def check_split(env, checks):
     checks.check(hp <= 4 * lp, "parse_ns light %d, heavy %d: the aggregation leaks into parsing" % (lp, hp))
 
 
+def check_memory(env, checks):
+    """Peak memory in summary.json is the kernel's: a fresh Python process
+    that runs fanfold as its only child reads resource.getrusage(
+    RUSAGE_CHILDREN).ru_maxrss afterwards, the largest peak of fanfold's
+    coordinator and of its workers (descendants that were waited for)."""
+    data = env.path("mem")
+    env.generate(data, "--shards", 2, "--records", 60000, "--seed", 9)
+    job = env.path("mem.json")
+    # A group per record: the worker's table, then the coordinator's, grow.
+    lib.write_job(job, dict(JOB, inputs={"files": [os.path.join(data, "*.ndjson.zst")]},
+                            group=["{/ts}", "{/lamp}"], measures=[{"name": "n", "fn": "count"}]))
+    for mode in (["-j", "2"], ["--in-process"]):
+        run_dir = env.path("runs", "mem" + mode[0])
+        probe = ("import resource, subprocess, sys; "
+                 "r = subprocess.run(sys.argv[1:], stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL); "
+                 "print(r.returncode, resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss)")
+        rc, out, err = env.run([sys.executable, "-c", probe, env.fanfold, "run", job, *mode, "--run-dir", run_dir,
+                                "-o", env.path("mem.out.json")])
+        fields = out.split()
+        if not checks.check(rc == 0 and len(fields) == 2 and fields[0] == "0", "memory run %s: %r %s" % (mode, out, err)):
+            continue
+        kib = int(fields[1])
+        with open(os.path.join(run_dir, "summary.json")) as f:
+            peak = json.load(f)["peak_rss_bytes"]
+        worker = peak["largest_worker"]
+        # Intent: a worker's figure exactly when workers ran.
+        checks.check((worker is None) == (mode[0] == "--in-process"), "%s: largest_worker %r" % (mode, worker))
+        # Intent: the larger figure is the kernel's for the whole run, within what the coordinator
+        # allocates after it reads its own (rendering the result): at most 10 % more.
+        top = max(peak["coordinator"], worker or 0) / 1024
+        checks.check(top <= kib <= top * 1.10 + 1024, "%s: summary.json peak %r, getrusage says %d KiB" % (mode, peak, kib))
+        checks.check(peak["coordinator"] > 4 << 20, "%s: coordinator peak %r is implausibly small" % (mode, peak))
+
+
 def main():
     args = lib.parse_args(__doc__)
     checks = lib.Checks("test_accounting")
@@ -245,6 +279,7 @@ def main():
         check_resume(env, checks)
         check_phases(env, checks)
         check_split(env, checks)
+        check_memory(env, checks)
     checks.exit()
 
 
