@@ -62,6 +62,15 @@ std::string SummarySection(const RunRecord& r, const RunAnalysis& a) {
                 (r.sessions.size() > 1 && t.from_summary ? " (the last session)" : ""));
   h += Card("Workers", Num("workers", std::to_string(t.workers), std::to_string(t.workers)),
             std::to_string(r.sessions.size()) + (r.sessions.size() == 1 ? " session" : " sessions"));
+  if (r.summary.peak_rss > 0)
+    h += Card("Peak memory", Num("peak_rss_bytes.coordinator", std::to_string(r.summary.peak_rss),
+                                 Megabytes(r.summary.peak_rss)),
+              "coordinator" + (r.summary.peak_worker_rss > 0
+                                   ? "; largest worker " + Num("peak_rss_bytes.largest_worker",
+                                                                std::to_string(r.summary.peak_worker_rss),
+                                                                Megabytes(r.summary.peak_worker_rss))
+                                   : std::string()) +
+                  " (the kernel's count, last session)");
   h += "</div>";
   const auto skipped_text = [](const std::map<std::string, uint64_t>& skipped) {
     std::string sk;

@@ -36,6 +36,9 @@ Result<SummaryRecord> SummaryFrom(const json& j) {
   s.bytes_compressed = JsonValueOr<uint64_t>(bytes, "compressed", 0);
   s.bytes_decompressed = JsonValueOr<uint64_t>(bytes, "decompressed", 0);
   s.wall_seconds = JsonValueOr<double>(j, "wall_seconds", 0);
+  const json& peak = JsonObjectOrEmpty(j, "peak_rss_bytes");
+  s.peak_rss = JsonValueOr<uint64_t>(peak, "coordinator", 0);
+  s.peak_worker_rss = JsonValueOr<uint64_t>(peak, "largest_worker", 0);
   if (j.contains("processed")) {
     const json& processed = JsonObjectOrEmpty(j, "processed");
     s.has_processed = true;

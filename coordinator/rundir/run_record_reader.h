@@ -27,6 +27,8 @@ struct SummaryRecord {
   uint64_t records_read = 0, records_kept = 0, records_malformed = 0;
   uint64_t bytes_compressed = 0, bytes_decompressed = 0;
   double wall_seconds = 0;
+  // peak_rss_bytes (0 when the summary has none, or no worker ran).
+  uint64_t peak_rss = 0, peak_worker_rss = 0;
   // This session's own work ("processed"; a resume reuses the rest), when
   // the summary has it (written since fanfold counts reused shards apart).
   bool has_processed = false;
