@@ -1,7 +1,8 @@
 // KeyArena: the bytes of a group table's keys, stored once, in chunks that
 // never move, so a key's string_view stays valid for the arena's lifetime
-// (moving the arena keeps them valid too). One allocation per 64 KiB of keys
-// (or per key longer than that) instead of one or two per group. Owned by
+// (moving the arena keeps them valid too). One allocation per chunk of keys
+// (4 KiB, doubling to 64 KiB; or per key longer than that) instead of one
+// or two per group. Owned by
 // its GroupTable; not thread-safe.
 #pragma once
 
@@ -18,8 +19,12 @@ class KeyArena {
   // Copies key into the arena; the view stays valid until the arena dies.
   std::string_view Add(std::string_view key) {
     if (key.size() > room_) {
-      const size_t size = std::max(kChunkBytes, key.size());
-      chunks_.push_back(std::make_unique<char[]>(size));
+      // Chunks double from 4 KiB to 64 KiB (a tiny shard's table needs
+      // one small one), and are not zeroed: every byte is written before
+      // it is read.
+      next_chunk_ = std::min(kMaxChunkBytes, next_chunk_ * 2);
+      const size_t size = std::max(next_chunk_, key.size());
+      chunks_.push_back(std::make_unique_for_overwrite<char[]>(size));
       next_ = chunks_.back().get();
       room_ = size;
     }
@@ -31,7 +36,8 @@ class KeyArena {
   }
 
  private:
-  static constexpr size_t kChunkBytes = size_t{1} << 16;
+  static constexpr size_t kMaxChunkBytes = size_t{1} << 16;
+  size_t next_chunk_ = size_t{1} << 11;  // doubled before each new chunk
   std::vector<std::unique_ptr<char[]>> chunks_;
   char* next_ = nullptr;
   size_t room_ = 0;
