@@ -1,9 +1,24 @@
-// OnDemandLineParser: the NDJSON reader's second pass for a line the DOM
-// parser refused with a number error: it reads the line again with simdjson
-// On-Demand, visiting and validating every value, and fills the slots the
-// PointerTrie leads to. Numbers the DOM parser cannot hold (integers beyond
-// 64 bits, 1e400) become their nearest double, +/-infinity beyond the double
-// range. One per reader (owns a parser); not thread-safe.
+// OnDemandLineParser: the NDJSON reader's parser for one line. It runs
+// simdjson On-Demand over the line (stage 1, the structural and UTF-8 pass,
+// on the SIMD kernel simdjson picks at run time), walks the whole root
+// object once and fills the slots the PointerTrie leads to, parsing only the
+// values a pointer ends at. What it checks depends on ValueChecks (the job
+// file's "inputs"/"check_unread_values"; docs/job-file.md, "Malformed
+// records"):
+//   kReadValues  (default) every structural rule of RFC 8259 everywhere in
+//                the line — brackets and braces closed and matching, commas
+//                and colons in place, keys are strings, one object and
+//                nothing after it — plus UTF-8, control characters and
+//                escape sequences in every string, and the full syntax of
+//                every value a pointer reads; the spelling of numbers and
+//                true/false/null that no pointer reads is not checked.
+//   kEveryValue  all of the above and the spelling of every number and
+//                literal: exactly RFC 8259 (the reader's behaviour before
+//                kReadValues existed).
+// Numbers a pointer reads: integers within [-2^63, 2^64) are exact integer
+// Values, other numbers their nearest double, +/-infinity beyond the double
+// range (Python's json.loads does the same with "1e400"). One per reader
+// (owns a parser); not thread-safe.
 #pragma once
 
 #include <cstddef>
@@ -14,12 +29,24 @@
 
 #include "common/base/value.h"
 #include "common/input/pointer_trie.h"
+#include "common/input/record_reader.h"
 
 namespace fanfold {
 
+// Why a line is not a record (kRecord: it is one).
+enum class LineVerdict {
+  kRecord,
+  kNotObject,   // valid JSON, but not an object
+  kTooDeep,     // nested deeper than the parser's limit
+  kBadNumber,   // a number that is not valid JSON
+  kNotUtf8,     // bytes that are not UTF-8
+  kTooLong,     // longer than the parser can take
+  kInvalid,     // any other break of the JSON grammar
+};
+
 class OnDemandLineParser {
  public:
-  OnDemandLineParser();
+  explicit OnDemandLineParser(ValueChecks checks = ValueChecks::kReadValues);
   ~OnDemandLineParser();
   OnDemandLineParser(const OnDemandLineParser&) = delete;
   OnDemandLineParser& operator=(const OnDemandLineParser&) = delete;
@@ -28,10 +55,15 @@ class OnDemandLineParser {
   // simdjson's padding). Fills slots[] where the pointers of `nodes` end
   // (first occurrence of a duplicate key wins, marked with `generation`);
   // string values point into this parser until its next Parse. Returns
-  // nullptr iff the line is one JSON object, else the reason it is not.
+  // kRecord iff the line is one JSON object as the checks above judge it;
+  // slots are then complete (otherwise some may be filled).
   // REQUIRES: slots already reset to missing; generation new for this line.
-  const char* Parse(const char* p, size_t len, size_t capacity, std::vector<PointerNode>* nodes,
+  LineVerdict Parse(const char* p, size_t len, size_t capacity, std::vector<PointerNode>* nodes,
                     uint64_t generation, Value* slots);
+
+  // The name of the stage-1 kernel simdjson picked at run time on this
+  // machine ("haswell", "westmere", "fallback", ...), for benchmark reports.
+  static const char* Stage1KernelName();
 
  private:
   struct Impl;
@@ -43,5 +75,9 @@ class OnDemandLineParser {
 // a magnitude beyond the double range as +/-infinity (Python's json.loads
 // does the same with "1e400"). Returns false iff text is not a JSON number.
 bool ParseJsonNumber(std::string_view text, Value* out);
+
+// True iff text is a JSON number token (RFC 8259 section 6 grammar); the
+// check of ParseJsonNumber without computing the value.
+bool IsJsonNumber(std::string_view text);
 
 }  // namespace fanfold

@@ -201,6 +201,8 @@ std::string PlanCanonicalText(const Plan& plan) {
   const JobSpec& s = plan.spec;
   std::string out = std::string(kPlanTextCodecPrefix) + std::to_string(kPartialFormatVersion) + "\n";
   out += std::string("format=") + FormatName(plan.format) + "\n";
+  // Which NDJSON lines are malformed depends on it (ValueChecks).
+  if (plan.format == RecordFormat::kNdjson) out += std::string("values=") + (s.check_unread_values ? "every" : "read") + "\n";
   out += "keep=" + s.keep + "\n";
   for (const auto& d : s.derive) out += "derive " + d.name + "=" + d.expr + "\n";
   for (const auto& g : s.group) out += "group " + g + "\n";
