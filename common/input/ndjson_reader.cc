@@ -8,7 +8,7 @@
 #include <vector>
 
 #include "common/base/json_syntax.h"
-#include "common/input/on_demand_line_parser.h"
+#include "common/input/ndjson_line_parser.h"
 #include "common/input/pointer_trie.h"
 
 namespace fanfold {
@@ -18,10 +18,10 @@ namespace {
 // expected (JsonLineSyntaxProblem), or, for a line that is JSON by RFC 8259
 // but not one the reader takes, what it is.
 std::string MalformedReason(std::string_view line, LineVerdict verdict) {
-  if (verdict == LineVerdict::kNotObject) return "the line is not a JSON object";
   std::string problem = JsonLineSyntaxProblem(line);
   if (problem.rfind("column ", 0) == 0) return problem;
   switch (verdict) {
+    case LineVerdict::kNotObject: return "the line is not a JSON object";
     case LineVerdict::kTooDeep: return "nested deeper than the reader's limit of 1024 levels";
     case LineVerdict::kBadNumber: return "a number that is not valid JSON";
     case LineVerdict::kNotUtf8: return "bytes that are not UTF-8";
@@ -34,11 +34,12 @@ bool IsJsonSpace(char c) { return c == ' ' || c == '\t' || c == '\r' || c == '\n
 
 }  // namespace
 
-// One On-Demand parse per line (OnDemandLineParser): the lines are cut here,
-// so each malformed line counts once, exactly, and the next line is read
-// whatever this one held. Measured on this project's benchmark data (see
+// One parse per line (NdjsonLineParser): the lines are cut here, so each
+// malformed line counts once, exactly, and the next line is read whatever
+// this one held. Measured on this project's benchmark data (see
 // bench/RESULTS.md): faster than the simdjson DOM parse it replaced, which
-// built a tape of every value and converted every number and string.
+// built a tape of every value and converted every number and string, and
+// than simdjson On-Demand walking every value for the same checks.
 struct NdjsonReader::Impl {
   Impl(const ChunkOptions& options, size_t nslots, ValueChecks checks)
       : chunk(options, simdjson::SIMDJSON_PADDING), parser(checks), slots(nslots) {}
@@ -67,7 +68,7 @@ struct NdjsonReader::Impl {
   }
 
   ChunkBuffer chunk;
-  OnDemandLineParser parser;
+  NdjsonLineParser parser;
   std::vector<PointerNode> nodes;  // nodes[0] is the root
   std::vector<Value> slots;
   uint64_t generation = 0;

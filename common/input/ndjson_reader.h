@@ -2,9 +2,9 @@
 // fills the raw slots of a FieldTable, whose raw fields are JSON Pointers
 // (RFC 6901), then hands each well-formed record to a RecordSink. Pointers
 // are compiled once into a token trie; the reader cuts lines itself and
-// parses each once (OnDemandLineParser: simdjson On-Demand), converting only
+// parses each once (NdjsonLineParser: simdjson stage 1 and our own walk), converting only
 // the values a pointer reads. Which errors make a line malformed is
-// ValueChecks' choice (on_demand_line_parser.h). JSON integers within
+// ValueChecks' choice (ndjson_line_parser.h). JSON integers within
 // [-2^63, 2^64) are exact integer Values. One reader per thread; reusable
 // across sources (build it once per worker).
 #pragma once
@@ -15,7 +15,7 @@
 #include "common/input/byte_source.h"
 #include "common/input/chunk_buffer.h"
 #include "common/input/field_table.h"
-#include "common/input/on_demand_line_parser.h"
+#include "common/input/ndjson_line_parser.h"
 #include "common/input/record_reader.h"
 #include "common/base/status.h"
 

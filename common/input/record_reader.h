@@ -24,7 +24,7 @@ namespace fanfold {
 // "inputs"/"check_unread_values"). NDJSON: kReadValues checks the whole
 // structure of a line but the spelling of numbers and true/false/null only
 // where a field reads them; kEveryValue checks every value exactly as
-// RFC 8259 says (see common/input/on_demand_line_parser.h). CSV/TSV read
+// RFC 8259 says (see common/input/ndjson_line_parser.h). CSV/TSV read
 // every cell either way.
 enum class ValueChecks { kReadValues, kEveryValue };
 

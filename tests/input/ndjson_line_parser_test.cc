@@ -1,8 +1,8 @@
-// Tests for OnDemandLineParser (common/input/on_demand_line_parser.h): the
+// Tests for NdjsonLineParser (common/input/ndjson_line_parser.h): the
 // NDJSON reader's second pass for lines with numbers the DOM parser refuses,
 // through the reader, and ParseJsonNumber on its own. External reference:
 // Python's json module (named beside each check).
-#include "common/input/on_demand_line_parser.h"
+#include "common/input/ndjson_line_parser.h"
 
 #include <doctest/doctest.h>
 

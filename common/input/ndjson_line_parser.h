@@ -1,17 +1,21 @@
-// OnDemandLineParser: the NDJSON reader's parser for one line. It runs
-// simdjson On-Demand over the line (stage 1, the structural and UTF-8 pass,
-// on the SIMD kernel simdjson picks at run time), walks the whole root
-// object once and fills the slots the PointerTrie leads to, parsing only the
-// values a pointer ends at. What it checks depends on ValueChecks (the job
+// NdjsonLineParser: the NDJSON reader's parser for one line. simdjson's
+// stage 1 (the structural and UTF-8 pass, on the SIMD kernel simdjson picks
+// at run time) indexes the line; our own walk over those indexes then checks
+// the JSON grammar with an explicit stack (no tape, no recursion) and fills
+// the slots the PointerTrie leads to, converting only the values a pointer
+// ends at. What it checks depends on ValueChecks (the job
 // file's "inputs"/"check_unread_values"; docs/job-file.md, "Malformed
 // records"):
 //   kReadValues  (default) every structural rule of RFC 8259 everywhere in
 //                the line — brackets and braces closed and matching, commas
 //                and colons in place, keys are strings, one object and
 //                nothing after it — plus UTF-8, control characters and
-//                escape sequences in every string, and the full syntax of
-//                every value a pointer reads; the spelling of numbers and
-//                true/false/null that no pointer reads is not checked.
+//                escape sequences in every string (keys too), and the full
+//                syntax of every value a pointer reads. Not checked: the
+//                rest of a token that no pointer reads once its first
+//                character says number (- or a digit) or literal (t, f, n);
+//                a token runs to the next space, comma, colon, bracket,
+//                brace or quote ("tru", "01", "1.5x" pass there).
 //   kEveryValue  all of the above and the spelling of every number and
 //                literal: exactly RFC 8259 (the reader's behaviour before
 //                kReadValues existed).
@@ -44,15 +48,15 @@ enum class LineVerdict {
   kInvalid,     // any other break of the JSON grammar
 };
 
-class OnDemandLineParser {
+class NdjsonLineParser {
  public:
-  explicit OnDemandLineParser(ValueChecks checks = ValueChecks::kReadValues);
-  ~OnDemandLineParser();
-  OnDemandLineParser(const OnDemandLineParser&) = delete;
-  OnDemandLineParser& operator=(const OnDemandLineParser&) = delete;
+  explicit NdjsonLineParser(ValueChecks checks = ValueChecks::kReadValues);
+  ~NdjsonLineParser();
+  NdjsonLineParser(const NdjsonLineParser&) = delete;
+  NdjsonLineParser& operator=(const NdjsonLineParser&) = delete;
 
   // Parses line p[0, len), readable up to p + capacity (capacity >= len plus
-  // simdjson's padding). Fills slots[] where the pointers of `nodes` end
+  // simdjson's padding, else kTooLong). Fills slots[] where the pointers of `nodes` end
   // (first occurrence of a duplicate key wins, marked with `generation`);
   // string values point into this parser until its next Parse. Returns
   // kRecord iff the line is one JSON object as the checks above judge it;

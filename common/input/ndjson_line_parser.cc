@@ -1,0 +1,363 @@
+#include "common/input/ndjson_line_parser.h"
+
+#include <simdjson.h>
+
+#include <charconv>
+#include <cstring>
+#include <algorithm>
+#include <climits>
+#include <limits>
+#include <utility>
+
+namespace fanfold {
+namespace {
+
+bool IsDigit(char c) { return c >= '0' && c <= '9'; }
+
+// The parts of a JSON number token (RFC 8259 section 6 grammar:
+// -? (0 | [1-9][0-9]*) (. [0-9]+)? ([eE] [+-]? [0-9]+)?).
+struct NumberParts {
+  bool negative = false;
+  const char* int_begin = nullptr;
+  const char* int_end = nullptr;
+  const char* frac_begin = nullptr;
+  const char* frac_end = nullptr;
+  bool has_exponent = false;
+  int64_t exponent = 0;  // saturated far past any double's range
+};
+
+// Splits text into *parts; returns false iff it is not a JSON number.
+bool SplitJsonNumber(std::string_view text, NumberParts* parts) {
+  const char* b = text.data();
+  const char* e = b + text.size();
+  const char* p = b;
+  NumberParts& n = *parts;
+  n.negative = p < e && *p == '-';
+  if (n.negative) ++p;
+  n.int_begin = p;
+  if (p == e || !IsDigit(*p)) return false;
+  if (*p == '0') ++p;
+  else while (p < e && IsDigit(*p)) ++p;
+  n.int_end = p;
+  n.frac_begin = p;
+  n.frac_end = p;
+  if (p < e && *p == '.') {
+    n.frac_begin = ++p;
+    while (p < e && IsDigit(*p)) ++p;
+    if (p == n.frac_begin) return false;
+    n.frac_end = p;
+  }
+  if (p < e && (*p == 'e' || *p == 'E')) {
+    n.has_exponent = true;
+    ++p;
+    bool exp_negative = false;
+    if (p < e && (*p == '+' || *p == '-')) exp_negative = *p++ == '-';
+    if (p == e || !IsDigit(*p)) return false;
+    for (; p < e && IsDigit(*p); ++p) {
+      if (n.exponent < 1000000) n.exponent = n.exponent * 10 + (*p - '0');
+    }
+    if (exp_negative) n.exponent = -n.exponent;
+  }
+  return p == e;
+}
+
+}  // namespace
+
+bool IsJsonNumber(std::string_view text) {
+  NumberParts parts;
+  return SplitJsonNumber(text, &parts);
+}
+
+bool ParseJsonNumber(std::string_view text, Value* out) {
+  NumberParts n;
+  if (!SplitJsonNumber(text, &n)) return false;
+  const char* b = text.data();
+  const char* e = b + text.size();
+  if (!n.has_exponent && n.frac_begin == n.frac_end) {
+    // An integer: exact within [-2^63, 2^64), the nearest double beyond.
+    uint64_t magnitude = 0;
+    auto [q, ec] = std::from_chars(n.int_begin, n.int_end, magnitude);
+    if (ec == std::errc() && q == n.int_end) {
+      if (!n.negative) {
+        *out = Value::Uint(magnitude);
+        return true;
+      }
+      if (magnitude <= static_cast<uint64_t>(INT64_MAX) + 1) {
+        *out = Value::FromWide(-static_cast<WideInt>(magnitude));
+        return true;
+      }
+    }
+  }
+  double d = 0;
+  auto [q, ec] = std::from_chars(b, e, d);  // correctly rounded, no locale
+  if (ec == std::errc::result_out_of_range) {
+    // Overflow or underflow: which one the decimal exponent of the first
+    // significant digit says (digits d.ddd x 10^k with k > 308 overflow).
+    int64_t k = n.exponent;
+    const char* first = n.int_begin;
+    while (first < n.int_end && *first == '0') ++first;
+    if (first < n.int_end) {
+      k += (n.int_end - first) - 1;
+    } else {
+      const char* f = n.frac_begin;
+      while (f < n.frac_end && *f == '0') ++f;
+      k -= (f - n.frac_begin) + 1;
+    }
+    d = k > 0 ? std::numeric_limits<double>::infinity() : 0.0;
+    if (n.negative) d = -d;
+  } else if (ec != std::errc() || q != e) {
+    return false;
+  }
+  *out = Value::Number(d);
+  return true;
+}
+
+namespace {
+
+bool IsJsonSpace(char c) { return c == ' ' || c == '\t' || c == '\r' || c == '\n'; }
+
+LineVerdict VerdictOf(simdjson::error_code err) {
+  switch (err) {
+    case simdjson::SUCCESS: return LineVerdict::kRecord;
+    case simdjson::UTF8_ERROR: return LineVerdict::kNotUtf8;
+    case simdjson::CAPACITY: return LineVerdict::kTooLong;
+    default: return LineVerdict::kInvalid;
+  }
+}
+
+// An open object or array of the walk: its bracket, its trie node (-1 where
+// no pointer leads) and, for an array, the index of the current element.
+struct Frame {
+  char bracket;
+  int32_t node;
+  int64_t index;
+};
+
+}  // namespace
+
+struct NdjsonLineParser::Impl {
+  explicit Impl(ValueChecks c) : checks(c) {}
+
+  static constexpr size_t kMaxDepth = 1024;
+
+  ValueChecks checks;
+  std::unique_ptr<simdjson::internal::dom_parser_implementation> stage1;
+  std::vector<Frame> stack;
+  std::unique_ptr<uint8_t[]> strings;  // unescaped strings of the current line
+  size_t strings_cap = 0;
+  uint8_t* strings_end = nullptr;
+  std::vector<PointerNode>* nodes = nullptr;
+  uint64_t generation = 0;
+
+  // Room for len bytes of line (stage 1's indexes, unescaped strings).
+  bool Reserve(size_t len) {
+    if (stage1 == nullptr || stage1->capacity() < len) {
+      const size_t cap = std::max<size_t>(len, size_t{1} << 16);
+      if (stage1 == nullptr) {
+        if (simdjson::get_active_implementation()->create_dom_parser_implementation(cap, kMaxDepth, stage1) !=
+            simdjson::SUCCESS)
+          return false;
+      } else if (stage1->set_capacity(cap) != simdjson::SUCCESS) {
+        return false;
+      }
+      strings_cap = cap + simdjson::SIMDJSON_PADDING;
+      strings.reset(new uint8_t[strings_cap]);
+    }
+    strings_end = strings.get();
+    return true;
+  }
+
+  // The child of ni that `key` names and no earlier duplicate took, or -1.
+  int32_t Member(int32_t ni, std::string_view key) {
+    if (ni < 0) return -1;
+    for (uint32_t c : (*nodes)[ni].children) {
+      PointerNode& child = (*nodes)[c];
+      if (!TokenIs(child.token, key)) continue;
+      if (child.seen == generation) return -1;  // duplicate keys: the first one wins
+      child.seen = generation;
+      return static_cast<int32_t>(c);
+    }
+    return -1;
+  }
+
+  int32_t Element(int32_t ni, int64_t i) const {
+    if (ni < 0 || i > (*nodes)[ni].max_child_index) return -1;
+    for (uint32_t c : (*nodes)[ni].children)
+      if ((*nodes)[c].index == i) return static_cast<int32_t>(c);
+    return -1;
+  }
+
+  // The text of the string whose opening quote is at q (stage 1 has matched
+  // its quotes and checked its UTF-8 and control characters): the line's own
+  // bytes when it has no backslash, else its unescaped text in `strings`.
+  // Returns false iff an escape is invalid (simdjson's unescaper judges).
+  bool StringAt(const char* q, std::string_view* out) {
+    const char* b = q + 1;
+    const char* e = b;
+    while (*e != '"' && *e != '\\') ++e;
+    if (*e == '"') {
+      *out = std::string_view(b, static_cast<size_t>(e - b));
+      return true;
+    }
+    uint8_t* end = stage1->parse_string(reinterpret_cast<const uint8_t*>(b), strings_end);
+    if (end == nullptr) return false;
+    *out = std::string_view(reinterpret_cast<const char*>(strings_end), static_cast<size_t>(end - strings_end));
+    strings_end = end;
+    return true;
+  }
+
+  // A string no field reads: only its escapes need checking.
+  bool StringOk(const char* q) {
+    const char* e = q + 1;
+    while (*e != '"' && *e != '\\') ++e;
+    if (*e == '"') return true;
+    std::string_view ignored;
+    return StringAt(q, &ignored);
+  }
+
+  // The scalar token that starts at t and ends before `end` (the next
+  // structural character, or the line's end), without trailing spaces.
+  static std::string_view Token(const char* t, const char* end) {
+    while (end > t && IsJsonSpace(end[-1])) --end;
+    return std::string_view(t, static_cast<size_t>(end - t));
+  }
+
+  LineVerdict Walk(const char* p, size_t len, Value* slots);
+};
+
+// The walk over stage 1's structural indexes: the JSON grammar (RFC 8259
+// section 2-4) as a loop with an explicit stack, so it checks every comma,
+// colon and bracket without building a tape, and converts only the values
+// a pointer ends at.
+LineVerdict NdjsonLineParser::Impl::Walk(const char* p, size_t len, Value* slots) {
+  const uint32_t* idx = stage1->structural_indexes.get();
+  const size_t n = stage1->n_structural_indexes;
+  const bool every = checks == ValueChecks::kEveryValue;
+  // The character at structural i (NUL past the last one).
+  auto at = [&](size_t i) -> char { return i < n ? p[idx[i]] : '\0'; };
+  // Where the token at structural i ends: the next structural, or the end.
+  auto token_end = [&](size_t i) -> const char* { return p + (i + 1 < n ? idx[i + 1] : len); };
+  if (at(0) != '{') {
+    if (at(0) == '[' || at(0) == '"' || at(0) == '-' || (at(0) >= '0' && at(0) <= '9') || at(0) == 't' ||
+        at(0) == 'f' || at(0) == 'n')
+      return LineVerdict::kNotObject;
+    return LineVerdict::kInvalid;
+  }
+  stack.clear();
+  stack.push_back(Frame{'{', 0, 0});
+  size_t i = 1;
+  int32_t node = -1;  // trie node of the value about to be read
+  // Each label is a state of the grammar; every path ends at a return.
+object_begin:
+  if (at(i) == '}') {
+    ++i;
+    goto scope_end;
+  }
+object_key: {
+  if (at(i) != '"') return LineVerdict::kInvalid;
+  std::string_view key;
+  if (!StringAt(p + idx[i], &key)) return LineVerdict::kInvalid;
+  if (at(i + 1) != ':') return LineVerdict::kInvalid;
+  i += 2;
+  node = Member(stack.back().node, key);
+  goto value;
+}
+array_begin:
+  if (at(i) == ']') {
+    ++i;
+    goto scope_end;
+  }
+array_value:
+  node = Element(stack.back().node, stack.back().index);
+value: {
+  const int slot = node >= 0 ? (*nodes)[node].slot : -1;
+  const char c = at(i);
+  switch (c) {
+    case '{':
+    case '[':
+      if (stack.size() >= kMaxDepth) return LineVerdict::kTooDeep;
+      if (slot >= 0) slots[slot] = Value::Other();
+      stack.push_back(Frame{c, node, 0});
+      ++i;
+      if (c == '{') goto object_begin;
+      goto array_begin;
+    case '"': {
+      if (slot >= 0) {
+        std::string_view s;
+        if (!StringAt(p + idx[i], &s)) return LineVerdict::kInvalid;
+        slots[slot] = Value::String(s);
+      } else if (!StringOk(p + idx[i])) {
+        return LineVerdict::kInvalid;
+      }
+      break;
+    }
+    case 't':
+    case 'f':
+    case 'n':
+      if (slot >= 0 || every) {
+        const std::string_view t = Token(p + idx[i], token_end(i));
+        Value v;
+        if (t == "true") v = Value::Bool(true);
+        else if (t == "false") v = Value::Bool(false);
+        else if (t == "null") v = Value::Null();
+        else return LineVerdict::kInvalid;
+        if (slot >= 0) slots[slot] = v;
+      }
+      break;
+    case '-':
+    case '0': case '1': case '2': case '3': case '4':
+    case '5': case '6': case '7': case '8': case '9':
+      if (slot >= 0) {
+        if (!ParseJsonNumber(Token(p + idx[i], token_end(i)), &slots[slot])) return LineVerdict::kBadNumber;
+      } else if (every && !IsJsonNumber(Token(p + idx[i], token_end(i)))) {
+        return LineVerdict::kBadNumber;
+      }
+      break;
+    default:
+      return LineVerdict::kInvalid;  // no value starts here (a bracket, comma, colon or stray text)
+  }
+  ++i;
+}
+after_value:
+  if (stack.back().bracket == '{') {
+    if (at(i) == ',') {
+      ++i;
+      goto object_key;
+    }
+    if (at(i) != '}') return LineVerdict::kInvalid;
+  } else {
+    if (at(i) == ',') {
+      ++i;
+      ++stack.back().index;
+      goto array_value;
+    }
+    if (at(i) != ']') return LineVerdict::kInvalid;
+  }
+  ++i;
+scope_end:
+  stack.pop_back();
+  if (!stack.empty()) goto after_value;
+  return i == n ? LineVerdict::kRecord : LineVerdict::kInvalid;  // nothing after the root object
+}
+
+NdjsonLineParser::NdjsonLineParser(ValueChecks checks) : impl_(std::make_unique<Impl>(checks)) {}
+NdjsonLineParser::~NdjsonLineParser() = default;
+
+const char* NdjsonLineParser::Stage1KernelName() {
+  return simdjson::get_active_implementation()->name().c_str();
+}
+
+LineVerdict NdjsonLineParser::Parse(const char* p, size_t len, size_t capacity, std::vector<PointerNode>* nodes,
+                                    uint64_t generation, Value* slots) {
+  Impl& im = *impl_;
+  if (capacity < len + simdjson::SIMDJSON_PADDING) return LineVerdict::kTooLong;  // the caller's contract
+  if (len > simdjson::SIMDJSON_MAXSIZE_BYTES || !im.Reserve(len)) return LineVerdict::kTooLong;
+  im.nodes = nodes;
+  im.generation = generation;
+  const simdjson::error_code err =
+      im.stage1->stage1(reinterpret_cast<const uint8_t*>(p), len, simdjson::stage1_mode::regular);
+  if (err != simdjson::SUCCESS) return VerdictOf(err);
+  return im.Walk(p, len, slots);
+}
+
+}  // namespace fanfold

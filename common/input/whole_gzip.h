@@ -1,0 +1,34 @@
+// WholeGzip: reads a gzip shard that fits in memory in one piece — the whole
+// file read at once, decompressed in one libdeflate call into one buffer —
+// instead of zlib's streaming inflate. It takes a file of at most
+// kWholeGzipMaxFileBytes whose gzip trailer (ISIZE, RFC 1952 section 2.3.1)
+// promises at most kWholeGzipMaxOutputBytes, and only if the file is exactly
+// one gzip member that decompresses to that size. Otherwise it declines (a
+// file with several members, a damaged or truncated one, a larger one) and
+// the caller streams the file with zlib as before, which also words every
+// error (truncated member, corrupt data at compressed byte N). Buffers are
+// kept per thread and reused from shard to shard. Not thread-safe per
+// source.
+#pragma once
+
+#include <cstdint>
+#include <memory>
+#include <string>
+
+#include "common/base/status.h"
+#include "common/input/byte_source.h"
+
+namespace fanfold {
+
+// Largest gzip file read whole (larger ones stream through zlib).
+inline constexpr uint64_t kWholeGzipMaxFileBytes = uint64_t{256} << 20;
+// Largest decompressed size read whole, as the file's trailer states it.
+inline constexpr uint64_t kWholeGzipMaxOutputBytes = uint64_t{1} << 30;
+
+// Reads the gzip file `path`, open as fd at offset 0 and file_size bytes
+// long, whole. Returns the source of its decompressed bytes, or nullptr when
+// it declines (see above), or IoError when the file cannot be read. Reads
+// with pread: fd's offset stays where it was.
+Result<std::unique_ptr<ByteSource>> OpenWholeGzip(const std::string& path, int fd, uint64_t file_size);
+
+}  // namespace fanfold
