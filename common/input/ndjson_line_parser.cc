@@ -88,6 +88,25 @@ bool ParseJsonNumber(std::string_view text, Value* out) {
       }
     }
   }
+  // Clinger's fast path (W. D. Clinger, "How to read floating point numbers
+  // accurately", PLDI 1990): digits that fit 2^53 scaled by 10^k, |k| <= 22,
+  // are two exact doubles and one correctly rounded operation.
+  static constexpr double kPow10[] = {1e0,  1e1,  1e2,  1e3,  1e4,  1e5,  1e6,  1e7,  1e8,  1e9,  1e10, 1e11,
+                                      1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22};
+  const size_t int_digits = static_cast<size_t>(n.int_end - n.int_begin);
+  const size_t frac_digits = static_cast<size_t>(n.frac_end - n.frac_begin);
+  if (int_digits + frac_digits <= 15) {  // 10^15 < 2^53
+    uint64_t m = 0;
+    for (const char* c = n.int_begin; c < n.int_end; ++c) m = m * 10 + static_cast<uint64_t>(*c - '0');
+    for (const char* c = n.frac_begin; c < n.frac_end; ++c) m = m * 10 + static_cast<uint64_t>(*c - '0');
+    const int64_t k = n.exponent - static_cast<int64_t>(frac_digits);
+    if (k >= -22 && k <= 22) {
+      double d = static_cast<double>(m);
+      d = k < 0 ? d / kPow10[-k] : d * kPow10[k];
+      *out = Value::Number(n.negative ? -d : d);
+      return true;
+    }
+  }
   double d = 0;
   auto [q, ec] = std::from_chars(b, e, d);  // correctly rounded, no locale
   if (ec == std::errc::result_out_of_range) {
@@ -115,6 +134,25 @@ bool ParseJsonNumber(std::string_view text, Value* out) {
 namespace {
 
 bool IsJsonSpace(char c) { return c == ' ' || c == '\t' || c == '\r' || c == '\n'; }
+
+// True iff s[0, n) holds a backslash; eight bytes at a time (the zero-byte
+// test of Hacker's Delight section 6-1, on each word XOR eight backslashes),
+// the last word read whole and masked (little-endian: its first bytes are
+// the low ones). Reads up to 7 bytes past s + n: a line is followed by its
+// line break and simdjson's padding, so they are readable.
+bool HasBackslash(const char* s, size_t n) {
+  constexpr uint64_t kOnes = 0x0101010101010101ULL;
+  constexpr uint64_t kHigh = 0x8080808080808080ULL;
+  for (size_t i = 0; i < n; i += 8) {
+    uint64_t w;
+    std::memcpy(&w, s + i, 8);
+    const uint64_t x = w ^ (kOnes * '\\');
+    uint64_t hits = (x - kOnes) & ~x & kHigh;
+    if (n - i < 8) hits &= (uint64_t{1} << (8 * (n - i))) - 1;  // only the bytes inside s[0, n)
+    if (hits != 0) return true;
+  }
+  return false;
+}
 
 LineVerdict VerdictOf(simdjson::error_code err) {
   switch (err) {
@@ -148,6 +186,9 @@ struct NdjsonLineParser::Impl {
   uint8_t* strings_end = nullptr;
   std::vector<PointerNode>* nodes = nullptr;
   uint64_t generation = 0;
+  // False iff the line holds no backslash at all (most lines): then no
+  // string in it has an escape to check or undo.
+  bool line_has_backslash = true;
 
   // Room for len bytes of line (stage 1's indexes, unescaped strings).
   bool Reserve(size_t len) {
@@ -169,10 +210,14 @@ struct NdjsonLineParser::Impl {
 
   // The child of ni that `key` names and no earlier duplicate took, or -1.
   int32_t Member(int32_t ni, std::string_view key) {
-    if (ni < 0) return -1;
+    if (ni < 0 || ((*nodes)[ni].child_lengths & TokenLengthBit(key.size())) == 0) return -1;
+    // A key is followed by at least '"' and ':' and the line's padding, so
+    // 8 bytes from its start are readable.
+    const uint64_t prefix = TokenPrefix(key.data(), key.size());
     for (uint32_t c : (*nodes)[ni].children) {
       PointerNode& child = (*nodes)[c];
-      if (!TokenIs(child.token, key)) continue;
+      if (child.prefix != prefix || child.token.size() != key.size()) continue;
+      if (key.size() > 8 && std::memcmp(child.token.data() + 8, key.data() + 8, key.size() - 8) != 0) continue;
       if (child.seen == generation) return -1;  // duplicate keys: the first one wins
       child.seen = generation;
       return static_cast<int32_t>(c);
@@ -187,32 +232,33 @@ struct NdjsonLineParser::Impl {
     return -1;
   }
 
-  // The text of the string whose opening quote is at q (stage 1 has matched
-  // its quotes and checked its UTF-8 and control characters): the line's own
-  // bytes when it has no backslash, else its unescaped text in `strings`.
-  // Returns false iff an escape is invalid (simdjson's unescaper judges).
-  bool StringAt(const char* q, std::string_view* out) {
+  // The text of the string whose opening quote is at q and whose token
+  // (stage 1 has matched its quotes and checked its UTF-8 and control
+  // characters) ends before `end`, the next structural character: the
+  // line's own bytes when it has no backslash, else (only if `unescape`) its
+  // unescaped text in `strings`. Returns false iff an escape is invalid
+  // (simdjson's unescaper judges).
+  bool StringAt(const char* q, const char* end, bool unescape, std::string_view* out) {
     const char* b = q + 1;
-    const char* e = b;
-    while (*e != '"' && *e != '\\') ++e;
-    if (*e == '"') {
-      *out = std::string_view(b, static_cast<size_t>(e - b));
+    const char* e = end;
+    while (e > b && IsJsonSpace(e[-1])) --e;
+    if (e > b && e[-1] == '"') {
+      --e;
+    } else {
+      // Not the shape stage 1 gives a string token; find the end by hand.
+      e = b;
+      while (*e != '"') e += *e == '\\' ? 2 : 1;
+    }
+    const size_t n = static_cast<size_t>(e - b);
+    if (!line_has_backslash || !HasBackslash(b, n)) {
+      *out = std::string_view(b, n);
       return true;
     }
-    uint8_t* end = stage1->parse_string(reinterpret_cast<const uint8_t*>(b), strings_end);
-    if (end == nullptr) return false;
-    *out = std::string_view(reinterpret_cast<const char*>(strings_end), static_cast<size_t>(end - strings_end));
-    strings_end = end;
+    uint8_t* stop = stage1->parse_string(reinterpret_cast<const uint8_t*>(b), strings_end);
+    if (stop == nullptr) return false;
+    *out = std::string_view(reinterpret_cast<const char*>(strings_end), static_cast<size_t>(stop - strings_end));
+    if (unescape) strings_end = stop;
     return true;
-  }
-
-  // A string no field reads: only its escapes need checking.
-  bool StringOk(const char* q) {
-    const char* e = q + 1;
-    while (*e != '"' && *e != '\\') ++e;
-    if (*e == '"') return true;
-    std::string_view ignored;
-    return StringAt(q, &ignored);
   }
 
   // The scalar token that starts at t and ends before `end` (the next
@@ -222,16 +268,16 @@ struct NdjsonLineParser::Impl {
     return std::string_view(t, static_cast<size_t>(end - t));
   }
 
-  LineVerdict Walk(const char* p, size_t len, Value* slots);
+  // Walks the line whose n structural characters are at p + idx[0..n) and
+  // which ends at p + len.
+  LineVerdict Walk(const char* p, const uint32_t* idx, size_t n, size_t len, Value* slots);
 };
 
 // The walk over stage 1's structural indexes: the JSON grammar (RFC 8259
 // section 2-4) as a loop with an explicit stack, so it checks every comma,
 // colon and bracket without building a tape, and converts only the values
 // a pointer ends at.
-LineVerdict NdjsonLineParser::Impl::Walk(const char* p, size_t len, Value* slots) {
-  const uint32_t* idx = stage1->structural_indexes.get();
-  const size_t n = stage1->n_structural_indexes;
+LineVerdict NdjsonLineParser::Impl::Walk(const char* p, const uint32_t* idx, size_t n, size_t len, Value* slots) {
   const bool every = checks == ValueChecks::kEveryValue;
   // The character at structural i (NUL past the last one).
   auto at = [&](size_t i) -> char { return i < n ? p[idx[i]] : '\0'; };
@@ -256,7 +302,7 @@ object_begin:
 object_key: {
   if (at(i) != '"') return LineVerdict::kInvalid;
   std::string_view key;
-  if (!StringAt(p + idx[i], &key)) return LineVerdict::kInvalid;
+  if (!StringAt(p + idx[i], token_end(i), true, &key)) return LineVerdict::kInvalid;
   if (at(i + 1) != ':') return LineVerdict::kInvalid;
   i += 2;
   node = Member(stack.back().node, key);
@@ -282,13 +328,9 @@ value: {
       if (c == '{') goto object_begin;
       goto array_begin;
     case '"': {
-      if (slot >= 0) {
-        std::string_view s;
-        if (!StringAt(p + idx[i], &s)) return LineVerdict::kInvalid;
-        slots[slot] = Value::String(s);
-      } else if (!StringOk(p + idx[i])) {
-        return LineVerdict::kInvalid;
-      }
+      std::string_view s;
+      if (!StringAt(p + idx[i], token_end(i), slot >= 0, &s)) return LineVerdict::kInvalid;
+      if (slot >= 0) slots[slot] = Value::String(s);
       break;
     }
     case 't':
@@ -357,7 +399,8 @@ LineVerdict NdjsonLineParser::Parse(const char* p, size_t len, size_t capacity, 
   const simdjson::error_code err =
       im.stage1->stage1(reinterpret_cast<const uint8_t*>(p), len, simdjson::stage1_mode::regular);
   if (err != simdjson::SUCCESS) return VerdictOf(err);
-  return im.Walk(p, len, slots);
+  im.line_has_backslash = std::memchr(p, '\\', len) != nullptr;
+  return im.Walk(p, im.stage1->structural_indexes.get(), im.stage1->n_structural_indexes, len, slots);
 }
 
 }  // namespace fanfold

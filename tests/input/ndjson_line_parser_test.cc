@@ -1,13 +1,20 @@
-// Tests for NdjsonLineParser (common/input/ndjson_line_parser.h): the
-// NDJSON reader's second pass for lines with numbers the DOM parser refuses,
-// through the reader, and ParseJsonNumber on its own. External reference:
-// Python's json module (named beside each check).
+// Tests for NdjsonLineParser (common/input/ndjson_line_parser.h): numbers
+// beyond 64 bits through the reader, and ParseJsonNumber on its own.
+// External reference: Python's json module and float() (named beside each
+// check).
 #include "common/input/ndjson_line_parser.h"
 
 #include <doctest/doctest.h>
 
+#include <stdlib.h>
+#include <unistd.h>
+
 #include <cmath>
+#include <cstdio>
+#include <cstring>
+#include <fstream>
 #include <initializer_list>
+#include <random>
 #include <string>
 #include <vector>
 
@@ -91,6 +98,58 @@ TEST_CASE("ParseJsonNumber") {
     INFO(bad);
     CHECK_FALSE(ParseJsonNumber(bad, &v));  // not a number token in RFC 8259 section 6's grammar
   }
+}
+
+// Every double ParseJsonNumber makes equals Python's float() of the same
+// token bit for bit (float.hex), over 4000 random tokens shaped like log
+// values: short decimals (Clinger's fast path), long ones, exponents near
+// the fast path's edge (10^22) and far beyond it.
+TEST_CASE("ParseJsonNumber agrees with Python's float() bit for bit") {
+  std::mt19937_64 rng(23);
+  std::vector<std::string> tokens;
+  auto digits = [&](int n) {
+    std::string d;
+    for (int i = 0; i < n; ++i) d += static_cast<char>('0' + rng() % 10);
+    return d;
+  };
+  for (int i = 0; i < 4000; ++i) {
+    std::string t = rng() % 4 == 0 ? "-" : "";
+    const int int_len = 1 + static_cast<int>(rng() % 12);
+    std::string ip = digits(int_len);
+    if (ip.size() > 1 && ip[0] == '0') ip[0] = '1';  // no leading zero (RFC 8259 section 6)
+    t += ip;
+    if (rng() % 3 != 0) t += "." + digits(1 + static_cast<int>(rng() % 20));
+    if (rng() % 3 == 0) t += "e" + std::to_string(static_cast<int>(rng() % 70) - 35);
+    tokens.push_back(t);
+  }
+  char tmpl[] = "/tmp/fanfold-numbers-XXXXXX";
+  const int fd = mkstemp(tmpl);
+  REQUIRE(fd >= 0);
+  ::close(fd);
+  {
+    std::ofstream f(tmpl);
+    for (const std::string& t : tokens) f << t << "\n";
+  }
+  FILE* p = popen((std::string("python3 -c \"import sys\nfor l in open(sys.argv[1]): print(float(l).hex())\" ") + tmpl)
+                      .c_str(), "r");
+  REQUIRE(p != nullptr);
+  char line[128];
+  size_t i = 0;
+  int mismatches = 0;
+  while (std::fgets(line, sizeof line, p) != nullptr && i < tokens.size()) {
+    Value v;
+    REQUIRE(ParseJsonNumber(tokens[i], &v));
+    const double expected = std::strtod(line, nullptr);  // C99 hex float text, exact
+    const double got = v.number;
+    if (!v.is_integer() && std::memcmp(&got, &expected, sizeof got) != 0) {  // integers: exact, tested above
+      if (++mismatches <= 5) FAIL_CHECK(tokens[i] << ": got " << got << ", Python " << line);
+    }
+    ++i;
+  }
+  CHECK(pclose(p) == 0);
+  ::unlink(tmpl);
+  CHECK(i == tokens.size());
+  CHECK(mismatches == 0);
 }
 
 }  // namespace fanfold
