@@ -270,6 +270,13 @@ struct NdjsonLineParser::Impl {
 
   // Walks the line whose n structural characters are at p + idx[0..n) and
   // which ends at p + len.
+  // True iff a string is glued to the scalar token at t (`5"a"`): stage 1
+  // makes the quote part of the token, and then the token ends with it.
+  static bool GluedString(const char* t, const char* end) {
+    const std::string_view token = Token(t, end);
+    return token.back() == '"';
+  }
+
   LineVerdict Walk(const char* p, const uint32_t* idx, size_t n, size_t len, Value* slots);
 };
 
@@ -344,6 +351,8 @@ value: {
         else if (t == "null") v = Value::Null();
         else return LineVerdict::kInvalid;
         if (slot >= 0) slots[slot] = v;
+      } else if (GluedString(p + idx[i], token_end(i))) {
+        return LineVerdict::kInvalid;
       }
       break;
     case '-':
@@ -353,6 +362,8 @@ value: {
         if (!ParseJsonNumber(Token(p + idx[i], token_end(i)), &slots[slot])) return LineVerdict::kBadNumber;
       } else if (every && !IsJsonNumber(Token(p + idx[i], token_end(i)))) {
         return LineVerdict::kBadNumber;
+      } else if (GluedString(p + idx[i], token_end(i))) {
+        return LineVerdict::kInvalid;
       }
       break;
     default:

@@ -15,7 +15,8 @@
 //                rest of a token that no pointer reads once its first
 //                character says number (- or a digit) or literal (t, f, n);
 //                a token runs to the next space, comma, colon, bracket,
-//                brace or quote ("tru", "01", "1.5x" pass there).
+//                brace or quote ("tru", "01", "1.5x" pass there; a string
+//                glued to such a token, as in 5"a", does not).
 //   kEveryValue  all of the above and the spelling of every number and
 //                literal: exactly RFC 8259 (the reader's behaviour before
 //                kReadValues existed).
