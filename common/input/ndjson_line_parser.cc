@@ -2,10 +2,10 @@
 
 #include <simdjson.h>
 
-#include <charconv>
-#include <cstring>
 #include <algorithm>
+#include <charconv>
 #include <climits>
+#include <cstring>
 #include <limits>
 #include <utility>
 
@@ -268,8 +268,6 @@ struct NdjsonLineParser::Impl {
     return std::string_view(t, static_cast<size_t>(end - t));
   }
 
-  // Walks the line whose n structural characters are at p + idx[0..n) and
-  // which ends at p + len.
   // True iff a string is glued to the scalar token at t (`5"a"`): stage 1
   // makes the quote part of the token, and then the token ends with it.
   static bool GluedString(const char* t, const char* end) {
@@ -277,6 +275,8 @@ struct NdjsonLineParser::Impl {
     return token.back() == '"';
   }
 
+  // Walks the line whose n structural characters are at p + idx[0..n) and
+  // which ends at p + len.
   LineVerdict Walk(const char* p, const uint32_t* idx, size_t n, size_t len, Value* slots);
 };
 
@@ -396,9 +396,6 @@ scope_end:
 NdjsonLineParser::NdjsonLineParser(ValueChecks checks) : impl_(std::make_unique<Impl>(checks)) {}
 NdjsonLineParser::~NdjsonLineParser() = default;
 
-const char* NdjsonLineParser::Stage1KernelName() {
-  return simdjson::get_active_implementation()->name().c_str();
-}
 
 LineVerdict NdjsonLineParser::Parse(const char* p, size_t len, size_t capacity, std::vector<PointerNode>* nodes,
                                     uint64_t generation, Value* slots) {

@@ -66,10 +66,6 @@ class NdjsonLineParser {
   LineVerdict Parse(const char* p, size_t len, size_t capacity, std::vector<PointerNode>* nodes,
                     uint64_t generation, Value* slots);
 
-  // The name of the stage-1 kernel simdjson picked at run time on this
-  // machine ("haswell", "westmere", "fallback", ...), for benchmark reports.
-  static const char* Stage1KernelName();
-
  private:
   struct Impl;
   std::unique_ptr<Impl> impl_;  // keeps simdjson.h out of this header
