@@ -41,12 +41,12 @@ namespace fanfold {
 // Why a line is not a record (kRecord: it is one).
 enum class LineVerdict {
   kRecord,
-  kNotObject,   // valid JSON, but not an object
-  kTooDeep,     // nested deeper than the parser's limit
-  kBadNumber,   // a number that is not valid JSON
-  kNotUtf8,     // bytes that are not UTF-8
-  kTooLong,     // longer than the parser can take
-  kInvalid,     // any other break of the JSON grammar
+  kNotObject,  // valid JSON, but not an object
+  kTooDeep,    // nested deeper than the parser's limit
+  kBadNumber,  // a number that is not valid JSON
+  kNotUtf8,    // bytes that are not UTF-8
+  kTooLong,    // longer than the parser can take
+  kInvalid,    // any other break of the JSON grammar
 };
 
 class NdjsonLineParser {
@@ -63,22 +63,12 @@ class NdjsonLineParser {
   // kRecord iff the line is one JSON object as the checks above judge it;
   // slots are then complete (otherwise some may be filled).
   // REQUIRES: slots already reset to missing; generation new for this line.
-  LineVerdict Parse(const char* p, size_t len, size_t capacity, std::vector<PointerNode>* nodes,
-                    uint64_t generation, Value* slots);
+  LineVerdict Parse(const char* p, size_t len, size_t capacity, std::vector<PointerNode>* nodes, uint64_t generation,
+                    Value* slots);
 
  private:
   struct Impl;
   std::unique_ptr<Impl> impl_;  // keeps simdjson.h out of this header
 };
-
-// The value of a JSON number token (RFC 8259 section 6 grammar): an integer
-// within [-2^63, 2^64) exactly, any other number as its nearest double, and
-// a magnitude beyond the double range as +/-infinity (Python's json.loads
-// does the same with "1e400"). Returns false iff text is not a JSON number.
-bool ParseJsonNumber(std::string_view text, Value* out);
-
-// True iff text is a JSON number token (RFC 8259 section 6 grammar); the
-// check of ParseJsonNumber without computing the value.
-bool IsJsonNumber(std::string_view text);
 
 }  // namespace fanfold

@@ -102,9 +102,10 @@ Result<std::unique_ptr<ByteSource>> OpenWholeGzip(const std::string& path, int f
   }
   const auto* b = reinterpret_cast<const unsigned char*>(in.get());
   // ISIZE: the last member's size modulo 2^32, little-endian (RFC 1952 2.3.1).
-  const uint64_t isize = got >= 18 ? (uint64_t{b[got - 4]} | uint64_t{b[got - 3]} << 8 |
-                                      uint64_t{b[got - 2]} << 16 | uint64_t{b[got - 1]} << 24)
-                                   : 0;
+  const uint64_t isize =
+      got >= 18
+          ? (uint64_t{b[got - 4]} | uint64_t{b[got - 3]} << 8 | uint64_t{b[got - 2]} << 16 | uint64_t{b[got - 1]} << 24)
+          : 0;
   if (got != file_size || b[0] != 0x1F || b[1] != 0x8B || isize > kWholeGzipMaxOutputBytes) {
     decline();
     return std::unique_ptr<ByteSource>();

@@ -7,7 +7,6 @@
 // every token that starts like a number or true/false/null (t, f, n, -,
 // a digit) and that no pointer reads replaced by 0, a token running to the
 // next space, comma, colon, bracket, brace or quote; json.loads then judges.
-#include <doctest/doctest.h>
 #include <stdlib.h>
 
 #include <cstdio>
@@ -16,6 +15,8 @@
 #include <random>
 #include <string>
 #include <vector>
+
+#include <doctest/doctest.h>
 
 #include "common/input/ndjson_reader.h"
 #include "tests/input/reader_test_util.h"
@@ -107,9 +108,13 @@ TEST_CASE("ValueChecks on mutated lines against Python's json module") {
       const size_t at = rng() % (l.size() + 1);
       const char c = alphabet[rng() % alphabet.size()];
       switch (rng() % 3) {
-        case 0: if (at < l.size()) l.erase(at, 1); break;
+        case 0:
+          if (at < l.size()) l.erase(at, 1);
+          break;
         case 1: l.insert(at, 1, c); break;
-        default: if (at < l.size()) l[at] = c; break;
+        default:
+          if (at < l.size()) l[at] = c;
+          break;
       }
     }
     lines.push_back(l);
@@ -137,8 +142,8 @@ TEST_CASE("ValueChecks on mutated lines against Python's json module") {
     }
     REQUIRE(pclose(p) == 0);
     REQUIRE(expected.size() == lines.size());
-    auto reader = NdjsonReader::Create(fields, ChunkOptions{},
-                                       every ? ValueChecks::kEveryValue : ValueChecks::kReadValues);
+    auto reader =
+        NdjsonReader::Create(fields, ChunkOptions{}, every ? ValueChecks::kEveryValue : ValueChecks::kReadValues);
     REQUIRE(reader.ok());
     int disagreements = 0;
     for (size_t i = 0; i < lines.size(); ++i) {

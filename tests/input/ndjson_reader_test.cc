@@ -139,23 +139,23 @@ TEST_CASE("malformed lines counted exactly with line numbers") {
   for (const std::string& l : lines) input += l + "\n";
   // The same counts with either ValueChecks: every error above is structural, in a string, or in a value read.
   for (ValueChecks checks : {ValueChecks::kReadValues, ValueChecks::kEveryValue}) {
-  CAPTURE(checks == ValueChecks::kEveryValue);
-  Outcome o = Run(f, input, kDefaultChunkBytes, ChunkOptions{}.max_record_bytes, checks);
-  REQUIRE(o.status.ok());
-  CHECK(o.stats.records == 3);
-  CHECK(o.stats.malformed == 12);
-  CHECK(o.rows == std::vector<std::string>{"1", "4", "10"});
-  REQUIRE(o.stats.samples.size() == ReadStats::kMaxSamples);
-  CHECK(SampleLines(o) == "2 4 6 7 8 ");
-  // Our words, not simdjson's, with the column (Python's json.loads: "Unterminated
-  // string starting at: line 1 column 6").
-  CHECK(o.stats.samples[0].reason ==
-        "column 7: expected ',' or '}' after the value of \"k\", found the end of the text (the object opened at "
-        "column 1 is not closed)");
-  CHECK(o.stats.samples[1].reason ==
-        "column 11: expected '\"' to close the string that starts at column 6, found the end of the text");
-  CHECK(o.stats.samples[2].reason == "the line is not a JSON object");
-  CHECK(o.stats.raw_bytes == input.size());
+    CAPTURE(checks == ValueChecks::kEveryValue);
+    Outcome o = Run(f, input, kDefaultChunkBytes, ChunkOptions{}.max_record_bytes, checks);
+    REQUIRE(o.status.ok());
+    CHECK(o.stats.records == 3);
+    CHECK(o.stats.malformed == 12);
+    CHECK(o.rows == std::vector<std::string>{"1", "4", "10"});
+    REQUIRE(o.stats.samples.size() == ReadStats::kMaxSamples);
+    CHECK(SampleLines(o) == "2 4 6 7 8 ");
+    // Our words, not simdjson's, with the column (Python's json.loads: "Unterminated
+    // string starting at: line 1 column 6").
+    CHECK(o.stats.samples[0].reason ==
+          "column 7: expected ',' or '}' after the value of \"k\", found the end of the text (the object opened at "
+          "column 1 is not closed)");
+    CHECK(o.stats.samples[1].reason ==
+          "column 11: expected '\"' to close the string that starts at column 6, found the end of the text");
+    CHECK(o.stats.samples[2].reason == "the line is not a JSON object");
+    CHECK(o.stats.raw_bytes == input.size());
   }
 }
 

@@ -5,7 +5,6 @@
 // and members may be concatenated (section 2.2).
 #include "common/input/whole_gzip.h"
 
-#include <doctest/doctest.h>
 #include <fcntl.h>
 #include <stdlib.h>
 #include <unistd.h>
@@ -15,6 +14,8 @@
 #include <fstream>
 #include <random>
 #include <string>
+
+#include <doctest/doctest.h>
 
 #include "common/input/byte_source.h"
 
