@@ -27,6 +27,7 @@ struct Spare {
     return std::move(bytes);
   }
   void Give(std::unique_ptr<char[]> b, size_t n) {
+    if (n > kWholeGzipKeptBytes) return;  // freed here: a big file does not pin its memory
     if (bytes == nullptr || n >= cap) {
       bytes = std::move(b);
       cap = n;

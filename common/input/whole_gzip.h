@@ -7,8 +7,8 @@
 // file with several members, a damaged or truncated one, a larger one) and
 // the caller streams the file with zlib as before, which also words every
 // error (truncated member, corrupt data at compressed byte N). Buffers are
-// kept per thread and reused from shard to shard. Not thread-safe per
-// source.
+// kept per thread and reused from shard to shard (up to
+// kWholeGzipKeptBytes each). Not thread-safe per source.
 #pragma once
 
 #include <cstdint>
@@ -21,9 +21,13 @@
 namespace fanfold {
 
 // Largest gzip file read whole (larger ones stream through zlib).
-inline constexpr uint64_t kWholeGzipMaxFileBytes = uint64_t{256} << 20;
-// Largest decompressed size read whole, as the file's trailer states it.
-inline constexpr uint64_t kWholeGzipMaxOutputBytes = uint64_t{1} << 30;
+inline constexpr uint64_t kWholeGzipMaxFileBytes = uint64_t{64} << 20;
+// Largest decompressed size read whole, as the file's trailer states it
+// (with the file, at most 320 MiB of buffers per worker while it reads).
+inline constexpr uint64_t kWholeGzipMaxOutputBytes = uint64_t{256} << 20;
+// Buffers up to this size are kept for the next shard; larger ones are
+// freed after their shard, so one big file does not pin its memory.
+inline constexpr uint64_t kWholeGzipKeptBytes = uint64_t{32} << 20;
 
 // Reads the gzip file `path`, open as fd at offset 0 and file_size bytes
 // long, whole. Returns the source of its decompressed bytes, or nullptr when

@@ -110,6 +110,11 @@ TEST_CASE("what the whole-file path declines") {
     lying[lying.size() - 4] = static_cast<char>(static_cast<unsigned char>(lying[lying.size() - 4]) + delta);
     CHECK_FALSE(TryWhole(lying).taken);
   }
+  // A trailer promising more than kWholeGzipMaxOutputBytes: declined before any buffer is taken.
+  std::string big = m;
+  const uint32_t claim = static_cast<uint32_t>(kWholeGzipMaxOutputBytes + 1);
+  for (int k = 0; k < 4; ++k) big[big.size() - 4 + k] = static_cast<char>((claim >> (8 * k)) & 0xFF);
+  CHECK_FALSE(TryWhole(big).taken);
   CHECK_FALSE(TryWhole("plain text, not gzip at all\n").taken);
   CHECK_FALSE(TryWhole(m.substr(0, 10)).taken);  // shorter than any member
 }
