@@ -15,7 +15,6 @@
 #include "common/input/byte_source.h"
 #include "common/input/chunk_buffer.h"
 #include "common/input/field_table.h"
-#include "common/input/ndjson_line_parser.h"
 #include "common/input/record_reader.h"
 #include "common/base/status.h"
 
