@@ -116,20 +116,41 @@ Result<std::unique_ptr<ByteSource>> OpenWholeGzip(const std::string& path, int f
     decline();
     return std::unique_ptr<ByteSource>();
   }
+  // Member after member (RFC 1952 section 2.2), into one buffer that
+  // starts at the last member's ISIZE (exact for a one-member file) and
+  // doubles, up to kWholeGzipMaxOutputBytes, whenever a member does not fit
+  // (that member is then inflated again).
   size_t out_cap = 0;
   std::unique_ptr<char[]> out = state.out.Take(isize, &out_cap);
-  size_t in_used = 0;
-  size_t out_size = 0;
-  // Exactly isize bytes of room: a member that holds more (ISIZE counts
-  // modulo 2^32, or belongs to a later member) fails with
-  // LIBDEFLATE_INSUFFICIENT_SPACE and the file streams instead.
-  const libdeflate_result r =
-      libdeflate_gzip_decompress_ex(state.inflater, in.get(), got, out.get(), isize, &in_used, &out_size);
+  size_t in_pos = 0;
+  size_t out_pos = 0;
+  bool ok = true;
+  while (ok && in_pos < got) {
+    size_t in_used = 0;
+    size_t out_used = 0;
+    const libdeflate_result r = libdeflate_gzip_decompress_ex(state.inflater, in.get() + in_pos, got - in_pos,
+                                                              out.get() + out_pos, out_cap - out_pos, &in_used,
+                                                              &out_used);
+    if (r == LIBDEFLATE_SUCCESS) {
+      in_pos += in_used;
+      out_pos += out_used;
+    } else if (r == LIBDEFLATE_INSUFFICIENT_SPACE && out_cap < kWholeGzipMaxOutputBytes) {
+      const size_t bigger = static_cast<size_t>(std::min<uint64_t>(
+          std::max<uint64_t>(uint64_t{2} * out_cap, uint64_t{1} << 16), kWholeGzipMaxOutputBytes));
+      std::unique_ptr<char[]> grown(new char[bigger]);
+      std::memcpy(grown.get(), out.get(), out_pos);
+      out = std::move(grown);
+      out_cap = bigger;
+    } else {
+      ok = false;  // damaged, truncated, not gzip after a member, or too large: stream instead
+    }
+  }
   decline();
-  if (r != LIBDEFLATE_SUCCESS || in_used != got || out_size != isize) {
+  if (!ok) {
     state.out.Give(std::move(out), out_cap);
     return std::unique_ptr<ByteSource>();
   }
+  const size_t out_size = out_pos;
   return std::unique_ptr<ByteSource>(new InflatedSource(std::move(out), out_cap, out_size, got));
 }
 

@@ -1,13 +1,14 @@
 // WholeGzip: reads a gzip shard that fits in memory in one piece — the whole
-// file read at once, decompressed in one libdeflate call into one buffer —
-// instead of zlib's streaming inflate. It takes a file of at most
-// kWholeGzipMaxFileBytes whose gzip trailer (ISIZE, RFC 1952 section 2.3.1)
-// promises at most kWholeGzipMaxOutputBytes, and only if the file is exactly
-// one gzip member that decompresses to that size. Otherwise it declines (a
-// file with several members, a damaged or truncated one, a larger one) and
-// the caller streams the file with zlib as before, which also words every
-// error (truncated member, corrupt data at compressed byte N). Buffers are
-// kept per thread and reused from shard to shard (up to
+// file read at once, each member decompressed in one libdeflate call into
+// one buffer — instead of zlib's streaming inflate. It takes a file of at
+// most kWholeGzipMaxFileBytes that decompresses to at most
+// kWholeGzipMaxOutputBytes, member after member (RFC 1952 section 2.2; the
+// buffer starts at the last member's ISIZE from the trailer, section 2.3.1,
+// and doubles when a member does not fit). Otherwise it declines (a damaged
+// or truncated file, bytes after a member that are no gzip member, a larger
+// file) and the caller streams the file with zlib as before, which also
+// words every error (truncated member, corrupt data at compressed byte N).
+// Buffers are kept per thread and reused from shard to shard (up to
 // kWholeGzipKeptBytes each). Not thread-safe per source.
 #pragma once
 
