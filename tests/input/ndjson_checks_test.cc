@@ -1,5 +1,5 @@
-// Differential test of the NDJSON reader's two ValueChecks on thousands of
-// mutated lines (common/input/ndjson_line_parser.h). External reference:
+// Tests of the NDJSON reader's two ValueChecks (common/input/ndjson_line_parser.h):
+// generated lines with known kinds of errors, and thousands of mutated lines. External reference:
 // Python 3's json module, run through popen. With kEveryValue a line must be
 // a record exactly when json.loads gives a dict, with the same values (the
 // first of duplicate keys, via object_pairs_hook). With kReadValues the
@@ -11,6 +11,7 @@
 
 #include <cstdio>
 #include <filesystem>
+#include <initializer_list>
 #include <fstream>
 #include <random>
 #include <string>
@@ -86,6 +87,30 @@ for line in open(sys.argv[1], encoding='utf-8', errors='surrogateescape', newlin
     row = '|'.join(show(first[k]) if k in first else '-' for k in ('ts', 'lamp', 'power_w', 'fault'))
     print('ok ' + row.replace('\n', '<LF>'))
 )";
+
+FieldTable Fields(std::initializer_list<const char*> refs) {
+  FieldTable t;
+  for (const char* r : refs) t.InternField(r);
+  return t;
+}
+
+struct Outcome {
+  Status status;
+  ReadStats stats;
+  std::vector<std::string> rows;
+};
+
+Outcome Run(const FieldTable& fields, const std::string& input, size_t chunk, size_t max_record,
+            ValueChecks checks) {
+  auto reader = NdjsonReader::Create(fields, ChunkOptions{chunk, max_record}, checks);
+  REQUIRE(reader.ok());
+  auto src = MemorySource(input);
+  Collect sink(fields.size());
+  Outcome out;
+  out.status = (*reader)->Read(*src, sink, &out.stats);
+  out.rows = sink.rows;
+  return out;
+}
 
 }  // namespace
 
@@ -173,6 +198,123 @@ TEST_CASE("ValueChecks on mutated lines against Python's json module") {
   }
   MESSAGE(differ << " of " << lines.size() << " mutated lines are records only with read-value checks");
   CHECK(differ > 20);
+}
+
+// Python 3's json module judges each generated line: with every value checked, a line is a record iff
+// json.loads gives a dict, and the values of /svc and /n must agree too. With only read values checked
+// (the default), the judge first replaces each number or true/false/null token that no pointer reads
+// (outside strings, not the first /svc or /n member) by 0: the by-design difference, stated in Python.
+TEST_CASE("validity and values agree with Python's json module") {
+  std::mt19937 rng(12);
+  const std::vector<std::string> good = {
+      R"({"svc":"a","n":1})", R"({"n":-2.5e3,"svc":"b\u00e9","x":[1,{"y":null}]})", R"( {"svc":"c"} )",
+      R"({"svc":"d","n":123456789012,"t":true,"f":false})", R"({})", R"({"svc":"e\"q","n":0.1})",
+      // Integers around 2^53, 2^63 and 2^64, beyond 64 bits, and beyond the double range.
+      R"({"svc":"g","n":9007199254740993})", R"({"n":18446744073709551615})", R"({"n":-9223372036854775808})",
+      R"({"n":123456789012345678901234567890,"svc":"h"})", R"({"n":-9223372036854775809,"x":[1,{"y":"z"}]})",
+      R"({"svc":"i\u00e9","n":1e400})", R"({"n":-1e400,"svc":"j"})", R"({"n":1e-400})",
+      R"({"x":[18446744073709551616],"n":-0})", R"({"svc":"k","n":12345678901234567890123.5e-5})"};
+  const std::vector<std::string> bad = {
+      R"({"svc":"a",)", R"({"svc":"a" "n":1})", R"({"svc":nul})", R"({"n":1.})", R"({"n":-})", R"({"n":.5})",
+      R"({"svc":"\x"})", R"(["svc"])", R"("svc")", R"({"svc":"a"}})", R"({"a":[1 2]})", R"({"a":{"b":1]})",
+      R"({"n":1e})", R"(null)", R"({"n":+1})", "{\"svc\":\"tab\there\"}",
+      // Malformed lines that also hold a number the DOM parser refuses.
+      R"({"n":123456789012345678901234567890,})", R"({"n":1e400)", R"([1e400])", R"({"n":1e400} {"n":1})",
+      R"({"n":123456789012345678901234567890,"z":[1,,2]})", R"({"n":1e400,"svc":"\x"})", R"({"n":01})",
+      R"({"n":1e400x})", R"({"n":99999999999999999999999,"t":tru})", R"({"n":1e400,"u":nul})",
+      R"({"n":-1e400.5})", R"({"n":1e400,"svc":"a" "k":1})"};
+  std::string input;
+  for (int i = 0; i < 2000; ++i) {
+    input += (rng() % 3 == 0) ? bad[rng() % bad.size()] : good[rng() % good.size()];
+    input += "\n";
+  }
+  char tmpl[] = "/tmp/fanfold-ndjson-XXXXXX";
+  std::string dir = mkdtemp(tmpl);
+  std::ofstream(dir + "/in.ndjson", std::ios::binary) << input;
+  std::ofstream(dir + "/judge.py") << R"(import json, sys
+def unread_to_zero(line):
+    out, i, depth, key, seen, expect_key = [], 0, 0, None, set(), False
+    while i < len(line):
+        c = line[i]
+        if c == '"':
+            j = i + 1
+            while j < len(line) and line[j] != '"':
+                j += 2 if line[j] == '\\' else 1
+            text = line[i:j + 1]
+            if depth == 1 and expect_key:
+                key = text
+            out.append(text); i = j + 1; continue
+        if c in '{[':
+            depth += 1; expect_key = c == '{'
+        elif c in '}]':
+            depth -= 1
+        elif c == ',':
+            expect_key = depth == 1 or expect_key
+        elif c == ':':
+            expect_key = False
+        elif c in '-0123456789tfn':
+            j = i
+            while j < len(line) and (line[j].isalnum() or line[j] in '+-.'):
+                j += 1
+            read = depth == 1 and key in ('"svc"', '"n"') and key not in seen
+            out.append(line[i:j] if read else '0')
+            if depth == 1 and key is not None: seen.add(key)
+            i = j; continue
+        if depth == 1 and c in ',:' and key is not None and c == ',': seen.add(key)
+        out.append(c); i += 1
+    return ''.join(out)
+lenient = sys.argv[2] == 'read'
+for line in open(sys.argv[1], encoding='utf-8', newline='\n'):
+    if not line.strip():
+        continue
+    if lenient:
+        line = unread_to_zero(line)
+    try:
+        v = json.loads(line)
+    except ValueError:
+        print('bad'); continue
+    if not isinstance(v, dict):
+        print('bad'); continue
+    def show(x):
+        if x is None: return 'null'
+        if isinstance(x, bool): return 'true' if x else 'false'
+        if isinstance(x, int) and -2**63 <= x < 2**64: return str(x)
+        if isinstance(x, (int, float)): return '%.17g' % float(x)
+        if isinstance(x, str): return "'" + x + "'"
+        return '{}'
+    print('ok ' + '|'.join(show(v[k]) if k in v else '-' for k in ('svc', 'n')))
+)";
+  uint64_t bad_by_mode[2] = {0, 0};
+  for (ValueChecks checks : {ValueChecks::kEveryValue, ValueChecks::kReadValues}) {
+    const bool every = checks == ValueChecks::kEveryValue;
+    CAPTURE(every);
+    FILE* p = popen(("PYTHONIOENCODING=utf-8 python3 " + dir + "/judge.py " + dir + "/in.ndjson " +
+                     (every ? "every" : "read")).c_str(), "r");
+    REQUIRE(p != nullptr);
+    std::vector<std::string> expected_rows;
+    uint64_t expected_bad = 0;
+    char line[4096];
+    while (std::fgets(line, sizeof line, p) != nullptr) {
+      std::string s(line);
+      s.pop_back();
+      if (s == "bad") {
+        ++expected_bad;
+      } else {
+        expected_rows.push_back(s.substr(3));
+      }
+    }
+    int rc = pclose(p);
+    REQUIRE(rc == 0);
+    REQUIRE(expected_rows.size() + expected_bad == 2000);
+    Outcome o = Run(Fields({"/svc", "/n"}), input, 1000, ChunkOptions{}.max_record_bytes, checks);
+    REQUIRE(o.status.ok());
+    CHECK(o.stats.malformed == expected_bad);
+    CHECK(o.rows == expected_rows);
+    bad_by_mode[every ? 1 : 0] = expected_bad;
+  }
+  std::filesystem::remove_all(dir);
+  // The bad list holds lines whose only error is an unread 'tru' or 'nul': the modes must differ.
+  CHECK(bad_by_mode[0] < bad_by_mode[1]);
 }
 
 }  // namespace fanfold
