@@ -158,6 +158,9 @@ struct NdjsonLineParser::Impl {
 
   // Walks the line whose n structural characters are at p + idx[0..n) and
   // which ends at p + len.
+  // kSentinel: idx[n] == len and p[len] is a space (so the character "at"
+  // structural n ends every rule); otherwise each read is bounds-checked.
+  template <bool kSentinel>
   LineVerdict Walk(const char* p, const uint32_t* idx, size_t n, size_t len, Value* slots);
 };
 
@@ -165,12 +168,13 @@ struct NdjsonLineParser::Impl {
 // section 2-4) as a loop with an explicit stack, so it checks every comma,
 // colon and bracket without building a tape, and converts only the values
 // a pointer ends at.
+template <bool kSentinel>
 LineVerdict NdjsonLineParser::Impl::Walk(const char* p, const uint32_t* idx, size_t n, size_t len, Value* slots) {
   const bool every = checks == ValueChecks::kEveryValue;
   // The character at structural i (NUL past the last one).
-  auto at = [&](size_t i) -> char { return i < n ? p[idx[i]] : '\0'; };
+  auto at = [&](size_t i) -> char { return kSentinel || i < n ? p[idx[i]] : '\0'; };
   // Where the token at structural i ends: the next structural, or the end.
-  auto token_end = [&](size_t i) -> const char* { return p + (i + 1 < n ? idx[i + 1] : len); };
+  auto token_end = [&](size_t i) -> const char* { return p + (kSentinel || i + 1 < n ? idx[i + 1] : len); };
   if (at(0) != '{') {
     if (at(0) == '[' || at(0) == '"' || at(0) == '-' || (at(0) >= '0' && at(0) <= '9') || at(0) == 't' ||
         at(0) == 'f' || at(0) == 'n')
@@ -299,7 +303,12 @@ LineVerdict NdjsonLineParser::Parse(const char* p, size_t len, size_t capacity, 
       im.stage1->stage1(reinterpret_cast<const uint8_t*>(p), len, simdjson::stage1_mode::regular);
   if (err != simdjson::SUCCESS) return VerdictOf(err);
   im.line_has_backslash = std::memchr(p, '\\', len) != nullptr;
-  return im.Walk(p, im.stage1->structural_indexes.get(), im.stage1->n_structural_indexes, len, slots);
+  const uint32_t* idx = im.stage1->structural_indexes.get();
+  const size_t n = im.stage1->n_structural_indexes;
+  // Stage 1 ends its indexes with len; the reader's lines end at a line
+  // break or the chunk's padding (spaces), which no rule of the walk takes.
+  if (idx[n] == len && IsJsonSpace(p[len])) return im.Walk<true>(p, idx, n, len, slots);
+  return im.Walk<false>(p, idx, n, len, slots);
 }
 
 }  // namespace fanfold

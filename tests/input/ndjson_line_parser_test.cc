@@ -11,6 +11,7 @@
 #include <vector>
 
 #include "common/input/byte_source.h"
+#include "common/input/pointer_trie.h"
 #include "common/input/ndjson_reader.h"
 #include "common/input/record_reader.h"
 #include "tests/input/reader_test_util.h"
@@ -66,6 +67,33 @@ TEST_CASE("numbers beyond 64 bits and beyond the double range") {
   // RFC 8259 section 6: a number has no leading zero; the reason is worded from the line itself.
   CHECK(o.stats.samples[0].reason ==
         "column 6: found a number with a leading zero; expected 0 or a number starting with 1-9");
+}
+
+// Intent: the walk's verdict and values do not depend on the byte after the
+// line (the reader's lines end at a line break or padding, which the walk
+// may use as a sentinel; any other byte takes the bounds-checked walk).
+TEST_CASE("NdjsonLineParser::Parse whatever follows the line") {
+  FieldTable fields;
+  fields.InternField("/a");
+  fields.InternField("/b/1");
+  Result<std::vector<PointerNode>> trie = BuildPointerTrie(fields);
+  REQUIRE(trie.ok());
+  const std::vector<std::string> lines = {R"({"a":1,"b":[2,"x"]})", R"({"a":1)", R"({"a":[1,2})", R"({})", R"({"a")",
+                                          R"({"a":)", R"({"a":"s"} )", R"({"a":1,"b":[0,tru]})", R"([1])", R"({"a":nul})"};
+  uint64_t generation = 0;
+  for (const std::string& line : lines) {
+    CAPTURE(line);
+    std::string outcome[2];
+    int k = 0;
+    for (char after : {'\n', '}'}) {
+      std::string buf = line + after + std::string(64, ' ');
+      std::vector<Value> slots(fields.size());
+      NdjsonLineParser parser;
+      const LineVerdict v = parser.Parse(buf.data(), line.size(), buf.size(), &*trie, ++generation, slots.data());
+      outcome[k++] = std::to_string(static_cast<int>(v)) + ":" + Show(slots[0]) + "|" + Show(slots[1]);
+    }
+    CHECK(outcome[0] == outcome[1]);
+  }
 }
 
 }  // namespace fanfold
