@@ -13,6 +13,7 @@
 #include <cstring>
 #include <vector>
 
+#include "common/input/whole_gzip.h"
 #include "common/port/os_error.h"
 
 namespace fanfold {
@@ -416,6 +417,10 @@ Result<std::unique_ptr<ByteSource>> OpenShardSource(const std::string& path, Com
     return std::unique_ptr<ByteSource>(new PlainFileSource(path, std::move(fd), length));
   }
 
+  if (expected == Compression::kGzip) {
+    Result<std::unique_ptr<ByteSource>> whole = OpenWholeGzip(path, fd.get(), static_cast<uint64_t>(st.st_size));
+    if (!whole.ok() || *whole != nullptr) return whole;
+  }
   CompressedInput in(path, std::move(fd));
   Result<size_t> first = in.RefillAtLeast(4);
   if (!first.ok()) return first.status();

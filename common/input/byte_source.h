@@ -1,9 +1,10 @@
 // ByteSource: a stream of a shard's decompressed bytes. OpenShardSource picks
 // the decoder from the file name (".zst", ".gz", otherwise plain), confirms it
 // by the magic bytes, and streams into the caller's buffer, so memory stays
-// bounded whatever the shard size. Errors name the file and what went wrong
-// (truncated frame, corrupt data, wrong magic). One reader per source;
-// not thread-safe.
+// bounded whatever the shard size; a gzip file small enough is read whole
+// and decompressed in one call instead (whole_gzip.h). Errors name the file
+// and what went wrong (truncated frame, corrupt data, wrong magic). One
+// reader per source; not thread-safe.
 #pragma once
 
 #include <cstddef>

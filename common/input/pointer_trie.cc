@@ -1,6 +1,7 @@
 #include "common/input/pointer_trie.h"
 
 #include <algorithm>
+#include <cstring>
 
 #include "common/input/json_pointer.h"
 
@@ -31,10 +32,14 @@ Result<std::vector<PointerNode>> BuildPointerTrie(const FieldTable& fields) {
         PointerNode node;
         node.token = token;
         node.index = JsonPointerIndex(token);
+        char first8[8] = {};
+        std::memcpy(first8, token.data(), std::min<size_t>(token.size(), 8));
+        node.prefix = TokenPrefix(first8, token.size());
         nodes.push_back(std::move(node));
         PointerNode& parent = nodes[at];
         parent.children.push_back(next);
         parent.max_child_index = std::max(parent.max_child_index, nodes[next].index);
+        parent.child_lengths |= TokenLengthBit(token.size());
       }
       at = next;
     }

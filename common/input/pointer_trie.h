@@ -22,8 +22,25 @@ struct PointerNode {
   int slot = -1;       // slot to fill with the value here, or -1
   std::vector<uint32_t> children;
   int64_t max_child_index = -1;  // largest array index among children
+  // Bit min(L, 63) set iff a child's token is L bytes long: most keys of a
+  // record are ruled out by their length alone.
+  uint64_t child_lengths = 0;
   uint64_t seen = 0;  // record generation that last consumed this node
+  // The token's first 8 bytes, zero-filled (TokenPrefix): a key of up to
+  // 8 bytes matches iff its length and prefix do.
+  uint64_t prefix = 0;
 };
+
+// The first min(n, 8) bytes of s as a little-endian word, the rest zero.
+// Reads 8 bytes from s: the caller guarantees they are readable.
+inline uint64_t TokenPrefix(const char* s, size_t n) {
+  uint64_t w;
+  std::memcpy(&w, s, 8);
+  return n >= 8 ? w : w & ((uint64_t{1} << (8 * n)) - 1);
+}
+
+// The bit of child_lengths for a key of n bytes.
+inline uint64_t TokenLengthBit(size_t n) { return uint64_t{1} << (n < 63 ? n : 63); }
 
 // Keys are short, so comparing the first byte before memcmp skips most calls.
 inline bool TokenIs(const std::string& token, std::string_view key) {

@@ -16,14 +16,14 @@ std::string NotAJsonPointer(const std::string& raw_name) {
   return "is not a JSON Pointer; expected NDJSON fields written like {/" + raw_name + "} (RFC 6901)";
 }
 
-Result<std::unique_ptr<RecordReader>> MakeNdjsonReader(const FieldTable& fields) {
-  Result<std::unique_ptr<NdjsonReader>> r = NdjsonReader::Create(fields);
+Result<std::unique_ptr<RecordReader>> MakeNdjsonReader(const FieldTable& fields, ValueChecks checks) {
+  Result<std::unique_ptr<NdjsonReader>> r = NdjsonReader::Create(fields, ChunkOptions{}, checks);
   if (!r.ok()) return r.status();
   return std::unique_ptr<RecordReader>(std::move(r.value()));
 }
 
 template <char kSeparator>
-Result<std::unique_ptr<RecordReader>> MakeSeparatedReader(const FieldTable& fields) {
+Result<std::unique_ptr<RecordReader>> MakeSeparatedReader(const FieldTable& fields, ValueChecks /*checks*/) {
   return std::unique_ptr<RecordReader>(std::make_unique<CsvReader>(fields, kSeparator));
 }
 

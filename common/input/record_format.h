@@ -16,6 +16,7 @@
 namespace fanfold {
 
 enum class RecordFormat { kNdjson, kCsv, kTsv };
+enum class ValueChecks;
 
 class FieldTable;
 class RecordReader;
@@ -32,8 +33,9 @@ struct RecordFormatRow {
   // "field {raw_name} ..."; "" iff it can. Null iff every name can.
   std::string (*raw_field_problem)(const std::string& raw_name);
   // A reader for records of this format filling `fields` (which must
-  // outlive it). Fails iff a raw field cannot be read in this format.
-  Result<std::unique_ptr<RecordReader>> (*make_reader)(const FieldTable& fields);
+  // outlive it), judging values as `checks` says. Fails iff a raw field
+  // cannot be read in this format.
+  Result<std::unique_ptr<RecordReader>> (*make_reader)(const FieldTable& fields, ValueChecks checks);
 };
 
 // Every format, in RecordFormat order.

@@ -20,6 +20,14 @@
 
 namespace fanfold {
 
+// How strictly a reader judges the values no field reads (the job file's
+// "inputs"/"check_unread_values"). NDJSON: kReadValues checks the whole
+// structure of a line but the spelling of numbers and true/false/null only
+// where a field reads them; kEveryValue checks every value exactly as
+// RFC 8259 says (see common/input/ndjson_line_parser.h). CSV/TSV read
+// every cell either way.
+enum class ValueChecks { kReadValues, kEveryValue };
+
 struct MalformedSample {
   uint64_t line = 0;   // 1-based line where the record starts
   std::string reason;  // e.g. "unclosed string", "expected 7 fields, found 6"
@@ -53,7 +61,7 @@ class RecordSink {
 // stream, or (CSV/TSV) a referenced column missing from the header; records
 // read before the error have already reached the sink.
 Status ReadRecords(RecordFormat format, ByteSource& src, const FieldTable& fields, RecordSink& sink,
-                   ReadStats* stats);
+                   ReadStats* stats, ValueChecks checks = ValueChecks::kReadValues);
 
 // RecordReader: reads the records of one format, shard after shard, keeping
 // its buffers and parser between them (a worker processes thousands of tiny
@@ -63,7 +71,8 @@ Status ReadRecords(RecordFormat format, ByteSource& src, const FieldTable& field
 class RecordReader {
  public:
   // The reader of format's row. fields must outlive the reader.
-  static Result<std::unique_ptr<RecordReader>> Create(RecordFormat format, const FieldTable& fields);
+  static Result<std::unique_ptr<RecordReader>> Create(RecordFormat format, const FieldTable& fields,
+                                                      ValueChecks checks = ValueChecks::kReadValues);
   virtual ~RecordReader() = default;
   // As ReadRecords.
   virtual Status Read(ByteSource& src, RecordSink& sink, ReadStats* stats) = 0;

@@ -22,7 +22,7 @@ using nlohmann::json;
 Status ParseInputs(const JobChecker& c, const json& in, JobSpec* job) {
   const std::string p = "/inputs";
   if (!in.is_object()) return c.Error(p, FoundText(in), "an object with \"files\"");
-  FF_RETURN_IF_ERROR(c.OnlyKeys(in, p, {"files", "format", "bad_record_limit", "chunk_bytes"}));
+  FF_RETURN_IF_ERROR(c.OnlyKeys(in, p, {"files", "format", "bad_record_limit", "chunk_bytes", "check_unread_values"}));
   if (!in.contains("files")) return c.Error(p, "no \"files\"", "\"files\": a list of paths or patterns");
   const json& files = in["files"];
   if (files.is_string()) return c.Error(p + "/files", FoundText(files), "an array of strings (wrap it in [ ])");
@@ -52,6 +52,10 @@ Status ParseInputs(const JobChecker& c, const json& in, JobSpec* job) {
   }
   if (in.contains("chunk_bytes")) {
     FF_RETURN_IF_ERROR(c.Integer(in["chunk_bytes"], p + "/chunk_bytes", 1 << 16, uint64_t{1} << 40, &job->chunk_bytes));
+  }
+  if (const auto v = in.find("check_unread_values"); v != in.end()) {
+    if (!v->is_boolean()) return c.Error(p + "/check_unread_values", FoundText(*v), "true or false");
+    job->check_unread_values = v->get<bool>();
   }
   return Status::Ok();
 }

@@ -95,6 +95,10 @@ struct JobSpec {
   std::optional<RecordFormat> format;  // absent = inferred per file name
   std::optional<double> bad_record_limit;
   uint64_t chunk_bytes = 0;         // 0 = never cut files into chunks
+  // NDJSON: also check the spelling of numbers and true/false/null that no
+  // field reads (ValueChecks::kEveryValue); changes which lines are malformed,
+  // so it is in the plan's fingerprint.
+  bool check_unread_values = false;
   std::string keep;                 // "" = keep every record (shared by every reduction)
   std::vector<TableSpec> tables;    // lookup tables, job-level (table_spec.h)
   std::vector<DeriveSpec> derive;   // shared by every reduction

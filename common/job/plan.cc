@@ -276,6 +276,8 @@ std::string PlanCanonicalText(const Plan& plan) {
   const JobSpec& s = plan.spec;
   std::string out = std::string(kPlanTextCodecPrefix) + std::to_string(kPartialFormatVersion) + "\n";
   out += std::string("format=") + FormatName(plan.format) + "\n";
+  // Which NDJSON lines are malformed depends on it (ValueChecks).
+  if (plan.format == RecordFormat::kNdjson) out += std::string("values=") + (s.check_unread_values ? "every" : "read") + "\n";
   // Only when there are tables, so that plans without them keep their text.
   for (size_t i = 0; i < plan.lookups.size() && i < s.tables.size(); ++i)
     out += LookupCanonicalLine(plan.lookups[i], s.tables[i]) + "\n";

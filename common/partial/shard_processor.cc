@@ -199,7 +199,9 @@ Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
   TimedSource timed(src->get());
   const uint64_t t0 = MonotonicNanos();
   if (!reader_) {
-    Result<std::unique_ptr<RecordReader>> r = RecordReader::Create(plan_->format, plan_->fields);
+    Result<std::unique_ptr<RecordReader>> r = RecordReader::Create(
+        plan_->format, plan_->fields,
+        plan_->spec.check_unread_values ? ValueChecks::kEveryValue : ValueChecks::kReadValues);
     if (!r.ok()) return r.status().WithContext(where);
     reader_ = std::move(r.value());
   }

@@ -1,8 +1,11 @@
 """Malformed records are skipped and counted exactly: hand-written shards with
 known broken lines, generated shards (NDJSON plain/gz/zst, CSV, TSV) with the
 generator's manifest as the count to match, the line numbers named on
-stderr, and "bad_record_limit" turning a too-broken shard into a failed one
-(exit status 1) while the other shards still count.
+stderr, "bad_record_limit" turning a too-broken shard into a failed one
+(exit status 1) while the other shards still count, and
+"check_unread_values": the same counts either way for structural breaks,
+more malformed lines with it where only a value no field reads is misspelled
+(the rule of docs/job-file.md, "Malformed NDJSON lines").
 """
 
 import gzip
@@ -128,6 +131,43 @@ def main():
             checks.check(sum(ref.load_shard(f)[1] for f in files) == man["totals"]["malformed"],
                          "%s: reference parse disagrees with the manifest" % label)
             check_samples(checks, label, err, files)
+            if fmt == "ndjson":
+                # Intent: the generator's broken lines are structural, so checking every value
+                # finds exactly the same ones (the manifest's counts again).
+                job = lib.write_job(env.path("gen-%s-%s-every.json" % (fmt, comp)),
+                                    count_job(files, {"check_unread_values": True}))
+                rc, _, err = env.fanfold_run("run", job, "-j", args.workers, "-o", out + ".every")
+                if checks.check(rc == 0, "%s, every value: exit %d: %s" % (label, rc, lib.tail(err))):
+                    checks.check(global_count(out + ".every") == man["totals"]["records"] and
+                                 lib.summary_malformed_total(err) == man["totals"]["malformed"],
+                                 "%s, every value: count %r, malformed %r, manifest %d, %d"
+                                 % (label, global_count(out + ".every"), lib.summary_malformed_total(err),
+                                    man["totals"]["records"], man["totals"]["malformed"]))
+
+        # Intent: "check_unread_values" through a whole run (job file, plan, workers, reader).
+        # The hand-written broken lines are structural: the same 4 either way. Lines whose only
+        # error is the spelling of a number or literal no field reads are records by default and
+        # malformed with the option, exactly where Python's json module refuses them.
+        d = os.path.join(env.tmp, "unread")
+        unread_bad = [b'{"lamp":"L-1","x":tru}', b'{"lamp":"L-2","readings":[01,2]}',
+                      b'{"lamp":"L-3","x":{"y":nul}}', b'{"lamp":"L-4","x":1.}']
+        u = write(os.path.join(d, "u.ndjson"), good_lines(5) + BROKEN + unread_bad + good_lines(2, 500))
+        by_python = ref.parse_ndjson(open(u, "rb").read())
+        for every, want_records in ((False, 7 + len(unread_bad)), (True, len(by_python[0]))):
+            job = {"inputs": {"files": [u], "check_unread_values": every}, "group": ["{/lamp}"],
+                   "measures": [{"name": "n", "fn": "count"}], "emit": {"format": "json"}}
+            path = lib.write_job(env.path("unread-%s.json" % every), job)
+            out = env.path("unread-%s.out" % every)
+            rc, _, err = env.fanfold_run("run", path, "-j", args.workers, "-o", out)
+            label = "check_unread_values %s" % every
+            if checks.check(rc == 0, "%s: exit %d: %s" % (label, rc, lib.tail(err))):
+                got = sum(r["n"] for r in lib.read_rows(out, "json"))
+                checks.check(got == want_records, "%s: %r records, want %d" % (label, got, want_records))
+                want_bad = 4 + len(unread_bad) - (0 if every else len(unread_bad))
+                checks.check(lib.summary_malformed_total(err) == want_bad,
+                             "%s: summary malformed %r, want %d" % (label, lib.summary_malformed_total(err), want_bad))
+        checks.check(len(by_python[0]) == 7 and by_python[1] == 8, "python reference: %d records, %d malformed, want 7, 8"
+                     % (len(by_python[0]), by_python[1]))
 
         # Intent: in a file cut into chunks ("chunk_bytes"), a malformed line in a
         # later chunk is named with the chunk's first byte, and its line number,

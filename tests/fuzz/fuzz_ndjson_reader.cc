@@ -1,7 +1,9 @@
 // Fuzz target: bytes → ReadRecords (NDJSON) through a MemorySource, with raw
 // fields at several JSON Pointers; then the same bytes again through a reader
 // with a tiny chunk size fed in uneven pieces, which must see exactly the
-// same records (a record's fields cannot depend on where reads were cut).
+// same records (a record's fields cannot depend on where reads were cut);
+// and through a reader checking every value, which may refuse more lines
+// than the default but never accept one the default refuses.
 #include <cstddef>
 #include <cstdint>
 #include <string>
@@ -34,6 +36,14 @@ extern "C" int LLVMFuzzerTestOneInput(const uint8_t* data, size_t size) {
 
   if (s1.ok() != s2.ok() || whole.records() != cut.records() || whole.hash() != cut.hash() ||
       whole_stats.records != cut_stats.records || whole_stats.malformed != cut_stats.malformed)
+    __builtin_trap();
+
+  std::unique_ptr<ByteSource> again = MemorySource(bytes);
+  TouchSink strict(*fields);
+  ReadStats strict_stats;
+  Status s3 = ReadRecords(RecordFormat::kNdjson, *again, *fields, strict, &strict_stats, ValueChecks::kEveryValue);
+  if (s3.ok() != s1.ok() || strict_stats.records > whole_stats.records ||
+      strict_stats.records + strict_stats.malformed != whole_stats.records + whole_stats.malformed)
     __builtin_trap();
   return 0;
 }

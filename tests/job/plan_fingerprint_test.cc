@@ -71,8 +71,11 @@ std::string OptionJson(const MeasureOption& o, int which) {
 // when the work changes. The text below is what the hand-listed
 // PlanCanonicalText of commit 3e10f86 produced for this job, with the measure
 // names of our own (ddsketch, hyperloglog, at_lowest) that replaced the old
-// ones, and since codec 4 the reduction's lines indented under "reduction";
-// the fingerprint is pinned from that text.
+// ones, since codec 4 the reduction's lines indented under "reduction",
+// and the "values=read" line that came with the NDJSON reader's default of
+// checking only the values fields read (it changed which lines are
+// malformed, so earlier run directories must not resume); the fingerprint
+// is pinned from that text.
 TEST_CASE("the canonical text of a plan is the one earlier versions wrote") {
   Result<JobSpec> spec = ParseJobSpec(R"J({"inputs": {"files": ["a"]}, "keep": "{/x} > 1",
     "derive": [{"name": "d", "expr": "{/y} * 2"}], "group": ["{/g}"], "measures": [
@@ -88,6 +91,7 @@ TEST_CASE("the canonical text of a plan is the one earlier versions wrote") {
   CHECK(PlanCanonicalText(*plan) ==
         "fanfold-plan codec=4\n"
         "format=ndjson\n"
+        "values=read\n"
         "keep={/x} > 1\n"
         "derive d={/y} * 2\n"
         "reduction\n"
@@ -100,7 +104,7 @@ TEST_CASE("the canonical text of a plan is the one earlier versions wrote") {
         " measure u fn=hyperloglog of={/u} by= alpha=0.01 precision=14 k=10 limit=1000000 at=\n"
         " measure t fn=top of={/u} by= alpha=0.01 precision=12 k=3 limit=50 at=\n"
         " measure f fn=at_lowest of={/u} by={/ts} alpha=0.01 precision=12 k=10 limit=1000000 at=\n");
-  CHECK(plan->fingerprint == 0x85532d8cab04a097ULL);  // XXH3-64 of the text above (codec 4)
+  CHECK(plan->fingerprint == 0x7961bfba0454f47fULL);  // XXH3-64 of the text above (codec 4)
 }
 
 // Intent: for every measure and every option of MeasureConfig (those the
@@ -225,4 +229,34 @@ TEST_CASE("the canonical text of a histogram names its bins") {
                   "edges=0,2.5,10,\n") != std::string::npos);
   CHECK(text.find("measure w fn=histogram of={/x} by= alpha=0.01 precision=12 k=10 limit=1000000 from=0 to=1 "
                   "width=0.10000000000000001 at=\n") != std::string::npos);
+}
+
+// Intent: "check_unread_values" changes which NDJSON lines are malformed, so
+// it is in the fingerprint; for CSV it changes nothing, and neither does the
+// text of a CSV plan (no "values=" line).
+TEST_CASE("check_unread_values is part of an NDJSON plan's fingerprint") {
+  auto plan_of = [](const char* inputs_extra, RecordFormat format) {
+    Result<JobSpec> spec = ParseJobSpec(std::string(R"({"inputs": {"files": ["a"])") + inputs_extra +
+                                            R"(}, "measures": [{"name": "n", "fn": "count"}]})",
+                                        "job.json");
+    REQUIRE(spec.ok());
+    Result<std::unique_ptr<Plan>> plan = CompilePlan(std::move(spec.value()), format);
+    REQUIRE(plan.ok());
+    return std::move(plan.value());
+  };
+  const auto plain = plan_of("", RecordFormat::kNdjson);
+  const auto off = plan_of(R"(, "check_unread_values": false)", RecordFormat::kNdjson);
+  const auto on = plan_of(R"(, "check_unread_values": true)", RecordFormat::kNdjson);
+  CHECK(on->spec.check_unread_values);
+  CHECK(plain->fingerprint == off->fingerprint);
+  CHECK(plain->fingerprint != on->fingerprint);
+  CHECK(PlanCanonicalText(*on).find("\nvalues=every\n") != std::string::npos);
+  const auto csv_off = plan_of("", RecordFormat::kCsv);
+  const auto csv_on = plan_of(R"(, "check_unread_values": true)", RecordFormat::kCsv);
+  CHECK(csv_off->fingerprint == csv_on->fingerprint);
+  CHECK(PlanCanonicalText(*csv_on).find("values=") == std::string::npos);
+  Result<JobSpec> bad = ParseJobSpec(R"({"inputs": {"files": ["a"], "check_unread_values": "yes"},
+    "measures": [{"name": "n", "fn": "count"}]})", "job.json");
+  REQUIRE(!bad.ok());
+  CHECK(bad.status().message().find("/inputs/check_unread_values") != std::string::npos);
 }

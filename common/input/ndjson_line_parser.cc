@@ -1,0 +1,314 @@
+#include "common/input/ndjson_line_parser.h"
+
+#include <simdjson.h>
+
+#include <algorithm>
+#include <charconv>
+#include <climits>
+#include <cstring>
+#include <limits>
+#include <utility>
+
+#include "common/input/json_number.h"
+
+namespace fanfold {
+namespace {
+
+bool IsJsonSpace(char c) { return c == ' ' || c == '\t' || c == '\r' || c == '\n'; }
+
+// True iff s[0, n) holds a backslash; eight bytes at a time (the zero-byte
+// test of Hacker's Delight section 6-1, on each word XOR eight backslashes),
+// the last word read whole and masked (little-endian: its first bytes are
+// the low ones). Reads up to 7 bytes past s + n: a line is followed by its
+// line break and simdjson's padding, so they are readable.
+bool HasBackslash(const char* s, size_t n) {
+  constexpr uint64_t kOnes = 0x0101010101010101ULL;
+  constexpr uint64_t kHigh = 0x8080808080808080ULL;
+  for (size_t i = 0; i < n; i += 8) {
+    uint64_t w;
+    std::memcpy(&w, s + i, 8);
+    const uint64_t x = w ^ (kOnes * '\\');
+    uint64_t hits = (x - kOnes) & ~x & kHigh;
+    if (n - i < 8) hits &= (uint64_t{1} << (8 * (n - i))) - 1;  // only the bytes inside s[0, n)
+    if (hits != 0) return true;
+  }
+  return false;
+}
+
+LineVerdict VerdictOf(simdjson::error_code err) {
+  switch (err) {
+    case simdjson::SUCCESS: return LineVerdict::kRecord;
+    case simdjson::UTF8_ERROR: return LineVerdict::kNotUtf8;
+    case simdjson::CAPACITY: return LineVerdict::kTooLong;
+    default: return LineVerdict::kInvalid;
+  }
+}
+
+// An open object or array of the walk: its bracket, its trie node (-1 where
+// no pointer leads) and, for an array, the index of the current element.
+struct Frame {
+  char bracket;
+  int32_t node;
+  int64_t index;
+};
+
+}  // namespace
+
+struct NdjsonLineParser::Impl {
+  explicit Impl(ValueChecks c) : checks(c) {}
+
+  static constexpr size_t kMaxDepth = 1024;
+
+  ValueChecks checks;
+  std::unique_ptr<simdjson::internal::dom_parser_implementation> stage1;
+  std::vector<Frame> stack;
+  std::unique_ptr<uint8_t[]> strings;  // unescaped strings of the current line
+  size_t strings_cap = 0;
+  uint8_t* strings_end = nullptr;
+  std::vector<PointerNode>* nodes = nullptr;
+  uint64_t generation = 0;
+  // False iff the line holds no backslash at all (most lines): then no
+  // string in it has an escape to check or undo.
+  bool line_has_backslash = true;
+
+  // Room for len bytes of line (stage 1's indexes, unescaped strings).
+  bool Reserve(size_t len) {
+    if (stage1 == nullptr || stage1->capacity() < len) {
+      const size_t cap = std::max<size_t>(len, size_t{1} << 16);
+      if (stage1 == nullptr) {
+        if (simdjson::get_active_implementation()->create_dom_parser_implementation(cap, kMaxDepth, stage1) !=
+            simdjson::SUCCESS)
+          return false;
+      } else if (stage1->set_capacity(cap) != simdjson::SUCCESS) {
+        return false;
+      }
+      strings_cap = cap + simdjson::SIMDJSON_PADDING;
+      strings.reset(new uint8_t[strings_cap]);
+    }
+    strings_end = strings.get();
+    return true;
+  }
+
+  // The child of ni that `key` names and no earlier duplicate took, or -1.
+  int32_t Member(int32_t ni, std::string_view key) {
+    if (ni < 0 || ((*nodes)[ni].child_lengths & TokenLengthBit(key.size())) == 0) return -1;
+    // A key is followed by at least '"' and ':' and the line's padding, so
+    // 8 bytes from its start are readable.
+    const uint64_t prefix = TokenPrefix(key.data(), key.size());
+    for (uint32_t c : (*nodes)[ni].children) {
+      PointerNode& child = (*nodes)[c];
+      if (child.prefix != prefix || child.token.size() != key.size()) continue;
+      if (key.size() > 8 && std::memcmp(child.token.data() + 8, key.data() + 8, key.size() - 8) != 0) continue;
+      if (child.seen == generation) return -1;  // duplicate keys: the first one wins
+      child.seen = generation;
+      return static_cast<int32_t>(c);
+    }
+    return -1;
+  }
+
+  int32_t Element(int32_t ni, int64_t i) const {
+    if (ni < 0 || i > (*nodes)[ni].max_child_index) return -1;
+    for (uint32_t c : (*nodes)[ni].children)
+      if ((*nodes)[c].index == i) return static_cast<int32_t>(c);
+    return -1;
+  }
+
+  // The text of the string whose opening quote is at q and whose token
+  // (stage 1 has matched its quotes and checked its UTF-8 and control
+  // characters) ends before `end`, the next structural character: the
+  // line's own bytes when it has no backslash, else (only if `unescape`) its
+  // unescaped text in `strings`. Returns false iff an escape is invalid
+  // (simdjson's unescaper judges).
+  bool StringAt(const char* q, const char* end, bool unescape, std::string_view* out) {
+    const char* b = q + 1;
+    const char* e = end;
+    while (e > b && IsJsonSpace(e[-1])) --e;
+    if (e > b && e[-1] == '"') {
+      --e;
+    } else {
+      // Not the shape stage 1 gives a string token; find the end by hand.
+      e = b;
+      while (*e != '"') e += *e == '\\' ? 2 : 1;
+    }
+    const size_t n = static_cast<size_t>(e - b);
+    if (!line_has_backslash || !HasBackslash(b, n)) {
+      *out = std::string_view(b, n);
+      return true;
+    }
+    uint8_t* stop = stage1->parse_string(reinterpret_cast<const uint8_t*>(b), strings_end);
+    if (stop == nullptr) return false;
+    *out = std::string_view(reinterpret_cast<const char*>(strings_end), static_cast<size_t>(stop - strings_end));
+    if (unescape) strings_end = stop;
+    return true;
+  }
+
+  // The scalar token that starts at t and ends before `end` (the next
+  // structural character, or the line's end), without trailing spaces.
+  static std::string_view Token(const char* t, const char* end) {
+    while (end > t && IsJsonSpace(end[-1])) --end;
+    return std::string_view(t, static_cast<size_t>(end - t));
+  }
+
+  // True iff a string is glued to the scalar token at t (`5"a"`): stage 1
+  // makes the quote part of the token, and then the token ends with it.
+  static bool GluedString(const char* t, const char* end) {
+    const std::string_view token = Token(t, end);
+    return token.back() == '"';
+  }
+
+  // Walks the line whose n structural characters are at p + idx[0..n) and
+  // which ends at p + len.
+  // kSentinel: idx[n] == len and p[len] is a space (so the character "at"
+  // structural n ends every rule); otherwise each read is bounds-checked.
+  template <bool kSentinel>
+  LineVerdict Walk(const char* p, const uint32_t* idx, size_t n, size_t len, Value* slots);
+};
+
+// The walk over stage 1's structural indexes: the JSON grammar (RFC 8259
+// section 2-4) as a loop with an explicit stack, so it checks every comma,
+// colon and bracket without building a tape, and converts only the values
+// a pointer ends at.
+template <bool kSentinel>
+LineVerdict NdjsonLineParser::Impl::Walk(const char* p, const uint32_t* idx, size_t n, size_t len, Value* slots) {
+  const bool every = checks == ValueChecks::kEveryValue;
+  // The character at structural i (NUL past the last one).
+  auto at = [&](size_t i) -> char { return kSentinel || i < n ? p[idx[i]] : '\0'; };
+  // Where the token at structural i ends: the next structural, or the end.
+  auto token_end = [&](size_t i) -> const char* { return p + (kSentinel || i + 1 < n ? idx[i + 1] : len); };
+  if (at(0) != '{') {
+    if (at(0) == '[' || at(0) == '"' || at(0) == '-' || (at(0) >= '0' && at(0) <= '9') || at(0) == 't' ||
+        at(0) == 'f' || at(0) == 'n')
+      return LineVerdict::kNotObject;
+    return LineVerdict::kInvalid;
+  }
+  stack.clear();
+  stack.push_back(Frame{'{', 0, 0});
+  size_t i = 1;
+  int32_t node = -1;  // trie node of the value about to be read
+  // Each label is a state of the grammar; every path ends at a return.
+object_begin:
+  if (at(i) == '}') {
+    ++i;
+    goto scope_end;
+  }
+object_key : {
+  if (at(i) != '"') return LineVerdict::kInvalid;
+  std::string_view key;
+  if (!StringAt(p + idx[i], token_end(i), true, &key)) return LineVerdict::kInvalid;
+  if (at(i + 1) != ':') return LineVerdict::kInvalid;
+  i += 2;
+  node = Member(stack.back().node, key);
+  goto value;
+}
+array_begin:
+  if (at(i) == ']') {
+    ++i;
+    goto scope_end;
+  }
+array_value:
+  node = Element(stack.back().node, stack.back().index);
+value : {
+  const int slot = node >= 0 ? (*nodes)[node].slot : -1;
+  const char c = at(i);
+  switch (c) {
+    case '{':
+    case '[':
+      if (stack.size() >= kMaxDepth) return LineVerdict::kTooDeep;
+      if (slot >= 0) slots[slot] = Value::Other();
+      stack.push_back(Frame{c, node, 0});
+      ++i;
+      if (c == '{') goto object_begin;
+      goto array_begin;
+    case '"': {
+      std::string_view s;
+      if (!StringAt(p + idx[i], token_end(i), slot >= 0, &s)) return LineVerdict::kInvalid;
+      if (slot >= 0) slots[slot] = Value::String(s);
+      break;
+    }
+    case 't':
+    case 'f':
+    case 'n':
+      if (slot >= 0 || every) {
+        const std::string_view t = Token(p + idx[i], token_end(i));
+        Value v;
+        if (t == "true")
+          v = Value::Bool(true);
+        else if (t == "false")
+          v = Value::Bool(false);
+        else if (t == "null")
+          v = Value::Null();
+        else
+          return LineVerdict::kInvalid;
+        if (slot >= 0) slots[slot] = v;
+      } else if (GluedString(p + idx[i], token_end(i))) {
+        return LineVerdict::kInvalid;
+      }
+      break;
+    case '-':
+    case '0':
+    case '1':
+    case '2':
+    case '3':
+    case '4':
+    case '5':
+    case '6':
+    case '7':
+    case '8':
+    case '9':
+      if (slot >= 0) {
+        if (!ParseJsonNumber(Token(p + idx[i], token_end(i)), &slots[slot])) return LineVerdict::kBadNumber;
+      } else if (every && !IsJsonNumber(Token(p + idx[i], token_end(i)))) {
+        return LineVerdict::kBadNumber;
+      } else if (GluedString(p + idx[i], token_end(i))) {
+        return LineVerdict::kInvalid;
+      }
+      break;
+    default: return LineVerdict::kInvalid;  // no value starts here (a bracket, comma, colon or stray text)
+  }
+  ++i;
+}
+after_value:
+  if (stack.back().bracket == '{') {
+    if (at(i) == ',') {
+      ++i;
+      goto object_key;
+    }
+    if (at(i) != '}') return LineVerdict::kInvalid;
+  } else {
+    if (at(i) == ',') {
+      ++i;
+      ++stack.back().index;
+      goto array_value;
+    }
+    if (at(i) != ']') return LineVerdict::kInvalid;
+  }
+  ++i;
+scope_end:
+  stack.pop_back();
+  if (!stack.empty()) goto after_value;
+  return i == n ? LineVerdict::kRecord : LineVerdict::kInvalid;  // nothing after the root object
+}
+
+NdjsonLineParser::NdjsonLineParser(ValueChecks checks) : impl_(std::make_unique<Impl>(checks)) {}
+NdjsonLineParser::~NdjsonLineParser() = default;
+
+LineVerdict NdjsonLineParser::Parse(const char* p, size_t len, size_t capacity, std::vector<PointerNode>* nodes,
+                                    uint64_t generation, Value* slots) {
+  Impl& im = *impl_;
+  if (capacity < len + simdjson::SIMDJSON_PADDING) return LineVerdict::kTooLong;  // the caller's contract
+  if (len > simdjson::SIMDJSON_MAXSIZE_BYTES || !im.Reserve(len)) return LineVerdict::kTooLong;
+  im.nodes = nodes;
+  im.generation = generation;
+  const simdjson::error_code err =
+      im.stage1->stage1(reinterpret_cast<const uint8_t*>(p), len, simdjson::stage1_mode::regular);
+  if (err != simdjson::SUCCESS) return VerdictOf(err);
+  im.line_has_backslash = std::memchr(p, '\\', len) != nullptr;
+  const uint32_t* idx = im.stage1->structural_indexes.get();
+  const size_t n = im.stage1->n_structural_indexes;
+  // Stage 1 ends its indexes with len; the reader's lines end at a line
+  // break or the chunk's padding (spaces), which no rule of the walk takes.
+  if (idx[n] == len && IsJsonSpace(p[len])) return im.Walk<true>(p, idx, n, len, slots);
+  return im.Walk<false>(p, idx, n, len, slots);
+}
+
+}  // namespace fanfold

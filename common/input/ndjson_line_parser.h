@@ -1,0 +1,74 @@
+// NdjsonLineParser: the NDJSON reader's parser for one line. simdjson's
+// stage 1 (the structural and UTF-8 pass, on the SIMD kernel simdjson picks
+// at run time) indexes the line; our own walk over those indexes then checks
+// the JSON grammar with an explicit stack (no tape, no recursion) and fills
+// the slots the PointerTrie leads to, converting only the values a pointer
+// ends at. What it checks depends on ValueChecks (the job
+// file's "inputs"/"check_unread_values"; docs/job-file.md, "Malformed
+// records"):
+//   kReadValues  (default) every structural rule of RFC 8259 everywhere in
+//                the line — brackets and braces closed and matching, commas
+//                and colons in place, keys are strings, one object and
+//                nothing after it — plus UTF-8, control characters and
+//                escape sequences in every string (keys too), and the full
+//                syntax of every value a pointer reads. Not checked: the
+//                rest of a token that no pointer reads once its first
+//                character says number (- or a digit) or literal (t, f, n);
+//                a token runs to the next space, comma, colon, bracket,
+//                brace or quote ("tru", "01", "1.5x" pass there; a string
+//                glued to such a token, as in 5"a", does not).
+//   kEveryValue  all of the above and the spelling of every number and
+//                literal: exactly RFC 8259 (the reader's behaviour before
+//                kReadValues existed).
+// Numbers a pointer reads: integers within [-2^63, 2^64) are exact integer
+// Values, other numbers their nearest double, +/-infinity beyond the double
+// range (Python's json.loads does the same with "1e400"). One per reader
+// (owns a parser); not thread-safe.
+#pragma once
+
+#include <cstddef>
+#include <cstdint>
+#include <memory>
+#include <string_view>
+#include <vector>
+
+#include "common/base/value.h"
+#include "common/input/pointer_trie.h"
+#include "common/input/record_reader.h"
+
+namespace fanfold {
+
+// Why a line is not a record (kRecord: it is one).
+enum class LineVerdict {
+  kRecord,
+  kNotObject,  // valid JSON, but not an object
+  kTooDeep,    // nested deeper than the parser's limit
+  kBadNumber,  // a number that is not valid JSON
+  kNotUtf8,    // bytes that are not UTF-8
+  kTooLong,    // longer than the parser can take
+  kInvalid,    // any other break of the JSON grammar
+};
+
+class NdjsonLineParser {
+ public:
+  explicit NdjsonLineParser(ValueChecks checks = ValueChecks::kReadValues);
+  ~NdjsonLineParser();
+  NdjsonLineParser(const NdjsonLineParser&) = delete;
+  NdjsonLineParser& operator=(const NdjsonLineParser&) = delete;
+
+  // Parses line p[0, len), readable up to p + capacity (capacity >= len plus
+  // simdjson's padding, else kTooLong). Fills slots[] where the pointers of `nodes` end
+  // (first occurrence of a duplicate key wins, marked with `generation`);
+  // string values point into this parser until its next Parse. Returns
+  // kRecord iff the line is one JSON object as the checks above judge it;
+  // slots are then complete (otherwise some may be filled).
+  // REQUIRES: slots already reset to missing; generation new for this line.
+  LineVerdict Parse(const char* p, size_t len, size_t capacity, std::vector<PointerNode>* nodes, uint64_t generation,
+                    Value* slots);
+
+ private:
+  struct Impl;
+  std::unique_ptr<Impl> impl_;  // keeps simdjson.h out of this header
+};
+
+}  // namespace fanfold
