@@ -20,6 +20,7 @@
 #include <doctest/doctest.h>
 
 #include "common/input/ndjson_reader.h"
+#include "tests/input/ndjson_test_util.h"
 #include "tests/input/reader_test_util.h"
 
 namespace fanfold {
@@ -88,29 +89,7 @@ for line in open(sys.argv[1], encoding='utf-8', errors='surrogateescape', newlin
     print('ok ' + row.replace('\n', '<LF>'))
 )";
 
-FieldTable Fields(std::initializer_list<const char*> refs) {
-  FieldTable t;
-  for (const char* r : refs) t.InternField(r);
-  return t;
-}
 
-struct Outcome {
-  Status status;
-  ReadStats stats;
-  std::vector<std::string> rows;
-};
-
-Outcome Run(const FieldTable& fields, const std::string& input, size_t chunk, size_t max_record,
-            ValueChecks checks) {
-  auto reader = NdjsonReader::Create(fields, ChunkOptions{chunk, max_record}, checks);
-  REQUIRE(reader.ok());
-  auto src = MemorySource(input);
-  Collect sink(fields.size());
-  Outcome out;
-  out.status = (*reader)->Read(*src, sink, &out.stats);
-  out.rows = sink.rows;
-  return out;
-}
 
 }  // namespace
 

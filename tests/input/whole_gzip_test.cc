@@ -18,6 +18,7 @@
 #include <doctest/doctest.h>
 
 #include "common/input/byte_source.h"
+#include "tests/input/gzip_test_util.h"
 
 namespace fanfold {
 namespace {
@@ -29,20 +30,6 @@ std::string Text(size_t n, uint32_t seed) {
   while (s.size() < n) s += kWords[rng() % 8];
   s.resize(n);
   return s;
-}
-
-std::string Member(const std::string& data) {
-  z_stream s{};
-  REQUIRE(deflateInit2(&s, 6, Z_DEFLATED, 15 + 16, 8, Z_DEFAULT_STRATEGY) == Z_OK);
-  std::string out(deflateBound(&s, data.size()) + 32, '\0');
-  s.next_in = reinterpret_cast<Bytef*>(const_cast<char*>(data.data()));
-  s.avail_in = static_cast<uInt>(data.size());
-  s.next_out = reinterpret_cast<Bytef*>(out.data());
-  s.avail_out = static_cast<uInt>(out.size());
-  REQUIRE(deflate(&s, Z_FINISH) == Z_STREAM_END);
-  out.resize(s.total_out);
-  deflateEnd(&s);
-  return out;
 }
 
 struct Whole {
@@ -80,14 +67,14 @@ Whole TryWhole(const std::string& file_bytes) {
 // shard object again reuses its buffers (a second, smaller file).
 TEST_CASE("a single-member gzip file is read whole") {
   const std::string a = Text(3'000'000, 1);
-  Whole w = TryWhole(Member(a));
+  Whole w = TryWhole(GzipMember(a));
   CHECK(w.taken);
   CHECK(w.bytes == a);
   const std::string b = Text(1000, 2);
-  Whole w2 = TryWhole(Member(b));
+  Whole w2 = TryWhole(GzipMember(b));
   CHECK(w2.taken);
   CHECK(w2.bytes == b);
-  Whole empty = TryWhole(Member(""));
+  Whole empty = TryWhole(GzipMember(""));
   CHECK(empty.taken);
   CHECK(empty.bytes.empty());
 }
@@ -96,10 +83,10 @@ TEST_CASE("a single-member gzip file is read whole") {
 // too, the buffer growing from the last member's small ISIZE.
 TEST_CASE("a multi-member gzip file is read whole, member after member") {
   const std::string a = Text(2'000'000, 6), b = Text(300'000, 7), c = Text(5, 8);
-  Whole w = TryWhole(Member(a) + Member(b) + Member("") + Member(c));
+  Whole w = TryWhole(GzipMember(a) + GzipMember(b) + GzipMember("") + GzipMember(c));
   CHECK(w.taken);
   CHECK(w.bytes == a + b + c);
-  Whole two = TryWhole(Member(c) + Member(a));
+  Whole two = TryWhole(GzipMember(c) + GzipMember(a));
   CHECK(two.taken);
   CHECK(two.bytes == c + a);
 }
@@ -109,7 +96,7 @@ TEST_CASE("a multi-member gzip file is read whole, member after member") {
 // the streaming reader takes the file and words any error.
 TEST_CASE("what the whole-file path declines") {
   const std::string a = Text(200'000, 3);
-  const std::string m = Member(a);
+  const std::string m = GzipMember(a);
   CHECK_FALSE(TryWhole(m + std::string(4, '\0')).taken);  // bytes after the member that start no member
   CHECK_FALSE(TryWhole(m.substr(0, m.size() - 1)).taken);
   CHECK_FALSE(TryWhole(m.substr(0, m.size() / 2)).taken);
@@ -154,11 +141,11 @@ TEST_CASE("declined gzip files stream with their errors unchanged") {
     }
   };
   const std::string a = Text(500'000, 4), b = Text(70'000, 5);
-  const std::string m = Member(a);
-  Result<std::string> two = read(write("two.gz", m + Member(b)));
+  const std::string m = GzipMember(a);
+  Result<std::string> two = read(write("two.gz", m + GzipMember(b)));
   REQUIRE(two.ok());
   CHECK(*two == a + b);
-  std::string lying = Member(b);
+  std::string lying = GzipMember(b);
   lying[lying.size() - 4] ^= 1;  // ISIZE wrong: zlib's streaming inflate refuses it too (RFC 1952 2.3.1)
   Result<std::string> bad_size = read(write("size.gz", lying));
   CHECK(!bad_size.ok());

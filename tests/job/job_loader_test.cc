@@ -10,25 +10,13 @@
 #include <fstream>
 #include <string>
 
+#include "tests/port/scratch_dir_test_util.h"
+
 namespace fanfold {
 namespace {
 
-// A fresh directory under /tmp, removed with everything in it.
-class JobDir {
- public:
-  JobDir() {
-    char tmpl[] = "/tmp/fanfold-job-XXXXXX";
-    path_ = ::mkdtemp(tmpl);
-  }
-  ~JobDir() { std::filesystem::remove_all(path_); }
-  std::string Write(const std::string& name, const std::string& text) const {
-    const std::string p = path_ + "/" + name;
-    std::ofstream(p, std::ios::binary) << text;
-    return p;
-  }
-
- private:
-  std::string path_;
+struct JobDir : ScratchFiles {
+  JobDir() : ScratchFiles("fanfold-job") {}
 };
 
 constexpr const char* kJob =

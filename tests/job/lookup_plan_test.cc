@@ -15,24 +15,13 @@
 #include "common/job/job_loader.h"
 #include "common/job/plan.h"
 
+#include "tests/port/scratch_dir_test_util.h"
+
 namespace fanfold {
 namespace {
 
-class PlanDir {
- public:
-  PlanDir() {
-    char tmpl[] = "/tmp/fanfold-lookup-plan-XXXXXX";
-    path_ = ::mkdtemp(tmpl);
-  }
-  ~PlanDir() { std::filesystem::remove_all(path_); }
-  std::string Write(const std::string& name, const std::string& text) const {
-    const std::string p = path_ + "/" + name;
-    std::ofstream(p, std::ios::binary) << text;
-    return p;
-  }
-
- private:
-  std::string path_;
+struct PlanDir : ScratchFiles {
+  PlanDir() : ScratchFiles("fanfold-lookup-plan") {}
 };
 
 constexpr const char* kJob = R"J({"inputs": {"files": ["*.ndjson"]},

@@ -18,24 +18,16 @@
 
 #include "common/base/value_compare.h"
 
+#include "tests/port/scratch_dir_test_util.h"
+
 namespace fanfold {
 namespace {
 
-class TableDir {
- public:
-  TableDir() {
-    char tmpl[] = "/tmp/fanfold-table-XXXXXX";
-    path_ = ::mkdtemp(tmpl);
-  }
-  ~TableDir() { std::filesystem::remove_all(path_); }
-  std::string Write(const std::string& name, const std::string& bytes) const {
-    const std::string p = path_ + "/" + name;
-    std::ofstream(p, std::ios::binary) << bytes;
-    return p;
-  }
+struct TableDir : ScratchFiles {
+  TableDir() : ScratchFiles("fanfold-table") {}
   // A gzip file made by zlib's own writer.
   std::string WriteGzip(const std::string& name, const std::string& bytes) const {
-    const std::string p = path_ + "/" + name;
+    const std::string p = path() + "/" + name;
     gzFile f = gzopen(p.c_str(), "wb");
     gzwrite(f, bytes.data(), static_cast<unsigned>(bytes.size()));
     gzclose(f);
@@ -46,9 +38,6 @@ class TableDir {
     z.resize(ZSTD_compress(z.data(), z.size(), bytes.data(), bytes.size(), 3));
     return Write(name, z);
   }
-
- private:
-  std::string path_;
 };
 
 TableSource Source(const std::string& path, RecordFormat format, const std::string& key,
