@@ -11,6 +11,7 @@
 #include <thread>
 
 #include "common/port/file_util.h"
+#include "coordinator/run/summary_json.h"
 #include "coordinator/run/console_log.h"
 #include "coordinator/report/report_html.h"
 #include "coordinator/rundir/run_record_reader.h"
@@ -86,7 +87,7 @@ Status RunOnce(const ScaleOptions& o, const std::string& scratch, const std::str
   // Every reduction's result file (result.<ext> or result-<name>.<ext>).
   std::vector<fs::path> results;
   for (const fs::directory_entry& e : fs::directory_iterator(ro.run_dir))
-    if (e.path().filename().string().rfind("result", 0) == 0) results.push_back(e.path());
+    if (IsResultFileName(e.path().filename().string())) results.push_back(e.path());
   std::sort(results.begin(), results.end());
   out->output.clear();
   for (const fs::path& p : results) {

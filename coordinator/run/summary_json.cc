@@ -104,6 +104,10 @@ std::string ResultFileName(const std::string& reduction, OutputFormat f) {
   return name;
 }
 
+bool IsResultFileName(const std::string& file_name) {
+  return file_name.rfind("result.", 0) == 0 || file_name.rfind("result-", 0) == 0;
+}
+
 std::string SummaryJsonText(const RunInput& in, const RunSummary& s, const Merger& merger,
                             const std::vector<FinishedReduction>& finished, int workers, uint64_t retries) {
   const Plan& plan = *in.plan;

@@ -19,6 +19,9 @@ namespace fanfold {
 // each named one.
 std::string ResultFileName(const std::string& reduction, OutputFormat f);
 
+// True iff file_name is one ResultFileName gives, for some reduction and format.
+bool IsResultFileName(const std::string& file_name);
+
 // summary.json's text (indented, with a final newline). REQUIRES: the
 // merger finished every reduction, and `finished` has one entry per reduction.
 std::string SummaryJsonText(const RunInput& in, const RunSummary& s, const Merger& merger,
