@@ -13,6 +13,7 @@
 #include "coordinator/run/console_log.h"
 #include "coordinator/run/field_precheck.h"
 #include "coordinator/rundir/run_directory.h"
+#include "coordinator/rundir/stored_partial.h"
 #include "coordinator/run/run_engine.h"
 
 namespace fs = std::filesystem;
@@ -33,11 +34,7 @@ std::string PartialProblem(const std::string& bytes, const Shard& s, const Plan&
   PartialHeader h;
   Status st = DecodePartialHeader(bytes, &h);
   if (!st.ok()) return st.message();
-  if (h.fingerprint != plan.fingerprint) return "it was computed by a different plan";
-  if (h.shard_index != s.index || h.path_hash != PathHash(s.path) || h.offset != s.offset || h.length != s.length)
-    return "it belongs to another shard";
-  if (h.file_size != s.file_size || h.mtime_ns != s.mtime_ns) return "the shard's file changed after it was computed";
-  return "";
+  return StoredPartialMismatch(h, s, plan.fingerprint);
 }
 
 // Whether the edited job file at m.job_path computes what the run's copy

@@ -28,6 +28,7 @@
 #include "coordinator/run/shard_scheduler.h"
 #include "coordinator/run/transport_factory.h"
 #include "coordinator/rundir/run_journal.h"
+#include "coordinator/rundir/stored_partial.h"
 
 namespace fanfold {
 namespace {
@@ -110,8 +111,17 @@ void RunEngine::Prepare() {
 Status RunEngine::Reload() {
   for (uint32_t s : in_.reused) {
     std::string bytes;
+    PartialHeader h;
     Status st = dir_.LoadPartial(s, &bytes);
-    if (st.ok()) st = merger_.Add(s, std::move(bytes));
+    if (st.ok()) st = DecodePartialHeader(bytes, &h);  // checksum included
+    // A partial reused by `refresh` was computed when its shard had another
+    // index; its identity, checked here, is what ties it to shard s, so the
+    // merger (which checks the index) is handed its header with s's index.
+    if (st.ok())
+      if (std::string why = StoredPartialMismatch(h, list_.shards[s], plan_.fingerprint); !why.empty())
+        st = Status::Corrupt(why);
+    h.shard_index = s;
+    if (st.ok()) st = merger_.Add(s, std::move(bytes), &h);
     if (!st.ok()) return st.WithContext("reading the committed partial of shard " + std::to_string(s));
   }
   return Status::Ok();
@@ -180,7 +190,7 @@ void RunEngine::Tally() {
 Status RunEngine::Stop() {
   dir_.StageJournal(InterruptedEventLine(WallNanos()));
   (void)dir_.Commit();
-  summary_.shards_saved = dir_.committed_count();
+  summary_.shards_saved = dir_.saved_shard_count();
   for (const auto& line : FormatRunSummary(summary_, list_)) Note(line);
   Note("interrupted; finished shards are saved. To finish the run: fanfold resume " + dir_.path());
   PrintQuietEssentials();

@@ -93,12 +93,24 @@ Result<std::unique_ptr<RunDirectory>> RunDirectory::Create(const std::string& pa
   if (!e.ok()) return e.ToStatus("create", partials);
   FF_RETURN_IF_ERROR(
       WriteFileDurably(platform, (fs::path(path) / "run.json").string(), EncodeManifest(manifest), AtomicFilePolicy()));
+  dir->UseSlots(manifest);
   return dir;
 }
 
 Status RunDirectory::RewriteManifest(const RunManifest& manifest) {
-  return WriteFileDurably(platform_, (fs::path(path_) / "run.json").string(), EncodeManifest(manifest),
-                          AtomicFilePolicy());
+  if (!staged_.empty()) return Status::Internal("run.json rewritten with partials staged");
+  FF_RETURN_IF_ERROR(WriteFileDurably(platform_, (fs::path(path_) / "run.json").string(), EncodeManifest(manifest),
+                                      AtomicFilePolicy()));
+  UseSlots(manifest);
+  return Status::Ok();
+}
+
+uint32_t RunDirectory::FirstUnusedSlot() const { return index_.empty() ? 0 : index_.rbegin()->first + 1; }
+
+size_t RunDirectory::saved_shard_count() const {
+  size_t n = 0;
+  for (uint32_t slot : slots_) n += index_.count(slot);
+  return n;
 }
 
 Result<std::unique_ptr<RunDirectory>> RunDirectory::Open(const std::string& path, RunManifest* manifest,
@@ -116,6 +128,7 @@ Result<std::unique_ptr<RunDirectory>> RunDirectory::Open(const std::string& path
   *manifest = std::move(m.value());
   (void)platform.CreateDirectories((fs::path(path) / "partials").string());  // a missing one is just empty
   std::unique_ptr<RunDirectory> dir(new RunDirectory(platform, path, std::move(*lock)));
+  dir->UseSlots(*manifest);
   dir->IndexPacks();
   return dir;
 }
@@ -153,12 +166,12 @@ void RunDirectory::IndexPacks() {
       while (size - off >= kFrameBytes && file->ReadAt(off, kFrameBytes, frame).ok()) {
         ByteReader r(std::string_view(frame, kFrameBytes));
         uint32_t magic = r.U32();
-        uint32_t shard = r.U32();
+        uint32_t slot = r.U32();
         uint64_t length = r.U64();
         uint64_t check = r.U64();
         if (magic != kPackMagic || check != XXH3_64bits(frame, 16) || length > size - off - kFrameBytes)
           break;  // a torn or damaged frame: the rest of this pack is unreadable
-        index_[shard] = Location{seq, off + kFrameBytes, length};
+        index_[slot] = Location{seq, off + kFrameBytes, length};
         off += kFrameBytes + length;
       }
     }
@@ -178,14 +191,14 @@ Status RunDirectory::StagePartial(uint32_t shard, std::string_view bytes) {
   ByteWriter w(&stage_buffer_);
   const size_t frame_at = stage_buffer_.size();
   w.U32(kPackMagic);
-  w.U32(shard);
+  w.U32(SlotOf(shard));
   w.U64(bytes.size());
   w.U64(XXH3_64bits(stage_buffer_.data() + frame_at, 16));
   // A large partial is written straight from its own bytes, not copied.
   const bool direct = bytes.size() >= kStageBufferBytes;
   if (!direct) w.Bytes(bytes);
   if (staged_.empty() && journal_lines_.empty()) first_staged_ns_ = platform_.MonotonicNanos();
-  staged_.push_back({shard, Location{next_pack_, pack_size_ + kFrameBytes, bytes.size()}});
+  staged_.push_back({SlotOf(shard), Location{next_pack_, pack_size_ + kFrameBytes, bytes.size()}});
   pack_size_ += kFrameBytes + bytes.size();
   if (direct) {
     FF_RETURN_IF_ERROR(FlushStaged());
@@ -231,7 +244,7 @@ Status RunDirectory::Commit() {
       if (!pack->renamed()) staged_.clear();
       return s;
     }
-    for (const auto& [shard, loc] : staged_) index_[shard] = loc;
+    for (const auto& [slot, loc] : staged_) index_[slot] = loc;
     staged_.clear();
     ++next_pack_;
   }
@@ -284,20 +297,21 @@ Status RunDirectory::ReadRange(const std::string& path, uint64_t offset, uint64_
 
 Status RunDirectory::LoadPartial(uint32_t shard, std::string* out) const {
   out->clear();
-  auto it = index_.find(shard);
+  auto it = index_.find(SlotOf(shard));
   if (it == index_.end()) return Status::Ok();
   return ReadRange(PackPath(it->second.pack), it->second.offset, it->second.length, out);
 }
 
 std::string RunDirectory::PartialFile(uint32_t shard) const {
-  auto it = index_.find(shard);
+  auto it = index_.find(SlotOf(shard));
   return it == index_.end() ? std::string() : PackPath(it->second.pack);
 }
 
 Status RunDirectory::LoadStagedOrCommitted(uint32_t shard, std::string* out) const {
   const uint64_t written = pack_size_ - stage_buffer_.size();  // bytes of the batch already in its file
+  const uint32_t slot = SlotOf(shard);
   for (const auto& [s, loc] : staged_) {
-    if (s != shard) continue;
+    if (s != slot) continue;
     if (loc.offset >= written) {
       out->assign(stage_buffer_, loc.offset - written, loc.length);
       return Status::Ok();
@@ -307,7 +321,7 @@ Status RunDirectory::LoadStagedOrCommitted(uint32_t shard, std::string* out) con
   return LoadPartial(shard, out);
 }
 
-void RunDirectory::DiscardPartial(uint32_t shard) { index_.erase(shard); }
+void RunDirectory::DiscardPartial(uint32_t shard) { index_.erase(SlotOf(shard)); }
 
 Status RunDirectory::WriteFile(const std::string& name, std::string_view data) const {
   return WriteFileDurably(platform_, (fs::path(path_) / name).string(), data, AtomicFilePolicy());

@@ -16,8 +16,13 @@
 // the commit timer go through a Platform (default: the real OS; tests pass a
 // MemoryPlatform). Owned by the coordinator thread; not thread-safe.
 //
+// Partials are keyed on disk by the shard's slot (RunManifest::slots), not
+// its index: `refresh` re-sorts the shard list, and a reused shard keeps its
+// slot. The public methods below take shard indices and map them through the
+// manifest's slots (identity for run directories without slots).
+//
 // Pack file: a sequence of entries, each
-//   u32 magic "FFPK", u32 shard index, u64 partial length,
+//   u32 magic "FFPK", u32 slot, u64 partial length,
 //   u64 XXH3-64 of those 16 bytes, then the encoded partial (which carries
 //   its own checksum, docs/partial-state.md).
 // Readers stop at the first entry whose frame does not check out; when a
@@ -63,8 +68,12 @@ class RunDirectory {
 
   // Replaces run.json durably (temp, sync, rename, directory sync): `resume`
   // records the new identity of a shard file that changed, so it is
-  // recomputed once, not on every later resume.
+  // recomputed once, not on every later resume; `refresh` writes the new
+  // shard list and slots. Later calls map shards through its slots.
+  // REQUIRES: nothing staged (Commit() first).
   Status RewriteManifest(const RunManifest& manifest);
+  // The lowest slot above every slot with a committed partial (0 if none).
+  uint32_t FirstUnusedSlot() const;
 
   // Appends shard's partial to the batch's temporary pack (through a buffer
   // of up to kStageBufferBytes, so tiny partials cost no system call each);
@@ -86,8 +95,11 @@ class RunDirectory {
   // Forgets shard's committed partial (a corrupt or stale one); a later
   // commit of the shard supersedes it on disk too.
   void DiscardPartial(uint32_t shard);
-  // Number of shards with a committed partial.
+  // Number of slots with a committed partial (those of shards a `refresh`
+  // dropped or replaced included, until compacted away).
   size_t committed_count() const { return index_.size(); }
+  // Number of the manifest's shards with a committed partial.
+  size_t saved_shard_count() const;
 
   // Atomically writes a file at the top of the run directory.
   Status WriteFile(const std::string& name, std::string_view data) const;
@@ -108,7 +120,11 @@ class RunDirectory {
   Platform& platform_;
   std::string path_;
   std::unique_ptr<FileLock> lock_;
-  std::map<uint32_t, Location> index_;  // committed partials by shard
+  // Takes the manifest's slots (shard index -> slot).
+  void UseSlots(const RunManifest& manifest) { slots_ = manifest.AllSlots(); }
+  uint32_t SlotOf(uint32_t shard) const { return shard < slots_.size() ? slots_[shard] : shard; }
+  std::vector<uint32_t> slots_;         // by shard index
+  std::map<uint32_t, Location> index_;  // committed partials by slot
   uint64_t next_pack_ = 1;
   static constexpr size_t kStageBufferBytes = size_t{1} << 20;
   // Writes the stage buffer to the temporary pack; on failure drops the
@@ -122,7 +138,7 @@ class RunDirectory {
   std::unique_ptr<StagedFile> pack_;    // the batch's temporary pack, or null
   uint64_t pack_size_ = 0;              // bytes staged in it, buffered ones included
   std::string stage_buffer_;            // its last bytes, not yet written
-  std::vector<std::pair<uint32_t, Location>> staged_;
+  std::vector<std::pair<uint32_t, Location>> staged_;  // by slot
   std::vector<std::string> journal_lines_;
   // Until this process's first journal append: whether the journal may end
   // in a torn line (a crash mid-append) that the next line must not join,

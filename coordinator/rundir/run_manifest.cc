@@ -1,5 +1,7 @@
 #include "coordinator/rundir/run_manifest.h"
 
+#include <algorithm>
+
 #include <nlohmann/json.hpp>
 
 #include "common/base/cell_text.h"
@@ -28,14 +30,16 @@ std::string EncodeManifest(const RunManifest& m) {
   field("plan", m.fingerprint);
   field("plan_text", m.plan_text);
   field("created", m.created_utc);
+  out += " \"generation\": " + std::to_string(m.generation) + ",\n";
   out += " \"attempts\": " + std::to_string(m.attempts) + ",\n \"shard_time_limit_ms\": " +
          std::to_string(m.shard_time_limit_ms) + ",\n";
   out += " \"shards\": [";
   bool first = true;
-  for (const Shard& s : m.shards.shards) {
+  for (size_t i = 0; i < m.shards.shards.size(); ++i) {
+    const Shard& s = m.shards.shards[i];
     out += first ? "\n  {\"index\": " : ",\n  {\"index\": ";
     first = false;
-    out += std::to_string(s.index) + ", \"path\": ";
+    out += std::to_string(s.index) + ", \"slot\": " + std::to_string(m.SlotOf(i)) + ", \"path\": ";
     AppendJsonString(s.path, &out);
     out += ", \"size\": " + std::to_string(s.file_size) + ", \"mtime_ns\": " + std::to_string(s.mtime_ns) +
            ", \"compression\": ";
@@ -66,6 +70,8 @@ Result<RunManifest> DecodeManifest(const std::string& text, const std::string& w
     if (doc.contains("attempts")) m.attempts = doc.at("attempts").get<uint32_t>();
     if (doc.contains("shard_time_limit_ms")) m.shard_time_limit_ms = doc.at("shard_time_limit_ms").get<uint64_t>();
     if (!FormatFromText(m.format, &m.shards.format)) return bad("unknown format '" + m.format + "'");
+    if (doc.contains("generation")) m.generation = doc.at("generation").get<uint32_t>();
+    bool any_slot = false;
     for (const json& j : doc.at("shards")) {
       Shard s;
       s.index = j.at("index").get<uint32_t>();
@@ -79,10 +85,24 @@ Result<RunManifest> DecodeManifest(const std::string& text, const std::string& w
         s.length = j.at("length").get<uint64_t>();
       }
       if (s.index != m.shards.shards.size()) return bad("shard indices out of order");
+      // Absent from run directories written before `refresh`: slot = index.
+      const bool has_slot = j.contains("slot");
+      if (has_slot != any_slot && !m.shards.shards.empty()) return bad("some shards have a slot and some do not");
+      any_slot = has_slot;
+      if (has_slot) m.slots.push_back(j.at("slot").get<uint32_t>());
       m.shards.shards.push_back(s);
     }
+    std::vector<uint32_t> sorted = m.slots;
+    std::sort(sorted.begin(), sorted.end());
+    if (std::adjacent_find(sorted.begin(), sorted.end()) != sorted.end()) return bad("two shards share a slot");
     return m;
   });
+}
+
+std::vector<uint32_t> RunManifest::AllSlots() const {
+  std::vector<uint32_t> out(shards.shards.size());
+  for (size_t i = 0; i < out.size(); ++i) out[i] = SlotOf(i);
+  return out;
 }
 
 }  // namespace fanfold

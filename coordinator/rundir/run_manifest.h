@@ -27,6 +27,18 @@ struct RunManifest {
   uint32_t attempts = 3;              // --attempts of `run`: what `resume` uses unless told
   uint64_t shard_time_limit_ms = 0;   // --shard-time-limit of `run` (0 = none), likewise
   ShardList shards;
+  // Each shard's slot: the key of its partial in the packs (see
+  // run_directory.h). Slots outlive shard indices: `refresh` re-sorts the
+  // shard list, so a shard's index moves, but a reused shard keeps its slot
+  // and a new or changed one gets a slot never used before. Empty = slot i
+  // for shard i (run directories written before `refresh` existed).
+  std::vector<uint32_t> slots;
+  uint32_t generation = 1;  // 1 for `run`; each `refresh` adds one
+
+  // The slot of shard i. REQUIRES: i < shards.shards.size().
+  uint32_t SlotOf(size_t i) const { return slots.empty() ? static_cast<uint32_t>(i) : slots[i]; }
+  // One slot per shard (slots filled in if empty).
+  std::vector<uint32_t> AllSlots() const;
 };
 
 std::string EncodeManifest(const RunManifest& m);

@@ -103,6 +103,47 @@ TEST_CASE("run directory: committed partials survive a reopen") {
   CHECK(Load(*d, 4).empty());
 }
 
+// Intent: partials are keyed on disk by slot: after run.json maps the shards
+// to other slots (a refresh re-sorted them), each shard reads the partial of
+// its slot, the frames carry slots (the layout of docs/run-directory.md), and
+// a reopen maps through the manifest's slots again.
+TEST_CASE("run directory: shards reach their partials through their slots") {
+  RunDirFixture f;
+  RunManifest m;
+  m.format = "ndjson";
+  m.fingerprint = "0123456789abcdef";
+  m.shards.shards.resize(2);
+  m.shards.shards[1].index = 1;
+  {
+    auto created = RunDirectory::Create(f.path, m, true);
+    REQUIRE(created.ok());
+    auto& d = *created;
+    REQUIRE(d->StagePartial(0, "zero").ok());
+    REQUIRE(d->StagePartial(1, "one").ok());
+    REQUIRE(d->Commit().ok());
+    // Refreshed: a new shard 0 (slot 2) sorts before the old two (slots 0, 1).
+    m.shards.shards.resize(3);
+    m.shards.shards[2].index = 2;
+    m.slots = {2, 0, 1};
+    REQUIRE(d->RewriteManifest(m).ok());
+    CHECK(d->FirstUnusedSlot() == 2);
+    CHECK(Load(*d, 1) == "zero");
+    CHECK(Load(*d, 2) == "one");
+    CHECK(Load(*d, 0).empty());
+    CHECK(d->saved_shard_count() == 2);
+    REQUIRE(d->StagePartial(0, "new").ok());
+    REQUIRE(d->Commit().ok());
+  }
+  std::ifstream in(f.Pack(2), std::ios::binary);
+  std::string pack((std::istreambuf_iterator<char>(in)), std::istreambuf_iterator<char>());
+  CHECK(pack == Frame(2, 3) + "new");
+  auto d = f.Open();
+  CHECK(Load(*d, 0) == "new");
+  CHECK(Load(*d, 1) == "zero");
+  CHECK(Load(*d, 2) == "one");
+  CHECK(d->FirstUnusedSlot() == 3);
+}
+
 // Intent: a shard staged but not committed is readable through LoadStagedOrCommitted only, and gone after a crash.
 TEST_CASE("run directory: staged partials are not committed ones") {
   RunDirFixture f;

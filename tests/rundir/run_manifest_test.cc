@@ -42,7 +42,7 @@ TEST_CASE("run_manifest: encode and decode round trip") {
   m.shards.shards[2].length = 4096;
   const std::string text = EncodeManifest(m);
   CHECK(nlohmann::json::parse(text, nullptr, false).is_object());
-  CHECK(std::count(text.begin(), text.end(), '\n') == 15);  // "{", 8 fields, "\"shards\": [", 3 shards, "]", "}"
+  CHECK(std::count(text.begin(), text.end(), '\n') == 16);  // "{", 9 fields, "\"shards\": [", 3 shards, "]", "}"
   Result<RunManifest> back = DecodeManifest(text, "run.json");
   REQUIRE(back.ok());
   CHECK(back->job_path == m.job_path);
@@ -62,10 +62,45 @@ TEST_CASE("run_manifest: encode and decode round trip") {
     CHECK(b.offset == a.offset);
     CHECK(b.length == a.length);
   }
+  CHECK(back->generation == 1);
+  CHECK(back->slots == std::vector<uint32_t>{0, 1, 2});  // written out even when they equal the indices
   m.shards.shards.clear();
   Result<RunManifest> empty = DecodeManifest(EncodeManifest(m), "run.json");
   REQUIRE(empty.ok());
   CHECK(empty->shards.shards.empty());
+}
+
+// Intent: a refreshed run's slots and generation round trip; slots missing
+// from an older run.json mean slot = index; two shards on one slot, or slots
+// on some shards only, are refused as a damaged manifest.
+TEST_CASE("run_manifest: slots and generation") {
+  RunManifest m;
+  m.format = "ndjson";
+  m.generation = 4;
+  m.shards.shards.resize(2);
+  m.shards.shards[0].path = "/a";
+  m.shards.shards[1].index = 1;
+  m.shards.shards[1].path = "/b";
+  m.slots = {7, 3};
+  Result<RunManifest> back = DecodeManifest(EncodeManifest(m), "run.json");
+  REQUIRE(back.ok());
+  CHECK(back->generation == 4);
+  CHECK(back->slots == std::vector<uint32_t>{7, 3});
+  CHECK(back->SlotOf(0) == 7);
+
+  const std::string head = R"({"fanfold_run": 1, "job": "/j.json", "format": "ndjson", "plan": "0123456789abcdef",
+      "plan_text": "x", "created": "2026-12-01T20:40:00Z", "shards": [)";
+  const std::string a = R"({"index": 0, "path": "/a", "size": 1, "mtime_ns": 2, "compression": "none")";
+  const std::string b = R"({"index": 1, "path": "/b", "size": 1, "mtime_ns": 2, "compression": "none")";
+  Result<RunManifest> old = DecodeManifest(head + a + "}," + b + "}]}", "run.json");
+  REQUIRE(old.ok());
+  CHECK(old->slots.empty());
+  CHECK(old->AllSlots() == std::vector<uint32_t>{0, 1});
+  Result<RunManifest> shared = DecodeManifest(head + a + R"(, "slot": 5},)" + b + R"(, "slot": 5}]})", "run.json");
+  REQUIRE(!shared.ok());
+  CHECK(shared.status().message().find("two shards share a slot") != std::string::npos);
+  Result<RunManifest> mixed = DecodeManifest(head + a + R"(, "slot": 5},)" + b + "}]}", "run.json");
+  CHECK(!mixed.ok());
 }
 
 }  // namespace
