@@ -7,6 +7,7 @@
 #include <CLI/CLI.hpp>
 
 #include "coordinator/cli/numeric_flag.h"
+#include "coordinator/cli/refresh_command.h"
 #include "coordinator/cli/report_command.h"
 #include "coordinator/cli/scale_command.h"
 #include "coordinator/cli/stderr_flags.h"
@@ -81,8 +82,10 @@ class RunSubcommand final : public Subcommand {
   StderrFlags stderr_;      // --progress, --progress-every, --log-level
 };
 
-// `fanfold resume RUN_DIR`: run's options, fewer of them on the command line.
-class ResumeSubcommand final : public Subcommand {
+// `fanfold resume RUN_DIR` and `fanfold refresh RUN_DIR`: run's options,
+// fewer of them on the command line.
+template <CommandOutcome (*kCommand)(const RunOptions&)>
+class SavedRunSubcommand final : public Subcommand {
  public:
   void AddFlags(CLI::App* cmd) override {
     cmd->add_option("RUN_DIR", options_.run_dir, "the run directory that `fanfold run` printed")->required();
@@ -104,10 +107,10 @@ class ResumeSubcommand final : public Subcommand {
     FF_RETURN_IF_ERROR(ParseTimeLimitIfGiven(time_limit_, &options_.shard_time_limit_ms));
     return ParseWholeIfGiven(kWorkersFlag, workers_, &options_.workers);
   }
-  CommandOutcome Run() override { return ResumeRun(options_); }
+  CommandOutcome Run() override { return kCommand(options_); }
 
  private:
-  RunOptions options_;  // what ResumeRun gets (job_path unused: the run names its job)
+  RunOptions options_;  // what the command gets (job_path unused: the run names its job)
   std::string attempts_;    // --attempts as typed ("" = what the run used)
   std::string time_limit_;  // --shard-time-limit as typed ("" = what the run used)
   std::string workers_;  // -j/--workers as typed ("" = one per core)
@@ -194,7 +197,9 @@ constexpr SubcommandRow kRows[] = {
     {"run", "Run a job and print (or write) its result table.",
      "fanfold run jobs/district_hourly.json -j 2 -o hourly.csv", &Make<RunSubcommand>},
     {"resume", "Finish a run: process only its failed, missing or changed shards.",
-     "fanfold resume fanfold-runs/district_hourly", &Make<ResumeSubcommand>},
+     "fanfold resume fanfold-runs/district_hourly", &Make<SavedRunSubcommand<&ResumeRun>>},
+    {"refresh", "Bring a run up to date: reuse unchanged shards, compute new or changed ones, drop vanished ones.",
+     "fanfold refresh fanfold-runs/district_hourly", &Make<SavedRunSubcommand<&RefreshRun>>},
     {"check", "Validate a job, sample its first records for misspelt fields; print its plan and shards; run nothing.",
      "fanfold check jobs/district_hourly.json", &Make<CheckSubcommand>},
     {"scale", "Time a job at several worker counts: speedup, efficiency, serial fraction.",

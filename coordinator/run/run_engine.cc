@@ -254,6 +254,12 @@ Status RunEngine::Summarise(const Status& written) {
 
 void RunEngine::PrintNotes() const {
   for (const auto& line : FormatRunSummary(summary_, list_)) Note(line);
+  if (in_.dropped > 0) {
+    std::string files;
+    for (const std::string& p : in_.dropped_paths) files += (files.empty() ? "'" : ", '") + p + "'";
+    Note("dropped " + GroupedInteger(in_.dropped) + (in_.dropped == 1 ? " shard" : " shards") +
+         " whose file is gone: " + files);
+  }
   PrintQuietEssentials();
   const MergeTotals& totals = merger_.totals();
   for (size_t i = 0; i < plan_.lookups.size() && totals.lookup_counts_known; ++i) {

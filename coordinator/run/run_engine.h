@@ -31,7 +31,12 @@ struct RunInput {
   RunDirectory* dir = nullptr;
   std::vector<uint32_t> pending;  // shards to process
   std::vector<uint32_t> reused;   // shards whose committed partial is merged as it is
-  const char* mode = "run";       // "run" or "resume", for the journal
+  const char* mode = "run";       // "run", "resume" or "refresh", for the journal
+  uint32_t generation = 1;        // run.json's generation (1 until a refresh)
+  // refresh: the shards of the previous list whose file is gone (their
+  // count) and those files, for the notes and summary.json.
+  uint64_t dropped = 0;
+  std::vector<std::string> dropped_paths;
   // The data's field names from the sample taken before the run (may be
   // empty): the end-of-run warnings suggest the nearest ones.
   std::vector<std::string> names_seen;

@@ -328,3 +328,16 @@ Status RunDirectory::WriteFile(const std::string& name, std::string_view data) c
 }
 
 }  // namespace fanfold
+
+namespace fanfold {
+
+Status RunDirectory::RemoveFile(const std::string& name) const {
+  const std::string file = (fs::path(path_) / name).string();
+  if (!platform_.Exists(file)) return Status::Ok();
+  OsError e = platform_.Remove(file);
+  if (!e.ok()) return e.ToStatus("remove", file);
+  e = platform_.SyncDirectory(path_);
+  return e.ok() ? Status::Ok() : e.ToStatus("fsync", path_);
+}
+
+}  // namespace fanfold

@@ -103,6 +103,10 @@ class RunDirectory {
 
   // Atomically writes a file at the top of the run directory.
   Status WriteFile(const std::string& name, std::string_view data) const;
+  // Removes a file at the top of the run directory (missing is fine) and
+  // syncs the directory, so the removal survives a crash: `refresh` removes
+  // summary.json first, and a refresh cut short leaves an unfinished run.
+  Status RemoveFile(const std::string& name) const;
 
  private:
   RunDirectory(Platform& platform, std::string path, std::unique_ptr<FileLock> lock);

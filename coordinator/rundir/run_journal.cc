@@ -28,8 +28,20 @@ const char* OutcomeName(AttemptRecord::Outcome o) {
 // the order below. Both orders are what journals on disk already hold.
 std::string StartEventLine(const std::string& mode, int64_t pid, int workers, uint64_t pending, uint64_t reused,
                            uint64_t time_ns) {
-  return json{{"event", "start"}, {"mode", mode},     {"pid", pid},         {"workers", workers},
+  return json{{"event", "start"},   {"mode", mode},     {"pid", pid},        {"workers", workers},
               {"pending", pending}, {"reused", reused}, {"time_ns", time_ns}}
+      .dump();
+}
+
+std::string GenerationEventLine(const GenerationEntry& g) {
+  return json{{"event", "generation"},
+              {"generation", g.generation},
+              {"time_ns", g.time_ns},
+              {"reused", g.reused},
+              {"computed", g.computed},
+              {"dropped", g.dropped},
+              {"computed_paths", g.computed_paths},
+              {"dropped_paths", g.dropped_paths}}
       .dump();
 }
 
@@ -151,23 +163,51 @@ void ParseJournal(const std::string& text, const std::string& where, std::vector
   }
 }
 
+std::vector<GenerationEntry> ParseGenerations(const std::string& text) {
+  std::vector<GenerationEntry> out;
+  bool open = false;  // the last generation has not seen its finish
+  size_t pos = 0;
+  while (pos < text.size()) {
+    size_t nl = text.find('\n', pos);
+    const std::string line = text.substr(pos, nl == std::string::npos ? std::string::npos : nl - pos);
+    pos = nl == std::string::npos ? text.size() : nl + 1;
+    json j = json::parse(line, nullptr, false);
+    if (j.is_discarded() || !j.is_object()) continue;  // ParseJournal warns about these
+    const std::string event = JsonValueOr<std::string>(j, "event", "");
+    if (event == "start" && out.empty() && JsonValueOr<std::string>(j, "mode", "") == "run") {
+      GenerationEntry g;
+      g.time_ns = JsonValueOr<uint64_t>(j, "time_ns", 0);
+      g.computed = JsonValueOr<uint64_t>(j, "pending", 0);
+      out.push_back(std::move(g));
+      open = true;
+    } else if (event == "generation") {
+      GenerationEntry g;
+      g.generation = JsonValueOr<uint32_t>(j, "generation", static_cast<uint32_t>(out.size() + 1));
+      g.time_ns = JsonValueOr<uint64_t>(j, "time_ns", 0);
+      g.reused = JsonValueOr<uint64_t>(j, "reused", 0);
+      g.computed = JsonValueOr<uint64_t>(j, "computed", 0);
+      g.dropped = JsonValueOr<uint64_t>(j, "dropped", 0);
+      g.computed_paths = JsonValueOr<std::vector<std::string>>(j, "computed_paths", {});
+      g.dropped_paths = JsonValueOr<std::vector<std::string>>(j, "dropped_paths", {});
+      out.push_back(std::move(g));
+      open = true;
+    } else if (event == "finish" && open) {
+      out.back().end_ns = JsonValueOr<uint64_t>(j, "time_ns", 0);
+      open = false;
+    }
+  }
+  return out;
+}
+
 json AttemptEntryJson(const AttemptEntry& a) {
-  json j = {{"shard", a.shard},
-            {"attempt", a.attempt},
-            {"worker", a.worker},
-            {"outcome", a.outcome},
-            {"final", a.final},
-            {"start_ns", a.start_ns},
-            {"end_ns", a.end_ns},
-            {"read_ns", a.read_ns},
-            {"parse_ns", a.parse_ns},
-            {"aggregate_ns", a.aggregate_ns},
-            {"encode_ns", a.encode_ns},
-            {"bytes_in", a.bytes_in},
-            {"bytes_raw", a.bytes_raw},
-            {"records", a.records},
-            {"kept", a.kept},
-            {"malformed", a.malformed}};
+  json j = {{"shard", a.shard},         {"attempt", a.attempt},
+            {"worker", a.worker},       {"outcome", a.outcome},
+            {"final", a.final},         {"start_ns", a.start_ns},
+            {"end_ns", a.end_ns},       {"read_ns", a.read_ns},
+            {"parse_ns", a.parse_ns},   {"aggregate_ns", a.aggregate_ns},
+            {"encode_ns", a.encode_ns}, {"bytes_in", a.bytes_in},
+            {"bytes_raw", a.bytes_raw}, {"records", a.records},
+            {"kept", a.kept},           {"malformed", a.malformed}};
   if (a.done()) j["phases"] = a.phases_measured ? "measured" : "estimated";
   if (!a.done()) j["message"] = a.message;
   return j;

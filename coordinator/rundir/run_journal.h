@@ -1,5 +1,5 @@
 // RunJournal: the one home of journal.ndjson's schema — the events a
-// coordinator appends (start, attempt, interrupted, finish; one JSON object a
+// coordinator appends (generation, start, attempt, interrupted, finish; one JSON object a
 // line, keys listed in docs/run-directory.md), how each line is written and
 // how the journal is read back. Field names appear only in run_journal.cc.
 // The coordinator writes (through RunDirectory::StageJournal); `report` and
@@ -64,6 +64,21 @@ struct RunSession {
   bool finished = false;
 };
 
+// One generation of a run: the first `run` is generation 1, each `refresh`
+// starts the next ("generation" event). Written by `refresh`, read by `report`.
+struct GenerationEntry {
+  uint32_t generation = 1;
+  uint64_t time_ns = 0;      // when it started (wall clock, ns since the Unix epoch)
+  uint64_t end_ns = 0;       // the first "finish" after it; 0 if none (interrupted, or running)
+  uint64_t reused = 0;       // shards whose committed partial was kept
+  uint64_t computed = 0;     // shards new or changed, to compute
+  uint64_t dropped = 0;      // shards of the previous list whose file is gone
+  std::vector<std::string> computed_paths;  // their files (a cut file once); generation 1: none listed
+  std::vector<std::string> dropped_paths;
+
+  double seconds() const { return end_ns > time_ns ? static_cast<double>(end_ns - time_ns) / 1e9 : 0.0; }
+};
+
 // --- Writing: each returns one line, without its newline. ---
 
 // A coordinator starts (or resumes) work: its mode ("run"/"resume"), pid,
@@ -76,6 +91,8 @@ std::string StartEventLine(const std::string& mode, int64_t pid, int workers, ui
 // hand, not through a json object: on thousands of tiny shards building
 // that object cost more than the rest of the journal.
 std::string AttemptEventLine(const AttemptRecord& r);
+// A refresh starts generation g.generation (end_ns is not written).
+std::string GenerationEventLine(const GenerationEntry& g);
 // The session stopped on a signal.
 std::string InterruptedEventLine(uint64_t time_ns);
 // The run finished; `failed` shards were quarantined or rejected.
@@ -89,6 +106,11 @@ std::string FinishEventLine(uint64_t time_ns, uint64_t failed);
 // Unknown events (from a newer fanfold) are ignored.
 void ParseJournal(const std::string& text, const std::string& where, std::vector<RunSession>* sessions,
                   std::vector<AttemptEntry>* attempts, std::vector<std::string>* warnings);
+
+// The run's generations in journal order: generation 1 from the first
+// "start" of mode "run" (its computed = that session's pending shards), then
+// one per "generation" event; each ends at the first "finish" after it.
+std::vector<GenerationEntry> ParseGenerations(const std::string& text);
 
 // An attempt's fields under their journal names, every count present (zero
 // when not done) and `message` iff not done: the base of `report --timings`.

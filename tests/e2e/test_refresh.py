@@ -1,0 +1,238 @@
+"""`fanfold refresh RUN_DIR` (docs/run-directory.md, "What `refresh` does"):
+
+* hourly files added, removed, modified (a line appended), and added and
+  removed together: after each change the refresh's result file is
+  byte-identical to a `--fresh` run over the same files; the shards it
+  reused, computed and dropped are exactly the counts this script predicts
+  from the file lists (path, size, mtime_ns by os.stat), in summary.json and
+  in the journal's generation event; the dropped files are named on stderr
+  and in summary.json; the counts and sums equal an independent sqlite3
+  computation (Python's sqlite3 module over the records Python's json module
+  reads from the current files);
+* a planted partial of a dropped shard (another run directory's pack whose
+  entry for a live slot holds the dropped file's partial) never contributes:
+  it is discarded by name and the bytes stay those of `--fresh`;
+* an edit of the job's output alone (emit order and limit, a rows step) reruns
+  with every partial reused: no attempt in the journal after the generation
+  event, summary.json's processed bytes 0, and the output changes as asked;
+* a refresh while another process holds the run directory's lock is refused
+  with a clear message (exit status 3);
+* `run` on the run directory of the same plan suggests `refresh`.
+"""
+
+import fcntl
+import json
+import os
+import re
+import shutil
+import sqlite3
+
+import e2e_lib as lib
+
+HOURS = 14
+
+
+DECIMAL = re.compile(r"[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?")
+
+
+def number(v):
+    """What docs/measures.md says numeric measures take: a JSON number (not a bool) or a string that
+    is wholly a decimal number; None otherwise (and for NaN)."""
+    if isinstance(v, bool):
+        return None
+    if isinstance(v, str) and DECIMAL.fullmatch(v):
+        v = float(v)
+    if isinstance(v, (int, float)) and v == v:
+        return v
+    return None
+
+
+def records(paths):
+    """(district, power_w) of every record Python's json module reads as an object; power_w as
+    number() gives it, as fanfold's sum skips other values."""
+    out = []
+    for p in paths:
+        with open(p, "rb") as f:
+            for line in f:
+                try:
+                    r = json.loads(line)
+                except ValueError:
+                    continue
+                if not isinstance(r, dict):
+                    continue
+                d = r.get("district")
+                out.append((d if isinstance(d, str) else None, number(r.get("power_w"))))
+    return out
+
+
+def sqlite_reference(paths):
+    """{district: (count, sum of power_w)} by sqlite3: count(*) and total() per group."""
+    db = sqlite3.connect(":memory:")
+    db.execute("CREATE TABLE e (district TEXT, power_w REAL)")
+    db.executemany("INSERT INTO e VALUES (?, ?)", records(paths))
+    return {d: (n, w) for d, n, w in db.execute("SELECT district, count(*), total(power_w) FROM e GROUP BY district")}
+
+
+def identities(data):
+    out = {}
+    for name in os.listdir(data):
+        if name.endswith(".ndjson"):
+            p = os.path.join(data, name)
+            st = os.stat(p)
+            out[p] = (st.st_size, st.st_mtime_ns)
+    return out
+
+
+def predict(before, after):
+    """(reused, computed, dropped, dropped paths) of a refresh from the run's file list to the new one."""
+    reused = sum(1 for p, ident in after.items() if before.get(p) == ident)
+    dropped = sorted(p for p in before if p not in after)
+    return reused, len(after) - reused, len(dropped), dropped
+
+
+def journal_events(run_dir):
+    with open(os.path.join(run_dir, "journal.ndjson")) as f:
+        return [json.loads(line) for line in f if line.strip()]
+
+
+def main():
+    args = lib.parse_args(__doc__)
+    c = lib.Checks("test_refresh")
+    with lib.Env(args) as env:
+        pool = os.path.dirname(env.path("incoming", "x"))
+        data = os.path.dirname(env.path("logs", "x"))
+        env.generate(pool, "--shards", HOURS, "--records", 150, "--seed", 41, "--compress", "none")
+        hours = sorted(f for f in os.listdir(pool) if f.endswith(".ndjson"))
+        c.check(len(hours) == HOURS, "generated %d hours, want %d" % (len(hours), HOURS))
+
+        def add(i):
+            shutil.copy(os.path.join(pool, hours[i]), os.path.join(data, hours[i]))
+
+        for i in range(8):
+            add(i)
+        job_doc = {
+            "inputs": {"files": [os.path.join(data, "*.ndjson")]},
+            "group": ["{/district}"],
+            "measures": [{"name": "n", "fn": "count"}, {"name": "w", "fn": "sum", "of": "{/power_w}"}],
+            "emit": {"format": "csv"},
+        }
+        job = lib.write_job(env.path("job.json"), job_doc)
+        run_dir = env.path("runs", "r")
+        rc, _, err = env.fanfold_run("run", job, "--run-dir", run_dir, "-o", env.path("out0.csv"), "-j", 2)
+        c.check(rc == 0, "first run: exit %d: %s" % (rc, lib.tail(err)))
+        known = identities(data)
+
+        # `run` again on the same plan suggests refresh.
+        rc, _, err = env.fanfold_run("run", job, "--run-dir", run_dir)
+        c.check(rc == 2 and "fanfold refresh " + run_dir in err, "run on a finished run: exit %d: %s" % (rc, lib.tail(err)))
+
+        step = [0]
+
+        def refresh_and_check(label, expect_warning=None, predicted=None):
+            step[0] += 1
+            now = identities(data)
+            reused, computed, dropped, gone = predicted or predict(known, now)
+            out = env.path("refresh%d.csv" % step[0])
+            rc, _, err = env.fanfold_run("refresh", run_dir, "-o", out, "-j", 2)
+            c.check(rc == 0, "%s: refresh exit %d: %s" % (label, rc, lib.tail(err)))
+            fresh = env.path("fresh%d.csv" % step[0])
+            rc, _, ferr = env.fanfold_run("run", job, "--run-dir", env.path("runs", "fresh%d" % step[0]), "-o", fresh, "-q")
+            c.check(rc == 0, "%s: fresh run exit %d: %s" % (label, rc, lib.tail(ferr)))
+            with open(out, "rb") as a, open(fresh, "rb") as b:
+                c.check(a.read() == b.read(), "%s: refresh output differs from --fresh" % label)
+            with open(os.path.join(run_dir, "summary.json")) as f:
+                summary = json.load(f)
+            sh = summary["shards"]
+            c.check((sh["reused"], sh["processed"], sh["dropped"]) == (reused, computed, dropped),
+                    "%s: summary reused/processed/dropped %r, predicted %r" %
+                    (label, (sh["reused"], sh["processed"], sh["dropped"]), (reused, computed, dropped)))
+            c.check(summary["dropped"] == gone, "%s: summary.json dropped %r, want %r" % (label, summary["dropped"], gone))
+            for p in gone:
+                c.check(p in err, "%s: stderr does not name the dropped file %s" % (label, p))
+            gen = [e for e in journal_events(run_dir) if e["event"] == "generation"][-1]
+            c.check((gen["reused"], gen["computed"], gen["dropped"]) == (reused, computed, dropped)
+                    and gen["generation"] == step[0] + 1 and summary["generation"] == step[0] + 1,
+                    "%s: journal generation event %r, predicted %r" % (label, gen, (reused, computed, dropped)))
+            if expect_warning:
+                c.check(expect_warning in err, "%s: no '%s' on stderr: %s" % (label, expect_warning, lib.tail(err)))
+            want = sqlite_reference(sorted(now))
+            rows = lib.read_rows(out, "csv")
+            got = {r["district"]: (r["n"], r["w"]) for r in rows}
+            c.check(set(got) == set(want), "%s: groups %r, sqlite3 %r" % (label, sorted(got, key=str), sorted(want, key=str)))
+            for d, (n, w) in want.items():
+                if d in got:
+                    c.check(got[d][0] == n and lib.rel_close(got[d][1], w, 1e-9),
+                            "%s: %r: fanfold %r, sqlite3 count(*), total() %r" % (label, d, got[d], (n, w)))
+            known.clear()
+            known.update(now)
+
+        add(8)
+        add(9)
+        refresh_and_check("added two hours")
+        os.remove(os.path.join(data, hours[3]))
+        refresh_and_check("removed one hour")
+        with open(os.path.join(data, hours[5]), "ab") as f:
+            f.write(b'{"ts":"2026-03-01T05:59:59.000Z","district":"Quillmarsh","power_w":61.5}\n')
+        refresh_and_check("appended a line to one hour")
+        add(10)
+        add(11)
+        os.remove(os.path.join(data, hours[0]))
+        os.remove(os.path.join(data, hours[1]))
+        refresh_and_check("added two, removed two")
+
+        # A planted partial of the dropped hour 0: another run directory over
+        # [incoming/h12, incoming/h13, logs/h00] puts hour 0 at slot 2, which
+        # hour 2 holds here; its pack, planted as the newest, must not count.
+        with open(os.path.join(run_dir, "run.json")) as f:
+            manifest = json.load(f)
+        slot_of = {s["path"]: s["slot"] for s in manifest["shards"]}
+        c.check(slot_of.get(os.path.join(data, hours[2])) == 2, "hour 2 keeps slot 2: %r" % slot_of)
+        add(0)
+        planted_job = lib.write_job(env.path("planted.json"), dict(job_doc, inputs={"files": [
+            os.path.join(pool, hours[12]), os.path.join(pool, hours[13]), os.path.join(data, hours[0])]}))
+        rc, _, err = env.fanfold_run("run", planted_job, "--run-dir", env.path("runs", "planted"), "-q", "-o",
+                                     env.path("planted.csv"))
+        c.check(rc == 0, "planting run: exit %d: %s" % (rc, lib.tail(err)))
+        os.remove(os.path.join(data, hours[0]))
+        shutil.copy(os.path.join(env.path("runs", "planted"), "partials", "pack-000001.ffpk"),
+                    os.path.join(run_dir, "partials", "pack-999999.ffpk"))
+        n = len(identities(data))
+        refresh_and_check("planted partial of a dropped hour", expect_warning="belongs to another shard",
+                          predicted=(n - 1, 1, 0, []))
+
+        # Output-only edits: order, limit and a rows step; no worker starts.
+        edited = dict(job_doc, rows={"add": [{"name": "mean_w", "expr": "w / n"}]},
+                      emit={"format": "csv", "order": [{"by": "n", "desc": True}], "limit": 3})
+        lib.write_job(job, edited)
+        out = env.path("edited.csv")
+        rc, _, err = env.fanfold_run("refresh", run_dir, "-o", out)
+        c.check(rc == 0 and "changed in what the plan does not cover" in err, "output-only edit: exit %d: %s" % (rc, lib.tail(err)))
+        events = journal_events(run_dir)
+        last_gen = max(i for i, e in enumerate(events) if e["event"] == "generation")
+        attempts = [e for e in events[last_gen:] if e["event"] == "attempt"]
+        starts = [e for e in events[last_gen:] if e["event"] == "start"]
+        c.check(not attempts and starts and starts[0]["pending"] == 0,
+                "output-only edit: %d attempts after the generation event, start %r" % (len(attempts), starts))
+        with open(os.path.join(run_dir, "summary.json")) as f:
+            summary = json.load(f)
+        c.check(summary["processed"]["bytes"]["compressed"] == 0 and summary["shards"]["processed"] == 0,
+                "output-only edit: summary processed %r" % summary["processed"])
+        rows = lib.read_rows(out, "csv")
+        want = sqlite_reference(sorted(identities(data)))
+        top = sorted(want.items(), key=lambda kv: -kv[1][0])[:3]
+        c.check([r["n"] for r in rows] == [n for _, (n, _) in top] and list(rows[0]) == ["district", "n", "w", "mean_w"],
+                "output-only edit: rows %r, sqlite3's top three by count %r" % (rows, top))
+        for r in rows:
+            c.check(lib.rel_close(r["mean_w"], r["w"] / r["n"], 1e-12), "mean_w %r" % r)
+
+        # The lock held by another process: refused, nothing changed.
+        with open(os.path.join(run_dir, "lock"), "a") as held:
+            fcntl.flock(held, fcntl.LOCK_EX)
+            rc, _, err = env.fanfold_run("refresh", run_dir)
+            fcntl.flock(held, fcntl.LOCK_UN)
+        c.check(rc == 3 and "in use by another fanfold process" in err, "locked refresh: exit %d: %s" % (rc, lib.tail(err)))
+    c.exit()
+
+
+if __name__ == "__main__":
+    main()
