@@ -10,6 +10,7 @@
 #include "coordinator/run/console_log.h"
 #include "coordinator/run/field_precheck.h"
 #include "coordinator/run/run_engine.h"
+#include "coordinator/run/run_summary.h"
 #include "coordinator/rundir/run_journal.h"
 #include "coordinator/rundir/shard_matcher.h"
 
@@ -128,7 +129,26 @@ CommandOutcome RefreshRun(const RunOptions& given) {
     std::cerr << "fanfold: refreshing " << o.run_dir << " (generation " << after.generation << "): " << in.reused.size()
               << " shards reused, " << in.pending.size() << " to compute, " << match.dropped.size() << " dropped\n";
   }
-  return ExecuteRun(in, o);
+  out = ExecuteRun(in, o);
+  if (!out.status.ok()) return out;
+  // The partials of dropped and replaced shards go last, once the new
+  // result is written: a kill during it costs nothing but the collection.
+  Result<RunDirectory::Compaction> c = dir.Compact();
+  if (!c.ok()) {
+    LogWarning("could not collect the unused partials in '" + dir.path() + "/partials' (" + c.status().message() +
+               "); the next refresh tries again");
+    return out;
+  }
+  if (c->packs_removed > 0) {
+    dir.StageJournal(
+        CompactEventLine(WallNanos(), c->packs_removed, c->packs_rewritten, c->partials_copied, c->bytes_freed));
+    if (Status s = dir.Commit(); !s.ok()) LogWarning(s.message());
+    if (!o.quiet)
+      LogInfo("unused partials collected: " + std::to_string(c->packs_removed) + " packs removed (" +
+              std::to_string(c->packs_rewritten) + " of them rewritten with their " +
+              std::to_string(c->partials_copied) + " live partials), " + Megabytes(c->bytes_freed) + " freed");
+  }
+  return out;
 }
 
 }  // namespace fanfold

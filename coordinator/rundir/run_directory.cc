@@ -1,5 +1,7 @@
 #include "coordinator/rundir/run_directory.h"
 
+#include <xxhash.h>
+
 #include <algorithm>
 #include <charconv>
 #include <cstdio>
@@ -7,8 +9,6 @@
 
 #include "common/base/byte_io.h"
 #include "common/port/file_util.h"
-
-#include <xxhash.h>
 
 namespace fs = std::filesystem;
 
@@ -119,8 +119,8 @@ Result<std::unique_ptr<RunDirectory>> RunDirectory::Open(const std::string& path
   std::string text;
   OsError e = platform.ReadFile(run_json, &text);
   if (!e.ok())
-    return Status::InvalidArgument("'" + path + "' is not a fanfold run directory (" +
-                                   e.ToStatus(run_json).message() + ")");
+    return Status::InvalidArgument("'" + path + "' is not a fanfold run directory (" + e.ToStatus(run_json).message() +
+                                   ")");
   Result<RunManifest> m = DecodeManifest(text, run_json);
   if (!m.ok()) return m.status();
   Result<std::unique_ptr<FileLock>> lock = Lock(platform, path);
@@ -179,7 +179,9 @@ void RunDirectory::IndexPacks() {
   }
 }
 
-Status RunDirectory::StagePartial(uint32_t shard, std::string_view bytes) {
+Status RunDirectory::StagePartial(uint32_t shard, std::string_view bytes) { return StageEntry(SlotOf(shard), bytes); }
+
+Status RunDirectory::StageEntry(uint32_t slot, std::string_view bytes) {
   if (!pack_) {
     Result<std::unique_ptr<StagedFile>> pack =
         StagedFile::Begin(platform_, PackPath(next_pack_), kPackPolicy, (fs::path(path_) / "partials").string());
@@ -191,14 +193,14 @@ Status RunDirectory::StagePartial(uint32_t shard, std::string_view bytes) {
   ByteWriter w(&stage_buffer_);
   const size_t frame_at = stage_buffer_.size();
   w.U32(kPackMagic);
-  w.U32(SlotOf(shard));
+  w.U32(slot);
   w.U64(bytes.size());
   w.U64(XXH3_64bits(stage_buffer_.data() + frame_at, 16));
   // A large partial is written straight from its own bytes, not copied.
   const bool direct = bytes.size() >= kStageBufferBytes;
   if (!direct) w.Bytes(bytes);
   if (staged_.empty() && journal_lines_.empty()) first_staged_ns_ = platform_.MonotonicNanos();
-  staged_.push_back({SlotOf(shard), Location{next_pack_, pack_size_ + kFrameBytes, bytes.size()}});
+  staged_.push_back({slot, Location{next_pack_, pack_size_ + kFrameBytes, bytes.size()}});
   pack_size_ += kFrameBytes + bytes.size();
   if (direct) {
     FF_RETURN_IF_ERROR(FlushStaged());
@@ -338,6 +340,81 @@ Status RunDirectory::RemoveFile(const std::string& name) const {
   if (!e.ok()) return e.ToStatus("remove", file);
   e = platform_.SyncDirectory(path_);
   return e.ok() ? Status::Ok() : e.ToStatus("fsync", path_);
+}
+
+}  // namespace fanfold
+
+namespace fanfold {
+
+Result<RunDirectory::Compaction> RunDirectory::Compact() {
+  if (pack_ || !staged_.empty() || !journal_lines_.empty())
+    return Status::Internal("run directory compacted with a batch open");
+  const std::string partials = (fs::path(path_) / "partials").string();
+  // Every committed pack, with its size and the live partials it holds.
+  struct PackUse {
+    uint64_t file_bytes = 0;
+    uint64_t live_bytes = 0;
+    std::vector<uint32_t> live;  // slots whose winning entry is here
+  };
+  std::map<uint64_t, PackUse> packs;
+  std::vector<std::string> names;
+  (void)platform_.ListDirectory(partials, &names);
+  for (const std::string& name : names) {
+    uint64_t seq = 0;
+    if (!ParsePackName(name, &seq)) continue;
+    std::unique_ptr<ReadableFile> file;
+    uint64_t size = 0;
+    if (platform_.OpenForRead(PackPath(seq), &file).ok() && file->Size(&size).ok()) packs[seq].file_bytes = size;
+  }
+  std::vector<uint32_t> live_slots = slots_;
+  std::sort(live_slots.begin(), live_slots.end());
+  for (uint32_t slot : live_slots) {
+    auto it = index_.find(slot);
+    if (it == index_.end() || !packs.count(it->second.pack)) continue;
+    PackUse& u = packs[it->second.pack];
+    u.live.push_back(slot);
+    u.live_bytes += kFrameBytes + it->second.length;
+  }
+  Compaction c;
+  std::vector<uint64_t> doomed;
+  std::vector<uint32_t> copy;
+  uint64_t freed = 0;
+  for (const auto& [seq, u] : packs) {
+    if (!u.live.empty() && u.live_bytes * 2 >= u.file_bytes) continue;  // mostly live: kept as it is
+    doomed.push_back(seq);
+    freed += u.file_bytes;
+    if (!u.live.empty()) ++c.packs_rewritten;
+    copy.insert(copy.end(), u.live.begin(), u.live.end());
+  }
+  if (doomed.empty()) return c;
+  // First the copies, durably: a crash from here on leaves them beside the
+  // originals, and the newer pack wins.
+  std::sort(copy.begin(), copy.end());
+  for (uint32_t slot : copy) {
+    const Location loc = index_.at(slot);
+    std::string bytes;
+    FF_RETURN_IF_ERROR(ReadRange(PackPath(loc.pack), loc.offset, loc.length, &bytes));
+    Status s = StageEntry(slot, bytes);
+    if (!s.ok()) {
+      DropBatch();
+      return s;
+    }
+  }
+  const uint64_t written = pack_size_;
+  FF_RETURN_IF_ERROR(Commit());
+  c.partials_copied = copy.size();
+  // Then the old packs. What a crash leaves undeleted is deleted next time.
+  for (uint64_t seq : doomed) {
+    OsError e = platform_.Remove(PackPath(seq));
+    if (!e.ok()) return e.ToStatus("remove", PackPath(seq));
+    ++c.packs_removed;
+  }
+  for (auto it = index_.begin(); it != index_.end();)
+    it = std::find(doomed.begin(), doomed.end(), it->second.pack) != doomed.end() ? index_.erase(it) : std::next(it);
+  OsError e = platform_.SyncDirectory(partials);
+  if (!e.ok()) return e.ToStatus("fsync", partials);
+  c.bytes_freed = freed > written ? freed - written : 0;
+  return c;
 }
 
 }  // namespace fanfold

@@ -101,6 +101,24 @@ class RunDirectory {
   // Number of the manifest's shards with a committed partial.
   size_t saved_shard_count() const;
 
+  // What Compact() did.
+  struct Compaction {
+    uint32_t packs_removed = 0;     // packs deleted (those rewritten included)
+    uint32_t packs_rewritten = 0;   // of those, packs whose live partials were copied first
+    uint64_t partials_copied = 0;   // live partials copied into the new pack
+    uint64_t bytes_freed = 0;       // pack bytes deleted minus bytes written
+  };
+  // Garbage-collects partials that no shard of the manifest uses (shards a
+  // `refresh` dropped or replaced, and entries superseded by a later pack):
+  // a pack with no live partial is deleted; a pack whose live partials fill
+  // less than half of it has them copied into one new pack, committed
+  // (fdatasync, rename, directory sync) before the old packs are deleted;
+  // other packs stay as they are, so a month is not rewritten for an hour.
+  // Crash-safe: until the deletes, every live partial is in an old pack or
+  // in the newer copy (the highest pack wins, and both hold the same bytes).
+  // REQUIRES: nothing staged (Commit() first).
+  Result<Compaction> Compact();
+
   // Atomically writes a file at the top of the run directory.
   Status WriteFile(const std::string& name, std::string_view data) const;
   // Removes a file at the top of the run directory (missing is fine) and
@@ -111,6 +129,8 @@ class RunDirectory {
  private:
   RunDirectory(Platform& platform, std::string path, std::unique_ptr<FileLock> lock);
   static Result<std::unique_ptr<FileLock>> Lock(Platform& platform, const std::string& path);
+  // Appends one entry (frame + partial) for slot to the batch's pack.
+  Status StageEntry(uint32_t slot, std::string_view bytes);
   // Reads every committed pack into index_.
   void IndexPacks();
   std::string PackPath(uint64_t seq) const;

@@ -45,6 +45,17 @@ std::string GenerationEventLine(const GenerationEntry& g) {
       .dump();
 }
 
+std::string CompactEventLine(uint64_t time_ns, uint64_t packs_removed, uint64_t packs_rewritten,
+                             uint64_t partials_copied, uint64_t bytes_freed) {
+  return json{{"event", "compact"},
+              {"time_ns", time_ns},
+              {"packs_removed", packs_removed},
+              {"packs_rewritten", packs_rewritten},
+              {"partials_copied", partials_copied},
+              {"bytes_freed", bytes_freed}}
+      .dump();
+}
+
 std::string InterruptedEventLine(uint64_t time_ns) {
   return json{{"event", "interrupted"}, {"time_ns", time_ns}}.dump();
 }

@@ -1,5 +1,5 @@
 // RunJournal: the one home of journal.ndjson's schema — the events a
-// coordinator appends (generation, start, attempt, interrupted, finish; one JSON object a
+// coordinator appends (generation, start, attempt, interrupted, finish, compact; one JSON object a
 // line, keys listed in docs/run-directory.md), how each line is written and
 // how the journal is read back. Field names appear only in run_journal.cc.
 // The coordinator writes (through RunDirectory::StageJournal); `report` and
@@ -93,6 +93,10 @@ std::string StartEventLine(const std::string& mode, int64_t pid, int workers, ui
 std::string AttemptEventLine(const AttemptRecord& r);
 // A refresh starts generation g.generation (end_ns is not written).
 std::string GenerationEventLine(const GenerationEntry& g);
+// After a refresh: the partials no shard uses were collected
+// (RunDirectory::Compact's counts).
+std::string CompactEventLine(uint64_t time_ns, uint64_t packs_removed, uint64_t packs_rewritten,
+                             uint64_t partials_copied, uint64_t bytes_freed);
 // The session stopped on a signal.
 std::string InterruptedEventLine(uint64_t time_ns);
 // The run finished; `failed` shards were quarantined or rejected.
