@@ -7,8 +7,8 @@
 
 #include "coordinator/report/report_charts.h"
 #include "coordinator/report/report_page.h"
-#include "coordinator/run/run_summary.h"
 #include "coordinator/report/svg_chart.h"
+#include "coordinator/run/run_summary.h"
 
 namespace fanfold {
 namespace {
@@ -63,13 +63,13 @@ std::string SummarySection(const RunRecord& r, const RunAnalysis& a) {
   h += Card("Workers", Num("workers", std::to_string(t.workers), std::to_string(t.workers)),
             std::to_string(r.sessions.size()) + (r.sessions.size() == 1 ? " session" : " sessions"));
   if (r.summary.peak_rss > 0)
-    h += Card("Peak memory", Num("peak_rss_bytes.coordinator", std::to_string(r.summary.peak_rss),
-                                 Megabytes(r.summary.peak_rss)),
-              "coordinator" + (r.summary.peak_worker_rss > 0
-                                   ? "; largest worker " + Num("peak_rss_bytes.largest_worker",
-                                                                std::to_string(r.summary.peak_worker_rss),
-                                                                Megabytes(r.summary.peak_worker_rss))
-                                   : std::string()) +
+    h += Card("Peak memory",
+              Num("peak_rss_bytes.coordinator", std::to_string(r.summary.peak_rss), Megabytes(r.summary.peak_rss)),
+              "coordinator" +
+                  (r.summary.peak_worker_rss > 0 ? "; largest worker " + Num("peak_rss_bytes.largest_worker",
+                                                                             std::to_string(r.summary.peak_worker_rss),
+                                                                             Megabytes(r.summary.peak_worker_rss))
+                                                 : std::string()) +
                   " (the kernel's count, last session)");
   h += "</div>";
   const auto skipped_text = [](const std::map<std::string, uint64_t>& skipped) {
@@ -104,20 +104,23 @@ std::string SessionSection(const RunRecord& r, const SessionView& v, size_t ordi
   size_t failed = 0, retried = 0;
   for (size_t i : v.attempts) {
     const AttemptEntry& e = r.attempts[i];
-    if (!e.final) ++retried;
-    else if (!e.done()) ++failed;
+    if (!e.final)
+      ++retried;
+    else if (!e.done())
+      ++failed;
   }
   std::string name = s.mode == "resume" ? "resume" : "run";
-  if (r.sessions.size() > 1) name += " (session " + std::to_string(ordinal + 1) + " of " + std::to_string(r.sessions.size()) + ")";
-  std::string h = "<section class=\"session\" data-session=\"" + std::to_string(v.session) + "\"><h2>Timeline — " +
-                  Esc(name) + "</h2><p class=\"lead\">" + std::to_string(v.attempts.size()) + " attempts on " +
-                  std::to_string(v.lanes) + (v.lanes == 1 ? " worker" : " workers") + " over " +
-                  DurationText(v.span_s) + "; " + std::to_string(retried) + " retried, " + std::to_string(failed) +
-                  " failed. Largest shards are dispatched first." +
-                  (s.interrupted ? " Interrupted after " + DurationText(v.span_s) +
-                                       "; shards in flight then left no attempt in the journal."
-                                 : std::string()) +
-                  "</p>";
+  if (r.sessions.size() > 1)
+    name += " (session " + std::to_string(ordinal + 1) + " of " + std::to_string(r.sessions.size()) + ")";
+  std::string h =
+      "<section class=\"session\" data-session=\"" + std::to_string(v.session) + "\"><h2>Timeline — " + Esc(name) +
+      "</h2><p class=\"lead\">" + std::to_string(v.attempts.size()) + " attempts on " + std::to_string(v.lanes) +
+      (v.lanes == 1 ? " worker" : " workers") + " over " + DurationText(v.span_s) + "; " + std::to_string(retried) +
+      " retried, " + std::to_string(failed) + " failed. Largest shards are dispatched first." +
+      (s.interrupted
+           ? " Interrupted after " + DurationText(v.span_s) + "; shards in flight then left no attempt in the journal."
+           : std::string()) +
+      "</p>";
   h += TimelineSvg(r, v) + Legend();
   h += "<h2 style=\"margin-top:18px\">Throughput over time</h2><p class=\"lead\">Decompressed input per second, "
        "each shard's bytes spread evenly over its attempt; hover for records/s.</p>";
@@ -127,16 +130,16 @@ std::string SessionSection(const RunRecord& r, const SessionView& v, size_t ordi
 
 std::string ShardTimesSection(const RunRecord& r, const RunAnalysis& a) {
   if (a.shard_times.empty()) return "";
-  std::string h = "<section id=\"shard-times\"><h2>Shard times</h2><p class=\"lead\">Median " +
-                  DurationText(a.median_s) + ", quartiles " + DurationText(a.q1_s) + " – " + DurationText(a.q3_s) +
-                  ". A straggler takes longer than Tukey's upper fence (Q3 + 1.5 × IQR), at least " +
-                  Fmt("%.1f", kStragglerMinRatio) + " × the median and at least " +
-                  DurationText(kStragglerMinExcessS) + " more than the median: " + std::to_string(a.straggler_count) +
-                  (a.straggler_count == 1 ? " shard." : " shards.") + "</p><div class=\"two\"><div>" +
-                  ShardTimeHistogramSvg(a) +
-                  "<ul class=\"legend\"><li><span class=\"sw sky\"></span>shards</li><li><span class=\"sw verm\">"
-                  "</span>bin holding a straggler</li></ul></div><div><table><thead><tr><th>slowest shards</th>"
-                  "<th class=\"n\">time</th><th class=\"n\">× median</th><th class=\"n\">records</th></tr></thead><tbody>";
+  std::string h =
+      "<section id=\"shard-times\"><h2>Shard times</h2><p class=\"lead\">Median " + DurationText(a.median_s) +
+      ", quartiles " + DurationText(a.q1_s) + " – " + DurationText(a.q3_s) +
+      ". A straggler takes longer than Tukey's upper fence (Q3 + 1.5 × IQR), at least " +
+      Fmt("%.1f", kStragglerMinRatio) + " × the median and at least " + DurationText(kStragglerMinExcessS) +
+      " more than the median: " + std::to_string(a.straggler_count) +
+      (a.straggler_count == 1 ? " shard." : " shards.") + "</p><div class=\"two\"><div>" + ShardTimeHistogramSvg(a) +
+      "<ul class=\"legend\"><li><span class=\"sw sky\"></span>shards</li><li><span class=\"sw verm\">"
+      "</span>bin holding a straggler</li></ul></div><div><table><thead><tr><th>slowest shards</th>"
+      "<th class=\"n\">time</th><th class=\"n\">× median</th><th class=\"n\">records</th></tr></thead><tbody>";
   for (const ShardTime& t : a.slowest) {
     h += std::string("<tr") + (t.straggler ? " class=\"flag\"" : "") + "><td title=\"" + Esc(r.ShardPath(t.shard)) +
          "\">" + std::to_string(t.shard) + " · " + Esc(FileName(r.ShardPath(t.shard))) +
@@ -150,7 +153,11 @@ std::string ShardTimesSection(const RunRecord& r, const RunAnalysis& a) {
 std::string PhaseSection(const RunAnalysis& a) {
   const uint64_t total = a.read_ns + a.parse_ns + a.aggregate_ns + a.encode_ns;
   if (total == 0) return "";
-  struct Ph { const char* cls; const char* name; uint64_t ns; };
+  struct Ph {
+    const char* cls;
+    const char* name;
+    uint64_t ns;
+  };
   const Ph ph[] = {{"ph-read", "reading + decompressing", a.read_ns},
                    {"ph-parse", "parsing", a.parse_ns},
                    {"ph-aggregate", "filtering + aggregating", a.aggregate_ns},
@@ -161,8 +168,8 @@ std::string PhaseSection(const RunAnalysis& a) {
     const double pct = 100.0 * static_cast<double>(p.ns) / static_cast<double>(total);
     bar += std::string("<div class=\"") + p.cls + "\" style=\"width:" + Fmt("%.3f", pct) + "%\" title=\"" + p.name +
            ": " + DurationText(p.ns / 1e9) + "\">" + (pct >= 7 ? Fmt("%.0f%%", pct) : "") + "</div>";
-    legend += std::string("<li><span class=\"sw ") + p.cls + "\"></span>" + p.name + ": " +
-              DurationText(p.ns / 1e9) + " (" + Fmt("%.1f%%", pct) + ")</li>";
+    legend += std::string("<li><span class=\"sw ") + p.cls + "\"></span>" + p.name + ": " + DurationText(p.ns / 1e9) +
+              " (" + Fmt("%.1f%%", pct) + ")</li>";
   }
   return "<section id=\"phases\"><h2>Where the workers' time went</h2><p class=\"lead\">Summed over every finished "
          "attempt, as each worker clocked it (per block read and per batch of records): " +
@@ -176,15 +183,18 @@ std::string BadRecordsSection(const RunRecord& r, const RunAnalysis& a) {
   std::stable_sort(worst.begin(), worst.end(), [](const auto& x, const auto& y) { return x.second > y.second; });
   if (worst.size() > 8) worst.resize(8);
   uint64_t most = worst.empty() ? 1 : worst[0].second;
-  std::string h = "<section id=\"bad-records\"><h2>Bad records</h2><p class=\"lead\">Malformed records per shard "
-                  "(skipped and counted): " + std::to_string(a.malformed_by_shard.size()) + " of " +
-                  std::to_string(r.manifest.shards.shards.size()) + " shards have some, " +
-                  GroupedInteger(a.totals.records_malformed) + " in all. Hover a column for its file.</p>" +
-                  MalformedSvg(r, a) + "<div class=\"two\"><div><table class=\"sortable\"><thead><tr>"
-                  "<th class=\"n\">shard</th><th>file (most malformed first)</th><th>malformed</th></tr></thead><tbody>";
+  std::string h =
+      "<section id=\"bad-records\"><h2>Bad records</h2><p class=\"lead\">Malformed records per shard "
+      "(skipped and counted): " +
+      std::to_string(a.malformed_by_shard.size()) + " of " + std::to_string(r.manifest.shards.shards.size()) +
+      " shards have some, " + GroupedInteger(a.totals.records_malformed) + " in all. Hover a column for its file.</p>" +
+      MalformedSvg(r, a) +
+      "<div class=\"two\"><div><table class=\"sortable\"><thead><tr>"
+      "<th class=\"n\">shard</th><th>file (most malformed first)</th><th>malformed</th></tr></thead><tbody>";
   for (const auto& [s, n] : worst) {
     h += "<tr><td class=\"n\">" + std::to_string(s) + "</td><td title=\"" + Esc(r.ShardPath(s)) + "\">" +
-         Esc(FileName(r.ShardPath(s))) + "</td><td data-v=\"" + std::to_string(n) + "\"><span class=\"hbar\" style=\"width:" +
+         Esc(FileName(r.ShardPath(s))) + "</td><td data-v=\"" + std::to_string(n) +
+         "\"><span class=\"hbar\" style=\"width:" +
          Fmt("%.0f", 4 + 120.0 * static_cast<double>(n) / static_cast<double>(most)) + "px\"></span>" +
          GroupedInteger(n) + "</td></tr>";
   }
@@ -195,6 +205,25 @@ std::string BadRecordsSection(const RunRecord& r, const RunAnalysis& a) {
          "</td><td class=\"n\">" + std::to_string(m.line) + "</td><td>" + Esc(m.reason) + "</td></tr>";
   if (r.summary.samples.empty()) h += "<tr><td colspan=\"3\" class=\"note\">no samples recorded</td></tr>";
   return h + "</tbody></table></div></div></section>";
+}
+
+// A refreshed run's generations: when, what each reused, computed and
+// dropped (the files by name, every one in the cell's title), how long.
+std::string GenerationsSection(const RunRecord& r) {
+  if (r.generations.size() < 2) return "";
+  std::string h =
+      "<section id=\"generations\"><h2>Generations</h2><p class=\"lead\">Each <code>fanfold refresh</code> "
+      "starts a generation; the timelines and shard times below are the last one's.</p><table><thead><tr>"
+      "<th>generation</th><th>summary</th></tr></thead><tbody>";
+  const std::vector<std::string> lines = GenerationLines(r);
+  for (size_t i = 0; i < r.generations.size() && i < lines.size(); ++i) {
+    std::string all;
+    for (const std::string& p : r.generations[i].computed_paths) all += "computed " + p + "\n";
+    for (const std::string& p : r.generations[i].dropped_paths) all += "dropped " + p + "\n";
+    h += "<tr><td class=\"n\">" + std::to_string(r.generations[i].generation) + "</td><td title=\"" + Esc(all) + "\">" +
+         Esc(lines[i]) + "</td></tr>";
+  }
+  return h + "</tbody></table></section>";
 }
 
 std::string FailuresSection(const RunRecord& r, const RunAnalysis& a) {
@@ -218,13 +247,14 @@ std::string AllShardsSection(const RunRecord& r) {
     ++slot.second;
   }
   auto ms = [](uint64_t ns) { return Fmt("%.1f", ns / 1e6); };
-  std::string h = "<section id=\"shards\"><details><summary>All " + std::to_string(r.manifest.shards.shards.size()) +
-                  " shards: last attempt, phases and counts (click a heading to sort)</summary><table class=\"sortable\">"
-                  "<thead><tr><th class=\"n\">shard</th><th>file</th><th>outcome</th><th class=\"n\">worker</th>"
-                  "<th class=\"n\">attempts</th><th class=\"n\">ms</th><th class=\"n\">read ms</th>"
-                  "<th class=\"n\">parse ms</th><th class=\"n\">aggregate ms</th><th class=\"n\">encode ms</th>"
-                  "<th class=\"n\">MB in</th><th class=\"n\">MB raw</th><th class=\"n\">records</th>"
-                  "<th class=\"n\">kept</th><th class=\"n\">malformed</th></tr></thead><tbody>";
+  std::string h =
+      "<section id=\"shards\"><details><summary>All " + std::to_string(r.manifest.shards.shards.size()) +
+      " shards: last attempt, phases and counts (click a heading to sort)</summary><table class=\"sortable\">"
+      "<thead><tr><th class=\"n\">shard</th><th>file</th><th>outcome</th><th class=\"n\">worker</th>"
+      "<th class=\"n\">attempts</th><th class=\"n\">ms</th><th class=\"n\">read ms</th>"
+      "<th class=\"n\">parse ms</th><th class=\"n\">aggregate ms</th><th class=\"n\">encode ms</th>"
+      "<th class=\"n\">MB in</th><th class=\"n\">MB raw</th><th class=\"n\">records</th>"
+      "<th class=\"n\">kept</th><th class=\"n\">malformed</th></tr></thead><tbody>";
   for (const Shard& s : r.manifest.shards.shards) {
     auto it = last.find(s.index);
     h += "<tr><td class=\"n\">" + std::to_string(s.index) + "</td><td title=\"" + Esc(s.path) + "\">" +
@@ -247,24 +277,28 @@ std::string AllShardsSection(const RunRecord& r) {
 }
 
 std::string ScaleSection(const ScaleResult& s) {
-  std::string h = "<section id=\"scaling\"><h2>Scaling</h2><p class=\"lead\">The same job from scratch at each "
-                  "worker count, " + std::to_string(s.repeat) + (s.repeat == 1 ? " timed run" : " timed runs") +
-                  " each after an untimed warm-up run; " + std::to_string(s.shards) + " shards, " +
-                  Megabytes(s.bytes_decompressed) + " decompressed, on a machine with " + std::to_string(s.cores) +
-                  (s.cores == 1 ? " core" : " cores") + ". Results " +
-                  (s.identical_outputs ? "byte-identical in every run." : "<strong>differ between runs</strong>.") +
-                  "</p><div class=\"narrow\">" + ScalingSvg(s) +
-                  "<ul class=\"legend\"><li><span class=\"sw line\"></span>measured speedup (median)</li>"
-                  "<li><span class=\"sw line ideal\"></span>ideal, S = p</li><li><span class=\"sw line bound\"></span>"
-                  "bound from shard sizes: total / max(longest shard, total / p)</li></ul></div>"
-                  "<table><thead><tr><th class=\"n\">workers</th><th class=\"n\">median s</th><th class=\"n\">"
-                  "min–max s</th><th class=\"n\">MB/s</th><th class=\"n\">records/s</th><th class=\"n\">speedup</th><th class=\"n\">efficiency</th>"
-                  "<th class=\"n\">serial fraction</th><th class=\"n\">bound</th></tr></thead><tbody>";
+  std::string h =
+      "<section id=\"scaling\"><h2>Scaling</h2><p class=\"lead\">The same job from scratch at each "
+      "worker count, " +
+      std::to_string(s.repeat) + (s.repeat == 1 ? " timed run" : " timed runs") +
+      " each after an untimed warm-up run; " + std::to_string(s.shards) + " shards, " +
+      Megabytes(s.bytes_decompressed) + " decompressed, on a machine with " + std::to_string(s.cores) +
+      (s.cores == 1 ? " core" : " cores") + ". Results " +
+      (s.identical_outputs ? "byte-identical in every run." : "<strong>differ between runs</strong>.") +
+      "</p><div class=\"narrow\">" + ScalingSvg(s) +
+      "<ul class=\"legend\"><li><span class=\"sw line\"></span>measured speedup (median)</li>"
+      "<li><span class=\"sw line ideal\"></span>ideal, S = p</li><li><span class=\"sw line bound\"></span>"
+      "bound from shard sizes: total / max(longest shard, total / p)</li></ul></div>"
+      "<table><thead><tr><th class=\"n\">workers</th><th class=\"n\">median s</th><th class=\"n\">"
+      "min–max s</th><th class=\"n\">MB/s</th><th class=\"n\">records/s</th><th class=\"n\">speedup</th><th "
+      "class=\"n\">efficiency</th>"
+      "<th class=\"n\">serial fraction</th><th class=\"n\">bound</th></tr></thead><tbody>";
   for (const ScalePoint& p : s.points)
     h += "<tr data-workers=\"" + std::to_string(p.workers) + "\"><td class=\"n\">" + std::to_string(p.workers) +
          "</td><td class=\"n\">" + Fmt("%.3f", p.median_s) + "</td><td class=\"n\">" + Fmt("%.3f", p.min_s) + "–" +
          Fmt("%.3f", p.max_s) + "</td><td class=\"n\">" + Fmt("%.1f", p.mb_per_s) + "</td><td class=\"n\">" +
-         GroupedInteger(static_cast<uint64_t>(p.records_per_s + 0.5)) + "</td><td class=\"n\">" + Fmt("%.2f×", p.speedup) + "</td><td class=\"n\">" + Fmt("%.0f%%", p.efficiency * 100) +
+         GroupedInteger(static_cast<uint64_t>(p.records_per_s + 0.5)) + "</td><td class=\"n\">" +
+         Fmt("%.2f×", p.speedup) + "</td><td class=\"n\">" + Fmt("%.0f%%", p.efficiency * 100) +
          "</td><td class=\"n\">" + (p.karp_flatt ? Fmt("%.3f", *p.karp_flatt) : "–") + "</td><td class=\"n\">" +
          Fmt("%.2f×", p.skew_bound) + "</td></tr>";
   h += "</tbody></table><p class=\"note\">Serial fraction: Karp and Flatt's e = (1/S − 1/p) / (1 − 1/p); a value "
@@ -296,6 +330,7 @@ std::string RenderReportHtml(const RunRecord& r, const RunAnalysis& a, const Sca
        "</code> · plan <code>" + Esc(r.manifest.fingerprint) + "</code> · started " + Esc(r.manifest.created_utc) +
        " · format " + Esc(r.manifest.format) + "</p></header>";
   h += SummarySection(r, a);
+  h += GenerationsSection(r);
   for (size_t i = 0; i < a.sessions.size(); ++i) h += SessionSection(r, a.sessions[i], i);
   h += ShardTimesSection(r, a);
   h += PhaseSection(a);

@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
+#include <ctime>
 #include <filesystem>
 #include <map>
 #include <set>
@@ -16,9 +17,12 @@ constexpr int kThroughputBins = 60;
 
 std::string Ms(double seconds) {
   char buf[32];
-  if (seconds >= 10) std::snprintf(buf, sizeof buf, "%.1f s", seconds);
-  else if (seconds >= 1) std::snprintf(buf, sizeof buf, "%.2f s", seconds);
-  else std::snprintf(buf, sizeof buf, "%.1f ms", seconds * 1e3);
+  if (seconds >= 10)
+    std::snprintf(buf, sizeof buf, "%.1f s", seconds);
+  else if (seconds >= 1)
+    std::snprintf(buf, sizeof buf, "%.2f s", seconds);
+  else
+    std::snprintf(buf, sizeof buf, "%.1f ms", seconds * 1e3);
   return buf;
 }
 
@@ -97,9 +101,10 @@ RunAnalysis AnalyzeRun(const RunRecord& r) {
   RunAnalysis a;
   if (r.summary.present) {
     const SummaryRecord& s = r.summary;
-    a.totals = {true, s.shards_total, s.shards_done, s.shards_failed, s.shards_reused, s.retries,
-                s.records_read, s.records_kept, s.records_malformed, s.bytes_compressed, s.bytes_decompressed,
-                s.wall_seconds, s.workers};
+    a.totals = {
+        true,           s.shards_total, s.shards_done,       s.shards_failed,    s.shards_reused,      s.retries,
+        s.records_read, s.records_kept, s.records_malformed, s.bytes_compressed, s.bytes_decompressed, s.wall_seconds,
+        s.workers};
   } else {
     a.totals = JournalTotals(r);
   }
@@ -202,15 +207,20 @@ RunAnalysis AnalyzeRun(const RunRecord& r) {
   } else {
     std::map<uint32_t, FailureView> failed;
     for (const AttemptEntry& e : r.attempts) {
-      if (e.done()) failed.erase(e.shard);
-      else if (e.final) failed[e.shard] = {e.shard, r.ShardPath(e.shard), e.message, e.attempt};
+      if (e.done())
+        failed.erase(e.shard);
+      else if (e.final)
+        failed[e.shard] = {e.shard, r.ShardPath(e.shard), e.message, e.attempt};
     }
     for (auto& [shard, f] : failed) a.failures.push_back(f);
   }
 
-  if (r.summary.present) a.status = a.totals.shards_failed ? "finished with failed shards" : "finished";
-  else if (!r.sessions.empty() && r.sessions.back().interrupted) a.status = "interrupted";
-  else a.status = "unfinished";
+  if (r.summary.present)
+    a.status = a.totals.shards_failed ? "finished with failed shards" : "finished";
+  else if (!r.sessions.empty() && r.sessions.back().interrupted)
+    a.status = "interrupted";
+  else
+    a.status = "unfinished";
   return a;
 }
 
@@ -244,6 +254,30 @@ std::string PhasesProvenance(const RunAnalysis& a) {
   return fill;
 }
 
+std::vector<std::string> GenerationLines(const RunRecord& r, size_t names) {
+  std::vector<std::string> lines;
+  if (r.generations.size() < 2) return lines;
+  auto list = [names](const std::vector<std::string>& paths) {
+    std::string out;
+    for (size_t i = 0; i < paths.size() && i < names; ++i)
+      out += (i ? ", " : "") + std::filesystem::path(paths[i]).filename().string();
+    if (paths.size() > names) out += " +" + std::to_string(paths.size() - names) + " more";
+    return out;
+  };
+  for (const GenerationEntry& g : r.generations) {
+    const std::time_t t = static_cast<std::time_t>(g.time_ns / 1'000'000'000);
+    char when[32];
+    std::strftime(when, sizeof when, "%Y-%m-%d %H:%M:%S UTC", std::gmtime(&t));
+    std::string line = "generation " + std::to_string(g.generation) + ", " + when + ": " + GroupedInteger(g.reused) +
+                       " reused, " + GroupedInteger(g.computed) + " computed, " + GroupedInteger(g.dropped) +
+                       " dropped, " + (g.end_ns ? Ms(g.seconds()) : std::string("not finished"));
+    if (g.generation > 1 && !g.computed_paths.empty()) line += "; computed: " + list(g.computed_paths);
+    if (!g.dropped_paths.empty()) line += "; dropped: " + list(g.dropped_paths);
+    lines.push_back(std::move(line));
+  }
+  return lines;
+}
+
 std::vector<std::string> FormatReportText(const RunRecord& r, const RunAnalysis& a) {
   std::vector<std::string> lines;
   const RunTotals& t = a.totals;
@@ -258,9 +292,13 @@ std::vector<std::string> FormatReportText(const RunRecord& r, const RunAnalysis&
   lines.push_back(status);
   const std::string rate = ProcessedRateText(t);
   lines.push_back("records: " + GroupedInteger(t.records_read) + " read, " + GroupedInteger(t.records_kept) +
-                  " kept, " + GroupedInteger(t.records_malformed) + " malformed | " +
-                  Megabytes(t.bytes_compressed) + " in, " + Megabytes(t.bytes_decompressed) + " decompressed | " +
-                  rate);
+                  " kept, " + GroupedInteger(t.records_malformed) + " malformed | " + Megabytes(t.bytes_compressed) +
+                  " in, " + Megabytes(t.bytes_decompressed) + " decompressed | " + rate);
+  for (std::string& line : GenerationLines(r)) lines.push_back(std::move(line));
+  if (r.earlier_sessions > 0)
+    lines.push_back("shard times below: generation " +
+                    std::to_string(r.generations.empty() ? 1 : r.generations.back().generation) + " only (" +
+                    std::to_string(r.earlier_sessions) + " sessions of earlier generations left out)");
   if (!a.slowest.empty()) {
     const ShardTime& s = a.slowest[0];
     char ratio[32];

@@ -94,6 +94,12 @@ double QuantileType7(const std::vector<double>& sorted, double p);
 // how many of the attempts' phases were estimates.
 std::string PhasesProvenance(const RunAnalysis& analysis);
 
+// One line per generation of a refreshed run ("generation 3, 2026-12-02
+// 06:00:01 UTC: 743 reused, 1 computed, 0 dropped, 0.42 s; computed: h.ndjson"),
+// at most `names` file names listed per line (then "+N more"); none for a
+// run never refreshed.
+std::vector<std::string> GenerationLines(const RunRecord& record, size_t names = 5);
+
 // The terminal summary of `fanfold report`, one line per element.
 std::vector<std::string> FormatReportText(const RunRecord& record, const RunAnalysis& analysis);
 

@@ -115,6 +115,7 @@ std::string AttemptEventLine(const AttemptRecord& r) {
 void ParseJournal(const std::string& text, const std::string& where, std::vector<RunSession>* sessions,
                   std::vector<AttemptEntry>* attempts, std::vector<std::string>* warnings) {
   size_t pos = 0, line_no = 0;
+  uint32_t generation = 1;  // the run's, until a "generation" event
   while (pos < text.size()) {
     size_t nl = text.find('\n', pos);
     const bool last = nl == std::string::npos;
@@ -130,8 +131,11 @@ void ParseJournal(const std::string& text, const std::string& where, std::vector
       continue;
     }
     const std::string event = JsonValueOr<std::string>(j, "event", "");
-    if (event == "start") {
+    if (event == "generation") {
+      generation = JsonValueOr<uint32_t>(j, "generation", generation + 1);
+    } else if (event == "start") {
       RunSession s;
+      s.generation = generation;
       s.mode = JsonValueOr<std::string>(j, "mode", "run");
       s.workers = JsonValueOr<int>(j, "workers", 0);
       s.pending = JsonValueOr<uint64_t>(j, "pending", 0);

@@ -55,7 +55,8 @@ struct AttemptEntry {
 
 // One coordinator's stint: a "start" event up to its "finish"/"interrupted".
 struct RunSession {
-  std::string mode = "run";  // "run" or "resume"
+  std::string mode = "run";  // "run", "resume" or "refresh"
+  uint32_t generation = 1;   // of the last "generation" event before its start (1 if none)
   int workers = 0;
   uint64_t pending = 0, reused = 0;
   uint64_t start_ns = 0;

@@ -1,5 +1,7 @@
 #include "coordinator/rundir/run_record_reader.h"
 
+#include <algorithm>
+#include <cstdint>
 #include <filesystem>
 
 #include <nlohmann/json.hpp>
@@ -44,8 +46,7 @@ Result<SummaryRecord> SummaryFrom(const json& j) {
     s.has_processed = true;
     s.processed_shards = JsonValueOr<uint64_t>(shards, "processed", 0);
     s.processed_records = JsonValueOr<uint64_t>(processed, "records", 0);
-    s.processed_bytes_decompressed =
-        JsonValueOr<uint64_t>(JsonObjectOrEmpty(processed, "bytes"), "decompressed", 0);
+    s.processed_bytes_decompressed = JsonValueOr<uint64_t>(JsonObjectOrEmpty(processed, "bytes"), "decompressed", 0);
   }
   if (auto it = j.find("failed"); it != j.end() && it->is_array()) {
     for (const json& f : *it) {
@@ -91,7 +92,26 @@ std::string RunRecord::ShardPath(uint32_t shard) const {
 }
 
 void ParseJournal(const std::string& text, const std::string& where, RunRecord* r) {
-  ParseJournal(text, where, &r->sessions, &r->attempts, &r->warnings);
+  std::vector<RunSession> sessions;
+  std::vector<AttemptEntry> attempts;
+  ParseJournal(text, where, &sessions, &attempts, &r->warnings);
+  r->generations = ParseGenerations(text);
+  uint32_t last = 1;
+  for (const RunSession& s : sessions) last = std::max(last, s.generation);
+  std::vector<size_t> kept(sessions.size(), SIZE_MAX);  // old session index -> new one
+  for (size_t i = 0; i < sessions.size(); ++i) {
+    if (sessions[i].generation != last) {
+      ++r->earlier_sessions;
+      continue;
+    }
+    kept[i] = r->sessions.size();
+    r->sessions.push_back(sessions[i]);
+  }
+  for (AttemptEntry& a : attempts) {
+    if (kept[a.session] == SIZE_MAX) continue;
+    a.session = kept[a.session];
+    r->attempts.push_back(std::move(a));
+  }
 }
 
 Status ParseSummary(const std::string& text, const std::string& where, SummaryRecord* out) {

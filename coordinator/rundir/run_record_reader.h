@@ -58,8 +58,13 @@ struct SummaryRecord {
 struct RunRecord {
   std::string dir;  // absolute
   RunManifest manifest;
+  // The sessions and attempts of the run's last generation only: an earlier
+  // generation's shard indices name another shard list (a refresh re-sorts
+  // it), so its attempts cannot be shown against this one.
   std::vector<RunSession> sessions;
   std::vector<AttemptEntry> attempts;  // journal order
+  std::vector<GenerationEntry> generations;  // every generation, oldest first
+  size_t earlier_sessions = 0;               // sessions of earlier generations, left out
   SummaryRecord summary;
   std::vector<std::string> warnings;  // lines skipped, a torn tail, ...
 

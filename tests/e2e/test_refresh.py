@@ -225,6 +225,20 @@ def main():
         for r in rows:
             c.check(lib.rel_close(r["mean_w"], r["w"] / r["n"], 1e-12), "mean_w %r" % r)
 
+        # `report` lists every generation with what it computed and dropped,
+        # as the journal's generation events say.
+        rc, out_text, err = env.run([env.fanfold, "report", run_dir, "-o", env.path("report.html")])
+        gens = [e for e in journal_events(run_dir) if e["event"] == "generation"]
+        c.check(rc == 0 and len(gens) == step[0] + 1, "report: exit %d, %d generation events: %s" % (rc, len(gens), err))
+        for g in gens:
+            want = "generation %d, " % g["generation"]
+            line = next((l for l in out_text.splitlines() if l.startswith(want)), "")
+            c.check("%d reused, %d computed, %d dropped" % (g["reused"], g["computed"], g["dropped"]) in line
+                    and all(os.path.basename(p) in line for p in g["computed_paths"] + g["dropped_paths"]),
+                    "report line for generation %d: %r, journal %r" % (g["generation"], line, g))
+        with open(env.path("report.html")) as f:
+            c.check('id="generations"' in f.read(), "report.html has no generations section")
+
         # The lock held by another process: refused, nothing changed.
         with open(os.path.join(run_dir, "lock"), "a") as held:
             fcntl.flock(held, fcntl.LOCK_EX)
