@@ -131,6 +131,9 @@ class RunDirectory {
   static Result<std::unique_ptr<FileLock>> Lock(Platform& platform, const std::string& path);
   // Appends one entry (frame + partial) for slot to the batch's pack.
   Status StageEntry(uint32_t slot, std::string_view bytes);
+  // The sequence numbers of the committed packs (pack-N.ffpk), ascending.
+  std::vector<uint64_t> CommittedPacks() const;
+  static constexpr size_t kFrameBytes = 24;  // magic, slot, length, hash
   // Reads every committed pack into index_.
   void IndexPacks();
   std::string PackPath(uint64_t seq) const;
