@@ -133,6 +133,7 @@ CommandOutcome ResumeRun(const RunOptions& given) {
   in.shards = &manifest.shards;
   in.dir = dir;
   in.mode = "resume";
+  in.generation = manifest.generation;
   // Only for the end-of-run suggestions: the run itself warned already.
   if (o.check_fields) in.names_seen = PrecheckFields(plan, manifest.shards).names_seen;
   bool identities_changed = false;

@@ -126,7 +126,11 @@ def main():
             with open(out, "rb") as a, open(fresh, "rb") as b:
                 c.check(a.read() == b.read(), "trial %d: refresh after a kill differs from --fresh" % t)
             with open(os.path.join(rd, "summary.json")) as f:
-                total = json.load(f)["shards"]["total"]
+                summary = json.load(f)
+            total = summary["shards"]["total"]
+            with open(os.path.join(rd, "run.json")) as f:
+                c.check(summary["generation"] == json.load(f)["generation"],
+                        "trial %d: summary.json's generation is run.json's" % t)
             c.check(total == len(os.listdir(data)), "trial %d: %d shards, %d files" % (t, total, len(os.listdir(data))))
             leaked = lib.leaked_segments()
             c.check(leaked == [], "trial %d: /dev/shm clean after the next start: %s" % (t, leaked))
