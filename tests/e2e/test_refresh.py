@@ -17,7 +17,8 @@
   event, summary.json's processed bytes 0, and the output changes as asked;
 * a refresh while another process holds the run directory's lock is refused
   with a clear message (exit status 3);
-* `run` on the run directory of the same plan suggests `refresh`.
+* `run` on the run directory of the same plan suggests `refresh`; of another
+  plan, says so and offers only `--fresh`.
 """
 
 import fcntl
@@ -125,6 +126,12 @@ def main():
         # `run` again on the same plan suggests refresh.
         rc, _, err = env.fanfold_run("run", job, "--run-dir", run_dir)
         c.check(rc == 2 and "fanfold refresh " + run_dir in err, "run on a finished run: exit %d: %s" % (rc, lib.tail(err)))
+
+        other = lib.write_job(env.path("other.json"), dict(job_doc, measures=job_doc["measures"] + [
+            {"name": "top", "fn": "max", "of": "{/power_w}"}]))
+        rc, _, err = env.fanfold_run("run", other, "--run-dir", run_dir)
+        c.check(rc == 2 and "of another plan" in err and "--fresh" in err and "fanfold refresh" not in err,
+                "run of another plan on the run directory: exit %d: %s" % (rc, lib.tail(err)))
 
         step = [0]
 

@@ -3,10 +3,10 @@
 // reader taking back what the writer wrote.
 #include "coordinator/rundir/run_journal.h"
 
-#include <doctest/doctest.h>
-
 #include <string>
 #include <vector>
+
+#include <doctest/doctest.h>
 
 namespace fanfold {
 namespace {
@@ -153,6 +153,47 @@ TEST_CASE("run_journal: an attempt line without phases is an estimate") {
   REQUIRE(attempts.size() == 1);
   CHECK(attempts[0].done());
   CHECK_FALSE(attempts[0].phases_measured);
+}
+
+// Intent: a refreshed run's generations read back from its journal: the
+// first run is generation 1 (its pending shards computed), each generation
+// event the next with its counts and files, each ending at the first finish
+// after it (none: not finished); sessions know their generation.
+TEST_CASE("run_journal: generations") {
+  GenerationEntry g;
+  g.generation = 2;
+  g.time_ns = 5000;
+  g.reused = 7;
+  g.computed = 2;
+  g.dropped = 1;
+  g.computed_paths = {"/d/h08", "/d/h09"};
+  g.dropped_paths = {"/d/h03"};
+  const std::string text = StartEventLine("run", 1, 2, 8, 0, 1000) + "\n" + FinishEventLine(2000, 0) + "\n" +
+                           GenerationEventLine(g) + "\n" + StartEventLine("refresh", 2, 2, 2, 7, 5001) + "\n" +
+                           FinishEventLine(9000, 0) + "\n" + GenerationEventLine(GenerationEntry{3, 10000}) + "\n";
+  std::vector<GenerationEntry> gens = ParseGenerations(text);
+  REQUIRE(gens.size() == 3);
+  CHECK(gens[0].generation == 1);
+  CHECK(gens[0].computed == 8);
+  CHECK(gens[0].end_ns == 2000);
+  CHECK(gens[1].generation == 2);
+  CHECK(gens[1].reused == 7);
+  CHECK(gens[1].dropped == 1);
+  CHECK(gens[1].computed_paths == g.computed_paths);
+  CHECK(gens[1].dropped_paths == g.dropped_paths);
+  CHECK(gens[1].end_ns == 9000);
+  CHECK(gens[1].seconds() == doctest::Approx(4e-6));
+  CHECK(gens[2].generation == 3);
+  CHECK(gens[2].end_ns == 0);
+  std::vector<RunSession> sessions;
+  std::vector<AttemptEntry> attempts;
+  std::vector<std::string> warnings;
+  ParseJournal(text, "journal.ndjson", &sessions, &attempts, &warnings);
+  REQUIRE(sessions.size() == 2);
+  CHECK(sessions[0].generation == 1);
+  CHECK(sessions[1].generation == 2);
+  CHECK(sessions[1].mode == "refresh");
+  CHECK(warnings.empty());
 }
 
 }  // namespace
