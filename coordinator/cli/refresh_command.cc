@@ -1,6 +1,7 @@
 #include "coordinator/cli/refresh_command.h"
 
 #include <algorithm>
+#include <filesystem>
 #include <iostream>
 
 #include "common/job/job_loader.h"
@@ -16,6 +17,11 @@
 
 namespace fanfold {
 namespace {
+
+bool FileExists(const std::string& path) {
+  std::error_code ec;
+  return std::filesystem::exists(path, ec);
+}
 
 // The lowest slot above every slot of the manifest and every committed one
 // (partials of dropped shards stay in their packs until compacted).
@@ -125,7 +131,8 @@ CommandOutcome RefreshRun(const RunOptions& given) {
   if (!out.status.ok()) return out;
   if (!o.quiet) {
     for (const std::string& p : match.dropped_paths)
-      std::cerr << "fanfold: '" << p << "' is gone; its shards are dropped from the run\n";
+      std::cerr << "fanfold: '" << p << "' " << (FileExists(p) ? "no longer matches the job's inputs" : "is gone")
+                << "; its shards are dropped from the run\n";
     std::cerr << "fanfold: refreshing " << o.run_dir << " (generation " << after.generation << "): " << in.reused.size()
               << " shards reused, " << in.pending.size() << " to compute, " << match.dropped.size() << " dropped\n";
   }

@@ -258,7 +258,7 @@ void RunEngine::PrintNotes() const {
     std::string files;
     for (const std::string& p : in_.dropped_paths) files += (files.empty() ? "'" : ", '") + p + "'";
     Note("dropped " + GroupedInteger(in_.dropped) + (in_.dropped == 1 ? " shard" : " shards") +
-         " whose file is gone: " + files);
+         " (files gone or no longer matched by the job's inputs): " + files);
   }
   PrintQuietEssentials();
   const MergeTotals& totals = merger_.totals();

@@ -15,6 +15,9 @@
 * an edit of the job's output alone (emit order and limit, a rows step) reruns
   with every partial reused: no attempt in the journal after the generation
   event, summary.json's processed bytes 0, and the output changes as asked;
+* the job's inputs narrowed: the files no longer matched are dropped and
+  named as such (Python's fnmatch predicts which), the result is --fresh's;
+* a cut file that grew is computed again whole (all its chunks);
 * a refresh while another process holds the run directory's lock is refused
   with a clear message (exit status 3);
 * `run` on the run directory of the same plan suggests `refresh`; of another
@@ -22,6 +25,7 @@
 """
 
 import fcntl
+import fnmatch
 import json
 import os
 import re
@@ -275,6 +279,25 @@ def main():
         want = sqlite_reference([big])
         got = {r["district"]: r["n"] for r in lib.read_rows(env.path("big1.csv"), "csv")}
         c.check(got == {d: n for d, (n, _) in want.items()}, "chunked refresh: counts %r, sqlite3 %r" % (got, want))
+
+        # The job's inputs narrowed (same plan): the files no longer matched
+        # are dropped and named as such, not as gone.
+        narrowed = dict(edited, inputs={"files": [os.path.join(data, "*T1[0-9].ndjson")]})
+        lib.write_job(job, narrowed)
+        now = identities(data)
+        kept = {p for p in now if fnmatch.fnmatchcase(os.path.basename(p), "*T1[0-9].ndjson")}
+        rc, _, err = env.fanfold_run("refresh", run_dir, "-o", env.path("narrowed.csv"))
+        c.check(rc == 0 and "no longer matches the job's inputs" in err,
+                "narrowed inputs: exit %d: %s" % (rc, lib.tail(err)))
+        with open(os.path.join(run_dir, "summary.json")) as f:
+            summary = json.load(f)
+        c.check(summary["shards"]["dropped"] == len(now) - len(kept) and summary["shards"]["reused"] == len(kept)
+                and summary["dropped"] == sorted(set(now) - kept),
+                "narrowed inputs: summary %r, predicted %d dropped, %d reused" % (summary["shards"], len(now) - len(kept), len(kept)))
+        rc, _, err = env.fanfold_run("run", job, "--run-dir", env.path("runs", "narrowed-fresh"), "-q", "-o",
+                                     env.path("narrowed-fresh.csv"))
+        with open(env.path("narrowed.csv"), "rb") as a, open(env.path("narrowed-fresh.csv"), "rb") as b:
+            c.check(rc == 0 and a.read() == b.read(), "narrowed inputs: output differs from --fresh")
 
         # The lock held by another process: refused, nothing changed.
         with open(os.path.join(run_dir, "lock"), "a") as held:
