@@ -1,0 +1,87 @@
+// The MPI messages between rank 0 (MpiTransport) and the node agents
+// (RunNodeAgent): their tags, their byte layouts (common/base/byte_io.h
+// encoding) and the few MPI calls that move them, all on MPI_COMM_WORLD as
+// MPI_BYTE. docs/mpi.md lists every kind and layout; keep the two in step.
+// Receiving never blocks the caller while nothing came (PollMessage is
+// MPI_Iprobe), except for a partial's remaining pieces, which the sender
+// posts right behind its event. Main thread only.
+#pragma once
+
+#include <cstdint>
+#include <string>
+#include <vector>
+
+#include "common/base/status.h"
+#include "common/job/shard_task.h"
+#include "common/transport/transport.h"
+
+namespace fanfold {
+
+enum MpiTag : int {
+  kTagHello = 1,    // 0 -> agent: how to start workers
+  kTagTask = 2,     // 0 -> agent: run a shard on one of its worker slots
+  kTagAbort = 3,    // 0 -> agent: kill one worker slot now
+  kTagQuit = 4,     // 0 -> agent: shut down
+  kTagStop = 5,     // 0 -> agent: end this pool of workers; a hello may follow
+  kTagReady = 10,   // agent -> 0: workers running; how many, on which node
+  kTagFailed = 11,  // agent -> 0: the agent cannot go on; why
+  kTagStarted = 12, // agent -> 0: a slot started a shard
+  kTagEvent = 13,   // agent -> 0: one TransportEvent (+ the partial's first piece)
+  kTagPiece = 14,   // agent -> 0: the next piece of that event's partial
+  kTagBye = 15,     // agent -> 0: quitting
+  kTagStopped = 16, // agent -> 0: its workers are gone (answers kTagStop)
+};
+
+// Largest piece of a partial in one message (MPI counts are int).
+inline constexpr uint64_t kMpiPieceBytes = 1u << 30;
+
+struct HelloMessage {
+  uint32_t workers = 0;                  // per agent; 0 = the agent's cores
+  std::string spill_dir;                 // where partials too big for shared memory go
+  std::vector<std::string> worker_args;  // fanfold-worker's JOB FORMAT PLAN BASE_DIR
+};
+struct ReadyMessage {
+  uint32_t workers = 0;
+  std::string host;
+};
+struct FailedMessage {
+  std::string host;
+  std::string message;
+};
+struct TaskMessage {
+  uint32_t slot = 0;
+  ShardTask task;  // with the file identity rank 0 listed
+};
+struct StartedMessage {
+  uint32_t slot = 0;
+  uint32_t shard = 0;
+  uint64_t since_ns = 0;
+};
+
+std::string EncodeHello(const HelloMessage& m);
+Status DecodeHello(const std::string& bytes, HelloMessage* m);
+std::string EncodeReady(const ReadyMessage& m);
+Status DecodeReady(const std::string& bytes, ReadyMessage* m);
+std::string EncodeFailed(const FailedMessage& m);
+Status DecodeFailed(const std::string& bytes, FailedMessage* m);
+std::string EncodeTask(const TaskMessage& m);
+Status DecodeTask(const std::string& bytes, TaskMessage* m);
+std::string EncodeSlot(uint32_t slot);  // kTagAbort
+Status DecodeSlot(const std::string& bytes, uint32_t* slot);
+std::string EncodeStarted(const StartedMessage& m);
+Status DecodeStarted(const std::string& bytes, StartedMessage* m);
+
+// Sends `bytes` to rank `dest` with `tag` (MPI_Send; small messages leave
+// at once).
+Status SendMessage(int dest, int tag, const std::string& bytes);
+// If a message is waiting (from `source`, or anyone when source < 0),
+// receives it and returns true.
+bool PollMessage(int source, int* from, int* tag, std::string* bytes);
+// Sends event `ev` of local worker `slot` to rank 0: kTagEvent with the
+// header and the partial's first piece, then kTagPiece for the rest.
+Status SendEvent(uint32_t slot, const TransportEvent& ev);
+// Decodes a kTagEvent message received from `from` into *slot and *ev,
+// receiving the partial's remaining pieces from `from`.
+Status ReceiveEventRest(int from, const std::string& bytes, uint32_t* slot, TransportEvent* ev);
+
+}  // namespace fanfold
