@@ -120,6 +120,7 @@ Status RunShards(const ShardList& list, const std::vector<uint32_t>& order, Tran
     rec.shard = job.shard;
     rec.attempt = job.attempt;
     rec.worker = ev.worker;
+    rec.node = transport.worker_node(ev.worker);
     rec.start_ns = ev.start_ns != 0 ? ev.start_ns : job.assign_ns;
     rec.end_ns = ev.end_ns != 0 ? ev.end_ns : WallNanos();
     if (rec.end_ns < rec.start_ns) rec.end_ns = rec.start_ns;

@@ -62,6 +62,10 @@ std::string AttemptEventLine(const AttemptRecord& r) {
   number("attempt", r.attempt);
   line += ",\"worker\":";
   digits(r.worker);
+  if (!r.node.empty()) {
+    line += ",\"node\":";
+    AppendJsonString(r.node, &line);
+  }
   number("start_ns", r.start_ns);
   number("end_ns", r.end_ns);
   line += ",\"outcome\":";
@@ -121,6 +125,7 @@ void ParseJournal(const std::string& text, const std::string& where, std::vector
       a.shard = JsonValueOr<uint32_t>(j, "shard", 0);
       a.attempt = JsonValueOr<uint32_t>(j, "attempt", 1);
       a.worker = JsonValueOr<int>(j, "worker", 0);
+      a.node = JsonValueOr<std::string>(j, "node", "");
       a.start_ns = JsonValueOr<uint64_t>(j, "start_ns", 0);
       a.end_ns = JsonValueOr<uint64_t>(j, "end_ns", a.start_ns);
       a.outcome = JsonValueOr<std::string>(j, "outcome", "?");
@@ -168,6 +173,7 @@ json AttemptEntryJson(const AttemptEntry& a) {
             {"records", a.records},
             {"kept", a.kept},
             {"malformed", a.malformed}};
+  if (!a.node.empty()) j["node"] = a.node;
   if (a.done()) j["phases"] = a.phases_measured ? "measured" : "estimated";
   if (!a.done()) j["message"] = a.message;
   return j;
