@@ -94,12 +94,14 @@ class Agent {
     FF_RETURN_IF_ERROR(SendMessage(0, kTagReady, EncodeReady({static_cast<uint32_t>(n), session_.host()})));
     std::vector<std::deque<ShardTask>> backlog(static_cast<size_t>(n));
     std::vector<std::pair<uint32_t, uint64_t>> told(static_cast<size_t>(n), {UINT32_MAX, 0});
+    uint64_t last_message_ns = 0;  // monotonic: last task in or event out
     for (;;) {
-      bool busy = false;
+      bool busy = MonotonicNanos() - last_message_ns < kBusyWindowNs;
       int from = 0, tag = 0;
       std::string bytes;
       while (PollMessage(0, &from, &tag, &bytes)) {
         busy = true;
+        last_message_ns = MonotonicNanos();
         if (tag == kTagQuit || tag == kTagStop) {
           pool.Shutdown();
           if (tag == kTagQuit) return Next::kQuit;
@@ -137,7 +139,10 @@ class Agent {
       TransportEvent ev;
       bool got = false;
       if (Status s = pool.Wait(busy ? 0 : 1, &ev, &got); !s.ok()) return AfterFailure(s.message());
-      if (got) FF_RETURN_IF_ERROR(SendEvent(static_cast<uint32_t>(ev.worker), ev));
+      if (got) {
+        FF_RETURN_IF_ERROR(SendEvent(static_cast<uint32_t>(ev.worker), ev));
+        last_message_ns = MonotonicNanos();
+      }
       for (int w = 0; w < n; ++w) {
         uint32_t shard = 0;
         uint64_t since = 0;
@@ -147,6 +152,7 @@ class Agent {
         last = {shard, since};
         FF_RETURN_IF_ERROR(SendMessage(0, kTagStarted, EncodeStarted({static_cast<uint32_t>(w), shard, since})));
       }
+      if (busy && !got) SleepBetweenPolls(last_message_ns);
     }
   }
 

@@ -156,6 +156,7 @@ Status MpiTransport::Wait(int timeout_ms, TransportEvent* event, bool* got) {
     if (PollMessage(-1, &from, &tag, &bytes)) {
       Result<bool> filled = Handle(from, tag, bytes, event);
       if (!filled.ok()) return filled.status();
+      last_message_ns_ = MonotonicNanos();
       if (*filled) {
         *got = true;
         return Status::Ok();
@@ -163,7 +164,7 @@ Status MpiTransport::Wait(int timeout_ms, TransportEvent* event, bool* got) {
       continue;
     }
     if (MonotonicNanos() >= deadline) return Status::Ok();
-    std::this_thread::sleep_for(std::chrono::milliseconds(1));
+    SleepBetweenPolls(last_message_ns_);
   }
 }
 

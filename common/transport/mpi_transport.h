@@ -35,7 +35,7 @@ class MpiTransport final : public Transport {
 
   int worker_count() const override;
   bool idle(int w) const override;
-  int room(int w) const override;  // kQueueDepth per slot
+  int room(int w) const override;  // kQueueDepth per slot (the run loop asks for fewer)
   Status Assign(int w, const ShardTask& task) override;
   bool Running(int w, uint32_t* shard, uint64_t* since_ns) const override;
   Status Wait(int timeout_ms, TransportEvent* event, bool* got) override;
@@ -46,9 +46,10 @@ class MpiTransport final : public Transport {
   ~MpiTransport() override { Shutdown(); }
   std::string worker_node(int w) const override;
 
-  // Shards a slot holds at once: one running, one waiting on the agent so
-  // that no round trip separates them.
-  static constexpr int kQueueDepth = 2;
+  // Shards a slot may hold at once: one running, the others waiting on the
+  // agent so that no round trip separates them (the agent queues what its
+  // local worker cannot take yet).
+  static constexpr int kQueueDepth = 8;
 
  private:
   struct Slot {
@@ -67,6 +68,7 @@ class MpiTransport final : public Transport {
   std::vector<int> first_slot_;  // per rank: index of its first slot
   std::vector<std::string> hosts_;  // per rank
   bool shut_down_ = false;
+  uint64_t last_message_ns_ = 0;  // monotonic: when an agent last sent something
 };
 
 }  // namespace fanfold

@@ -3,8 +3,11 @@
 #include <mpi.h>
 
 #include <algorithm>
+#include <chrono>
+#include <thread>
 
 #include "common/base/byte_io.h"
+#include "common/port/clock.h"
 
 namespace fanfold {
 namespace {
@@ -123,6 +126,11 @@ Status DecodeStarted(const std::string& bytes, StartedMessage* m) {
   m->shard = r.U32();
   m->since_ns = r.U64();
   return r.ok() && r.at_end() ? Status::Ok() : Truncated("started");
+}
+
+void SleepBetweenPolls(uint64_t last_message_ns) {
+  const bool busy = MonotonicNanos() - last_message_ns < kBusyWindowNs;
+  std::this_thread::sleep_for(busy ? std::chrono::microseconds(20) : std::chrono::microseconds(1000));
 }
 
 Status SendMessage(int dest, int tag, const std::string& bytes) {

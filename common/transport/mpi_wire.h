@@ -32,6 +32,12 @@ enum MpiTag : int {
   kTagStopped = 16, // agent -> 0: its workers are gone (answers kTagStop)
 };
 
+// How long to sleep between two polls that found nothing: 1 ms when idle
+// (an idle rank costs next to nothing), 20 us for kBusyWindowNs after the
+// last message (a stream of small shards is bound by this latency).
+inline constexpr uint64_t kBusyWindowNs = 3'000'000;
+void SleepBetweenPolls(uint64_t last_message_ns);
+
 // Largest piece of a partial in one message (MPI counts are int).
 inline constexpr uint64_t kMpiPieceBytes = 1u << 30;
 
