@@ -124,7 +124,7 @@ class Agent {
           ev.shard = m.task.index;
           ev.message = problem;
           ev.start_ns = ev.end_ns = WallNanos();
-          FF_RETURN_IF_ERROR(SendEvent(m.slot, ev));
+          FF_RETURN_IF_ERROR(SendEvent(m.slot, ev, piece_bytes_));
           continue;
         }
         backlog[m.slot].push_back(std::move(m.task));
@@ -140,7 +140,7 @@ class Agent {
       bool got = false;
       if (Status s = pool.Wait(busy ? 0 : 1, &ev, &got); !s.ok()) return AfterFailure(s.message());
       if (got) {
-        FF_RETURN_IF_ERROR(SendEvent(static_cast<uint32_t>(ev.worker), ev));
+        FF_RETURN_IF_ERROR(SendEvent(static_cast<uint32_t>(ev.worker), ev, piece_bytes_));
         last_message_ns = MonotonicNanos();
       }
       for (int w = 0; w < n; ++w) {
@@ -158,6 +158,7 @@ class Agent {
 
   MpiSession& session_;
   const Result<std::string>& binary_;
+  const uint64_t piece_bytes_ = PieceBytesFromEnvironment();
 };
 
 }  // namespace

@@ -3,6 +3,7 @@
 #include <mpi.h>
 
 #include <algorithm>
+#include <cstdlib>
 #include <chrono>
 #include <thread>
 
@@ -154,7 +155,15 @@ bool PollMessage(int source, int* from, int* tag, std::string* bytes) {
   return true;
 }
 
-Status SendEvent(uint32_t slot, const TransportEvent& ev) {
+uint64_t PieceBytesFromEnvironment() {
+  const char* v = std::getenv("FANFOLD_TEST_ONLY_MPI_PIECE_BYTES");
+  if (v == nullptr || *v == '\0') return kMpiPieceBytes;
+  char* end = nullptr;
+  const unsigned long long n = std::strtoull(v, &end, 10);
+  return (*end == '\0' && n >= 1 && n <= kMpiPieceBytes) ? n : kMpiPieceBytes;
+}
+
+Status SendEvent(uint32_t slot, const TransportEvent& ev, uint64_t piece_bytes) {
   std::string out;
   ByteWriter w(&out);
   w.U8(static_cast<uint8_t>(ev.kind));
@@ -165,11 +174,11 @@ Status SendEvent(uint32_t slot, const TransportEvent& ev) {
   w.U64(ev.end_ns);
   w.Str(ev.message);
   w.U64(ev.partial.size());
-  const size_t first = std::min<size_t>(ev.partial.size(), kMpiPieceBytes);
+  const size_t first = std::min<size_t>(ev.partial.size(), piece_bytes);
   out.append(ev.partial.data(), first);
   FF_RETURN_IF_ERROR(SendMessage(0, kTagEvent, out));
-  for (size_t at = first; at < ev.partial.size(); at += kMpiPieceBytes) {
-    const size_t n = std::min<size_t>(ev.partial.size() - at, kMpiPieceBytes);
+  for (size_t at = first; at < ev.partial.size(); at += piece_bytes) {
+    const size_t n = std::min<size_t>(ev.partial.size() - at, piece_bytes);
     int rc = MPI_Send(ev.partial.data() + at, static_cast<int>(n), MPI_BYTE, 0, kTagPiece, MPI_COMM_WORLD);
     if (rc != MPI_SUCCESS) return Status::IoError("MPI_Send of a partial's piece to rank 0 failed");
   }

@@ -84,8 +84,12 @@ Status SendMessage(int dest, int tag, const std::string& bytes);
 // receives it and returns true.
 bool PollMessage(int source, int* from, int* tag, std::string* bytes);
 // Sends event `ev` of local worker `slot` to rank 0: kTagEvent with the
-// header and the partial's first piece, then kTagPiece for the rest.
-Status SendEvent(uint32_t slot, const TransportEvent& ev);
+// header and the partial's first piece, then kTagPiece for the rest
+// (pieces of piece_bytes; tests make them small to run the multi-piece path).
+Status SendEvent(uint32_t slot, const TransportEvent& ev, uint64_t piece_bytes = kMpiPieceBytes);
+// kMpiPieceBytes, or the test-only FANFOLD_TEST_ONLY_MPI_PIECE_BYTES
+// (a whole number 1..kMpiPieceBytes) when set.
+uint64_t PieceBytesFromEnvironment();
 // Decodes a kTagEvent message received from `from` into *slot and *ev,
 // receiving the partial's remaining pieces from `from`.
 Status ReceiveEventRest(int from, const std::string& bytes, uint32_t* slot, TransportEvent* ev);

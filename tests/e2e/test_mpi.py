@@ -157,6 +157,13 @@ def main():
                 checks.check(rc == 0 and got == want,
                              "%s under mpirun -np %d -j %d: exit %d, %s: %s" %
                              (name, np, j, rc, "same bytes" if got == want else "DIFFERENT bytes", err[-800:]))
+        # Intent: partials cut into many pieces (test-only piece size of 64 bytes) arrive whole.
+        rc, want, _ = local(env, ["run", gen_path, "-o", "-", "-q", "-j", 2, "--run-dir", env.path("piece-ref")])
+        rc2, got, err = mpirun(env, 3, ["run", gen_path, "-o", "-", "-q", "-j", 1, "--run-dir", env.path("pieces")],
+                               extra_env={"FANFOLD_TEST_ONLY_MPI_PIECE_BYTES": "64"})
+        checks.check(rc == 0 and rc2 == 0 and got == want,
+                     "64-byte pieces under mpirun -np 3: exit %d, %s: %s" %
+                     (rc2, "same bytes" if got == want else "DIFFERENT bytes", err[-800:]))
         # Intent: the journal names the node of every attempt of an MPI run.
         with open(env.path("mpi-3-1", "generated-300", "journal.ndjson")) as f:
             jl = [json.loads(line) for line in f]
