@@ -1,6 +1,6 @@
 // The MPI messages between rank 0 (MpiTransport) and the node agents
-// (RunNodeAgent): their tags, their byte layouts (common/base/byte_io.h
-// encoding) and the few MPI calls that move them, all on MPI_COMM_WORLD as
+// (RunNodeAgent): their tags and the few MPI calls that move them (the
+// byte layouts: common/transport/agent_messages.h), all on MPI_COMM_WORLD as
 // MPI_BYTE. docs/mpi.md lists every kind and layout; keep the two in step.
 // Receiving never blocks the caller while nothing came (PollMessage is
 // MPI_Iprobe), except for a partial's remaining pieces, which the sender
@@ -12,7 +12,7 @@
 #include <vector>
 
 #include "common/base/status.h"
-#include "common/job/shard_task.h"
+#include "common/transport/agent_messages.h"
 #include "common/transport/transport.h"
 
 namespace fanfold {
@@ -38,44 +38,6 @@ enum MpiTag : int {
 inline constexpr uint64_t kBusyWindowNs = 3'000'000;
 void SleepBetweenPolls(uint64_t last_message_ns);
 
-// Largest piece of a partial in one message (MPI counts are int).
-inline constexpr uint64_t kMpiPieceBytes = 1u << 30;
-
-struct HelloMessage {
-  uint32_t workers = 0;                  // per agent; 0 = the agent's cores
-  std::string spill_dir;                 // where partials too big for shared memory go
-  std::vector<std::string> worker_args;  // fanfold-worker's JOB FORMAT PLAN BASE_DIR
-};
-struct ReadyMessage {
-  uint32_t workers = 0;
-  std::string host;
-};
-struct FailedMessage {
-  std::string host;
-  std::string message;
-};
-struct TaskMessage {
-  uint32_t slot = 0;
-  ShardTask task;  // with the file identity rank 0 listed
-};
-struct StartedMessage {
-  uint32_t slot = 0;
-  uint32_t shard = 0;
-  uint64_t since_ns = 0;
-};
-
-std::string EncodeHello(const HelloMessage& m);
-Status DecodeHello(const std::string& bytes, HelloMessage* m);
-std::string EncodeReady(const ReadyMessage& m);
-Status DecodeReady(const std::string& bytes, ReadyMessage* m);
-std::string EncodeFailed(const FailedMessage& m);
-Status DecodeFailed(const std::string& bytes, FailedMessage* m);
-std::string EncodeTask(const TaskMessage& m);
-Status DecodeTask(const std::string& bytes, TaskMessage* m);
-std::string EncodeSlot(uint32_t slot);  // kTagAbort
-Status DecodeSlot(const std::string& bytes, uint32_t* slot);
-std::string EncodeStarted(const StartedMessage& m);
-Status DecodeStarted(const std::string& bytes, StartedMessage* m);
 
 // Sends `bytes` to rank `dest` with `tag` (MPI_Send; small messages leave
 // at once).
