@@ -171,6 +171,43 @@ def main():
         checks.check(attempts and all(str(e.get("node", "")).startswith("rank ") for e in attempts),
                      "journal attempts of an MPI run name their node: %s" % (attempts[:1],))
 
+        # Intent: the HTML report and the timings export show the node of each attempt of an MPI run.
+        html, timings = env.path("mpi-report.html"), env.path("mpi-timings.json")
+        rc, _, err = local(env, ["report", env.path("mpi-3-1", "generated-300"), "-o", html, "--timings-json", timings,
+                                 "-q"])
+        if checks.check(rc == 0, "report of an MPI run: exit %d: %s" % (rc, err[-600:])):
+            with open(html) as f:
+                page = f.read()
+            with open(timings) as f:
+                rows = json.load(f)
+            checks.check('<span class="node">rank 1 on ' in page and '<span class="node">rank 2 on ' in page,
+                         "the report's shard table names ranks 1 and 2")
+            checks.check(rows and all(r.get("node", "").startswith("rank ") for r in rows),
+                         "every exported attempt of the MPI run has its node: %s" % (rows[:1],))
+
+        # ---- a worker dying on a node: retried there, the agent goes on
+        rc, gen_want, _ = local(env, ["run", gen_path, "-o", "-", "-q", "-j", 2, "--run-dir", env.path("crash-ref")])
+        crash_dir = env.path("crash-mpi")
+        rc, got, err = mpirun(env, 3, ["run", gen_path, "-o", "-", "-q", "-j", 1, "--run-dir", crash_dir],
+                              extra_env={"FANFOLD_TEST_ONLY_FAULTS":
+                                         "inject:crash:shard=5,attempt=1;crash:shard=200,attempt=1"})
+        # Intent: worker crashes under an agent are retried like local ones; the result is unchanged.
+        checks.check(rc == 0 and got == gen_want, "two worker crashes under mpirun: exit %d, %s: %s" %
+                     (rc, "same bytes" if got == gen_want else "DIFFERENT bytes", err[-800:]))
+        with open(os.path.join(crash_dir, "journal.ndjson")) as f:
+            died = [e for e in map(json.loads, f) if e.get("event") == "attempt" and e.get("outcome") == "died"]
+        checks.check(sorted(e["shard"] for e in died) == [5, 200] and all(not e["final"] for e in died),
+                     "the journal has the two crashed attempts, retried: %s" % died)
+
+        # ---- the per-shard time limit reaches a worker on a node (started + abort messages)
+        rc, _, err = mpirun(env, 2, ["run", gen_path, "-o", "-", "-q", "-j", 2, "--attempts", 1,
+                                     "--shard-time-limit", 1, "--run-dir", env.path("limit-mpi")],
+                            extra_env={"FANFOLD_TEST_ONLY_FAULTS": "inject:stall:shard=7"})
+        err = err.decode("utf-8", "replace")
+        # Intent: a shard stuck on a node is killed at the limit and fails alone (exit 1, no hang).
+        checks.check(rc == 1 and "per-shard time limit" in err, "stalled shard under mpirun with a 1 s limit: "
+                     "exit %d: %s" % (rc, err[-800:]))
+
         # ---- node failure: SIGKILL an agent, then resume
         kjob = gen_path
         rc, want, err = local(env, ["run", kjob, "-o", "-", "-q", "-j", 2, "--run-dir", env.path("kill-ref")])
