@@ -43,9 +43,15 @@ MPI_ENV = {
 }
 
 
+# Open MPI keeps some allocations of MPI_Init past MPI_Finalize; under the
+# sanitizer build (LeakSanitizer) they are not fanfold's leaks.
+LSAN_SUPPRESSIONS = os.path.join(os.path.dirname(os.path.abspath(__file__)), "lsan-openmpi.supp")
+
+
 def mpirun(env, np, argv, extra_env=None, timeout=120, background=False):
     e = dict(os.environ)
     e.update(MPI_ENV)
+    e["LSAN_OPTIONS"] = ":".join(x for x in [e.get("LSAN_OPTIONS", ""), "suppressions=" + LSAN_SUPPRESSIONS] if x)
     if extra_env:
         e.update(extra_env)
     cmd = ["mpirun", "-np", str(np), env.fanfold] + [str(a) for a in argv]
@@ -171,6 +177,14 @@ def main():
         checks.check(attempts and all(str(e.get("node", "")).startswith("rank ") for e in attempts),
                      "journal attempts of an MPI run name their node: %s" % (attempts[:1],))
 
+        # Intent: summary.json and the journal's start line count every agent's workers (-np 4 -j 2: 3 x 2).
+        with open(env.path("mpi-4-2", "generated-300", "summary.json")) as f:
+            summary = json.load(f)
+        with open(env.path("mpi-4-2", "generated-300", "journal.ndjson")) as f:
+            starts = [e for e in map(json.loads, f) if e.get("event") == "start"]
+        checks.check(summary.get("workers") == 6 and starts and starts[-1].get("workers") == 6,
+                     "workers of an MPI run: summary %s, start line %s (want 6)" %
+                     (summary.get("workers"), starts[-1:]))
         # Intent: the HTML report and the timings export show the node of each attempt of an MPI run.
         html, timings = env.path("mpi-report.html"), env.path("mpi-timings.json")
         rc, _, err = local(env, ["report", env.path("mpi-3-1", "generated-300"), "-o", html, "--timings-json", timings,
