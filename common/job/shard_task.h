@@ -17,6 +17,10 @@ struct ShardTask {
   uint64_t length = UINT64_MAX;    // byte range length; UINT64_MAX = to the end
   Compression compression = Compression::kNone;
   uint32_t attempt = 1;            // 1 for the first try, 2.. for retries
+  // The file's identity when the coordinator listed it (0/0 = not given):
+  // a transport that reads the file elsewhere (MPI) checks it first.
+  uint64_t file_size = 0;
+  int64_t mtime_ns = 0;
 };
 
 }  // namespace fanfold

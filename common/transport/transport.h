@@ -61,6 +61,9 @@ class Transport {
   virtual Status Abort(int w) = 0;
   // Stops all workers and releases every resource (idempotent).
   virtual void Shutdown() = 0;
+  // Where worker w runs when that is not this machine (MPI: "rank 2 on
+  // node7"), for the journal; "" for local workers.
+  virtual std::string worker_node(int w) const { return ""; }
 };
 
 }  // namespace fanfold

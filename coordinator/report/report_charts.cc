@@ -43,7 +43,8 @@ std::string OutcomeLabel(const AttemptEntry& a) {
 
 std::string AttemptTitle(const RunRecord& r, const AttemptEntry& a, double s0, double s1) {
   std::string t = "shard " + std::to_string(a.shard) + " · " + FileName(r.ShardPath(a.shard)) + "\nattempt " +
-                  std::to_string(a.attempt) + " on worker " + std::to_string(a.worker) + ": " + OutcomeLabel(a) +
+                  std::to_string(a.attempt) + " on worker " + std::to_string(a.worker) +
+                  (a.node.empty() ? "" : " (" + a.node + ")") + ": " + OutcomeLabel(a) +
                   "\n" + Fmt("%.3f", s0) + " s → " + Fmt("%.3f", s1) + " s (" + DurationText(s1 - s0) + ")";
   if (a.done()) {
     t += "\n" + GroupedInteger(a.records) + " records (" + GroupedInteger(a.kept) + " kept, " +

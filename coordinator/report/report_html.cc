@@ -265,7 +265,7 @@ std::string AllShardsSection(const RunRecord& r) {
     }
     const AttemptEntry& e = *it->second.first;
     h += "<td>" + Esc(e.done() ? "done" : e.outcome) + "</td><td class=\"n\">" + std::to_string(e.worker) +
-         "</td><td class=\"n\">" + std::to_string(it->second.second) + "</td><td class=\"n\">" +
+         (e.node.empty() ? "" : "<br><span class=\"node\">" + Esc(e.node) + "</span>") + "</td><td class=\"n\">" + std::to_string(it->second.second) + "</td><td class=\"n\">" +
          Fmt("%.1f", e.seconds() * 1e3) + "</td><td class=\"n\">" + ms(e.read_ns) + "</td><td class=\"n\">" +
          ms(e.parse_ns) + "</td><td class=\"n\">" + ms(e.aggregate_ns) + "</td><td class=\"n\">" + ms(e.encode_ns) +
          "</td><td class=\"n\">" + Fmt("%.2f", e.bytes_in / 1e6) + "</td><td class=\"n\">" +

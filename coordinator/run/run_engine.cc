@@ -128,11 +128,14 @@ Status RunEngine::Reload() {
 }
 
 Status RunEngine::Run() {
+  Result<std::unique_ptr<Transport>> transport = std::unique_ptr<Transport>();
+  if (!in_.pending.empty())
+    transport = MakeTransport(plan_, options_, workers_, (std::filesystem::path(dir_.path()) / "partials").string());
+  // The transport's own count: under MPI, every agent's workers together.
+  if (transport.ok() && *transport) workers_ = (*transport)->worker_count();
   dir_.StageJournal(
       StartEventLine(in_.mode, CurrentPid(), workers_, in_.pending.size(), in_.reused.size(), WallNanos()));
   if (in_.pending.empty()) return Status::Ok();
-  Result<std::unique_ptr<Transport>> transport =
-      MakeTransport(plan_, options_, workers_, (std::filesystem::path(dir_.path()) / "partials").string());
   if (!transport.ok()) return transport.status();
   Result<std::vector<uint32_t>> all = DispatchOrder(list_.shards);
   if (!all.ok()) return all.status();

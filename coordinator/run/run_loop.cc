@@ -84,6 +84,8 @@ Status RunShards(const ShardList& list, const std::vector<uint32_t>& order, Tran
         task.length = s.length;
         task.compression = s.compression;
         task.attempt = attempt;
+        task.file_size = s.file_size;
+        task.mtime_ns = s.mtime_ns;
         const uint64_t assign_ns = WallNanos();
         FF_RETURN_IF_ERROR(transport.Assign(w, task));
         workers[static_cast<size_t>(w)].push_back(InFlight{shard, attempt, s.bytes(), assign_ns, false});
@@ -118,6 +120,7 @@ Status RunShards(const ShardList& list, const std::vector<uint32_t>& order, Tran
     rec.shard = job.shard;
     rec.attempt = job.attempt;
     rec.worker = ev.worker;
+    rec.node = transport.worker_node(ev.worker);
     rec.start_ns = ev.start_ns != 0 ? ev.start_ns : job.assign_ns;
     rec.end_ns = ev.end_ns != 0 ? ev.end_ns : WallNanos();
     if (rec.end_ns < rec.start_ns) rec.end_ns = rec.start_ns;

@@ -85,6 +85,10 @@ std::string AttemptEventLine(const AttemptRecord& r) {
   number("attempt", r.attempt);
   line += ",\"worker\":";
   digits(r.worker);
+  if (!r.node.empty()) {
+    line += ",\"node\":";
+    AppendJsonString(r.node, &line);
+  }
   number("start_ns", r.start_ns);
   number("end_ns", r.end_ns);
   line += ",\"outcome\":";
@@ -148,6 +152,7 @@ void ParseJournal(const std::string& text, const std::string& where, std::vector
       a.shard = JsonValueOr<uint32_t>(j, "shard", 0);
       a.attempt = JsonValueOr<uint32_t>(j, "attempt", 1);
       a.worker = JsonValueOr<int>(j, "worker", 0);
+      a.node = JsonValueOr<std::string>(j, "node", "");
       a.start_ns = JsonValueOr<uint64_t>(j, "start_ns", 0);
       a.end_ns = JsonValueOr<uint64_t>(j, "end_ns", a.start_ns);
       a.outcome = JsonValueOr<std::string>(j, "outcome", "?");
@@ -215,14 +220,23 @@ std::vector<GenerationEntry> ParseGenerations(const std::string& text) {
 }
 
 json AttemptEntryJson(const AttemptEntry& a) {
-  json j = {{"shard", a.shard},         {"attempt", a.attempt},
-            {"worker", a.worker},       {"outcome", a.outcome},
-            {"final", a.final},         {"start_ns", a.start_ns},
-            {"end_ns", a.end_ns},       {"read_ns", a.read_ns},
-            {"parse_ns", a.parse_ns},   {"aggregate_ns", a.aggregate_ns},
-            {"encode_ns", a.encode_ns}, {"bytes_in", a.bytes_in},
-            {"bytes_raw", a.bytes_raw}, {"records", a.records},
-            {"kept", a.kept},           {"malformed", a.malformed}};
+  json j = {{"shard", a.shard},
+            {"attempt", a.attempt},
+            {"worker", a.worker},
+            {"outcome", a.outcome},
+            {"final", a.final},
+            {"start_ns", a.start_ns},
+            {"end_ns", a.end_ns},
+            {"read_ns", a.read_ns},
+            {"parse_ns", a.parse_ns},
+            {"aggregate_ns", a.aggregate_ns},
+            {"encode_ns", a.encode_ns},
+            {"bytes_in", a.bytes_in},
+            {"bytes_raw", a.bytes_raw},
+            {"records", a.records},
+            {"kept", a.kept},
+            {"malformed", a.malformed}};
+  if (!a.node.empty()) j["node"] = a.node;
   if (a.done()) j["phases"] = a.phases_measured ? "measured" : "estimated";
   if (!a.done()) j["message"] = a.message;
   return j;

@@ -22,6 +22,7 @@ struct AttemptRecord {
   uint32_t shard = 0;
   uint32_t attempt = 0;
   int worker = -1;
+  std::string node;       // where the worker ran when not here (MPI: "rank 2 on node7"); "" = this machine
   uint64_t start_ns = 0;  // wall clock, ns since the Unix epoch
   uint64_t end_ns = 0;
   enum class Outcome { kDone, kFailed, kDied, kTimedOut, kRejected } outcome = Outcome::kDone;
@@ -35,6 +36,7 @@ struct AttemptEntry {
   uint32_t shard = 0;
   uint32_t attempt = 1;
   int worker = 0;
+  std::string node;       // "" unless the run used MPI (then e.g. "rank 2 on node7")
   uint64_t start_ns = 0;  // wall clock, ns since the Unix epoch (coordinator)
   uint64_t end_ns = 0;
   std::string outcome;  // "done", "failed", "died", "timed-out", "rejected"
