@@ -72,20 +72,35 @@ void Merger::Drain() {
     if (s.ok() && p.reductions.size() != results_.size())
       s = Status::Corrupt("partial state has " + std::to_string(p.reductions.size()) + " reductions; the plan has " +
                           std::to_string(results_.size()));
-    // Every byte is checked before any is merged, so a bad partial leaves
-    // the result as it was and costs only its own shard.
-    for (size_t r = 0; r < results_.size() && s.ok(); ++r) s = results_[r].table.CheckEncoded(p.reductions[r].groups);
+    // Without a reloader every byte is checked before any is merged, so a
+    // bad partial leaves the result as it was and costs only its own shard.
+    // With one, the merge checks as it goes (one decode of each state, not
+    // two) and a bad partial found midway has the result rebuilt from the
+    // run directory without it (Rebuild): the same bytes, paid only then.
+    for (size_t r = 0; r < results_.size() && s.ok() && !reload_; ++r)
+      s = results_[r].table.CheckEncoded(p.reductions[r].groups);
+    bool partly_merged = false;
+    for (size_t r = 0; r < results_.size() && s.ok(); ++r) {
+      Status m = results_[r].table.MergeEncoded(p.reductions[r].groups);
+      if (!m.ok() && reload_ && m.code() != Status::Code::kLimitExceeded) {
+        s = m;
+        partly_merged = true;
+      } else if (!m.ok() && fatal_.ok()) {
+        fatal_ = m.WithContext("merging shard " + std::to_string(next_));
+      }
+    }
     if (!s.ok()) {  // the checksum matched, so this is a bug or a forged file
       late_failures_.push_back({next_, s.message()});
       failed_[next_] = true;
+      if (partly_merged) {
+        Status rebuilt = Rebuild(next_);
+        if (!rebuilt.ok() && fatal_.ok())
+          fatal_ = rebuilt.WithContext("rebuilding the result without shard " + std::to_string(next_));
+      }
       ++next_;
       continue;
     }
-    for (size_t r = 0; r < results_.size(); ++r) {
-      Status m = results_[r].table.MergeEncoded(p.reductions[r].groups);
-      if (!m.ok() && fatal_.ok()) fatal_ = m.WithContext("merging shard " + std::to_string(next_));
-      totals_.kept_by_reduction[r] += p.reductions[r].kept;
-    }
+    for (size_t r = 0; r < results_.size(); ++r) totals_.kept_by_reduction[r] += p.reductions[r].kept;
     totals_.shards_merged++;
     totals_.records += p.header.records;
     totals_.kept += p.header.kept;
@@ -106,6 +121,24 @@ void Merger::Drain() {
       if (samples_.size() < kMaxReportedSamples) samples_.push_back({next_, std::move(sample)});
     ++next_;
   }
+}
+
+Status Merger::Rebuild(uint32_t end) {
+  for (size_t r = 0; r < results_.size(); ++r) results_[r].table = GroupTable(&plan_->reductions[r].configs);
+  std::string bytes;
+  for (uint32_t shard = 0; shard < end; ++shard) {
+    if (failed_[shard]) continue;
+    bytes.clear();
+    FF_RETURN_IF_ERROR(reload_(shard, &bytes));
+    OpenedPartial p;
+    FF_RETURN_IF_ERROR(OpenPartial(bytes, &p, /*checksum_checked=*/false));
+    if (p.reductions.size() != results_.size()) return Status::Corrupt("shard " + std::to_string(shard) + " changed");
+    for (size_t r = 0; r < results_.size(); ++r) {
+      Status m = results_[r].table.MergeEncoded(p.reductions[r].groups);
+      if (!m.ok()) return m.WithContext("shard " + std::to_string(shard));
+    }
+  }
+  return Status::Ok();
 }
 
 Result<OutputTable> Merger::Finish(size_t r) {

@@ -94,6 +94,10 @@ class Merger {
 
  private:
   void Drain();  // merges every ready partial starting at next_
+  // Refolds every reduction's table from scratch over the shards below
+  // `end` that were merged, read back with the reloader (after a partial
+  // found bad midway through its merge). REQUIRES: reload_ set.
+  Status Rebuild(uint32_t end);
 
   const Plan* plan_;
   uint32_t shard_count_;
