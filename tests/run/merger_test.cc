@@ -189,6 +189,55 @@ TEST_CASE("merger: a malformed body found midway is rebuilt away with a reloader
   }
 }
 
+// Intent: results moved to sorted runs (from the first shard on, or after
+// a few groups; one or two key ranges) give the in-memory tables' bytes in
+// any arrival order, and a forged partial in a batch is dropped there
+// alone: the result is exactly that of the other shards.
+TEST_CASE("merger: results folded as sorted runs equal the in-memory tables") {
+  const auto plan = TestPlan();
+  const uint32_t n = 9;
+  std::map<uint32_t, std::string> disk;
+  for (uint32_t s = 0; s < n; ++s) disk[s] = PartialFor(*plan, s, /*pad=*/static_cast<int>(s % 3));
+  Merger in_memory(plan.get(), n);
+  for (uint32_t s = 0; s < n; ++s) REQUIRE(in_memory.Add(s, disk[s]).ok());
+  CHECK_FALSE(in_memory.in_runs());
+  const std::string expected = ResultText(in_memory);
+
+  std::vector<MeasureConfig> configs;
+  for (const auto& m : plan->reductions[0].measures) configs.push_back(m.config);
+  PartialState p(&configs);
+  REQUIRE(DecodePartial(disk[4], &p).ok());
+  std::string body;
+  EncodePartialBody(p, &body);
+  body[body.size() - 3] = '\x7f';  // inside the last group's states: framing or a state breaks
+  const std::string forged = WrapBody(disk[4], body);
+  Merger without4(plan.get(), n);
+  for (uint32_t s = 0; s < n; ++s)
+    if (s != 4) REQUIRE(without4.Add(s, disk[s]).ok());
+  without4.MarkFailed(4);
+  const std::string expected_without4 = ResultText(without4);
+
+  for (uint64_t threshold : {1, 6})
+    for (size_t threads : {1, 2})
+      for (bool forge : {false, true}) {
+        CAPTURE(threshold);
+        CAPTURE(threads);
+        CAPTURE(forge);
+        Merger m(plan.get(), n, /*waiting_budget=*/0);
+        m.SetRunThreshold(threshold, threads);
+        m.SetReloader([&](uint32_t s, std::string* out) {
+          *out = forge && s == 4 ? forged : disk[s];
+          return Status::Ok();
+        });
+        for (uint32_t s : {2u, 0u, 1u, 8u, 3u, 4u, 7u, 6u, 5u}) REQUIRE(m.Add(s, forge && s == 4 ? forged : disk[s]).ok());
+        REQUIRE(m.complete());
+        CHECK(m.in_runs());
+        CHECK(m.late_failures().size() == (forge ? 1u : 0u));
+        CHECK(m.totals().shards_merged == (forge ? n - 1 : n));
+        CHECK(ResultText(m) == (forge ? expected_without4 : expected));
+      }
+}
+
 // Intent: with a reloader, early partials are held in memory only up to
 // the waiting budget; past it they wait on disk, and their buffers are
 // released, not just emptied (clear() keeps the capacity).
