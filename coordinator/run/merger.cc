@@ -110,12 +110,12 @@ void Merger::Drain() {
     }
     Account(next_, p);
     ++next_;
-    if (run_threshold_ > 0)
-      for (const ReductionResult& result : results_)
-        if (result.table.group_count() > run_threshold_) {
-          StartRuns();
-          break;
-        }
+    // Checked after merging (a table may pass the threshold by one
+    // partial's new groups): before, a partial's groups cannot be told
+    // new from old without looking each up, and many shards over the same
+    // keys must stay on the faster tables.
+    for (size_t r = 0; r < results_.size() && !runs_ && run_threshold_ > 0; ++r)
+      if (results_[r].table.group_count() > run_threshold_) StartRuns();
   }
   if (runs_ && next_ == shard_count_ && runs_->pending()) FoldRuns();
 }

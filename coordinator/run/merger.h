@@ -75,12 +75,13 @@ class Merger {
   using Reloader = std::function<Status(uint32_t shard, std::string* out)>;
   void SetReloader(Reloader reload) { reload_ = std::move(reload); }
 
-  // Once any reduction's table holds more than `groups` groups, every
-  // reduction's result moves to a key-sorted run folded batch by batch over
-  // `threads` key ranges (coordinator/merge/run_results.h): the same bytes
-  // in a fraction of the memory. 0 keeps the tables whatever their size.
+  // Once any reduction's table holds more than `groups` groups (checked
+  // after each partial), every reduction's result moves to a key-sorted run
+  // folded batch by batch over `threads` key ranges
+  // (coordinator/merge/run_results.h): the same bytes in a fraction of the
+  // memory. 0 keeps the tables whatever their size.
   // REQUIRES: called before the first Add.
-  static constexpr uint64_t kDefaultRunThreshold = 1'000'000;
+  static constexpr uint64_t kDefaultRunThreshold = 100'000;
   void SetRunThreshold(uint64_t groups, size_t threads) {
     run_threshold_ = groups;
     run_threads_ = threads;

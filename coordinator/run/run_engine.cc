@@ -189,6 +189,8 @@ Status RunEngine::Commit(const Status& run) {
 
 void RunEngine::Tally() {
   if (merger_.in_runs()) LogDebug("merge: the results were folded as sorted runs (docs/streaming-merge.md)");
+  LogDebug("merge: coordinator peak RSS before the output stage: " +
+           std::to_string(PeakRssBytes() >> 20) + " MiB");
   for (const auto& [shard, message] : merger_.late_failures())
     loop_.failures.push_back({shard, list_.shards[shard].path, message, 1});
   summary_.shards_total = list_.shards.size();
