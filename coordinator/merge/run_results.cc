@@ -30,7 +30,7 @@ void RunResults::Add(uint32_t shard, std::unique_ptr<OpenedPartial> p) {
   batch_.emplace_back(shard, std::move(p));
 }
 
-bool RunResults::BatchFull() const { return batch_groups_ * 4 >= run_groups_ || batch_bytes_ >= kMaxBatchBytes; }
+bool RunResults::BatchFull() const { return batch_groups_ >= 2 * run_groups_ || batch_bytes_ >= kMaxBatchBytes; }
 
 RunResults::Folded RunResults::Fold() {
   Folded out;

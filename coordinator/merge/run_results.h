@@ -34,11 +34,12 @@ class RunResults {
   // shards in ascending order) to the pending batch.
   void Add(uint32_t shard, std::unique_ptr<OpenedPartial> p);
   bool pending() const { return !batch_.empty(); }
-  // True iff the pending batch is big enough to fold: its groups are a
-  // quarter of the runs' (rewriting the runs is then a small part of the
-  // work), or its partials hold kMaxBatchBytes.
+  // True iff the pending batch is big enough to fold: its groups are
+  // twice the runs' (rewriting the runs then costs at most about half of
+  // folding the batch), or its partials' bodies hold kMaxBatchBytes (the
+  // memory a batch may take).
   bool BatchFull() const;
-  static constexpr uint64_t kMaxBatchBytes = uint64_t{256} << 20;
+  static constexpr uint64_t kMaxBatchBytes = uint64_t{64} << 20;
 
   struct Folded {
     // The batch's partials that folded, in shard order (for the totals).
