@@ -75,8 +75,9 @@ class GroupFold {
 
 // Cut keys for `parts` ranges of about equal size: keys of the input with
 // the most groups at evenly spaced positions (its framing is read, no
-// state). Fewer come back when that input has fewer groups.
-Result<std::vector<std::string>> SplitKeys(const FoldInputs& in, size_t measure_count, size_t parts);
+// state). Fewer come back when that input has fewer groups, or bad framing
+// before a cut (which the fold then reports, naming the input).
+std::vector<std::string> SplitKeys(const FoldInputs& in, size_t measure_count, size_t parts);
 
 // The whole fold into *out (replacing it) as a GroupTable encoding, over
 // `threads` key ranges folded at once (1 = in this thread).
