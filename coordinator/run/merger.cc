@@ -85,7 +85,11 @@ void Merger::Drain() {
     // With one, the merge checks as it goes (one decode of each state, not
     // two) and a bad partial found midway has the result rebuilt from the
     // run directory without it (Rebuild): the same bytes, paid only then.
-    for (size_t r = 0; r < results_.size() && s.ok() && !reload_; ++r)
+    // After one such partial the rest are checked first, as without a
+    // reloader: a worker that keeps producing them costs one rebuild, not
+    // one per partial.
+    const bool check_first = !reload_ || !late_failures_.empty();
+    for (size_t r = 0; r < results_.size() && s.ok() && check_first; ++r)
       s = results_[r].table.CheckEncoded(p.reductions[r].groups);
     bool partly_merged = false;
     for (size_t r = 0; r < results_.size() && s.ok(); ++r) {

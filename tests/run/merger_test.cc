@@ -187,6 +187,39 @@ TEST_CASE("merger: a malformed body found midway is rebuilt away with a reloader
       if (bad > 0 && !reversed) CHECK(reloads == static_cast<int>(bad));  // the rebuild read every shard before it
     }
   }
+  // Two forged partials: one rebuild (for the first); the second is then
+  // caught by the check before it is merged.
+  {
+    std::map<uint32_t, std::string> forged_disk = disk;
+    for (uint32_t bad : {1u, 4u}) {
+      PartialState p(&configs);
+      REQUIRE(DecodePartial(disk[bad], &p).ok());
+      std::string body, table;
+      EncodePartialBody(p, &body);
+      ByteWriter tw(&table);
+      p.reductions[0].groups.Encode(tw);
+      const uint64_t cut = table.size() - 1;
+      std::memcpy(body.data() + body.size() - table.size() - 8, &cut, 8);
+      body.pop_back();
+      forged_disk[bad] = WrapBody(disk[bad], body);
+    }
+    Merger without(plan.get(), n);
+    for (uint32_t s = 0; s < n; ++s)
+      if (s != 1 && s != 4) REQUIRE(without.Add(s, disk[s]).ok());
+    without.MarkFailed(1);
+    without.MarkFailed(4);
+    Merger m(plan.get(), n, /*waiting_budget=*/uint64_t{1} << 30);
+    int reloads = 0;
+    m.SetReloader([&](uint32_t s, std::string* out) {
+      ++reloads;
+      *out = forged_disk[s];
+      return Status::Ok();
+    });
+    for (uint32_t s = 0; s < n; ++s) REQUIRE(m.Add(s, forged_disk[s]).ok());
+    CHECK(m.late_failures().size() == 2);
+    CHECK(reloads == 1);  // the rebuild for shard 1 read shard 0; none for shard 4
+    CHECK(ResultText(m) == ResultText(without));
+  }
 }
 
 // Intent: results moved to sorted runs (from the first shard on, or after
