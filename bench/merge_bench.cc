@@ -2,8 +2,13 @@
 // partial states. Builds P encoded partials of G groups each (744 x 50,000
 // by default) with the measures of a benchmark job file, through the same
 // GroupTable / PartialState / EncodePartial path a worker uses, and times
-// Merger::Add (header check, checksum, zstd, check, merge from the bytes) for each, in
-// shard order, then Merger::Finish. Encoding is not timed: T templates are
+// Merger::Add (header check, checksum, zstd, merge from the bytes) for each, in
+// shard order, then Merger::Finish. As in a run, the merger can reload a
+// partial (here: rebuild its bytes), so it decodes each state once;
+// --check-first leaves the reloader out, and every partial is checked
+// before it is merged (two decodes). --runs GROUPS[:THREADS] sets the
+// merger's sorted-run threshold (0: tables only; docs/streaming-merge.md).
+// Encoding is not timed: T templates are
 // encoded once, and each partial is a copy of one with its shard index
 // restamped. --time-limit stops early and extrapolates to all P partials.
 // Prints one JSON object on stdout; exit status 0, 2 bad usage, 3 failure.
@@ -39,6 +44,9 @@ struct BenchOptions {
   uint64_t values = 4;      // records added per group per partial
   uint64_t templates = 4;   // distinct partial contents, shifted key windows
   double time_limit_s = 0;  // stop merging after this long (0 = never) and extrapolate
+  bool check_first = false;  // no reloader: check every partial, then merge it
+  uint64_t run_threshold = Merger::kDefaultRunThreshold;
+  uint64_t fold_threads = 1;
 };
 
 // SplitMix64 (Steele, Lea & Flood 2014): a fixed, seedable stream.
@@ -85,7 +93,7 @@ void RestampShardIndex(uint32_t shard, std::string* partial) {
 int Usage(const std::string& message) {
   std::fprintf(stderr,
                "merge_bench: %s\nusage: merge_bench --job JOB.json [--partials N] [--groups N] "
-               "[--values N] [--templates N] [--time-limit S]\n",
+               "[--values N] [--templates N] [--time-limit S] [--check-first yes|no] [--runs GROUPS[:THREADS]]\n",
                message.c_str());
   return 2;
 }
@@ -154,6 +162,13 @@ int Run(const BenchOptions& o) {
   const double build_s = Seconds(std::chrono::steady_clock::now() - build_start);
 
   Merger merger(&pl, static_cast<uint32_t>(o.partials));
+  merger.SetRunThreshold(o.run_threshold, static_cast<size_t>(o.fold_threads));
+  if (!o.check_first)
+    merger.SetReloader([&](uint32_t shard, std::string* out) {
+      *out = encoded[shard % o.templates];
+      RestampShardIndex(shard, out);
+      return Status::Ok();
+    });
   std::vector<double> each_s;
   double merge_s = 0, merge_cpu_s = 0;
   uint64_t encoded_bytes = 0;
@@ -205,13 +220,15 @@ int Run(const BenchOptions& o) {
       "\"values_per_group\": %llu, \"result_groups\": %zu, \"measures\": %zu, \"mean_partial_bytes\": %.0f, "
       "\"build_s\": %.3f, \"merge_s\": %.4f, \"merge_all_s\": %.4f, \"merge_cpu_s\": %.4f, "
       "\"merge_all_cpu_s\": %.4f, \"finish_s\": %.4f, "
-      "\"per_partial_ms\": {\"median\": %.3f, \"min\": %.3f, \"max\": %.3f}, \"peak_rss_kib\": %ld}\n",
+      "\"per_partial_ms\": {\"median\": %.3f, \"min\": %.3f, \"max\": %.3f}, \"peak_rss_kib\": %ld, "
+      "\"sorted_runs\": %s, \"check_first\": %s}\n",
       static_cast<unsigned long long>(o.partials), static_cast<unsigned long long>(merged),
       static_cast<unsigned long long>(o.groups), static_cast<unsigned long long>(o.values), table->rows.size(),
       pl.reductions[0].measures.size(), static_cast<double>(encoded_bytes) / static_cast<double>(merged), build_s, merge_s,
       merge_s * static_cast<double>(o.partials) / static_cast<double>(merged), merge_cpu_s,
       merge_cpu_s * static_cast<double>(o.partials) / static_cast<double>(merged), finish_s,
-      1000 * sorted[sorted.size() / 2], 1000 * sorted.front(), 1000 * sorted.back(), ru.ru_maxrss);
+      1000 * sorted[sorted.size() / 2], 1000 * sorted.front(), 1000 * sorted.back(), ru.ru_maxrss,
+      merger.in_runs() ? "true" : "false", o.check_first ? "true" : "false");
   return 0;
 }
 
@@ -235,6 +252,13 @@ int main(int argc, char** argv) {
       ok = fanfold::ParseCount(value, 1, 1000, &o.values);
     } else if (flag == "--templates") {
       ok = fanfold::ParseCount(value, 1, 64, &o.templates);
+    } else if (flag == "--check-first") {
+      ok = value == "yes" || value == "no";
+      o.check_first = value == "yes";
+    } else if (flag == "--runs") {
+      const size_t colon = value.find(':');
+      ok = fanfold::ParseCount(value.substr(0, colon), 0, UINT64_MAX, &o.run_threshold) &&
+           (colon == std::string_view::npos || fanfold::ParseCount(value.substr(colon + 1), 1, 64, &o.fold_threads));
     } else if (flag == "--time-limit") {
       uint64_t secs = 0;
       ok = fanfold::ParseCount(value, 0, 86400, &secs);

@@ -1,7 +1,7 @@
 // GroupTable: encoded group key → one MeasureState per measure. Workers fill
 // one per shard (FindOrAdd per record); the coordinator folds shard tables,
 // in shard order and straight from their encoding, into one table with
-// CheckEncoded + MergeEncoded. Keys are
+// MergeEncoded (after CheckEncoded when a bad table must leave it as it was). Keys are
 // the bytes of common/partial/group_key.h; lookups hash the key once and allocate
 // only when a new group appears. Not thread-safe.
 //
@@ -48,9 +48,12 @@ class GroupTable {
   // table for these measures, without changing this one.
   Status CheckEncoded(std::string_view encoded);
   // Folds the encoded table into this one, group by group and measure by
-  // measure (MeasureState::MergeEncoded), building no intermediate table.
-  // REQUIRES: CheckEncoded(encoded) succeeded, so a failure here is a
-  // bounded measure past its limit and leaves this table partly merged.
+  // measure (MeasureState::MergeEncoded), building no intermediate table,
+  // checking every byte as CheckEncoded does while it goes. A failure
+  // (corrupt bytes, or a bounded measure past its limit) leaves this table
+  // partly merged: callers either ran CheckEncoded first, so only a limit
+  // can fail here, or discard the table on failure (coordinator/run/merger
+  // rebuilds it).
   Status MergeEncoded(std::string_view encoded);
 
   void Encode(ByteWriter& w) const;

@@ -1,6 +1,7 @@
 #include "coordinator/run/merger.h"
 
 #include "common/partial/group_key.h"
+#include "coordinator/merge/encoded_group_cursor.h"
 
 namespace fanfold {
 namespace {
@@ -60,7 +61,8 @@ void Merger::Drain() {
     }
     auto it = waiting_.find(next_);
     if (it == waiting_.end()) break;
-    OpenedPartial p;
+    auto opened = std::make_unique<OpenedPartial>();
+    OpenedPartial& p = *opened;
     std::string bytes = std::move(it->second);
     waiting_.erase(it);
     waiting_bytes_ -= bytes.size();
@@ -72,45 +74,118 @@ void Merger::Drain() {
     if (s.ok() && p.reductions.size() != results_.size())
       s = Status::Corrupt("partial state has " + std::to_string(p.reductions.size()) + " reductions; the plan has " +
                           std::to_string(results_.size()));
-    // Every byte is checked before any is merged, so a bad partial leaves
-    // the result as it was and costs only its own shard.
-    for (size_t r = 0; r < results_.size() && s.ok(); ++r) s = results_[r].table.CheckEncoded(p.reductions[r].groups);
+    if (s.ok() && runs_) {  // the fold checks it, and drops it if bad
+      runs_->Add(next_, std::move(opened));
+      ++next_;
+      if (runs_->BatchFull()) FoldRuns();
+      continue;
+    }
+    // Without a reloader every byte is checked before any is merged, so a
+    // bad partial leaves the result as it was and costs only its own shard.
+    // With one, the merge checks as it goes (one decode of each state, not
+    // two) and a bad partial found midway has the result rebuilt from the
+    // run directory without it (Rebuild): the same bytes, paid only then.
+    // After one such partial the rest are checked first, as without a
+    // reloader: a worker that keeps producing them costs one rebuild, not
+    // one per partial.
+    const bool check_first = !reload_ || !late_failures_.empty();
+    for (size_t r = 0; r < results_.size() && s.ok() && check_first; ++r)
+      s = results_[r].table.CheckEncoded(p.reductions[r].groups);
+    bool partly_merged = false;
+    for (size_t r = 0; r < results_.size() && s.ok(); ++r) {
+      Status m = results_[r].table.MergeEncoded(p.reductions[r].groups);
+      if (!m.ok() && reload_ && m.code() != Status::Code::kLimitExceeded) {
+        s = m;
+        partly_merged = true;
+      } else if (!m.ok() && fatal_.ok()) {
+        fatal_ = m.WithContext("merging shard " + std::to_string(next_));
+      }
+    }
     if (!s.ok()) {  // the checksum matched, so this is a bug or a forged file
       late_failures_.push_back({next_, s.message()});
       failed_[next_] = true;
+      if (partly_merged) {
+        Status rebuilt = Rebuild(next_);
+        if (!rebuilt.ok() && fatal_.ok())
+          fatal_ = rebuilt.WithContext("rebuilding the result without shard " + std::to_string(next_));
+      }
       ++next_;
       continue;
     }
+    Account(next_, p);
+    ++next_;
+    // Checked after merging (a table may pass the threshold by one
+    // partial's new groups): before, a partial's groups cannot be told
+    // new from old without looking each up, and many shards over the same
+    // keys must stay on the faster tables.
+    for (size_t r = 0; r < results_.size() && !runs_ && run_threshold_ > 0; ++r)
+      if (results_[r].table.group_count() > run_threshold_) StartRuns();
+  }
+  if (runs_ && next_ == shard_count_ && runs_->pending()) FoldRuns();
+}
+
+void Merger::Account(uint32_t shard, OpenedPartial& p) {
+  for (size_t r = 0; r < results_.size(); ++r) totals_.kept_by_reduction[r] += p.reductions[r].kept;
+  totals_.shards_merged++;
+  totals_.records += p.header.records;
+  totals_.kept += p.header.kept;
+  totals_.malformed += p.header.malformed;
+  totals_.raw_bytes += p.header.raw_bytes;
+  totals_.compressed_bytes += p.header.compressed_bytes;
+  if (p.field_present.size() == totals_.field_present.size()) {
+    for (size_t f = 0; f < p.field_present.size(); ++f) totals_.field_present[f] += p.field_present[f];
+  } else {
+    totals_.field_counts_known = false;
+  }
+  if (p.lookup_unmatched.size() == totals_.lookup_unmatched.size()) {
+    for (size_t t = 0; t < p.lookup_unmatched.size(); ++t) totals_.lookup_unmatched[t] += p.lookup_unmatched[t];
+  } else {
+    totals_.lookup_counts_known = false;
+  }
+  for (auto& sample : p.samples)
+    if (samples_.size() < kMaxReportedSamples) samples_.push_back({shard, std::move(sample)});
+}
+
+void Merger::StartRuns() {
+  runs_ = std::make_unique<RunResults>(plan_, run_threads_);
+  for (size_t r = 0; r < results_.size(); ++r) {
+    runs_->Start(r, results_[r].table);
+    results_[r].table = GroupTable(&plan_->reductions[r].configs);  // its memory goes back
+  }
+}
+
+void Merger::FoldRuns() {
+  RunResults::Folded f = runs_->Fold();
+  for (auto& [shard, message] : f.bad) {  // the checksum matched, so this is a bug or a forged file
+    late_failures_.push_back({shard, std::move(message)});
+    failed_[shard] = true;
+  }
+  if (!f.fatal.ok() && fatal_.ok()) fatal_ = f.fatal.WithContext("merging shards into the sorted runs");
+  for (auto& [shard, p] : f.merged) Account(shard, *p);
+}
+
+Status Merger::Rebuild(uint32_t end) {
+  for (size_t r = 0; r < results_.size(); ++r) results_[r].table = GroupTable(&plan_->reductions[r].configs);
+  std::string bytes;
+  for (uint32_t shard = 0; shard < end; ++shard) {
+    if (failed_[shard]) continue;
+    bytes.clear();
+    FF_RETURN_IF_ERROR(reload_(shard, &bytes));
+    OpenedPartial p;
+    FF_RETURN_IF_ERROR(OpenPartial(bytes, &p, /*checksum_checked=*/false));
+    if (p.reductions.size() != results_.size()) return Status::Corrupt("shard " + std::to_string(shard) + " changed");
     for (size_t r = 0; r < results_.size(); ++r) {
       Status m = results_[r].table.MergeEncoded(p.reductions[r].groups);
-      if (!m.ok() && fatal_.ok()) fatal_ = m.WithContext("merging shard " + std::to_string(next_));
-      totals_.kept_by_reduction[r] += p.reductions[r].kept;
+      if (!m.ok()) return m.WithContext("shard " + std::to_string(shard));
     }
-    totals_.shards_merged++;
-    totals_.records += p.header.records;
-    totals_.kept += p.header.kept;
-    totals_.malformed += p.header.malformed;
-    totals_.raw_bytes += p.header.raw_bytes;
-    totals_.compressed_bytes += p.header.compressed_bytes;
-    if (p.field_present.size() == totals_.field_present.size()) {
-      for (size_t f = 0; f < p.field_present.size(); ++f) totals_.field_present[f] += p.field_present[f];
-    } else {
-      totals_.field_counts_known = false;
-    }
-    if (p.lookup_unmatched.size() == totals_.lookup_unmatched.size()) {
-      for (size_t t = 0; t < p.lookup_unmatched.size(); ++t) totals_.lookup_unmatched[t] += p.lookup_unmatched[t];
-    } else {
-      totals_.lookup_counts_known = false;
-    }
-    for (auto& sample : p.samples)
-      if (samples_.size() < kMaxReportedSamples) samples_.push_back({next_, std::move(sample)});
-    ++next_;
   }
+  return Status::Ok();
 }
 
 Result<OutputTable> Merger::Finish(size_t r) {
   if (!complete()) return Status::Internal("Merger::Finish before every shard was merged");
   if (!fatal_.ok()) return fatal_;
+  if (runs_) return FinishFromRun(r);
   const ReductionPlan& plan = plan_->reductions[r];
   GroupTable& result = results_[r].table;
   OutputTable t;
@@ -135,6 +210,44 @@ Result<OutputTable> Merger::Finish(size_t r) {
     }
     t.rows.push_back(std::move(row));
   }
+  SortRows(&t, {});
+  return t;
+}
+
+}  // namespace fanfold
+
+namespace fanfold {
+
+Result<OutputTable> Merger::FinishFromRun(size_t r) {
+  const ReductionPlan& plan = plan_->reductions[r];
+  OutputTable t;
+  t.columns = plan.columns;
+  t.key_columns = plan.group.size();
+  std::vector<uint64_t>& skipped = results_[r].skipped;
+  std::vector<uint64_t>& degraded = results_[r].degraded;
+  skipped.assign(plan.measures.size(), 0);
+  degraded.assign(plan.measures.size(), 0);
+  std::vector<std::unique_ptr<MeasureState>> states;
+  for (const MeasureConfig& c : plan.configs) states.push_back(NewMeasureState(c));
+  // The run holds each group's states as the in-memory table would encode
+  // them; decoded one group at a time, they finalize to the same cells.
+  EncodedGroupCursor groups(runs_->run(r), states.size());
+  t.rows.reserve(groups.group_count());
+  while (groups.Next()) {
+    std::vector<Cell> row;
+    row.reserve(t.columns.size());
+    FF_RETURN_IF_ERROR(DecodeKey(groups.key(), plan.group.size(), &row));
+    for (size_t m = 0; m < states.size(); ++m) {
+      ByteReader sr(groups.state(m));
+      Status s = states[m]->Decode(sr);
+      if (!s.ok()) return s.WithContext("the merged run, group " + std::to_string(groups.groups_read() - 1));
+      states[m]->Finalize(&row);
+      skipped[m] += states[m]->skipped();
+      degraded[m] += states[m]->degraded() ? 1 : 0;
+    }
+    t.rows.push_back(std::move(row));
+  }
+  if (!groups.status().ok()) return groups.status().WithContext("the merged run");
   SortRows(&t, {});
   return t;
 }

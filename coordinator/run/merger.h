@@ -2,15 +2,20 @@
 // shard-index order, whatever order they arrive in, so floating-point
 // results are identical for any worker count or schedule. Partials that
 // arrive early wait (as bytes) until every lower shard is merged or marked
-// failed. Owned and driven by the coordinator's run loop; not thread-safe.
+// failed. The result is an in-memory GroupTable per reduction until one
+// passes the run threshold, then key-sorted runs folded in batches
+// (docs/streaming-merge.md): the same bytes either way. Owned and driven
+// by the coordinator's run loop; not thread-safe.
 #pragma once
 
 #include <cstdint>
 #include <functional>
 #include <map>
+#include <memory>
 #include <string>
 #include <vector>
 
+#include "coordinator/merge/run_results.h"
 #include "coordinator/output/output_table.h"
 #include "common/partial/partial_codec.h"
 #include "common/job/plan.h"
@@ -73,6 +78,20 @@ class Merger {
   using Reloader = std::function<Status(uint32_t shard, std::string* out)>;
   void SetReloader(Reloader reload) { reload_ = std::move(reload); }
 
+  // Once any reduction's table holds more than `groups` groups (checked
+  // after each partial), every reduction's result moves to a key-sorted run
+  // folded batch by batch over `threads` key ranges
+  // (coordinator/merge/run_results.h): the same bytes in a fraction of the
+  // memory. 0 keeps the tables whatever their size.
+  // REQUIRES: called before the first Add.
+  static constexpr uint64_t kDefaultRunThreshold = 100'000;
+  void SetRunThreshold(uint64_t groups, size_t threads) {
+    run_threshold_ = groups;
+    run_threads_ = threads;
+  }
+  // True iff the results moved to runs.
+  bool in_runs() const { return runs_ != nullptr; }
+
   // True iff every shard was added or marked failed.
   bool complete() const { return next_ == shard_count_; }
   const MergeTotals& totals() const { return totals_; }
@@ -94,6 +113,15 @@ class Merger {
 
  private:
   void Drain();  // merges every ready partial starting at next_
+  // Refolds every reduction's table from scratch over the shards below
+  // `end` that were merged, read back with the reloader (after a partial
+  // found bad midway through its merge). REQUIRES: reload_ set.
+  Status Rebuild(uint32_t end);
+  // Adds a merged partial's counts and samples to the totals.
+  void Account(uint32_t shard, OpenedPartial& p);
+  void StartRuns();  // moves every reduction's table to a run
+  void FoldRuns();   // folds the runs' pending batch, accounting for it
+  Result<OutputTable> FinishFromRun(size_t r);
 
   const Plan* plan_;
   uint32_t shard_count_;
@@ -114,6 +142,9 @@ class Merger {
   std::vector<MalformedReport> samples_;
   std::vector<std::pair<uint32_t, std::string>> late_failures_;
   Status fatal_;  // first merge failure (a limit exceeded across shards)
+  uint64_t run_threshold_ = kDefaultRunThreshold;
+  size_t run_threads_ = 1;
+  std::unique_ptr<RunResults> runs_;  // set once the results moved to runs
 };
 
 }  // namespace fanfold

@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <chrono>
 #include <cstdio>
+#include <cstdlib>
 #include <filesystem>
 #include <iostream>
 #include <thread>
@@ -52,6 +53,28 @@ Status WriteOutput(const std::string& path, const std::string& text) {
   std::error_code ec;
   if (!parent.empty()) std::filesystem::create_directories(parent, ec);
   return WriteFileAtomic(path, text);
+}
+
+// FANFOLD_TEST_ONLY_MERGE_RUNS=GROUPS[:THREADS] (tests only, never for
+// users): the merger moves its results to sorted runs past GROUPS groups and
+// folds them over THREADS key ranges, so small test jobs take that path.
+Status ApplyTestOnlyMergeRuns(Merger* merger) {
+  const char* sw = std::getenv("FANFOLD_TEST_ONLY_MERGE_RUNS");
+  if (sw == nullptr || *sw == '\0') return Status::Ok();
+  const std::string text(sw);
+  char* end = nullptr;
+  const uint64_t groups = std::strtoull(text.c_str(), &end, 10);
+  uint64_t threads = 1;
+  if (end != text.c_str() && *end == ':') {
+    const char* t = end + 1;
+    threads = std::strtoull(t, &end, 10);
+    if (end == t || threads < 1 || threads > 64) end = nullptr;
+  }
+  if (end == nullptr || end == text.c_str() || *end != '\0')
+    return Status::InvalidArgument("FANFOLD_TEST_ONLY_MERGE_RUNS: expected GROUPS or GROUPS:THREADS (1 to 64), found '" +
+                                   text + "'");
+  merger->SetRunThreshold(groups, static_cast<size_t>(threads));
+  return Status::Ok();
 }
 
 }  // namespace
@@ -109,6 +132,7 @@ void RunEngine::Prepare() {
 }
 
 Status RunEngine::Reload() {
+  FF_RETURN_IF_ERROR(ApplyTestOnlyMergeRuns(&merger_));
   for (uint32_t s : in_.reused) {
     std::string bytes;
     PartialHeader h;
@@ -177,6 +201,9 @@ Status RunEngine::Commit(const Status& run) {
 }
 
 void RunEngine::Tally() {
+  if (merger_.in_runs()) LogDebug("merge: the results were folded as sorted runs (docs/streaming-merge.md)");
+  LogDebug("merge: coordinator peak RSS before the output stage: " +
+           std::to_string(PeakRssBytes() >> 20) + " MiB");
   for (const auto& [shard, message] : merger_.late_failures())
     loop_.failures.push_back({shard, list_.shards[shard].path, message, 1});
   summary_.shards_total = list_.shards.size();

@@ -130,6 +130,147 @@ TEST_CASE("merger: a malformed body costs only its shard") {
   CHECK(ResultText(with) == expected);
 }
 
+// Intent: with a reloader the merge checks while it folds (no separate
+// check pass), so a forged partial is found after some of its groups were
+// merged; the result is then refolded from the "disk" without it and comes
+// out exactly as if that shard had failed, whether it was found first, in
+// the middle or last, and in any arrival order.
+TEST_CASE("merger: a malformed body found midway is rebuilt away with a reloader") {
+  const auto plan = TestPlan();
+  const uint32_t n = 6;
+  std::map<uint32_t, std::string> disk;
+  for (uint32_t s = 0; s < n; ++s) disk[s] = PartialFor(*plan, s, /*pad=*/3);
+  std::vector<MeasureConfig> configs;
+  for (const auto& m : plan->reductions[0].measures) configs.push_back(m.config);
+  for (uint32_t bad : {0u, 3u, 5u}) {
+    Merger without(plan.get(), n);
+    for (uint32_t s = 0; s < n; ++s)
+      if (s != bad) REQUIRE(without.Add(s, disk[s]).ok());
+    without.MarkFailed(bad);
+    const std::string expected = ResultText(without);
+
+    PartialState p(&configs);
+    REQUIRE(DecodePartial(disk[bad], &p).ok());
+    std::string body, table;
+    EncodePartialBody(p, &body);
+    ByteWriter tw(&table);
+    p.reductions[0].groups.Encode(tw);
+    // The body ends with the one reduction's u64 table length and table
+    // (partial_codec.h): cut the table's last byte and say so in its
+    // length, so the framing holds and only the last group's last state is
+    // short: every earlier group merges before the merge finds it.
+    REQUIRE(body.size() > table.size() + 8);
+    REQUIRE(body.compare(body.size() - table.size(), table.size(), table) == 0);
+    const uint64_t cut = table.size() - 1;
+    std::memcpy(body.data() + body.size() - table.size() - 8, &cut, 8);
+    body.pop_back();
+    std::map<uint32_t, std::string> forged_disk = disk;
+    forged_disk[bad] = WrapBody(disk[bad], body);
+    for (bool reversed : {false, true}) {
+      Merger m(plan.get(), n, /*waiting_budget=*/0);
+      int reloads = 0;
+      m.SetReloader([&](uint32_t s, std::string* out) {
+        ++reloads;
+        *out = forged_disk[s];
+        return Status::Ok();
+      });
+      for (uint32_t i = 0; i < n; ++i) {
+        const uint32_t s = reversed ? n - 1 - i : i;
+        REQUIRE(m.Add(s, forged_disk[s]).ok());  // header and checksum hold
+      }
+      REQUIRE(m.complete());
+      REQUIRE(m.late_failures().size() == 1);
+      CHECK(m.late_failures()[0].first == bad);
+      CHECK(m.totals().shards_merged == n - 1);
+      CHECK(m.totals().records == 7 * (n - 1));
+      CHECK(ResultText(m) == expected);
+      if (bad > 0 && !reversed) CHECK(reloads == static_cast<int>(bad));  // the rebuild read every shard before it
+    }
+  }
+  // Two forged partials: one rebuild (for the first); the second is then
+  // caught by the check before it is merged.
+  {
+    std::map<uint32_t, std::string> forged_disk = disk;
+    for (uint32_t bad : {1u, 4u}) {
+      PartialState p(&configs);
+      REQUIRE(DecodePartial(disk[bad], &p).ok());
+      std::string body, table;
+      EncodePartialBody(p, &body);
+      ByteWriter tw(&table);
+      p.reductions[0].groups.Encode(tw);
+      const uint64_t cut = table.size() - 1;
+      std::memcpy(body.data() + body.size() - table.size() - 8, &cut, 8);
+      body.pop_back();
+      forged_disk[bad] = WrapBody(disk[bad], body);
+    }
+    Merger without(plan.get(), n);
+    for (uint32_t s = 0; s < n; ++s)
+      if (s != 1 && s != 4) REQUIRE(without.Add(s, disk[s]).ok());
+    without.MarkFailed(1);
+    without.MarkFailed(4);
+    Merger m(plan.get(), n, /*waiting_budget=*/uint64_t{1} << 30);
+    int reloads = 0;
+    m.SetReloader([&](uint32_t s, std::string* out) {
+      ++reloads;
+      *out = forged_disk[s];
+      return Status::Ok();
+    });
+    for (uint32_t s = 0; s < n; ++s) REQUIRE(m.Add(s, forged_disk[s]).ok());
+    CHECK(m.late_failures().size() == 2);
+    CHECK(reloads == 1);  // the rebuild for shard 1 read shard 0; none for shard 4
+    CHECK(ResultText(m) == ResultText(without));
+  }
+}
+
+// Intent: results moved to sorted runs (from the first shard on, or after
+// a few groups; one or two key ranges) give the in-memory tables' bytes in
+// any arrival order, and a forged partial in a batch is dropped there
+// alone: the result is exactly that of the other shards.
+TEST_CASE("merger: results folded as sorted runs equal the in-memory tables") {
+  const auto plan = TestPlan();
+  const uint32_t n = 9;
+  std::map<uint32_t, std::string> disk;
+  for (uint32_t s = 0; s < n; ++s) disk[s] = PartialFor(*plan, s, /*pad=*/static_cast<int>(s % 3));
+  Merger in_memory(plan.get(), n);
+  for (uint32_t s = 0; s < n; ++s) REQUIRE(in_memory.Add(s, disk[s]).ok());
+  CHECK_FALSE(in_memory.in_runs());
+  const std::string expected = ResultText(in_memory);
+
+  std::vector<MeasureConfig> configs;
+  for (const auto& m : plan->reductions[0].measures) configs.push_back(m.config);
+  PartialState p(&configs);
+  REQUIRE(DecodePartial(disk[4], &p).ok());
+  std::string body;
+  EncodePartialBody(p, &body);
+  body[body.size() - 3] = '\x7f';  // inside the last group's states: framing or a state breaks
+  const std::string forged = WrapBody(disk[4], body);
+  Merger without4(plan.get(), n);
+  for (uint32_t s = 0; s < n; ++s)
+    if (s != 4) REQUIRE(without4.Add(s, disk[s]).ok());
+  without4.MarkFailed(4);
+  const std::string expected_without4 = ResultText(without4);
+
+  for (uint64_t threshold : {1, 6})
+    for (size_t threads : {1, 2})
+      for (bool forge : {false, true}) {
+        CAPTURE(threshold);
+        CAPTURE(threads);
+        CAPTURE(forge);
+        Merger m(plan.get(), n, /*waiting_budget=*/0);
+        m.SetRunThreshold(threshold, threads);
+        m.SetReloader([&](uint32_t s, std::string* out) {
+          *out = forge && s == 4 ? forged : disk[s];
+          return Status::Ok();
+        });
+        for (uint32_t s : {2u, 0u, 1u, 8u, 3u, 4u, 7u, 6u, 5u}) REQUIRE(m.Add(s, forge && s == 4 ? forged : disk[s]).ok());
+        REQUIRE(m.complete());
+        CHECK(m.in_runs());
+        CHECK(m.late_failures().size() == (forge ? 1u : 0u));
+        CHECK(m.totals().shards_merged == (forge ? n - 1 : n));
+        CHECK(ResultText(m) == (forge ? expected_without4 : expected));
+      }
+}
+
 // Intent: with a reloader, early partials are held in memory only up to
 // the waiting budget; past it they wait on disk, and their buffers are
 // released, not just emptied (clear() keeps the capacity).

@@ -1,0 +1,59 @@
+// EncodedGroupCursor: walks one GroupTable encoding (layout in
+// common/partial/group_table.h: varint group count, then per group in
+// strictly ascending key-byte order the key and one length-prefixed state
+// per measure) group by group, without building a GroupTable or decoding
+// any state. Each step yields the key and a view of every measure's state
+// bytes. The framing is checked as the cursor goes (the count fits the
+// bytes, every length fits, keys strictly ascend, nothing trails the last
+// group); the states' own bytes are checked by whoever decodes them.
+// Views point into the encoding, which must outlive the cursor and them.
+// Not thread-safe; a copy resumes independently from the same group.
+#pragma once
+
+#include <cstdint>
+#include <string_view>
+#include <vector>
+
+#include "common/base/byte_io.h"
+#include "common/base/status.h"
+
+namespace fanfold {
+
+class EncodedGroupCursor {
+ public:
+  // measure_count: states per group (the reduction's measure count).
+  EncodedGroupCursor(std::string_view encoded, size_t measure_count);
+
+  // Moves to the next group. Returns true iff there is one; false at the
+  // end of a well-formed encoding (status() ok) or at the first framing
+  // error (status() Corrupt, naming the group), after which it stays false.
+  bool Next();
+  // Moves to the first group whose key is >= `key` (it may be the current
+  // one): Next() until then, reading framing only. Returns true iff there
+  // is such a group.
+  bool SeekAtLeast(std::string_view key);
+
+  // REQUIRES: the last Next() or SeekAtLeast() returned true.
+  std::string_view key() const { return key_; }
+  std::string_view state(size_t j) const { return states_[j]; }
+
+  const Status& status() const { return status_; }
+  uint64_t group_count() const { return count_; }  // as encoded
+  uint64_t groups_read() const { return read_; }   // Next() calls that returned true
+  bool positioned() const { return positioned_; }  // a group is current
+
+ private:
+  bool Fail(const std::string& what);
+
+  ByteReader r_;
+  size_t m_;
+  uint64_t count_ = 0;
+  uint64_t read_ = 0;
+  bool positioned_ = false;
+  bool done_ = false;
+  std::string_view key_;
+  std::vector<std::string_view> states_;
+  Status status_;
+};
+
+}  // namespace fanfold

@@ -1,0 +1,182 @@
+#include "coordinator/merge/group_fold.h"
+
+#include <algorithm>
+#include <thread>
+
+#include "common/base/byte_io.h"
+#include "coordinator/merge/encoded_group_cursor.h"
+
+namespace fanfold {
+namespace {
+
+// Input i of the fold: 0 is the base run (when there is one), then the
+// partials in shard order. The merge order of equal keys is this index.
+struct Source {
+  EncodedGroupCursor cursor;
+  size_t partial;  // index in FoldInputs::partials, or FoldOutcome::kNoPartial for the base
+};
+
+FoldOutcome Failed(Status s, size_t partial) {
+  FoldOutcome o;
+  o.status = std::move(s);
+  o.bad_partial = partial;
+  return o;
+}
+
+FoldOutcome CursorFailed(const Source& src) {
+  return Failed(src.partial == FoldOutcome::kNoPartial
+                    ? src.cursor.status().WithContext("the merged run")
+                    : src.cursor.status().WithContext("partial " + std::to_string(src.partial)),
+                src.partial);
+}
+
+}  // namespace
+
+GroupFold::GroupFold(const std::vector<MeasureConfig>* configs) : configs_(configs) {
+  for (const MeasureConfig& c : *configs) {
+    states_.push_back(NewMeasureState(c));
+    scratch_.push_back(NewMeasureState(c));
+    std::string bytes;
+    ByteWriter w(&bytes);
+    states_.back()->Encode(w);
+    empty_.push_back(std::move(bytes));
+  }
+}
+
+FoldOutcome GroupFold::FoldRange(const FoldInputs& in, const KeyRange& range, std::string* out) {
+  const size_t m = configs_->size();
+  std::vector<Source> sources;
+  sources.reserve(in.partials.size() + 1);
+  if (!in.base.empty()) sources.push_back({EncodedGroupCursor(in.base, m), FoldOutcome::kNoPartial});
+  for (size_t p = 0; p < in.partials.size(); ++p) sources.push_back({EncodedGroupCursor(in.partials[p], m), p});
+  const auto in_range = [&](const EncodedGroupCursor& c) { return !range.bounded || c.key() < range.hi; };
+  // The heap holds the sources positioned on a key in range, smallest key
+  // on top, equal keys in source order (base, then shard order).
+  std::vector<size_t> heap;
+  const auto later = [&](size_t a, size_t b) {
+    const int c = sources[a].cursor.key().compare(sources[b].cursor.key());
+    return c > 0 || (c == 0 && a > b);
+  };
+  for (size_t i = 0; i < sources.size(); ++i) {
+    EncodedGroupCursor& c = sources[i].cursor;
+    if (c.SeekAtLeast(range.lo)) {
+      if (in_range(c)) heap.push_back(i);
+    } else if (!c.status().ok()) {
+      return CursorFailed(sources[i]);
+    }
+  }
+  std::make_heap(heap.begin(), heap.end(), later);
+  FoldOutcome outcome;
+  ByteWriter w(out);
+  std::vector<size_t> holders;  // sources positioned on the current key, in source order
+  while (!heap.empty()) {
+    holders.clear();
+    const std::string_view key = sources[heap.front()].cursor.key();
+    while (!heap.empty() && sources[heap.front()].cursor.key() == key) {
+      std::pop_heap(heap.begin(), heap.end(), later);
+      holders.push_back(heap.back());
+      heap.pop_back();
+    }
+    w.Str(key);
+    const bool from_base = sources[holders[0]].partial == FoldOutcome::kNoPartial;
+    if (from_base && holders.size() == 1) {
+      // No later shard has this key: its state bytes are what the
+      // in-memory table would encode, unchanged.
+      for (size_t j = 0; j < m; ++j) w.Str(sources[holders[0]].cursor.state(j));
+    } else {
+      for (size_t j = 0; j < m; ++j) {
+        MeasureState& st = *states_[j];
+        size_t h = 0;
+        ByteReader first(from_base ? sources[holders[0]].cursor.state(j) : std::string_view(empty_[j]));
+        Status s = st.Decode(first);
+        if (s.ok() && !first.at_end()) s = Status::Corrupt("trailing bytes in measure state");
+        if (!s.ok())
+          return Failed(s.WithContext("the merged run, measure " + std::to_string(j)), FoldOutcome::kNoPartial);
+        if (from_base) h = 1;
+        for (; h < holders.size(); ++h) {
+          const Source& src = sources[holders[h]];
+          ByteReader r(src.cursor.state(j));
+          s = st.MergeEncoded(r, /*apply=*/true, scratch_[j].get());
+          if (s.ok() && !r.at_end()) s = Status::Corrupt("trailing bytes in measure state");
+          if (s.code() == Status::Code::kLimitExceeded) return Failed(s, FoldOutcome::kNoPartial);
+          if (!s.ok())
+            return Failed(s.WithContext("partial " + std::to_string(src.partial) + ", group " +
+                                        std::to_string(src.cursor.groups_read() - 1) + ", measure " +
+                                        std::to_string(j)),
+                          src.partial);
+        }
+        encoded_.clear();
+        ByteWriter sw(&encoded_);
+        st.Encode(sw);
+        w.Str(encoded_);
+      }
+    }
+    ++outcome.groups;
+    for (size_t i : holders) {
+      EncodedGroupCursor& c = sources[i].cursor;
+      if (c.Next()) {
+        if (in_range(c)) {
+          heap.push_back(i);
+          std::push_heap(heap.begin(), heap.end(), later);
+        }
+      } else if (!c.status().ok()) {
+        return CursorFailed(sources[i]);
+      }
+    }
+  }
+  return outcome;
+}
+
+std::vector<std::string> SplitKeys(const FoldInputs& in, size_t measure_count, size_t parts) {
+  std::string_view largest = in.base;
+  uint64_t most = in.base.empty() ? 0 : EncodedGroupCursor(in.base, measure_count).group_count();
+  for (std::string_view p : in.partials) {
+    const uint64_t n = EncodedGroupCursor(p, measure_count).group_count();
+    if (n > most) {
+      most = n;
+      largest = p;
+    }
+  }
+  std::vector<std::string> cuts;
+  if (parts < 2 || most < 2) return cuts;
+  EncodedGroupCursor c(largest, measure_count);
+  for (size_t part = 1; part < parts; ++part) {
+    const uint64_t at = most * part / parts;  // the cut's group index, ascending
+    while (c.groups_read() <= at)
+      if (!c.Next()) return cuts;  // bad framing: the fold itself finds it and names its input
+    if (cuts.empty() || cuts.back() < c.key()) cuts.emplace_back(c.key());
+  }
+  return cuts;
+}
+
+FoldOutcome FoldEncoded(const std::vector<MeasureConfig>* configs, const FoldInputs& in, size_t threads,
+                        std::string* out) {
+  std::vector<KeyRange> ranges(1);
+  if (threads > 1) {
+    for (std::string& cut : SplitKeys(in, configs->size(), threads)) {
+      ranges.back().hi = cut;
+      ranges.back().bounded = true;
+      ranges.push_back(KeyRange{std::move(cut), "", false});
+    }
+  }
+  std::vector<std::string> parts(ranges.size());
+  std::vector<FoldOutcome> outcomes(ranges.size());
+  const auto fold = [&](size_t i) { outcomes[i] = GroupFold(configs).FoldRange(in, ranges[i], &parts[i]); };
+  {
+    std::vector<std::jthread> running;
+    for (size_t i = 1; i < ranges.size(); ++i) running.emplace_back(fold, i);
+    fold(0);
+  }
+  FoldOutcome total;
+  for (FoldOutcome& o : outcomes) {  // the lowest range's failure: the same whatever the thread count
+    if (!o.status.ok()) return std::move(o);
+    total.groups += o.groups;
+  }
+  out->clear();
+  ByteWriter w(out);
+  w.Varint(total.groups);
+  for (const std::string& p : parts) w.Bytes(p);
+  return total;
+}
+
+}  // namespace fanfold

@@ -1,0 +1,87 @@
+// GroupFold: the streaming merge's fold. Given the accumulated result of
+// shards [0, k) as a key-sorted run (a GroupTable encoding, or nothing) and
+// the group-table encodings of the next shards' partials in shard order, it
+// walks them all at once in key order (a k-way merge over
+// EncodedGroupCursors) and writes the result of shards [0, k + n) as a new
+// run. Each key's states fold exactly as coordinator/run/merger's in-memory
+// GroupTable folds them: a left fold in shard order (a state starts empty,
+// or from the run's, and MergeEncoded takes each later shard's bytes), so
+// the bytes equal that table's Encode whatever the batch sizes, and a key
+// only the run holds is copied through untouched. Memory: one state per
+// measure plus one cursor per input, whatever the number of groups.
+//
+// Key ranges split the fold over threads: every key lies in exactly one
+// range, is folded there alone and in shard order, and ranges are written
+// in key order, so the bytes do not depend on the thread count.
+// A GroupFold is single-threaded; FoldEncoded runs one per range.
+// Design and the road from here: docs/streaming-merge.md.
+#pragma once
+
+#include <cstdint>
+#include <memory>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "common/base/status.h"
+#include "common/measures/measure.h"
+
+namespace fanfold {
+
+struct FoldInputs {
+  // The run so far (a GroupTable encoding written by a fold or by
+  // GroupTable::Encode), or empty when there is none yet (an encoding is
+  // never empty: it holds at least its group count).
+  std::string_view base;
+  // Partials' group-table encodings (one reduction each), in shard order.
+  std::vector<std::string_view> partials;
+};
+
+// Keys k with lo <= k < hi; no upper bound when !bounded.
+struct KeyRange {
+  std::string lo;
+  std::string hi;
+  bool bounded = false;
+};
+
+// What a fold failed on: status, and which partial (its index in
+// FoldInputs::partials) holds the bad bytes, or kNoPartial when the base
+// run is bad or a bounded measure went past its limit. A failed fold leaves
+// the base run as it was: the caller drops that partial and folds again.
+struct FoldOutcome {
+  static constexpr size_t kNoPartial = SIZE_MAX;
+  Status status;
+  size_t bad_partial = kNoPartial;
+  uint64_t groups = 0;  // groups written
+};
+
+class GroupFold {
+ public:
+  // configs (one reduction's measures) must outlive the fold.
+  explicit GroupFold(const std::vector<MeasureConfig>* configs);
+
+  // Appends the groups of `in` whose keys lie in `range`, folded, to *out in
+  // ascending key order: per group its key and states, framed as in a
+  // GroupTable encoding but without the leading group count.
+  FoldOutcome FoldRange(const FoldInputs& in, const KeyRange& range, std::string* out);
+
+ private:
+  const std::vector<MeasureConfig>* configs_;
+  std::vector<std::unique_ptr<MeasureState>> states_;   // the key being folded
+  std::vector<std::unique_ptr<MeasureState>> scratch_;  // MergeEncoded's
+  std::vector<std::string> empty_;                      // an empty state's bytes per measure
+  std::string encoded_;                                 // one state's bytes
+};
+
+// Cut keys for `parts` ranges of about equal size: keys of the input with
+// the most groups at evenly spaced positions (its framing is read, no
+// state). Fewer come back when that input has fewer groups, or bad framing
+// before a cut (which the fold then reports, naming the input).
+std::vector<std::string> SplitKeys(const FoldInputs& in, size_t measure_count, size_t parts);
+
+// The whole fold into *out (replacing it) as a GroupTable encoding, over
+// `threads` key ranges folded at once (1 = in this thread).
+FoldOutcome FoldEncoded(const std::vector<MeasureConfig>* configs, const FoldInputs& in, size_t threads,
+                        std::string* out);
+
+}  // namespace fanfold
