@@ -27,14 +27,25 @@ uint32_t WorkerGroupTable::FindOrAdd(std::string_view key) {
 
 void WorkerGroupTable::Encode(ByteWriter& w) const {
   w.Varint(keys_.size());
-  std::string scratch;
+  std::string& out = *w.buffer();
   for (const uint32_t g : KeyOrder(keys_)) {
     w.Str(keys_[g]);
     for (const auto& c : columns_) {
-      scratch.clear();
-      ByteWriter sw(&scratch);
-      c->EncodeGroup(g, sw);
-      w.Str(scratch);
+      // The state is written in place behind a one-byte length, which a
+      // state of 128 bytes or more (rare) widens to its varint afterwards:
+      // no copy through a scratch string.
+      const size_t at = out.size();
+      out.push_back('\0');
+      c->EncodeGroup(g, w);
+      const size_t length = out.size() - at - 1;
+      if (length < 0x80) {
+        out[at] = static_cast<char>(length);
+      } else {
+        std::string varint;
+        ByteWriter(&varint).Varint(length);
+        out[at] = varint[0];
+        out.insert(at + 1, varint, 1);
+      }
     }
   }
 }
