@@ -1,8 +1,9 @@
 // ChunkedArray<T>: a growable array indexed by group id, in chunks of 4,096
-// elements that never move. Growing never copies what is there and never
-// holds an old and a new buffer at once (a vector's doubling does both:
-// with a million groups its peak is 1.5x to 3x the states), and element
-// addresses stay valid. Not thread-safe.
+// elements. Past the first chunk, growing never copies what is there and
+// never holds an old and a new buffer at once (a vector's doubling does
+// both: with a million groups its peak is 1.5x to 3x the states). The first
+// chunk grows as a vector does, so that a table of a few groups (a tiny
+// shard) allocates a few elements, not 4,096. Not thread-safe.
 #pragma once
 
 #include <cstddef>
@@ -25,7 +26,7 @@ class ChunkedArray {
   void Push(T&& x) {
     if ((size_ & (kChunk - 1)) == 0) {
       chunks_.emplace_back();
-      chunks_.back().reserve(kChunk);
+      if (size_ > 0) chunks_.back().reserve(kChunk);
     }
     chunks_.back().push_back(std::move(x));
     ++size_;
