@@ -40,8 +40,8 @@ class TimedSource final : public ByteSource {
 
 // One measure's inputs of the current batch, in record order: the group of
 // each and its arguments (`stride` of them each), fed to the measure's
-// column in one call when the batch ends.
-// Sized for a whole batch, so that queueing never allocates or checks room.
+// column in one call when the batch ends. Sized for a whole batch, so that
+// queueing never allocates or checks for room.
 struct MeasureInputs {
   size_t stride = 0;
   size_t n = 0;
@@ -64,8 +64,8 @@ struct ReductionFeed {
 // derived fields and filter once per record, then every reduction.
 class Aggregator final : public RecordSink {
  public:
-  // REQUIRES: batch is empty and has the plan's width; state has the plan's
-  // reductions; both outlive this.
+  // REQUIRES: batch is empty, has the plan's width and outlives this. Makes
+  // one WorkerGroupTable per reduction of the plan.
   Aggregator(const Plan& plan, RecordBatch* batch, const std::function<void(uint64_t)>& hook, bool every)
       : plan_(plan), hook_(hook), hook_mask_(every ? 0 : 4095), batch_(*batch) {
     for (size_t r = 0; r < plan.reductions.size(); ++r) {
