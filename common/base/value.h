@@ -112,9 +112,40 @@ struct Value {
     const char* b = str.data();
     const char* e = b + str.size();
     if (*b == '+') ++b;  // from_chars rejects a leading '+'
+    if (ShortDecimal(b, e, out)) return true;
     auto [p, ec] = std::from_chars(b, e, *out);
     // from_chars also reads "nan" and "inf": text like that is not a number here.
     return ec == std::errc() && p == e && std::isfinite(*out);
+  }
+
+  // The common CSV cell "-12.375": an optional '-', then digits with at
+  // most one '.', 1 to 15 digits in all and no exponent. Its value is
+  // m / 10^k for integers m < 2^53 and k <= 15, two exact doubles and one
+  // correctly rounded division (Clinger, PLDI 1990), so it equals
+  // from_chars's result. Returns false, *out untouched, for anything else.
+  static bool ShortDecimal(const char* b, const char* e, double* out) {
+    static constexpr double kPow10[] = {1e0, 1e1, 1e2,  1e3,  1e4,  1e5,  1e6,  1e7,
+                                        1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15};
+    const bool negative = b < e && *b == '-';
+    if (negative) ++b;
+    if (e - b > 16 || b == e) return false;
+    uint64_t m = 0;
+    int digits = 0, frac = -1;  // frac: digits after the '.', -1 before one
+    for (const char* c = b; c < e; ++c) {
+      if (*c >= '0' && *c <= '9') {
+        m = m * 10 + static_cast<uint64_t>(*c - '0');
+        ++digits;
+        if (frac >= 0) ++frac;
+      } else if (*c == '.' && frac < 0) {
+        frac = 0;
+      } else {
+        return false;
+      }
+    }
+    if (digits == 0 || digits > 15) return false;
+    const double d = static_cast<double>(m) / kPow10[frac > 0 ? frac : 0];
+    *out = negative ? -d : d;
+    return true;
   }
 
   // Exact numeric view: numbers as they are; a string that is an optional

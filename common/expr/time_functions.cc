@@ -1,6 +1,7 @@
 #include "common/expr/time_functions.h"
 
 #include <cmath>
+#include <cstring>
 
 namespace fanfold {
 namespace {
@@ -91,7 +92,104 @@ IsoWeek IsoWeekFromDays(int64_t days) {
   return IsoWeek{year, static_cast<int>(week)};
 }
 
+namespace {
+
+// The day number of the date at p[0, 10) ("YYYY-MM-DD"), or false iff it
+// is not one. Timestamps of one log mostly share their date, so the last
+// date seen (per thread) is remembered by its ten bytes.
+bool DayOfDate(const char* p, int64_t* days) {
+  struct LastDate {
+    uint64_t head = 0;  // bytes 0..7, "YYYY-MM-"
+    uint16_t tail = 0;  // bytes 8..9, "DD"
+    int64_t days = 0;
+    bool set = false;
+  };
+  thread_local LastDate last;
+  uint64_t head;
+  uint16_t tail;
+  std::memcpy(&head, p, 8);
+  std::memcpy(&tail, p + 8, 2);
+  if (last.set && head == last.head && tail == last.tail) {
+    *days = last.days;
+    return true;
+  }
+  unsigned bad = 0;  // any byte that should be a digit and is not
+  auto digit = [p, &bad](size_t i) {
+    const unsigned v = static_cast<unsigned>(static_cast<unsigned char>(p[i])) - '0';
+    bad |= v > 9 ? 1u : 0u;
+    return static_cast<int>(v);
+  };
+  const int year = digit(0) * 1000 + digit(1) * 100 + digit(2) * 10 + digit(3);
+  const int month = digit(5) * 10 + digit(6);
+  const int day = digit(8) * 10 + digit(9);
+  if (bad != 0 || p[4] != '-' || p[7] != '-' || year < 1 || month < 1 || month > 12 || day < 1 ||
+      day > DaysInMonth(year, month))
+    return false;
+  *days = DaysFromCivil(year, month, day);
+  last = LastDate{head, tail, *days, true};
+  return true;
+}
+
+// The common shape, read at fixed positions without bounds checks per
+// field: YYYY-MM-DD{T|t| }hh:mm:ss, then optionally '.' and 1 to 9
+// fraction digits, then optionally Z, z or an offset +hh:mm / -hh:mm.
+// Returns false when the text has another shape or a field out of range;
+// ParseIsoTimestampGeneral then decides (it accepts everything this does,
+// with the same result).
+bool ParseIsoTimestampCommon(std::string_view text, double* epoch_seconds) {
+  const size_t n = text.size();
+  if (n < 19) return false;
+  const char* p = text.data();
+  unsigned bad = 0;  // any byte that should be a digit and is not
+  auto digit = [p, &bad](size_t i) {
+    const unsigned v = static_cast<unsigned>(static_cast<unsigned char>(p[i])) - '0';
+    bad |= v > 9 ? 1u : 0u;
+    return static_cast<int>(v);
+  };
+  const int hour = digit(11) * 10 + digit(12);
+  const int minute = digit(14) * 10 + digit(15);
+  const int second = digit(17) * 10 + digit(18);
+  const char sep = p[10];
+  if (bad != 0 || p[13] != ':' || p[16] != ':' || (sep != 'T' && sep != 't' && sep != ' ') || hour > 23 ||
+      minute > 59 || second > 59)
+    return false;
+  int64_t days;
+  if (!DayOfDate(p, &days)) return false;
+  int64_t seconds = days * kSecondsPerDay + hour * 3600 + minute * 60 + second;
+  size_t pos = 19;
+  double fraction = 0;
+  if (pos < n && p[pos] == '.') {
+    ++pos;
+    int64_t num = 0, den = 1;
+    for (; pos < n && pos < 29 && p[pos] >= '0' && p[pos] <= '9'; ++pos) {
+      num = num * 10 + (p[pos] - '0');
+      den *= 10;
+    }
+    if (den == 1 || (pos < n && p[pos] >= '0' && p[pos] <= '9')) return false;  // none, or a tenth
+    fraction = static_cast<double>(num) / static_cast<double>(den);
+  }
+  if (pos + 1 == n && (p[pos] == 'Z' || p[pos] == 'z')) {
+    ++pos;
+  } else if (pos + 6 == n && (p[pos] == '+' || p[pos] == '-') && p[pos + 3] == ':') {
+    const int oh = digit(pos + 1) * 10 + digit(pos + 2);
+    const int om = digit(pos + 4) * 10 + digit(pos + 5);
+    if (bad != 0 || oh > 23 || om > 59) return false;
+    const int64_t offset = oh * 3600 + om * 60;
+    seconds += p[pos] == '+' ? -offset : offset;  // local = UTC + offset
+    pos = n;
+  }
+  if (pos != n) return false;
+  *epoch_seconds = static_cast<double>(seconds) + fraction;
+  return true;
+}
+
+}  // namespace
+
 bool ParseIsoTimestamp(std::string_view text, double* epoch_seconds) {
+  return ParseIsoTimestampCommon(text, epoch_seconds) || ParseIsoTimestampGeneral(text, epoch_seconds);
+}
+
+bool ParseIsoTimestampGeneral(std::string_view text, double* epoch_seconds) {
   size_t pos = 0;
   int year, month, day;
   if (!Digits(text, &pos, 4, &year) || !Expect(text, &pos, '-') ||
@@ -197,6 +295,7 @@ size_t FormatTimeBucket(double t, TimeUnit unit, char* out) {
 int ClockHour(double t, const TimeZone& zone) {
   int64_t s;
   if (!WholeSeconds(t, &s)) return -1;
+  if (zone.is_utc()) return static_cast<int>((s - FloorDiv(s, kSecondsPerDay) * kSecondsPerDay) / 3600);
   s = zone.Local(s);
   if (!WholeSeconds(static_cast<double>(s), &s)) return -1;
   return static_cast<int>((s - FloorDiv(s, kSecondsPerDay) * kSecondsPerDay) / 3600);

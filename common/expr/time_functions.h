@@ -44,7 +44,14 @@ int IsoWeekdayFromDays(int64_t days);
 // epoch seconds. Fields are range-checked (month length and leap years
 // included; hour 24 and second 60 are rejected). Fraction digits beyond the
 // ninth are read but ignored. Returns true iff the whole text matched.
+// The common RFC 3339 shape (YYYY-MM-DDThh:mm:ss, up to nine fraction
+// digits after '.', then Z, +hh:mm, -hh:mm or nothing) takes a fast path
+// that reads fixed positions and remembers the last date's day number; every other text goes to ParseIsoTimestampGeneral, which gives
+// the same answer for all texts (tests/expr/time_functions_test.cc checks
+// the two against each other on mutated timestamps).
 bool ParseIsoTimestamp(std::string_view text, double* epoch_seconds);
+// The general parser: the reference for the fast path.
+bool ParseIsoTimestampGeneral(std::string_view text, double* epoch_seconds);
 
 enum class TimeUnit : uint8_t { kMinute, kHour, kDay, kWeek, kMonth };
 

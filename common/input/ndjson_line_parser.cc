@@ -61,7 +61,9 @@ struct NdjsonLineParser::Impl {
 
   ValueChecks checks;
   std::unique_ptr<simdjson::internal::dom_parser_implementation> stage1;
-  std::vector<Frame> stack;
+  // The open objects and arrays, frames[0, depth): a fixed array, so that
+  // opening and closing one is an index update without a capacity check.
+  std::unique_ptr<Frame[]> frames = std::make_unique<Frame[]>(kMaxDepth);
   std::unique_ptr<uint8_t[]> strings;  // unescaped strings of the current line
   size_t strings_cap = 0;
   uint8_t* strings_end = nullptr;
@@ -181,8 +183,9 @@ LineVerdict NdjsonLineParser::Impl::Walk(const char* p, const uint32_t* idx, siz
       return LineVerdict::kNotObject;
     return LineVerdict::kInvalid;
   }
-  stack.clear();
-  stack.push_back(Frame{'{', 0, 0});
+  Frame* const stack = frames.get();
+  size_t depth = 0;
+  stack[depth++] = Frame{'{', 0, 0};
   size_t i = 1;
   int32_t node = -1;  // trie node of the value about to be read
   // Each label is a state of the grammar; every path ends at a return.
@@ -197,7 +200,7 @@ object_key : {
   if (!StringAt(p + idx[i], token_end(i), true, &key)) return LineVerdict::kInvalid;
   if (at(i + 1) != ':') return LineVerdict::kInvalid;
   i += 2;
-  node = Member(stack.back().node, key);
+  node = Member(stack[depth - 1].node, key);
   goto value;
 }
 array_begin:
@@ -206,20 +209,23 @@ array_begin:
     goto scope_end;
   }
 array_value:
-  node = Element(stack.back().node, stack.back().index);
+  node = Element(stack[depth - 1].node, stack[depth - 1].index);
 value : {
   const int slot = node >= 0 ? (*nodes)[node].slot : -1;
   const char c = at(i);
   switch (c) {
     case '{':
     case '[':
-      if (stack.size() >= kMaxDepth) return LineVerdict::kTooDeep;
+      if (depth >= kMaxDepth) return LineVerdict::kTooDeep;
       if (slot >= 0) slots[slot] = Value::Other();
-      stack.push_back(Frame{c, node, 0});
+      stack[depth++] = Frame{c, node, 0};
       ++i;
       if (c == '{') goto object_begin;
       goto array_begin;
     case '"': {
+      // A string no pointer reads in a line without backslashes has
+      // nothing to check (stage 1 checked its UTF-8 and control bytes).
+      if (slot < 0 && !line_has_backslash) break;
       std::string_view s;
       if (!StringAt(p + idx[i], token_end(i), slot >= 0, &s)) return LineVerdict::kInvalid;
       if (slot >= 0) slots[slot] = Value::String(s);
@@ -268,7 +274,7 @@ value : {
   ++i;
 }
 after_value:
-  if (stack.back().bracket == '{') {
+  if (stack[depth - 1].bracket == '{') {
     if (at(i) == ',') {
       ++i;
       goto object_key;
@@ -277,15 +283,14 @@ after_value:
   } else {
     if (at(i) == ',') {
       ++i;
-      ++stack.back().index;
+      ++stack[depth - 1].index;
       goto array_value;
     }
     if (at(i) != ']') return LineVerdict::kInvalid;
   }
   ++i;
 scope_end:
-  stack.pop_back();
-  if (!stack.empty()) goto after_value;
+  if (--depth > 0) goto after_value;
   return i == n ? LineVerdict::kRecord : LineVerdict::kInvalid;  // nothing after the root object
 }
 

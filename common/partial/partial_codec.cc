@@ -74,7 +74,10 @@ void EncodePartialBody(const PartialState& p, std::string* body) {
     // fixed-width field, so that the table need not be copied behind a varint.
     const size_t at = body->size();
     bw.U64(0);
-    r.groups.Encode(bw);
+    if (r.encode_groups)
+      r.encode_groups(bw);
+    else
+      r.groups.Encode(bw);
     const uint64_t length = body->size() - at - 8;
     std::memcpy(body->data() + at, &length, 8);
   }

@@ -36,6 +36,7 @@
 #pragma once
 
 #include <cstdint>
+#include <functional>
 #include <string>
 #include <string_view>
 #include <vector>
@@ -75,6 +76,9 @@ struct PartialHeader {
 struct ReductionPartial {
   uint64_t kept = 0;  // records past the job's filter and the reduction's own
   GroupTable groups;
+  // Set by a worker: writes its own table's encoding (WorkerGroupTable::
+  // Encode, the same layout) in place of `groups`'s.
+  std::function<void(ByteWriter&)> encode_groups;
   explicit ReductionPartial(const std::vector<MeasureConfig>* configs) : groups(configs) {}
 };
 

@@ -10,6 +10,7 @@
 #include "common/input/presence_counter.h"
 #include "common/partial/group_key.h"
 #include "common/partial/record_batch.h"
+#include "common/partial/worker_group_table.h"
 #include "common/port/clock.h"
 #include "common/port/file_identity.h"
 #include "common/input/record_reader.h"
@@ -37,34 +38,50 @@ class TimedSource final : public ByteSource {
   uint64_t ns_ = 0;
 };
 
+// One measure's inputs of the current batch, in record order: the group of
+// each and its arguments (`stride` of them each), fed to the measure's
+// column in one call when the batch ends. Sized for a whole batch, so that
+// queueing never allocates or checks for room.
+struct MeasureInputs {
+  size_t stride = 0;
+  size_t n = 0;
+  std::unique_ptr<uint32_t[]> groups;
+  std::unique_ptr<Value[]> args;
+};
+
 // One reduction's view of the plan for the aggregator: its group table and
 // where its keys and measure arguments can be read without evaluating.
 struct ReductionFeed {
   const ReductionPlan* plan = nullptr;
-  GroupTable* table = nullptr;
+  std::unique_ptr<WorkerGroupTable> table;
   uint64_t kept = 0;
   std::vector<int> group_direct;              // Expr::DirectSlot of each key
   std::vector<std::array<int, 2>> arg_direct;  // ... of each measure argument
+  std::vector<MeasureInputs> inputs;          // per measure
 };
 
 // Receives records from the reader and applies the plan to them: the job's
 // derived fields and filter once per record, then every reduction.
 class Aggregator final : public RecordSink {
  public:
-  // REQUIRES: batch is empty and has the plan's width; state has the plan's
-  // reductions; both outlive this.
-  Aggregator(const Plan& plan, PartialState* state, RecordBatch* batch, const std::function<void(uint64_t)>& hook,
-             bool every)
+  // REQUIRES: batch is empty, has the plan's width and outlives this. Makes
+  // one WorkerGroupTable per reduction of the plan.
+  Aggregator(const Plan& plan, RecordBatch* batch, const std::function<void(uint64_t)>& hook, bool every)
       : plan_(plan), hook_(hook), hook_mask_(every ? 0 : 4095), batch_(*batch) {
     for (size_t r = 0; r < plan.reductions.size(); ++r) {
       ReductionFeed f;
       f.plan = &plan.reductions[r];
-      f.table = &state->reductions[r].groups;
+      f.table = std::make_unique<WorkerGroupTable>(&f.plan->configs);
       for (const Expr& g : f.plan->group) f.group_direct.push_back(g.DirectSlot());
       for (const CompiledMeasure& m : f.plan->measures) {
         std::array<int, 2> d = {-1, -1};
         for (size_t a = 0; a < m.args.size() && a < 2; ++a) d[a] = m.args[a].DirectSlot();
         f.arg_direct.push_back(d);
+        MeasureInputs in;
+        in.stride = m.args.size();
+        in.groups = std::make_unique<uint32_t[]>(RecordBatch::kCapacity);
+        in.args = std::make_unique<Value[]>(RecordBatch::kCapacity * std::max<size_t>(in.stride, 1));
+        f.inputs.push_back(std::move(in));
       }
       feeds_.push_back(std::move(f));
     }
@@ -78,16 +95,23 @@ class Aggregator final : public RecordSink {
     return !batch_.full() || Drain();
   }
 
-  // Aggregates the waiting records. Returns false iff a measure ran past its
-  // limit (the rest of the batch is dropped: the shard fails).
+  // Aggregates the waiting records: each record's derived fields, filters
+  // and group ids, then every measure's inputs of the batch in one call to
+  // its column. Returns false iff a measure ran past its limit (the shard
+  // fails; when two measures do so in one batch, the first in job order is
+  // named).
   bool Drain() {
     const uint64_t t0 = MonotonicNanos();
-    bool go_on = true;
-    for (size_t i = 0; i < batch_.size() && go_on; ++i) go_on = Apply(batch_.record(i));
+    for (size_t i = 0; i < batch_.size(); ++i) Apply(batch_.record(i));
+    const bool go_on = Flush();
     batch_.Clear();
+    arena_.Reset();
     aggregate_ns_ += MonotonicNanos() - t0;
     return go_on;
   }
+
+  // The tables, once every record is drained.
+  const WorkerGroupTable& table(size_t r) const { return *feeds_[r].table; }
 
   uint64_t aggregate_ns() const { return aggregate_ns_; }
   uint64_t kept() const { return kept_; }
@@ -103,26 +127,25 @@ class Aggregator final : public RecordSink {
     slots[d.slot] = d.expr.Eval(slots, &arena_);
   }
 
-  bool Apply(Value* slots) {
-    arena_.Reset();
+  // The strings evaluated for a record stay in arena_ until the batch ends:
+  // its measures take them then.
+  void Apply(Value* slots) {
     ++seen_;
     if ((seen_ & hook_mask_) == 0 && hook_) hook_(seen_);
     for (size_t t = 0; t < plan_.lookups.size(); ++t)
       if (!plan_.lookups[t].Fill(slots, &arena_, &lookup_key_)) ++unmatched_[t];
     for (size_t i : plan_.derive_before_keep) Derive(i, slots);
-    if (plan_.keep && !plan_.keep->Eval(slots, &arena_).Truthy()) return true;
+    if (plan_.keep && !plan_.keep->Eval(slots, &arena_).Truthy()) return;
     for (size_t i : plan_.derive_after_keep) Derive(i, slots);
     ++kept_;
-    for (size_t r = 0; r < feeds_.size(); ++r)
-      if (!Feed(static_cast<int>(r), feeds_[r], slots)) return false;
-    return true;
+    for (ReductionFeed& f : feeds_) Feed(f, slots);
   }
 
-  // Feeds one record to one reduction. Returns false iff a measure ran past its limit.
-  bool Feed(int r, ReductionFeed& f, Value* slots) {
+  // Finds one record's group in one reduction and queues its measures' inputs.
+  void Feed(ReductionFeed& f, Value* slots) {
     const ReductionPlan& rp = *f.plan;
     for (size_t i : rp.derive_before_keep) Derive(i, slots);
-    if (rp.keep && !rp.keep->Eval(slots, &arena_).Truthy()) return true;
+    if (rp.keep && !rp.keep->Eval(slots, &arena_).Truthy()) return;
     for (size_t i : rp.derive_after_keep) Derive(i, slots);
     ++f.kept;
     key_.clear();
@@ -130,27 +153,43 @@ class Aggregator final : public RecordSink {
       const int d = f.group_direct[g];
       AppendKeyValue(d >= 0 ? slots[d] : rp.group[g].Eval(slots, &arena_), &key_);
     }
-    MeasureState* const* states = f.table->FindOrAdd(key_);
-    Value args[2];
+    const uint32_t group = f.table->FindOrAdd(key_);
     for (size_t m = 0; m < rp.measures.size(); ++m) {
       const CompiledMeasure& cm = rp.measures[m];
       if (cm.only && !cm.only->Eval(slots, &arena_).Truthy()) continue;  // not this measure's input
+      MeasureInputs& in = f.inputs[m];
+      Value* args = &in.args[in.n * in.stride];
+      in.groups[in.n++] = group;
       for (size_t a = 0; a < cm.args.size(); ++a) {
         const int d = f.arg_direct[m][a];
         args[a] = d >= 0 ? slots[d] : cm.args[a].Eval(slots, &arena_);
       }
-      if (!states[m]->Add(args)) {
-        over_limit_ = {r, static_cast<int>(m)};
-        return false;
+    }
+  }
+
+  // Feeds every measure its queued inputs. Returns false iff one ran past
+  // its limit.
+  bool Flush() {
+    bool ok = true;
+    for (size_t r = 0; r < feeds_.size(); ++r) {
+      ReductionFeed& f = feeds_[r];
+      for (size_t m = 0; m < f.inputs.size(); ++m) {
+        MeasureInputs& in = f.inputs[m];
+        const size_t n = in.n;
+        if (ok && n > 0 && f.table->column(m).AddBatch(in.groups.get(), in.args.get(), in.stride, n) < n) {
+          over_limit_ = {static_cast<int>(r), static_cast<int>(m)};
+          ok = false;
+        }
+        in.n = 0;
       }
     }
-    return true;
+    return ok;
   }
 
   const Plan& plan_;
   const std::function<void(uint64_t)>& hook_;
   uint64_t hook_mask_;  // the hook runs when (records & mask) == 0
-  ScratchArena arena_;
+  ScratchArena arena_;  // the batch's evaluated strings
   std::string key_;
   std::string lookup_key_;
   std::vector<uint64_t> unmatched_;
@@ -193,7 +232,7 @@ Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
 
   PartialState state(configs_);
   batch_.Clear();  // a failed shard may have left records behind
-  Aggregator agg(*plan_, &state, &batch_, on_record, on_every_record);
+  Aggregator agg(*plan_, &batch_, on_record, on_every_record);
   PresenceCounter present(plan_->fields, &agg);  // counts each raw field's values
   ReadStats stats;
   TimedSource timed(src->get());
@@ -245,7 +284,11 @@ Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
   h.parse_ns = in_reader - std::min(in_reader, timed.ns() + h.aggregate_ns);
   state.samples = std::move(stats.samples);
   state.field_present = present.counts();
-  for (size_t r = 0; r < state.reductions.size(); ++r) state.reductions[r].kept = agg.kept_by(r);
+  for (size_t r = 0; r < state.reductions.size(); ++r) {
+    state.reductions[r].kept = agg.kept_by(r);
+    const WorkerGroupTable& table = agg.table(r);
+    state.reductions[r].encode_groups = [&table](ByteWriter& w) { table.Encode(w); };
+  }
   state.lookup_unmatched = agg.unmatched();
   EncodePartial(state, partial);
   SetPartialEncodeTime(MonotonicNanos() - t1, partial);

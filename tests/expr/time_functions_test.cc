@@ -9,6 +9,7 @@
 
 #include <cmath>
 #include <cstdio>
+#include <cstring>
 #include <sstream>
 #include <string>
 
@@ -222,6 +223,93 @@ for _ in range(1000):
   }
   CHECK(buckets == 3000);
   CHECK(parses == 1000);
+}
+
+// Intent: the fast path (ParseIsoTimestamp on the common RFC 3339 shape)
+// and the general parser agree on every text: both accept or both reject,
+// and with the same bits. Texts: valid timestamps of every documented form,
+// mutated (a byte replaced, deleted, inserted or duplicated, the text cut)
+// thousands of times.
+TEST_CASE("ParseIsoTimestamp's fast path equals the general parser on mutated timestamps") {
+  const char* seeds[] = {
+      "2026-03-05T14:07:09Z",          "2026-03-05T14:07:09.250Z",  "2026-03-05 14:07:09",
+      "2026-03-05t14:07:09.123456789z", "2024-02-29T23:59:59.5",     "0001-01-01T00:00:00Z",
+      "9999-12-31T23:59:59.999999999Z", "2026-03-05T14:07:09+01:00", "2026-03-05T14:07:09,5Z",
+      "2026-03-05",                     "2026-03-05T14:07",          "2026-02-28T00:00:00.1234567891Z",
+      "2026-03-05T14:07:09.5-05:30",    "2026-03-05T14:07:09-0530",  "2026-03-05T14:07:09+01",
+  };
+  const char alphabet[] = "0123456789-:TtZz.,+ 9059";
+  uint64_t state = 42;
+  auto next = [&state] {
+    state = state * 6364136223846793005ULL + 1442695040888963407ULL;
+    return state >> 33;
+  };
+  int accepted = 0, total = 0;
+  for (int round = 0; round < 20000; ++round) {
+    std::string text = seeds[next() % (sizeof seeds / sizeof seeds[0])];
+    const int edits = static_cast<int>(next() % 3);
+    for (int e = 0; e < edits && !text.empty(); ++e) {
+      const size_t at = next() % text.size();
+      const char c = alphabet[next() % (sizeof alphabet - 1)];
+      switch (next() % 5) {
+        case 0: text[at] = c; break;
+        case 1: text.erase(at, 1); break;
+        case 2: text.insert(text.begin() + static_cast<std::ptrdiff_t>(at), c); break;
+        case 3: text.insert(at, 1, text[at]); break;
+        default: text.resize(at); break;
+      }
+    }
+    CAPTURE(text);
+    double fast = -1, general = -1;
+    const bool a = ParseIsoTimestamp(text, &fast);
+    const bool b = ParseIsoTimestampGeneral(text, &general);
+    REQUIRE(a == b);
+    if (a) {
+      CHECK(std::memcmp(&fast, &general, sizeof fast) == 0);
+      ++accepted;
+    }
+    ++total;
+  }
+  CHECK(accepted > 3000);  // the sweep reaches both outcomes
+  CHECK(total - accepted > 3000);
+}
+
+// Intent: on the fast path's shape, values equal Python's exactly:
+// calendar.timegm of the fields less the offset, plus the fraction digits
+// over 10^k (Python's int / int true division rounds once, as the parser's
+// division does).
+TEST_CASE("the common RFC 3339 shape agrees with python3 calendar.timegm") {
+  const std::string out = expr_testing::RunPython(R"(import random, calendar
+rnd = random.Random(1302)
+for _ in range(3000):
+    y, mo = rnd.randrange(1, 10000), rnd.randrange(1, 13)
+    d = rnd.randrange(1, calendar.monthrange(y, mo)[1] + 1)
+    h, mi, s = rnd.randrange(24), rnd.randrange(60), rnd.randrange(60)
+    k = rnd.choice([0, 0, 1, 3, 6, 9])
+    num = rnd.randrange(10 ** k) if k else 0
+    frac = ("." + str(num).rjust(k, "0")) if k else ""
+    off = rnd.choice([None, None, None, 0, rnd.randrange(-23 * 60 - 59, 24 * 60)])
+    zone = rnd.choice(["Z", "z", ""]) if off is None else "%s%02d:%02d" % ("-" if off < 0 else "+", abs(off) // 60,
+                                                                              abs(off) % 60)
+    text = "%04d-%02d-%02d%s%02d:%02d:%02d%s%s" % (y, mo, d, rnd.choice("T T t"), h, mi, s, frac, zone)
+    sec = calendar.timegm((y, mo, d, h, mi, s, 0, 0, 0)) - 60 * (off or 0)  # local = UTC + offset
+    print(text.replace(" ", "_"), repr(float(sec) + (num / 10 ** k if k else 0.0)))
+)");
+  REQUIRE_MESSAGE(out.size() > 1000, "python3 did not run");
+  std::istringstream in(out);
+  std::string text;
+  double expected;
+  int n = 0;
+  while (in >> text >> expected) {
+    for (char& c : text)
+      if (c == '_') c = ' ';
+    CAPTURE(text);
+    double t = 0;
+    REQUIRE(ParseIsoTimestamp(text, &t));
+    CHECK(t == expected);
+    ++n;
+  }
+  CHECK(n == 3000);
 }
 
 }  // namespace fanfold

@@ -108,12 +108,10 @@ void HyperLogLogState::Encode(ByteWriter& w) const {
   w.Varint(skipped_);
   const size_t m = size_t{1} << p_;
   if (registers_.empty() && 4 * sparse_.size() < m) {  // the common small case: no 2^p array at all
-    std::vector<uint32_t> sorted = sparse_;
-    std::sort(sorted.begin(), sorted.end());
-    w.U8(1);
-    w.Varint(sorted.size());
+    w.U8(1);  // sparse_ is in index order already
+    w.Varint(sparse_.size());
     size_t next = 0;
-    for (uint32_t e : sorted) {
+    for (uint32_t e : sparse_) {
       w.Varint((e >> 8) - next);
       w.U8(static_cast<uint8_t>(e & 0xff));
       next = (e >> 8) + 1;

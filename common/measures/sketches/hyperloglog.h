@@ -66,13 +66,16 @@ class HyperLogLogState final : public MeasureState {
       if (rank > reg) reg = rank;
       return;
     }
-    for (uint32_t& e : sparse_) {
-      if ((e >> 8) != index) continue;
-      if (rank > (e & 0xff)) e = index << 8 | rank;
+    // The list is sorted, and an entry of `index` is the first not below
+    // index << 8 (its rank is at least 1): a binary search, not a scan of
+    // up to 64 entries per value.
+    const auto it = std::lower_bound(sparse_.begin(), sparse_.end(), index << 8);
+    if (it != sparse_.end() && (*it >> 8) == index) {
+      if (rank > (*it & 0xff)) *it = index << 8 | rank;
       return;
     }
     if (sparse_.size() < SparseLimit()) {
-      sparse_.push_back(index << 8 | rank);
+      sparse_.insert(it, index << 8 | rank);
       return;
     }
     Densify();
@@ -87,7 +90,7 @@ class HyperLogLogState final : public MeasureState {
   int p_;
   uint64_t skipped_ = 0;
   // Exactly one of these holds the non-zero registers (both empty: all zero):
-  std::vector<uint32_t> sparse_;    // index << 8 | rank, in arrival order
+  std::vector<uint32_t> sparse_;    // index << 8 | rank, ascending
   std::vector<uint8_t> registers_;  // empty or 2^p_ bytes
 };
 

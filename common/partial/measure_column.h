@@ -1,0 +1,52 @@
+// MeasureColumn: one measure's states for every group of a worker's group
+// table (common/partial/worker_group_table.h), indexed by group id. The
+// fixed-size measures (count, count_present, sum, mean/variance/stddev,
+// min, max) keep their states in one flat array per measure — no heap object
+// and no virtual call per group or record, since the column calls its final
+// state class directly; the others (quantile, distinct, top, sketches,
+// histogram, at_lowest/at_highest) keep one MeasureState per group behind
+// the same interface. Records arrive a batch at a time: one virtual call per
+// batch per measure. Each group's bytes are exactly what the group's
+// MeasureState::Encode writes (same arithmetic, same order of inputs), so a
+// partial made with columns equals one made with GroupTable byte for byte.
+// Not thread-safe.
+#pragma once
+
+#include <cstddef>
+#include <cstdint>
+#include <memory>
+
+#include "common/base/byte_io.h"
+#include "common/base/value.h"
+#include "common/measures/measure.h"
+
+namespace fanfold {
+
+class MeasureColumn {
+ public:
+  virtual ~MeasureColumn() = default;
+
+  // Appends empty states until the column holds `groups` of them.
+  virtual void Resize(size_t groups) = 0;
+
+  // Feeds n inputs in order: the i-th goes to group groups[i] with the
+  // arguments args[i * stride, i * stride + stride) (stride >= the measure's
+  // argument count; args unused when it takes none). Returns n, or the
+  // index of the input at which a bounded measure exceeded its limit (the
+  // column is then unusable and the shard fails).
+  // REQUIRES: every groups[i] < the size given to Resize.
+  virtual size_t AddBatch(const uint32_t* groups, const Value* args, size_t stride, size_t n) = 0;
+
+  // Appends group g's state as MeasureState::Encode would write it.
+  virtual void EncodeGroup(uint32_t g, ByteWriter& w) const = 0;
+
+  // Heap bytes the column holds beyond its states' inline part (an
+  // estimate for the variable-size measures: their objects, not what
+  // they own).
+  virtual size_t ApproxBytes() const = 0;
+};
+
+// A column for config's measure. REQUIRES: config validated.
+std::unique_ptr<MeasureColumn> NewMeasureColumn(const MeasureConfig& config);
+
+}  // namespace fanfold

@@ -1,0 +1,60 @@
+#include "common/partial/worker_group_table.h"
+
+#include <string>
+
+#include <xxhash.h>
+
+#include "common/partial/key_order.h"
+
+namespace fanfold {
+
+size_t WorkerGroupTable::IdHash::operator()(std::string_view s) const { return XXH3_64bits(s.data(), s.size()); }
+
+WorkerGroupTable::WorkerGroupTable(const std::vector<MeasureConfig>* configs)
+    : configs_(configs), index_(0, IdHash{&keys_}, IdEq{&keys_}) {
+  for (const MeasureConfig& c : *configs_) columns_.push_back(NewMeasureColumn(c));
+}
+
+uint32_t WorkerGroupTable::FindOrAdd(std::string_view key) {
+  auto it = index_.find(key);
+  if (it != index_.end()) return *it;
+  const uint32_t id = static_cast<uint32_t>(keys_.size());
+  keys_.push_back(key_bytes_.Add(key));
+  index_.insert(id);
+  for (auto& c : columns_) c->Resize(keys_.size());
+  return id;
+}
+
+void WorkerGroupTable::Encode(ByteWriter& w) const {
+  w.Varint(keys_.size());
+  std::string& out = *w.buffer();
+  for (const uint32_t g : KeyOrder(keys_)) {
+    w.Str(keys_[g]);
+    for (const auto& c : columns_) {
+      // The state is written in place behind a one-byte length, which a
+      // state of 128 bytes or more (rare) widens to its varint afterwards:
+      // no copy through a scratch string.
+      const size_t at = out.size();
+      out.push_back('\0');
+      c->EncodeGroup(g, w);
+      const size_t length = out.size() - at - 1;
+      if (length < 0x80) {
+        out[at] = static_cast<char>(length);
+      } else {
+        std::string varint;
+        ByteWriter(&varint).Varint(length);
+        out[at] = varint[0];
+        out.insert(at + 1, varint, 1);
+      }
+    }
+  }
+}
+
+size_t WorkerGroupTable::ApproxBytes() const {
+  size_t bytes = keys_.capacity() * sizeof(std::string_view) + index_.bucket_count() * (sizeof(uint32_t) + 1);
+  for (std::string_view k : keys_) bytes += k.size();
+  for (const auto& c : columns_) bytes += c->ApproxBytes();
+  return bytes;
+}
+
+}  // namespace fanfold
