@@ -1,9 +1,8 @@
 #include "common/partial/group_table.h"
 
-#include <algorithm>
-#include <numeric>
-
 #include <xxhash.h>
+
+#include "common/partial/key_order.h"
 
 namespace fanfold {
 
@@ -66,53 +65,10 @@ Status GroupTable::WalkEncoded(std::string_view encoded, bool apply) {
   return Status::Ok();
 }
 
-namespace {
-
-// The 8 bytes of key at [offset, offset + 8) as a big-endian integer, zeros
-// past the key's end.
-uint64_t KeyWindow(std::string_view key, size_t offset) {
-  uint64_t w = 0;
-  for (size_t i = 0; i < 8; ++i)
-    w = (w << 8) | (offset + i < key.size() ? static_cast<unsigned char>(key[offset + i]) : 0u);
-  return w;
-}
-
-}  // namespace
-
-void GroupTable::SortRange(SortEntry* begin, SortEntry* end, size_t offset) const {
-  // Sorted 8 bytes at a time (most significant first): each pass is one
-  // integer compare per pair; only groups whose keys agree on these 8 bytes
-  // go on to the next 8. Keys of one shard often share a long prefix (a
-  // tag, a length, "2026-03-01T"), which a byte-wise compare would read
-  // again at every comparison.
-  for (SortEntry* e = begin; e != end; ++e) e->window = KeyWindow(keys_[e->group], offset);
-  std::sort(begin, end, [](const SortEntry& a, const SortEntry& b) { return a.window < b.window; });
-  for (SortEntry* run = begin; run != end;) {
-    SortEntry* next = run + 1;
-    while (next != end && next->window == run->window) ++next;
-    if (next - run > 1) {
-      bool longer = false;  // does any key go on past this window?
-      for (SortEntry* e = run; e != next && !longer; ++e) longer = keys_[e->group].size() > offset + 8;
-      if (longer) SortRange(run, next, offset + 8);
-      else  // equal up to their ends but for zero padding: the shorter first
-        std::sort(run, next, [this](const SortEntry& a, const SortEntry& b) { return keys_[a.group] < keys_[b.group]; });
-    }
-    run = next;
-  }
-}
-
-std::vector<GroupTable::SortEntry> GroupTable::SortedByKey() const {
-  std::vector<SortEntry> order(keys_.size());
-  for (uint32_t g = 0; g < keys_.size(); ++g) order[g].group = g;
-  if (!order.empty()) SortRange(order.data(), order.data() + order.size(), 0);
-  return order;
-}
-
 void GroupTable::Encode(ByteWriter& w) const {
   w.Varint(keys_.size());
   std::string scratch;
-  for (const SortEntry& e : SortedByKey()) {
-    const uint32_t g = e.group;
+  for (const uint32_t g : KeyOrder(keys_)) {
     w.Str(keys_[g]);
     for (size_t j = 0; j < measure_count(); ++j) {
       scratch.clear();

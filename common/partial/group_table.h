@@ -70,14 +70,6 @@ class GroupTable {
     bool operator()(std::string_view a, std::string_view b) const { return a == b; }
   };
   uint32_t AddGroup(std::string_view key);
-  // Every group in ascending key-byte order (for Encode).
-  struct SortEntry {
-    uint64_t window = 0;  // 8 key bytes at the current offset, big-endian (SortRange)
-    uint32_t group = 0;
-  };
-  std::vector<SortEntry> SortedByKey() const;
-  // Sorts [begin, end), whose keys agree on their first `offset` bytes.
-  void SortRange(SortEntry* begin, SortEntry* end, size_t offset) const;
   // The one walk over an encoded table behind CheckEncoded (apply false)
   // and MergeEncoded (apply true).
   Status WalkEncoded(std::string_view encoded, bool apply);
