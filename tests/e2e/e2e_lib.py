@@ -136,6 +136,24 @@ def leaked_segments():
     return sorted(out)
 
 
+def child_pids(pid):
+    """The pids of pid's children (Linux /proc), [] once it is gone."""
+    try:
+        with open("/proc/%d/task/%d/children" % (pid, pid)) as f:
+            return [int(x) for x in f.read().split()]
+    except OSError:
+        return []
+
+
+def process_alive(pid):
+    """True iff pid exists and is not a zombie (Linux /proc)."""
+    try:
+        with open("/proc/%d/stat" % pid) as f:
+            return f.read().split()[2] != "Z"
+    except OSError:
+        return False
+
+
 def write_job(path, job):
     os.makedirs(os.path.dirname(path), exist_ok=True)
     with open(path, "w") as f:

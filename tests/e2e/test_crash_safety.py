@@ -22,24 +22,6 @@ import e2e_lib as lib  # noqa: E402
 TRIALS = int(os.environ.get("FANFOLD_CRASH_TRIALS", "30"))
 
 
-
-
-def children(pid):
-    try:
-        with open("/proc/%d/task/%d/children" % (pid, pid)) as f:
-            return [int(x) for x in f.read().split()]
-    except OSError:
-        return []
-
-
-def alive(pid):
-    try:
-        with open("/proc/%d/stat" % pid) as f:
-            return f.read().split()[2] != "Z"
-    except OSError:
-        return False
-
-
 def journal(run_dir):
     out = []
     try:
@@ -251,7 +233,7 @@ def main():
             proc = subprocess.Popen([env.fanfold, "run", job, "-j", "2", "-q", "-o", out, "--run-dir", rd],
                                     stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, cwd=env.tmp)
             time.sleep(rng.uniform(0.05, 0.6))
-            kids = children(proc.pid)
+            kids = lib.child_pids(proc.pid)
             if kids:
                 os.kill(rng.choice(kids), signal.SIGKILL)
             _, err = proc.communicate(timeout=120)
@@ -266,13 +248,13 @@ def main():
             proc = subprocess.Popen([env.fanfold, "run", job, "-j", "2", "-q", "-o", out, "--run-dir", rd],
                                     stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, cwd=env.tmp)
             time.sleep(rng.uniform(0.0, 0.8))
-            kids = children(proc.pid)
+            kids = lib.child_pids(proc.pid)
             proc.kill()
             proc.wait()
             deadline = time.time() + 5
-            while time.time() < deadline and any(alive(k) for k in kids):
+            while time.time() < deadline and any(lib.process_alive(k) for k in kids):
                 time.sleep(0.05)
-            c.check(not any(alive(k) for k in kids), "coordinator-kill trial %d: workers exit on their own" % t)
+            c.check(not any(lib.process_alive(k) for k in kids), "coordinator-kill trial %d: workers exit on their own" % t)
             persisted = len(pack_entries(rd))
             if os.path.exists(os.path.join(rd, "run.json")):
                 rc, _, err = env.fanfold_run("resume", rd, "-q", "-o", out)

@@ -25,22 +25,6 @@ TRIALS = int(os.environ.get("FANFOLD_CRASH_TRIALS", "8"))
 POOL = 30 + 5 * TRIALS
 
 
-def children(pid):
-    try:
-        with open("/proc/%d/task/%d/children" % (pid, pid)) as f:
-            return [int(x) for x in f.read().split()]
-    except OSError:
-        return []
-
-
-def alive(pid):
-    try:
-        with open("/proc/%d/stat" % pid) as f:
-            return f.read().split()[2] != "Z"
-    except OSError:
-        return False
-
-
 def pack_use(run_dir):
     """[(pack, bytes, live bytes)]: each pack's size and the bytes of its entries that hold the winning
     (highest pack) partial of a slot in run.json (frame: u32 magic, u32 slot, u64 length, u64 hash)."""
@@ -104,13 +88,13 @@ def main():
             proc = subprocess.Popen([env.fanfold, "refresh", rd, "-j", "2", "-q", "-o", out],
                                     stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, cwd=env.tmp)
             time.sleep(rng.uniform(0.0, 0.06))
-            kids = children(proc.pid)
+            kids = lib.child_pids(proc.pid)
             proc.send_signal(signal.SIGKILL)
             killed += proc.wait() == -signal.SIGKILL
             deadline = time.time() + 5
-            while time.time() < deadline and any(alive(k) for k in kids):
+            while time.time() < deadline and any(lib.process_alive(k) for k in kids):
                 time.sleep(0.05)
-            c.check(not any(alive(k) for k in kids), "trial %d: workers exit on their own" % t)
+            c.check(not any(lib.process_alive(k) for k in kids), "trial %d: workers exit on their own" % t)
             # Once the new run.json is in place, `resume` finishes the refresh
             # too (every other such trial); otherwise the next refresh does.
             with open(os.path.join(rd, "run.json")) as f:
