@@ -154,6 +154,18 @@ def process_alive(pid):
         return False
 
 
+def run_bench_smoke(args, script_name):
+    """Runs bench/SCRIPT_NAME --smoke against args' build; returns (exit status, stdout, stderr),
+    exit status -9 after 300 s."""
+    script = os.path.join(os.path.abspath(args.source_dir), "bench", script_name)
+    argv = [sys.executable, script, "--smoke", "--bin-dir", os.path.abspath(args.bin_dir)]
+    try:
+        done = subprocess.run(argv, stdout=subprocess.PIPE, stderr=subprocess.PIPE, timeout=300)
+        return done.returncode, done.stdout.decode("utf-8", "replace"), done.stderr.decode("utf-8", "replace")
+    except subprocess.TimeoutExpired:
+        return -9, "", "timed out after 300 s"
+
+
 def write_job(path, job):
     os.makedirs(os.path.dirname(path), exist_ok=True)
     with open(path, "w") as f:

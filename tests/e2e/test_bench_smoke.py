@@ -7,7 +7,6 @@ check fails; missed speed targets are only reported.
 """
 
 import os
-import subprocess
 import sys
 
 sys.dont_write_bytecode = True
@@ -18,13 +17,7 @@ import e2e_lib as lib  # noqa: E402
 def main():
     args = lib.parse_args(__doc__.split("\n")[0])
     checks = lib.Checks("test_bench_smoke")
-    script = os.path.join(os.path.abspath(args.source_dir), "bench", "run-bench")
-    argv = [sys.executable, script, "--smoke", "--bin-dir", os.path.abspath(args.bin_dir)]
-    try:
-        done = subprocess.run(argv, stdout=subprocess.PIPE, stderr=subprocess.PIPE, timeout=300)
-        rc, out, err = done.returncode, done.stdout.decode("utf-8", "replace"), done.stderr.decode("utf-8", "replace")
-    except subprocess.TimeoutExpired:
-        rc, out, err = -9, "", "timed out after 300 s"
+    rc, out, err = lib.run_bench_smoke(args, "run-bench")
     # A smoke run that passes ends with this line (bench/run-bench).
     checks.check(rc == 0, "run-bench --smoke exit 0 (got %d):\n%s\n%s" % (rc, lib.tail(out, 3000), lib.tail(err)))
     checks.check("smoke: all checks passed" in out, "run-bench --smoke reports all checks passed")

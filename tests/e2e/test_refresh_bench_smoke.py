@@ -8,7 +8,6 @@ check fails; a missed speed target is only reported.
 
 import json
 import os
-import subprocess
 import sys
 
 sys.dont_write_bytecode = True
@@ -19,13 +18,7 @@ import e2e_lib as lib  # noqa: E402
 def main():
     args = lib.parse_args(__doc__.split("\n")[0])
     checks = lib.Checks("test_refresh_bench_smoke")
-    script = os.path.join(os.path.abspath(args.source_dir), "bench", "refresh-bench")
-    argv = [sys.executable, script, "--smoke", "--bin-dir", os.path.abspath(args.bin_dir)]
-    try:
-        done = subprocess.run(argv, stdout=subprocess.PIPE, stderr=subprocess.PIPE, timeout=300)
-        rc, out, err = done.returncode, done.stdout.decode("utf-8", "replace"), done.stderr.decode("utf-8", "replace")
-    except subprocess.TimeoutExpired:
-        rc, out, err = -9, "", "timed out after 300 s"
+    rc, out, err = lib.run_bench_smoke(args, "refresh-bench")
     checks.check(rc == 0, "refresh-bench --smoke exit 0 (got %d):\n%s\n%s" % (rc, lib.tail(out, 3000), lib.tail(err)))
     last = out.strip().splitlines()[-1] if out.strip() else "{}"
     try:
