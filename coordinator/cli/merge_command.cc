@@ -153,7 +153,9 @@ CommandOutcome MergeParts(const MergeOptions& options) {
   std::vector<OpenPart> parts;
   std::map<std::string, std::string> seen;  // absolute path -> as given
   for (const std::string& d : options.parts) {
-    auto [it, fresh] = seen.emplace(fs::absolute(d).lexically_normal().string(), d);
+    fs::path abs = fs::absolute(d).lexically_normal();
+    if (!abs.has_filename()) abs = abs.parent_path();  // "dir/" is "dir"
+    auto [it, fresh] = seen.emplace(abs.string(), d);
     if (!fresh) {
       out.status = Refuse("'" + it->second + "' and '" + d +
                           "' are the same run directory, given twice: the parts overlap; give each part once");
