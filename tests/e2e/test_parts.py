@@ -1,7 +1,8 @@
 """`fanfold run JOB --part I/N` and `fanfold merge DIR...` (docs/run-directory.md, "Parts";
 README, "Running on a cluster"):
 
-* for N = 1, 3 and 7 the parts, merged, give output byte-identical to one `run` of the whole job,
+* for N = 1, 3 and 7 the parts, merged, give output byte-identical to one `run` of the whole job
+  (and summary.json's records, bytes, malformed samples and field presence equal to its),
   and the merged counts and sums equal an independent sqlite3 computation (Python's sqlite3
   module, count(*) and total() per group, over the records Python's json module reads);
 * the parts' shards are contiguous in the sorted shard list and cover it exactly once
@@ -119,6 +120,15 @@ def main():
             if rc == 0:
                 with open(out, "rb") as f:
                     c.check(f.read() == whole, "merge N=%d: output differs from one run of the whole job" % n)
+                with open(os.path.join(env.path("runs", "merged-%d" % n), "summary.json")) as f:
+                    ms = json.load(f)
+                with open(os.path.join(whole_dir, "summary.json")) as f:
+                    ws = json.load(f)
+                for k in ("records", "bytes", "malformed_samples", "field_presence"):
+                    c.check(ms.get(k) == ws.get(k), "merge N=%d: summary.json %s %r, the whole run's %r" %
+                            (n, k, ms.get(k), ws.get(k)))
+                c.check(ms["shards"]["reused"] == len(whole_shards) and ms["shards"]["processed"] == 0,
+                        "merge N=%d: summary.json shards %r" % (n, ms["shards"]))
 
         # With 10 shards of about equal size, 3 parts hold 3 or 4 shards each.
         sizes = []
