@@ -6,6 +6,8 @@
 #include <map>
 #include <memory>
 
+#include <nlohmann/json.hpp>
+
 #include "common/job/job_loader.h"
 #include "common/port/file_util.h"
 #include "coordinator/cli/run_command.h"
@@ -50,6 +52,20 @@ Result<OpenPart> OpenOnePart(const std::string& given) {
     return Refuse("'" + given + "' holds a run of the whole job, not a part (`fanfold run JOB --part I/N` makes parts)");
   if (RunDirectory::Probe(abs) != RunDirectory::State::kFinished)
     return Refuse(p.name() + " is unfinished: finish it first with fanfold resume " + given);
+  // The part's last session may have failed shards whose old partials are
+  // still on disk (resume never reuses the partial of a file that is gone):
+  // the part's own verdict, in its summary, counts.
+  std::string summary_text;
+  uint64_t failed = 0;
+  if (ReadWholeFile((fs::path(abs) / "summary.json").string(), &summary_text).ok()) {
+    nlohmann::json summary = nlohmann::json::parse(summary_text, nullptr, /*allow_exceptions=*/false);
+    if (summary.is_object() && summary.contains("shards") && summary["shards"].is_object() &&
+        summary["shards"].contains("failed") && summary["shards"]["failed"].is_number_unsigned())
+      failed = summary["shards"]["failed"].get<uint64_t>();
+  }
+  if (failed != 0)
+    return Refuse(p.name() + " ended with " + std::to_string(failed) + " failed shard" + (failed == 1 ? "" : "s") +
+                  " (its summary.json lists them): finish it first with fanfold resume " + given);
   Result<std::unique_ptr<Plan>> plan = LoadWorkerPlan((fs::path(abs) / kJobCopyFile).string(), p.manifest.format,
                                                       p.manifest.fingerprint,
                                                       fs::path(p.manifest.job_path).parent_path().string(),

@@ -9,8 +9,8 @@ README, "Running on a cluster"):
   (checked from each part's run.json against the whole run's);
 * --part refuses 0/3, 4/3, 1/0 and malformed text with exit status 2 and a message;
 * merge refuses overlapping parts (one part given twice), a missing part, a part of another plan,
-  a part cut from a shard list whose identities disagree (a file changed between part runs) and
-  an unfinished part, each with exit status 2 and a message naming the directory.
+  a part cut from a shard list whose identities disagree (a file changed between part runs), an
+  unfinished part and a part whose last session failed a shard, each with exit status 2 and a message naming the directory.
 """
 
 import json
@@ -172,6 +172,20 @@ def main():
         rc, _, err = env.fanfold_run("merge", *p3, "--run-dir", merged)
         c.check(rc == 2 and "unfinished" in err and p3[1] in err and "fanfold resume" in err,
                 "merge with an unfinished part: exit %d: %s" % (rc, lib.tail(err)))
+        # A part whose last session failed a shard (its file gone): refused, although the shard's
+        # old partial is still in the part's packs.
+        small = os.path.dirname(env.path("small", "x"))
+        for f in files[:2]:
+            with open(f, "rb") as src, open(os.path.join(small, os.path.basename(f)), "wb") as dst:
+                dst.write(src.read())
+        small_job = lib.write_job(env.path("small.json"), dict(job_doc, inputs={"files": [os.path.join(small, "*.ndjson")]}))
+        small_dirs = run_parts(2, "small", small_job)
+        os.remove(os.path.join(small, os.path.basename(files[1])))
+        rc, _, err = env.fanfold_run("resume", small_dirs[1], "-o", env.path("small-resumed.csv"))
+        c.check(rc == 1, "resume of a part whose file is gone: exit %d, want 1: %s" % (rc, lib.tail(err)))
+        rc, _, err = env.fanfold_run("merge", *small_dirs, "--run-dir", merged)
+        c.check(rc == 2 and "1 failed shard" in err and small_dirs[1] in err,
+                "merge with a part that failed a shard: exit %d: %s" % (rc, lib.tail(err)))
         # refresh of a part is refused; resume of a part works.
         rc, _, err = env.fanfold_run("refresh", p3[0])
         c.check(rc == 2 and "refresh cuts no parts" in err, "refresh of a part: exit %d: %s" % (rc, lib.tail(err)))
