@@ -44,6 +44,16 @@ CommandOutcome RefreshRun(const RunOptions& given) {
   const RunManifest& before = saved->manifest;
   Plan& plan = *saved->plan;
   const RunOptions& o = saved->options;
+  if (before.part.number != 0) {
+    // A new expansion would be the whole list, and parts of a list that
+    // changed no longer fit the other parts' cut.
+    const std::string part = std::to_string(before.part.number) + "/" + std::to_string(before.part.count);
+    out.status = Status::InvalidArgument("cannot refresh '" + o.run_dir + "': it holds part " + part +
+                                         " of a job, and refresh cuts no parts. Run every part again (fanfold run " +
+                                         before.job_path + " --part I/" + std::to_string(before.part.count) +
+                                         " --run-dir DIR --fresh) and merge them");
+    return out;
+  }
   out.status = ApplyOutputOption(o.output_path, &plan.spec);
   if (!out.status.ok()) return out;
   Result<ShardList> now = ExpandShards(plan.spec);

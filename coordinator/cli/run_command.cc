@@ -15,6 +15,7 @@
 #include "coordinator/run/field_precheck.h"
 #include "coordinator/run/run_engine.h"
 #include "coordinator/rundir/run_directory.h"
+#include "coordinator/rundir/shard_parts.h"
 
 namespace fs = std::filesystem;
 
@@ -60,6 +61,10 @@ std::string DefaultRunDir(const std::string& job_path) {
   return (fs::path("fanfold-runs") / fs::path(job_path).stem()).string();
 }
 
+std::string DefaultPartRunDir(const std::string& job_path, uint32_t number, uint32_t count) {
+  return DefaultRunDir(job_path) + "-part-" + std::to_string(number) + "-of-" + std::to_string(count);
+}
+
 CommandOutcome RunJob(const RunOptions& o) {
   CommandOutcome out;
   Result<LoadedJob> job = LoadJob(o.job_path);
@@ -69,7 +74,23 @@ CommandOutcome RunJob(const RunOptions& o) {
   }
   out.status = ApplyOutputOption(o.output_path, &job->plan->spec);
   if (!out.status.ok()) return out;
-  const std::string run_dir = o.run_dir.empty() ? DefaultRunDir(o.job_path) : o.run_dir;
+  // A part: only its shards, indexed from 0; run.json says which part of
+  // which full list they are.
+  PartOfRun part;
+  if (o.part_number != 0) {
+    part.number = o.part_number;
+    part.count = o.part_count;
+    part.total_shards = static_cast<uint32_t>(job->shards.shards.size());
+    part.list_digest = ShardListDigest(job->shards);
+    uint32_t end = 0;
+    PartRange(job->shards, PartNumber{o.part_number, o.part_count}, &part.first_shard, &end);
+    std::vector<Shard> mine(job->shards.shards.begin() + part.first_shard, job->shards.shards.begin() + end);
+    for (size_t i = 0; i < mine.size(); ++i) mine[i].index = static_cast<uint32_t>(i);
+    job->shards.shards = std::move(mine);
+  }
+  const std::string run_dir = !o.run_dir.empty()       ? o.run_dir
+                              : o.part_number != 0 ? DefaultPartRunDir(o.job_path, o.part_number, o.part_count)
+                                                   : DefaultRunDir(o.job_path);
   const std::string run_dir_abs = fs::absolute(run_dir).lexically_normal().string();
   RunDirectory::State state = RunDirectory::Probe(run_dir);
   if (state != RunDirectory::State::kEmpty && !o.fresh) {
@@ -96,6 +117,7 @@ CommandOutcome RunJob(const RunOptions& o) {
   manifest.attempts = o.max_attempts;
   manifest.shard_time_limit_ms = o.shard_time_limit_ms;
   manifest.shards = job->shards;
+  manifest.part = part;
   Result<std::unique_ptr<RunDirectory>> dir = RunDirectory::Create(run_dir_abs, manifest, o.fresh);
   if (!dir.ok()) {
     out.status = dir.status();
@@ -106,6 +128,9 @@ CommandOutcome RunJob(const RunOptions& o) {
   out.status = (*dir)->WriteFile(kJobCopyFile, job->plan->spec.source_text);
   if (!out.status.ok()) return out;
   if (!o.quiet) std::cerr << "fanfold: run directory: " << run_dir << "\n";
+  if (!o.quiet && part.number != 0)
+    std::cerr << "fanfold: part " << part.number << " of " << part.count << ": shards " << part.first_shard << " to "
+              << part.first_shard + job->shards.shards.size() << " (exclusive) of " << part.total_shards << "\n";
   RunInput in;
   in.plan = job->plan.get();
   in.shards = &job->shards;

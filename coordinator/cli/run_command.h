@@ -20,6 +20,9 @@ CommandOutcome ResumeRun(const RunOptions& options);
 
 // The run directory `run` uses for job_path when --run-dir is not given.
 std::string DefaultRunDir(const std::string& job_path);
+// The run directory of `run --part I/N` without --run-dir:
+// fanfold-runs/<job name>-part-I-of-N.
+std::string DefaultPartRunDir(const std::string& job_path, uint32_t number, uint32_t count);
 
 struct CheckOptions {
   std::string job_path;  // JOB: the job file

@@ -6,11 +6,13 @@
 
 #include <CLI/CLI.hpp>
 
+#include "coordinator/cli/merge_command.h"
 #include "coordinator/cli/numeric_flag.h"
 #include "coordinator/cli/refresh_command.h"
 #include "coordinator/cli/report_command.h"
 #include "coordinator/cli/scale_command.h"
 #include "coordinator/cli/stderr_flags.h"
+#include "coordinator/rundir/shard_parts.h"
 
 namespace fanfold {
 namespace {
@@ -57,6 +59,9 @@ class RunSubcommand final : public Subcommand {
                     "write the result here instead of the job's emit.path ('-' = stdout)");
     cmd->add_option("--run-dir", options_.run_dir, "directory recording this run (default: fanfold-runs/<job name>)");
     cmd->add_flag("--fresh", options_.fresh, "discard an earlier run in the run directory and start over");
+    part_option_ = cmd->add_option("--part", part_,
+                    "run only part I of N (I/N, 1-based: 1/N .. N/N) of the shards, cut by bytes; "
+                    "join the parts with `fanfold merge`");
     cmd->add_option("--attempts", attempts_, "tries per shard when its worker dies (default 3)");
     cmd->add_option("--shard-time-limit", time_limit_, "kill and retry a shard's worker after this many seconds");
     cmd->add_option("--digits", digits_, kDigitsHelp);
@@ -69,6 +74,12 @@ class RunSubcommand final : public Subcommand {
     FF_RETURN_IF_ERROR(ParseWholeIfGiven(kWorkersFlag, workers_, &options_.workers));
     FF_RETURN_IF_ERROR(ParseWholeIfGiven(kAttemptsFlag, attempts_, &options_.max_attempts));
     FF_RETURN_IF_ERROR(ParseWholeIfGiven(kDigitsFlag, digits_, &options_.digits));
+    if (part_given()) {
+      Result<PartNumber> p = ParsePartNumber(part_, "--part");
+      if (!p.ok()) return p.status();
+      options_.part_number = p->number;
+      options_.part_count = p->count;
+    }
     return ParseTimeLimitIfGiven(time_limit_, &options_.shard_time_limit_ms);
   }
   CommandOutcome Run() override { return RunJob(options_); }
@@ -79,7 +90,10 @@ class RunSubcommand final : public Subcommand {
   std::string attempts_;    // --attempts as typed ("" = 3)
   std::string time_limit_;  // --shard-time-limit as typed ("" = none)
   std::string digits_;      // --digits as typed ("" = every digit)
+  std::string part_;        // --part as typed ("" = the whole job)
   StderrFlags stderr_;      // --progress, --progress-every, --log-level
+  CLI::Option* part_option_ = nullptr;
+  bool part_given() const { return part_option_ != nullptr && part_option_->count() > 0; }
 };
 
 // `fanfold resume RUN_DIR` and `fanfold refresh RUN_DIR`: run's options,
@@ -116,6 +130,33 @@ class SavedRunSubcommand final : public Subcommand {
   std::string workers_;  // -j/--workers as typed ("" = one per core)
   std::string digits_;   // --digits as typed ("" = every digit)
   StderrFlags stderr_;   // --progress, --progress-every, --log-level
+};
+
+// `fanfold merge DIR...`.
+class MergeSubcommand final : public Subcommand {
+ public:
+  void AddFlags(CLI::App* cmd) override {
+    cmd->add_option("PART_DIRS", options_.parts, "the run directories of the parts (fanfold run JOB --part I/N)")
+        ->required();
+    cmd->add_option("-o,--output", options_.run.output_path,
+                    "write the result here instead of the job's emit.path ('-' = stdout)");
+    cmd->add_option("--run-dir", options_.run.run_dir,
+                    "directory recording the merged run (default: fanfold-runs/<job name>)");
+    cmd->add_flag("--fresh", options_.run.fresh, "replace an earlier run in that directory");
+    cmd->add_option("--digits", digits_, kDigitsHelp);
+    cmd->add_flag("-q,--quiet", options_.run.quiet, "print nothing on stderr but errors");
+    AddStderrFlags(cmd, &stderr_, /*with_progress=*/false);
+  }
+  Status CheckFlags() override {
+    FF_RETURN_IF_ERROR(ApplyStderrFlags(stderr_, options_.run.quiet, &options_.run));
+    return ParseWholeIfGiven(kDigitsFlag, digits_, &options_.run.digits);
+  }
+  CommandOutcome Run() override { return MergeParts(options_); }
+
+ private:
+  MergeOptions options_;  // what MergeParts gets
+  std::string digits_;    // --digits as typed ("" = every digit)
+  StderrFlags stderr_;    // --log-level
 };
 
 // `fanfold check JOB`.
@@ -200,6 +241,8 @@ constexpr SubcommandRow kRows[] = {
      "fanfold resume fanfold-runs/district_hourly", &Make<SavedRunSubcommand<&ResumeRun>>},
     {"refresh", "Bring a run up to date: reuse unchanged shards, compute new or changed ones, drop vanished ones.",
      "fanfold refresh fanfold-runs/district_hourly", &Make<SavedRunSubcommand<&RefreshRun>>},
+    {"merge", "Join the run directories of a job's parts (run --part I/N) into the whole job's result.",
+     "fanfold merge part-1 part-2 part-3 -o hourly.csv", &Make<MergeSubcommand>},
     {"check", "Validate a job, sample its first records for misspelt fields; print its plan and shards; run nothing.",
      "fanfold check jobs/district_hourly.json", &Make<CheckSubcommand>},
     {"scale", "Time a job at several worker counts: speedup, efficiency, serial fraction.",

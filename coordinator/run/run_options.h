@@ -24,6 +24,8 @@ struct CommandOutcome {
 // manifest and takes the defaults for the flags it lacks).
 struct RunOptions {
   std::string job_path;       // JOB: the job file (run only)
+  uint32_t part_number = 0;   // run --part I/N: I (1-based); 0 = the whole job
+  uint32_t part_count = 0;    // N
   int workers = 0;            // 0 = one per available core
   std::string output_path;    // "" = the job's emit.path, else stdout
   // Results go only to the run directory (result*.<ext>), not to emit.path

@@ -31,6 +31,13 @@ std::string EncodeManifest(const RunManifest& m) {
   field("plan_text", m.plan_text);
   field("created", m.created_utc);
   out += " \"generation\": " + std::to_string(m.generation) + ",\n";
+  if (m.part.number != 0) {
+    out += " \"part\": {\"number\": " + std::to_string(m.part.number) + ", \"of\": " + std::to_string(m.part.count) +
+           ", \"first_shard\": " + std::to_string(m.part.first_shard) +
+           ", \"total_shards\": " + std::to_string(m.part.total_shards) + ", \"shard_list\": ";
+    AppendJsonString(m.part.list_digest, &out);
+    out += "},\n";
+  }
   out += " \"attempts\": " + std::to_string(m.attempts) + ",\n \"shard_time_limit_ms\": " +
          std::to_string(m.shard_time_limit_ms) + ",\n";
   out += " \"shards\": [";
@@ -71,6 +78,15 @@ Result<RunManifest> DecodeManifest(const std::string& text, const std::string& w
     if (doc.contains("shard_time_limit_ms")) m.shard_time_limit_ms = doc.at("shard_time_limit_ms").get<uint64_t>();
     if (!FormatFromText(m.format, &m.shards.format)) return bad("unknown format '" + m.format + "'");
     if (doc.contains("generation")) m.generation = doc.at("generation").get<uint32_t>();
+    if (doc.contains("part")) {
+      const json& p = doc.at("part");
+      m.part.number = p.at("number").get<uint32_t>();
+      m.part.count = p.at("of").get<uint32_t>();
+      m.part.first_shard = p.at("first_shard").get<uint32_t>();
+      m.part.total_shards = p.at("total_shards").get<uint32_t>();
+      m.part.list_digest = p.at("shard_list").get<std::string>();
+      if (m.part.number < 1 || m.part.number > m.part.count) return bad("part number outside 1..of");
+    }
     bool any_slot = false;
     for (const json& j : doc.at("shards")) {
       Shard s;

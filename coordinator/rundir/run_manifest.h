@@ -17,6 +17,16 @@ namespace fanfold {
 
 inline constexpr int kRunDirectoryVersion = 1;
 
+// A run of one part of a job (`run --part I/N`): which part, and the full
+// shard list it was cut from, so `merge` can check that the parts cover it.
+struct PartOfRun {
+  uint32_t number = 0;        // I, 1-based; 0 = the run is not a part (the whole job)
+  uint32_t count = 0;         // N
+  uint32_t first_shard = 0;   // the full list's index of the part's shard 0
+  uint32_t total_shards = 0;  // shards in the full list
+  std::string list_digest;    // ShardListDigest of the full list (16 hex digits)
+};
+
 struct RunManifest {
   int version = kRunDirectoryVersion;
   std::string job_path;        // absolute
@@ -34,6 +44,9 @@ struct RunManifest {
   // for shard i (run directories written before `refresh` existed).
   std::vector<uint32_t> slots;
   uint32_t generation = 1;  // 1 for `run`; each `refresh` adds one
+  // A part run: its shards are the full list's first_shard, first_shard+1,
+  // ..., indexed here from 0 (the run's own result is theirs alone).
+  PartOfRun part;
 
   // The slot of shard i. REQUIRES: i < shards.shards.size().
   uint32_t SlotOf(size_t i) const { return slots.empty() ? static_cast<uint32_t>(i) : slots[i]; }

@@ -28,7 +28,7 @@ TEST_CASE("the subcommand table lists each subcommand once, in the order of fanf
     CHECK(static_cast<bool>(row.make));
     CHECK(std::string(row.example).rfind(std::string("fanfold ") + row.name + " ", 0) == 0);
   }
-  CHECK(names == std::vector<std::string>{"run", "resume", "refresh", "check", "scale", "report"});
+  CHECK(names == std::vector<std::string>{"run", "resume", "refresh", "merge", "check", "scale", "report"});
 }
 
 TEST_CASE("an unknown subcommand is a usage error listing the table") {
@@ -36,7 +36,7 @@ TEST_CASE("an unknown subcommand is a usage error listing the table") {
   CliOutcome c = Parse({"frobnicate", "job.json"});
   CHECK(c.usage_hint);
   CHECK(c.outcome.status.message() ==
-        "unknown command 'frobnicate'; expected one of: run, resume, refresh, check, scale, report");
+        "unknown command 'frobnicate'; expected one of: run, resume, refresh, merge, check, scale, report");
 }
 
 TEST_CASE("CLI11's errors and the flag checks' errors take the same usage path") {
