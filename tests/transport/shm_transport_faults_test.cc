@@ -350,10 +350,16 @@ TEST_CASE("workers die with a killed coordinator; its segment goes at the next s
   REQUIRE(ends.size() == 2);
   CHECK(ms < 2000);
   for (const ExitInfo& e : ends) CHECK(e.Describe() == "was killed by signal 9 (SIGKILL)");
-  CHECK(SegmentExists(name));  // the killed coordinator could not remove it
+  // The killed coordinator could not remove its segment; the next start
+  // does. Any fanfold started meanwhile by a test running beside this one
+  // (CTest runs the e2e tests in parallel) is such a start too and may get
+  // there first (with the same RemoveStaleSegments); either way it must be
+  // gone after a start.
+  const bool left = SegmentExists(name);
   std::vector<std::string> removed;
   ShmSegment::RemoveStaleSegments(&removed);
-  CHECK(std::find(removed.begin(), removed.end(), name) != removed.end());
+  const bool ours = std::find(removed.begin(), removed.end(), name) != removed.end();
+  if (!ours) MESSAGE("segment ", name, " was removed by another process's start before ours (left: ", left, ")");
   CHECK_FALSE(SegmentExists(name));
 }
 
