@@ -6,6 +6,7 @@
 #include <sys/wait.h>
 #include <unistd.h>
 
+#include <atomic>
 #include <cerrno>
 #include <climits>
 #include <csignal>
@@ -18,6 +19,18 @@ namespace {
 
 Status ErrnoStatus(const std::string& what, int err) {
   return Status::IoError(what + ": " + ErrnoText(err));
+}
+
+// The largest ru_maxrss (KiB) of a child reaped by TryReap or Reap. Not
+// getrusage(RUSAGE_CHILDREN): that survives execve, so a fanfold exec'd by
+// a shell that had waited for a compiler would report the compiler's peak.
+std::atomic<uint64_t> g_peak_child_kib{0};
+
+void NoteChildRss(const rusage& ru) {
+  const uint64_t kib = static_cast<uint64_t>(ru.ru_maxrss);
+  uint64_t seen = g_peak_child_kib.load(std::memory_order_relaxed);
+  while (kib > seen && !g_peak_child_kib.compare_exchange_weak(seen, kib, std::memory_order_relaxed)) {
+  }
 }
 
 ExitInfo FromWaitStatus(int status) {
@@ -45,10 +58,7 @@ uint64_t PeakRssBytes() {
   return ::getrusage(RUSAGE_SELF, &ru) == 0 ? static_cast<uint64_t>(ru.ru_maxrss) * 1024 : 0;  // ru_maxrss is KiB
 }
 
-uint64_t PeakChildRssBytes() {
-  rusage ru{};
-  return ::getrusage(RUSAGE_CHILDREN, &ru) == 0 ? static_cast<uint64_t>(ru.ru_maxrss) * 1024 : 0;
-}
+uint64_t PeakChildRssBytes() { return g_peak_child_kib.load(std::memory_order_relaxed) * 1024; }
 
 int CurrentPid() { return static_cast<int>(::getpid()); }
 int ParentPid() { return static_cast<int>(::getppid()); }
@@ -82,24 +92,30 @@ Status KillProcess(int pid) { return SendSignal(pid, SIGKILL); }
 Result<bool> TryReap(int pid, ExitInfo* info) {
   int status = 0;
   for (;;) {
-    pid_t r = ::waitpid(pid, &status, WNOHANG);
+    rusage ru{};
+    pid_t r = ::wait4(pid, &status, WNOHANG, &ru);
     if (r == 0) return false;
     if (r == pid) {
+      NoteChildRss(ru);
       *info = FromWaitStatus(status);
       return true;
     }
     if (r < 0 && errno == EINTR) continue;
-    return ErrnoStatus("waitpid(" + std::to_string(pid) + ")", errno);
+    return ErrnoStatus("wait4(" + std::to_string(pid) + ")", errno);
   }
 }
 
 Result<ExitInfo> Reap(int pid) {
   int status = 0;
   for (;;) {
-    pid_t r = ::waitpid(pid, &status, 0);
-    if (r == pid) return FromWaitStatus(status);
+    rusage ru{};
+    pid_t r = ::wait4(pid, &status, 0, &ru);
+    if (r == pid) {
+      NoteChildRss(ru);
+      return FromWaitStatus(status);
+    }
     if (r < 0 && errno == EINTR) continue;
-    return ErrnoStatus("waitpid(" + std::to_string(pid) + ")", errno);
+    return ErrnoStatus("wait4(" + std::to_string(pid) + ")", errno);
   }
 }
 

@@ -23,9 +23,9 @@ struct ExitInfo {
 int CurrentPid();
 int ParentPid();
 
-// Peak resident memory (getrusage ru_maxrss) in bytes: of this process; and
-// of the largest of its children that have ended and been reaped (0 if
-// none). Measured by the kernel, not estimated.
+// Peak resident memory (ru_maxrss) in bytes: of this process (getrusage);
+// and of the largest of its children reaped by TryReap or Reap (wait4's
+// rusage; 0 if none). Measured by the kernel, not estimated.
 uint64_t PeakRssBytes();
 uint64_t PeakChildRssBytes();
 

@@ -270,6 +270,26 @@ def check_memory(env, checks):
         checks.check(top <= kib <= top * 1.10 + 1024, "%s: summary.json peak %r, getrusage says %d KiB" % (mode, peak, kib))
         checks.check(peak["coordinator"] > 4 << 20, "%s: coordinator peak %r is implausibly small" % (mode, peak))
 
+    # Intent: the workers' figure is theirs alone, also when fanfold was exec'd by a process that
+    # had waited for a big child before (the README's first command runs it after the compiler):
+    # getrusage(RUSAGE_CHILDREN) survives execve (getrusage(2), Linux man-pages), so it would
+    # report that child's peak. The probe waits for a child that touches 400 MiB, reads its peak
+    # from RUSAGE_CHILDREN, then becomes fanfold.
+    run_dir = env.path("runs", "mem-exec")
+    probe = ("import os, resource, subprocess, sys; "
+             "subprocess.run([sys.executable, '-c', 'b = bytearray(400 << 20)']); "
+             "print(resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss, flush=True); "
+             "os.execv(sys.argv[1], sys.argv[1:])")
+    rc, out, err = env.run([sys.executable, "-c", probe, env.fanfold, "run", job, "-j", "2", "--run-dir", run_dir,
+                            "-o", env.path("mem.out.json")])
+    if checks.check(rc == 0 and out.split() and out.split()[0].isdigit(), "exec'd run: %r %s" % (out, err)):
+        big_kib = int(out.split()[0])
+        with open(os.path.join(run_dir, "summary.json")) as f:
+            worker = json.load(f)["peak_rss_bytes"]["largest_worker"]
+        checks.check(big_kib >= 400 << 10, "the probe's child peaked at %d KiB (expected >= 400 MiB)" % big_kib)
+        checks.check(worker is not None and worker < (big_kib << 10) // 2,
+                     "exec'd run: largest_worker %r is not the earlier child's %d KiB" % (worker, big_kib))
+
 
 def main():
     args = lib.parse_args(__doc__)
