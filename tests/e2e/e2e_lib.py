@@ -145,6 +145,22 @@ def child_pids(pid):
         return []
 
 
+def worker_pids(pid):
+    """The pids of pid's children that run fanfold-worker (by /proc/PID/cmdline). Not every child
+    is a worker: under AddressSanitizer the exit-time leak check clones a tracer that a test must
+    not kill (LeakSanitizer then waits for it forever)."""
+    out = []
+    for k in child_pids(pid):
+        try:
+            with open("/proc/%d/cmdline" % k, "rb") as f:
+                argv0 = f.read().split(b"\0")[0]
+        except OSError:
+            continue
+        if os.path.basename(argv0) == b"fanfold-worker":
+            out.append(k)
+    return out
+
+
 def process_alive(pid):
     """True iff pid exists and is not a zombie (Linux /proc)."""
     try:

@@ -233,7 +233,7 @@ def main():
             proc = subprocess.Popen([env.fanfold, "run", job, "-j", "2", "-q", "-o", out, "--run-dir", rd],
                                     stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, cwd=env.tmp)
             time.sleep(rng.uniform(0.05, 0.6))
-            kids = lib.child_pids(proc.pid)
+            kids = lib.worker_pids(proc.pid)
             if kids:
                 os.kill(rng.choice(kids), signal.SIGKILL)
             _, err = proc.communicate(timeout=120)
