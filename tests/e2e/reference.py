@@ -163,6 +163,19 @@ def num(v):
     return None
 
 
+def usable_number(v):
+    """What docs/measures.md says numeric measures take: a JSON number (not
+    a bool, kept as int or float) or a string that is wholly a decimal
+    number (as float); None otherwise, and for NaN."""
+    if isinstance(v, bool):
+        return None
+    if isinstance(v, str) and _DECIMAL.fullmatch(v):
+        v = float(v)
+    if isinstance(v, (int, float)) and v == v:
+        return v
+    return None
+
+
 def present(v):
     return v is not MISSING and v is not None
 

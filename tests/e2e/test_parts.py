@@ -15,24 +15,10 @@ README, "Running on a cluster"):
 
 import json
 import os
-import re
 import sqlite3
 
 import e2e_lib as lib
-
-DECIMAL = re.compile(r"[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?")
-
-
-def number(v):
-    """What docs/measures.md says numeric measures take: a JSON number (not a bool) or a string that
-    is wholly a decimal number; None otherwise (and for NaN)."""
-    if isinstance(v, bool):
-        return None
-    if isinstance(v, str) and DECIMAL.fullmatch(v):
-        v = float(v)
-    if isinstance(v, (int, float)) and v == v:
-        return v
-    return None
+import reference
 
 
 def sqlite_reference(paths):
@@ -48,7 +34,7 @@ def sqlite_reference(paths):
                 if not isinstance(r, dict):
                     continue
                 d = r.get("district")
-                rows.append((d if isinstance(d, str) else None, number(r.get("power_w"))))
+                rows.append((d if isinstance(d, str) else None, reference.usable_number(r.get("power_w"))))
     db = sqlite3.connect(":memory:")
     db.execute("CREATE TABLE e (district TEXT, power_w REAL)")
     db.executemany("INSERT INTO e VALUES (?, ?)", rows)

@@ -28,33 +28,18 @@ import fcntl
 import fnmatch
 import json
 import os
-import re
 import shutil
 import sqlite3
 
 import e2e_lib as lib
+import reference
 
 HOURS = 14
 
 
-DECIMAL = re.compile(r"[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?")
-
-
-def number(v):
-    """What docs/measures.md says numeric measures take: a JSON number (not a bool) or a string that
-    is wholly a decimal number; None otherwise (and for NaN)."""
-    if isinstance(v, bool):
-        return None
-    if isinstance(v, str) and DECIMAL.fullmatch(v):
-        v = float(v)
-    if isinstance(v, (int, float)) and v == v:
-        return v
-    return None
-
-
 def records(paths):
     """(district, power_w) of every record Python's json module reads as an object; power_w as
-    number() gives it, as fanfold's sum skips other values."""
+    reference.usable_number() gives it, as fanfold's sum skips other values."""
     out = []
     for p in paths:
         with open(p, "rb") as f:
@@ -66,7 +51,7 @@ def records(paths):
                 if not isinstance(r, dict):
                     continue
                 d = r.get("district")
-                out.append((d if isinstance(d, str) else None, number(r.get("power_w"))))
+                out.append((d if isinstance(d, str) else None, reference.usable_number(r.get("power_w"))))
     return out
 
 
