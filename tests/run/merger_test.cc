@@ -30,11 +30,17 @@ std::unique_ptr<Plan> TestPlan() {
   return std::move(*plan);
 }
 
+// The measure configs of the plan's one reduction.
+std::vector<MeasureConfig> ConfigsOf(const Plan& plan) {
+  std::vector<MeasureConfig> configs;
+  for (const auto& m : plan.reductions[0].measures) configs.push_back(m.config);
+  return configs;
+}
+
 // Shard s's partial: groups s % 5 .. s % 5 + 3, values that make the sum's
 // rounding depend on the order of merging. `pad` groups add bulk.
 std::string PartialFor(const Plan& plan, uint32_t shard, int pad = 0) {
-  std::vector<MeasureConfig> configs;
-  for (const auto& m : plan.reductions[0].measures) configs.push_back(m.config);
+  const std::vector<MeasureConfig> configs = ConfigsOf(plan);
   PartialState p(&configs);
   p.header.fingerprint = plan.fingerprint;
   p.header.shard_index = shard;
@@ -110,8 +116,7 @@ TEST_CASE("merger: a malformed body costs only its shard") {
   without.MarkFailed(2);
   const std::string expected = ResultText(without);
 
-  std::vector<MeasureConfig> configs;
-  for (const auto& m : plan->reductions[0].measures) configs.push_back(m.config);
+  const std::vector<MeasureConfig> configs = ConfigsOf(*plan);
   PartialState p(&configs);
   REQUIRE(DecodePartial(parts[2], &p).ok());
   std::string body;
@@ -140,8 +145,7 @@ TEST_CASE("merger: a malformed body found midway is rebuilt away with a reloader
   const uint32_t n = 6;
   std::map<uint32_t, std::string> disk;
   for (uint32_t s = 0; s < n; ++s) disk[s] = PartialFor(*plan, s, /*pad=*/3);
-  std::vector<MeasureConfig> configs;
-  for (const auto& m : plan->reductions[0].measures) configs.push_back(m.config);
+  const std::vector<MeasureConfig> configs = ConfigsOf(*plan);
   for (uint32_t bad : {0u, 3u, 5u}) {
     Merger without(plan.get(), n);
     for (uint32_t s = 0; s < n; ++s)
@@ -236,8 +240,7 @@ TEST_CASE("merger: results folded as sorted runs equal the in-memory tables") {
   CHECK_FALSE(in_memory.in_runs());
   const std::string expected = ResultText(in_memory);
 
-  std::vector<MeasureConfig> configs;
-  for (const auto& m : plan->reductions[0].measures) configs.push_back(m.config);
+  const std::vector<MeasureConfig> configs = ConfigsOf(*plan);
   PartialState p(&configs);
   REQUIRE(DecodePartial(disk[4], &p).ok());
   std::string body;
@@ -304,8 +307,7 @@ TEST_CASE("merger: early partials past the budget wait on disk, not in memory") 
 // counts makes them unknown rather than wrong.
 TEST_CASE("merger: per-field present counts add up over shards") {
   const auto plan = TestPlan();  // raw fields {/k}, {/v}
-  std::vector<MeasureConfig> configs;
-  for (const auto& m : plan->reductions[0].measures) configs.push_back(m.config);
+  const std::vector<MeasureConfig> configs = ConfigsOf(*plan);
   const auto partial = [&](uint32_t shard, std::vector<uint64_t> present) {
     PartialState p(&configs);
     p.header.fingerprint = plan->fingerprint;
