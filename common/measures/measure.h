@@ -14,6 +14,7 @@
 #include <cstdint>
 #include <memory>
 #include <string>
+#include <string_view>
 #include <vector>
 
 #include "common/base/byte_io.h"
@@ -112,6 +113,14 @@ class MeasureState {
   // on corrupt bytes (this state then unchanged), or when applying as Merge
   // does.
   virtual Status MergeEncoded(ByteReader& r, bool apply, MeasureState* scratch);
+
+  // A hint only: asks the CPU to start loading the memory that a later
+  // MergeEncoded(encoded) of this state will touch (a sketch's registers or
+  // buckets), so a merge over many groups can overlap those cache misses
+  // (common/partial/group_table.cc). Reads at most framing from `encoded`,
+  // which may be anything (it is checked by MergeEncoded, not here); never
+  // changes the state or fails. The default does nothing.
+  virtual void PrefetchMerge(std::string_view /*encoded*/) const {}
 
   // Appends one cell per output column (see OutputColumnCount()).
   virtual void Finalize(std::vector<Cell>* out) const = 0;

@@ -22,17 +22,20 @@ uint32_t GroupTable::AddGroup(std::string_view key) {
   return id;
 }
 
-MeasureState* const* GroupTable::FindOrAdd(std::string_view key) {
+uint32_t GroupTable::FindOrAddId(std::string_view key) {
   auto it = index_.find(key);
-  uint32_t id = it != index_.end() ? it->second : AddGroup(key);
-  return &states_[static_cast<size_t>(id) * measure_count()];
+  return it != index_.end() ? it->second : AddGroup(key);
 }
 
-Status GroupTable::CheckEncoded(std::string_view encoded) { return WalkEncoded(encoded, /*apply=*/false); }
+MeasureState* const* GroupTable::FindOrAdd(std::string_view key) {
+  return &states_[static_cast<size_t>(FindOrAddId(key)) * measure_count()];
+}
 
-Status GroupTable::MergeEncoded(std::string_view encoded) { return WalkEncoded(encoded, /*apply=*/true); }
+Status GroupTable::CheckEncoded(std::string_view encoded) { return CheckWalk(encoded); }
 
-Status GroupTable::WalkEncoded(std::string_view encoded, bool apply) {
+Status GroupTable::MergeEncoded(std::string_view encoded) { return MergeWalk(encoded); }
+
+Status GroupTable::CheckWalk(std::string_view encoded) {
   const size_t m = measure_count();
   if (scratch_.empty())
     for (const MeasureConfig& c : *configs_) scratch_.push_back(NewMeasureState(c));
@@ -47,15 +50,13 @@ Status GroupTable::WalkEncoded(std::string_view encoded, bool apply) {
     if (g > 0 && !(previous < key))
       return Status::Corrupt("group " + std::to_string(g) + ": keys not in strictly ascending order");
     previous = key;
-    MeasureState* const* mine = apply ? FindOrAdd(key) : nullptr;
     for (size_t j = 0; j < m; ++j) {
       const std::string_view bytes = r.Str();
       if (!r.ok()) return Status::Corrupt("group " + std::to_string(g) + ": truncated measure state");
       ByteReader sr(bytes);
       // Checking runs in the scratch state itself: with apply false no
       // override changes its target, and the default decodes into scratch.
-      MeasureState* target = apply ? mine[j] : scratch_[j].get();
-      Status s = target->MergeEncoded(sr, apply, scratch_[j].get());
+      Status s = scratch_[j]->MergeEncoded(sr, /*apply=*/false, scratch_[j].get());
       if (!s.ok()) return s.WithContext("group " + std::to_string(g) + ", measure " + std::to_string(j));
       if (!sr.at_end()) return Status::Corrupt("group " + std::to_string(g) + ", measure " + std::to_string(j) +
                                                ": trailing bytes in measure state");

@@ -3,7 +3,8 @@
 // in shard order and straight from their encoding, into one table with
 // MergeEncoded (after CheckEncoded when a bad table must leave it as it was). Keys are
 // the bytes of common/partial/group_key.h; lookups hash the key once and allocate
-// only when a new group appears. Not thread-safe.
+// only when a new group appears; MergeEncoded finds a partial's keys by
+// walking them beside the table's own keys in key order. Not thread-safe.
 //
 // Encoding (inside a partial state body): varint group count, then per group
 // in strictly ascending key-byte order (so a key cannot repeat): key (varint
@@ -70,9 +71,13 @@ class GroupTable {
     bool operator()(std::string_view a, std::string_view b) const { return a == b; }
   };
   uint32_t AddGroup(std::string_view key);
-  // The one walk over an encoded table behind CheckEncoded (apply false)
-  // and MergeEncoded (apply true).
-  Status WalkEncoded(std::string_view encoded, bool apply);
+  uint32_t FindOrAddId(std::string_view key);
+  // CheckEncoded's walk: every byte checked, nothing changed.
+  Status CheckWalk(std::string_view encoded);
+  // MergeEncoded's walk (group_table_merge.cc): the same checks in the same
+  // order, with the groups' framing read a few groups ahead of the merge
+  // so that their lookups and states' memory are loaded in the meantime.
+  Status MergeWalk(std::string_view encoded);
 
   const std::vector<MeasureConfig>* configs_;
   KeyArena key_bytes_;  // every key's bytes, once; keys_ and index_ view them
@@ -82,6 +87,11 @@ class GroupTable {
   // the raw view FindOrAdd hands out).
   std::vector<MeasureState*> states_;
   std::vector<std::unique_ptr<MeasureState>> owned_;
+  // Group ids in ascending key order, for groups [0, ordered_): MergeWalk
+  // finds a partial's (ascending) keys by walking it, not by hashing each.
+  // Groups added outside MergeWalk are sorted in at its next call.
+  std::vector<uint32_t> order_;
+  size_t ordered_ = 0;
   // One state per measure that encoded states are checked in or decoded
   // into while merging (MeasureState::MergeEncoded's scratch).
   std::vector<std::unique_ptr<MeasureState>> scratch_;

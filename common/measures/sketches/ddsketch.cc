@@ -129,6 +129,14 @@ Status DDSketchState::MergeEncoded(ByteReader& r, bool apply, MeasureState* /*sc
   return Status::Ok();
 }
 
+void DDSketchState::PrefetchMerge(std::string_view encoded) const {
+  ByteReader r(encoded);
+  (void)r.Varint();  // skipped
+  (void)r.Varint();  // zeros
+  neg_.PrefetchRun(r);
+  pos_.PrefetchRun(r);
+}
+
 void DDSketchState::Finalize(std::vector<Cell>* out) const {
   const bool empty = count() == 0;
   for (double p : probabilities_) out->push_back(empty ? Cell::Null() : Cell::Float(Quantile(p)));

@@ -60,6 +60,8 @@ class DDSketchState final : public MeasureState {
   void Encode(ByteWriter& w) const override;
   Status Decode(ByteReader& r) override;
   Status MergeEncoded(ByteReader& r, bool apply, MeasureState* scratch) override;
+  // Prefetches the buckets an encoded state's counts add to.
+  void PrefetchMerge(std::string_view encoded) const override;
   // One Float per probability, in config order; all Null when empty.
   void Finalize(std::vector<Cell>* out) const override;
   uint64_t skipped() const override { return skipped_; }

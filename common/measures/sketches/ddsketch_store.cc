@@ -172,6 +172,30 @@ bool DDSketchStore::Decode(ByteReader& r) {
   return true;
 }
 
+void DDSketchStore::PrefetchRun(ByteReader& r) const {
+  const uint64_t span = r.Varint();
+  if (!r.ok() || span == 0 || span > static_cast<uint64_t>(kMaxSpan)) return;
+  const int64_t lo = UnZigZag(r.Varint());
+  const int64_t have_lo = offset_;
+  const int64_t have_n = static_cast<int64_t>(counts_.size());
+  const char* base = reinterpret_cast<const char*>(counts_.data());
+  int64_t last_line = -1;
+  uint64_t i = 0;
+  for (int seen = 0; seen < 32 && i < span && r.ok(); ++seen) {
+    const uint64_t c = r.Varint();
+    if (c == 0) {
+      i += r.Varint();
+      continue;
+    }
+    const int64_t at = lo + static_cast<int64_t>(i) - have_lo;  // lo and i are at most 2^31 and 2^16
+    if (at >= 0 && at < have_n && (at * 8) / 64 != last_line) {
+      last_line = (at * 8) / 64;
+      __builtin_prefetch(base + at * 8);
+    }
+    ++i;
+  }
+}
+
 void DDSketchStore::AssignRun(const EncodedRun& run) {
   *this = DDSketchStore();
   if (run.span == 0) return;

@@ -74,6 +74,10 @@ class DDSketchStore {
   // Adds a run's counts, as MergeFrom adds a decoded store's.
   // REQUIRES: run was filled by ReadRun.
   void MergeRun(const EncodedRun& run);
+  // Reads one encoded store's framing from r (unchecked: a hint only) and
+  // prefetches the buckets of this store that its first non-empty buckets
+  // would add to; never touches memory outside counts_.
+  void PrefetchRun(ByteReader& r) const;
   // Replaces this store with the run (what Decode does after ReadRun).
   // REQUIRES: run was filled by ReadRun.
   void AssignRun(const EncodedRun& run);

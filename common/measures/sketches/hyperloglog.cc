@@ -210,6 +210,34 @@ Status HyperLogLogState::MergeEncoded(ByteReader& r, bool apply, MeasureState* /
   return Status::Ok();
 }
 
+void HyperLogLogState::PrefetchMerge(std::string_view encoded) const {
+  ByteReader r(encoded);
+  (void)r.Varint();  // skipped
+  const uint8_t form = r.U8();
+  if (!r.ok()) return;
+  if (registers_.empty()) {
+    if (!sparse_.empty()) __builtin_prefetch(sparse_.data());
+    return;
+  }
+  const size_t m = registers_.size();
+  const char* regs = reinterpret_cast<const char*>(registers_.data());
+  if (form != 1) {
+    for (size_t i = 0; i < m; i += 64) __builtin_prefetch(regs + i);
+    return;
+  }
+  // Only the framing is read; the indices are reduced mod m, so the
+  // address stays inside the registers whatever the bytes say.
+  const uint64_t k = r.Varint();
+  uint64_t next = 0;
+  for (uint64_t j = 0; j < k && j < 64; ++j) {
+    next += r.Varint();
+    (void)r.U8();
+    if (!r.ok()) return;
+    __builtin_prefetch(regs + (next & (m - 1)));
+    ++next;
+  }
+}
+
 void HyperLogLogState::Finalize(std::vector<Cell>* out) const {
   out->push_back(Cell::Int(std::llround(Estimate())));
 }

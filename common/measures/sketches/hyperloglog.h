@@ -42,6 +42,9 @@ class HyperLogLogState final : public MeasureState {
   void Encode(ByteWriter& w) const override;
   Status Decode(ByteReader& r) override;
   Status MergeEncoded(ByteReader& r, bool apply, MeasureState* scratch) override;
+  // Prefetches the registers a sparse encoded state raises (all of them for
+  // a dense one).
+  void PrefetchMerge(std::string_view encoded) const override;
   // Int(round(Estimate())).
   void Finalize(std::vector<Cell>* out) const override;
   uint64_t skipped() const override { return skipped_; }

@@ -1,0 +1,148 @@
+// GroupTable::MergeWalk: the coordinator's fold of one encoded table into
+// its in-memory table (GroupTable::MergeEncoded), pipelined.
+//
+// Merging a partial of 50,000 groups touches every group's states, which
+// live in heap objects and register/bucket arrays spread over hundreds of
+// megabytes: one cache miss after another, each waited for in turn. Here the
+// framing is read kAhead groups before the group is merged; a group is
+// looked up (or added) and its state objects are prefetched kAhead groups
+// early, and kAhead / 2 groups early each state is asked to prefetch what
+// its merge will touch (MeasureState::PrefetchMerge). The merge itself is
+// exactly the plain walk's: the same groups in the same order, the same
+// MergeEncoded calls, the same checks and messages (a framing error found
+// while reading ahead is reported only after the groups before it merged,
+// as the plain walk would have). Groups read ahead are added to the table
+// before the merge reaches them; on failure the table is partly merged
+// either way (see MergeEncoded's contract).
+#include <array>
+
+#include "common/partial/group_table.h"
+#include "common/partial/key_order.h"
+
+namespace fanfold {
+namespace {
+
+constexpr size_t kAhead = 16;         // groups between lookup and merge
+constexpr size_t kRing = kAhead + 1;  // groups read but not yet merged, at most
+
+// Groups a walk added, sorted into the table's key order when it ends
+// (whatever way it ends): each new id goes before the group that was at
+// `before` in the old order, and they come in ascending key order.
+class OrderInserts {
+ public:
+  OrderInserts(std::vector<uint32_t>* order, size_t* ordered) : order_(order), ordered_(ordered) {}
+  ~OrderInserts() {
+    if (added_.empty()) return;
+    std::vector<uint32_t> merged;
+    merged.reserve(order_->size() + added_.size());
+    size_t from = 0;
+    for (const auto& [before, id] : added_) {
+      merged.insert(merged.end(), order_->begin() + from, order_->begin() + before);
+      merged.push_back(id);
+      from = before;
+    }
+    merged.insert(merged.end(), order_->begin() + from, order_->end());
+    order_->swap(merged);
+    *ordered_ = order_->size();
+  }
+  void Add(size_t before, uint32_t id) { added_.emplace_back(before, id); }
+
+ private:
+  std::vector<uint32_t>* order_;
+  size_t* ordered_;
+  std::vector<std::pair<size_t, uint32_t>> added_;
+};
+
+}  // namespace
+
+Status GroupTable::MergeWalk(std::string_view encoded) {
+  const size_t m = measure_count();
+  if (scratch_.empty())
+    for (const MeasureConfig& c : *configs_) scratch_.push_back(NewMeasureState(c));
+  ByteReader r(encoded);
+  // Each group needs at least a key length byte and m state length bytes.
+  const uint64_t n = r.Count(1 + m);
+  if (!r.ok()) return Status::Corrupt("group count larger than the partial state");
+
+  if (ordered_ != keys_.size()) {  // groups added since the last walk
+    order_ = KeyOrder(keys_);
+    ordered_ = keys_.size();
+  }
+  OrderInserts inserts(&order_, &ordered_);
+  size_t at = 0;  // position in order_ of the first key not below the last key read
+  std::array<uint32_t, kRing> ids{};
+  std::vector<std::string_view> views(kRing * m);  // per ring slot: the m states' bytes
+  std::string_view previous;
+  uint64_t read = 0;  // groups whose framing was read (and looked up)
+  Status read_error;  // the first framing error, reported once the groups before it merged
+  size_t states_read = 0;  // with read_error: the bad group's states read before it
+  // Reads group `read`'s framing, looks it up and prefetches its states.
+  const auto read_next = [&]() {
+    const uint64_t g = read;
+    const std::string_view key = r.Str();
+    if (!r.ok()) {
+      read_error = Status::Corrupt("group " + std::to_string(g) + ": truncated key");
+      return false;
+    }
+    if (g > 0 && !(previous < key)) {
+      read_error = Status::Corrupt("group " + std::to_string(g) + ": keys not in strictly ascending order");
+      return false;
+    }
+    previous = key;
+    // Keys ascend, so the table's keys below this one were passed already.
+    while (at < order_.size() && keys_[order_[at]] < key) ++at;
+    uint32_t id;
+    if (at < order_.size() && keys_[order_[at]] == key) {
+      id = order_[at];
+    } else {
+      id = AddGroup(key);
+      inserts.Add(at, id);
+    }
+    ids[g % kRing] = id;
+    std::string_view* v = &views[(g % kRing) * m];
+    for (size_t j = 0; j < m; ++j) {
+      v[j] = r.Str();
+      if (!r.ok()) {
+        read_error = Status::Corrupt("group " + std::to_string(g) + ": truncated measure state");
+        states_read = j;  // the plain walk merges these before it finds the truncation
+        return false;
+      }
+    }
+    MeasureState* const* st = &states_[static_cast<size_t>(id) * m];
+    for (size_t j = 0; j < m; ++j) {
+      // An object's first three lines: a sketch's store bookkeeping too.
+      __builtin_prefetch(st[j]);
+      __builtin_prefetch(reinterpret_cast<const char*>(st[j]) + 64);
+      __builtin_prefetch(reinterpret_cast<const char*>(st[j]) + 128);
+    }
+    ++read;
+    return true;
+  };
+  uint64_t hinted = 0;  // groups whose states were asked to prefetch
+  for (uint64_t g = 0; g < n; ++g) {
+    while (read_error.ok() && read < n && read <= g + kAhead && read_next()) {
+    }
+    // Past the last group read, only the bad framing's group is left: its
+    // states before the truncation merge first, as in the plain walk.
+    const size_t states = g < read ? m : states_read;
+    for (; hinted < read && hinted <= g + kAhead / 2; ++hinted) {
+      MeasureState* const* st = &states_[static_cast<size_t>(ids[hinted % kRing]) * m];
+      const std::string_view* v = &views[(hinted % kRing) * m];
+      for (size_t j = 0; j < m; ++j) st[j]->PrefetchMerge(v[j]);
+    }
+    const std::string_view* v = &views[(g % kRing) * m];
+    for (size_t j = 0; j < states; ++j) {
+      MeasureState* const mine = states_[static_cast<size_t>(ids[g % kRing]) * m + j];
+      ByteReader sr(v[j]);
+      Status s = mine->MergeEncoded(sr, /*apply=*/true, scratch_[j].get());
+      if (!s.ok()) return s.WithContext("group " + std::to_string(g) + ", measure " + std::to_string(j));
+      if (!sr.at_end()) return Status::Corrupt("group " + std::to_string(g) + ", measure " + std::to_string(j) +
+                                               ": trailing bytes in measure state");
+    }
+    if (g >= read) return read_error;
+  }
+  if (!r.at_end()) return Status::Corrupt("trailing bytes after the last group");
+  return Status::Ok();
+}
+
+}  // namespace fanfold
