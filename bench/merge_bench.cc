@@ -46,7 +46,8 @@ struct BenchOptions {
   double time_limit_s = 0;  // stop merging after this long (0 = never) and extrapolate
   bool check_first = false;  // no reloader: check every partial, then merge it
   uint64_t run_threshold = Merger::kDefaultRunThreshold;
-  uint64_t fold_threads = 1;
+  uint64_t fold_threads = 0;   // the runs' key ranges (0: as --threads)
+  uint64_t threads = 0;        // merge threads (0: Merger::DefaultThreads())
 };
 
 // SplitMix64 (Steele, Lea & Flood 2014): a fixed, seedable stream.
@@ -93,7 +94,7 @@ void RestampShardIndex(uint32_t shard, std::string* partial) {
 int Usage(const std::string& message) {
   std::fprintf(stderr,
                "merge_bench: %s\nusage: merge_bench --job JOB.json [--partials N] [--groups N] "
-               "[--values N] [--templates N] [--time-limit S] [--check-first yes|no] [--runs GROUPS[:THREADS]]\n",
+               "[--values N] [--templates N] [--time-limit S] [--check-first yes|no] [--runs GROUPS[:THREADS]] [--threads N]\n",
                message.c_str());
   return 2;
 }
@@ -162,7 +163,9 @@ int Run(const BenchOptions& o) {
   const double build_s = Seconds(std::chrono::steady_clock::now() - build_start);
 
   Merger merger(&pl, static_cast<uint32_t>(o.partials));
-  merger.SetRunThreshold(o.run_threshold, static_cast<size_t>(o.fold_threads));
+  const size_t threads = o.threads > 0 ? static_cast<size_t>(o.threads) : Merger::DefaultThreads();
+  merger.SetThreads(threads);
+  merger.SetRunThreshold(o.run_threshold, o.fold_threads > 0 ? static_cast<size_t>(o.fold_threads) : threads);
   if (!o.check_first)
     merger.SetReloader([&](uint32_t shard, std::string* out) {
       *out = encoded[shard % o.templates];
@@ -259,6 +262,8 @@ int main(int argc, char** argv) {
       const size_t colon = value.find(':');
       ok = fanfold::ParseCount(value.substr(0, colon), 0, UINT64_MAX, &o.run_threshold) &&
            (colon == std::string_view::npos || fanfold::ParseCount(value.substr(colon + 1), 1, 64, &o.fold_threads));
+    } else if (flag == "--threads") {
+      ok = fanfold::ParseCount(value, 1, 64, &o.threads);
     } else if (flag == "--time-limit") {
       uint64_t secs = 0;
       ok = fanfold::ParseCount(value, 0, 86400, &secs);

@@ -31,23 +31,49 @@ MeasureState* const* GroupTable::FindOrAdd(std::string_view key) {
   return &states_[static_cast<size_t>(FindOrAddId(key)) * measure_count()];
 }
 
-Status GroupTable::CheckEncoded(std::string_view encoded) { return CheckWalk(encoded); }
+namespace {
 
-Status GroupTable::MergeEncoded(std::string_view encoded) { return MergeWalk(encoded); }
-
-Status GroupTable::CheckWalk(std::string_view encoded) {
-  const size_t m = measure_count();
-  if (scratch_.empty())
-    for (const MeasureConfig& c : *configs_) scratch_.push_back(NewMeasureState(c));
+// Both walks over a whole encoding: its count, the groups, nothing after.
+template <class Walk>
+Status WalkWhole(std::string_view encoded, size_t m, Walk walk) {
   ByteReader r(encoded);
   // Each group needs at least a key length byte and m state length bytes.
   const uint64_t n = r.Count(1 + m);
   if (!r.ok()) return Status::Corrupt("group count larger than the partial state");
+  FF_RETURN_IF_ERROR(walk(r, n));
+  if (!r.at_end()) return Status::Corrupt("trailing bytes after the last group");
+  return Status::Ok();
+}
+
+}  // namespace
+
+Status GroupTable::CheckEncoded(std::string_view encoded) {
+  return WalkWhole(encoded, measure_count(), [this](ByteReader& r, uint64_t n) { return CheckWalk(r, n, 0); });
+}
+
+Status GroupTable::MergeEncoded(std::string_view encoded) {
+  return WalkWhole(encoded, measure_count(), [this](ByteReader& r, uint64_t n) { return MergeWalk(r, n, 0); });
+}
+
+Status GroupTable::CheckEncodedGroups(std::string_view groups, uint64_t count, uint64_t first) {
+  ByteReader r(groups);
+  return CheckWalk(r, count, first);
+}
+
+Status GroupTable::MergeEncodedGroups(std::string_view groups, uint64_t count, uint64_t first) {
+  ByteReader r(groups);
+  return MergeWalk(r, count, first);
+}
+
+Status GroupTable::CheckWalk(ByteReader& r, uint64_t n, uint64_t first) {
+  const size_t m = measure_count();
+  if (scratch_.empty())
+    for (const MeasureConfig& c : *configs_) scratch_.push_back(NewMeasureState(c));
   std::string_view previous;
-  for (uint64_t g = 0; g < n; ++g) {
+  for (uint64_t g = first; g < first + n; ++g) {
     const std::string_view key = r.Str();
     if (!r.ok()) return Status::Corrupt("group " + std::to_string(g) + ": truncated key");
-    if (g > 0 && !(previous < key))
+    if (g > first && !(previous < key))
       return Status::Corrupt("group " + std::to_string(g) + ": keys not in strictly ascending order");
     previous = key;
     for (size_t j = 0; j < m; ++j) {
@@ -62,7 +88,6 @@ Status GroupTable::CheckWalk(std::string_view encoded) {
                                                ": trailing bytes in measure state");
     }
   }
-  if (!r.at_end()) return Status::Corrupt("trailing bytes after the last group");
   return Status::Ok();
 }
 

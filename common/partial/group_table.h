@@ -56,6 +56,12 @@ class GroupTable {
   // can fail here, or discard the table on failure (coordinator/run/merger
   // rebuilds it).
   Status MergeEncoded(std::string_view encoded);
+  // The same two over a slice of an encoding: `count` groups framed as in
+  // Encode but without the leading count, the first being group `first` of
+  // the whole (messages name groups by their index in the whole). The
+  // caller checked the slice's framing and that its keys ascend.
+  Status CheckEncodedGroups(std::string_view groups, uint64_t count, uint64_t first);
+  Status MergeEncodedGroups(std::string_view groups, uint64_t count, uint64_t first);
 
   void Encode(ByteWriter& w) const;
   // REQUIRES: this table is empty. Fails on corrupt bytes.
@@ -72,12 +78,13 @@ class GroupTable {
   };
   uint32_t AddGroup(std::string_view key);
   uint32_t FindOrAddId(std::string_view key);
-  // CheckEncoded's walk: every byte checked, nothing changed.
-  Status CheckWalk(std::string_view encoded);
+  // CheckEncoded's walk over n groups numbered from `first`: every byte
+  // checked, nothing changed.
+  Status CheckWalk(ByteReader& r, uint64_t n, uint64_t first);
   // MergeEncoded's walk (group_table_merge.cc): the same checks in the same
   // order, with the groups' framing read a few groups ahead of the merge
   // so that their lookups and states' memory are loaded in the meantime.
-  Status MergeWalk(std::string_view encoded);
+  Status MergeWalk(ByteReader& r, uint64_t n, uint64_t first);
 
   const std::vector<MeasureConfig>* configs_;
   KeyArena key_bytes_;  // every key's bytes, once; keys_ and index_ view them

@@ -23,6 +23,11 @@ void RunResults::Start(size_t r, const GroupTable& table) {
   run_groups_ += table.group_count();
 }
 
+void RunResults::Start(size_t r, std::string encoded, uint64_t groups) {
+  runs_[r] = std::move(encoded);
+  run_groups_ += groups;
+}
+
 void RunResults::Add(uint32_t shard, std::unique_ptr<OpenedPartial> p) {
   for (size_t r = 0; r < p->reductions.size(); ++r)
     batch_groups_ += GroupCount(p->reductions[r].groups, plan_->reductions[r].configs.size());

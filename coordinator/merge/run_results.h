@@ -29,6 +29,8 @@ class RunResults {
 
   // Starts reduction r's run from its in-memory table (its Encode).
   void Start(size_t r, const GroupTable& table);
+  // The same from the table's encoding (`groups` groups).
+  void Start(size_t r, std::string encoded, uint64_t groups);
 
   // Adds a shard's partial (REQUIRES: one group table per reduction,
   // shards in ascending order) to the pending batch.

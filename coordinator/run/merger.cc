@@ -1,5 +1,8 @@
 #include "coordinator/run/merger.h"
 
+#include <algorithm>
+#include <thread>
+
 #include "common/partial/group_key.h"
 #include "coordinator/merge/encoded_group_cursor.h"
 
@@ -13,12 +16,23 @@ Merger::Merger(const Plan* plan, uint32_t shard_count, uint64_t waiting_budget)
       shard_count_(shard_count),
       waiting_budget_(waiting_budget),
       failed_(shard_count, false) {
-  results_.reserve(plan->reductions.size());
-  for (const ReductionPlan& r : plan->reductions) results_.emplace_back(&r.configs);
+  SetThreads(DefaultThreads());
   totals_.kept_by_reduction.assign(plan->reductions.size(), 0);
   for (const auto& slot : plan->fields.slots())
     if (!slot.derived) totals_.field_present.push_back(0);
   totals_.lookup_unmatched.assign(plan->lookups.size(), 0);
+}
+
+size_t Merger::DefaultThreads() {
+  return std::clamp<size_t>(std::thread::hardware_concurrency(), 1, kMaxDefaultThreads);
+}
+
+void Merger::SetThreads(size_t threads) {
+  threads = std::max<size_t>(threads, 1);
+  results_.clear();
+  results_.reserve(plan_->reductions.size());
+  for (const ReductionPlan& r : plan_->reductions) results_.emplace_back(&r.configs, threads);
+  run_threads_ = threads;
 }
 
 Status Merger::Add(uint32_t shard, std::string partial, const PartialHeader* checked) {
@@ -149,8 +163,11 @@ void Merger::Account(uint32_t shard, OpenedPartial& p) {
 void Merger::StartRuns() {
   runs_ = std::make_unique<RunResults>(plan_, run_threads_);
   for (size_t r = 0; r < results_.size(); ++r) {
-    runs_->Start(r, results_[r].table);
-    results_[r].table = GroupTable(&plan_->reductions[r].configs);  // its memory goes back
+    std::string run;
+    ByteWriter w(&run);
+    results_[r].table.Encode(w);
+    runs_->Start(r, std::move(run), results_[r].table.group_count());
+    results_[r].table.Clear();  // its memory goes back
   }
 }
 
@@ -165,7 +182,7 @@ void Merger::FoldRuns() {
 }
 
 Status Merger::Rebuild(uint32_t end) {
-  for (size_t r = 0; r < results_.size(); ++r) results_[r].table = GroupTable(&plan_->reductions[r].configs);
+  for (size_t r = 0; r < results_.size(); ++r) results_[r].table.Clear();
   std::string bytes;
   for (uint32_t shard = 0; shard < end; ++shard) {
     if (failed_[shard]) continue;
@@ -187,7 +204,7 @@ Result<OutputTable> Merger::Finish(size_t r) {
   if (!fatal_.ok()) return fatal_;
   if (runs_) return FinishFromRun(r);
   const ReductionPlan& plan = plan_->reductions[r];
-  GroupTable& result = results_[r].table;
+  RangeTables& result = results_[r].table;
   OutputTable t;
   t.columns = plan.columns;
   t.key_columns = plan.group.size();
@@ -198,17 +215,22 @@ Result<OutputTable> Merger::Finish(size_t r) {
   std::vector<uint64_t>& degraded = results_[r].degraded;
   skipped.assign(plan.measures.size(), 0);
   degraded.assign(plan.measures.size(), 0);
-  for (size_t g = 0; g < result.group_count(); ++g) {
-    std::vector<Cell> row;
-    row.reserve(t.columns.size());
-    FF_RETURN_IF_ERROR(DecodeKey(result.key(g), plan.group.size(), &row));
-    MeasureState* const* states = result.states(g);
-    for (size_t m = 0; m < plan.measures.size(); ++m) {
-      states[m]->Finalize(&row);
-      skipped[m] += states[m]->skipped();
-      degraded[m] += states[m]->degraded() ? 1 : 0;
+  // Rows of every range, then sorted by key: the same rows in the same
+  // order whatever the number of ranges.
+  for (size_t i = 0; i < result.range_count(); ++i) {
+    const GroupTable& table = result.table(i);
+    for (size_t g = 0; g < table.group_count(); ++g) {
+      std::vector<Cell> row;
+      row.reserve(t.columns.size());
+      FF_RETURN_IF_ERROR(DecodeKey(table.key(g), plan.group.size(), &row));
+      MeasureState* const* states = table.states(g);
+      for (size_t m = 0; m < plan.measures.size(); ++m) {
+        states[m]->Finalize(&row);
+        skipped[m] += states[m]->skipped();
+        degraded[m] += states[m]->degraded() ? 1 : 0;
+      }
+      t.rows.push_back(std::move(row));
     }
-    t.rows.push_back(std::move(row));
   }
   SortRows(&t, {});
   return t;

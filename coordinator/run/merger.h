@@ -15,6 +15,7 @@
 #include <string>
 #include <vector>
 
+#include "coordinator/merge/range_tables.h"
 #include "coordinator/merge/run_results.h"
 #include "coordinator/output/output_table.h"
 #include "common/partial/partial_codec.h"
@@ -89,6 +90,17 @@ class Merger {
     run_threshold_ = groups;
     run_threads_ = threads;
   }
+  // Threads that merge each partial (tables: one key range each,
+  // coordinator/merge/range_tables.h; runs: the fold's key ranges, unless
+  // SetRunThreshold says otherwise). The bytes do not depend on it.
+  // Default: DefaultThreads(). REQUIRES: called before the first Add.
+  void SetThreads(size_t threads);
+  // The machine's hardware threads, at most kMaxDefaultThreads (at least 1).
+  static constexpr size_t kMaxDefaultThreads = 16;
+  static size_t DefaultThreads();
+  // Reduction r's in-memory tables (while !in_runs()), e.g. for per-range counts.
+  const RangeTables& tables(size_t r) const { return results_[r].table; }
+
   // True iff the results moved to runs.
   bool in_runs() const { return runs_ != nullptr; }
 
@@ -127,10 +139,10 @@ class Merger {
   uint32_t shard_count_;
   uint32_t next_ = 0;  // lowest shard not yet merged or skipped
   struct ReductionResult {
-    GroupTable table;
+    RangeTables table;
     std::vector<uint64_t> skipped;
     std::vector<uint64_t> degraded;
-    explicit ReductionResult(const std::vector<MeasureConfig>* configs) : table(configs) {}
+    ReductionResult(const std::vector<MeasureConfig>* configs, size_t threads) : table(configs, threads) {}
   };
   std::vector<ReductionResult> results_;  // per reduction
   uint64_t waiting_budget_;
@@ -143,7 +155,7 @@ class Merger {
   std::vector<std::pair<uint32_t, std::string>> late_failures_;
   Status fatal_;  // first merge failure (a limit exceeded across shards)
   uint64_t run_threshold_ = kDefaultRunThreshold;
-  size_t run_threads_ = 1;
+  size_t run_threads_ = DefaultThreads();
   std::unique_ptr<RunResults> runs_;  // set once the results moved to runs
 };
 

@@ -1,0 +1,171 @@
+#include "coordinator/merge/range_tables.h"
+
+#include <algorithm>
+#include <thread>
+
+namespace fanfold {
+
+RangeTables::RangeTables(const std::vector<MeasureConfig>* configs, size_t ranges)
+    : configs_(configs), wanted_(std::max<size_t>(ranges, 1)) {
+  tables_.emplace_back(configs_);
+  merged_.assign(1, 0);
+}
+
+size_t RangeTables::group_count() const {
+  size_t n = 0;
+  for (const GroupTable& t : tables_) n += t.group_count();
+  return n;
+}
+
+size_t RangeTables::RangeOf(std::string_view key) const {
+  return static_cast<size_t>(std::upper_bound(cuts_.begin(), cuts_.end(), key,
+                                              [](std::string_view k, const std::string& c) { return k < c; }) -
+                             cuts_.begin());
+}
+
+MeasureState* const* RangeTables::FindOrAdd(std::string_view key) { return tables_[RangeOf(key)].FindOrAdd(key); }
+
+Status RangeTables::Cut(std::string_view encoded, std::vector<Slice>* slices, size_t* bad_range) {
+  const size_t m = configs_->size();
+  slices->assign(tables_.size(), Slice{});
+  ByteReader r(encoded);
+  const auto offset = [&] { return encoded.size() - r.remaining(); };
+  // Each group needs at least a key length byte and m state length bytes.
+  const uint64_t n = r.Count(1 + m);
+  if (!r.ok()) {
+    *bad_range = 0;
+    return Status::Corrupt("group count larger than the partial state");
+  }
+  size_t range = 0;
+  (*slices)[0].begin = offset();
+  // Closes the slices at byte `at`: the current range's ends there, later
+  // ones are empty.
+  const auto close = [&](size_t at, uint64_t next_group) {
+    (*slices)[range].end = at;
+    for (size_t i = range + 1; i < slices->size(); ++i) (*slices)[i] = Slice{at, at, next_group, 0};
+  };
+  std::string_view previous;
+  for (uint64_t g = 0; g < n; ++g) {
+    const size_t at = offset();
+    const std::string_view key = r.Str();
+    Status bad;
+    if (!r.ok()) {
+      bad = Status::Corrupt("group " + std::to_string(g) + ": truncated key");
+    } else if (g > 0 && !(previous < key)) {
+      bad = Status::Corrupt("group " + std::to_string(g) + ": keys not in strictly ascending order");
+    } else {
+      while (range < cuts_.size() && !(key < cuts_[range])) {  // the key starts a later range
+        (*slices)[range].end = at;
+        ++range;
+        (*slices)[range] = Slice{at, at, g, 0};
+      }
+      for (size_t j = 0; j < m && r.ok(); ++j) (void)r.Str();
+      if (!r.ok()) bad = Status::Corrupt("group " + std::to_string(g) + ": truncated measure state");
+    }
+    if (!bad.ok()) {
+      close(at, g);
+      *bad_range = range;
+      return bad;
+    }
+    previous = key;
+    ++(*slices)[range].count;
+  }
+  close(offset(), n);
+  if (!r.at_end()) {
+    *bad_range = slices->size() - 1;
+    return Status::Corrupt("trailing bytes after the last group");
+  }
+  return Status::Ok();
+}
+
+void RangeTables::TakeCuts(std::string_view encoded) {
+  cut_ = true;
+  const size_t m = configs_->size();
+  ByteReader r(encoded);
+  const uint64_t n = r.Count(1 + m);
+  size_t part = 1;
+  for (uint64_t g = 0; g < n && part < wanted_; ++g) {
+    const std::string_view key = r.Str();
+    for (size_t j = 0; j < m; ++j) (void)r.Str();
+    if (!r.ok()) return;  // REQUIRES good framing; never taken otherwise
+    if (g == n * part / wanted_) {
+      if (g > 0 && (cuts_.empty() || cuts_.back() < key)) cuts_.emplace_back(key);
+      ++part;
+    }
+  }
+  if (cuts_.empty()) return;
+  // Range 0 held every group so far: move each to its range.
+  std::string old;
+  ByteWriter w(&old);
+  tables_[0].Encode(w);
+  const uint64_t merged0 = merged_[0];
+  tables_.clear();
+  for (size_t i = 0; i <= cuts_.size(); ++i) tables_.emplace_back(configs_);
+  merged_.assign(tables_.size(), 0);
+  merged_[0] = merged0;
+  std::vector<Slice> slices;
+  size_t bad_range = 0;
+  (void)Cut(old, &slices, &bad_range);  // our own encoding: good
+  for (size_t i = 0; i < tables_.size(); ++i) {
+    std::string one;
+    ByteWriter ow(&one);
+    ow.Varint(slices[i].count);
+    ow.Bytes(std::string_view(old).substr(slices[i].begin, slices[i].end - slices[i].begin));
+    ByteReader orr(one);
+    (void)tables_[i].Decode(orr);  // decodes what Encode wrote: cannot fail
+  }
+}
+
+Status RangeTables::Walk(std::string_view encoded, bool merge) {
+  std::vector<Slice> slices;
+  size_t bad_range = SIZE_MAX;
+  Status framing = Cut(encoded, &slices, &bad_range);
+  if (framing.ok() && !cut_ && wanted_ > 1) {
+    uint64_t n = 0;
+    for (const Slice& s : slices) n += s.count;
+    if (n >= kMinGroupsToCut) {
+      TakeCuts(encoded);
+      framing = Cut(encoded, &slices, &bad_range);
+    }
+  }
+  // A one-table walk stops at the bad framing: the ranges after its group's
+  // hold nothing before it, and are not walked.
+  const size_t walked = std::min(bad_range, tables_.size() - 1) + 1;
+  std::vector<Status> done(walked);
+  const auto walk = [&](size_t i) {
+    const Slice& s = slices[i];
+    const std::string_view bytes = encoded.substr(s.begin, s.end - s.begin);
+    done[i] = merge ? tables_[i].MergeEncodedGroups(bytes, s.count, s.first)
+                    : tables_[i].CheckEncodedGroups(bytes, s.count, s.first);
+  };
+  {
+    std::vector<std::jthread> running;
+    for (size_t i = 1; i < walked; ++i)
+      if (slices[i].count > 0) running.emplace_back(walk, i);
+    walk(0);
+  }
+  for (size_t i = 0; i < walked; ++i) {
+    if (!done[i].ok()) return done[i];  // the lowest range's: the first group's error
+    if (merge) merged_[i] += slices[i].count;
+  }
+  return framing;
+}
+
+void RangeTables::Encode(ByteWriter& w) const {
+  w.Varint(group_count());
+  std::string one;
+  for (const GroupTable& t : tables_) {
+    one.clear();
+    ByteWriter ow(&one);
+    t.Encode(ow);
+    ByteReader r(one);
+    (void)r.Varint();  // its own count
+    w.Bytes(std::string_view(one).substr(one.size() - r.remaining()));
+  }
+}
+
+void RangeTables::Clear() {
+  for (GroupTable& t : tables_) t = GroupTable(configs_);
+}
+
+}  // namespace fanfold

@@ -1,0 +1,90 @@
+// RangeTables: one reduction's in-memory result in the coordinator's merge
+// (coordinator/run/merger's tables path) split by key range over several
+// GroupTables, so that each partial is merged on several threads at once,
+// each thread owning one range's table.
+//
+// The rule that keeps the bytes independent of the thread count: every key
+// belongs to exactly one range, and its states are folded there alone, from
+// each partial in shard order, exactly as one table folds them — so every
+// group's states are the same whatever the number of ranges. The result's
+// encoding (Encode) writes the ranges in key order, which is the one table's
+// encoding; Finish's rows are sorted by key either way.
+//
+// The cut keys (range i holds keys k with cut[i-1] <= k < cut[i]) are taken
+// once, from the first partial with at least kMinGroupsToCut groups: its
+// keys at evenly spaced positions. Until then every key goes to range 0;
+// when the cuts are taken, range 0's groups are moved to their ranges
+// (encoded, sliced, decoded: Decode(Encode(s)) behaves as s, the property
+// the sorted runs rely on too, docs/streaming-merge.md).
+//
+// Each partial's group table is scanned once for framing (the groups' byte
+// offsets and where the ranges start); then each range's slice is checked or
+// merged on its own thread. Errors name the same group, with the same
+// message, as one table's walk: the lowest range's first error, and a framing
+// error only once every group before it was walked. The slices are what an
+// MPI transport could hand to several ranks (docs/streaming-merge.md). Not
+// thread-safe itself; it runs its own threads inside Check/Merge.
+#pragma once
+
+#include <cstdint>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "common/base/byte_io.h"
+#include "common/base/status.h"
+#include "common/measures/measure.h"
+#include "common/partial/group_table.h"
+
+namespace fanfold {
+
+class RangeTables {
+ public:
+  static constexpr uint64_t kMinGroupsToCut = 1024;
+
+  // configs must outlive this; ranges >= 1 (1 = one table, this thread).
+  RangeTables(const std::vector<MeasureConfig>* configs, size_t ranges);
+
+  // GroupTable::CheckEncoded / MergeEncoded over the ranges, in parallel.
+  Status CheckEncoded(std::string_view encoded) { return Walk(encoded, /*merge=*/false); }
+  Status MergeEncoded(std::string_view encoded) { return Walk(encoded, /*merge=*/true); }
+
+  size_t group_count() const;
+  size_t range_count() const { return tables_.size(); }
+  // Range i's table (its keys lie in range i only).
+  const GroupTable& table(size_t i) const { return tables_[i]; }
+  // The states of `key`'s group in its range's table, created if new.
+  MeasureState* const* FindOrAdd(std::string_view key);
+  // Groups merged into range i so far, over all partials (for the bench's
+  // per-thread counts).
+  uint64_t merged_groups(size_t i) const { return merged_[i]; }
+
+  // The encoding one GroupTable holding every group would write.
+  void Encode(ByteWriter& w) const;
+  // Empties every table (the cuts stay).
+  void Clear();
+
+ private:
+  struct Slice {
+    size_t begin = 0, end = 0;  // byte offsets in the encoding
+    uint64_t first = 0, count = 0;
+  };
+  Status Walk(std::string_view encoded, bool merge);
+  // Reads the framing of an encoded table and cuts it into one slice per
+  // range. Returns the framing error, if any, and in *bad_range the range
+  // of the group it names (the slices then end before that group).
+  Status Cut(std::string_view encoded, std::vector<Slice>* slices, size_t* bad_range);
+  // Takes the cuts from `encoded` (REQUIRES: its framing is good) and moves
+  // range 0's groups to their ranges.
+  void TakeCuts(std::string_view encoded);
+  size_t RangeOf(std::string_view key) const;
+
+  const std::vector<MeasureConfig>* configs_;
+  size_t wanted_;                  // ranges asked for
+  std::vector<std::string> cuts_;  // ascending; ranges = cuts_.size() + 1 once taken
+  bool cut_ = false;
+  std::vector<GroupTable> tables_;
+  std::vector<uint64_t> merged_;
+};
+
+}  // namespace fanfold

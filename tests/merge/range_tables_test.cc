@@ -1,0 +1,114 @@
+// RangeTables: a result split by key range over 1, 2, 3 or 7 tables merged
+// on as many threads gives byte for byte the encoding one GroupTable gives
+// (the reference: the plain table's own fold), and a malformed partial
+// fails with the one table's message.
+#include "coordinator/merge/range_tables.h"
+
+#include <doctest/doctest.h>
+
+#include <string>
+#include <vector>
+
+#include "common/partial/group_key.h"
+#include "tests/measures/measure_test_util.h"
+
+namespace fanfold {
+namespace {
+
+std::vector<MeasureConfig> Configs() {
+  std::vector<MeasureConfig> configs(5);
+  configs[0].kind = MeasureKind::kCount;
+  configs[1].kind = MeasureKind::kSum;  // rounding depends on the order of merging
+  configs[2].kind = MeasureKind::kHyperLogLog;
+  configs[2].precision = 8;
+  configs[3].kind = MeasureKind::kDdSketch;
+  configs[3].probabilities = {0.5};
+  configs[3].alpha = 0.01;
+  configs[4].kind = MeasureKind::kMean;
+  return configs;
+}
+
+// Shard s: `groups` groups from a window that moves with s, values whose
+// sums round differently in another order.
+std::string ShardTable(const std::vector<MeasureConfig>* configs, int s, uint64_t groups) {
+  GroupTable t(configs);
+  testing::TestLcg rng(100 + static_cast<uint64_t>(s));
+  for (uint64_t i = 0; i < groups * 2; ++i) {
+    std::string key;
+    AppendKeyValue(Value::String("k" + std::to_string(static_cast<uint64_t>(s) * 37 + rng.Next() % groups)), &key);
+    MeasureState* const* st = t.FindOrAdd(key);
+    const Value v = Value::Number(s % 2 == 0 ? 1e16 : 1.0 + 0.1 * static_cast<double>(rng.Next() % 50));
+    for (size_t m = 0; m < configs->size(); ++m) st[m]->Add(&v);
+  }
+  std::string out;
+  ByteWriter w(&out);
+  t.Encode(w);
+  return out;
+}
+
+std::string EncodeOf(const RangeTables& t) {
+  std::string out;
+  ByteWriter w(&out);
+  t.Encode(w);
+  return out;
+}
+
+// Intent: small shards first (every key in range 0 until the cuts are
+// taken, then moved), then large ones; any thread count gives the one
+// table's bytes, and more than one thread really splits the keys.
+TEST_CASE("range_tables: 1, 2, 3 and 7 ranges encode as one table") {
+  const std::vector<MeasureConfig> configs = Configs();
+  std::vector<std::string> shards;
+  for (int s = 0; s < 10; ++s) shards.push_back(ShardTable(&configs, s, s < 3 ? 40 : 3000));
+  GroupTable reference(&configs);
+  for (const std::string& b : shards) REQUIRE(reference.MergeEncoded(b).ok());
+  std::string expected;
+  ByteWriter w(&expected);
+  reference.Encode(w);
+  for (size_t threads : {1, 2, 3, 7}) {
+    CAPTURE(threads);
+    RangeTables t(&configs, threads);
+    for (const std::string& b : shards) {
+      REQUIRE(t.CheckEncoded(b).ok());
+      REQUIRE(t.MergeEncoded(b).ok());
+    }
+    CHECK(t.range_count() == threads);
+    CHECK(t.group_count() == reference.group_count());
+    CHECK(EncodeOf(t) == expected);
+    for (size_t i = 0; i < t.range_count(); ++i) CHECK(t.merged_groups(i) > 0);
+    t.Clear();
+    CHECK(t.group_count() == 0);
+  }
+}
+
+// Intent: a partial cut short anywhere, or with a byte changed, fails with
+// the message one GroupTable's check gives, at every thread count.
+TEST_CASE("range_tables: a malformed partial fails as one table's check says") {
+  const std::vector<MeasureConfig> configs = Configs();
+  const std::string first = ShardTable(&configs, 1, 2000);
+  const std::string good = ShardTable(&configs, 4, 1500);
+  std::vector<std::string> bad;
+  for (size_t cut = 0; cut < good.size(); cut += 1 + good.size() / 150) bad.push_back(good.substr(0, cut));
+  for (size_t at = 1; at < good.size(); at += 1 + good.size() / 150) {
+    bad.push_back(good);
+    bad.back()[at] = static_cast<char>(bad.back()[at] ^ 0x5a);
+  }
+  bad.push_back(good + '\0');
+  for (size_t threads : {1, 2, 3, 7}) {
+    CAPTURE(threads);
+    RangeTables t(&configs, threads);
+    REQUIRE(t.MergeEncoded(first).ok());  // takes the cuts
+    REQUIRE(t.range_count() == threads);
+    for (const std::string& b : bad) {
+      GroupTable one(&configs);
+      const Status expected = one.CheckEncoded(b);
+      CHECK(t.CheckEncoded(b).message() == expected.message());
+      RangeTables scratch(&configs, threads);
+      REQUIRE(scratch.MergeEncoded(first).ok());
+      CHECK(scratch.MergeEncoded(b).message() == expected.message());
+    }
+  }
+}
+
+}  // namespace
+}  // namespace fanfold
