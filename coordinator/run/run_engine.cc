@@ -77,6 +77,21 @@ Status ApplyTestOnlyMergeRuns(Merger* merger) {
   return Status::Ok();
 }
 
+// FANFOLD_TEST_ONLY_MERGE_THREADS=N (tests only, never for users): the
+// merger merges each partial on N threads (1 to 64) instead of the machine's
+// hardware threads, so tests can show the bytes do not depend on it.
+Status ApplyTestOnlyMergeThreads(Merger* merger) {
+  const char* sw = std::getenv("FANFOLD_TEST_ONLY_MERGE_THREADS");
+  if (sw == nullptr || *sw == '\0') return Status::Ok();
+  char* end = nullptr;
+  const uint64_t threads = std::strtoull(sw, &end, 10);
+  if (end == sw || *end != '\0' || threads < 1 || threads > 64)
+    return Status::InvalidArgument("FANFOLD_TEST_ONLY_MERGE_THREADS: expected a thread count from 1 to 64, found '" +
+                                   std::string(sw) + "'");
+  merger->SetThreads(static_cast<size_t>(threads));
+  return Status::Ok();
+}
+
 }  // namespace
 
 CommandOutcome ExecuteRun(const RunInput& in, const RunOptions& o) { return RunEngine(in, o).Execute(); }
@@ -132,6 +147,7 @@ void RunEngine::Prepare() {
 }
 
 Status RunEngine::Reload() {
+  FF_RETURN_IF_ERROR(ApplyTestOnlyMergeThreads(&merger_));  // first: it resets the runs' threads too
   FF_RETURN_IF_ERROR(ApplyTestOnlyMergeRuns(&merger_));
   for (uint32_t s : in_.reused) {
     std::string bytes;

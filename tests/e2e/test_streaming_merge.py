@@ -12,6 +12,9 @@ exact distinct and DDSketch. Checked:
   FANFOLD_TEST_ONLY_MERGE_RUNS=GROUPS:THREADS from the first group, past
   20,000 and 50,000 groups, over 1, 2 and 3 key ranges, at -j 1, 2 and 3 —
   and the debug log says whether the runs were used;
+* the in-memory tables merged on 1, 2, 3 and 7 threads, one key range each
+  (the test-only switch FANFOLD_TEST_ONLY_MERGE_THREADS=N;
+  coordinator/merge/range_tables.h), give the same bytes;
 * every group against sqlite3 (Python's stdlib module): GROUP BY lamp with
   COUNT(*), SUM(power) (integers: exact in both), MIN/MAX(latency),
   COUNT(DISTINCT power), and AVG(power) within 1e-12 relative (sqlite3 sums
@@ -69,19 +72,22 @@ def sqlite_expected(rows):
     return out
 
 
-def run(env, c, job, workers, switch, label):
+def run(env, c, job, workers, switch, label, threads=None):
     out = env.path("out-%s.json" % label)
-    old = os.environ.get("FANFOLD_TEST_ONLY_MERGE_RUNS")
+    saved = {k: os.environ.get(k) for k in ("FANFOLD_TEST_ONLY_MERGE_RUNS", "FANFOLD_TEST_ONLY_MERGE_THREADS")}
     if switch is not None:
         os.environ["FANFOLD_TEST_ONLY_MERGE_RUNS"] = switch
+    if threads is not None:
+        os.environ["FANFOLD_TEST_ONLY_MERGE_THREADS"] = str(threads)
     try:
         rc, _, err = env.fanfold_run("run", job, "-j", workers, "-o", out, "--log-level", "debug",
                                      "--progress", "off")
     finally:
-        if old is None:
-            os.environ.pop("FANFOLD_TEST_ONLY_MERGE_RUNS", None)
-        else:
-            os.environ["FANFOLD_TEST_ONLY_MERGE_RUNS"] = old
+        for k, v in saved.items():
+            if v is None:
+                os.environ.pop(k, None)
+            else:
+                os.environ[k] = v
     if not c.check(rc == 0, "%s: exit %d: %s" % (label, rc, lib.tail(err))):
         return None
     used_runs = "folded as sorted runs" in err
@@ -101,9 +107,14 @@ def main():
         expected = sqlite_expected(rows)
         c.check(len(expected) > 100000, "only %d groups; the test wants 100k+" % len(expected))
 
-        base = run(env, c, job, 2, "0", "in-memory")
+        base = run(env, c, job, 2, "0", "in-memory", threads=1)
         if base is None:
             c.exit()
+        for threads in (2, 3, 7):
+            label = "in-memory-%d-threads" % threads
+            got = run(env, c, job, 2, "0", label, threads=threads)
+            if got is not None:
+                c.check(got == base, "%s: result differs from one thread's" % label)
         for workers, switch in ((2, None), (1, "1:1"), (2, "20000:1"), (2, "20000:3"), (3, "1:2"), (1, "50000:2")):
             label = "runs-%s-j%d" % ((switch or "default").replace(":", "x"), workers)
             got = run(env, c, job, workers, switch, label)
