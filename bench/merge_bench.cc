@@ -15,6 +15,7 @@
 #include <sys/resource.h>
 #include <time.h>
 #include <xxhash.h>
+#include <zstd.h>
 
 #include <algorithm>
 #include <charconv>
@@ -89,6 +90,41 @@ void RestampShardIndex(uint32_t shard, std::string* partial) {
   const uint64_t sum = XXH3_64bits_digest(st);
   XXH3_freeState(st);
   for (int b = 0; b < 8; ++b) (*partial)[kChecksumOffset + b] = static_cast<char>((sum >> (8 * b)) & 0xff);
+}
+
+// The floor the merge is measured against: decompressing each merged
+// partial's body as the run directory stores it (wall and process CPU time) (one zstd frame after the
+// header; layout in common/partial/partial_codec.h: the stored length at
+// offset 112, the length before compression at 104), in one thread, into
+// a buffer allocated once. Returns seconds, or -1 if a body is not zstd.
+struct Decompressed {
+  double wall_s = -1, cpu_s = -1;
+};
+Decompressed DecompressSeconds(const std::vector<std::string>& encoded, uint64_t count) {
+  constexpr size_t kRawLenOffset = 104, kStoredLenOffset = 112;
+  const auto u64 = [](const std::string& b, size_t at) {
+    uint64_t v = 0;
+    for (int i = 7; i >= 0; --i) v = v << 8 | static_cast<uint8_t>(b[at + static_cast<size_t>(i)]);
+    return v;
+  };
+  ZSTD_DCtx* d = ZSTD_createDCtx();
+  std::string body;
+  double total = 0;
+  bool ok = true;
+  const double c0 = CpuSeconds();
+  for (uint64_t i = 0; i < count && ok; ++i) {
+    const std::string& p = encoded[i % encoded.size()];
+    const uint64_t raw = u64(p, kRawLenOffset), stored = u64(p, kStoredLenOffset);
+    body.resize(raw);
+    const auto t0 = std::chrono::steady_clock::now();
+    const size_t n = ZSTD_decompressDCtx(d, body.data(), body.size(), p.data() + kPartialHeaderSize, stored);
+    total += Seconds(std::chrono::steady_clock::now() - t0);
+    ok = !ZSTD_isError(n) && n == raw;
+  }
+  const double cpu = CpuSeconds() - c0;
+  ZSTD_freeDCtx(d);
+  if (!ok) return Decompressed{};
+  return Decompressed{total, cpu};
 }
 
 int Usage(const std::string& message) {
@@ -214,6 +250,18 @@ int Run(const BenchOptions& o) {
                  static_cast<unsigned long long>(merged));
     return 3;
   }
+  // Per range (thread) of the in-memory tables: groups merged.
+  std::string per_thread = "[";
+  if (!merger.in_runs())
+    for (size_t i = 0; i < merger.tables(0).range_count(); ++i)
+      per_thread += (i ? ", " : "") + std::to_string(merger.tables(0).merged_groups(i));
+  per_thread += "]";
+  const Decompressed dz = DecompressSeconds(encoded, merged);
+  const double decompress_s = dz.wall_s;
+  if (decompress_s < 0) {
+    std::fprintf(stderr, "merge_bench: a partial's body is not one zstd frame\n");
+    return 3;
+  }
   std::vector<double> sorted = each_s;
   std::sort(sorted.begin(), sorted.end());
   struct rusage ru {};
@@ -224,14 +272,23 @@ int Run(const BenchOptions& o) {
       "\"build_s\": %.3f, \"merge_s\": %.4f, \"merge_all_s\": %.4f, \"merge_cpu_s\": %.4f, "
       "\"merge_all_cpu_s\": %.4f, \"finish_s\": %.4f, "
       "\"per_partial_ms\": {\"median\": %.3f, \"min\": %.3f, \"max\": %.3f}, \"peak_rss_kib\": %ld, "
-      "\"sorted_runs\": %s, \"check_first\": %s}\n",
+      "\"sorted_runs\": %s, \"check_first\": %s, \"threads\": %zu, \"groups_per_thread\": %s, "
+      "\"decompress_s\": %.4f, \"decompress_cpu_s\": %.4f, \"merge_over_decompress\": %.2f, \"merge_cpu_over_decompress\": %.2f, "
+      "\"produce_s_per_partial\": %.5f, \"merge_s_per_partial\": %.5f, \"workers_to_saturate_estimate\": %.1f}\n",
       static_cast<unsigned long long>(o.partials), static_cast<unsigned long long>(merged),
       static_cast<unsigned long long>(o.groups), static_cast<unsigned long long>(o.values), table->rows.size(),
       pl.reductions[0].measures.size(), static_cast<double>(encoded_bytes) / static_cast<double>(merged), build_s, merge_s,
       merge_s * static_cast<double>(o.partials) / static_cast<double>(merged), merge_cpu_s,
       merge_cpu_s * static_cast<double>(o.partials) / static_cast<double>(merged), finish_s,
       1000 * sorted[sorted.size() / 2], 1000 * sorted.front(), 1000 * sorted.back(), ru.ru_maxrss,
-      merger.in_runs() ? "true" : "false", o.check_first ? "true" : "false");
+      merger.in_runs() ? "true" : "false", o.check_first ? "true" : "false", threads, per_thread.c_str(),
+      decompress_s, dz.cpu_s, merge_s / decompress_s, merge_cpu_s / dz.cpu_s, build_s / static_cast<double>(o.templates),
+      merge_s / static_cast<double>(merged),
+      // An estimate: workers producing partials at the measured cost of
+      // building one (aggregating and encoding its values; reading and
+      // parsing records not included, so a lower bound) keep the merge
+      // busy from this many on.
+      (build_s / static_cast<double>(o.templates)) / (merge_s / static_cast<double>(merged)));
   return 0;
 }
 

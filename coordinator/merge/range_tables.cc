@@ -5,8 +5,8 @@
 
 namespace fanfold {
 
-RangeTables::RangeTables(const std::vector<MeasureConfig>* configs, size_t ranges)
-    : configs_(configs), wanted_(std::max<size_t>(ranges, 1)) {
+RangeTables::RangeTables(const std::vector<MeasureConfig>* configs, size_t ranges, uint64_t min_groups_for_threads)
+    : configs_(configs), wanted_(std::max<size_t>(ranges, 1)), min_groups_for_threads_(min_groups_for_threads) {
   tables_.emplace_back(configs_);
   merged_.assign(1, 0);
 }
@@ -138,7 +138,11 @@ Status RangeTables::Walk(std::string_view encoded, bool merge) {
     done[i] = merge ? tables_[i].MergeEncodedGroups(bytes, s.count, s.first)
                     : tables_[i].CheckEncodedGroups(bytes, s.count, s.first);
   };
-  {
+  uint64_t groups = 0;
+  for (size_t i = 0; i < walked; ++i) groups += slices[i].count;
+  if (groups < min_groups_for_threads_) {  // starting threads would cost more than they save
+    for (size_t i = 0; i < walked; ++i) walk(i);
+  } else {
     std::vector<std::jthread> running;
     for (size_t i = 1; i < walked; ++i)
       if (slices[i].count > 0) running.emplace_back(walk, i);

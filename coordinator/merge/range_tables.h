@@ -41,9 +41,14 @@ namespace fanfold {
 class RangeTables {
  public:
   static constexpr uint64_t kMinGroupsToCut = 1024;
+  // A partial with fewer groups has its ranges walked one after another in
+  // the calling thread (the same ranges, so the same bytes).
+  static constexpr uint64_t kMinGroupsForThreads = 8192;
 
   // configs must outlive this; ranges >= 1 (1 = one table, this thread).
-  RangeTables(const std::vector<MeasureConfig>* configs, size_t ranges);
+  // Tests pass min_groups_for_threads 0 to use threads on small partials.
+  RangeTables(const std::vector<MeasureConfig>* configs, size_t ranges,
+              uint64_t min_groups_for_threads = kMinGroupsForThreads);
 
   // GroupTable::CheckEncoded / MergeEncoded over the ranges, in parallel.
   Status CheckEncoded(std::string_view encoded) { return Walk(encoded, /*merge=*/false); }
@@ -81,6 +86,7 @@ class RangeTables {
 
   const std::vector<MeasureConfig>* configs_;
   size_t wanted_;                  // ranges asked for
+  uint64_t min_groups_for_threads_;
   std::vector<std::string> cuts_;  // ascending; ranges = cuts_.size() + 1 once taken
   bool cut_ = false;
   std::vector<GroupTable> tables_;

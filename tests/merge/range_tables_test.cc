@@ -67,7 +67,7 @@ TEST_CASE("range_tables: 1, 2, 3 and 7 ranges encode as one table") {
   reference.Encode(w);
   for (size_t threads : {1, 2, 3, 7}) {
     CAPTURE(threads);
-    RangeTables t(&configs, threads);
+    RangeTables t(&configs, threads, /*min_groups_for_threads=*/0);
     for (const std::string& b : shards) {
       REQUIRE(t.CheckEncoded(b).ok());
       REQUIRE(t.MergeEncoded(b).ok());
@@ -96,14 +96,14 @@ TEST_CASE("range_tables: a malformed partial fails as one table's check says") {
   bad.push_back(good + '\0');
   for (size_t threads : {1, 2, 3, 7}) {
     CAPTURE(threads);
-    RangeTables t(&configs, threads);
+    RangeTables t(&configs, threads, /*min_groups_for_threads=*/0);
     REQUIRE(t.MergeEncoded(first).ok());  // takes the cuts
     REQUIRE(t.range_count() == threads);
     for (const std::string& b : bad) {
       GroupTable one(&configs);
       const Status expected = one.CheckEncoded(b);
       CHECK(t.CheckEncoded(b).message() == expected.message());
-      RangeTables scratch(&configs, threads);
+      RangeTables scratch(&configs, threads, /*min_groups_for_threads=*/0);
       REQUIRE(scratch.MergeEncoded(first).ok());
       CHECK(scratch.MergeEncoded(b).message() == expected.message());
     }
