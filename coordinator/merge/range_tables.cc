@@ -117,6 +117,17 @@ void RangeTables::TakeCuts(std::string_view encoded) {
 }
 
 Status RangeTables::Walk(std::string_view encoded, bool merge) {
+  if (tables_.size() == 1) {
+    // One range (and no cuts to take from this partial): the one table's
+    // own walk, with no framing scan before it.
+    ByteReader r(encoded);
+    const uint64_t n = r.Varint();
+    if (wanted_ == 1 || cut_ || !r.ok() || n < kMinGroupsToCut) {
+      Status s = merge ? tables_[0].MergeEncoded(encoded) : tables_[0].CheckEncoded(encoded);
+      if (s.ok() && merge) merged_[0] += n;
+      return s;
+    }
+  }
   std::vector<Slice> slices;
   size_t bad_range = SIZE_MAX;
   Status framing = Cut(encoded, &slices, &bad_range);

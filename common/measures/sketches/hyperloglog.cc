@@ -196,8 +196,25 @@ Status HyperLogLogState::Decode(ByteReader& r) {
 
 Status HyperLogLogState::MergeEncoded(ByteReader& r, bool apply, MeasureState* /*scratch*/) {
   const uint64_t skipped = r.Varint();
+  if (!r.ok()) return Status::Corrupt("hyperloglog: bad or truncated state");
+  // The common case in a merge of many small groups: a short sparse list,
+  // read (and checked) once into a local array, then applied.
+  {
+    ByteReader peek = r;
+    uint32_t entries[kFastSparse];
+    const int k = ReadShortSparse(peek, entries);
+    if (k == -2) return Status::Corrupt("hyperloglog: bad or truncated state");
+    if (k >= 0) {
+      r = peek;
+      if (apply) {
+        RaiseSorted(entries, static_cast<size_t>(k));
+        skipped_ += skipped;
+      }
+      return Status::Ok();
+    }
+  }
   ByteReader check = r;
-  if (!r.ok() || !ReadRegisters(check, p_, [](size_t, uint8_t) {}))
+  if (!ReadRegisters(check, p_, [](size_t, uint8_t) {}))
     return Status::Corrupt("hyperloglog: bad or truncated state");
   if (!apply) {
     r = check;
@@ -208,6 +225,74 @@ Status HyperLogLogState::MergeEncoded(ByteReader& r, bool apply, MeasureState* /
   (void)ReadRegisters(r, p_, [this](size_t i, uint8_t reg) { Raise(static_cast<uint32_t>(i), reg); });
   skipped_ += skipped;
   return Status::Ok();
+}
+
+int HyperLogLogState::ReadShortSparse(ByteReader& r, uint32_t* out) const {
+  const size_t m = size_t{1} << p_;
+  const uint8_t max_rank = static_cast<uint8_t>(64 - p_ + 1);
+  ByteReader in = r;
+  const uint8_t form = in.U8();
+  if (!in.ok()) return -2;
+  if (form != 1) return -1;  // dense: the general path
+  const size_t k = in.Count(2);
+  if (!in.ok() || 4 * k >= m) return -2;
+  if (k > kFastSparse) return -1;
+  uint64_t next = 0;
+  for (size_t j = 0; j < k; ++j) {
+    const uint64_t gap = in.Varint();
+    const uint8_t reg = in.U8();
+    if (!in.ok() || gap >= m - next || reg == 0 || reg > max_rank) return -2;
+    out[j] = static_cast<uint32_t>(next + gap) << 8 | reg;
+    next += gap + 1;
+  }
+  r = in;
+  return static_cast<int>(k);
+}
+
+void HyperLogLogState::RaiseSorted(const uint32_t* entries, size_t k) {
+  if (!registers_.empty()) {
+    uint8_t* regs = registers_.data();
+    for (size_t j = 0; j < k; ++j) {
+      const uint8_t rank = static_cast<uint8_t>(entries[j] & 0xff);
+      uint8_t& reg = regs[entries[j] >> 8];
+      if (rank > reg) reg = rank;
+    }
+    return;
+  }
+  // Both lists ascend by index: the union's size first, then one merge
+  // pass from the back, in place. The same registers as k Raise calls; the
+  // list becomes the array exactly when it would pass SparseLimit(), as
+  // Raise decides.
+  size_t n = 0;
+  for (size_t a = 0, b = 0; a < sparse_.size() || b < k; ++n) {
+    if (b == k || (a < sparse_.size() && (sparse_[a] >> 8) < (entries[b] >> 8))) {
+      ++a;
+    } else if (a == sparse_.size() || (entries[b] >> 8) < (sparse_[a] >> 8)) {
+      ++b;
+    } else {
+      ++a;
+      ++b;
+    }
+  }
+  if (n > SparseLimit()) {
+    Densify();
+    for (size_t j = 0; j < k; ++j) {
+      uint8_t& reg = registers_[entries[j] >> 8];
+      reg = std::max(reg, static_cast<uint8_t>(entries[j] & 0xff));
+    }
+    return;
+  }
+  size_t a = sparse_.size(), b = k, out = n;
+  sparse_.resize(n);
+  while (b > 0) {  // what is left of sparse_ below `a` is already in place
+    if (a > 0 && (sparse_[a - 1] >> 8) > (entries[b - 1] >> 8)) {
+      sparse_[--out] = sparse_[--a];
+    } else if (a > 0 && (sparse_[a - 1] >> 8) == (entries[b - 1] >> 8)) {
+      sparse_[--out] = std::max(sparse_[--a], entries[--b]);  // same index: the larger rank
+    } else {
+      sparse_[--out] = entries[--b];
+    }
+  }
 }
 
 void HyperLogLogState::PrefetchMerge(std::string_view encoded) const {

@@ -87,6 +87,15 @@ class HyperLogLogState final : public MeasureState {
   size_t SparseLimit() const { return std::min<size_t>(64, (size_t{1} << p_) / 4); }
   // Moves the list into a full register array.
   void Densify();
+  // Encoded states with at most this many sparse registers merge in one pass.
+  static constexpr size_t kFastSparse = 64;
+  // Reads a sparse register list of at most kFastSparse entries (the bytes
+  // after `skipped`) into out as index << 8 | rank, checked as Decode
+  // checks. Returns the count (r advanced), -1 if the state is not such a
+  // list (r unchanged), -2 if the bytes are bad.
+  int ReadShortSparse(ByteReader& r, uint32_t* out) const;
+  // Raises the registers of an ascending list of index << 8 | rank.
+  void RaiseSorted(const uint32_t* entries, size_t k);
   // The registers in index order, whichever form holds them.
   std::vector<uint8_t> DenseCopy() const;
 

@@ -217,3 +217,35 @@ TEST_CASE("hyperloglog: encoding forms and validation") {
 
 }  // namespace
 }  // namespace fanfold
+
+namespace fanfold {
+namespace {
+
+// Intent: merging encoded states of many sizes (short lists read in one
+// pass, longer lists, arrays) into list- and array-form states from the
+// bytes equals Merge of the decoded states (register-wise max, the
+// reference), whichever form the target ends in.
+TEST_CASE("hyperloglog: merging from bytes equals merging decoded states") {
+  for (int precision : {4, 8, 10, 14}) {
+    const MeasureConfig c = HllConfig(precision);
+    uint64_t from = 0;
+    auto by_bytes = NewMeasureState(c);
+    auto by_merge = NewMeasureState(c);
+    auto scratch = NewMeasureState(c);
+    for (uint64_t n : {3u, 10u, 30u, 2u, 63u, 64u, 65u, 5u, 200u, 1u, 7000u, 40u}) {
+      INFO("precision " << precision << ", n " << n);
+      auto part = NewMeasureState(c);
+      FeedDistinct(*part, 5, from, from + n);
+      from += n / 2;  // overlapping parts: equal registers meet
+      const std::string bytes = testing::EncodeOf(*part);
+      ByteReader r(bytes);
+      REQUIRE(by_bytes->MergeEncoded(r, /*apply=*/true, scratch.get()).ok());
+      CHECK(r.at_end());
+      REQUIRE(by_merge->Merge(*testing::DecodeOf(c, bytes)).ok());
+      CHECK(testing::EncodeOf(*by_bytes) == testing::EncodeOf(*by_merge));
+    }
+  }
+}
+
+}  // namespace
+}  // namespace fanfold
