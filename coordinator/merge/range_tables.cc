@@ -25,9 +25,10 @@ size_t RangeTables::RangeOf(std::string_view key) const {
 
 MeasureState* const* RangeTables::FindOrAdd(std::string_view key) { return tables_[RangeOf(key)].FindOrAdd(key); }
 
-Status RangeTables::Cut(std::string_view encoded, std::vector<Slice>* slices, size_t* bad_range) {
-  const size_t m = configs_->size();
-  slices->assign(tables_.size(), Slice{});
+Status CutByKeys(std::string_view encoded, size_t m, const std::vector<std::string>& cuts,
+                 std::vector<RangeSlice>* slices, size_t* bad_range) {
+  using Slice = RangeSlice;
+  slices->assign(cuts.size() + 1, Slice{});
   ByteReader r(encoded);
   const auto offset = [&] { return encoded.size() - r.remaining(); };
   // Each group needs at least a key length byte and m state length bytes.
@@ -54,7 +55,7 @@ Status RangeTables::Cut(std::string_view encoded, std::vector<Slice>* slices, si
     } else if (g > 0 && !(previous < key)) {
       bad = Status::Corrupt("group " + std::to_string(g) + ": keys not in strictly ascending order");
     } else {
-      while (range < cuts_.size() && !(key < cuts_[range])) {  // the key starts a later range
+      while (range < cuts.size() && !(key < cuts[range])) {  // the key starts a later range
         (*slices)[range].end = at;
         ++range;
         (*slices)[range] = Slice{at, at, g, 0};

@@ -38,6 +38,23 @@
 
 namespace fanfold {
 
+// Where one key range's groups lie in a group-table encoding: bytes
+// [begin, end), `count` groups, the first being group `first` of the whole.
+// A range's slices of every partial, in shard order, are all a merge of
+// that range needs — the unit an MPI run could hand to one rank.
+struct RangeSlice {
+  size_t begin = 0, end = 0;
+  uint64_t first = 0, count = 0;
+};
+
+// Cuts an encoded group table (measure_count states a group) at the cut
+// keys (ascending; range i holds keys k with cuts[i-1] <= k < cuts[i]) into
+// cuts.size() + 1 slices, reading its framing once. On bad framing returns
+// GroupTable's message for it, with *bad_range the range of the group it
+// names; the slices then end before that group.
+Status CutByKeys(std::string_view encoded, size_t measure_count, const std::vector<std::string>& cuts,
+                 std::vector<RangeSlice>* slices, size_t* bad_range);
+
 class RangeTables {
  public:
   static constexpr uint64_t kMinGroupsToCut = 1024;
@@ -60,6 +77,8 @@ class RangeTables {
   const GroupTable& table(size_t i) const { return tables_[i]; }
   // The states of `key`'s group in its range's table, created if new.
   MeasureState* const* FindOrAdd(std::string_view key);
+  // The cut keys taken (empty until then, or with one range).
+  const std::vector<std::string>& cuts() const { return cuts_; }
   // Groups merged into range i so far, over all partials (for the bench's
   // per-thread counts).
   uint64_t merged_groups(size_t i) const { return merged_[i]; }
@@ -70,15 +89,11 @@ class RangeTables {
   void Clear();
 
  private:
-  struct Slice {
-    size_t begin = 0, end = 0;  // byte offsets in the encoding
-    uint64_t first = 0, count = 0;
-  };
+  using Slice = RangeSlice;
   Status Walk(std::string_view encoded, bool merge);
-  // Reads the framing of an encoded table and cuts it into one slice per
-  // range. Returns the framing error, if any, and in *bad_range the range
-  // of the group it names (the slices then end before that group).
-  Status Cut(std::string_view encoded, std::vector<Slice>* slices, size_t* bad_range);
+  Status Cut(std::string_view encoded, std::vector<Slice>* slices, size_t* bad_range) {
+    return CutByKeys(encoded, configs_->size(), cuts_, slices, bad_range);
+  }
   // Takes the cuts from `encoded` (REQUIRES: its framing is good) and moves
   // range 0's groups to their ranges.
   void TakeCuts(std::string_view encoded);
