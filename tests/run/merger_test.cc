@@ -332,3 +332,66 @@ TEST_CASE("merger: per-field present counts add up over shards") {
 }
 
 }  // namespace fanfold
+
+namespace fanfold {
+
+// Intent: the tables path merged on 1, 2, 3 and 7 threads (one key range
+// each, partials large enough to use them) gives the same result; a forged
+// partial whose bad bytes lie in the last range (the other ranges merged
+// first) is dropped alone, with one thread's message, both when the merge
+// finds it (with a reloader: the result is rebuilt without it) and when
+// every partial is checked first (without one).
+TEST_CASE("merger: the tables merged on several threads give one thread's result") {
+  const auto plan = TestPlan();
+  const uint32_t n = 6;
+  std::map<uint32_t, std::string> disk;
+  for (uint32_t s = 0; s < n; ++s) disk[s] = PartialFor(*plan, s, /*pad=*/9000 + static_cast<int>(s));
+  const std::vector<MeasureConfig> configs = ConfigsOf(*plan);
+  PartialState p(&configs);
+  REQUIRE(DecodePartial(disk[3], &p).ok());
+  std::string body;
+  EncodePartialBody(p, &body);
+  body[body.size() - 3] = '\x7f';  // inside the last group's states
+  const std::string forged = WrapBody(disk[3], body);
+
+  std::string expected[2], encoded[2], message;
+  const auto encode = [](const RangeTables& t) {
+    std::string out;
+    ByteWriter w(&out);
+    t.Encode(w);
+    return out;
+  };
+  for (bool forge : {false, true}) {
+    Merger one(plan.get(), n);
+    one.SetThreads(1);
+    for (uint32_t s = 0; s < n; ++s) REQUIRE(one.Add(s, forge && s == 3 ? forged : disk[s]).ok());
+    REQUIRE(one.late_failures().size() == (forge ? 1u : 0u));
+    if (forge) message = one.late_failures()[0].second;
+    encoded[forge] = encode(one.tables(0));
+    expected[forge] = ResultText(one);
+  }
+  CHECK(expected[0] != expected[1]);
+  for (size_t threads : {1, 2, 3, 7})
+    for (bool reload : {false, true})
+      for (bool forge : {false, true}) {
+        CAPTURE(threads);
+        CAPTURE(reload);
+        CAPTURE(forge);
+        Merger m(plan.get(), n, /*waiting_budget=*/0);
+        m.SetThreads(threads);
+        if (reload)
+          m.SetReloader([&](uint32_t s, std::string* out) {
+            *out = forge && s == 3 ? forged : disk[s];
+            return Status::Ok();
+          });
+        for (uint32_t s : {1u, 0u, 2u, 5u, 3u, 4u}) REQUIRE(m.Add(s, forge && s == 3 ? forged : disk[s]).ok());
+        REQUIRE(m.complete());
+        CHECK(m.tables(0).range_count() == threads);
+        REQUIRE(m.late_failures().size() == (forge ? 1u : 0u));
+        if (forge) CHECK(m.late_failures()[0].second == message);
+        CHECK(encode(m.tables(0)) == encoded[forge]);  // every state's bytes
+        CHECK(ResultText(m) == expected[forge]);
+      }
+}
+
+}  // namespace fanfold
