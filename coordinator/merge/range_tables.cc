@@ -1,9 +1,20 @@
 #include "coordinator/merge/range_tables.h"
 
+#include <time.h>
+
 #include <algorithm>
 #include <thread>
 
 namespace fanfold {
+namespace {
+
+double ThreadCpuSeconds() {
+  timespec ts{};
+  clock_gettime(CLOCK_THREAD_CPUTIME_ID, &ts);
+  return static_cast<double>(ts.tv_sec) + 1e-9 * static_cast<double>(ts.tv_nsec);
+}
+
+}  // namespace
 
 RangeTables::RangeTables(const std::vector<MeasureConfig>* configs, size_t ranges, uint64_t min_groups_for_threads)
     : configs_(configs), wanted_(std::max<size_t>(ranges, 1)), min_groups_for_threads_(min_groups_for_threads) {
@@ -144,11 +155,14 @@ Status RangeTables::Walk(std::string_view encoded, bool merge) {
   // hold nothing before it, and are not walked.
   const size_t walked = std::min(bad_range, tables_.size() - 1) + 1;
   std::vector<Status> done(walked);
+  std::vector<double> cpu(walked, 0.0);
   const auto walk = [&](size_t i) {
+    const double c0 = ThreadCpuSeconds();
     const Slice& s = slices[i];
     const std::string_view bytes = encoded.substr(s.begin, s.end - s.begin);
     done[i] = merge ? tables_[i].MergeEncodedGroups(bytes, s.count, s.first)
                     : tables_[i].CheckEncodedGroups(bytes, s.count, s.first);
+    cpu[i] = ThreadCpuSeconds() - c0;
   };
   uint64_t groups = 0;
   for (size_t i = 0; i < walked; ++i) groups += slices[i].count;
@@ -160,6 +174,13 @@ Status RangeTables::Walk(std::string_view encoded, bool merge) {
       if (slices[i].count > 0) running.emplace_back(walk, i);
     walk(0);
   }
+  double sum = 0, slowest = 0;
+  for (double c : cpu) {
+    sum += c;
+    slowest = std::max(slowest, c);
+  }
+  walk_cpu_s_ += sum;
+  critical_walk_cpu_s_ += groups < min_groups_for_threads_ ? sum : slowest;
   for (size_t i = 0; i < walked; ++i) {
     if (!done[i].ok()) return done[i];  // the lowest range's: the first group's error
     if (merge) merged_[i] += slices[i].count;

@@ -83,6 +83,13 @@ class RangeTables {
   // per-thread counts).
   uint64_t merged_groups(size_t i) const { return merged_[i]; }
 
+  // CPU seconds (each thread's own clock) spent walking ranges, summed over
+  // ranges and partials, and the same taking only the slowest range of each
+  // partial: the walks' critical path, which the wall time approaches when
+  // every thread has a core of its own (the bench reports both).
+  double walk_cpu_s() const { return walk_cpu_s_; }
+  double critical_walk_cpu_s() const { return critical_walk_cpu_s_; }
+
   // The encoding one GroupTable holding every group would write.
   void Encode(ByteWriter& w) const;
   // Empties every table (the cuts stay).
@@ -106,6 +113,8 @@ class RangeTables {
   bool cut_ = false;
   std::vector<GroupTable> tables_;
   std::vector<uint64_t> merged_;
+  double walk_cpu_s_ = 0;
+  double critical_walk_cpu_s_ = 0;
 };
 
 }  // namespace fanfold
