@@ -15,6 +15,7 @@
 // before the merge reaches them; on failure the table is partly merged
 // either way (see MergeEncoded's contract).
 #include <array>
+#include <cstdint>
 
 #include "common/partial/group_table.h"
 #include "common/partial/key_order.h"
@@ -106,10 +107,10 @@ Status GroupTable::MergeWalk(ByteReader& r, uint64_t n, uint64_t first) {
     }
     MeasureState* const* st = &states_[static_cast<size_t>(id) * m];
     for (size_t j = 0; j < m; ++j) {
-      // An object's first three lines: a sketch's store bookkeeping too.
-      __builtin_prefetch(st[j]);
-      __builtin_prefetch(reinterpret_cast<const char*>(st[j]) + 64);
-      __builtin_prefetch(reinterpret_cast<const char*>(st[j]) + 128);
+      // An object's first three lines: a sketch's store bookkeeping too
+      // (addresses as integers: a small state ends before them).
+      const uintptr_t at = reinterpret_cast<uintptr_t>(st[j]);
+      for (uintptr_t line = 0; line < 192; line += 64) __builtin_prefetch(reinterpret_cast<const void*>(at + line));
     }
     ++read;
     return true;
