@@ -259,6 +259,19 @@ void HyperLogLogState::RaiseSorted(const uint32_t* entries, size_t k) {
     }
     return;
   }
+  // Most often every register is in the list already: raised in place.
+  // (Those raised before one is found missing are raised again below:
+  // a max, so no harm.)
+  {
+    size_t a = 0, j = 0;
+    for (; j < k; ++j) {
+      const uint32_t index = entries[j] >> 8;
+      while (a < sparse_.size() && (sparse_[a] >> 8) < index) ++a;
+      if (a == sparse_.size() || (sparse_[a] >> 8) != index) break;
+      sparse_[a] = std::max(sparse_[a], entries[j]);  // same index: the larger rank
+    }
+    if (j == k) return;
+  }
   // Both lists ascend by index: the union's size first, then one merge
   // pass from the back, in place. The same registers as k Raise calls; the
   // list becomes the array exactly when it would pass SparseLimit(), as
