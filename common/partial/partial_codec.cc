@@ -194,10 +194,26 @@ Status OpenPartial(std::string_view bytes, OpenedPartial* out, bool checksum_che
   unsigned long long frame = ZSTD_getFrameContentSize(z.data(), z.size());
   if (frame == ZSTD_CONTENTSIZE_ERROR || frame == ZSTD_CONTENTSIZE_UNKNOWN || frame != raw_len)
     return Status::Corrupt("partial state body is not the zstd frame its header describes");
-  // Decompress as a stream into a buffer that grows with real output, so a
+  ZSTD_DCtx* d = Contexts().d;
+  // A body whose claimed size is plausible for its compressed size is
+  // decompressed in one call straight into its buffer: the coordinator's
+  // merge does this for every partial, and streaming costs a copy of every
+  // byte through zstd's window, plus the buffer's regrowth.
+  constexpr uint64_t kOneShotRatio = 64;
+  if (raw_len <= kOneShotRatio * z.size() + (uint64_t{1} << 20)) {
+    // One frame and nothing after it (one call would read on into more).
+    if (ZSTD_findFrameCompressedSize(z.data(), z.size()) != z.size())
+      return Status::Corrupt("partial state body is not the length its header says");
+    body.resize(raw_len);
+    const size_t n = ZSTD_decompressDCtx(d, body.data(), body.size(), z.data(), z.size());
+    if (ZSTD_isError(n))
+      return Status::Corrupt(std::string("partial state body does not decompress: ") + ZSTD_getErrorName(n));
+    if (n != raw_len) return Status::Corrupt("partial state body is not the length its header says");
+    return ReadSamples(out);
+  }
+  // Otherwise as a stream into a buffer that grows with real output, so a
   // header that merely claims a huge body cannot make us allocate it.
   body.resize(std::min<uint64_t>(raw_len, uint64_t{1} << 20));
-  ZSTD_DCtx* d = Contexts().d;
   ZSTD_DCtx_reset(d, ZSTD_reset_session_only);
   ZSTD_inBuffer in{z.data(), z.size(), 0};
   size_t produced = 0;
