@@ -66,6 +66,18 @@ Value Expr::Program::EvalAt(int32_t index, const Value* slots, ScratchArena* are
       return Value::Missing();
     case ExprOp::kBranch:
       return EvalBranch(n.nargs, [&](int k) { return EvalAt(args[n.first_arg + k], slots, arena); });
+    case ExprOp::kTextEq: {
+      // CompareToConstant for a string constant that is not numeric text:
+      // missing and null compare false; a string by its bytes; any other
+      // value is unequal.
+      const Value v = Kid(n, 0, slots, arena);
+      if (!v.is_present()) return Value::Bool(false);
+      if (v.kind != ValueKind::kString) return Value::Bool(n.negated);
+      return Value::Bool((v.str == n.constant.value.str) != n.negated);
+    }
+    case ExprOp::kEpoch: return EpochOf(Kid(n, 0, slots, arena), n.function == ExprFunction::kTimeMs);
+    case ExprOp::kClockField: return ClockFieldOf(n.function, Kid(n, 0, slots, arena), n.time);
+    case ExprOp::kSubstrFixed: return SubstrOf(Kid(n, 0, slots, arena), n.span[0], n.span[1], arena);
   }
   return Value::Missing();
 }
