@@ -140,7 +140,9 @@ struct NdjsonLineParser::Impl {
   bool StringAt(const char* q, const char* end, bool unescape, std::string_view* out) {
     const char* b = q + 1;
     const char* e = end;
-    while (e > b && IsJsonSpace(e[-1])) --e;
+    // Compact JSON puts the closing quote right before the next structural.
+    if (!(e > b && e[-1] == '"'))
+      while (e > b && IsJsonSpace(e[-1])) --e;
     if (e > b && e[-1] == '"') {
       --e;
     } else {
