@@ -74,6 +74,18 @@ struct Expr::Program {
     if (c.op == ExprOp::kConst) return c.constant.value;
     return EvalAt(n.kids[k], slots, arena);
   }
+  // As Kid, without copying a field or constant: a reference to it, or to
+  // *scratch holding the evaluated kid.
+  const Value& KidRef(const ExprNode& n, int k, const Value* slots, ScratchArena* arena, Value* scratch) const {
+    const ExprNode& c = nodes[n.kids[k]];
+    if (c.op == ExprOp::kSlot) return slots[c.slot];
+    if (c.op == ExprOp::kConst) return c.constant.value;
+    *scratch = EvalAt(n.kids[k], slots, arena);
+    return *scratch;
+  }
+  // kCall: the general function call (its argument array kept out of
+  // EvalAt's frame).
+  Value EvalCall(const ExprNode& n, const Value* slots, ScratchArena* arena) const;
 };
 
 }  // namespace fanfold
