@@ -225,9 +225,9 @@ bool CsvReader::CutPlainRecord(const char* p, const char* end, Cut* out) {
   uint32_t field = 0;
   const char* start = p;  // of the current field
   auto keep = [&](const char* from, size_t len) {
+    if (field < 64 && (read_columns_ >> field & 1) == 0) return;  // a column no field reads
     Value& v = slots[slot_of[std::min(field, last_column)]];
-    v = Value::Missing();  // an empty cell is Missing
-    if (len > 0) v = Value::String(std::string_view(from, len));
+    v = len > 0 ? Value::String(std::string_view(from, len)) : Value::Missing();  // an empty cell is Missing
   };
   for (const char* b = p; b < end; b += 16) {
     ByteMasks m = MasksAt(b, sep_);
@@ -282,6 +282,9 @@ Status CsvReader::BindHeader() {
   field_slot_.clear();
   for (int slot : column_slot_) field_slot_.push_back(slot >= 0 ? slot : spare);
   field_slot_.push_back(spare);  // every field past the header's count
+  read_columns_ = ~uint64_t{0};
+  for (size_t c = 0; c < column_slot_.size() && c < 64; ++c)
+    if (column_slot_[c] < 0) read_columns_ &= ~(uint64_t{1} << c);
   return Status::Ok();
 }
 

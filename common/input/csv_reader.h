@@ -75,6 +75,7 @@ class CsvReader final : public RecordReader {
   std::vector<std::string> header_;
   std::vector<int> column_slot_;  // per header column: slot to fill, or -1
   std::vector<int> field_slot_;   // column_slot_ with the spare slot for -1, then one more spare
+  uint64_t read_columns_ = 0;     // bit c: column c (< 64) is read; set for columns 64 and up
   std::vector<Value> slots_;      // the FieldTable's slots, then a spare one
   std::vector<Cell> cells_;
   std::string scratch_;
