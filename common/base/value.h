@@ -162,9 +162,18 @@ struct Value {
     const char* e = b + str.size();
     const bool negative = *b == '-';
     if (*b == '+' || *b == '-') ++b;
+    // Digits only: up to 19 of them fit a uint64 as they are read; longer
+    // runs go to from_chars, which says whether they fit.
     uint64_t magnitude = 0;
-    auto [p, ec] = std::from_chars(b, e, magnitude);
-    if (ec == std::errc() && p == e && b != e) {
+    const char* p = b;
+    while (p < e && p - b < 19 && static_cast<unsigned>(*p - '0') <= 9)
+      magnitude = magnitude * 10 + static_cast<uint64_t>(*p++ - '0');
+    bool digits_only = p == e && b != e;
+    if (p < e && p - b == 19 && static_cast<unsigned>(*p - '0') <= 9) {
+      auto [q, ec] = std::from_chars(b, e, magnitude);
+      digits_only = ec == std::errc() && q == e;
+    }
+    if (digits_only) {
       if (!negative) {
         *out = Uint(magnitude);
         return true;

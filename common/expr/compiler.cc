@@ -1,5 +1,6 @@
 #include "common/expr/compiler.h"
 
+#include <cmath>
 #include <string>
 
 #include "common/base/nearest_names.h"
@@ -88,7 +89,10 @@ class Compiler {
         FF_RETURN_IF_ERROR(Call(a, &n));
         break;
     }
-    if (!AllKidsConstant(n)) return Push(n, index);
+    if (!AllKidsConstant(n)) {
+      Specialize(&n);
+      return Push(n, index);
+    }
     // Nothing below depends on a record: evaluate once now, keep the result,
     // and drop the subtree.
     FF_RETURN_IF_ERROR(Push(n, index));
@@ -118,6 +122,37 @@ class Compiler {
   }
 
   bool IsConstant(int32_t i) const { return p_->nodes[i].op == ExprOp::kConst; }
+
+  // Replaces a general op by its fast path (program.h) where one applies.
+  // Only for nodes that stay in the program: constant folding evaluates the
+  // general ops.
+  void Specialize(ExprNode* n) const {
+    if (n->op == ExprOp::kCompareConst && (n->compare == CompareOp::kEq || n->compare == CompareOp::kNe) &&
+        n->constant.value.kind == ValueKind::kString && !n->constant.numeric) {
+      n->op = ExprOp::kTextEq;
+      n->negated = n->compare == CompareOp::kNe;
+      return;
+    }
+    if (n->op != ExprOp::kCall) return;
+    switch (n->function) {
+      case ExprFunction::kTime:
+      case ExprFunction::kTimeMs: n->op = ExprOp::kEpoch; return;
+      case ExprFunction::kClockHour:
+      case ExprFunction::kWeekday: n->op = ExprOp::kClockField; return;
+      case ExprFunction::kSubstr: {
+        double start, count = HUGE_VAL;
+        if (!IsConstant(n->kids[1]) || !SubstrOffset(p_->nodes[n->kids[1]].constant.value, &start)) return;
+        if (n->nargs == 3 &&
+            (!IsConstant(n->kids[2]) || !SubstrOffset(p_->nodes[n->kids[2]].constant.value, &count)))
+          return;
+        n->op = ExprOp::kSubstrFixed;
+        n->span[0] = start;
+        n->span[1] = count;
+        return;
+      }
+      default: return;
+    }
+  }
 
   bool AllKidsConstant(const ExprNode& n) const {
     if (n.op == ExprOp::kCoalesce || n.op == ExprOp::kBranch) {

@@ -82,21 +82,41 @@ bool Offset(const Value& v, double* out) {
   return true;
 }
 
+Value FiniteNumber(double d) { return std::isfinite(d) ? Value::Number(d) : Value::Missing(); }
+
 Value Substr(const Value* args, int nargs, ScratchArena* arena) {
+  double start, count = HUGE_VAL;
+  if (!Offset(args[1], &start)) return Value::Missing();
+  if (nargs == 3 && !Offset(args[2], &count)) return Value::Missing();
+  return SubstrOf(args[0], start, count, arena);
+}
+
+}  // namespace
+
+Value SubstrOf(const Value& v, double start, double count, ScratchArena* arena) {
   char buf[kNumberTextMax];
   std::string_view s;
-  double start, count = HUGE_VAL;
-  if (!ValueText(args[0], buf, &s) || !Offset(args[1], &start)) return Value::Missing();
-  if (nargs == 3 && !Offset(args[2], &count)) return Value::Missing();
+  if (!ValueText(v, buf, &s)) return Value::Missing();
   const double size = static_cast<double>(s.size());
   start = std::clamp(start, 0.0, size);
   count = std::clamp(count, 0.0, size - start);
-  return Stable(s.substr(static_cast<size_t>(start), static_cast<size_t>(count)), args[0], arena);
+  return Stable(s.substr(static_cast<size_t>(start), static_cast<size_t>(count)), v, arena);
 }
 
-Value FiniteNumber(double d) { return std::isfinite(d) ? Value::Number(d) : Value::Missing(); }
+Value EpochOf(const Value& v, bool ms) {
+  double t;
+  if (!ValueEpochSeconds(v, ms ? 1000 : 1, &t)) return Value::Missing();
+  return FiniteNumber(t);
+}
 
-}  // namespace
+Value ClockFieldOf(ExprFunction f, const Value& v, const TimeBucket& time) {
+  double t;
+  if (!ValueEpochSeconds(v, 1, &t)) return Value::Missing();
+  const int r = f == F::kClockHour ? ClockHour(t, time.zone) : IsoWeekday(t, time.zone);
+  return r < 0 ? Value::Missing() : Value::Int(r);
+}
+
+bool SubstrOffset(const Value& v, double* out) { return Offset(v, out); }
 
 const ExprFunctionInfo* FindExprFunction(std::string_view name) {
   for (const ExprFunctionInfo& f : kFunctions)
@@ -183,11 +203,7 @@ Value ApplyExprFunction(ExprFunction function, const Value* args, int nargs, con
       return Stable(s, args[0], arena);
     }
     case F::kTime:
-    case F::kTimeMs: {
-      double t;
-      if (!ValueEpochSeconds(args[0], function == F::kTime ? 1 : 1000, &t)) return Value::Missing();
-      return FiniteNumber(t);
-    }
+    case F::kTimeMs: return EpochOf(args[0], function == F::kTimeMs);
     case F::kPeriodStart:
     case F::kSpanStart: {
       double t;
@@ -198,12 +214,7 @@ Value ApplyExprFunction(ExprFunction function, const Value* args, int nargs, con
       return Value::String(arena->Copy({label, n}));
     }
     case F::kClockHour:
-    case F::kWeekday: {
-      double t;
-      if (!ValueEpochSeconds(args[0], 1, &t)) return Value::Missing();
-      const int r = function == F::kClockHour ? ClockHour(t, time.zone) : IsoWeekday(t, time.zone);
-      return r < 0 ? Value::Missing() : Value::Int(r);
-    }
+    case F::kWeekday: return ClockFieldOf(function, args[0], time);
     case F::kOneIf: return OneIf(args[0]);
     case F::kBranch: break;  // lazy: Expr::Program evaluates it
   }

@@ -51,6 +51,20 @@ std::string ExprFunctionSignatures();
 Value ApplyExprFunction(ExprFunction function, const Value* args, int nargs, const TimeBucket& time,
                         ScratchArena* arena);
 
+// The same functions for the evaluator's one-argument fast paths (no
+// argument array, no dispatch): each equals ApplyExprFunction with the
+// argument(s) shown.
+// time(v) (ms false) or time_ms(v) (ms true).
+Value EpochOf(const Value& v, bool ms);
+// clock_hour(v) or weekday(v) (f) on the clock of time.zone.
+Value ClockFieldOf(ExprFunction f, const Value& v, const TimeBucket& time);
+// substr(v, start, count) for numeric start and count already floored
+// (count +infinity when not given): what Substr makes of them.
+Value SubstrOf(const Value& v, double start, double count, ScratchArena* arena);
+// How substr reads its start or count: the floor of a number (or numeric
+// text); false iff not a number (NaN included).
+bool SubstrOffset(const Value& v, double* out);
+
 // The text a string function sees for `v`: strings as they are, integers
 // as their exact digits and other numbers as FormatNumber writes them, into
 // buf (at least kNumberTextMax bytes), bools

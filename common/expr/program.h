@@ -30,6 +30,13 @@ enum class ExprOp : uint8_t {
   kCall,          // function on kids 0..nargs
   kCoalesce,      // first present of Program::args[first_arg .. first_arg + nargs)
   kBranch,        // branch() over the same args: tests and values, then otherwise
+  // Fast paths the compiler picks for common calls and comparisons (the
+  // same results as the general ops they replace, without an argument
+  // array or the function switch):
+  kTextEq,        // kid 0 == constant.value, a non-numeric string (negated: !=)
+  kEpoch,         // time(kid 0), or time_ms(kid 0) when function is kTimeMs
+  kClockField,    // clock_hour or weekday (function) of kid 0, on time.zone
+  kSubstrFixed,   // substr(kid 0, span[0], span[1]): constant start and count, floored
 };
 
 struct ExprNode {
@@ -42,7 +49,8 @@ struct ExprNode {
   int32_t kids[3] = {-1, -1, -1};  // node indices, all smaller than this node's
   int32_t first_arg = 0;           // kCoalesce, kBranch
   int32_t slot = -1;               // kSlot: the FieldTable slot; kIn: index into sets
-  CompareConstant constant;        // kConst: constant.value; kCompareConst: the right side
+  CompareConstant constant;        // kConst: constant.value; kCompareConst, kTextEq: the right side
+  double span[2] = {0, 0};         // kSubstrFixed: start and count (+infinity: to the end)
 };
 
 struct Expr::Program {
@@ -66,6 +74,18 @@ struct Expr::Program {
     if (c.op == ExprOp::kConst) return c.constant.value;
     return EvalAt(n.kids[k], slots, arena);
   }
+  // As Kid, without copying a field or constant: a reference to it, or to
+  // *scratch holding the evaluated kid.
+  const Value& KidRef(const ExprNode& n, int k, const Value* slots, ScratchArena* arena, Value* scratch) const {
+    const ExprNode& c = nodes[n.kids[k]];
+    if (c.op == ExprOp::kSlot) return slots[c.slot];
+    if (c.op == ExprOp::kConst) return c.constant.value;
+    *scratch = EvalAt(n.kids[k], slots, arena);
+    return *scratch;
+  }
+  // kCall: the general function call (its argument array kept out of
+  // EvalAt's frame).
+  Value EvalCall(const ExprNode& n, const Value* slots, ScratchArena* arena) const;
 };
 
 }  // namespace fanfold

@@ -4,6 +4,10 @@
 #include <bit>
 #include <cstring>
 
+#if defined(__SSE2__)
+#include <emmintrin.h>
+#endif
+
 namespace fanfold {
 namespace {
 
@@ -13,8 +17,32 @@ uint64_t CountNewlines(const char* b, const char* e) {
 
 static_assert(std::endian::native == std::endian::little, "ScanUnquoted takes the lowest byte as the first");
 
-// Bytes readable after the data: ScanUnquoted loads 8 bytes at a time.
-constexpr size_t kScanPadding = 8;
+// Bytes readable after the data: ScanUnquoted loads 8 bytes at a time,
+// ByteMasks 16.
+constexpr size_t kScanPadding = 16;
+
+// Which of the 16 bytes at q are `sep`, '\n' and '"' (bit i: byte q[i]).
+struct ByteMasks {
+  uint32_t sep, newline, quote;
+};
+
+ByteMasks MasksAt(const char* q, char sep) {
+#if defined(__SSE2__)
+  const __m128i v = _mm_loadu_si128(reinterpret_cast<const __m128i*>(q));
+  return ByteMasks{
+      static_cast<uint32_t>(_mm_movemask_epi8(_mm_cmpeq_epi8(v, _mm_set1_epi8(sep)))),
+      static_cast<uint32_t>(_mm_movemask_epi8(_mm_cmpeq_epi8(v, _mm_set1_epi8('\n')))),
+      static_cast<uint32_t>(_mm_movemask_epi8(_mm_cmpeq_epi8(v, _mm_set1_epi8('"'))))};
+#else
+  ByteMasks m{0, 0, 0};
+  for (uint32_t i = 0; i < 16; ++i) {
+    m.sep |= static_cast<uint32_t>(q[i] == sep) << i;
+    m.newline |= static_cast<uint32_t>(q[i] == '\n') << i;
+    m.quote |= static_cast<uint32_t>(q[i] == '"') << i;
+  }
+  return m;
+#endif
+}
 
 // Scans an unquoted field: the first separator or '\n' at or after q, or
 // end. Eight bytes per step (SWAR zero-byte test on x ^ broadcast(c)): its
@@ -46,7 +74,7 @@ constexpr size_t kMaxListedColumns = 40;
 
 CsvReader::CsvReader(const FieldTable& fields, char separator, const ChunkOptions& options)
     : sep_(separator), format_(separator == '\t' ? "TSV" : "CSV"), chunk_(options, kScanPadding),
-      slots_(fields.size()) {
+      slots_(fields.size() + 1) {
   for (size_t s = 0; s < fields.size(); ++s) {
     if (fields.slot(s).derived) continue;
     raw_names_.push_back(fields.slot(s).name);
@@ -188,6 +216,48 @@ CsvReader::CutKind CsvReader::CutRecord(const char* p, const char* end, bool eof
   return CutKind::kRecord;
 }
 
+bool CsvReader::CutPlainRecord(const char* p, const char* end, Cut* out) {
+  // Each field's cell goes straight to its slot: unread columns, and any
+  // past the header's count, to the spare slot at the end of slots_.
+  Value* const slots = slots_.data();
+  const int* const slot_of = field_slot_.data();
+  const uint32_t last_column = static_cast<uint32_t>(field_slot_.size() - 1);
+  uint32_t field = 0;
+  const char* start = p;  // of the current field
+  auto keep = [&](const char* from, size_t len) {
+    if (field < 64 && (read_columns_ >> field & 1) == 0) return;  // a column no field reads
+    Value& v = slots[slot_of[std::min(field, last_column)]];
+    v = len > 0 ? Value::String(std::string_view(from, len)) : Value::Missing();  // an empty cell is Missing
+  };
+  for (const char* b = p; b < end; b += 16) {
+    ByteMasks m = MasksAt(b, sep_);
+    if (end - b < 16) {  // only the bytes before end count
+      const uint32_t inside = (uint32_t{1} << (end - b)) - 1;
+      m.sep &= inside;
+      m.newline &= inside;
+      m.quote &= inside;
+    }
+    // The bytes of this record in the block: before its line break, if any.
+    const uint32_t record = m.newline != 0 ? (m.newline & (0 - m.newline)) - 1 : 0xFFFFu;
+    if ((m.quote & record) != 0) return false;  // quoted fields: the general cut
+    for (uint32_t s = m.sep & record; s != 0; s &= s - 1) {
+      const char* at = b + std::countr_zero(s);
+      keep(start, static_cast<size_t>(at - start));
+      ++field;
+      start = at + 1;
+    }
+    if (m.newline != 0) {
+      const char* nl = b + std::countr_zero(m.newline);
+      size_t len = static_cast<size_t>(nl - start);
+      if (len > 0 && start[len - 1] == '\r') --len;  // CRLF line end
+      keep(start, len);
+      *out = Cut{nl + 1, 1, field + 1, nullptr};
+      return true;
+    }
+  }
+  return false;  // no line break before end: the general cut decides
+}
+
 Status CsvReader::BindHeader() {
   column_slot_.assign(header_.size(), -1);
   for (size_t i = 0; i < raw_names_.size(); ++i) {
@@ -208,6 +278,13 @@ Status CsvReader::BindHeader() {
     size_t column = static_cast<size_t>(it - header_.begin());
     if (column_slot_[column] < 0) column_slot_[column] = raw_slots_[i];
   }
+  const int spare = static_cast<int>(slots_.size() - 1);
+  field_slot_.clear();
+  for (int slot : column_slot_) field_slot_.push_back(slot >= 0 ? slot : spare);
+  field_slot_.push_back(spare);  // every field past the header's count
+  read_columns_ = ~uint64_t{0};
+  for (size_t c = 0; c < column_slot_.size() && c < 64; ++c)
+    if (column_slot_[c] < 0) read_columns_ &= ~(uint64_t{1} << c);
   return Status::Ok();
 }
 
@@ -238,7 +315,10 @@ Status CsvReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
     const char* end = p + chunk_.size();
     while (p < end) {
       Cut cut;
-      CutKind kind = CutRecord(p, end, last, !have_header, &cut);
+      // A quote-free record writes its cells to slots_ as it is cut; any
+      // other goes through CutRecord and cells_.
+      const bool plain = have_header && *p != '\n' && *p != '\r' && CutPlainRecord(p, end, &cut);
+      const CutKind kind = plain ? CutKind::kRecord : CutRecord(p, end, last, !have_header, &cut);
       if (kind == CutKind::kNeedMore) break;
       const uint64_t record_line = line;
       line += cut.newlines;
@@ -263,11 +343,13 @@ Status CsvReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
         }
         continue;
       }
-      std::fill(slots_.begin(), slots_.end(), Value::Missing());
-      for (const Cell& cell : cells_) {
-        if (cell.len == 0) continue;  // an empty cell is Missing
-        const char* ptr = cell.in_scratch ? scratch_.data() + cell.scratch_offset : cell.ptr;
-        slots_[cell.slot] = Value::String(std::string_view(ptr, cell.len));
+      if (!plain) {
+        std::fill(slots_.begin(), slots_.end(), Value::Missing());
+        for (const Cell& cell : cells_) {
+          if (cell.len == 0) continue;  // an empty cell is Missing
+          const char* ptr = cell.in_scratch ? scratch_.data() + cell.scratch_offset : cell.ptr;
+          slots_[cell.slot] = Value::String(std::string_view(ptr, cell.len));
+        }
       }
       ++st.records;
       sink.set_record_line(record_line);

@@ -58,6 +58,12 @@ class CsvReader final : public RecordReader {
   // Cuts one record starting at p. Returns kNeedMore iff it may continue
   // past end and the source has more (eof false).
   CutKind CutRecord(const char* p, const char* end, bool eof, bool header, Cut* out);
+  // The common record: not blank, no quote anywhere in it, and its line
+  // break before end. Cuts it as CutRecord would, writes each read cell to
+  // its slot in slots_ (every read slot, Missing for an empty cell) and
+  // returns true; false (slots_ in any state) for any other record.
+  // REQUIRES: the header is bound.
+  bool CutPlainRecord(const char* p, const char* end, Cut* out);
   void KeepField(bool header, uint32_t field, const char* ptr, size_t scratch_offset, size_t len, bool in_scratch);
   Status BindHeader();
 
@@ -68,7 +74,9 @@ class CsvReader final : public RecordReader {
   ChunkBuffer chunk_;
   std::vector<std::string> header_;
   std::vector<int> column_slot_;  // per header column: slot to fill, or -1
-  std::vector<Value> slots_;
+  std::vector<int> field_slot_;   // column_slot_ with the spare slot for -1, then one more spare
+  uint64_t read_columns_ = 0;     // bit c: column c (< 64) is read; set for columns 64 and up
+  std::vector<Value> slots_;      // the FieldTable's slots, then a spare one
   std::vector<Cell> cells_;
   std::string scratch_;
 };

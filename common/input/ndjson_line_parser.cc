@@ -93,11 +93,27 @@ struct NdjsonLineParser::Impl {
 
   // The child of ni that `key` names and no earlier duplicate took, or -1.
   int32_t Member(int32_t ni, std::string_view key) {
-    if (ni < 0 || ((*nodes)[ni].child_lengths & TokenLengthBit(key.size())) == 0) return -1;
+    if (ni < 0) return -1;
+    const PointerNode& parent = (*nodes)[ni];
+    if ((parent.child_lengths & TokenLengthBit(key.size())) == 0) return -1;
     // A key is followed by at least '"' and ':' and the line's padding, so
     // 8 bytes from its start are readable.
     const uint64_t prefix = TokenPrefix(key.data(), key.size());
-    for (uint32_t c : (*nodes)[ni].children) {
+    if (!parent.child_table.empty()) {
+      // The one child the key can be (pointer_trie.h): compare it whole.
+      const int32_t c = parent.child_table[ChildHash(parent, prefix, key.size())];
+      if (c < 0) return -1;
+      PointerNode& child = (*nodes)[c];
+      if (child.prefix != prefix || child.token.size() != key.size()) return -1;
+      if (key.size() > 8 &&
+          (key.size() <= 16 ? child.suffix != TokenSuffix(key.data(), key.size())
+                            : std::memcmp(child.token.data() + 8, key.data() + 8, key.size() - 8) != 0))
+        return -1;
+      if (child.seen == generation) return -1;  // duplicate keys: the first one wins
+      child.seen = generation;
+      return c;
+    }
+    for (uint32_t c : parent.children) {
       PointerNode& child = (*nodes)[c];
       if (child.prefix != prefix || child.token.size() != key.size()) continue;
       if (key.size() > 8 && std::memcmp(child.token.data() + 8, key.data() + 8, key.size() - 8) != 0) continue;
@@ -124,7 +140,9 @@ struct NdjsonLineParser::Impl {
   bool StringAt(const char* q, const char* end, bool unescape, std::string_view* out) {
     const char* b = q + 1;
     const char* e = end;
-    while (e > b && IsJsonSpace(e[-1])) --e;
+    // Compact JSON puts the closing quote right before the next structural.
+    if (!(e > b && e[-1] == '"'))
+      while (e > b && IsJsonSpace(e[-1])) --e;
     if (e > b && e[-1] == '"') {
       --e;
     } else {

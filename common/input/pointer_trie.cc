@@ -7,6 +7,43 @@
 
 namespace fanfold {
 
+namespace {
+
+// Fills parent->child_table: at least four entries a child (at least 16),
+// with the first of a fixed list of odd multipliers that puts no two
+// children in one entry; none if none does (the walk then scans).
+void BuildChildTable(const std::vector<PointerNode>& nodes, PointerNode* parent) {
+  const size_t n = parent->children.size();
+  if (n == 0) return;
+  int bits = 4;
+  while ((size_t{1} << bits) < 4 * n) ++bits;
+  parent->table_shift = 64 - bits;
+  uint64_t seed = 0x2545F4914F6CDD1DULL;
+  for (int attempt = 0; attempt < 64; ++attempt) {
+    // splitmix64 (Steele, Lea and Flood, OOPSLA 2014) for the candidates.
+    seed += 0x9E3779B97F4A7C15ULL;
+    uint64_t z = seed;
+    z = (z ^ (z >> 30)) * 0xBF58476D1CE4E5B9ULL;
+    z = (z ^ (z >> 27)) * 0x94D049BB133111EBULL;
+    parent->table_multiplier = (z ^ (z >> 31)) | 1;
+    parent->child_table.assign(size_t{1} << bits, -1);
+    bool separated = true;
+    for (uint32_t c : parent->children) {
+      const PointerNode& child = nodes[c];
+      int32_t& entry = parent->child_table[ChildHash(*parent, child.prefix, child.token.size())];
+      if (entry >= 0) {
+        separated = false;
+        break;
+      }
+      entry = static_cast<int32_t>(c);
+    }
+    if (separated) return;
+  }
+  parent->child_table.clear();
+}
+
+}  // namespace
+
 Result<std::vector<PointerNode>> BuildPointerTrie(const FieldTable& fields) {
   std::vector<PointerNode> nodes(1);
   for (size_t s = 0; s < fields.size(); ++s) {
@@ -35,6 +72,7 @@ Result<std::vector<PointerNode>> BuildPointerTrie(const FieldTable& fields) {
         char first8[8] = {};
         std::memcpy(first8, token.data(), std::min<size_t>(token.size(), 8));
         node.prefix = TokenPrefix(first8, token.size());
+        if (token.size() >= 8) node.suffix = TokenSuffix(token.data(), token.size());
         nodes.push_back(std::move(node));
         PointerNode& parent = nodes[at];
         parent.children.push_back(next);
@@ -45,6 +83,7 @@ Result<std::vector<PointerNode>> BuildPointerTrie(const FieldTable& fields) {
     }
     nodes[at].slot = static_cast<int>(s);
   }
+  for (PointerNode& node : nodes) BuildChildTable(nodes, &node);
   return nodes;
 }
 

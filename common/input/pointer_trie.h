@@ -29,7 +29,24 @@ struct PointerNode {
   // The token's first 8 bytes, zero-filled (TokenPrefix): a key of up to
   // 8 bytes matches iff its length and prefix do.
   uint64_t prefix = 0;
+  // Its last 8 bytes (TokenSuffix), for tokens of 9 to 16 bytes: such a key
+  // matches iff its length, prefix and suffix do.
+  uint64_t suffix = 0;
+  // The children by ChildHash of a key's prefix and length: each entry a
+  // child or -1, no two children in one entry. Empty when no multiplier
+  // separates them (children sharing length and prefix): then the walk
+  // scans `children`.
+  std::vector<int32_t> child_table;
+  uint64_t table_multiplier = 0;
+  int table_shift = 64;
 };
+
+// The entry of child_table a key of `length` bytes and prefix `prefix`
+// falls in.
+inline size_t ChildHash(const PointerNode& parent, uint64_t prefix, size_t length) {
+  return static_cast<size_t>(((prefix + length * 0x9E3779B97F4A7C15ULL) * parent.table_multiplier) >>
+                             parent.table_shift);
+}
 
 // The first min(n, 8) bytes of s as a little-endian word, the rest zero.
 // Reads 8 bytes from s: the caller guarantees they are readable.
@@ -37,6 +54,13 @@ inline uint64_t TokenPrefix(const char* s, size_t n) {
   uint64_t w;
   std::memcpy(&w, s, 8);
   return n >= 8 ? w : w & ((uint64_t{1} << (8 * n)) - 1);
+}
+
+// The last 8 bytes of s. REQUIRES: n >= 8.
+inline uint64_t TokenSuffix(const char* s, size_t n) {
+  uint64_t w;
+  std::memcpy(&w, s + n - 8, 8);
+  return w;
 }
 
 // The bit of child_lengths for a key of n bytes.

@@ -95,6 +95,23 @@ TEST_CASE("Value::AsNumeric keeps integer text exact") {
   CHECK(v.number == 12.5);
   CHECK_FALSE(Value::String("12x").AsNumeric(&v));
   CHECK_FALSE(Value::String("-").AsNumeric(&v));
+  // Around 19 digits (the one-pass read) and 20 (from_chars): Python's int() and float().
+  REQUIRE(Value::String("9999999999999999999").AsNumeric(&v));
+  CHECK(v.rep == NumberRep::kUint64);
+  CHECK(v.bits == 9999999999999999999ULL);  // Python: int("9999999999999999999")
+  REQUIRE(Value::String("-999999999999999999").AsNumeric(&v));
+  CHECK(v.Wide() == -999999999999999999);  // Python: int("-999999999999999999")
+  REQUIRE(Value::String("00012").AsNumeric(&v));
+  CHECK(v.Wide() == 12);  // Python: int("00012") == 12
+  REQUIRE(Value::String("18446744073709551616").AsNumeric(&v));  // 2^64: the double
+  CHECK_FALSE(v.is_integer());
+  CHECK(v.number == 18446744073709551616.0);  // Python: float("18446744073709551616")
+  REQUIRE(Value::String("00000000000000000000000042").AsNumeric(&v));
+  CHECK(v.Wide() == 42);  // Python: int("00000000000000000000000042") == 42
+  REQUIRE(Value::String("1234567890123456789.5").AsNumeric(&v));
+  CHECK_FALSE(v.is_integer());
+  CHECK(v.number == 1234567890123456789.5);  // Python: float("1234567890123456789.5")
+  CHECK_FALSE(Value::String("1234567890123456789x").AsNumeric(&v));
 }
 
 // Intent: wide results beyond 64 bits become the nearest double; inside they stay exact.

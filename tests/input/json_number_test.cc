@@ -45,9 +45,11 @@ TEST_CASE("ParseJsonNumber") {
 }
 
 // Every double ParseJsonNumber makes equals Python's float() of the same
-// token bit for bit (float.hex), over 4000 random tokens shaped like log
-// values: short decimals (Clinger's fast path), long ones, exponents near
-// the fast path's edge (10^22) and far beyond it.
+// token bit for bit (float.hex), and every integer token within
+// [-2^63, 2^64) is that exact integer (Python's int()), over 4000 random
+// tokens shaped like log values: short decimals and integers (the one-pass
+// fast path and Clinger's), long ones, 19- to 21-digit integers, exponents
+// near the fast path's edge (10^22) and far beyond it.
 TEST_CASE("ParseJsonNumber agrees with Python's float() bit for bit") {
   std::mt19937_64 rng(23);
   std::vector<std::string> tokens;
@@ -58,6 +60,12 @@ TEST_CASE("ParseJsonNumber agrees with Python's float() bit for bit") {
   };
   for (int i = 0; i < 4000; ++i) {
     std::string t = rng() % 4 == 0 ? "-" : "";
+    if (i % 4 == 3) {  // an integer of 1 to 21 digits: exact up to 2^64, then a double
+      std::string ip = digits(1 + static_cast<int>(rng() % 21));
+      if (ip.size() > 1 && ip[0] == '0') ip[0] = '1';
+      tokens.push_back(t + ip);
+      continue;
+    }
     const int int_len = 1 + static_cast<int>(rng() % 12);
     std::string ip = digits(int_len);
     if (ip.size() > 1 && ip[0] == '0') ip[0] = '1';  // no leading zero (RFC 8259 section 6)
@@ -66,6 +74,12 @@ TEST_CASE("ParseJsonNumber agrees with Python's float() bit for bit") {
     if (rng() % 3 == 0) t += "e" + std::to_string(static_cast<int>(rng() % 70) - 35);
     tokens.push_back(t);
   }
+  // The edges of the exact range and of the one-pass path (18 digits).
+  for (const char* edge : {"999999999999999999", "-999999999999999999", "1000000000000000000", "9223372036854775807",
+                           "9223372036854775808", "-9223372036854775808", "-9223372036854775809",
+                           "9999999999999999999", "18446744073709551615", "18446744073709551616", "999999999999999.9",
+                           "0.0000000000000001", "-0.0", "0.1", "123456789012345.6"})
+    tokens.push_back(edge);
   char tmpl[] = "/tmp/fanfold-numbers-XXXXXX";
   const int fd = mkstemp(tmpl);
   REQUIRE(fd >= 0);
@@ -74,7 +88,12 @@ TEST_CASE("ParseJsonNumber agrees with Python's float() bit for bit") {
     std::ofstream f(tmpl);
     for (const std::string& t : tokens) f << t << "\n";
   }
-  FILE* p = popen((std::string("python3 -c \"import sys\nfor l in open(sys.argv[1]): print(float(l).hex())\" ") + tmpl)
+  // Python prints the exact integer of an integer token within [-2^63, 2^64)
+  // (int()), and float().hex() of every other token.
+  FILE* p = popen((std::string("python3 -c \"import sys\nfor l in open(sys.argv[1]):\n l = l.strip()\n "
+                               "n = int(l) if l.lstrip('-').isdigit() else None\n "
+                               "print(n if n is not None and -2**63 <= n < 2**64 else float(l).hex())\" ") +
+                   tmpl)
                       .c_str(), "r");
   REQUIRE(p != nullptr);
   char line[128];
@@ -83,9 +102,21 @@ TEST_CASE("ParseJsonNumber agrees with Python's float() bit for bit") {
   while (std::fgets(line, sizeof line, p) != nullptr && i < tokens.size()) {
     Value v;
     REQUIRE(ParseJsonNumber(tokens[i], &v));
+    std::string want(line);
+    want.pop_back();  // the line break
+    if (want.find('x') == std::string::npos) {  // an exact integer
+      std::string got_digits = v.is_integer() ? std::to_string(v.rep == NumberRep::kUint64
+                                                                   ? static_cast<unsigned long long>(v.bits)
+                                                                   : 0ULL)
+                                              : "not an integer";
+      if (v.is_integer() && v.rep == NumberRep::kInt64) got_digits = std::to_string(static_cast<int64_t>(v.bits));
+      if (got_digits != want && ++mismatches <= 5) FAIL_CHECK(tokens[i] << ": got " << got_digits << ", Python " << want);
+      ++i;
+      continue;
+    }
     const double expected = std::strtod(line, nullptr);  // C99 hex float text, exact
     const double got = v.number;
-    if (!v.is_integer() && std::memcmp(&got, &expected, sizeof got) != 0) {  // integers: exact, tested above
+    if (v.is_integer() || std::memcmp(&got, &expected, sizeof got) != 0) {
       if (++mismatches <= 5) FAIL_CHECK(tokens[i] << ": got " << got << ", Python " << line);
     }
     ++i;
