@@ -1,5 +1,6 @@
 #include "common/port/unlinked_temp_file.h"
 
+#include <fcntl.h>
 #include <unistd.h>
 
 #include <cerrno>
@@ -20,14 +21,22 @@ std::string TempDir(const std::string& dir) {
 
 Result<UnlinkedTempFile> UnlinkedTempFile::Create(const std::string& tag, size_t buffer_bytes, const std::string& dir) {
   const std::string where = TempDir(dir);
-  std::string pattern = where + "/" + tag + "-XXXXXX";
-  std::vector<char> name(pattern.begin(), pattern.end());
-  name.push_back('\0');
-  const int fd = mkstemp(name.data());
+  int fd = -1;
+#ifdef O_TMPFILE
+  // Linux: a file that never has a name at all.
+  fd = open(where.c_str(), O_TMPFILE | O_RDWR | O_CLOEXEC, 0600);
+#endif
   if (fd < 0) {
-    return Status::IoError("cannot create a temporary file in " + where + ": " + std::strerror(errno));
+    // Elsewhere, or a file system without O_TMPFILE: named for a moment.
+    std::string pattern = where + "/" + tag + "-XXXXXX";
+    std::vector<char> name(pattern.begin(), pattern.end());
+    name.push_back('\0');
+    fd = mkstemp(name.data());
+    if (fd < 0) {
+      return Status::IoError("cannot create a temporary file in " + where + ": " + std::strerror(errno));
+    }
+    unlink(name.data());  // nameless from here on: freed when closed, however the process ends
   }
-  unlink(name.data());  // nameless from here on: freed when closed, however the process ends
   std::FILE* f = fdopen(fd, "w+b");
   if (f == nullptr) {
     close(fd);

@@ -1,6 +1,7 @@
 // UnlinkedTempFile: a scratch file that has no name. It is created in the
-// system's temporary directory ($TMPDIR, else /tmp) with mkstemp and unlinked
-// at once, so the kernel frees its blocks when the descriptor closes — on
+// system's temporary directory ($TMPDIR, else /tmp) with O_TMPFILE (Linux: it
+// never has a name), else with mkstemp and unlinked at once, so the kernel
+// frees its blocks when the descriptor closes — on
 // success, on an error return and when the process is killed (SIGKILL
 // included): no exit path can leave it behind. Written sequentially through a
 // buffer, then rewound and read sequentially. Movable, not copyable; not
