@@ -353,6 +353,7 @@ Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
     } else {
       const WorkerGroupTable& table = agg.table(r);
       state.reductions[r].encode_groups = [&table](ByteWriter& w) { table.Encode(w); };
+      state.reductions[r].encode_bytes_hint = table.EncodedBytesHint();
     }
   }
   state.lookup_unmatched = agg.unmatched();

@@ -69,6 +69,9 @@ class WorkerGroupTable {
   // what a variable-size state owns), for the bytes-per-group figure and
   // the budget. O(measures).
   size_t ApproxBytes() const;
+  // About how many bytes Encode writes (keys and their lengths, and a few
+  // bytes a state), to reserve them.
+  size_t EncodedBytesHint() const { return key_total_ + keys_.size() * (2 + 10 * columns_.size()); }
   // Bytes Encode's sort takes per group while it runs.
   static constexpr size_t kSortBytesPerGroup = 20;
 
