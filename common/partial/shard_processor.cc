@@ -350,6 +350,7 @@ Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
       state.reductions[r].encode_groups = [o, &merged](ByteWriter& w) {
         if (Status e = o->Encode(w); !e.ok() && merged.ok()) merged = e;
       };
+      state.reductions[r].encode_bytes_hint = o->encoded_bytes();
     } else {
       const WorkerGroupTable& table = agg.table(r);
       state.reductions[r].encode_groups = [&table](ByteWriter& w) { table.Encode(w); };

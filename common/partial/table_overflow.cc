@@ -135,6 +135,7 @@ Status TableOverflow::WriteRun(const WorkerGroupTable& table) {
     ByteWriter w(&group);
     table.EncodeGroup(g, w);
     WriteFramed(run->file, group);
+    run_bytes_ += group.size();
   }
   groups_ += table.group_count();
   runs_.push_back(std::move(run));

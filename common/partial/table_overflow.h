@@ -68,6 +68,8 @@ class TableOverflow {
   Status Encode(ByteWriter& w);
 
   size_t run_count() const { return runs_.size(); }
+  // Bytes of the groups in the runs (Encode writes these and the count).
+  uint64_t encoded_bytes() const { return run_bytes_; }
   uint64_t group_count() const { return groups_; }
 
  private:
@@ -89,6 +91,7 @@ class TableOverflow {
   uint64_t records_ = 0;
   std::vector<std::unique_ptr<Run>> runs_;
   uint64_t groups_ = 0;
+  uint64_t run_bytes_ = 0;
 };
 
 }  // namespace fanfold
