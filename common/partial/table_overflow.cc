@@ -53,13 +53,12 @@ constexpr size_t kBatch = 256;  // records per AddBatch call, as the reader's ba
 
 Status Corrupt() { return Status::Internal("a worker's own overflow file reads back wrong"); }
 
-// Reads the next length-prefixed body into *body. False at the end or on
-// error (*error set then).
-bool ReadFramed(UnlinkedTempFile& f, std::string* body, Status* error) {
+// Views the next length-prefixed body (valid until f is read again). False
+// at the end or on error (*error set then).
+bool ReadFramed(UnlinkedTempFile& f, std::string_view* body, Status* error) {
   uint32_t n = 0;
   if (!f.Read(reinterpret_cast<char*>(&n), 4, error)) return false;
-  body->resize(n);
-  if (!f.Read(body->data(), n, error)) {
+  if (!f.View(n, body, error)) {
     if (error->ok()) *error = Corrupt();
     return false;
   }
@@ -83,8 +82,8 @@ std::string_view KeyOf(std::string_view body) {
 // length), and while merging the group at its head.
 struct TableOverflow::Run {
   UnlinkedTempFile file;
-  std::string head;
-  std::string_view key;  // head's key
+  std::string_view head;  // in file's buffer
+  std::string_view key;   // head's key
   explicit Run(UnlinkedTempFile f) : file(std::move(f)) {}
 };
 
@@ -166,7 +165,7 @@ Status TableOverflow::Partition(std::unique_ptr<UnlinkedTempFile> in, uint64_t r
     if (!f.ok()) return f.status();
     files.push_back(std::make_unique<UnlinkedTempFile>(std::move(f.value())));
   }
-  std::string body;
+  std::string_view body;
   Status error;
   while (ReadFramed(*in, &body, &error)) {
     const std::string_view key = KeyOf(body);
@@ -223,7 +222,7 @@ Status TableOverflow::AggregatePass(UnlinkedTempFile& in, std::unique_ptr<Unlink
     batched = 0;
     return Status::Ok();
   };
-  std::string body;
+  std::string_view body;
   Status error;
   while (ReadFramed(in, &body, &error)) {
     const std::string_view kept = bodies.Copy(body);

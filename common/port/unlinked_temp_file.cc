@@ -1,11 +1,14 @@
 #include "common/port/unlinked_temp_file.h"
 
+#include "common/port/os_error.h"
+
 #include <fcntl.h>
 #include <unistd.h>
 
 #include <cerrno>
 #include <cstdlib>
 #include <cstring>
+#include <utility>
 #include <vector>
 
 namespace fanfold {
@@ -33,43 +36,112 @@ Result<UnlinkedTempFile> UnlinkedTempFile::Create(const std::string& tag, size_t
     name.push_back('\0');
     fd = mkstemp(name.data());
     if (fd < 0) {
-      return Status::IoError("cannot create a temporary file in " + where + ": " + std::strerror(errno));
+      return IoFailure("create a temporary file in", where, errno);
     }
     unlink(name.data());  // nameless from here on: freed when closed, however the process ends
   }
-  std::FILE* f = fdopen(fd, "w+b");
-  if (f == nullptr) {
-    close(fd);
-    return Status::IoError("cannot open a temporary file in " + where + ": " + std::strerror(errno));
+  return UnlinkedTempFile(fd, where, buffer_bytes < 64 ? 64 : buffer_bytes);
+}
+
+UnlinkedTempFile::UnlinkedTempFile(int fd, std::string where, size_t buffer_bytes)
+    : fd_(fd), where_(std::move(where)), buffer_(std::make_unique_for_overwrite<char[]>(buffer_bytes)),
+      capacity_(buffer_bytes) {}
+
+UnlinkedTempFile::UnlinkedTempFile(UnlinkedTempFile&& o) noexcept
+    : fd_(std::exchange(o.fd_, -1)), where_(std::move(o.where_)), buffer_(std::move(o.buffer_)),
+      capacity_(o.capacity_), begin_(o.begin_), end_(o.end_), written_(o.written_),
+      write_failed_(o.write_failed_) {}
+
+UnlinkedTempFile& UnlinkedTempFile::operator=(UnlinkedTempFile&& o) noexcept {
+  if (this != &o) {
+    if (fd_ >= 0) close(fd_);
+    fd_ = std::exchange(o.fd_, -1);
+    where_ = std::move(o.where_);
+    buffer_ = std::move(o.buffer_);
+    capacity_ = o.capacity_;
+    begin_ = o.begin_;
+    end_ = o.end_;
+    written_ = o.written_;
+    write_failed_ = o.write_failed_;
   }
-  UnlinkedTempFile t(f, where);
-  t.buffer_ = std::make_unique_for_overwrite<char[]>(buffer_bytes);
-  std::setvbuf(f, t.buffer_.get(), _IOFBF, buffer_bytes);
-  return t;
+  return *this;
+}
+
+UnlinkedTempFile::~UnlinkedTempFile() {
+  if (fd_ >= 0) close(fd_);
+}
+
+bool UnlinkedTempFile::Flush() {
+  size_t at = 0;
+  while (at < end_ && !write_failed_) {
+    const ssize_t n = ::write(fd_, buffer_.get() + at, end_ - at);
+    if (n < 0 && errno == EINTR) continue;
+    if (n <= 0) write_failed_ = true;
+    else at += static_cast<size_t>(n);
+  }
+  end_ = 0;
+  return !write_failed_;
 }
 
 void UnlinkedTempFile::Write(std::string_view bytes) {
-  if (bytes.empty() || write_failed_) return;
-  if (std::fwrite(bytes.data(), 1, bytes.size(), file_.get()) != bytes.size()) write_failed_ = true;
   written_ += bytes.size();
+  while (!bytes.empty() && !write_failed_) {
+    if (end_ == capacity_) Flush();
+    const size_t take = std::min(bytes.size(), capacity_ - end_);
+    std::memcpy(buffer_.get() + end_, bytes.data(), take);
+    end_ += take;
+    bytes.remove_prefix(take);
+  }
 }
 
 Status UnlinkedTempFile::Rewind() {
-  if (write_failed_ || std::fflush(file_.get()) != 0)
-    return Status::IoError("cannot write a temporary file in " + where_ + " (disk full?)");
-  if (std::fseek(file_.get(), 0, SEEK_SET) != 0)
-    return Status::IoError("cannot rewind a temporary file in " + where_ + ": " + std::strerror(errno));
+  if (!Flush()) return Status::IoError("cannot write a temporary file in " + where_ + " (disk full?)");
+  if (lseek(fd_, 0, SEEK_SET) != 0)
+    return IoFailure("rewind a temporary file in", where_, errno);
+  begin_ = end_ = 0;
   return Status::Ok();
 }
 
+bool UnlinkedTempFile::Fill(size_t n, Status* error) {
+  if (end_ - begin_ >= n) return true;
+  if (n > capacity_) {  // a longer view: the buffer grows
+    auto bigger = std::make_unique_for_overwrite<char[]>(n);
+    std::memcpy(bigger.get(), buffer_.get() + begin_, end_ - begin_);
+    buffer_ = std::move(bigger);
+    capacity_ = n;
+  } else {
+    std::memmove(buffer_.get(), buffer_.get() + begin_, end_ - begin_);
+  }
+  end_ -= begin_;
+  begin_ = 0;
+  while (end_ < n) {
+    const ssize_t got = ::read(fd_, buffer_.get() + end_, capacity_ - end_);
+    if (got < 0 && errno == EINTR) continue;
+    if (got < 0) {
+      *error = IoFailure("read back a temporary file in", where_, errno);
+      return false;
+    }
+    if (got == 0) {
+      if (end_ != 0) *error = Status::IoError("cannot read back a temporary file in " + where_ + ": it ended early");
+      return false;
+    }
+    end_ += static_cast<size_t>(got);
+  }
+  return true;
+}
+
+bool UnlinkedTempFile::View(size_t n, std::string_view* view, Status* error) {
+  if (!Fill(n, error)) return false;
+  *view = std::string_view(buffer_.get() + begin_, n);
+  begin_ += n;
+  return true;
+}
+
 bool UnlinkedTempFile::Read(char* dst, size_t n, Status* error) {
-  if (n == 0) return true;
-  const size_t got = std::fread(dst, 1, n, file_.get());
-  if (got == n) return true;
-  if (got == 0 && std::feof(file_.get())) return false;
-  *error = Status::IoError("cannot read back a temporary file in " + where_ +
-                           (std::ferror(file_.get()) ? std::string(": ") + std::strerror(errno) : ": it ended early"));
-  return false;
+  std::string_view v;
+  if (!View(n, &v, error)) return false;
+  if (n > 0) std::memcpy(dst, v.data(), n);
+  return true;
 }
 
 }  // namespace fanfold
