@@ -149,17 +149,20 @@ Status TableOverflow::Finish(std::unique_ptr<WorkerGroupTable> table, int* over_
   table.reset();  // its memory is the next passes' budget
   if (!spill_) return Status::Ok();
   FF_RETURN_IF_ERROR(spill_->Rewind());
-  return Partition(std::move(spill_), records_, over_limit_measure);
+  return Partition(std::move(spill_), records_, 0, over_limit_measure);
 }
 
-// Splits `in` by a hash of the key into as many files as the records would
-// need tables if every record were a new key (at most kMaxPartitions), then
-// aggregates each. Record order is kept within a partition.
-Status TableOverflow::Partition(std::unique_ptr<UnlinkedTempFile> in, uint64_t records, int* over_limit_measure) {
+// Splits `in` by a hash of the key (seeded by depth, so that a partition
+// split again spreads) into as many files as the records would need tables
+// if every record were a new key (at most kMaxPartitions), then aggregates
+// each. Record order is kept within a partition.
+Status TableOverflow::Partition(std::unique_ptr<UnlinkedTempFile> in, uint64_t records, int depth,
+                                int* over_limit_measure) {
   const uint64_t per_table = std::max<uint64_t>(1, budget_ / bytes_per_group_);
   const size_t parts = static_cast<size_t>(std::min<uint64_t>(kMaxPartitions, (records + per_table - 1) / per_table));
-  if (parts <= 1) return AggregateAll(std::move(in), over_limit_measure);
+  if (parts <= 1) return AggregateAll(std::move(in), depth, over_limit_measure);
   std::vector<std::unique_ptr<UnlinkedTempFile>> files;
+  std::vector<uint64_t> counts(parts, 0);
   for (size_t p = 0; p < parts; ++p) {
     Result<UnlinkedTempFile> f = UnlinkedTempFile::Create("fanfold-part", kFileBuffer);
     if (!f.ok()) return f.status();
@@ -169,25 +172,38 @@ Status TableOverflow::Partition(std::unique_ptr<UnlinkedTempFile> in, uint64_t r
   Status error;
   while (ReadFramed(*in, &body, &error)) {
     const std::string_view key = KeyOf(body);
-    const size_t p = static_cast<size_t>(XXH3_64bits_withSeed(key.data(), key.size(), 0x0F1F) % parts);
+    const size_t p = static_cast<size_t>(XXH3_64bits_withSeed(key.data(), key.size(), 0x0F1F + depth) % parts);
     WriteFramed(*files[p], body);
+    ++counts[p];
   }
   FF_RETURN_IF_ERROR(error);
   in.reset();  // its disk space back before the partitions are read
-  for (std::unique_ptr<UnlinkedTempFile>& f : files) {
-    if (f->bytes_written() == 0) continue;
-    FF_RETURN_IF_ERROR(f->Rewind());
-    FF_RETURN_IF_ERROR(AggregateAll(std::move(f), over_limit_measure));
+  for (size_t p = 0; p < parts; ++p) {
+    if (counts[p] == 0) continue;
+    FF_RETURN_IF_ERROR(files[p]->Rewind());
+    FF_RETURN_IF_ERROR(AggregateAll(std::move(files[p]), depth + 1, over_limit_measure));
   }
   return Status::Ok();
 }
 
-Status TableOverflow::AggregateAll(std::unique_ptr<UnlinkedTempFile> in, int* over_limit_measure) {
+// Passes over `in` until every key has had its table. When a pass leaves
+// many records behind (the partition's keys were underestimated), they are
+// partitioned again rather than passed over table by table, which would
+// re-read them once per table (a few levels at most, and only for more
+// than 65,536 records; otherwise passes).
+Status TableOverflow::AggregateAll(std::unique_ptr<UnlinkedTempFile> in, int depth, int* over_limit_measure) {
+  constexpr int kMaxDepth = 4;
+  const uint64_t per_table = std::max<uint64_t>(1, budget_ / bytes_per_group_);
   while (in) {
     std::unique_ptr<UnlinkedTempFile> rest;
-    FF_RETURN_IF_ERROR(AggregatePass(*in, &rest, over_limit_measure));
+    uint64_t rest_records = 0;
+    FF_RETURN_IF_ERROR(AggregatePass(*in, &rest, &rest_records, over_limit_measure));
     in = std::move(rest);
-    if (in) FF_RETURN_IF_ERROR(in->Rewind());
+    if (!in) break;
+    FF_RETURN_IF_ERROR(in->Rewind());
+    // Splitting again costs a file per partition: worth it only for many records.
+    if (depth < kMaxDepth && rest_records > std::max<uint64_t>(4 * per_table, split_again_records_))
+      return Partition(std::move(in), rest_records, depth + 1, over_limit_measure);
   }
   return Status::Ok();
 }
@@ -196,7 +212,7 @@ Status TableOverflow::AggregateAll(std::unique_ptr<UnlinkedTempFile> in, int* ov
 // records of keys it cannot take go, in order, to *rest (made only then),
 // for a further pass.
 Status TableOverflow::AggregatePass(UnlinkedTempFile& in, std::unique_ptr<UnlinkedTempFile>* rest,
-                                    int* over_limit_measure) {
+                                    uint64_t* rest_records, int* over_limit_measure) {
   const size_t measures = strides_.size();
   auto table = std::make_unique<WorkerGroupTable>(configs_);
   table->set_budget(budget_);
@@ -236,6 +252,7 @@ Status TableOverflow::AggregatePass(UnlinkedTempFile& in, std::unique_ptr<Unlink
         *rest = std::make_unique<UnlinkedTempFile>(std::move(f.value()));
       }
       WriteFramed(**rest, body);
+      ++*rest_records;
       continue;
     }
     for (size_t m = 0; m < measures; ++m) {

@@ -68,6 +68,9 @@ class TableOverflow {
   Status Encode(ByteWriter& w);
 
   size_t run_count() const { return runs_.size(); }
+  // A pass that leaves more than this many records behind (and more than
+  // four tables' worth) has them partitioned again; tests lower it.
+  void set_split_again_records(uint64_t n) { split_again_records_ = n; }
   // Bytes of the groups in the runs (Encode writes these and the count).
   uint64_t encoded_bytes() const { return run_bytes_; }
   uint64_t group_count() const { return groups_; }
@@ -77,9 +80,10 @@ class TableOverflow {
   Status WriteRun(const WorkerGroupTable& table);
   Status MergeRuns(const std::function<void(std::string_view)>& emit);
   Status CompactRuns();
-  Status Partition(std::unique_ptr<UnlinkedTempFile> in, uint64_t records, int* over_limit_measure);
-  Status AggregateAll(std::unique_ptr<UnlinkedTempFile> in, int* over_limit_measure);
-  Status AggregatePass(UnlinkedTempFile& in, std::unique_ptr<UnlinkedTempFile>* rest, int* over_limit_measure);
+  Status Partition(std::unique_ptr<UnlinkedTempFile> in, uint64_t records, int depth, int* over_limit_measure);
+  Status AggregateAll(std::unique_ptr<UnlinkedTempFile> in, int depth, int* over_limit_measure);
+  Status AggregatePass(UnlinkedTempFile& in, std::unique_ptr<UnlinkedTempFile>* rest, uint64_t* rest_records,
+                       int* over_limit_measure);
 
   const std::vector<MeasureConfig>* configs_;
   std::vector<size_t> strides_;
@@ -92,6 +96,7 @@ class TableOverflow {
   std::vector<std::unique_ptr<Run>> runs_;
   uint64_t groups_ = 0;
   uint64_t run_bytes_ = 0;
+  uint64_t split_again_records_ = uint64_t{1} << 16;
 };
 
 }  // namespace fanfold

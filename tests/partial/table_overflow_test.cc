@@ -18,6 +18,8 @@
 #include "common/job/plan.h"
 #include "common/partial/partial_codec.h"
 #include "common/partial/shard_processor.h"
+#include "common/partial/table_overflow.h"
+#include "common/partial/worker_group_table.h"
 #include "common/port/file_util.h"
 
 using namespace fanfold;
@@ -187,4 +189,72 @@ TEST_CASE("table overflow: a bounded measure past its limit among the overflow's
   CHECK(small.status.code() == Status::Code::kLimitExceeded);
   CHECK(small.status.message() == whole.status.message());
   CHECK(d.temp_files() == 0);
+}
+
+TEST_CASE("table overflow: fed directly, partitioned again at every depth, equals one unbounded table") {
+  // Intent: the overflow alone (no reader): records of keys a full table
+  // does not hold, some skipping a measure, aggregated through partitions
+  // split again (a low threshold) and passes, encode exactly as one
+  // WorkerGroupTable that took every record.
+  OverflowDir d;
+  std::unique_ptr<Plan> plan = CompileJob(d.dir, R"J("group": ["{/k}"], "measures": [
+    {"name": "c", "fn": "count"}, {"name": "s", "fn": "sum", "of": "{/v}"}, {"name": "m", "fn": "mean", "of": "{/v}"},
+    {"name": "al", "fn": "at_lowest", "of": "{/k}", "by": "{/v}"}])J");
+  const std::vector<MeasureConfig>& configs = plan->reductions[0].configs;
+  std::vector<size_t> strides;
+  for (const CompiledMeasure& m : plan->reductions[0].measures) strides.push_back(m.args.size());
+  std::mt19937_64 rng(5);
+  struct Rec {
+    std::string key;
+    double v;
+    bool skip_sum;
+  };
+  std::vector<Rec> recs;
+  for (int i = 0; i < 30000; ++i)
+    recs.push_back({"key-" + std::to_string(rng() % 9000), (rng() % 2 ? 1e16 : 0.1) * (rng() % 3 ? 1 : -1), rng() % 5 == 0});
+  auto feed = [&](WorkerGroupTable& t, uint32_t g, const Rec& r) {
+    const Value v = Value::Number(r.v);
+    const Value by[2] = {Value{ValueKind::kString, false, NumberRep::kDouble, 0, 0, r.key}, v};
+    REQUIRE(t.column(0).AddBatch(&g, nullptr, 0, 1) == 1);
+    if (!r.skip_sum) REQUIRE(t.column(1).AddBatch(&g, &v, 1, 1) == 1);
+    REQUIRE(t.column(2).AddBatch(&g, &v, 1, 1) == 1);
+    REQUIRE(t.column(3).AddBatch(&g, by, 2, 1) == 1);
+  };
+  WorkerGroupTable whole(&configs);
+  for (const Rec& r : recs) feed(whole, whole.FindOrAdd(r.key), r);
+  std::string want;
+  ByteWriter ww(&want);
+  whole.Encode(ww);
+  for (uint64_t budget : {uint64_t{400}, uint64_t{6000}}) {
+    CAPTURE(budget);
+    auto table = std::make_unique<WorkerGroupTable>(&configs);
+    table->set_budget(budget);
+    TableOverflow overflow(&configs, strides, budget);
+    overflow.set_split_again_records(8);
+    for (const Rec& r : recs) {
+      const uint32_t g = table->FindOrAdd(r.key);
+      if (g != WorkerGroupTable::kOverBudget) {
+        feed(*table, g, r);
+        continue;
+      }
+      const Value v = Value::Number(r.v);
+      const Value by[2] = {Value{ValueKind::kString, false, NumberRep::kDouble, 0, 0, r.key}, v};
+      overflow.BeginRecord(r.key);
+      overflow.AddArgs(nullptr);
+      if (r.skip_sum) overflow.SkipMeasure(); else overflow.AddArgs(&v);
+      overflow.AddArgs(&v);
+      overflow.AddArgs(by);
+      REQUIRE(overflow.EndRecord().ok());
+    }
+    REQUIRE(overflow.records() > 0);
+    int over = -1;
+    REQUIRE(overflow.Finish(std::move(table), &over).ok());
+    CHECK(overflow.group_count() == whole.group_count());
+    std::string got;
+    ByteWriter gw(&got);
+    REQUIRE(overflow.Encode(gw).ok());
+    CHECK(got.size() == want.size());
+    CHECK(got == want);
+    CHECK(d.temp_files() == 0);
+  }
 }
