@@ -21,6 +21,9 @@ struct ShardTask {
   // a transport that reads the file elsewhere (MPI) checks it first.
   uint64_t file_size = 0;
   int64_t mtime_ns = 0;
+  // The worker's group tables' budget in bytes, shared by the job's
+  // reductions (0 = the worker's default). Results never depend on it.
+  uint64_t table_bytes = 0;
 };
 
 }  // namespace fanfold

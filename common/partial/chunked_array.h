@@ -33,8 +33,12 @@ class ChunkedArray {
   }
   T& operator[](size_t i) { return chunks_[i >> kChunkBits][i & (kChunk - 1)]; }
   const T& operator[](size_t i) const { return chunks_[i >> kChunkBits][i & (kChunk - 1)]; }
-  // Bytes of the chunks (not of what elements own).
-  size_t bytes() const { return chunks_.size() * kChunk * sizeof(T); }
+  // Bytes of the chunks (not of what elements own): the first chunk's
+  // capacity while it is the only one, else a full chunk each.
+  size_t bytes() const {
+    if (chunks_.size() <= 1) return chunks_.empty() ? 0 : chunks_[0].capacity() * sizeof(T);
+    return chunks_.size() * kChunk * sizeof(T);
+  }
 
  private:
   std::vector<std::vector<T>> chunks_;

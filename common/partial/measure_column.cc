@@ -26,6 +26,7 @@ class CountColumn final : public MeasureColumn {
     return n;
   }
   void EncodeGroup(uint32_t g, ByteWriter& w) const override { w.Varint(n_[g]); }
+  void Prefetch(uint32_t g) const override { __builtin_prefetch(&n_[g]); }
   size_t ApproxBytes() const override { return n_.bytes(); }
 
  private:
@@ -47,6 +48,7 @@ class StateColumn final : public MeasureColumn {
     return n;
   }
   void EncodeGroup(uint32_t g, ByteWriter& w) const override { states_[g].State::Encode(w); }
+  void Prefetch(uint32_t g) const override { __builtin_prefetch(&states_[g]); }
   size_t ApproxBytes() const override { return states_.bytes(); }
 
  private:
@@ -68,7 +70,11 @@ class ObjectColumn final : public MeasureColumn {
     return n;
   }
   void EncodeGroup(uint32_t g, ByteWriter& w) const override { states_[g]->Encode(w); }
-  size_t ApproxBytes() const override { return states_.bytes(); }
+  // The pointers, and per state an estimate of its object and allocation
+  // (what it owns beyond, kept values or registers, is bounded by the
+  // measure's own limit or precision, not counted).
+  size_t ApproxBytes() const override { return states_.bytes() + states_.size() * kObjectBytes; }
+  static constexpr size_t kObjectBytes = 96;
 
  private:
   const MeasureConfig& config_;

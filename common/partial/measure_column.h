@@ -39,6 +39,9 @@ class MeasureColumn {
 
   // Appends group g's state as MeasureState::Encode would write it.
   virtual void EncodeGroup(uint32_t g, ByteWriter& w) const = 0;
+  // A hint that group g's state will be encoded soon (groups are encoded
+  // in key order, which is random in memory): fetches it into the cache.
+  virtual void Prefetch(uint32_t g) const { (void)g; }
 
   // Heap bytes the column holds beyond its states' inline part (an
   // estimate for the variable-size measures: their objects, not what

@@ -68,6 +68,9 @@ void EncodePartialBody(const PartialState& p, std::string* body) {
   bw.Varint(p.lookup_unmatched.size());
   for (uint64_t n : p.lookup_unmatched) bw.Varint(n);
   bw.Varint(p.reductions.size());
+  size_t hint = 0;
+  for (const ReductionPartial& r : p.reductions) hint += r.encode_bytes_hint + 32;
+  body->reserve(body->size() + hint);
   for (const ReductionPartial& r : p.reductions) {
     bw.Varint(r.kept);
     // The table's length is patched in after it is written in place: a

@@ -79,6 +79,9 @@ struct ReductionPartial {
   // Set by a worker: writes its own table's encoding (WorkerGroupTable::
   // Encode, the same layout) in place of `groups`'s.
   std::function<void(ByteWriter&)> encode_groups;
+  // About how many bytes encode_groups writes (0 = unknown): the body is
+  // reserved once instead of growing by doubling, which copies it.
+  size_t encode_bytes_hint = 0;
   explicit ReductionPartial(const std::vector<MeasureConfig>* configs) : groups(configs) {}
 };
 

@@ -10,6 +10,7 @@
 #include "common/input/presence_counter.h"
 #include "common/partial/group_key.h"
 #include "common/partial/record_batch.h"
+#include "common/partial/table_overflow.h"
 #include "common/partial/worker_group_table.h"
 #include "common/port/clock.h"
 #include "common/port/file_identity.h"
@@ -58,6 +59,9 @@ struct ReductionFeed {
   std::vector<int> group_direct;              // Expr::DirectSlot of each key
   std::vector<std::array<int, 2>> arg_direct;  // ... of each measure argument
   std::vector<MeasureInputs> inputs;          // per measure
+  // The records of keys the full table does not hold (made when needed).
+  std::unique_ptr<TableOverflow> overflow;
+  std::vector<Value> spill_args;  // one measure's arguments, while spilling
 };
 
 // Receives records from the reader and applies the plan to them: the job's
@@ -65,13 +69,18 @@ struct ReductionFeed {
 class Aggregator final : public RecordSink {
  public:
   // REQUIRES: batch is empty, has the plan's width and outlives this. Makes
-  // one WorkerGroupTable per reduction of the plan.
-  Aggregator(const Plan& plan, RecordBatch* batch, const std::function<void(uint64_t)>& hook, bool every)
+  // one WorkerGroupTable per reduction of the plan, each with an equal share
+  // of table_bytes (0 = no limit).
+  Aggregator(const Plan& plan, RecordBatch* batch, const std::function<void(uint64_t)>& hook, bool every,
+             uint64_t table_bytes)
       : plan_(plan), hook_(hook), hook_mask_(every ? 0 : 4095), batch_(*batch) {
+    const size_t share = plan.reductions.empty() ? 0 : table_bytes / plan.reductions.size();
+    budget_ = table_bytes == 0 ? 0 : std::max<size_t>(share, 1);
     for (size_t r = 0; r < plan.reductions.size(); ++r) {
       ReductionFeed f;
       f.plan = &plan.reductions[r];
       f.table = std::make_unique<WorkerGroupTable>(&f.plan->configs);
+      f.table->set_budget(budget_);
       for (const Expr& g : f.plan->group) f.group_direct.push_back(g.DirectSlot());
       for (const CompiledMeasure& m : f.plan->measures) {
         std::array<int, 2> d = {-1, -1};
@@ -94,6 +103,8 @@ class Aggregator final : public RecordSink {
     batch_.Add(slots);
     return !batch_.full() || Drain();
   }
+  // Set when an overflow file could not be made (the shard fails).
+  const Status& spill_error() const { return spill_error_; }
 
   // Aggregates the waiting records: each record's derived fields, filters
   // and group ids, then every measure's inputs of the batch in one call to
@@ -103,7 +114,7 @@ class Aggregator final : public RecordSink {
   bool Drain() {
     const uint64_t t0 = MonotonicNanos();
     for (size_t i = 0; i < batch_.size(); ++i) Apply(batch_.record(i));
-    const bool go_on = Flush();
+    const bool go_on = Flush() && spill_error_.ok();
     batch_.Clear();
     arena_.Reset();
     aggregate_ns_ += MonotonicNanos() - t0;
@@ -112,6 +123,12 @@ class Aggregator final : public RecordSink {
 
   // The tables, once every record is drained.
   const WorkerGroupTable& table(size_t r) const { return *feeds_[r].table; }
+  // Reduction r's overflow, or null when its table held every key; Finish
+  // hands it the table.
+  TableOverflow* overflow(size_t r) { return feeds_[r].overflow.get(); }
+  Status FinishOverflow(size_t r, int* over_limit_measure) {
+    return feeds_[r].overflow->Finish(std::move(feeds_[r].table), over_limit_measure);
+  }
 
   uint64_t aggregate_ns() const { return aggregate_ns_; }
   uint64_t kept() const { return kept_; }
@@ -154,6 +171,7 @@ class Aggregator final : public RecordSink {
       AppendKeyValue(d >= 0 ? slots[d] : rp.group[g].Eval(slots, &arena_), &key_);
     }
     const uint32_t group = f.table->FindOrAdd(key_);
+    if (group == WorkerGroupTable::kOverBudget) return Spill(f, slots);
     for (size_t m = 0; m < rp.measures.size(); ++m) {
       const CompiledMeasure& cm = rp.measures[m];
       if (cm.only && !cm.only->Eval(slots, &arena_).Truthy()) continue;  // not this measure's input
@@ -165,6 +183,32 @@ class Aggregator final : public RecordSink {
         args[a] = d >= 0 ? slots[d] : cm.args[a].Eval(slots, &arena_);
       }
     }
+  }
+
+  // Writes a record of a key the full table does not hold to the reduction's
+  // overflow: the key and each measure's arguments, evaluated as Feed does.
+  void Spill(ReductionFeed& f, Value* slots) {
+    const ReductionPlan& rp = *f.plan;
+    if (!f.overflow) {
+      std::vector<size_t> strides;
+      for (const CompiledMeasure& cm : rp.measures) strides.push_back(cm.args.size());
+      f.overflow = std::make_unique<TableOverflow>(&rp.configs, std::move(strides), budget_);
+    }
+    f.overflow->BeginRecord(key_);
+    for (size_t m = 0; m < rp.measures.size(); ++m) {
+      const CompiledMeasure& cm = rp.measures[m];
+      if (cm.only && !cm.only->Eval(slots, &arena_).Truthy()) {
+        f.overflow->SkipMeasure();
+        continue;
+      }
+      f.spill_args.resize(cm.args.size());
+      for (size_t a = 0; a < cm.args.size(); ++a) {
+        const int d = f.arg_direct[m][a];
+        f.spill_args[a] = d >= 0 ? slots[d] : cm.args[a].Eval(slots, &arena_);
+      }
+      f.overflow->AddArgs(f.spill_args.data());
+    }
+    if (Status s = f.overflow->EndRecord(); !s.ok() && spill_error_.ok()) spill_error_ = s;
   }
 
   // Feeds every measure its queued inputs. Returns false iff one ran past
@@ -199,6 +243,8 @@ class Aggregator final : public RecordSink {
   RecordBatch& batch_;
   uint64_t aggregate_ns_ = 0;  // inside Drain
   std::vector<ReductionFeed> feeds_;
+  size_t budget_ = 0;  // each table's, 0 = none
+  Status spill_error_;
 };
 
 std::string Percent(double f) {
@@ -232,7 +278,10 @@ Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
 
   PartialState state(configs_);
   batch_.Clear();  // a failed shard may have left records behind
-  Aggregator agg(*plan_, &batch_, on_record, on_every_record);
+  const uint64_t table_bytes = table_bytes_override != 0 ? table_bytes_override
+                               : task.table_bytes != 0   ? task.table_bytes
+                                                         : kDefaultTableBytes;
+  Aggregator agg(*plan_, &batch_, on_record, on_every_record, table_bytes);
   PresenceCounter present(plan_->fields, &agg);  // counts each raw field's values
   ReadStats stats;
   TimedSource timed(src->get());
@@ -245,10 +294,20 @@ Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
     reader_ = std::move(r.value());
   }
   Status s = reader_->Read(timed, present, &stats);
-  if (s.ok() && agg.over_limit().first < 0) agg.Drain();
+  if (s.ok() && agg.over_limit().first < 0 && agg.spill_error().ok()) agg.Drain();
   const uint64_t t1 = MonotonicNanos();
   if (!s.ok()) return s.WithContext(where);
-  if (const auto [r, m_index] = agg.over_limit(); r >= 0) {
+  if (!agg.spill_error().ok()) return agg.spill_error().WithContext(where);
+  // Tables that ran past their budget: their overflow becomes sorted runs.
+  std::pair<int, int> over_limit = agg.over_limit();
+  for (size_t r = 0; r < plan_->reductions.size() && over_limit.first < 0; ++r) {
+    if (agg.overflow(r) == nullptr) continue;
+    int m = -1;
+    Status f = agg.FinishOverflow(r, &m);
+    if (m >= 0) over_limit = {static_cast<int>(r), m};
+    else if (!f.ok()) return f.WithContext(where);
+  }
+  if (const auto [r, m_index] = over_limit; r >= 0) {
     const ReductionPlan& red = plan_->reductions[static_cast<size_t>(r)];
     const CompiledMeasure& m = red.measures[static_cast<size_t>(m_index)];
     const std::string in = red.name.empty() ? "" : " of reduction \"" + red.name + "\"";
@@ -284,13 +343,23 @@ Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
   h.parse_ns = in_reader - std::min(in_reader, timed.ns() + h.aggregate_ns);
   state.samples = std::move(stats.samples);
   state.field_present = present.counts();
+  Status merged;  // the first failure to read an overflow's runs back
   for (size_t r = 0; r < state.reductions.size(); ++r) {
     state.reductions[r].kept = agg.kept_by(r);
-    const WorkerGroupTable& table = agg.table(r);
-    state.reductions[r].encode_groups = [&table](ByteWriter& w) { table.Encode(w); };
+    if (TableOverflow* o = agg.overflow(r)) {
+      state.reductions[r].encode_groups = [o, &merged](ByteWriter& w) {
+        if (Status e = o->Encode(w); !e.ok() && merged.ok()) merged = e;
+      };
+      state.reductions[r].encode_bytes_hint = o->encoded_bytes();
+    } else {
+      const WorkerGroupTable& table = agg.table(r);
+      state.reductions[r].encode_groups = [&table](ByteWriter& w) { table.Encode(w); };
+      state.reductions[r].encode_bytes_hint = table.EncodedBytesHint();
+    }
   }
   state.lookup_unmatched = agg.unmatched();
   EncodePartial(state, partial);
+  if (!merged.ok()) return merged.WithContext(where);
   SetPartialEncodeTime(MonotonicNanos() - t1, partial);
   return Status::Ok();
 }

@@ -3,6 +3,9 @@
 // reduction filter again, group and feed the measures — producing the
 // shard's encoded partial state. Holds the
 // per-worker buffers (arena, key scratch) so they are reused across shards.
+// Each reduction's group table keeps to the task's budget (table_bytes): past
+// it, the records of new keys go through a TableOverflow
+// (common/partial/table_overflow.h) and the partial's bytes are the same.
 // One instance per worker thread/process; the Plan must outlive it.
 #pragma once
 
@@ -39,6 +42,11 @@ class ShardProcessor {
   // injection, which needs exact counts).
   std::function<void(uint64_t records)> on_record;
   bool on_every_record = false;
+
+  // The group tables' budget when the task gives none (task.table_bytes 0).
+  static constexpr uint64_t kDefaultTableBytes = uint64_t{1} << 30;
+  // Test-only: when nonzero, the budget whatever the task says.
+  uint64_t table_bytes_override = 0;
 
  private:
   const Plan* plan_;

@@ -6,6 +6,12 @@
 // id (flat arrays for the fixed-size measures). Records are fed a batch at a
 // time per measure (MeasureColumn::AddBatch).
 //
+// A table may be given a budget (set_budget): once its bytes (ApproxBytes,
+// plus what Encode's sort will take) pass it, the table is full — its
+// groups go on taking records, but a new key gets kOverBudget instead of a
+// group, and the caller sends that record elsewhere (common/partial/
+// table_overflow.h). Every key the table holds therefore saw all its records.
+//
 // Encode writes exactly GroupTable::Encode's bytes for the same records
 // (docs/partial-state.md; GroupTable stays the coordinator's table and the
 // reference the differential test compares against). Neither copied nor
@@ -36,7 +42,14 @@ class WorkerGroupTable {
   // The id of the group whose encoded key is `key` (ids count up from 0 in
   // order of first appearance), creating it, with empty states in every
   // column, if new.
+  // When the table is full and the key is new: kOverBudget, nothing added.
   uint32_t FindOrAdd(std::string_view key);
+  static constexpr uint32_t kOverBudget = UINT32_MAX;
+
+  // Bytes past which the table takes no new key (0 = no limit, the default).
+  // At least one group is always taken.
+  void set_budget(size_t bytes) { budget_ = bytes; }
+  bool full() const { return full_; }
 
   size_t group_count() const { return keys_.size(); }
   size_t measure_count() const { return columns_.size(); }
@@ -46,10 +59,21 @@ class WorkerGroupTable {
   // Appends the table's encoding: GroupTable::Encode's layout, groups in
   // strictly ascending key-byte order.
   void Encode(ByteWriter& w) const;
+  // The group ids in Encode's order (ascending key bytes).
+  std::vector<uint32_t> SortedGroups() const;
+  // Appends group g as Encode writes it: the key, then each measure's state
+  // behind its varint length.
+  void EncodeGroup(uint32_t g, ByteWriter& w) const;
 
   // Bytes held by the index, the key list and arena and the columns (not
-  // what a variable-size state owns), for the bytes-per-group figure.
+  // what a variable-size state owns), for the bytes-per-group figure and
+  // the budget. O(measures).
   size_t ApproxBytes() const;
+  // About how many bytes Encode writes (keys and their lengths, and a few
+  // bytes a state), to reserve them.
+  size_t EncodedBytesHint() const { return key_total_ + keys_.size() * (2 + 10 * columns_.size()); }
+  // Bytes Encode's sort takes per group while it runs.
+  static constexpr size_t kSortBytesPerGroup = 20;
 
  private:
   struct IdHash {
@@ -72,6 +96,9 @@ class WorkerGroupTable {
   std::vector<std::string_view> keys_;   // by group id, into key_bytes_
   boost::unordered_flat_set<uint32_t, IdHash, IdEq> index_;
   std::vector<std::unique_ptr<MeasureColumn>> columns_;  // one per measure
+  size_t key_total_ = 0;  // bytes of every key
+  size_t budget_ = 0;     // 0 = none
+  bool full_ = false;
 };
 
 }  // namespace fanfold

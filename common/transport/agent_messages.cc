@@ -74,6 +74,7 @@ std::string EncodeTask(const TaskMessage& m) {
   w.U8(static_cast<uint8_t>(m.task.compression));
   w.U64(m.task.file_size);
   w.I64(m.task.mtime_ns);
+  w.U64(m.task.table_bytes);
   w.Str(m.task.path);
   return out;
 }
@@ -88,6 +89,7 @@ Status DecodeTask(const std::string& bytes, TaskMessage* m) {
   m->task.compression = static_cast<Compression>(r.U8());
   m->task.file_size = r.U64();
   m->task.mtime_ns = r.I64();
+  m->task.table_bytes = r.U64();
   m->task.path = ReadStr(r);
   return r.ok() && r.at_end() ? Status::Ok() : Truncated("task");
 }

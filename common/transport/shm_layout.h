@@ -50,7 +50,7 @@
 namespace fanfold {
 
 inline constexpr uint64_t kShmMagic = 0x31444c4f464e4146ull;  // "FANFOLD1" read as bytes
-inline constexpr uint32_t kShmVersion = 2;
+inline constexpr uint32_t kShmVersion = 3;
 inline constexpr size_t kPageBytes = 4096;
 inline constexpr size_t kMaxPathBytes = 4096;      // task path / spill directory; no NUL kept
 inline constexpr size_t kMaxErrorBytes = 1024;     // worker error text, cut at a UTF-8 boundary
@@ -96,6 +96,7 @@ struct ShmTask {
   uint64_t length;
   uint32_t compression;  // Compression as an integer
   uint32_t path_length;
+  uint64_t table_bytes;  // ShardTask::table_bytes
   char path[kMaxPathBytes];
 };
 
@@ -143,11 +144,11 @@ static_assert(alignof(ShmSemaphore) <= 64, "semaphore slot misaligned");
 static_assert(std::is_standard_layout_v<ShmHeader> && std::is_standard_layout_v<ShmChannel>);
 static_assert(offsetof(ShmHeader, quit) == 64 && offsetof(ShmHeader, done_sem) == 128);
 static_assert(offsetof(ShmHeader, spill_dir) == 192 && sizeof(ShmHeader) <= kHeaderBytes);
-static_assert(sizeof(ShmTask) == 4128 && sizeof(ShmResult) == 1328);
+static_assert(sizeof(ShmTask) == 4136 && sizeof(ShmResult) == 1328);
 static_assert(offsetof(ShmChannel, assign_seq) == 64 && offsetof(ShmChannel, taken_seq) == 80);
-static_assert(offsetof(ShmChannel, tasks) == 128 && offsetof(ShmChannel, ready_token) == 16640);
-static_assert(offsetof(ShmChannel, started_seq) == 16688 && offsetof(ShmChannel, done_seq) == 16704);
-static_assert(offsetof(ShmChannel, wants_take) == 16712 && offsetof(ShmChannel, results) == 16720);
+static_assert(offsetof(ShmChannel, tasks) == 128 && offsetof(ShmChannel, ready_token) == 16704);
+static_assert(offsetof(ShmChannel, started_seq) == 16752 && offsetof(ShmChannel, done_seq) == 16768);
+static_assert(offsetof(ShmChannel, wants_take) == 16776 && offsetof(ShmChannel, results) == 16784);
 static_assert(sizeof(ShmChannel) <= kChannelBytes && kChannelBytes % 64 == 0);
 
 // Sizes of a segment for a worker count and a (page-rounded) result area.

@@ -197,6 +197,7 @@ Status ShmTransport::Assign(int w, const ShardTask& task) {
   t.length = task.length;
   t.compression = static_cast<uint32_t>(task.compression);
   t.path_length = static_cast<uint32_t>(task.path.size());
+  t.table_bytes = task.table_bytes;
   std::memcpy(t.path, task.path.data(), task.path.size());
   ch.assign_seq.store(seq, std::memory_order_release);  // publishes the task
   SemPost(view_.work_sem(static_cast<uint32_t>(w)));

@@ -56,6 +56,7 @@ Status ReadTask(const ShmTask& t, ShardTask* task) {
   task->offset = t.offset;
   task->length = t.length;
   task->compression = static_cast<Compression>(t.compression);
+  task->table_bytes = t.table_bytes;
   task->path.assign(t.path, t.path_length);
   return Status::Ok();
 }

@@ -92,6 +92,21 @@ Status ApplyTestOnlyMergeThreads(Merger* merger) {
   return Status::Ok();
 }
 
+// FANFOLD_TEST_ONLY_WORKER_TABLE_BYTES=BYTES (tests only; the integrator
+// wires the memory budget's share here): every task tells its worker to keep
+// its group tables within BYTES, so small test jobs take the overflow path
+// (common/partial/table_overflow.h). Unset: 0, the worker's default.
+Result<uint64_t> TestOnlyWorkerTableBytes() {
+  const char* sw = std::getenv("FANFOLD_TEST_ONLY_WORKER_TABLE_BYTES");
+  if (sw == nullptr || *sw == '\0') return uint64_t{0};
+  char* end = nullptr;
+  const uint64_t bytes = std::strtoull(sw, &end, 10);
+  if (end == sw || *end != '\0' || bytes == 0)
+    return Status::InvalidArgument("FANFOLD_TEST_ONLY_WORKER_TABLE_BYTES: expected a positive byte count, found '" +
+                                   std::string(sw) + "'");
+  return bytes;
+}
+
 }  // namespace
 
 CommandOutcome ExecuteRun(const RunInput& in, const RunOptions& o) { return RunEngine(in, o).Execute(); }
@@ -186,6 +201,9 @@ Status RunEngine::Run() {
   ProgressMeter meter(options_.quiet ? ProgressMode::kOff : options_.progress, options_.progress_every_s, list_,
                       order);
   RunLoopOptions lo;
+  Result<uint64_t> table_bytes = TestOnlyWorkerTableBytes();
+  if (!table_bytes.ok()) return table_bytes.status();
+  lo.worker_table_bytes = *table_bytes;
   lo.max_attempts = options_.max_attempts;
   lo.shard_time_limit_ms = options_.shard_time_limit_ms;
   lo.should_stop = [] { return SignalGuard::interrupted(); };

@@ -86,6 +86,7 @@ Status RunShards(const ShardList& list, const std::vector<uint32_t>& order, Tran
         task.attempt = attempt;
         task.file_size = s.file_size;
         task.mtime_ns = s.mtime_ns;
+        task.table_bytes = options.worker_table_bytes;
         const uint64_t assign_ns = WallNanos();
         FF_RETURN_IF_ERROR(transport.Assign(w, task));
         workers[static_cast<size_t>(w)].push_back(InFlight{shard, attempt, s.bytes(), assign_ns, false});

@@ -47,6 +47,9 @@ struct RunLoopOptions {
   // out one at a time, largest first, to whichever worker is free.
   uint32_t queue_depth = 3;
   uint64_t queue_bytes = 1u << 20;
+  // Each worker's group-table budget, sent with every task (0 = the
+  // worker's default; ShardTask::table_bytes).
+  uint64_t worker_table_bytes = 0;
   std::function<bool()> should_stop;    // polled between events; may be empty
   std::function<void(const AttemptRecord&)> on_attempt;
   // Persists a finished shard's partial; an error stops the run.

@@ -170,6 +170,7 @@ void LampWorld::Generate(uint32_t index, uint64_t lines, std::vector<LampEvent>*
   out->resize(lines);
   GenRng rng(Mix(seed_, index));
   const int64_t hour_start = HourStart(index);
+  const uint64_t tag_seed = Mix(seed_ ^ 0x7A6500000000ull, index);
   const uint64_t step = 3'600'000 / lines;  // ms between slots; jitter stays inside one
   for (uint64_t i = 0; i < lines; ++i) {
     LampEvent& e = (*out)[i];
@@ -186,6 +187,7 @@ void LampWorld::Generate(uint32_t index, uint64_t lines, std::vector<LampEvent>*
     // The city's local time is UTC+1; only the day/night pattern uses it.
     const int local_hour = static_cast<int>(((e.t_ms / 3'600'000) + 1) % 24);
     FillEvent(lamp, local_hour, rng, &e);
+    if (tags_ > 0) e.tag = Mix(tag_seed, i) % tags_;
   }
 }
 

@@ -23,6 +23,8 @@ enum class FaultStyle : uint8_t { kNull, kMissing, kCode };
 
 std::string_view EventName(EventKind k);
 
+inline constexpr uint64_t kNoTag = UINT64_MAX;
+
 // One line of a shard. Numbers are kept as scaled integers so that their text
 // never depends on floating-point formatting.
 struct LampEvent {
@@ -40,6 +42,7 @@ struct LampEvent {
   int32_t humidity = 0;         // readings[1]: percent
   FaultStyle fault_style = FaultStyle::kNull;
   uint8_t fault_code = 0;       // index into FaultName() when kCode
+  uint64_t tag = kNoTag;        // the road-user tag the lamp's sensor saw (--tags)
   bool malformed = false;       // this line is written broken instead
   uint64_t corruption = 0;      // random bits choosing how it is broken
 };
@@ -56,6 +59,12 @@ class LampWorld {
   // The events of shard `index` (the hour start_ms + index h), in time order
   // with strictly increasing instants while lines <= 3.6 million.
   void Generate(uint32_t index, uint64_t lines, std::vector<LampEvent>* out) const;
+
+  // With n > 0, every event carries a tag drawn uniformly from n values
+  // (the high-cardinality key of the cardinality benchmark), from a hash
+  // of (seed, shard, line) apart from the other fields' draws, so they
+  // stay what they are without tags.
+  void set_tags(uint64_t n) { tags_ = n; }
 
   int64_t HourStart(uint32_t index) const { return start_ms_ + int64_t{index} * 3'600'000; }
   const std::string& LampId(uint32_t lamp) const { return lamps_[lamp].id; }
@@ -79,6 +88,7 @@ class LampWorld {
   uint64_t seed_;
   int64_t start_ms_;
   double bad_rate_;
+  uint64_t tags_ = 0;
   std::vector<Lamp> lamps_;
 };
 

@@ -38,6 +38,8 @@ struct GenOptions {
   std::string prefix = "lamps";     // file names: PREFIX-YYYY-MM-DDTHH.EXT
   bool tiny = false;                // 10000 shards of ~20 lines unless overridden
   unsigned threads = 1;             // shards generated in parallel
+  uint64_t tags = 0;                // > 0: each event carries a tag from this many
+  bool lean = false;                // short records (lamp, tag, power) only
 };
 
 struct FileResult {
@@ -58,7 +60,8 @@ std::string CanonicalCommand(const GenOptions& o) {
          std::to_string(o.records) + " --seed " + std::to_string(o.seed) + " --format " + o.format +
          " --compress " + o.compress + " --bad-rate " + DoubleText(o.bad_rate) + " --start " +
          o.start + " --lamps " + std::to_string(o.lamps) + " --spread " + DoubleText(o.spread) +
-         " --prefix " + o.prefix;
+         " --prefix " + o.prefix + (o.tags > 0 ? " --tags " + std::to_string(o.tags) : "") +
+         (o.lean ? " --lean" : "");
 }
 
 bool WriteFileAtomically(const fs::path& path, const std::string& bytes, std::string* error) {
@@ -86,7 +89,7 @@ void GenerateOne(const GenOptions& o, const fanfold::gen::LampWorld& world, Text
   std::vector<fanfold::gen::LampEvent> events;
   world.Generate(index, world.LinesFor(index, o.records, o.spread), &events);
   std::string text, packed;
-  const fanfold::gen::ShardCounts counts = fanfold::gen::FormatShard(world, events, format, &text);
+  const fanfold::gen::ShardCounts counts = fanfold::gen::FormatShard(world, events, format, o.lean, &text);
   std::string hour;
   fanfold::gen::AppendIsoTime(world.HourStart(index), 0, true, &hour);
   r->name = o.prefix + "-" + hour.substr(0, 13) + ext;
@@ -128,7 +131,12 @@ int Run(GenOptions o, bool shards_given, bool records_given) {
     return 3;
   }
 
-  const fanfold::gen::LampWorld world(o.seed, o.lamps, start_ms, o.bad_rate);
+  if ((o.tags > 0 || o.lean) && format != TextFormat::kNdjson) {
+    std::fprintf(stderr, "fanfold-gen: --tags and --lean write NDJSON only; got --format %s\n", o.format.c_str());
+    return 2;
+  }
+  fanfold::gen::LampWorld world(o.seed, o.lamps, start_ms, o.bad_rate);
+  world.set_tags(o.tags);
   std::vector<FileResult> results(o.shards);
   std::atomic<uint32_t> next{0};
   auto work = [&] {
@@ -169,6 +177,8 @@ int Run(GenOptions o, bool shards_given, bool records_given) {
         {"bytes", bytes}}},
       {"files", files},
   };
+  if (o.tags > 0) manifest["settings"]["tags"] = o.tags;
+  if (o.lean) manifest["settings"]["lean"] = true;
   std::string error;
   if (!WriteFileAtomically(fs::path(o.out_dir) / "manifest.json", manifest.dump(1) + "\n", &error)) {
     std::fprintf(stderr, "fanfold-gen: %s\n", error.c_str());
@@ -206,6 +216,10 @@ int main(int argc, char** argv) {
       ->check(CLI::Range(0.0, 0.9));
   app.add_option("--prefix", o.prefix, "File name prefix");
   app.add_flag("--tiny", o.tiny, "10000 shards of ~20 lines (unless --shards/--records say otherwise)");
+  app.add_option("--tags", o.tags,
+                 "Each event carries a \"tag\" (a road-user transponder the lamp saw) drawn from this many values")
+      ->check(CLI::Range(uint64_t{1}, uint64_t{10000000000}));
+  app.add_flag("--lean", o.lean, "Short NDJSON records: lamp, tag and power only (benchmarks of many records)");
   app.add_option("--threads", o.threads, "Generate shards on this many threads")
       ->check(CLI::Range(1u, 256u));
   try {

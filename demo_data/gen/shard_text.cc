@@ -88,7 +88,27 @@ void AppendJsonString(std::string_view s, std::string* out) {
   out->push_back('"');
 }
 
-void WriteJson(const LampWorld& w, const LampEvent& e, std::string* out) {
+void AppendTag(const LampEvent& e, std::string* out) {
+  char buf[32];
+  const int n = std::snprintf(buf, sizeof buf, ",\"tag\":\"T-%010llu\"", static_cast<unsigned long long>(e.tag));
+  out->append(buf, static_cast<size_t>(n));
+}
+
+// A lean record: the lamp, its tag (when tags are on) and the power reading
+// when it is a number — about 55 bytes, for benchmarks of many records.
+void WriteLeanJson(const LampWorld& w, const LampEvent& e, std::string* out) {
+  out->append("{\"lamp\":");
+  AppendJsonString(w.LampId(e.lamp), out);
+  if (e.tag != kNoTag) AppendTag(e, out);
+  if (e.power_style == PowerStyle::kNumber) {
+    out->append(",\"power_w\":");
+    AppendPower(e, out);
+  }
+  out->push_back('}');
+}
+
+void WriteJson(const LampWorld& w, const LampEvent& e, bool lean, std::string* out) {
+  if (lean) return WriteLeanJson(w, e, out);
   if (e.time_style == TimeStyle::kEpochMs) {
     out->append("{\"ts_ms\":");
     AppendInt(e.t_ms, out);
@@ -99,6 +119,7 @@ void WriteJson(const LampWorld& w, const LampEvent& e, std::string* out) {
   }
   out->append(",\"lamp\":");
   AppendJsonString(w.LampId(e.lamp), out);
+  if (e.tag != kNoTag) AppendTag(e, out);
   out->append(",\"district\":");
   AppendJsonString(w.District(e.lamp), out);
   out->append(",\"event\":");
@@ -159,12 +180,12 @@ void AppendGarbage(uint64_t bits, bool for_csv, std::string* out) {
   }
 }
 
-void WriteBrokenJson(const LampWorld& w, const LampEvent& e, std::string* out) {
+void WriteBrokenJson(const LampWorld& w, const LampEvent& e, bool lean, std::string* out) {
   const uint64_t kind = e.corruption % 10;
   const uint64_t bits = e.corruption >> 8;
   if (kind >= 7) return AppendGarbage(bits, false, out);
   std::string line;
-  WriteJson(w, e, &line);
+  WriteJson(w, e, lean, &line);
   if (kind >= 4) {
     out->append(line, 1, std::string::npos);  // the opening brace lost
   } else {
@@ -268,7 +289,7 @@ bool ParseHour(std::string_view text, int64_t* t_ms) {
 }
 
 ShardCounts FormatShard(const LampWorld& world, const std::vector<LampEvent>& events,
-                        TextFormat format, std::string* out) {
+                        TextFormat format, bool lean, std::string* out) {
   ShardCounts counts;
   std::string cells[kCsvFieldCount];
   const char sep = format == TextFormat::kTsv ? '\t' : ',';
@@ -279,9 +300,9 @@ ShardCounts FormatShard(const LampWorld& world, const std::vector<LampEvent>& ev
   for (const LampEvent& e : events) {
     if (format == TextFormat::kNdjson) {
       if (e.malformed) {
-        WriteBrokenJson(world, e, out);
+        WriteBrokenJson(world, e, lean, out);
       } else {
-        WriteJson(world, e, out);
+        WriteJson(world, e, lean, out);
       }
     } else {
       WriteCsvRow(world, e, sep, cells, out);

@@ -23,9 +23,11 @@ struct ShardCounts {
 // The CSV/TSV header row, nested fields flattened (fw_version, reading_0, ...).
 std::string_view CsvColumns();
 
-// Appends the shard's text (header row first for CSV/TSV) to *out.
+// Appends the shard's text (header row first for CSV/TSV) to *out. NDJSON
+// writes an event's tag after "lamp" when it has one; lean (NDJSON only)
+// writes only the lamp, the tag and a numeric power reading.
 ShardCounts FormatShard(const LampWorld& world, const std::vector<LampEvent>& events,
-                        TextFormat format, std::string* out);
+                        TextFormat format, bool lean, std::string* out);
 
 // ISO 8601 text of an instant: "2026-03-01T00:17:03.250Z", or local time
 // with the given offset (minutes east of UTC), e.g. "...T01:17:03.250+01:00".

@@ -127,6 +127,36 @@ def main():
                             for f in files_of(fresh) if os.path.exists(os.path.join(committed, f)))
             checks.check(same_text, "demo_data/%s content differs from a fresh run" % name)
 
+        # Intent: --tags adds a "tag" drawn from N values and changes nothing else (json
+        # module); --lean keeps the lamp, the tag and numeric power only; both are
+        # deterministic across thread counts.
+        t = os.path.join(env.tmp, "tags")
+        mt = env.generate(t, *flags, "--tags", 300)
+        for f_a, f_t in zip(files_of(a), files_of(t)):
+            plain, _ = ref.load_shard(os.path.join(a, f_a))
+            tagged, _ = ref.load_shard(os.path.join(t, f_t))
+            tags = [r.pop("tag", None) for r in tagged]
+            checks.check(plain == tagged, "%s: --tags changed another field" % f_t)
+            checks.check(all(isinstance(x, str) and x.startswith("T-") and 0 <= int(x[2:]) < 300 for x in tags),
+                         "%s: a tag outside T-0000000000..T-0000000299" % f_t)
+        all_tags = {r["tag"] for f in files_of(t) for r in ref.load_shard(os.path.join(t, f))[0]}
+        # 4,800 draws from 300 values: every value is drawn (missing one has probability ~300*e^-16).
+        checks.check(len(all_tags) == 300, "%d distinct tags of 300" % len(all_tags))
+        checks.check(mt["settings"].get("tags") == 300 and "--tags 300" in mt["command"], "manifest lacks --tags")
+        lean = os.path.join(env.tmp, "lean")
+        env.generate(lean, *flags, "--tags", 300, "--lean", "--threads", 2)
+        lean2 = os.path.join(env.tmp, "lean2")
+        env.generate(lean2, *flags, "--tags", 300, "--lean")
+        checks.check(read_all(lean) == read_all(lean2), "--lean differs between 1 and 2 threads")
+        for f_t, f_l in zip(files_of(t), files_of(lean)):
+            tagged, _ = ref.load_shard(os.path.join(t, f_t))
+            slim, _ = ref.load_shard(os.path.join(lean, f_l))
+            want = [{k: r[k] for k in ("lamp", "tag", "power_w") if k in r and (k != "power_w" or type(r[k]) is float)}
+                    for r in tagged]
+            checks.check(slim == want, "%s: --lean records are not the full records' lamp, tag and power" % f_l)
+        rc, _, err = env.run([env.gen, "--out", env.path("x", "z"), "--tags", "5", "--format", "csv"])
+        checks.check(rc == 2 and "--tags" in err, "--tags with csv: exit %d, %s" % (rc, err))
+
         # Intent: bad flags are usage errors (exit 2), with the flag named.
         rc, _, err = env.run([env.gen, "--out", env.path("x", "y"), "--start", "2026-13-01T00"])
         checks.check(rc == 2 and "--start" in err, "bad --start: exit %d, %s" % (rc, err))

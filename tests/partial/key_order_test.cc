@@ -1,0 +1,57 @@
+// KeyOrder against the C++ standard library: the indexes it returns name the
+// keys in std::string_view order (char_traits<char>::compare, which compares
+// bytes as unsigned char, as memcmp does), for small tables (sorted by
+// comparisons) and big ones (radix-sorted windows), keys sharing long
+// prefixes, prefixes of each other, zero and 0xFF bytes.
+#include <doctest/doctest.h>
+
+#include <algorithm>
+#include <random>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "common/partial/key_order.h"
+
+using namespace fanfold;
+
+namespace {
+
+std::vector<std::string> MakeKeys(size_t n, unsigned seed) {
+  std::mt19937_64 rng(seed);
+  std::vector<std::string> keys;
+  std::vector<std::string> seen;
+  while (keys.size() < n) {
+    std::string k;
+    switch (rng() % 5) {
+      case 0: k = "\x04\x0cT-00" + std::to_string(rng() % 100000000); break;  // a shared prefix
+      case 1: k = std::string(rng() % 20, '\0') + static_cast<char>(rng() % 256); break;
+      case 2: k = std::string(rng() % 12, '\xFF'); break;
+      case 3: k = "2026-03-01T" + std::to_string(rng() % 1000) + std::string(rng() % 3, '\0'); break;
+      default:
+        for (size_t i = 0, len = rng() % 30; i < len; ++i) k.push_back(static_cast<char>(rng() % 256));
+    }
+    keys.push_back(std::move(k));
+  }
+  std::sort(keys.begin(), keys.end());
+  keys.erase(std::unique(keys.begin(), keys.end()), keys.end());  // KeyOrder wants distinct keys
+  std::shuffle(keys.begin(), keys.end(), rng);
+  return keys;
+}
+
+}  // namespace
+
+TEST_CASE("key order: the standard library's string_view order, small and radix-sized tables") {
+  for (size_t n : {size_t{0}, size_t{1}, size_t{7}, size_t{2047}, size_t{2048}, size_t{5000}, size_t{60000}}) {
+    CAPTURE(n);
+    const std::vector<std::string> keys = MakeKeys(n, static_cast<unsigned>(n) + 3);
+    std::vector<std::string_view> views(keys.begin(), keys.end());
+    const std::vector<uint32_t> order = KeyOrder(views);
+    REQUIRE(order.size() == views.size());
+    std::vector<std::string_view> got;
+    for (uint32_t i : order) got.push_back(views[i]);
+    std::vector<std::string_view> want = views;
+    std::sort(want.begin(), want.end());
+    CHECK(got == want);
+  }
+}
