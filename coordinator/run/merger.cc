@@ -1,7 +1,7 @@
 #include "coordinator/run/merger.h"
 
 #include "common/partial/group_key.h"
-#include "coordinator/merge/encoded_group_cursor.h"
+#include "coordinator/merge/run_cursor.h"
 
 namespace fanfold {
 namespace {
@@ -118,8 +118,12 @@ void Merger::Drain() {
     // partial's new groups): before, a partial's groups cannot be told
     // new from old without looking each up, and many shards over the same
     // keys must stay on the faster tables.
-    for (size_t r = 0; r < results_.size() && !runs_ && run_threshold_ > 0; ++r)
-      if (results_[r].table.group_count() > run_threshold_) StartRuns();
+    if (run_threshold_ == kRunsByBudget) {
+      if (!runs_ && EstimatedTableBytes() > memory_.merge_bytes / 2) StartRuns();
+    } else {
+      for (size_t r = 0; r < results_.size() && !runs_ && run_threshold_ > 0; ++r)
+        if (results_[r].table.group_count() > run_threshold_) StartRuns();
+    }
   }
   if (runs_ && next_ == shard_count_ && runs_->pending()) FoldRuns();
 }
@@ -146,8 +150,15 @@ void Merger::Account(uint32_t shard, OpenedPartial& p) {
     if (samples_.size() < kMaxReportedSamples) samples_.push_back({shard, std::move(sample)});
 }
 
+uint64_t Merger::EstimatedTableBytes() const {
+  uint64_t bytes = 0;
+  for (const ReductionResult& r : results_)
+    bytes += r.table.group_count() * (kTableBytesPerGroup + kTableBytesPerState * r.table.measure_count());
+  return bytes;
+}
+
 void Merger::StartRuns() {
-  runs_ = std::make_unique<RunResults>(plan_, run_threads_);
+  runs_ = std::make_unique<RunResults>(plan_, run_threads_, memory_);
   for (size_t r = 0; r < results_.size(); ++r) {
     runs_->Start(r, results_[r].table);
     results_[r].table = GroupTable(&plan_->reductions[r].configs);  // its memory goes back
@@ -231,7 +242,7 @@ Result<OutputTable> Merger::FinishFromRun(size_t r) {
   for (const MeasureConfig& c : plan.configs) states.push_back(NewMeasureState(c));
   // The run holds each group's states as the in-memory table would encode
   // them; decoded one group at a time, they finalize to the same cells.
-  EncodedGroupCursor groups(runs_->run(r), states.size());
+  RunCursor groups = runs_->Cursor(r);
   t.rows.reserve(groups.group_count());
   while (groups.Next()) {
     std::vector<Cell> row;

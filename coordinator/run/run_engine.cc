@@ -10,6 +10,7 @@
 #include <unordered_set>
 
 
+#include "common/base/byte_size.h"
 #include "common/base/cell_text.h"
 #include "common/port/clock.h"
 #include "common/port/file_util.h"
@@ -57,13 +58,16 @@ Status WriteOutput(const std::string& path, const std::string& text) {
 
 // FANFOLD_TEST_ONLY_MERGE_RUNS=GROUPS[:THREADS] (tests only, never for
 // users): the merger moves its results to sorted runs past GROUPS groups and
-// folds them over THREADS key ranges, so small test jobs take that path.
-Status ApplyTestOnlyMergeRuns(Merger* merger) {
+// folds them over THREADS key ranges, so small test jobs take that path;
+// GROUPS "cap" keeps the memory share's rule (with THREADS ranges).
+Status ApplyTestOnlyMergeRuns(Merger* merger, size_t* threads_out) {
   const char* sw = std::getenv("FANFOLD_TEST_ONLY_MERGE_RUNS");
   if (sw == nullptr || *sw == '\0') return Status::Ok();
   const std::string text(sw);
   char* end = nullptr;
-  const uint64_t groups = std::strtoull(text.c_str(), &end, 10);
+  const bool by_cap = text.rfind("cap", 0) == 0;
+  const uint64_t groups = by_cap ? Merger::kRunsByBudget : std::strtoull(text.c_str(), &end, 10);
+  if (by_cap) end = const_cast<char*>(text.c_str()) + 3;
   uint64_t threads = 1;
   if (end != text.c_str() && *end == ':') {
     const char* t = end + 1;
@@ -71,9 +75,10 @@ Status ApplyTestOnlyMergeRuns(Merger* merger) {
     if (end == t || threads < 1 || threads > 64) end = nullptr;
   }
   if (end == nullptr || end == text.c_str() || *end != '\0')
-    return Status::InvalidArgument("FANFOLD_TEST_ONLY_MERGE_RUNS: expected GROUPS or GROUPS:THREADS (1 to 64), found '" +
+    return Status::InvalidArgument("FANFOLD_TEST_ONLY_MERGE_RUNS: expected GROUPS or GROUPS:THREADS (1 to 64; GROUPS \"cap\": by the memory cap), found '" +
                                    text + "'");
   merger->SetRunThreshold(groups, static_cast<size_t>(threads));
+  *threads_out = static_cast<size_t>(threads);
   return Status::Ok();
 }
 
@@ -92,6 +97,8 @@ RunEngine::RunEngine(const RunInput& in, const RunOptions& o)
 
 CommandOutcome RunEngine::Execute() {
   CommandOutcome out;
+  out.status = Budget();
+  if (!out.status.ok()) return out;
   Prepare();
   out.status = Reload();
   if (out.status.ok()) out.status = Run();
@@ -131,8 +138,24 @@ void RunEngine::Prepare() {
   workers_ = std::max(1, std::min<int>(asked, static_cast<int>(in_.pending.size())));
 }
 
+Status RunEngine::Budget() {
+  size_t threads = 1;
+  FF_RETURN_IF_ERROR(ApplyTestOnlyMergeRuns(&merger_, &threads));
+  Result<MemoryShares> shares = ResolveMemoryCap(options_.memory_cap, plan_, threads);
+  if (!shares.ok()) return shares.status();
+  shares_ = *shares;
+  Result<std::unique_ptr<SpillFolder>> spill =
+      SpillFolder::Open((std::filesystem::path(dir_.path()) / SpillFolder::kName).string());
+  if (!spill.ok()) return spill.status();
+  spill_ = std::move(*spill);
+  merger_.SetMemory(MergeMemory{shares_.merge_bytes, spill_.get()});
+  LogDebug("memory cap " + ByteSizeText(shares_.cap) + " from " + shares_.source + ": merge " +
+           ByteSizeText(shares_.merge_bytes) + ", output " + ByteSizeText(shares_.sort_bytes) + ", worker table " +
+           ByteSizeText(shares_.worker_table_bytes));
+  return Status::Ok();
+}
+
 Status RunEngine::Reload() {
-  FF_RETURN_IF_ERROR(ApplyTestOnlyMergeRuns(&merger_));
   for (uint32_t s : in_.reused) {
     std::string bytes;
     PartialHeader h;
@@ -201,7 +224,11 @@ Status RunEngine::Commit(const Status& run) {
 }
 
 void RunEngine::Tally() {
-  if (merger_.in_runs()) LogDebug("merge: the results were folded as sorted runs (docs/streaming-merge.md)");
+  if (const RunResults* runs = merger_.runs())
+    LogDebug(std::string("merge: the results were folded as sorted runs (docs/streaming-merge.md), ") +
+             std::to_string(runs->folds()) + " folds" +
+             (spill_->bytes_written() > 0 ? ", " + ByteSizeText(spill_->bytes_written()) + " written to spill files"
+                                          : ", in memory"));
   LogDebug("merge: coordinator peak RSS before the output stage: " +
            std::to_string(PeakRssBytes() >> 20) + " MiB");
   for (const auto& [shard, message] : merger_.late_failures())

@@ -7,11 +7,15 @@ exact distinct and DDSketch. Checked:
 
 * the result with the coordinator's in-memory tables (kept whatever their
   size with the test-only switch FANFOLD_TEST_ONLY_MERGE_RUNS=0) equals, byte
-  for byte, the result folded as sorted runs (docs/streaming-merge.md): by
-  default (past 100,000 groups), and forced with
-  FANFOLD_TEST_ONLY_MERGE_RUNS=GROUPS:THREADS from the first group, past
-  20,000 and 50,000 groups, over 1, 2 and 3 key ranges, at -j 1, 2 and 3 —
-  and the debug log says whether the runs were used;
+  for byte, the result folded as sorted runs (docs/streaming-merge.md):
+  forced with FANFOLD_TEST_ONLY_MERGE_RUNS=GROUPS:THREADS from the first
+  group, past 20,000 and 50,000 groups, over 1, 2 and 3 key ranges, at -j 1,
+  2 and 3; and under memory caps small enough (--memory-cap 6MiB, or the
+  job's "memory_cap") that the runs go to spill files in the run directory
+  (FANFOLD_TEST_ONLY_MERGE_RUNS=cap:THREADS keeps the cap's rule over 1-3
+  key ranges) — the debug log says whether runs and spill files were used,
+  and no spill file is left after the run; the default cap (a quarter of
+  the machine's memory) keeps these 140,000 groups in tables;
 * every group against sqlite3 (Python's stdlib module): GROUP BY lamp with
   COUNT(*), SUM(power) (integers: exact in both), MIN/MAX(latency),
   COUNT(DISTINCT power), and AVG(power) within 1e-12 relative (sqlite3 sums
@@ -69,14 +73,16 @@ def sqlite_expected(rows):
     return out
 
 
-def run(env, c, job, workers, switch, label):
+def run(env, c, job, workers, switch, label, cap=None, spill=False):
     out = env.path("out-%s.json" % label)
+    run_dir = env.path("runs", label)
+    extra = ["--memory-cap", cap] if cap else []
     old = os.environ.get("FANFOLD_TEST_ONLY_MERGE_RUNS")
     if switch is not None:
         os.environ["FANFOLD_TEST_ONLY_MERGE_RUNS"] = switch
     try:
         rc, _, err = env.fanfold_run("run", job, "-j", workers, "-o", out, "--log-level", "debug",
-                                     "--progress", "off")
+                                     "--progress", "off", "--run-dir", run_dir, *extra)
     finally:
         if old is None:
             os.environ.pop("FANFOLD_TEST_ONLY_MERGE_RUNS", None)
@@ -85,7 +91,11 @@ def run(env, c, job, workers, switch, label):
     if not c.check(rc == 0, "%s: exit %d: %s" % (label, rc, lib.tail(err))):
         return None
     used_runs = "folded as sorted runs" in err
-    c.check(used_runs == (switch != "0"), "%s: sorted runs used: %s" % (label, used_runs))
+    want_runs = spill or switch not in ("0", None)
+    c.check(used_runs == want_runs, "%s: sorted runs used: %s" % (label, used_runs))
+    spilled = "written to spill files" in err
+    c.check(spilled == spill, "%s: spill files used: %s" % (label, spilled))
+    c.check(not os.path.exists(os.path.join(run_dir, "merge")), "%s: the spill folder is left behind" % label)
     with open(out, "rb") as f:
         return f.read()
 
@@ -104,11 +114,23 @@ def main():
         base = run(env, c, job, 2, "0", "in-memory")
         if base is None:
             c.exit()
-        for workers, switch in ((2, None), (1, "1:1"), (2, "20000:1"), (2, "20000:3"), (3, "1:2"), (1, "50000:2")):
-            label = "runs-%s-j%d" % ((switch or "default").replace(":", "x"), workers)
-            got = run(env, c, job, workers, switch, label)
+        cases = [(2, None, None), (1, "1:1", None), (2, "20000:1", None), (2, "20000:3", None), (3, "1:2", None),
+                 (1, "50000:2", None)]
+        # Spilling: small caps, 1-3 key ranges, -j 1..3.
+        cases += [(1, None, "6MiB"), (2, "cap:2", "8MiB"), (3, "cap:3", "11MiB"), (2, "cap:1", "7MiB"),
+                  (1, "cap:3", "12MiB")]
+        for workers, switch, cap in cases:
+            label = "runs-%s-%s-j%d" % ((switch or "default").replace(":", "x"), cap or "nocap", workers)
+            got = run(env, c, job, workers, switch, label, cap=cap, spill=cap is not None)
             if got is not None:
                 c.check(got == base, "%s: result differs from the in-memory merge's" % label)
+        # The same cap from the job file's "memory_cap".
+        capped = lib.write_job(env.path("by_lamp_capped.json"), {
+            "inputs": {"files": [env.path("lamps", "*.ndjson")]}, "memory_cap": "6MiB",
+            "group": ["{/lamp}"], "measures": JOB_MEASURES, "emit": {"format": "json"}})
+        got = run(env, c, capped, 2, None, "job-memory-cap", spill=True)
+        if got is not None:
+            c.check(got == base, "job-memory-cap: result differs from the in-memory merge's")
 
         result = json.loads(base)
         c.check(len(result) == len(expected), "%d groups, sqlite3 has %d" % (len(result), len(expected)))
