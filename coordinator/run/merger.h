@@ -81,7 +81,8 @@ class Merger {
   // The merge's memory share and where runs that do not fit it go (the
   // run directory's spill folder; null keeps them in memory). The results
   // stay in-memory tables while their estimated size (EstimatedTableBytes)
-  // is at most half the share, then move to key-sorted runs folded batch
+  // would stay at most half the share with the next partial's groups all
+  // new, then move to key-sorted runs folded batch
   // by batch (coordinator/merge/run_results.h): the same bytes in a
   // fraction of the memory; runs past the share go to spill files.
   // REQUIRES: called before the first Add.
@@ -101,6 +102,8 @@ class Merger {
   static constexpr uint64_t kTableBytesPerGroup = 96;
   static constexpr uint64_t kTableBytesPerState = 80;
   uint64_t EstimatedTableBytes() const;
+  // What p's groups would add to it, were they all new.
+  uint64_t EstimatedTableBytes(const OpenedPartial& p) const;
   // True iff the results moved to runs.
   bool in_runs() const { return runs_ != nullptr; }
   // The runs, once in_runs(): their size, whether spilled, how many folds.
