@@ -242,6 +242,12 @@ void RunEngine::Tally() {
   summary_.wall_seconds = ElapsedSeconds();
   summary_.peak_rss = PeakRssBytes();
   summary_.peak_worker_rss = PeakChildRssBytes();
+  summary_.memory_cap = shares_.cap;
+  summary_.memory_cap_from = shares_.source;
+  summary_.merge_spilled_bytes = spill_->bytes_written();
+  summary_.merge_held = !merger_.in_runs()                ? "tables"
+                        : summary_.merge_spilled_bytes > 0 ? "spilled runs"
+                                                           : "runs in memory";
 }
 
 Status RunEngine::Stop() {

@@ -96,6 +96,14 @@ def run(env, c, job, workers, switch, label, cap=None, spill=False):
     spilled = "written to spill files" in err
     c.check(spilled == spill, "%s: spill files used: %s" % (label, spilled))
     c.check(not os.path.exists(os.path.join(run_dir, "merge")), "%s: the spill folder is left behind" % label)
+    with open(os.path.join(run_dir, "summary.json")) as f:
+        memory = json.load(f)["memory"]
+    held = "spilled runs" if spill else "runs in memory" if want_runs else "tables"
+    c.check(memory["merge"] == held and (memory["spilled_bytes"] > 0) == spill,
+            "%s: summary.json says %r" % (label, memory))
+    if cap:
+        c.check(memory["cap_bytes"] == int(cap[:-3]) << 20 and memory["cap_from"] == "--memory-cap",
+                "%s: summary.json's cap %r" % (label, memory))
     with open(out, "rb") as f:
         return f.read()
 
