@@ -12,6 +12,7 @@
 
 #include "common/job/job_spec.h"
 #include "common/partial/group_key.h"
+#include "common/port/memory_platform.h"
 #include "coordinator/merge/spill_folder.h"
 #include "coordinator/run/merger.h"
 
@@ -131,6 +132,25 @@ TEST_CASE("merger: the tables' estimated bytes follow groups and measures") {
   CHECK(m.EstimatedTableBytes() == 1500 * (Merger::kTableBytesPerGroup + 3 * Merger::kTableBytesPerState));
   REQUIRE(m.Add(1, BigPartial(*plan, 1)).ok());
   CHECK(m.EstimatedTableBytes() == 2200 * (Merger::kTableBytesPerGroup + 3 * Merger::kTableBytesPerState));
+}
+
+// Intent: a spill file that cannot be written (the disk is full) fails the
+// merge with a message naming the file, and Finish reports it instead of a
+// result; no crash, no partial result.
+TEST_CASE("merger: a spill file that cannot be written is an error, not a crash") {
+  const auto plan = SpillPlan();
+  MemoryPlatform disk;
+  disk.SetSpaceLeft(1000);
+  Result<std::unique_ptr<SpillFolder>> folder = SpillFolder::Open("/run/merge", disk);
+  REQUIRE(folder.ok());
+  Merger m(plan.get(), 4);
+  m.SetMemory(MergeMemory{uint64_t{64} << 10, folder->get()});
+  for (uint32_t s = 0; s < 4; ++s) REQUIRE(m.Add(s, BigPartial(*plan, s)).ok());
+  REQUIRE(m.complete());
+  Result<OutputTable> t = m.Finish(0);
+  REQUIRE_FALSE(t.ok());
+  CHECK(t.status().message().find("/run/merge/run-0-") != std::string::npos);
+  CHECK(t.status().message().find("space") != std::string::npos);
 }
 
 }  // namespace
