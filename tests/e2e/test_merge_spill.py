@@ -18,7 +18,9 @@ integers, exact in both):
   "memory_cap": "1MiB"): a clear error naming the flag or the JSON location
   and the least that works, non-zero exit, no run directory made; `resume`
   with it: refused before the run journals a start (no worker started);
-* a "memory_cap" that is no byte count: refused naming /memory_cap.
+* a "memory_cap" that is no byte count: refused naming /memory_cap;
+* `merge` of two parts, `refresh` and `scale` under --memory-cap 6MiB:
+  the same bytes, spilled (summary.json's "memory"), no spill folder left.
 """
 
 import glob
@@ -161,6 +163,31 @@ def main():
         c.check(proc.returncode != 0, "writing under a regular file: exit 0")
         c.check("written to spill files" in err, "error exit: the merge did not spill: " + lib.tail(err))
         c.check(not os.path.exists(os.path.join(rd, "merge")), "error exit: the spill folder is left behind")
+
+        # merge (of parts), refresh and scale take the cap too.
+        spill_env = with_switch("cap:1")
+        for i in (1, 2):
+            rc, _, err = env.fanfold_run("run", job, "--part", "%d/2" % i, "--run-dir", env.path("runs", "p%d" % i), "-q")
+            c.check(rc == 0, "part %d: exit %d: %s" % (i, rc, lib.tail(err)))
+        for label, argv, rd in (
+                ("merge", ["merge", env.path("runs", "p1"), env.path("runs", "p2"), "--run-dir",
+                           env.path("runs", "merged")], env.path("runs", "merged")),
+                ("refresh", ["refresh", env.path("runs", "killed")], env.path("runs", "killed"))):
+            out = env.path(label + ".csv")
+            done = subprocess.run([env.fanfold] + argv + ["--memory-cap", "6MiB", "-q", "-o", out], env=spill_env,
+                                  stdout=subprocess.PIPE, stderr=subprocess.PIPE, cwd=env.tmp)
+            c.check(done.returncode == 0, "%s: exit %d: %s" % (label, done.returncode, lib.tail(done.stderr.decode())))
+            if done.returncode == 0:
+                c.check(read(out) == base, "%s under a 6 MiB cap: result differs" % label)
+                with open(os.path.join(rd, "summary.json")) as f:
+                    memory = json.load(f)["memory"]
+                c.check(memory["merge"] == "spilled runs" and memory["cap_bytes"] == 6 << 20,
+                        "%s: summary.json says %r" % (label, memory))
+            c.check(not os.path.exists(os.path.join(rd, "merge")), "%s: the spill folder is left behind" % label)
+        done = subprocess.run([env.fanfold, "scale", job, "--workers", "1", "--memory-cap", "6MiB", "-q"],
+                              env=spill_env, stdout=subprocess.PIPE, stderr=subprocess.PIPE, cwd=env.tmp)
+        c.check(done.returncode == 0, "scale --memory-cap 6MiB: exit %d: %s" % (done.returncode,
+                                                                               lib.tail(done.stderr.decode())))
 
         # A cap too small for the job: refused before anything starts.
         rd = env.path("runs", "tiny")
