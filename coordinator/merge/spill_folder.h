@@ -5,8 +5,11 @@
 // `resume`, `refresh` and `merge` start without it), the destructor removes
 // the folder on every way out (success, error, interruption), and a run is
 // always rebuilt from the committed partials, which never live here. Its
-// files are written without syncing, for the same reason. Owned by the
-// coordinator's run; NewFile may be called from several threads.
+// files are written without syncing, for the same reason. Files are made
+// and removed through the Platform (a MemoryPlatform serves tests of the
+// writing side) but read back mapped (MappedFile), from the real file
+// system. Owned by the coordinator's run; NewFile may be called from
+// several threads.
 #pragma once
 
 #include <atomic>

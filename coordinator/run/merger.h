@@ -2,8 +2,9 @@
 // shard-index order, whatever order they arrive in, so floating-point
 // results are identical for any worker count or schedule. Partials that
 // arrive early wait (as bytes) until every lower shard is merged or marked
-// failed. The result is an in-memory GroupTable per reduction until one
-// passes the run threshold, then key-sorted runs folded in batches
+// failed. The result is an in-memory GroupTable per reduction while the
+// tables fit half the merge's memory share (SetMemory), then key-sorted
+// runs folded in batches, in spill files past the share
 // (docs/streaming-merge.md): the same bytes either way. Owned and driven
 // by the coordinator's run loop; not thread-safe.
 #pragma once
