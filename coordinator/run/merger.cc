@@ -1,5 +1,7 @@
 #include "coordinator/run/merger.h"
 
+#include <algorithm>
+
 #include "common/partial/group_key.h"
 #include "coordinator/merge/encoded_group_cursor.h"
 #include "coordinator/merge/run_cursor.h"
@@ -80,7 +82,7 @@ void Merger::Drain() {
     // group count is in its encoding; telling new groups from old would
     // take a lookup each).
     if (s.ok() && !runs_ && run_threshold_ == kRunsByBudget &&
-        EstimatedTableBytes() + EstimatedTableBytes(p) > memory_.merge_bytes / 2)
+        EstimatedTableBytes() + EstimatedTableBytes(p) > std::min(memory_.merge_bytes / 2, kTableCeilingBytes))
       StartRuns();
     if (s.ok() && runs_) {  // the fold checks it, and drops it if bad
       runs_->Add(next_, std::move(opened));

@@ -82,8 +82,8 @@ class Merger {
   // The merge's memory share and where runs that do not fit it go (the
   // run directory's spill folder; null keeps them in memory). The results
   // stay in-memory tables while their estimated size (EstimatedTableBytes)
-  // would stay at most half the share with the next partial's groups all
-  // new, then move to key-sorted runs folded batch
+  // would stay at most half the share, and at most kTableCeilingBytes,
+  // with the next partial's groups all new, then move to key-sorted runs folded batch
   // by batch (coordinator/merge/run_results.h): the same bytes in a
   // fraction of the memory; runs past the share go to spill files.
   // REQUIRES: called before the first Add.
@@ -102,6 +102,9 @@ class Merger {
   // fixed cost for its key's entry and bytes, and one per measure state.
   static constexpr uint64_t kTableBytesPerGroup = 96;
   static constexpr uint64_t kTableBytesPerState = 80;
+  // Past this estimate the runs are no slower than the tables, and far
+  // smaller (measured: docs/streaming-merge.md), whatever the share.
+  static constexpr uint64_t kTableCeilingBytes = uint64_t{64} << 20;
   uint64_t EstimatedTableBytes() const;
   // What p's groups would add to it, were they all new.
   uint64_t EstimatedTableBytes(const OpenedPartial& p) const;
