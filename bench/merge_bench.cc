@@ -46,7 +46,7 @@ struct BenchOptions {
   uint64_t templates = 4;   // distinct partial contents, shifted key windows
   double time_limit_s = 0;  // stop merging after this long (0 = never) and extrapolate
   bool check_first = false;  // no reloader: check every partial, then merge it
-  uint64_t run_threshold = Merger::kDefaultRunThreshold;
+  uint64_t run_threshold = Merger::kRunsByBudget;  // the merge share's rule (MergeMemory default)
   uint64_t fold_threads = 0;   // the runs' key ranges (0: as --threads)
   uint64_t threads = 0;        // merge threads (0: Merger::DefaultThreads())
 };

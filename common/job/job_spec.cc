@@ -6,6 +6,7 @@
 
 #include <nlohmann/json.hpp>
 
+#include "common/base/byte_size.h"
 #include "common/job/job_checker.h"
 #include "common/job/reduction_parser.h"
 #include "common/base/json_document.h"
@@ -76,8 +77,16 @@ Result<JobSpec> ParseJobSpec(std::string_view text, const std::string& job_path)
   job.base_dir = base.empty() ? "." : base.string();
   if (!doc.is_object()) return c.Error("", FoundText(doc), "a JSON object with \"inputs\" and \"measures\"");
   FF_RETURN_IF_ERROR(
-      c.OnlyKeys(doc, "", {"about", "inputs", "tables", "keep", "derive", "reductions", "group", "measures", "rows", "emit"}));
+      c.OnlyKeys(doc, "", {"about", "inputs", "tables", "keep", "derive", "reductions", "group", "measures", "rows", "emit",
+                          "memory_cap"}));
   if (doc.contains("about")) FF_RETURN_IF_ERROR(c.String(doc["about"], "/about", &job.about, false));
+  if (const auto v = doc.find("memory_cap"); v != doc.end()) {
+    std::optional<uint64_t> cap;
+    if (v->is_number_unsigned()) cap = v->get<uint64_t>();
+    else if (v->is_string()) cap = ParseByteSize(v->get<std::string>());
+    if (!cap || *cap == 0) return c.Error("/memory_cap", FoundText(*v), std::string("a positive byte count: ") + kByteSizeExpected);
+    job.memory_cap = cap;
+  }
   if (!doc.contains("inputs")) return c.Error("", "no \"inputs\"", "\"inputs\": {\"files\": [...]}");
   FF_RETURN_IF_ERROR(ParseInputs(c, doc["inputs"], &job));
   if (doc.contains("tables")) FF_RETURN_IF_ERROR(ParseTableSpecs(doc["tables"], job_path, &job.tables));

@@ -103,6 +103,11 @@ struct JobSpec {
   std::vector<TableSpec> tables;    // lookup tables, job-level (table_spec.h)
   std::vector<DeriveSpec> derive;   // shared by every reduction
   std::vector<ReductionSpec> reductions;  // at least one
+  // "memory_cap": the coordinator's memory budget in bytes (an integer, or
+  // a string such as "512MiB"); absent = the CLI's --memory-cap or the
+  // default from the machine's memory. Never in the plan's fingerprint:
+  // results do not depend on it.
+  std::optional<uint64_t> memory_cap;
   // True iff the file has a "reductions" array (names are then non-empty
   // and each reduction's result file is named after it).
   bool named_reductions() const { return !reductions.empty() && !reductions.front().name.empty(); }

@@ -10,6 +10,7 @@
 #include <cerrno>
 #include <climits>
 #include <csignal>
+#include <cstdio>
 #include <cstring>
 
 #include "common/port/os_error.h"
@@ -56,6 +57,18 @@ std::string ExitInfo::Describe() const {
 uint64_t PeakRssBytes() {
   rusage ru{};
   return ::getrusage(RUSAGE_SELF, &ru) == 0 ? static_cast<uint64_t>(ru.ru_maxrss) * 1024 : 0;  // ru_maxrss is KiB
+}
+
+uint64_t AvailableMemoryBytes() {
+  std::FILE* f = std::fopen("/proc/meminfo", "r");
+  if (f == nullptr) return 0;
+  char line[256];
+  unsigned long long kib = 0;
+  bool found = false;
+  while (!found && std::fgets(line, sizeof line, f) != nullptr)
+    found = std::sscanf(line, "MemAvailable: %llu kB", &kib) == 1;
+  std::fclose(f);
+  return found ? static_cast<uint64_t>(kib) * 1024 : 0;
 }
 
 uint64_t PeakChildRssBytes() { return g_peak_child_kib.load(std::memory_order_relaxed) * 1024; }

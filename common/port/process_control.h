@@ -28,6 +28,9 @@ int ParentPid();
 // rusage; 0 if none). Measured by the kernel, not estimated.
 uint64_t PeakRssBytes();
 uint64_t PeakChildRssBytes();
+// Memory the kernel says could be given to new work without swapping
+// (Linux /proc/meminfo MemAvailable) in bytes; 0 iff it does not say.
+uint64_t AvailableMemoryBytes();
 
 // The absolute path of this process's program (Linux /proc/self/exe);
 // false iff the system does not say.

@@ -13,6 +13,7 @@
 #include "coordinator/output/output_extension.h"
 #include "coordinator/run/console_log.h"
 #include "coordinator/run/field_precheck.h"
+#include "coordinator/run/memory_budget.h"
 #include "coordinator/run/run_engine.h"
 #include "coordinator/rundir/run_directory.h"
 #include "coordinator/rundir/shard_parts.h"
@@ -74,6 +75,12 @@ CommandOutcome RunJob(const RunOptions& o) {
   }
   out.status = ApplyOutputOption(o.output_path, &job->plan->spec);
   if (!out.status.ok()) return out;
+  // A memory cap too small for the job stops it before the run directory
+  // is made (the run checks again, with its merge threads).
+  if (Result<MemoryShares> budget = ResolveMemoryCap(o.memory_cap, *job->plan); !budget.ok()) {
+    out.status = budget.status();
+    return out;
+  }
   // A part: only its shards, indexed from 0; run.json says which part of
   // which full list they are.
   PartOfRun part;

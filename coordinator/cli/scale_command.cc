@@ -73,6 +73,7 @@ Status RunOnce(const ScaleOptions& o, const std::string& scratch, const std::str
   RunOptions ro;
   ro.job_path = o.job_path;
   ro.workers = workers;
+  ro.memory_cap = o.memory_cap;
   ro.run_dir = (fs::path(scratch) / name).string();
   ro.results_in_run_dir_only = true;
   ro.fresh = true;

@@ -21,6 +21,7 @@ struct ScaleOptions {
   std::string json_path;     // "" = no JSON file
   std::string html_path;     // "" = no HTML file
   bool quiet = false;        // only errors on stderr
+  uint64_t memory_cap = 0;   // --memory-cap for every timed run (0 = the job's, else the default)
 };
 
 // Exit semantics as `run`: shards_failed is also set when the runs' results

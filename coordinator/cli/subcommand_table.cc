@@ -1,11 +1,13 @@
 #include "coordinator/cli/subcommand_table.h"
 
 #include <algorithm>
+#include <optional>
 #include <string>
 #include <thread>
 
 #include <CLI/CLI.hpp>
 
+#include "common/base/byte_size.h"
 #include "coordinator/cli/merge_command.h"
 #include "coordinator/cli/numeric_flag.h"
 #include "coordinator/cli/refresh_command.h"
@@ -28,6 +30,21 @@ constexpr WholeFlag kRepeatFlag{.name = "--repeat", .min = 1, .max = 100};
 constexpr WholeFlag kDigitsFlag{.name = "--digits", .min = 1, .max = 17};
 constexpr const char* kDigitsHelp =
     "round CSV and table numbers to this many significant digits (1 to 17; default: every digit)";
+
+constexpr const char* kMemoryCapHelp =
+    "bound the coordinator's memory to this many bytes, e.g. 512MiB or 4GiB (default: the job's \"memory_cap\", "
+    "else a quarter of the available memory); results do not change";
+
+// --memory-cap SIZE into *out unless empty ("" = not given).
+Status ParseMemoryCapIfGiven(const std::string& text, uint64_t* out) {
+  if (text.empty()) return Status::Ok();
+  std::optional<uint64_t> cap = ParseByteSize(text);
+  if (!cap || *cap == 0)
+    return Status::InvalidArgument(std::string("--memory-cap: expected a positive byte count: ") + kByteSizeExpected +
+                                   ", found '" + text + "'");
+  *out = *cap;
+  return Status::Ok();
+}
 
 // Parses text into *out unless it is empty (the flag was not given, or given
 // as ""; both keep the default, as they always have).
@@ -65,6 +82,7 @@ class RunSubcommand final : public Subcommand {
     cmd->add_option("--attempts", attempts_, "tries per shard when its worker dies (default 3)");
     cmd->add_option("--shard-time-limit", time_limit_, "kill and retry a shard's worker after this many seconds");
     cmd->add_option("--digits", digits_, kDigitsHelp);
+    cmd->add_option("--memory-cap", memory_cap_, kMemoryCapHelp);
     cmd->add_flag("--in-process", options_.in_process, "debugging: process shards inside the coordinator");
     cmd->add_flag("-q,--quiet", options_.quiet, "print nothing on stderr but errors");
     AddStderrFlags(cmd, &stderr_, /*with_progress=*/true);
@@ -74,6 +92,7 @@ class RunSubcommand final : public Subcommand {
     FF_RETURN_IF_ERROR(ParseWholeIfGiven(kWorkersFlag, workers_, &options_.workers));
     FF_RETURN_IF_ERROR(ParseWholeIfGiven(kAttemptsFlag, attempts_, &options_.max_attempts));
     FF_RETURN_IF_ERROR(ParseWholeIfGiven(kDigitsFlag, digits_, &options_.digits));
+    FF_RETURN_IF_ERROR(ParseMemoryCapIfGiven(memory_cap_, &options_.memory_cap));
     if (part_given()) {
       Result<PartNumber> p = ParsePartNumber(part_, "--part");
       if (!p.ok()) return p.status();
@@ -91,6 +110,7 @@ class RunSubcommand final : public Subcommand {
   std::string time_limit_;  // --shard-time-limit as typed ("" = none)
   std::string digits_;      // --digits as typed ("" = every digit)
   std::string part_;        // --part as typed ("" = the whole job)
+  std::string memory_cap_;  // --memory-cap as typed ("" = the job's, else the default)
   StderrFlags stderr_;      // --progress, --progress-every, --log-level
   CLI::Option* part_option_ = nullptr;
   bool part_given() const { return part_option_ != nullptr && part_option_->count() > 0; }
@@ -109,12 +129,14 @@ class SavedRunSubcommand final : public Subcommand {
     cmd->add_option("--shard-time-limit", time_limit_,
                     "kill and retry a shard's worker after this many seconds (default: what the run used)");
     cmd->add_option("--digits", digits_, kDigitsHelp);
+    cmd->add_option("--memory-cap", memory_cap_, kMemoryCapHelp);
     cmd->add_flag("-q,--quiet", options_.quiet, "print nothing on stderr but errors");
     AddStderrFlags(cmd, &stderr_, /*with_progress=*/true);
   }
   Status CheckFlags() override {
     FF_RETURN_IF_ERROR(ApplyStderrFlags(stderr_, options_.quiet, &options_));
     FF_RETURN_IF_ERROR(ParseWholeIfGiven(kDigitsFlag, digits_, &options_.digits));
+    FF_RETURN_IF_ERROR(ParseMemoryCapIfGiven(memory_cap_, &options_.memory_cap));
     options_.max_attempts = kAttemptsOfTheRun;
     FF_RETURN_IF_ERROR(ParseWholeIfGiven(kAttemptsFlag, attempts_, &options_.max_attempts));
     options_.shard_time_limit_ms = kTimeLimitOfTheRun;
@@ -129,6 +151,7 @@ class SavedRunSubcommand final : public Subcommand {
   std::string time_limit_;  // --shard-time-limit as typed ("" = what the run used)
   std::string workers_;  // -j/--workers as typed ("" = one per core)
   std::string digits_;   // --digits as typed ("" = every digit)
+  std::string memory_cap_;  // --memory-cap as typed ("" = the job's, else the default)
   StderrFlags stderr_;   // --progress, --progress-every, --log-level
 };
 
@@ -144,11 +167,13 @@ class MergeSubcommand final : public Subcommand {
                     "directory recording the merged run (default: fanfold-runs/<job name>)");
     cmd->add_flag("--fresh", options_.run.fresh, "replace an earlier run in that directory");
     cmd->add_option("--digits", digits_, kDigitsHelp);
+    cmd->add_option("--memory-cap", memory_cap_, kMemoryCapHelp);
     cmd->add_flag("-q,--quiet", options_.run.quiet, "print nothing on stderr but errors");
     AddStderrFlags(cmd, &stderr_, /*with_progress=*/false);
   }
   Status CheckFlags() override {
     FF_RETURN_IF_ERROR(ApplyStderrFlags(stderr_, options_.run.quiet, &options_.run));
+    FF_RETURN_IF_ERROR(ParseMemoryCapIfGiven(memory_cap_, &options_.run.memory_cap));
     return ParseWholeIfGiven(kDigitsFlag, digits_, &options_.run.digits);
   }
   CommandOutcome Run() override { return MergeParts(options_); }
@@ -156,6 +181,7 @@ class MergeSubcommand final : public Subcommand {
  private:
   MergeOptions options_;  // what MergeParts gets
   std::string digits_;    // --digits as typed ("" = every digit)
+  std::string memory_cap_;  // --memory-cap as typed ("" = the job's, else the default)
   StderrFlags stderr_;    // --log-level
 };
 
@@ -181,11 +207,13 @@ class ScaleSubcommand final : public Subcommand {
     cmd->add_option("--repeat", repeat_, "timed runs per worker count; the median is reported (default 1)");
     cmd->add_option("--json", options_.json_path, "also write the measurements as JSON (for fanfold report --scale)");
     cmd->add_option("--html", options_.html_path, "also write an HTML page with the scaling chart");
+    cmd->add_option("--memory-cap", memory_cap_, kMemoryCapHelp);
     cmd->add_flag("-q,--quiet", options_.quiet, "print nothing on stderr but errors");
     AddStderrFlags(cmd, &stderr_, /*with_progress=*/false);
   }
   Status CheckFlags() override {
     FF_RETURN_IF_ERROR(ApplyStderrFlags(stderr_, options_.quiet, nullptr));
+    FF_RETURN_IF_ERROR(ParseMemoryCapIfGiven(memory_cap_, &options_.memory_cap));
     if (workers_.empty()) workers_ = DefaultWorkerCounts();
     Result<std::vector<int64_t>> counts = ParseWholeListFlag(kScaleWorkersFlag, workers_);
     if (!counts.ok()) return counts.status();
@@ -206,6 +234,7 @@ class ScaleSubcommand final : public Subcommand {
   ScaleOptions options_;  // what ScaleJob gets; CLI11 fills its text and switch fields
   std::string workers_;   // --workers as typed ("" = powers of two up to the cores)
   std::string repeat_;    // --repeat as typed ("" = 1)
+  std::string memory_cap_;  // --memory-cap as typed ("" = the job's, else the default)
   StderrFlags stderr_;    // --log-level
 };
 

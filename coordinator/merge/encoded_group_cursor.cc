@@ -5,10 +5,15 @@
 namespace fanfold {
 
 EncodedGroupCursor::EncodedGroupCursor(std::string_view encoded, size_t measure_count)
-    : r_(encoded), m_(measure_count), states_(measure_count) {
+    : r_(encoded), size_(encoded.size()), m_(measure_count), states_(measure_count) {
   // Each group needs at least a key length byte and m state length bytes.
   count_ = r_.Count(1 + m_);
   if (!r_.ok()) (void)Fail("group count larger than the encoding");
+}
+
+EncodedGroupCursor::EncodedGroupCursor(std::string_view body, size_t measure_count, uint64_t count)
+    : r_(body), size_(body.size()), m_(measure_count), count_(count), states_(measure_count) {
+  if (m_ + 1 > 0 && count_ > body.size() / (1 + m_)) (void)Fail("group count larger than the encoding");
 }
 
 bool EncodedGroupCursor::Fail(const std::string& what) {

@@ -23,6 +23,9 @@ class EncodedGroupCursor {
  public:
   // measure_count: states per group (the reduction's measure count).
   EncodedGroupCursor(std::string_view encoded, size_t measure_count);
+  // A body without its leading count (a piece of a run,
+  // coordinator/merge/run_cursor.h): `count` groups, framed as above.
+  EncodedGroupCursor(std::string_view body, size_t measure_count, uint64_t count);
 
   // Moves to the next group. Returns true iff there is one; false at the
   // end of a well-formed encoding (status() ok) or at the first framing
@@ -36,16 +39,22 @@ class EncodedGroupCursor {
   // REQUIRES: the last Next() or SeekAtLeast() returned true.
   std::string_view key() const { return key_; }
   std::string_view state(size_t j) const { return states_[j]; }
+  // The key of the last group read, also once Next() returned false at
+  // the end. REQUIRES: groups_read() > 0.
+  std::string_view last_key() const { return key_; }
 
   const Status& status() const { return status_; }
   uint64_t group_count() const { return count_; }  // as encoded
   uint64_t groups_read() const { return read_; }   // Next() calls that returned true
   bool positioned() const { return positioned_; }  // a group is current
+  // Bytes of the encoding read so far (the current group's included).
+  uint64_t consumed() const { return size_ - r_.remaining(); }
 
  private:
   bool Fail(const std::string& what);
 
   ByteReader r_;
+  size_t size_;
   size_t m_;
   uint64_t count_ = 0;
   uint64_t read_ = 0;

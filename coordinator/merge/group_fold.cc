@@ -5,6 +5,7 @@
 
 #include "common/base/byte_io.h"
 #include "coordinator/merge/encoded_group_cursor.h"
+#include "coordinator/merge/run_cursor.h"
 
 namespace fanfold {
 namespace {
@@ -12,7 +13,7 @@ namespace {
 // Input i of the fold: 0 is the base run (when there is one), then the
 // partials in shard order. The merge order of equal keys is this index.
 struct Source {
-  EncodedGroupCursor cursor;
+  RunCursor cursor;
   size_t partial;  // index in FoldInputs::partials, or FoldOutcome::kNoPartial for the base
 };
 
@@ -43,13 +44,19 @@ GroupFold::GroupFold(const std::vector<MeasureConfig>* configs) : configs_(confi
   }
 }
 
-FoldOutcome GroupFold::FoldRange(const FoldInputs& in, const KeyRange& range, std::string* out) {
+// The fold's base run as a cursor, or nothing.
+bool HasBase(const FoldInputs& in) { return !in.base_pieces.empty() || !in.base.empty(); }
+RunCursor BaseCursor(const FoldInputs& in, size_t m) {
+  return in.base_pieces.empty() ? RunCursor(in.base, m) : RunCursor(in.base_pieces, m);
+}
+
+FoldOutcome GroupFold::FoldRange(const FoldInputs& in, const KeyRange& range, std::string* out, const Drain* drain) {
   const size_t m = configs_->size();
   std::vector<Source> sources;
   sources.reserve(in.partials.size() + 1);
-  if (!in.base.empty()) sources.push_back({EncodedGroupCursor(in.base, m), FoldOutcome::kNoPartial});
-  for (size_t p = 0; p < in.partials.size(); ++p) sources.push_back({EncodedGroupCursor(in.partials[p], m), p});
-  const auto in_range = [&](const EncodedGroupCursor& c) { return !range.bounded || c.key() < range.hi; };
+  if (HasBase(in)) sources.push_back({BaseCursor(in, m), FoldOutcome::kNoPartial});
+  for (size_t p = 0; p < in.partials.size(); ++p) sources.push_back({RunCursor(in.partials[p], m), p});
+  const auto in_range = [&](const RunCursor& c) { return !range.bounded || c.key() < range.hi; };
   // The heap holds the sources positioned on a key in range, smallest key
   // on top, equal keys in source order (base, then shard order).
   std::vector<size_t> heap;
@@ -58,7 +65,8 @@ FoldOutcome GroupFold::FoldRange(const FoldInputs& in, const KeyRange& range, st
     return c > 0 || (c == 0 && a > b);
   };
   for (size_t i = 0; i < sources.size(); ++i) {
-    EncodedGroupCursor& c = sources[i].cursor;
+    RunCursor& c = sources[i].cursor;
+    if (!c.status().ok()) return CursorFailed(sources[i]);
     if (c.SeekAtLeast(range.lo)) {
       if (in_range(c)) heap.push_back(i);
     } else if (!c.status().ok()) {
@@ -112,8 +120,12 @@ FoldOutcome GroupFold::FoldRange(const FoldInputs& in, const KeyRange& range, st
       }
     }
     ++outcome.groups;
+    if (drain != nullptr && *drain && out->size() >= kDrainBytes) {
+      Status s = (*drain)(out);
+      if (!s.ok()) return Failed(std::move(s), FoldOutcome::kNoPartial);
+    }
     for (size_t i : holders) {
-      EncodedGroupCursor& c = sources[i].cursor;
+      RunCursor& c = sources[i].cursor;
       if (c.Next()) {
         if (in_range(c)) {
           heap.push_back(i);
@@ -124,22 +136,27 @@ FoldOutcome GroupFold::FoldRange(const FoldInputs& in, const KeyRange& range, st
       }
     }
   }
+  if (drain != nullptr && *drain && !out->empty()) {
+    Status s = (*drain)(out);
+    if (!s.ok()) return Failed(std::move(s), FoldOutcome::kNoPartial);
+  }
   return outcome;
 }
 
 std::vector<std::string> SplitKeys(const FoldInputs& in, size_t measure_count, size_t parts) {
-  std::string_view largest = in.base;
-  uint64_t most = in.base.empty() ? 0 : EncodedGroupCursor(in.base, measure_count).group_count();
-  for (std::string_view p : in.partials) {
-    const uint64_t n = EncodedGroupCursor(p, measure_count).group_count();
+  const size_t none = SIZE_MAX;
+  size_t largest = none;  // index in in.partials, or none for the base
+  uint64_t most = HasBase(in) ? BaseCursor(in, measure_count).group_count() : 0;
+  for (size_t i = 0; i < in.partials.size(); ++i) {
+    const uint64_t n = EncodedGroupCursor(in.partials[i], measure_count).group_count();
     if (n > most) {
       most = n;
-      largest = p;
+      largest = i;
     }
   }
   std::vector<std::string> cuts;
   if (parts < 2 || most < 2) return cuts;
-  EncodedGroupCursor c(largest, measure_count);
+  RunCursor c = largest == none ? BaseCursor(in, measure_count) : RunCursor(in.partials[largest], measure_count);
   for (size_t part = 1; part < parts; ++part) {
     const uint64_t at = most * part / parts;  // the cut's group index, ascending
     while (c.groups_read() <= at)
@@ -149,29 +166,49 @@ std::vector<std::string> SplitKeys(const FoldInputs& in, size_t measure_count, s
   return cuts;
 }
 
-FoldOutcome FoldEncoded(const std::vector<MeasureConfig>* configs, const FoldInputs& in, size_t threads,
-                        std::string* out) {
+std::vector<KeyRange> CutRanges(const FoldInputs& in, size_t measure_count, size_t threads) {
   std::vector<KeyRange> ranges(1);
   if (threads > 1) {
-    for (std::string& cut : SplitKeys(in, configs->size(), threads)) {
+    for (std::string& cut : SplitKeys(in, measure_count, threads)) {
       ranges.back().hi = cut;
       ranges.back().bounded = true;
       ranges.push_back(KeyRange{std::move(cut), "", false});
     }
   }
-  std::vector<std::string> parts(ranges.size());
+  return ranges;
+}
+
+FoldOutcome FoldRanges(const std::vector<MeasureConfig>* configs, const FoldInputs& in,
+                       const std::vector<KeyRange>& ranges, const std::vector<std::string*>& outs,
+                       const std::vector<GroupFold::Drain>& drains, std::vector<uint64_t>* groups) {
   std::vector<FoldOutcome> outcomes(ranges.size());
-  const auto fold = [&](size_t i) { outcomes[i] = GroupFold(configs).FoldRange(in, ranges[i], &parts[i]); };
+  const auto fold = [&](size_t i) {
+    outcomes[i] = GroupFold(configs).FoldRange(in, ranges[i], outs[i], i < drains.size() ? &drains[i] : nullptr);
+  };
   {
     std::vector<std::jthread> running;
     for (size_t i = 1; i < ranges.size(); ++i) running.emplace_back(fold, i);
     fold(0);
   }
   FoldOutcome total;
+  groups->clear();
   for (FoldOutcome& o : outcomes) {  // the lowest range's failure: the same whatever the thread count
     if (!o.status.ok()) return std::move(o);
     total.groups += o.groups;
+    groups->push_back(o.groups);
   }
+  return total;
+}
+
+FoldOutcome FoldEncoded(const std::vector<MeasureConfig>* configs, const FoldInputs& in, size_t threads,
+                        std::string* out) {
+  const std::vector<KeyRange> ranges = CutRanges(in, configs->size(), threads);
+  std::vector<std::string> parts(ranges.size());
+  std::vector<std::string*> outs;
+  for (std::string& p : parts) outs.push_back(&p);
+  std::vector<uint64_t> groups;
+  FoldOutcome total = FoldRanges(configs, in, ranges, outs, {}, &groups);
+  if (!total.status.ok()) return total;
   out->clear();
   ByteWriter w(out);
   w.Varint(total.groups);

@@ -18,6 +18,7 @@
 #pragma once
 
 #include <cstdint>
+#include <functional>
 #include <memory>
 #include <string>
 #include <string_view>
@@ -25,6 +26,7 @@
 
 #include "common/base/status.h"
 #include "common/measures/measure.h"
+#include "coordinator/merge/run_cursor.h"
 
 namespace fanfold {
 
@@ -33,6 +35,9 @@ struct FoldInputs {
   // GroupTable::Encode), or empty when there is none yet (an encoding is
   // never empty: it holds at least its group count).
   std::string_view base;
+  // Or, when not empty, the run so far as pieces (a run a fold wrote over
+  // key ranges, in memory or spilled): base is then ignored.
+  std::vector<RunPiece> base_pieces;
   // Partials' group-table encodings (one reduction each), in shard order.
   std::vector<std::string_view> partials;
 };
@@ -63,7 +68,13 @@ class GroupFold {
   // Appends the groups of `in` whose keys lie in `range`, folded, to *out in
   // ascending key order: per group its key and states, framed as in a
   // GroupTable encoding but without the leading group count.
-  FoldOutcome FoldRange(const FoldInputs& in, const KeyRange& range, std::string* out);
+  // With `drain`, it is called whenever *out holds kDrainBytes or more
+  // (and once at the end): it writes *out somewhere and clears it; a drain
+  // failure ends the fold (kNoPartial).
+  using Drain = std::function<Status(std::string* out)>;
+  static constexpr size_t kDrainBytes = size_t{256} << 10;
+  FoldOutcome FoldRange(const FoldInputs& in, const KeyRange& range, std::string* out,
+                        const Drain* drain = nullptr);
 
  private:
   const std::vector<MeasureConfig>* configs_;
@@ -78,6 +89,18 @@ class GroupFold {
 // state). Fewer come back when that input has fewer groups, or bad framing
 // before a cut (which the fold then reports, naming the input).
 std::vector<std::string> SplitKeys(const FoldInputs& in, size_t measure_count, size_t parts);
+
+// The key ranges FoldEncoded folds at once: one, or up to `threads` cut by
+// SplitKeys.
+std::vector<KeyRange> CutRanges(const FoldInputs& in, size_t measure_count, size_t threads);
+
+// Folds range i into *outs[i] (appending its groups, without a count) with
+// drains[i] (may be null, or empty), ranges 1.. on their own threads. On
+// success outcome.groups is the total and groups[i] each range's. On
+// failure, the lowest range's (the same whatever the thread count).
+FoldOutcome FoldRanges(const std::vector<MeasureConfig>* configs, const FoldInputs& in,
+                       const std::vector<KeyRange>& ranges, const std::vector<std::string*>& outs,
+                       const std::vector<GroupFold::Drain>& drains, std::vector<uint64_t>* groups);
 
 // The whole fold into *out (replacing it) as a GroupTable encoding, over
 // `threads` key ranges folded at once (1 = in this thread).

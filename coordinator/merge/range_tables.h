@@ -73,6 +73,7 @@ class RangeTables {
 
   size_t group_count() const;
   size_t range_count() const { return tables_.size(); }
+  size_t measure_count() const { return configs_->size(); }
   // Range i's table (its keys lie in range i only).
   const GroupTable& table(size_t i) const { return tables_[i]; }
   // The states of `key`'s group in its range's table, created if new.

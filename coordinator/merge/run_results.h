@@ -5,8 +5,10 @@
 // key ranges, keeping each key's left fold in shard order, so the runs
 // are byte for byte what the in-memory tables would encode. A partial the
 // fold finds bad is dropped and the batch folded again without it; the
-// runs only change when a whole batch folded. Owned by the coordinator's
-// Merger; not thread-safe (Fold uses its own threads inside).
+// runs only change when a whole batch folded. The runs stay in memory while
+// they fit the merge's memory share; past it (with a spill folder) every
+// fold writes them to files there (MergeMemory below). Owned by the
+// coordinator's Merger; not thread-safe (Fold uses its own threads inside).
 #pragma once
 
 #include <cstdint>
@@ -19,13 +21,29 @@
 #include "common/job/plan.h"
 #include "common/partial/group_table.h"
 #include "common/partial/partial_codec.h"
+#include "coordinator/merge/group_fold.h"
+#include "coordinator/merge/run_cursor.h"
+#include "coordinator/merge/spill_folder.h"
+#include "coordinator/merge/stored_run.h"
 
 namespace fanfold {
+
+// What the runs may hold in memory. A fold holds the old runs, the pending
+// batch's partials and the new runs at once, so the new runs are written
+// to spill files once twice the old runs' and the batch's bytes would pass
+// merge_bytes (and from then on: runs only grow); a batch is folded once
+// its bodies reach a quarter of merge_bytes (or kMaxBatchBytes), at least
+// one partial. Without a spill folder the runs stay in memory.
+struct MergeMemory {
+  static constexpr uint64_t kDefaultMergeBytes = uint64_t{256} << 20;
+  uint64_t merge_bytes = kDefaultMergeBytes;
+  SpillFolder* spill = nullptr;  // REQUIRES: outlives the RunResults
+};
 
 class RunResults {
  public:
   // REQUIRES: plan outlives this; threads >= 1 (key ranges per fold).
-  RunResults(const Plan* plan, size_t threads);
+  RunResults(const Plan* plan, size_t threads, MergeMemory memory = {});
 
   // Starts reduction r's run from its in-memory table (its Encode).
   void Start(size_t r, const GroupTable& table);
@@ -55,14 +73,28 @@ class RunResults {
   // Folds the pending batch into the runs and empties it.
   Folded Fold();
 
-  // Reduction r's run (a group-table encoding).
-  const std::string& run(size_t r) const { return runs_[r]; }
+  // Walks reduction r's run: its groups in ascending key order, each key's
+  // states as the in-memory table would encode them. Valid while this
+  // RunResults lives and no Fold runs.
+  RunCursor Cursor(size_t r) const { return RunCursor(runs_[r]->pieces(), plan_->reductions[r].configs.size()); }
   uint64_t run_groups() const { return run_groups_; }
+  // The runs' bytes, over every reduction, and whether they are in files.
+  uint64_t run_bytes() const;
+  bool spilled() const { return !runs_.empty() && runs_[0] && runs_[0]->spilled(); }
+  uint64_t folds() const { return folds_; }
 
  private:
+  // True iff the next fold writes its runs to spill files.
+  bool ShouldSpill() const;
+  // Folds reduction r's run with the batch into *next (in memory or, with
+  // spill, in files named after `end`, the batch's last shard + 1).
+  FoldOutcome FoldOne(size_t r, bool spill, uint32_t end, std::unique_ptr<StoredRun>* next);
+
   const Plan* plan_;
   size_t threads_;
-  std::vector<std::string> runs_;  // per reduction
+  MergeMemory memory_;
+  uint64_t folds_ = 0;
+  std::vector<std::unique_ptr<StoredRun>> runs_;  // per reduction
   uint64_t run_groups_ = 0;        // over every reduction
   std::vector<std::pair<uint32_t, std::unique_ptr<OpenedPartial>>> batch_;
   uint64_t batch_groups_ = 0;

@@ -5,6 +5,7 @@
 
 #include "common/partial/group_key.h"
 #include "coordinator/merge/encoded_group_cursor.h"
+#include "coordinator/merge/run_cursor.h"
 
 namespace fanfold {
 namespace {
@@ -88,6 +89,13 @@ void Merger::Drain() {
     if (s.ok() && p.reductions.size() != results_.size())
       s = Status::Corrupt("partial state has " + std::to_string(p.reductions.size()) + " reductions; the plan has " +
                           std::to_string(results_.size()));
+    // By the share: a partial whose groups, were they all new, would take
+    // the tables past half of it moves the results to runs first (its
+    // group count is in its encoding; telling new groups from old would
+    // take a lookup each).
+    if (s.ok() && !runs_ && run_threshold_ == kRunsByBudget &&
+        EstimatedTableBytes() + EstimatedTableBytes(p) > std::min(memory_.merge_bytes / 2, kTableCeilingBytes))
+      StartRuns();
     if (s.ok() && runs_) {  // the fold checks it, and drops it if bad
       runs_->Add(next_, std::move(opened));
       ++next_;
@@ -128,11 +136,11 @@ void Merger::Drain() {
     }
     Account(next_, p);
     ++next_;
-    // Checked after merging (a table may pass the threshold by one
-    // partial's new groups): before, a partial's groups cannot be told
+    // The test-only threshold is checked after merging (a table may pass
+    // it by one partial's new groups): before, a partial's groups cannot be told
     // new from old without looking each up, and many shards over the same
     // keys must stay on the faster tables.
-    for (size_t r = 0; r < results_.size() && !runs_ && run_threshold_ > 0; ++r)
+    for (size_t r = 0; r < results_.size() && !runs_ && run_threshold_ > 0 && run_threshold_ != kRunsByBudget; ++r)
       if (results_[r].table.group_count() > run_threshold_) StartRuns();
   }
   if (runs_ && next_ == shard_count_ && runs_->pending()) FoldRuns();
@@ -160,8 +168,24 @@ void Merger::Account(uint32_t shard, OpenedPartial& p) {
     if (samples_.size() < kMaxReportedSamples) samples_.push_back({shard, std::move(sample)});
 }
 
+uint64_t Merger::EstimatedTableBytes() const {
+  uint64_t bytes = 0;
+  for (const ReductionResult& r : results_)
+    bytes += r.table.group_count() * (kTableBytesPerGroup + kTableBytesPerState * r.table.measure_count());
+  return bytes;
+}
+
+uint64_t Merger::EstimatedTableBytes(const OpenedPartial& p) const {
+  uint64_t bytes = 0;
+  for (size_t r = 0; r < results_.size() && r < p.reductions.size(); ++r) {
+    const uint64_t m = results_[r].table.measure_count();
+    bytes += EncodedGroupCursor(p.reductions[r].groups, m).group_count() * (kTableBytesPerGroup + kTableBytesPerState * m);
+  }
+  return bytes;
+}
+
 void Merger::StartRuns() {
-  runs_ = std::make_unique<RunResults>(plan_, run_threads_);
+  runs_ = std::make_unique<RunResults>(plan_, run_threads_, memory_);
   for (size_t r = 0; r < results_.size(); ++r) {
     std::string run;
     ByteWriter w(&run);
@@ -253,7 +277,7 @@ Result<OutputTable> Merger::FinishFromRun(size_t r) {
   for (const MeasureConfig& c : plan.configs) states.push_back(NewMeasureState(c));
   // The run holds each group's states as the in-memory table would encode
   // them; decoded one group at a time, they finalize to the same cells.
-  EncodedGroupCursor groups(runs_->run(r), states.size());
+  RunCursor groups = runs_->Cursor(r);
   t.rows.reserve(groups.group_count());
   while (groups.Next()) {
     std::vector<Cell> row;

@@ -2,12 +2,14 @@
 // shard-index order, whatever order they arrive in, so floating-point
 // results are identical for any worker count or schedule. Partials that
 // arrive early wait (as bytes) until every lower shard is merged or marked
-// failed. The result is an in-memory GroupTable per reduction until one
-// passes the run threshold, then key-sorted runs folded in batches
+// failed. The result is an in-memory GroupTable per reduction while the
+// tables fit half the merge's memory share (SetMemory), then key-sorted
+// runs folded in batches, in spill files past the share
 // (docs/streaming-merge.md): the same bytes either way. Owned and driven
 // by the coordinator's run loop; not thread-safe.
 #pragma once
 
+#include <algorithm>
 #include <cstdint>
 #include <functional>
 #include <map>
@@ -79,17 +81,29 @@ class Merger {
   using Reloader = std::function<Status(uint32_t shard, std::string* out)>;
   void SetReloader(Reloader reload) { reload_ = std::move(reload); }
 
-  // Once any reduction's table holds more than `groups` groups (checked
-  // after each partial), every reduction's result moves to a key-sorted run
-  // folded batch by batch over `threads` key ranges
-  // (coordinator/merge/run_results.h): the same bytes in a fraction of the
-  // memory. 0 keeps the tables whatever their size.
+  // The merge's memory share and where runs that do not fit it go (the
+  // run directory's spill folder; null keeps them in memory). The results
+  // stay in-memory tables while their estimated size (EstimatedTableBytes)
+  // would stay at most half the share, and at most kTableCeilingBytes,
+  // with the next partial's groups all new, then move to key-sorted runs folded batch
+  // by batch (coordinator/merge/run_results.h): the same bytes in a
+  // fraction of the memory; runs past the share go to spill files.
   // REQUIRES: called before the first Add.
-  static constexpr uint64_t kDefaultRunThreshold = 100'000;
+  void SetMemory(MergeMemory memory) { memory_ = memory; }
+  // Tests only (FANFOLD_TEST_ONLY_MERGE_RUNS): once any reduction's table
+  // holds more than `groups` groups (checked after each partial) the
+  // results move to runs, whatever the share; 0 keeps the tables whatever
+  // their size; kRunsByBudget keeps the share's rule. Runs are folded over
+  // `threads` key ranges. REQUIRES: called before the first Add.
+  static constexpr uint64_t kRunsByBudget = UINT64_MAX;
   void SetRunThreshold(uint64_t groups, size_t threads) {
     run_threshold_ = groups;
     run_threads_ = threads;
   }
+  // The runs' key ranges per fold (SetThreads / SetRunThreshold), lowered
+  // to at most `threads` (at least 1), e.g. to fit the merge's share.
+  size_t run_threads() const { return run_threads_; }
+  void LimitRunThreads(size_t threads) { run_threads_ = std::max<size_t>(1, std::min(run_threads_, threads)); }
   // Threads that merge each partial (tables: one key range each,
   // coordinator/merge/range_tables.h; runs: the fold's key ranges, unless
   // SetRunThreshold says otherwise). The bytes do not depend on it.
@@ -101,8 +115,24 @@ class Merger {
   // Reduction r's in-memory tables (while !in_runs()), e.g. for per-range counts.
   const RangeTables& tables(size_t r) const { return results_[r].table; }
 
+  // The in-memory tables' size, estimated (not measured): per group a
+  // fixed cost for its key's entry and bytes, and one per measure state.
+  static constexpr uint64_t kTableBytesPerGroup = 96;
+  static constexpr uint64_t kTableBytesPerState = 80;
+  // Past this estimate the runs are no slower than the tables, and far
+  // smaller (measured: docs/streaming-merge.md), whatever the share.
+  static constexpr uint64_t kTableCeilingBytes = uint64_t{64} << 20;
+  uint64_t EstimatedTableBytes() const;
+  // What p's groups would add to it, were they all new.
+  uint64_t EstimatedTableBytes(const OpenedPartial& p) const;
   // True iff the results moved to runs.
   bool in_runs() const { return runs_ != nullptr; }
+  // The runs, once in_runs(): their size, whether spilled, how many folds.
+  const RunResults* runs() const { return runs_.get(); }
+  // Walks reduction r's finished groups in ascending key order (each
+  // key's states as encoded bytes, one per measure), for a streaming output
+  // stage. REQUIRES: complete(), in_runs(); valid while the merger lives.
+  RunCursor FinalGroups(size_t r) const { return runs_->Cursor(r); }
 
   // True iff every shard was added or marked failed.
   bool complete() const { return next_ == shard_count_; }
@@ -154,7 +184,8 @@ class Merger {
   std::vector<MalformedReport> samples_;
   std::vector<std::pair<uint32_t, std::string>> late_failures_;
   Status fatal_;  // first merge failure (a limit exceeded across shards)
-  uint64_t run_threshold_ = kDefaultRunThreshold;
+  uint64_t run_threshold_ = kRunsByBudget;
+  MergeMemory memory_;
   size_t run_threads_ = DefaultThreads();
   std::unique_ptr<RunResults> runs_;  // set once the results moved to runs
 };

@@ -10,6 +10,7 @@
 #include <unordered_set>
 
 
+#include "common/base/byte_size.h"
 #include "common/base/cell_text.h"
 #include "common/port/clock.h"
 #include "common/port/file_util.h"
@@ -57,13 +58,16 @@ Status WriteOutput(const std::string& path, const std::string& text) {
 
 // FANFOLD_TEST_ONLY_MERGE_RUNS=GROUPS[:THREADS] (tests only, never for
 // users): the merger moves its results to sorted runs past GROUPS groups and
-// folds them over THREADS key ranges, so small test jobs take that path.
-Status ApplyTestOnlyMergeRuns(Merger* merger) {
+// folds them over THREADS key ranges, so small test jobs take that path;
+// GROUPS "cap" keeps the memory share's rule (with THREADS ranges).
+Status ApplyTestOnlyMergeRuns(Merger* merger, size_t* threads_out) {
   const char* sw = std::getenv("FANFOLD_TEST_ONLY_MERGE_RUNS");
   if (sw == nullptr || *sw == '\0') return Status::Ok();
   const std::string text(sw);
   char* end = nullptr;
-  const uint64_t groups = std::strtoull(text.c_str(), &end, 10);
+  const bool by_cap = text.rfind("cap", 0) == 0;
+  const uint64_t groups = by_cap ? Merger::kRunsByBudget : std::strtoull(text.c_str(), &end, 10);
+  if (by_cap) end = const_cast<char*>(text.c_str()) + 3;
   uint64_t threads = 1;
   if (end != text.c_str() && *end == ':') {
     const char* t = end + 1;
@@ -71,9 +75,10 @@ Status ApplyTestOnlyMergeRuns(Merger* merger) {
     if (end == t || threads < 1 || threads > 64) end = nullptr;
   }
   if (end == nullptr || end == text.c_str() || *end != '\0')
-    return Status::InvalidArgument("FANFOLD_TEST_ONLY_MERGE_RUNS: expected GROUPS or GROUPS:THREADS (1 to 64), found '" +
+    return Status::InvalidArgument("FANFOLD_TEST_ONLY_MERGE_RUNS: expected GROUPS or GROUPS:THREADS (1 to 64; GROUPS \"cap\": by the memory cap), found '" +
                                    text + "'");
   merger->SetRunThreshold(groups, static_cast<size_t>(threads));
+  *threads_out = static_cast<size_t>(threads);
   return Status::Ok();
 }
 
@@ -92,10 +97,10 @@ Status ApplyTestOnlyMergeThreads(Merger* merger) {
   return Status::Ok();
 }
 
-// FANFOLD_TEST_ONLY_WORKER_TABLE_BYTES=BYTES (tests only; the integrator
-// wires the memory budget's share here): every task tells its worker to keep
-// its group tables within BYTES, so small test jobs take the overflow path
-// (common/partial/table_overflow.h). Unset: 0, the worker's default.
+// FANFOLD_TEST_ONLY_WORKER_TABLE_BYTES=BYTES (tests only): every task tells
+// its worker to keep its group tables within BYTES instead of the memory
+// cap's worker share, so small test jobs take the overflow path
+// (common/partial/table_overflow.h). Unset: 0, the share.
 Result<uint64_t> TestOnlyWorkerTableBytes() {
   const char* sw = std::getenv("FANFOLD_TEST_ONLY_WORKER_TABLE_BYTES");
   if (sw == nullptr || *sw == '\0') return uint64_t{0};
@@ -122,6 +127,8 @@ RunEngine::RunEngine(const RunInput& in, const RunOptions& o)
 
 CommandOutcome RunEngine::Execute() {
   CommandOutcome out;
+  out.status = Budget();
+  if (!out.status.ok()) return out;
   Prepare();
   out.status = Reload();
   if (out.status.ok()) out.status = Run();
@@ -161,9 +168,30 @@ void RunEngine::Prepare() {
   workers_ = std::max(1, std::min<int>(asked, static_cast<int>(in_.pending.size())));
 }
 
+Status RunEngine::Budget() {
+  FF_RETURN_IF_ERROR(ApplyTestOnlyMergeThreads(&merger_));  // first: it resets the runs' key ranges too
+  size_t threads = merger_.run_threads();
+  FF_RETURN_IF_ERROR(ApplyTestOnlyMergeRuns(&merger_, &threads));
+  // The cap must hold one key range's buffers; the runs' fold takes as many
+  // ranges (up to the merge threads) as the merge share holds (the bytes do
+  // not depend on the number of ranges).
+  Result<MemoryShares> shares = ResolveMemoryCap(options_.memory_cap, plan_, 1);
+  if (!shares.ok()) return shares.status();
+  shares_ = *shares;
+  while (threads > 1 && MinimumMergeBytes(plan_, threads) > shares_.merge_bytes) --threads;
+  merger_.LimitRunThreads(threads);
+  Result<std::unique_ptr<SpillFolder>> spill =
+      SpillFolder::Open((std::filesystem::path(dir_.path()) / SpillFolder::kName).string());
+  if (!spill.ok()) return spill.status();
+  spill_ = std::move(*spill);
+  merger_.SetMemory(MergeMemory{shares_.merge_bytes, spill_.get()});
+  LogDebug("memory cap " + ByteSizeText(shares_.cap) + " from " + shares_.source + ": merge " +
+           ByteSizeText(shares_.merge_bytes) + ", output " + ByteSizeText(shares_.sort_bytes) + ", worker table " +
+           ByteSizeText(shares_.worker_table_bytes));
+  return Status::Ok();
+}
+
 Status RunEngine::Reload() {
-  FF_RETURN_IF_ERROR(ApplyTestOnlyMergeThreads(&merger_));  // first: it resets the runs' threads too
-  FF_RETURN_IF_ERROR(ApplyTestOnlyMergeRuns(&merger_));
   for (uint32_t s : in_.reused) {
     std::string bytes;
     PartialHeader h;
@@ -203,7 +231,7 @@ Status RunEngine::Run() {
   RunLoopOptions lo;
   Result<uint64_t> table_bytes = TestOnlyWorkerTableBytes();
   if (!table_bytes.ok()) return table_bytes.status();
-  lo.worker_table_bytes = *table_bytes;
+  lo.worker_table_bytes = *table_bytes > 0 ? *table_bytes : shares_.worker_table_bytes;
   lo.max_attempts = options_.max_attempts;
   lo.shard_time_limit_ms = options_.shard_time_limit_ms;
   lo.should_stop = [] { return SignalGuard::interrupted(); };
@@ -235,7 +263,11 @@ Status RunEngine::Commit(const Status& run) {
 }
 
 void RunEngine::Tally() {
-  if (merger_.in_runs()) LogDebug("merge: the results were folded as sorted runs (docs/streaming-merge.md)");
+  if (const RunResults* runs = merger_.runs())
+    LogDebug(std::string("merge: the results were folded as sorted runs (docs/streaming-merge.md), ") +
+             std::to_string(runs->folds()) + " folds" +
+             (spill_->bytes_written() > 0 ? ", " + ByteSizeText(spill_->bytes_written()) + " written to spill files"
+                                          : ", in memory"));
   LogDebug("merge: coordinator peak RSS before the output stage: " +
            std::to_string(PeakRssBytes() >> 20) + " MiB");
   for (const auto& [shard, message] : merger_.late_failures())
@@ -249,6 +281,12 @@ void RunEngine::Tally() {
   summary_.wall_seconds = ElapsedSeconds();
   summary_.peak_rss = PeakRssBytes();
   summary_.peak_worker_rss = PeakChildRssBytes();
+  summary_.memory_cap = shares_.cap;
+  summary_.memory_cap_from = shares_.source;
+  summary_.merge_spilled_bytes = spill_->bytes_written();
+  summary_.merge_held = !merger_.in_runs()                ? "tables"
+                        : summary_.merge_spilled_bytes > 0 ? "spilled runs"
+                                                           : "runs in memory";
 }
 
 Status RunEngine::Stop() {

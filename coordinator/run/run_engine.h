@@ -18,6 +18,8 @@
 #include "coordinator/run/run_options.h"
 #include "coordinator/output/output_table.h"
 #include "coordinator/output/rows_step.h"
+#include "coordinator/merge/spill_folder.h"
+#include "coordinator/run/memory_budget.h"
 #include "coordinator/run/merger.h"
 #include "coordinator/run/run_loop.h"
 #include "coordinator/run/run_summary.h"
@@ -64,6 +66,10 @@ class RunEngine {
   CommandOutcome Execute();
 
  private:
+  // Takes the memory budget (refusing one too small for the job, before any
+  // work), applies the test-only merge switch, and opens the merge's spill
+  // folder in the run directory (removing one a killed run left).
+  Status Budget();
   // Removes orphaned segments of dead coordinators (at every start, even
   // with nothing to process), lets the merger reload spilled partials from
   // the run directory, and picks the worker count (at most one per pending
@@ -113,6 +119,10 @@ class RunEngine {
   RunDirectory& dir_;
   const std::chrono::steady_clock::time_point start_;
   SignalGuard signals_;      // installed until the engine is destroyed
+  MemoryShares shares_;      // the memory budget's split (Budget)
+  // The merge's spill files; declared before merger_ so that the runs in
+  // it are released before the folder is removed, on every way out.
+  std::unique_ptr<SpillFolder> spill_;
   Merger merger_;            // every shard's partial, in shard order
   int workers_ = 1;          // worker processes (Prepare)
   RunLoopResult loop_;       // failures, retries, interruption (Run, Tally)

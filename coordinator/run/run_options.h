@@ -41,6 +41,10 @@ struct RunOptions {
   ProgressMode progress = ProgressMode::kAuto;  // progress on stderr (quiet: none)
   double progress_every_s = 5;  // plain progress: seconds between lines
   int digits = 0;             // > 0: CSV/table floats rounded to this many significant digits
+  // The coordinator's memory budget in bytes (--memory-cap); 0 = the job's
+  // "memory_cap", else the default from the machine's memory
+  // (coordinator/run/memory_budget.h). Never changes the results.
+  uint64_t memory_cap = 0;
   bool check_fields = true;   // sample the first shards for misspelt fields first (scale's timed runs: not)
 };
 

@@ -40,6 +40,13 @@ struct RunSummary {
   // (0 when none did: --in-process, or nothing to process).
   uint64_t peak_rss = 0;
   uint64_t peak_worker_rss = 0;
+  // The memory cap (coordinator/run/memory_budget.h): bytes, where it came
+  // from; how the merge held the results ("tables", "runs in memory" or
+  // "spilled runs") and the bytes it wrote to spill files.
+  uint64_t memory_cap = 0;
+  std::string memory_cap_from;
+  std::string merge_held = "tables";
+  uint64_t merge_spilled_bytes = 0;
 };
 
 // "1,234,567"

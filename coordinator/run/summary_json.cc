@@ -71,7 +71,11 @@ json SummaryJson(const RunInput& in, const RunSummary& s, int workers, uint64_t 
           {"warnings", warnings},
           // Measured by the kernel (getrusage); null for a worker when none ran.
           {"peak_rss_bytes", {{"coordinator", s.peak_rss},
-                              {"largest_worker", s.peak_worker_rss > 0 ? json(s.peak_worker_rss) : json(nullptr)}}}};
+                              {"largest_worker", s.peak_worker_rss > 0 ? json(s.peak_worker_rss) : json(nullptr)}}},
+          {"memory", {{"cap_bytes", s.memory_cap},
+                      {"cap_from", s.memory_cap_from},
+                      {"merge", s.merge_held},
+                      {"spilled_bytes", s.merge_spilled_bytes}}}};
 }
 
 // What summary.json says of one reduction: its measures' skipped values and

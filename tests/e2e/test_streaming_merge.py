@@ -7,11 +7,16 @@ exact distinct and DDSketch. Checked:
 
 * the result with the coordinator's in-memory tables (kept whatever their
   size with the test-only switch FANFOLD_TEST_ONLY_MERGE_RUNS=0) equals, byte
-  for byte, the result folded as sorted runs (docs/streaming-merge.md): by
-  default (past 100,000 groups), and forced with
-  FANFOLD_TEST_ONLY_MERGE_RUNS=GROUPS:THREADS from the first group, past
-  20,000 and 50,000 groups, over 1, 2 and 3 key ranges, at -j 1, 2 and 3 —
-  and the debug log says whether the runs were used;
+  for byte, the result folded as sorted runs (docs/streaming-merge.md):
+  forced with FANFOLD_TEST_ONLY_MERGE_RUNS=GROUPS:THREADS from the first
+  group, past 20,000 and 50,000 groups, over 1, 2 and 3 key ranges, at -j 1,
+  2 and 3; and under memory caps small enough (--memory-cap 6MiB, or the
+  job's "memory_cap") that the runs go to spill files in the run directory
+  (FANFOLD_TEST_ONLY_MERGE_RUNS=cap:THREADS keeps the cap's rule over 1-3
+  key ranges) — the debug log says whether runs and spill files were used,
+  and no spill file is left after the run; under the default cap (a quarter
+  of the machine's memory) these 140,000 groups pass the tables' 64 MiB
+  ceiling (estimated) and are folded as runs in memory;
 * the in-memory tables merged on 1, 2, 3 and 7 threads, one key range each
   (the test-only switch FANFOLD_TEST_ONLY_MERGE_THREADS=N;
   coordinator/merge/range_tables.h), give the same bytes;
@@ -72,8 +77,10 @@ def sqlite_expected(rows):
     return out
 
 
-def run(env, c, job, workers, switch, label, threads=None):
+def run(env, c, job, workers, switch, label, cap=None, spill=False, threads=None):
     out = env.path("out-%s.json" % label)
+    run_dir = env.path("runs", label)
+    extra = ["--memory-cap", cap] if cap else []
     saved = {k: os.environ.get(k) for k in ("FANFOLD_TEST_ONLY_MERGE_RUNS", "FANFOLD_TEST_ONLY_MERGE_THREADS")}
     if switch is not None:
         os.environ["FANFOLD_TEST_ONLY_MERGE_RUNS"] = switch
@@ -81,7 +88,7 @@ def run(env, c, job, workers, switch, label, threads=None):
         os.environ["FANFOLD_TEST_ONLY_MERGE_THREADS"] = str(threads)
     try:
         rc, _, err = env.fanfold_run("run", job, "-j", workers, "-o", out, "--log-level", "debug",
-                                     "--progress", "off")
+                                     "--progress", "off", "--run-dir", run_dir, *extra)
     finally:
         for k, v in saved.items():
             if v is None:
@@ -91,7 +98,19 @@ def run(env, c, job, workers, switch, label, threads=None):
     if not c.check(rc == 0, "%s: exit %d: %s" % (label, rc, lib.tail(err))):
         return None
     used_runs = "folded as sorted runs" in err
-    c.check(used_runs == (switch != "0"), "%s: sorted runs used: %s" % (label, used_runs))
+    want_runs = switch != "0"
+    c.check(used_runs == want_runs, "%s: sorted runs used: %s" % (label, used_runs))
+    spilled = "written to spill files" in err
+    c.check(spilled == spill, "%s: spill files used: %s" % (label, spilled))
+    c.check(not os.path.exists(os.path.join(run_dir, "merge")), "%s: the spill folder is left behind" % label)
+    with open(os.path.join(run_dir, "summary.json")) as f:
+        memory = json.load(f)["memory"]
+    held = "spilled runs" if spill else "runs in memory" if want_runs else "tables"
+    c.check(memory["merge"] == held and (memory["spilled_bytes"] > 0) == spill,
+            "%s: summary.json says %r" % (label, memory))
+    if cap:
+        c.check(memory["cap_bytes"] == int(cap[:-3]) << 20 and memory["cap_from"] == "--memory-cap",
+                "%s: summary.json's cap %r" % (label, memory))
     with open(out, "rb") as f:
         return f.read()
 
@@ -115,11 +134,23 @@ def main():
             got = run(env, c, job, 2, "0", label, threads=threads)
             if got is not None:
                 c.check(got == base, "%s: result differs from one thread's" % label)
-        for workers, switch in ((2, None), (1, "1:1"), (2, "20000:1"), (2, "20000:3"), (3, "1:2"), (1, "50000:2")):
-            label = "runs-%s-j%d" % ((switch or "default").replace(":", "x"), workers)
-            got = run(env, c, job, workers, switch, label)
+        cases = [(2, None, None), (1, "1:1", None), (2, "20000:1", None), (2, "20000:3", None), (3, "1:2", None),
+                 (1, "50000:2", None)]
+        # Spilling: small caps, 1-3 key ranges, -j 1..3.
+        cases += [(1, None, "6MiB"), (2, "cap:2", "8MiB"), (3, "cap:3", "11MiB"), (2, "cap:1", "7MiB"),
+                  (1, "cap:3", "12MiB")]
+        for workers, switch, cap in cases:
+            label = "runs-%s-%s-j%d" % ((switch or "default").replace(":", "x"), cap or "nocap", workers)
+            got = run(env, c, job, workers, switch, label, cap=cap, spill=cap is not None)
             if got is not None:
                 c.check(got == base, "%s: result differs from the in-memory merge's" % label)
+        # The same cap from the job file's "memory_cap".
+        capped = lib.write_job(env.path("by_lamp_capped.json"), {
+            "inputs": {"files": [env.path("lamps", "*.ndjson")]}, "memory_cap": "6MiB",
+            "group": ["{/lamp}"], "measures": JOB_MEASURES, "emit": {"format": "json"}})
+        got = run(env, c, capped, 2, None, "job-memory-cap", spill=True)
+        if got is not None:
+            c.check(got == base, "job-memory-cap: result differs from the in-memory merge's")
 
         result = json.loads(base)
         c.check(len(result) == len(expected), "%d groups, sqlite3 has %d" % (len(result), len(expected)))

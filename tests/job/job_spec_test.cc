@@ -56,7 +56,7 @@ TEST_CASE("errors name the JSON Pointer, what was found and what was expected") 
   // Intent: golden messages for the common mistakes.
   CHECK(ErrorOf(R"({"inputs": {"files": ["a"]}, "measures": [{"name": "n", "fn": "count"}], "colour": 1})") ==
         "job.json: /colour: found unknown key \"colour\"; expected one of: about, derive, emit, group, inputs, "
-        "keep, measures, reductions, rows, tables");
+        "keep, measures, memory_cap, reductions, rows, tables");
   CHECK(ErrorOf(R"({"inputs": {"files": "a"}, "measures": [{"name": "n", "fn": "count"}]})") ==
         "job.json: /inputs/files: found \"a\" (a string); expected an array of strings (wrap it in [ ])");
   std::string fn = ErrorOf(R"({"inputs": {"files": ["a"]}, "measures": [{"name": "n", "fn": "count"},
@@ -97,7 +97,7 @@ TEST_CASE("misspelt keys, measures and formats get the nearest names") {
   // intended one (nearest by edit distance), keeping the message's shape.
   CHECK(ErrorOf(R"({"input": {"files": ["a"]}, "measures": [{"name": "n", "fn": "count"}]})") ==
         "job.json: /input: found unknown key \"input\" (did you mean \"inputs\"?); expected one of: about, derive, "
-        "emit, group, inputs, keep, measures, reductions, rows, tables");
+        "emit, group, inputs, keep, measures, memory_cap, reductions, rows, tables");
   CHECK(ErrorOf(R"({"inputs": {"file": ["a"]}, "measures": [{"name": "n", "fn": "count"}]})")
             .find("/inputs/file: found unknown key \"file\" (did you mean \"files\"?)") != std::string::npos);
   CHECK(ErrorOf(R"({"inputs": {"files": ["a"]}, "measures": [{"name": "n", "fn": "coutn"}]})")
