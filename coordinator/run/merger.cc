@@ -183,24 +183,33 @@ Status Merger::Rebuild(uint32_t end) {
 }
 
 Result<OutputTable> Merger::Finish(size_t r) {
-  if (!complete()) return Status::Internal("Merger::Finish before every shard was merged");
+  OutputTable t;
+  t.columns = plan_->reductions[r].columns;
+  t.key_columns = plan_->reductions[r].group.size();
+  FF_RETURN_IF_ERROR(VisitRows(r, [&](std::vector<Cell>* row) {
+    t.rows.push_back(std::move(*row));
+    return Status::Ok();
+  }));
+  SortRows(&t, {});
+  return t;
+}
+
+Status Merger::VisitRows(size_t r, const RowVisitor& visit) {
+  if (!complete()) return Status::Internal("Merger::VisitRows before every shard was merged");
   if (!fatal_.ok()) return fatal_;
-  if (runs_) return FinishFromRun(r);
+  if (runs_) return VisitRunRows(r, visit);
   const ReductionPlan& plan = plan_->reductions[r];
   GroupTable& result = results_[r].table;
-  OutputTable t;
-  t.columns = plan.columns;
-  t.key_columns = plan.group.size();
   // With no group keys there is always exactly one row, even over no input.
   if (plan.group.empty() && result.group_count() == 0) (void)result.FindOrAdd("");
-  t.rows.reserve(result.group_count());
   std::vector<uint64_t>& skipped = results_[r].skipped;
   std::vector<uint64_t>& degraded = results_[r].degraded;
   skipped.assign(plan.measures.size(), 0);
   degraded.assign(plan.measures.size(), 0);
+  std::vector<Cell> row;
   for (size_t g = 0; g < result.group_count(); ++g) {
-    std::vector<Cell> row;
-    row.reserve(t.columns.size());
+    row.clear();
+    row.reserve(plan.columns.size());
     FF_RETURN_IF_ERROR(DecodeKey(result.key(g), plan.group.size(), &row));
     MeasureState* const* states = result.states(g);
     for (size_t m = 0; m < plan.measures.size(); ++m) {
@@ -208,21 +217,13 @@ Result<OutputTable> Merger::Finish(size_t r) {
       skipped[m] += states[m]->skipped();
       degraded[m] += states[m]->degraded() ? 1 : 0;
     }
-    t.rows.push_back(std::move(row));
+    FF_RETURN_IF_ERROR(visit(&row));
   }
-  SortRows(&t, {});
-  return t;
+  return Status::Ok();
 }
 
-}  // namespace fanfold
-
-namespace fanfold {
-
-Result<OutputTable> Merger::FinishFromRun(size_t r) {
+Status Merger::VisitRunRows(size_t r, const RowVisitor& visit) {
   const ReductionPlan& plan = plan_->reductions[r];
-  OutputTable t;
-  t.columns = plan.columns;
-  t.key_columns = plan.group.size();
   std::vector<uint64_t>& skipped = results_[r].skipped;
   std::vector<uint64_t>& degraded = results_[r].degraded;
   skipped.assign(plan.measures.size(), 0);
@@ -232,10 +233,10 @@ Result<OutputTable> Merger::FinishFromRun(size_t r) {
   // The run holds each group's states as the in-memory table would encode
   // them; decoded one group at a time, they finalize to the same cells.
   EncodedGroupCursor groups(runs_->run(r), states.size());
-  t.rows.reserve(groups.group_count());
+  std::vector<Cell> row;
   while (groups.Next()) {
-    std::vector<Cell> row;
-    row.reserve(t.columns.size());
+    row.clear();
+    row.reserve(plan.columns.size());
     FF_RETURN_IF_ERROR(DecodeKey(groups.key(), plan.group.size(), &row));
     for (size_t m = 0; m < states.size(); ++m) {
       ByteReader sr(groups.state(m));
@@ -245,11 +246,10 @@ Result<OutputTable> Merger::FinishFromRun(size_t r) {
       skipped[m] += states[m]->skipped();
       degraded[m] += states[m]->degraded() ? 1 : 0;
     }
-    t.rows.push_back(std::move(row));
+    FF_RETURN_IF_ERROR(visit(&row));
   }
   if (!groups.status().ok()) return groups.status().WithContext("the merged run");
-  SortRows(&t, {});
-  return t;
+  return Status::Ok();
 }
 
 }  // namespace fanfold
