@@ -10,14 +10,15 @@ constexpr uint64_t kHeldOverhead = sizeof(std::string) * 2 + 32;  // per heap ro
 }
 
 OrderedRows::OrderedRows(std::vector<SortColumn> order, std::optional<uint64_t> limit, uint64_t budget,
-                         Platform& platform, std::string spill_dir)
+                         Platform& platform, std::string spill_dir, size_t fan_in)
     : order_(std::move(order)),
       limit_(limit),
       budget_(budget),
       platform_(platform),
       spill_dir_(std::move(spill_dir)),
+      fan_in_(fan_in),
       heap_mode_(limit.has_value()) {
-  if (!heap_mode_) sorter_ = std::make_unique<RowSorter>(platform_, spill_dir_, budget_);
+  if (!heap_mode_) sorter_ = std::make_unique<RowSorter>(platform_, spill_dir_, budget_, fan_in_);
 }
 
 Status OrderedRows::Add(const std::vector<Cell>& row) {
@@ -46,7 +47,7 @@ Status OrderedRows::Add(const std::vector<Cell>& row) {
 
 Status OrderedRows::ToSorter() {
   heap_mode_ = false;
-  sorter_ = std::make_unique<RowSorter>(platform_, spill_dir_, budget_);
+  sorter_ = std::make_unique<RowSorter>(platform_, spill_dir_, budget_, fan_in_);
   std::vector<Held> held;
   held.swap(heap_);
   heap_bytes_ = 0;

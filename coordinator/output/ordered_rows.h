@@ -32,7 +32,7 @@ class OrderedRows {
   // REQUIRES: platform outlives this. budget: bytes of rows held in memory
   // (the output stage's share of the memory budget).
   OrderedRows(std::vector<SortColumn> order, std::optional<uint64_t> limit, uint64_t budget, Platform& platform,
-              std::string spill_dir);
+              std::string spill_dir, size_t fan_in = RowSorter::kFanIn);
 
   // Takes one row (the next in arrival order). REQUIRES: before Finish.
   Status Add(const std::vector<Cell>& row);
@@ -61,6 +61,7 @@ class OrderedRows {
   uint64_t budget_;
   Platform& platform_;
   std::string spill_dir_;
+  size_t fan_in_;
   uint64_t arrival_ = 0;
   std::vector<Held> heap_;  // max-heap by key while heap_mode_
   uint64_t heap_bytes_ = 0;

@@ -140,8 +140,8 @@ Status RemoveStaleSortFiles(Platform& platform, const std::string& dir) {
   return Status::Ok();
 }
 
-RowSorter::RowSorter(Platform& platform, std::string dir, uint64_t budget)
-    : platform_(platform), dir_(std::move(dir)), budget_(std::max(budget, kMinBudget)) {}
+RowSorter::RowSorter(Platform& platform, std::string dir, uint64_t budget, size_t fan_in)
+    : platform_(platform), dir_(std::move(dir)), budget_(budget), fan_in_(std::max<size_t>(fan_in, 2)) {}
 
 RowSorter::~RowSorter() {
   for (const std::string& f : files_) (void)platform_.Remove(f);
@@ -183,7 +183,7 @@ Status RowSorter::Spill() {
   FF_RETURN_IF_ERROR(w.Close());
   entries_.clear();
   arena_.clear();
-  if (files_.size() >= kFanIn) {
+  if (files_.size() >= fan_in_) {
     const std::string merged = NewPath();
     std::vector<std::string> inputs;
     inputs.swap(files_);

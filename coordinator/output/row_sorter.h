@@ -34,13 +34,12 @@ Status RemoveStaleSortFiles(Platform& platform, const std::string& dir);
 class RowSorter {
  public:
   static constexpr size_t kFanIn = 64;
-  // What the budget must allow at least (a few rows and the readers' buffers).
-  static constexpr uint64_t kMinBudget = uint64_t{64} << 10;
 
-  // REQUIRES: platform outlives the sorter. dir: where sort files go
-  // (created when first needed); budget: bytes of rows (keys included) held
-  // in memory, at least kMinBudget (smaller is raised to it).
-  RowSorter(Platform& platform, std::string dir, uint64_t budget);
+  // REQUIRES: platform outlives the sorter; fan_in >= 2. dir: where sort
+  // files go (created when first needed); budget: bytes of rows (keys
+  // included) held in memory (a file holds one row at least, so a budget
+  // below a row is slow but works); fan_in: files merged at once.
+  RowSorter(Platform& platform, std::string dir, uint64_t budget, size_t fan_in = kFanIn);
   ~RowSorter();
   RowSorter(const RowSorter&) = delete;
   RowSorter& operator=(const RowSorter&) = delete;
@@ -80,6 +79,7 @@ class RowSorter {
   Platform& platform_;
   std::string dir_;
   uint64_t budget_;
+  size_t fan_in_;
   std::string arena_;
   std::vector<Entry> entries_;
   std::vector<std::string> files_;  // live sort files, oldest first
