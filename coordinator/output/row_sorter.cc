@@ -155,7 +155,10 @@ std::string RowSorter::NewPath() {
 Status RowSorter::Add(std::string_view key, std::string_view row) {
   const uint64_t need = key.size() + row.size() + sizeof(Entry);
   if (!entries_.empty() && arena_.size() + entries_.size() * sizeof(Entry) + need > budget_) FF_RETURN_IF_ERROR(Spill());
-  if (arena_.capacity() == 0) arena_.reserve(std::min<uint64_t>(budget_, uint64_t{1} << 20));
+  // Grown by hand, at most to the budget (doubling could take twice it).
+  if (arena_.size() + key.size() + row.size() > arena_.capacity())
+    arena_.reserve(std::max<uint64_t>(arena_.size() + key.size() + row.size(),
+                                      std::min<uint64_t>(budget_, std::max<uint64_t>(2 * arena_.capacity(), 4096))));
   entries_.push_back({arena_.size(), static_cast<uint32_t>(key.size()), static_cast<uint32_t>(row.size())});
   arena_.append(key);
   arena_.append(row);

@@ -19,43 +19,49 @@ constexpr uint64_t kPollRows = 4096;  // rows between should_stop polls
 
 Status StopStatus() { return Status::Interrupted("interrupted while writing the result"); }
 
-// Writes the ordered rows once in `format` with `options` through sink.
+// One copy of the result being written: its options and where its bytes go.
+struct Copy {
+  RenderOptions options;
+  RowWriter::Sink sink;
+};
+
+// Writes the ordered rows in `format` to every copy, in one pass over the
+// rows (two for the aligned table: its widths first).
 Status WriteRows(const OrderedRows& rows, OutputFormat format, const std::vector<std::string>& columns,
-                 const RenderOptions& options, const ResultStreamTargets& t, const RowWriter::Sink& sink,
-                 uint64_t* written) {
-  std::vector<size_t> widths;
+                 const std::vector<Copy>& copies, const ResultStreamTargets& t, uint64_t* written) {
   uint64_t seen = 0;
   auto poll = [&]() { return ++seen % kPollRows == 0 && t.should_stop && t.should_stop(); };
-  if (format == OutputFormat::kTable) {  // the widths first: a pass over the rows
-    TableWidths w(columns, options);
+  std::vector<TableWidths> widths;
+  if (format == OutputFormat::kTable) {
+    for (const Copy& c : copies) widths.emplace_back(columns, c.options);
     FF_RETURN_IF_ERROR(rows.Replay([&](const std::vector<Cell>& row) {
       if (poll()) return StopStatus();
-      w.Add(row);
+      for (TableWidths& w : widths) w.Add(row);
       return Status::Ok();
     }));
-    widths = w.widths();
   }
-  RowWriter writer(format, columns, options, std::move(widths), sink);
-  FF_RETURN_IF_ERROR(writer.Begin());
+  std::vector<RowWriter> writers;
+  writers.reserve(copies.size());
+  for (size_t i = 0; i < copies.size(); ++i)
+    writers.emplace_back(format, columns, copies[i].options,
+                         widths.empty() ? std::vector<size_t>() : widths[i].widths(), copies[i].sink);
+  for (RowWriter& w : writers) FF_RETURN_IF_ERROR(w.Begin());
   FF_RETURN_IF_ERROR(rows.Replay([&](const std::vector<Cell>& row) {
     if (poll()) return StopStatus();
-    return writer.Row(row);
+    for (RowWriter& w : writers) FF_RETURN_IF_ERROR(w.Row(row));
+    return Status::Ok();
   }));
-  FF_RETURN_IF_ERROR(writer.End());
-  *written = writer.rows();
+  for (RowWriter& w : writers) FF_RETURN_IF_ERROR(w.End());
+  *written = writers.empty() ? 0 : writers.front().rows();
   return Status::Ok();
 }
 
-// Writes the rows to path atomically: a temporary beside it, renamed over it.
-Status WriteRowsToFile(Platform& platform, const std::string& path, const OrderedRows& rows, OutputFormat format,
-                       const std::vector<std::string>& columns, const RenderOptions& options,
-                       const ResultStreamTargets& t, uint64_t* written) {
-  Result<std::unique_ptr<StagedFile>> file = StagedFile::Begin(platform, path, AtomicFilePolicy());
-  if (!file.ok()) return file.status();
-  StagedFile& f = **file;
-  FF_RETURN_IF_ERROR(
-      WriteRows(rows, format, columns, options, t, [&](std::string_view bytes) { return f.Append(bytes); }, written));
-  return f.Publish();
+Result<std::unique_ptr<StagedFile>> BeginFile(Platform& platform, const std::string& path) {
+  return StagedFile::Begin(platform, path, AtomicFilePolicy());
+}
+
+Copy ToFile(StagedFile& f, RenderOptions options) {
+  return {std::move(options), [&f](std::string_view bytes) { return f.Append(bytes); }};
 }
 
 }  // namespace
@@ -94,22 +100,37 @@ Result<ResultStreamOutcome> WriteResultStream(Merger& merger, const Plan& plan, 
   FF_RETURN_IF_ERROR(rows.Finish());
   out.sort_files = rows.sort_files();
   // The run directory keeps every digit; only what the user reads is rounded.
-  FF_RETURN_IF_ERROR(
-      WriteRowsToFile(platform, t.run_dir_file, rows, spec.emit.format, columns, {}, t, &out.rows_written));
-  if (!t.shown) return out;
-  if (!t.shown_path.empty()) {
+  // Both are temporaries renamed into place at the end, the run directory's
+  // first; a shown file is written in the same pass, stdout only after the
+  // run directory's copy is in place (nothing shown of a result not kept).
+  const OutputFormat format = spec.emit.format;
+  Result<std::unique_ptr<StagedFile>> kept = BeginFile(platform, t.run_dir_file);
+  if (!kept.ok()) return kept.status();
+  std::vector<Copy> copies = {ToFile(**kept, {})};
+  std::unique_ptr<StagedFile> shown_file;
+  Status shown_failed;
+  if (t.shown && !t.shown_path.empty()) {
     const std::string parent = std::filesystem::path(t.shown_path).parent_path().string();
     if (!parent.empty()) (void)platform.CreateDirectories(parent);  // a failure shows when the file is made
-    FF_RETURN_IF_ERROR(WriteRowsToFile(platform, t.shown_path, rows, spec.emit.format, columns, t.shown_options, t,
-                                       &out.rows_written));
-    return out;
+    Result<std::unique_ptr<StagedFile>> f = BeginFile(platform, t.shown_path);
+    if (f.ok()) {
+      shown_file = std::move(*f);
+      copies.push_back(ToFile(*shown_file, t.shown_options));
+    } else {
+      shown_failed = f.status();  // the run directory's copy is still written, as before streaming
+    }
   }
+  FF_RETURN_IF_ERROR(WriteRows(rows, format, columns, copies, t, &out.rows_written));
+  FF_RETURN_IF_ERROR((*kept)->Publish());
+  FF_RETURN_IF_ERROR(shown_failed);
+  if (shown_file) FF_RETURN_IF_ERROR(shown_file->Publish());
+  if (!t.shown || shown_file) return out;
   auto to_stdout = [](std::string_view bytes) {
     std::fwrite(bytes.data(), 1, bytes.size(), stdout);
     return std::ferror(stdout) ? Status::IoError("cannot write the result to stdout") : Status::Ok();
   };
   if (!t.stdout_title.empty()) FF_RETURN_IF_ERROR(to_stdout(t.stdout_title));
-  FF_RETURN_IF_ERROR(WriteRows(rows, spec.emit.format, columns, t.shown_options, t, to_stdout, &out.rows_written));
+  FF_RETURN_IF_ERROR(WriteRows(rows, format, columns, {Copy{t.shown_options, to_stdout}}, t, &out.rows_written));
   std::fflush(stdout);
   if (std::ferror(stdout)) return Status::IoError("cannot write the result to stdout");
   return out;
