@@ -242,12 +242,16 @@ Status RunEngine::WriteResult(size_t r) {
     t.stdout_title = (stdout_used_ ? "\n== " : "== ") + spec.name + " ==\n";
   if (t.shown && t.shown_path.empty()) stdout_used_ = true;
   finished_[r].output_path = t.shown ? t.shown_path : t.run_dir_file;
+  const double began = ElapsedSeconds();
   Result<ResultStreamOutcome> done = WriteResultStream(merger_, plan_, r, t);
   if (!done.ok()) return done.status();
   finished_[r].rows = done->rows;
-  if (done->sort_files > 0)
-    LogDebug("output: reduction " + std::to_string(r) + " ordered through " + std::to_string(done->sort_files) +
-             " sort files (sort budget " + std::to_string(sort_bytes_) + " bytes)");
+  char took[32];
+  std::snprintf(took, sizeof took, "%.3f", ElapsedSeconds() - began);
+  LogDebug("output: reduction " + std::to_string(r) + ": " + std::to_string(done->rows_written) + " rows written in " +
+           took + " s, ordered " +
+           (done->sort_files > 0 ? "through " + std::to_string(done->sort_files) + " sort files" : "in memory") +
+           " (sort budget " + std::to_string(sort_bytes_) + " bytes)");
   return Status::Ok();
 }
 
