@@ -38,8 +38,14 @@ bool DecodeCell(ByteReader& r, int depth, Cell* c) {
   if (depth > kMaxDepth) return false;
   const uint8_t kind = r.U8();
   if (!r.ok() || kind > static_cast<uint8_t>(Cell::Kind::kRecord)) return false;
-  *c = Cell();
+  // Reset in place: a row decoded into the same cells again keeps their buffers.
   c->kind = static_cast<Cell::Kind>(kind);
+  c->boolean = false;
+  c->integer = 0;
+  c->number = 0;
+  c->str.clear();
+  if (!c->items.empty()) c->items.clear();
+  if (!c->names.empty()) c->names.clear();
   switch (c->kind) {
     case Cell::Kind::kNull: break;
     case Cell::Kind::kBool: c->boolean = r.U8() != 0; break;
@@ -50,7 +56,11 @@ bool DecodeCell(ByteReader& r, int depth, Cell* c) {
       break;
     }
     case Cell::Kind::kFloat: c->number = r.F64(); break;
-    case Cell::Kind::kString: c->str = std::string(r.Str()); break;
+    case Cell::Kind::kString: {
+      const std::string_view v = r.Str();
+      c->str.assign(v.data(), v.size());
+      break;
+    }
     case Cell::Kind::kList:
     case Cell::Kind::kRecord: {
       const uint64_t n = r.Count(1);

@@ -115,7 +115,16 @@ Result<ResultStreamOutcome> WriteResultStream(Merger& merger, const Plan& plan, 
     Result<std::unique_ptr<StagedFile>> f = BeginFile(platform, t.shown_path);
     if (f.ok()) {
       shown_file = std::move(*f);
-      copies.push_back(ToFile(*shown_file, t.shown_options));
+      if (t.shown_options.rounds()) {
+        copies.push_back(ToFile(*shown_file, t.shown_options));
+      } else {  // the same bytes: rendered once, written to both
+        StagedFile* a = kept->get();
+        StagedFile* b = shown_file.get();
+        copies.front().sink = [a, b](std::string_view bytes) {
+          FF_RETURN_IF_ERROR(a->Append(bytes));
+          return b->Append(bytes);
+        };
+      }
     } else {
       shown_failed = f.status();  // the run directory's copy is still written, as before streaming
     }
