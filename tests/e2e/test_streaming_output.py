@@ -20,7 +20,9 @@ without `order` (CSV). Checked:
   (the shown output cannot be written), after SIGINT during the output stage
   (exit 130 and `resume` finishes with the same bytes, or the run had
   already finished) and after SIGKILL there (the next `resume` removes the
-  leftovers and gives the same bytes).
+  leftovers and gives the same bytes);
+* `fanfold merge` of the job's two parts gives the whole run's bytes through
+  the spilled sort.
 """
 
 import glob
@@ -192,6 +194,24 @@ def main():
             expected = f.read()
         with open(env.path("one.csv"), "rb") as f:
             c.check(f.read() == expected, "one: -o file differs from the run directory's result")
+
+        # `fanfold merge` of two parts writes its result through the same stage.
+        parts = []
+        for i in (1, 2):
+            d = env.path("runs", "part-%d" % i)
+            rc, _, err = run_env(env, [env.fanfold, "run", one, "--part", "%d/2" % i, "--run-dir", d, "-o", "-",
+                                       "--progress", "off", "-q"], SMALL)
+            c.check(rc == 0, "part %d: exit %d: %s" % (i, rc, lib.tail(err)))
+            parts.append(d)
+        merged = env.path("runs", "merged")
+        rc, _, err = run_env(env, [env.fanfold, "merge"] + parts + ["--run-dir", merged, "-o", "-", "--log-level",
+                                                                    "debug"], SMALL)
+        if not c.check(rc == 0, "merge: exit %d: %s" % (rc, lib.tail(err))):
+            c.exit()
+        c.check("sort files" in err, "merge: no sort files used")
+        c.check(not sort_files(merged), "merge: sort files left")
+        with open(os.path.join(merged, "result.csv"), "rb") as f:
+            c.check(f.read() == expected, "merge: result differs from the whole run's")
 
         blocker = env.path("blocker")
         with open(blocker, "w") as f:
