@@ -94,6 +94,8 @@ CommandOutcome RunEngine::Execute() {
   // One reduction at a time, each streamed from the merge to its files.
   for (size_t r = 0; r < plan_.reductions.size() && written.ok(); ++r) written = WriteResult(r);
   if (written.code() == Status::Code::kInterrupted) {
+    dir_.StageJournal(InterruptedEventLine(WallNanos()));
+    (void)dir_.Commit();
     Note("interrupted while writing the result; finished shards are saved. To finish the run: fanfold resume " +
          dir_.path());
     out.status = written;
