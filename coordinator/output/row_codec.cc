@@ -89,7 +89,8 @@ Status DecodeRow(std::string_view bytes, std::vector<Cell>* row) {
   const uint64_t n = r.Count(1);
   row->resize(n);
   for (uint64_t i = 0; i < n; ++i)
-    if (!DecodeCell(r, 0, &(*row)[i])) return Status::Corrupt("a sorted result row is damaged (cell " + std::to_string(i) + ")");
+    if (!DecodeCell(r, 0, &(*row)[i]))
+      return Status::Corrupt("a sorted result row is damaged (cell " + std::to_string(i) + ")");
   if (!r.ok() || !r.at_end()) return Status::Corrupt("a sorted result row is damaged");
   return Status::Ok();
 }

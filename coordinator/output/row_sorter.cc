@@ -154,7 +154,8 @@ std::string RowSorter::NewPath() {
 
 Status RowSorter::Add(std::string_view key, std::string_view row) {
   const uint64_t need = key.size() + row.size() + sizeof(Entry);
-  if (!entries_.empty() && arena_.size() + entries_.size() * sizeof(Entry) + need > budget_) FF_RETURN_IF_ERROR(Spill());
+  if (!entries_.empty() && arena_.size() + entries_.size() * sizeof(Entry) + need > budget_)
+    FF_RETURN_IF_ERROR(Spill());
   // Grown by hand, at most to the budget (doubling could take twice it).
   if (arena_.size() + key.size() + row.size() > arena_.capacity())
     arena_.reserve(std::max<uint64_t>(arena_.size() + key.size() + row.size(),
@@ -222,15 +223,19 @@ Status RowSorter::Walk(const std::vector<std::string>& files, const KeyedVisitor
   std::priority_queue<size_t, std::vector<size_t>, decltype(later)> heap(later);
   Status s;
   for (size_t i = 0; i < readers.size(); ++i)
-    if (readers[i]->Next(&s)) heap.push(i);
-    else FF_RETURN_IF_ERROR(s);
+    if (readers[i]->Next(&s))
+      heap.push(i);
+    else
+      FF_RETURN_IF_ERROR(s);
   bool stop = false;
   while (!heap.empty() && !stop) {
     const size_t i = heap.top();
     heap.pop();
     FF_RETURN_IF_ERROR(visit(readers[i]->key(), readers[i]->row(), &stop));
-    if (readers[i]->Next(&s)) heap.push(i);
-    else FF_RETURN_IF_ERROR(s);
+    if (readers[i]->Next(&s))
+      heap.push(i);
+    else
+      FF_RETURN_IF_ERROR(s);
   }
   return Status::Ok();
 }

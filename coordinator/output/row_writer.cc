@@ -19,7 +19,10 @@ void TableWidths::Add(const std::vector<Cell>& row) {
 
 RowWriter::RowWriter(OutputFormat format, const std::vector<std::string>& columns, RenderOptions options,
                      std::vector<size_t> widths, Sink sink)
-    : format_(format), columns_(columns), options_(std::move(options)), width_(std::move(widths)),
+    : format_(format),
+      columns_(columns),
+      options_(std::move(options)),
+      width_(std::move(widths)),
       sink_(std::move(sink)) {
   if (width_.size() < columns_.size()) width_.resize(columns_.size(), 0);
 }

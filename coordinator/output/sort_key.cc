@@ -74,8 +74,10 @@ void AppendCellSortKey(const Cell& c, bool descending, std::string* out) {
       break;
     case Cell::Kind::kFloat:
       out->push_back(0x02);
-      if (std::isnan(c.number)) out->push_back(0x02);
-      else AppendFiniteOrInfinite(c.number, 0, out);
+      if (std::isnan(c.number))
+        out->push_back(0x02);
+      else
+        AppendFiniteOrInfinite(c.number, 0, out);
       break;
     case Cell::Kind::kString:
       out->push_back(0x03);

@@ -1,5 +1,6 @@
 #include "coordinator/run/result_stream.h"
 
+#include <algorithm>
 #include <cstdio>
 #include <cstdlib>
 #include <filesystem>
@@ -72,8 +73,8 @@ Result<uint64_t> TestOnlySortBytes(uint64_t fallback) {
   char* end = nullptr;
   const unsigned long long v = std::strtoull(sw, &end, 10);
   if (end == sw || *end != '\0' || *sw == '-')
-    return Status::InvalidArgument(std::string("FANFOLD_TEST_ONLY_SORT_BYTES: expected a whole number of bytes, found '") +
-                                   sw + "'");
+    return Status::InvalidArgument(
+        std::string("FANFOLD_TEST_ONLY_SORT_BYTES: expected a whole number of bytes, found '") + sw + "'");
   return static_cast<uint64_t>(v);
 }
 
@@ -88,8 +89,8 @@ Result<ResultStreamOutcome> WriteResultStream(Merger& merger, const Plan& plan, 
   FF_RETURN_IF_ERROR(RemoveStaleSortFiles(platform, t.spill_dir));
   std::vector<std::string> columns = rp.columns;
   for (const AddedColumn& a : rp.rows.add) columns.push_back(a.name);
-  OrderedRows rows(SortColumnsFor(columns, rp.group.size(), spec.emit.order), spec.emit.limit, t.sort_bytes,
-                   platform, t.spill_dir);
+  OrderedRows rows(SortColumnsFor(columns, rp.group.size(), spec.emit.order), spec.emit.limit,
+                   std::max(t.sort_bytes, kMinSortBytes), platform, t.spill_dir);
   RowsStep step(rp.rows);
   uint64_t seen = 0;
   FF_RETURN_IF_ERROR(merger.VisitRows(r, [&](std::vector<Cell>* row) {

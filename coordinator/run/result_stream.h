@@ -26,6 +26,9 @@ namespace fanfold {
 // The output stage's default share of the coordinator's memory (rows held
 // while ordering them).
 inline constexpr uint64_t kDefaultSortBytes = uint64_t{64} << 20;
+// Smaller shares are raised to this: a share of a few rows would write a
+// sort file per few rows and merge them over and over.
+inline constexpr uint64_t kMinSortBytes = uint64_t{16} << 10;
 
 struct ResultStreamTargets {
   Platform* platform = nullptr;
@@ -41,9 +44,9 @@ struct ResultStreamTargets {
 };
 
 struct ResultStreamOutcome {
-  RowsStepCounts rows;       // what the rows step did
-  uint64_t rows_written = 0; // rows in the result
-  uint64_t sort_files = 0;   // sort files written (0: ordered in memory)
+  RowsStepCounts rows;        // what the rows step did
+  uint64_t rows_written = 0;  // rows in the result
+  uint64_t sort_files = 0;    // sort files written (0: ordered in memory)
 };
 
 // REQUIRES: merger complete; r a reduction of plan; targets.platform set.

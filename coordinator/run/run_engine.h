@@ -117,8 +117,8 @@ class RunEngine {
   RunLoopResult loop_;       // failures, retries, interruption (Run, Tally)
   RunSummary summary_;       // what the summary lines and summary.json say (Tally)
   std::vector<FinishedReduction> finished_;  // per reduction (WriteResult)
-  bool stdout_used_ = false;
-  uint64_t sort_bytes_ = 0;   // the output stage's share (Reload: the option, or the test-only switch)  // a result went to stdout already (WriteResult)
+  bool stdout_used_ = false;  // a result went to stdout already (WriteResult)
+  uint64_t sort_bytes_ = 0;   // the output stage's share (Reload: the option, or the test-only switch)
 };
 
 }  // namespace fanfold

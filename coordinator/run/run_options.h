@@ -41,11 +41,11 @@ struct RunOptions {
   ProgressMode progress = ProgressMode::kAuto;  // progress on stderr (quiet: none)
   double progress_every_s = 5;  // plain progress: seconds between lines
   int digits = 0;             // > 0: CSV/table floats rounded to this many significant digits
-  bool check_fields = true;
+  bool check_fields = true;   // sample the first shards for misspelt fields first (scale's timed runs: not)
   // The output stage's share of the memory budget: bytes of result rows held
   // while ordering them (past it, sorted files in <run dir>/merge). Results
   // never depend on it. Default kDefaultSortBytes (run/result_stream.h).
-  uint64_t sort_bytes = uint64_t{64} << 20;   // sample the first shards for misspelt fields first (scale's timed runs: not)
+  uint64_t sort_bytes = uint64_t{64} << 20;
 };
 
 }  // namespace fanfold

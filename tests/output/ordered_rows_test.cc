@@ -4,7 +4,7 @@
 // give, for random tables with ties, nulls, NaN/inf, text and lists, the
 // very bytes of SortRows + limit + RenderTable over the whole table — the
 // in-memory renderer the output stage replaced, kept as the reference.
-#include <doctest/doctest.h>
+#include "coordinator/output/ordered_rows.h"
 
 #include <cmath>
 #include <cstring>
@@ -13,10 +13,11 @@
 #include <string>
 #include <vector>
 
+#include <doctest/doctest.h>
+
 #include "common/base/cell_text.h"
 #include "common/partial/group_key.h"
 #include "common/port/memory_platform.h"
-#include "coordinator/output/ordered_rows.h"
 #include "coordinator/output/output_table.h"
 #include "coordinator/output/row_codec.h"
 #include "coordinator/output/row_sorter.h"
@@ -45,9 +46,9 @@ std::vector<Cell> TrickyCells() {
                      two53 - 1, two53, two53 + 1, two53 + 2, static_cast<__int128>(UINT64_MAX), max128})
     v.push_back(Cell::Int(i));
   const double inf = std::numeric_limits<double>::infinity();
-  for (double d : {-inf, -1e308, -9007199254740992.0, -0.5, -0.0, 0.0, 5e-324, 0.5, 1.0, 9007199254740992.0,
-                   9007199254740994.0, 1.8446744073709552e19, 1.7014118346046923e38, 1e300, inf,
-                   std::numeric_limits<double>::quiet_NaN()})
+  for (double d :
+       {-inf, -1e308, -9007199254740992.0, -0.5, -0.0, 0.0, 5e-324, 0.5, 1.0, 9007199254740992.0, 9007199254740994.0,
+        1.8446744073709552e19, 1.7014118346046923e38, 1e300, inf, std::numeric_limits<double>::quiet_NaN()})
     v.push_back(Cell::Float(d));
   for (const char* s : {"", "a", "ab", "b", "\xc3\xa9", "zz"}) v.push_back(Cell::String(s));
   v.push_back(Cell::String(std::string("a\0", 2)));
@@ -105,7 +106,7 @@ Cell RandomCell(std::mt19937_64& rng, int kind_pick) {
     }
     default:
       return Cell::List({Cell::Record({"value", "count"}, {Cell::String(std::string(1, 'a' + rng() % 3)),
-                                                            Cell::Int(static_cast<int64_t>(rng() % 4))})});
+                                                           Cell::Int(static_cast<int64_t>(rng() % 4))})});
   }
 }
 
@@ -132,7 +133,8 @@ std::string Streamed(const OutputTable& t, const std::vector<OrderSpec>& order, 
   REQUIRE(rows.Replay([&](const std::vector<Cell>& row) {
                 widths.Add(row);
                 return Status::Ok();
-              }).ok());
+              })
+              .ok());
   std::string out;
   RowWriter w(format, t.columns, options, widths.widths(), [&](std::string_view b) {
     out.append(b);
@@ -158,17 +160,19 @@ std::string Reference(OutputTable t, const std::vector<OrderSpec>& order, std::o
 // one row per file, cascaded merges of 3 files) and format gives
 // SortRows + RenderTable's bytes, and no sort file is left behind.
 TEST_CASE("ordered rows streamed through the writers equal SortRows + RenderTable") {
-  const std::vector<std::vector<OrderSpec>> orders = {
-      {}, {{"ints", true}}, {{"text", false}, {"floats", true}}, {{"k2", true}}, {{"top", false}},
-      {{"no_such_column", false}, {"floats", false}}};
+  const std::vector<std::vector<OrderSpec>> orders = {{},
+                                                      {{"ints", true}},
+                                                      {{"text", false}, {"floats", true}},
+                                                      {{"k2", true}},
+                                                      {{"top", false}},
+                                                      {{"no_such_column", false}, {"floats", false}}};
   const std::vector<std::optional<uint64_t>> limits = {std::nullopt, 0, 1, 7, 150, 1000};
   struct Budget {
     uint64_t bytes;
     size_t fan_in;
   };
   const Budget budgets[] = {{uint64_t{1} << 30, RowSorter::kFanIn}, {1, RowSorter::kFanIn}, {2000, 3}};
-  const OutputFormat formats[] = {OutputFormat::kCsv, OutputFormat::kJson, OutputFormat::kNdjson,
-                                  OutputFormat::kTable};
+  const OutputFormat formats[] = {OutputFormat::kCsv, OutputFormat::kJson, OutputFormat::kNdjson, OutputFormat::kTable};
   RenderOptions rounded;
   rounded.digits = 3;
   rounded.column_digits = {0, 0, 0, 5};
