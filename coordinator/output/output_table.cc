@@ -6,19 +6,10 @@
 
 #include "common/base/cell_text.h"
 #include "common/partial/group_key.h"
+#include "coordinator/output/cell_render.h"
 
 namespace fanfold {
 namespace {
-
-// A scalar cell's CSV/table text: a finite float rounded to `digits`
-// significant digits when asked (> 0), anything else as CellText.
-std::string PlainText(const Cell& c, int digits) {
-  if (digits <= 0 || c.kind != Cell::Kind::kFloat || !std::isfinite(c.number)) return CellText(c);
-  if (c.number == 0) return "0";  // -0 too, as CellText prints it
-  char buf[64];
-  std::snprintf(buf, sizeof buf, "%.*g", digits, c.number);
-  return buf;
-}
 
 std::string RenderCsv(const OutputTable& t, const RenderOptions& o) {
   std::string out;
@@ -37,58 +28,20 @@ std::string RenderCsv(const OutputTable& t, const RenderOptions& o) {
   return out;
 }
 
-void AppendRowObject(const OutputTable& t, const std::vector<Cell>& row, std::string* out) {
-  out->push_back('{');
-  for (size_t c = 0; c < row.size(); ++c) {
-    if (c) out->push_back(',');
-    AppendJsonString(t.columns[c], out);
-    out->push_back(':');
-    AppendCellJson(row[c], out);
-  }
-  out->push_back('}');
-}
-
-// Display width in terminal columns, counting UTF-8 code points.
-size_t Width(const std::string& s) {
-  size_t n = 0;
-  for (unsigned char c : s) n += (c & 0xC0) != 0x80;
-  return n;
-}
-
-bool IsNumeric(const Cell& c) { return c.kind == Cell::Kind::kInt || c.kind == Cell::Kind::kFloat; }
-
-// For people reading a table, a list of {"value", "count"} records (top-k)
-// reads better as "a (12), b (7)" than as JSON; other cells as PlainText.
-std::string DisplayText(const Cell& c, int digits) {
-  if (c.kind == Cell::Kind::kNull) return kTableNull;
-  if (c.kind != Cell::Kind::kList) return PlainText(c, digits);
-  std::string out;
-  for (const Cell& item : c.items) {
-    if (item.kind != Cell::Kind::kRecord || item.items.size() != 2) return CellText(c);
-    if (!out.empty()) out += ", ";
-    const Cell& value = item.items[0];
-    out += value.kind == Cell::Kind::kNull ? std::string(kTableNull) : PlainText(value, digits);
-    out += " (" + PlainText(item.items[1], digits) + ")";
-  }
-  return out;
-}
-
 std::string RenderAligned(const OutputTable& t, const RenderOptions& o) {
   std::vector<std::vector<std::string>> text(t.rows.size());
   std::vector<size_t> width(t.columns.size());
-  for (size_t c = 0; c < t.columns.size(); ++c) width[c] = Width(t.columns[c]);
+  for (size_t c = 0; c < t.columns.size(); ++c) width[c] = TextWidth(t.columns[c]);
   for (size_t r = 0; r < t.rows.size(); ++r) {
     for (size_t c = 0; c < t.rows[r].size(); ++c) {
-      std::string s = DisplayText(t.rows[r][c], o.DigitsFor(c));
-      for (char& ch : s)
-        if (ch == '\n' || ch == '\t' || ch == '\r') ch = ' ';
-      width[c] = std::max(width[c], Width(s));
+      std::string s = TableCellText(t.rows[r][c], o.DigitsFor(c));
+      width[c] = std::max(width[c], TextWidth(s));
       text[r].push_back(std::move(s));
     }
   }
   std::string out;
   auto pad = [&](const std::string& s, size_t w, bool right) {
-    std::string fill(w - std::min(w, Width(s)), ' ');
+    std::string fill(w - std::min(w, TextWidth(s)), ' ');
     out += right ? fill + s : s + fill;
   };
   for (size_t c = 0; c < t.columns.size(); ++c) {
@@ -105,7 +58,7 @@ std::string RenderAligned(const OutputTable& t, const RenderOptions& o) {
   for (size_t r = 0; r < t.rows.size(); ++r) {
     for (size_t c = 0; c < text[r].size(); ++c) {
       if (c) out += "  ";
-      pad(text[r][c], width[c], IsNumeric(t.rows[r][c]));
+      pad(text[r][c], width[c], IsNumericCell(t.rows[r][c]));
     }
     // Trailing spaces help no one.
     while (!out.empty() && out.back() == ' ') out.pop_back();
@@ -143,7 +96,7 @@ std::string RenderTable(const OutputTable& t, OutputFormat format, const RenderO
     case OutputFormat::kNdjson: {
       std::string out;
       for (const auto& row : t.rows) {
-        AppendRowObject(t, row, &out);
+        AppendRowObject(t.columns, row, &out);
         out.push_back('\n');
       }
       return out;
@@ -152,7 +105,7 @@ std::string RenderTable(const OutputTable& t, OutputFormat format, const RenderO
       std::string out = "[";
       for (size_t r = 0; r < t.rows.size(); ++r) {
         out += r ? ",\n " : "\n ";
-        AppendRowObject(t, t.rows[r], &out);
+        AppendRowObject(t.columns, t.rows[r], &out);
       }
       out += t.rows.empty() ? "]\n" : "\n]\n";
       return out;

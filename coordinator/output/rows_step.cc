@@ -38,39 +38,44 @@ Cell ResultCell(const Value& v) {
 
 }  // namespace
 
+RowsStep::RowsStep(const RowsPlan& plan) : plan_(plan), slots_(plan.fields.size()) {
+  counts_.no_value.assign(plan.add.size(), 0);
+}
+
+bool RowsStep::Apply(std::vector<Cell>* row_ptr) {
+  std::vector<Cell>& row = *row_ptr;
+  ++counts_.rows_in;
+  if (plan_.add.empty() && !plan_.keep) return true;
+  // Reserved first: the slots view strings inside the row's cells, which
+  // must not move while the added cells are appended.
+  row.reserve(plan_.merged_columns + plan_.add.size());
+  for (size_t c = 0; c < plan_.merged_columns; ++c) slots_[c] = CellValue(row[c]);
+  arena_.Reset();
+  for (size_t i = 0; i < plan_.add.size(); ++i) {
+    const Expr& e = plan_.add[i].expr;
+    const int direct = e.DirectSlot();
+    // A plain copy of a column keeps it as it is (a list, a wide integer).
+    Cell cell = direct >= 0 ? row[direct] : ResultCell(e.Eval(slots_.data(), &arena_));
+    if (cell.kind == Cell::Kind::kNull) ++counts_.no_value[i];
+    row.push_back(std::move(cell));
+    slots_[plan_.merged_columns + i] = CellValue(row.back());
+  }
+  if (plan_.keep && !plan_.keep->Eval(slots_.data(), &arena_).Truthy()) {
+    ++counts_.rows_dropped;
+    return false;
+  }
+  return true;
+}
+
 RowsStepCounts ApplyRowsStep(const RowsPlan& plan, OutputTable* table) {
-  RowsStepCounts counts;
-  counts.no_value.assign(plan.add.size(), 0);
-  counts.rows_in = table->rows.size();
   for (const AddedColumn& a : plan.add) table->columns.push_back(a.name);
-  if (plan.add.empty() && !plan.keep) return counts;
-  std::vector<Value> slots(plan.fields.size());
-  ScratchArena arena;
+  RowsStep step(plan);
   std::vector<std::vector<Cell>> kept;
   kept.reserve(table->rows.size());
-  for (std::vector<Cell>& row : table->rows) {
-    // Reserved first: the slots view strings inside the row's cells, which
-    // must not move while the added cells are appended.
-    row.reserve(plan.merged_columns + plan.add.size());
-    for (size_t c = 0; c < plan.merged_columns; ++c) slots[c] = CellValue(row[c]);
-    arena.Reset();
-    for (size_t i = 0; i < plan.add.size(); ++i) {
-      const Expr& e = plan.add[i].expr;
-      const int direct = e.DirectSlot();
-      // A plain copy of a column keeps it as it is (a list, a wide integer).
-      Cell cell = direct >= 0 ? row[direct] : ResultCell(e.Eval(slots.data(), &arena));
-      if (cell.kind == Cell::Kind::kNull) ++counts.no_value[i];
-      row.push_back(std::move(cell));
-      slots[plan.merged_columns + i] = CellValue(row.back());
-    }
-    if (plan.keep && !plan.keep->Eval(slots.data(), &arena).Truthy()) {
-      ++counts.rows_dropped;
-      continue;
-    }
-    kept.push_back(std::move(row));
-  }
+  for (std::vector<Cell>& row : table->rows)
+    if (step.Apply(&row)) kept.push_back(std::move(row));
   table->rows = std::move(kept);
-  return counts;
+  return step.counts();
 }
 
 }  // namespace fanfold

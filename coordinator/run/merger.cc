@@ -224,28 +224,37 @@ Status Merger::Rebuild(uint32_t end) {
 }
 
 Result<OutputTable> Merger::Finish(size_t r) {
-  if (!complete()) return Status::Internal("Merger::Finish before every shard was merged");
+  OutputTable t;
+  t.columns = plan_->reductions[r].columns;
+  t.key_columns = plan_->reductions[r].group.size();
+  FF_RETURN_IF_ERROR(VisitRows(r, [&](std::vector<Cell>* row) {
+    t.rows.push_back(std::move(*row));
+    return Status::Ok();
+  }));
+  SortRows(&t, {});
+  return t;
+}
+
+Status Merger::VisitRows(size_t r, const RowVisitor& visit) {
+  if (!complete()) return Status::Internal("Merger::VisitRows before every shard was merged");
   if (!fatal_.ok()) return fatal_;
-  if (runs_) return FinishFromRun(r);
+  if (runs_) return VisitRunRows(r, visit);
   const ReductionPlan& plan = plan_->reductions[r];
   RangeTables& result = results_[r].table;
-  OutputTable t;
-  t.columns = plan.columns;
-  t.key_columns = plan.group.size();
   // With no group keys there is always exactly one row, even over no input.
   if (plan.group.empty() && result.group_count() == 0) (void)result.FindOrAdd("");
-  t.rows.reserve(result.group_count());
   std::vector<uint64_t>& skipped = results_[r].skipped;
   std::vector<uint64_t>& degraded = results_[r].degraded;
   skipped.assign(plan.measures.size(), 0);
   degraded.assign(plan.measures.size(), 0);
-  // Rows of every range, then sorted by key: the same rows in the same
-  // order whatever the number of ranges.
+  // Rows of every range, each range's in its table's order; the output
+  // stage orders them (coordinator/run/result_stream.h).
+  std::vector<Cell> row;
   for (size_t i = 0; i < result.range_count(); ++i) {
     const GroupTable& table = result.table(i);
     for (size_t g = 0; g < table.group_count(); ++g) {
-      std::vector<Cell> row;
-      row.reserve(t.columns.size());
+      row.clear();
+      row.reserve(plan.columns.size());
       FF_RETURN_IF_ERROR(DecodeKey(table.key(g), plan.group.size(), &row));
       MeasureState* const* states = table.states(g);
       for (size_t m = 0; m < plan.measures.size(); ++m) {
@@ -253,22 +262,14 @@ Result<OutputTable> Merger::Finish(size_t r) {
         skipped[m] += states[m]->skipped();
         degraded[m] += states[m]->degraded() ? 1 : 0;
       }
-      t.rows.push_back(std::move(row));
+      FF_RETURN_IF_ERROR(visit(&row));
     }
   }
-  SortRows(&t, {});
-  return t;
+  return Status::Ok();
 }
 
-}  // namespace fanfold
-
-namespace fanfold {
-
-Result<OutputTable> Merger::FinishFromRun(size_t r) {
+Status Merger::VisitRunRows(size_t r, const RowVisitor& visit) {
   const ReductionPlan& plan = plan_->reductions[r];
-  OutputTable t;
-  t.columns = plan.columns;
-  t.key_columns = plan.group.size();
   std::vector<uint64_t>& skipped = results_[r].skipped;
   std::vector<uint64_t>& degraded = results_[r].degraded;
   skipped.assign(plan.measures.size(), 0);
@@ -278,10 +279,10 @@ Result<OutputTable> Merger::FinishFromRun(size_t r) {
   // The run holds each group's states as the in-memory table would encode
   // them; decoded one group at a time, they finalize to the same cells.
   RunCursor groups = runs_->Cursor(r);
-  t.rows.reserve(groups.group_count());
+  std::vector<Cell> row;
   while (groups.Next()) {
-    std::vector<Cell> row;
-    row.reserve(t.columns.size());
+    row.clear();
+    row.reserve(plan.columns.size());
     FF_RETURN_IF_ERROR(DecodeKey(groups.key(), plan.group.size(), &row));
     for (size_t m = 0; m < states.size(); ++m) {
       ByteReader sr(groups.state(m));
@@ -291,11 +292,10 @@ Result<OutputTable> Merger::FinishFromRun(size_t r) {
       skipped[m] += states[m]->skipped();
       degraded[m] += states[m]->degraded() ? 1 : 0;
     }
-    t.rows.push_back(std::move(row));
+    FF_RETURN_IF_ERROR(visit(&row));
   }
   if (!groups.status().ok()) return groups.status().WithContext("the merged run");
-  SortRows(&t, {});
-  return t;
+  return Status::Ok();
 }
 
 }  // namespace fanfold

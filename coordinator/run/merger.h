@@ -142,14 +142,24 @@ class Merger {
   // turn came (a bug or a forged file): shard and message.
   const std::vector<std::pair<uint32_t, std::string>>& late_failures() const { return late_failures_; }
 
-  // Reduction r's finished table: key columns, then the measures' columns;
-  // sorted by key. Fails if merging pushed a bounded measure past its limit.
-  // REQUIRES: complete(); r < the plan's reduction count; called once per r.
+  // Reduction r's finished groups, each finalized into a row (key columns,
+  // then the measures' columns) and handed to visit, which may move from
+  // the row; a visit error stops the walk and is returned. The order is the
+  // result's own (key-byte order once in runs, the table's otherwise):
+  // callers order rows themselves (coordinator/output/ordered_rows.h). This
+  // is the one way the output stage reads the merge's result, whether it
+  // is a table or a run. Fails if merging pushed a bounded measure past its
+  // limit. REQUIRES: complete(); r < the plan's reduction count; called
+  // once per r (or Finish instead).
+  using RowVisitor = std::function<Status(std::vector<Cell>* row)>;
+  Status VisitRows(size_t r, const RowVisitor& visit);
+  // Reduction r's finished table, sorted by key: VisitRows collected into
+  // memory (tests and benchmarks; runs stream with VisitRows).
   Result<OutputTable> Finish(size_t r);
-  // After Finish(r): per measure of reduction r, the values it skipped
+  // After VisitRows(r) or Finish(r): per measure of reduction r, the values it skipped
   // (missing, null or not usable, e.g. text for a numeric measure), over all groups.
   const std::vector<uint64_t>& skipped(size_t r) const { return results_[r].skipped; }
-  // After Finish(r): per measure of reduction r, the groups whose result is
+  // After VisitRows(r) or Finish(r): per measure of reduction r, the groups whose result is
   // not exact although the measure is exact within its bound (MeasureState::degraded).
   const std::vector<uint64_t>& degraded(size_t r) const { return results_[r].degraded; }
 
@@ -163,7 +173,7 @@ class Merger {
   void Account(uint32_t shard, OpenedPartial& p);
   void StartRuns();  // moves every reduction's table to a run
   void FoldRuns();   // folds the runs' pending batch, accounting for it
-  Result<OutputTable> FinishFromRun(size_t r);
+  Status VisitRunRows(size_t r, const RowVisitor& visit);
 
   const Plan* plan_;
   uint32_t shard_count_;

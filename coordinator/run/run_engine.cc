@@ -23,6 +23,7 @@
 #include "coordinator/run/console_log.h"
 #include "coordinator/run/merger.h"
 #include "coordinator/run/progress_meter.h"
+#include "coordinator/run/result_stream.h"
 #include "coordinator/run/run_loop.h"
 #include "coordinator/run/run_summary.h"
 #include "coordinator/run/summary_json.h"
@@ -41,19 +42,6 @@ std::string OutputPath(const RunOptions& o, const Plan& plan, size_t r) {
   if (p.empty()) return "";
   std::filesystem::path path(p);
   return path.is_absolute() ? p : (std::filesystem::path(plan.spec.base_dir) / path).string();
-}
-
-Status WriteOutput(const std::string& path, const std::string& text) {
-  if (path.empty()) {
-    std::fwrite(text.data(), 1, text.size(), stdout);
-    std::fflush(stdout);
-    if (std::ferror(stdout)) return Status::IoError("cannot write the result to stdout");
-    return Status::Ok();
-  }
-  std::filesystem::path parent = std::filesystem::path(path).parent_path();
-  std::error_code ec;
-  if (!parent.empty()) std::filesystem::create_directories(parent, ec);
-  return WriteFileAtomic(path, text);
 }
 
 // FANFOLD_TEST_ONLY_MERGE_RUNS=GROUPS[:THREADS] (tests only, never for
@@ -140,14 +128,15 @@ CommandOutcome RunEngine::Execute() {
   }
   Status written = Status::Ok();
   finished_.resize(plan_.reductions.size());
-  for (size_t r = 0; r < plan_.reductions.size() && written.ok(); ++r) {
-    // One reduction at a time: its table is gone before the next is made.
-    Result<OutputTable> table = Finish(r);
-    if (!table.ok()) {
-      out.status = table.status();
-      return out;
-    }
-    written = Render(r, *table);
+  // One reduction at a time, each streamed from the merge to its files.
+  for (size_t r = 0; r < plan_.reductions.size() && written.ok(); ++r) written = WriteResult(r);
+  if (written.code() == Status::Code::kInterrupted) {
+    dir_.StageJournal(InterruptedEventLine(WallNanos()));
+    (void)dir_.Commit();
+    Note("interrupted while writing the result; finished shards are saved. To finish the run: fanfold resume " +
+         dir_.path());
+    out.status = written;
+    return out;
   }
   out.status = Summarise(written);
   if (!out.status.ok()) return out;
@@ -180,6 +169,9 @@ Status RunEngine::Budget() {
   shares_ = *shares;
   while (threads > 1 && MinimumMergeBytes(plan_, threads) > shares_.merge_bytes) --threads;
   merger_.LimitRunThreads(threads);
+  Result<uint64_t> sort_bytes = TestOnlySortBytes(shares_.sort_bytes);
+  if (!sort_bytes.ok()) return sort_bytes.status();
+  sort_bytes_ = *sort_bytes;
   Result<std::unique_ptr<SpillFolder>> spill =
       SpillFolder::Open((std::filesystem::path(dir_.path()) / SpillFolder::kName).string());
   if (!spill.ok()) return spill.status();
@@ -299,45 +291,42 @@ Status RunEngine::Stop() {
   return Status::Interrupted("run interrupted by signal " + std::to_string(SignalGuard::signal_number()));
 }
 
-Result<OutputTable> RunEngine::Finish(size_t r) {
-  Result<OutputTable> table = merger_.Finish(r);
-  if (!table.ok()) return table;
-  const ReductionPlan& plan = plan_.reductions[r];
-  const EmitSpec& emit = plan_.spec.reductions[r].emit;
-  finished_[r].rows = ApplyRowsStep(plan.rows, &*table);
-  SortRows(&*table, emit.order);
-  if (emit.limit && table->rows.size() > *emit.limit) table->rows.resize(*emit.limit);
-  return table;
-}
-
-Status RunEngine::Render(size_t r, const OutputTable& table) {
+Status RunEngine::WriteResult(size_t r) {
   const ReductionPlan& plan = plan_.reductions[r];
   const ReductionSpec& spec = plan_.spec.reductions[r];
-  // The run directory keeps every digit; only what the user reads is rounded.
-  const std::string text = RenderTable(table, spec.emit.format);
-  const std::string path = OutputPath(options_, plan_, r);
-  Status w = dir_.WriteFile(ResultFileName(spec.name, spec.emit.format), text);
-  if (!w.ok() || options_.results_in_run_dir_only) {
-    finished_[r].output_path = (std::filesystem::path(dir_.path()) / ResultFileName(spec.name, spec.emit.format)).string();
-    return w;
-  }
-  finished_[r].output_path = path;
+  ResultStreamTargets t;
+  t.platform = &dir_.platform();
+  t.run_dir_file = (std::filesystem::path(dir_.path()) / ResultFileName(spec.name, spec.emit.format)).string();
+  t.spill_dir = (std::filesystem::path(dir_.path()) / SpillFolder::kName).string();
+  t.sort_bytes = sort_bytes_;
+  t.should_stop = [] { return SignalGuard::interrupted(); };
+  t.shown = !options_.results_in_run_dir_only;
+  t.shown_path = OutputPath(options_, plan_, r);
   // --digits wins over everything; else a measure's shown_digits over emit.digits.
-  RenderOptions shown;
-  shown.digits = options_.digits > 0 ? options_.digits : spec.emit.digits;
+  t.shown_options.digits = options_.digits > 0 ? options_.digits : spec.emit.digits;
   if (options_.digits == 0) {
-    shown.column_digits.assign(plan.group_columns.size(), 0);
+    t.shown_options.column_digits.assign(plan.group_columns.size(), 0);
     for (size_t m = 0; m < plan.measures.size(); ++m)
-      shown.column_digits.insert(shown.column_digits.end(), plan.measures[m].columns.size(),
-                                 spec.measures[m].shown_digits);
-    for (const AddedColumn& a : plan.rows.add) shown.column_digits.push_back(a.shown_digits);
+      t.shown_options.column_digits.insert(t.shown_options.column_digits.end(), plan.measures[m].columns.size(),
+                                           spec.measures[m].shown_digits);
+    for (const AddedColumn& a : plan.rows.add) t.shown_options.column_digits.push_back(a.shown_digits);
   }
-  std::string shown_text = shown.rounds() ? RenderTable(table, spec.emit.format, shown) : text;
   // Named reductions on stdout, one after another, each under its title.
-  if (path.empty() && !spec.name.empty())
-    shown_text = (stdout_used_ ? "\n== " : "== ") + spec.name + " ==\n" + shown_text;
-  if (path.empty()) stdout_used_ = true;
-  return WriteOutput(path, shown_text);
+  if (t.shown && t.shown_path.empty() && !spec.name.empty())
+    t.stdout_title = (stdout_used_ ? "\n== " : "== ") + spec.name + " ==\n";
+  if (t.shown && t.shown_path.empty()) stdout_used_ = true;
+  finished_[r].output_path = t.shown ? t.shown_path : t.run_dir_file;
+  const double began = ElapsedSeconds();
+  Result<ResultStreamOutcome> done = WriteResultStream(merger_, plan_, r, t);
+  if (!done.ok()) return done.status();
+  finished_[r].rows = done->rows;
+  char took[32];
+  std::snprintf(took, sizeof took, "%.3f", ElapsedSeconds() - began);
+  LogDebug("output: reduction " + std::to_string(r) + ": " + std::to_string(done->rows_written) + " rows written in " +
+           took + " s, ordered " +
+           (done->sort_files > 0 ? "through " + std::to_string(done->sort_files) + " sort files" : "in memory") +
+           " (sort budget " + std::to_string(sort_bytes_) + " bytes)");
+  return Status::Ok();
 }
 
 Status RunEngine::Summarise(const Status& written) {

@@ -61,7 +61,7 @@ class RunEngine {
   RunEngine& operator=(const RunEngine&) = delete;
 
   // Prepare, Reload, Run (which ends with Commit), Tally, then Stop if
-  // interrupted, else Finish, Render and Summarise; the first error ends it.
+  // interrupted, else WriteResult and Summarise; the first error ends it.
   // REQUIRES: called once.
   CommandOutcome Execute();
 
@@ -90,14 +90,13 @@ class RunEngine {
   // After an interruption: journals it, commits, prints the summary lines and
   // how to resume. Returns the Interrupted status for the exit code.
   Status Stop();
-  // Reduction r's merged table with its rows step applied (added columns,
-  // row filter), sorted and cut to its emit.order and emit.limit.
-  Result<OutputTable> Finish(size_t r);
-  // Renders reduction r's table in its format and writes it as
-  // result[-NAME].<ext> in the run directory, then to its output (a file, or
-  // stdout: under a title line when the reduction is named).
-  Status Render(size_t r, const OutputTable& table);
-  // Given written, what Render returned: writes summary.json (iff written is
+  // Streams reduction r's result from the merge (rows step, emit.order and
+  // emit.limit in the sort share of the memory budget) to result[-NAME].<ext>
+  // in the run directory, then to its output (a file, or stdout: under a
+  // title line when the reduction is named). Interrupted when a signal
+  // arrived meanwhile (nothing half-written is left).
+  Status WriteResult(size_t r);
+  // Given written, what WriteResult returned: writes summary.json (iff written is
   // ok), journals the finish, and commits (iff all went well).
   Status Summarise(const Status& written);
   // The notes on stderr after a finished run: the summary lines, measures
@@ -127,8 +126,9 @@ class RunEngine {
   int workers_ = 1;          // worker processes (Prepare)
   RunLoopResult loop_;       // failures, retries, interruption (Run, Tally)
   RunSummary summary_;       // what the summary lines and summary.json say (Tally)
-  std::vector<FinishedReduction> finished_;  // per reduction (Finish, Render)
-  bool stdout_used_ = false;  // a result went to stdout already (Render)
+  std::vector<FinishedReduction> finished_;  // per reduction (WriteResult)
+  bool stdout_used_ = false;  // a result went to stdout already (WriteResult)
+  uint64_t sort_bytes_ = 0;   // the output stage's share (Budget: the memory cap's, or the test-only switch)
 };
 
 }  // namespace fanfold

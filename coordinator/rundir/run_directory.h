@@ -65,6 +65,9 @@ class RunDirectory {
                                                     Platform& platform = Platform::Posix());
 
   const std::string& path() const { return path_; }
+  // The file system the run directory lives on (the output stage writes its
+  // result and sort files through it).
+  Platform& platform() const { return platform_; }
 
   // Replaces run.json durably (temp, sync, rename, directory sync): `resume`
   // records the new identity of a shard file that changed, so it is
