@@ -9,8 +9,8 @@
 #include <system_error>
 
 #include "common/base/json_location.h"
-#include "common/port/directory_listing.h"
-#include "common/port/file_identity.h"
+#include "common/port/files/directory_listing.h"
+#include "common/port/files/file_identity.h"
 
 namespace fs = std::filesystem;
 

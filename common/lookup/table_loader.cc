@@ -8,7 +8,7 @@
 #include "common/expr/functions.h"
 #include "common/input/field_table.h"
 #include "common/input/record_reader.h"
-#include "common/port/file_identity.h"
+#include "common/port/files/file_identity.h"
 
 namespace fanfold {
 namespace {

@@ -13,7 +13,7 @@
 #include "common/partial/table_overflow.h"
 #include "common/partial/worker_group_table.h"
 #include "common/port/clock.h"
-#include "common/port/file_identity.h"
+#include "common/port/files/file_identity.h"
 #include "common/input/record_reader.h"
 #include "common/base/scratch_arena.h"
 

@@ -5,7 +5,7 @@
 // Once the table is full it keeps its groups and their records; every record
 // of a key it does not hold is written here, in record order, as the key's
 // bytes plus each measure's arguments (or "not this measure's input"), to a
-// nameless temporary file (common/port/unlinked_temp_file.h). Finish then
+// nameless temporary file (common/port/files/unlinked_temp_file.h). Finish then
 //   1. writes the full table as a key-sorted run file and frees it;
 //   2. hash-partitions the overflow records by key into P files (P from the
 //      bytes per group the table showed), keeping record order in each;
@@ -35,7 +35,7 @@
 #include "common/base/value.h"
 #include "common/measures/measure.h"
 #include "common/partial/worker_group_table.h"
-#include "common/port/unlinked_temp_file.h"
+#include "common/port/files/unlinked_temp_file.h"
 
 namespace fanfold {
 

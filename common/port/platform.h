@@ -12,7 +12,7 @@
 #include <string_view>
 #include <vector>
 
-#include "common/port/file_identity.h"
+#include "common/port/files/file_identity.h"
 #include "common/port/os_error.h"
 
 namespace fanfold {

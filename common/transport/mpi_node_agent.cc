@@ -7,7 +7,7 @@
 #include <vector>
 
 #include "common/port/clock.h"
-#include "common/port/file_identity.h"
+#include "common/port/files/file_identity.h"
 #include "common/port/segment_guardian.h"
 #include "common/transport/mpi_wire.h"
 #include "common/transport/shm_transport.h"

@@ -2,7 +2,7 @@
 
 #include <memory>
 
-#include "common/port/durable_write.h"
+#include "common/port/files/durable_write.h"
 #include "common/port/platform.h"
 
 namespace fanfold {

@@ -9,7 +9,7 @@
 #include <nlohmann/json.hpp>
 
 #include "common/job/job_loader.h"
-#include "common/port/file_util.h"
+#include "common/port/files/file_util.h"
 #include "coordinator/cli/run_command.h"
 #include "coordinator/cli/saved_run.h"
 #include "coordinator/output/output_extension.h"

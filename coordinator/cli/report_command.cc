@@ -8,7 +8,7 @@
 
 #include <nlohmann/json.hpp>
 
-#include "common/port/file_util.h"
+#include "common/port/files/file_util.h"
 #include "coordinator/run/console_log.h"
 #include "coordinator/report/report_html.h"
 #include "coordinator/report/run_analysis.h"

@@ -7,8 +7,8 @@
 
 #include "common/job/job_loader.h"
 #include "common/partial/partial_codec.h"
-#include "common/port/file_identity.h"
-#include "common/port/file_util.h"
+#include "common/port/files/file_identity.h"
+#include "common/port/files/file_util.h"
 #include "coordinator/cli/saved_run.h"
 #include "coordinator/output/output_extension.h"
 #include "coordinator/run/console_log.h"

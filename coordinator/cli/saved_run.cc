@@ -6,7 +6,7 @@
 
 #include "common/job/job_loader.h"
 #include "common/partial/partial_codec.h"
-#include "common/port/file_util.h"
+#include "common/port/files/file_util.h"
 #include "coordinator/rundir/stored_partial.h"
 
 namespace fs = std::filesystem;

@@ -10,7 +10,7 @@
 #include <map>
 #include <thread>
 
-#include "common/port/file_util.h"
+#include "common/port/files/file_util.h"
 #include "coordinator/run/summary_json.h"
 #include "coordinator/run/console_log.h"
 #include "coordinator/report/report_html.h"

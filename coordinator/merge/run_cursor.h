@@ -16,7 +16,7 @@
 #include <vector>
 
 #include "common/base/status.h"
-#include "common/port/mapped_file.h"
+#include "common/port/files/mapped_file.h"
 #include "coordinator/merge/encoded_group_cursor.h"
 
 namespace fanfold {

@@ -13,7 +13,7 @@
 #include <vector>
 
 #include "common/base/status.h"
-#include "common/port/mapped_file.h"
+#include "common/port/files/mapped_file.h"
 #include "coordinator/merge/run_cursor.h"
 #include "coordinator/merge/spill_folder.h"
 

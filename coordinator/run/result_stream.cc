@@ -6,8 +6,8 @@
 #include <filesystem>
 #include <memory>
 
-#include "common/port/durable_write.h"
-#include "common/port/file_util.h"
+#include "common/port/files/durable_write.h"
+#include "common/port/files/file_util.h"
 #include "coordinator/output/ordered_rows.h"
 #include "coordinator/output/row_sorter.h"
 #include "coordinator/output/row_writer.h"

@@ -13,7 +13,7 @@
 #include "common/base/byte_size.h"
 #include "common/base/cell_text.h"
 #include "common/port/clock.h"
-#include "common/port/file_util.h"
+#include "common/port/files/file_util.h"
 #include "common/port/process_control.h"
 #include "common/job/job_loader.h"
 #include "coordinator/output/output_table.h"

@@ -8,7 +8,7 @@
 #include <filesystem>
 
 #include "common/base/byte_io.h"
-#include "common/port/file_util.h"
+#include "common/port/files/file_util.h"
 
 namespace fs = std::filesystem;
 

@@ -37,7 +37,7 @@
 #include <vector>
 
 #include "common/base/status.h"
-#include "common/port/durable_write.h"
+#include "common/port/files/durable_write.h"
 #include "common/port/platform.h"
 #include "coordinator/rundir/run_manifest.h"
 

@@ -7,7 +7,7 @@
 #include <nlohmann/json.hpp>
 
 #include "common/base/json_document.h"
-#include "common/port/file_util.h"
+#include "common/port/files/file_util.h"
 
 namespace fanfold {
 namespace {

@@ -8,7 +8,7 @@
 #include <unistd.h>
 
 #include "common/input/chunk_source.h"
-#include "common/port/file_util.h"
+#include "common/port/files/file_util.h"
 
 using namespace fanfold;
 

@@ -1,6 +1,6 @@
 // ExpandShards: globs, explicit names, symlinks and duplicates.
 #include "common/job/shard_list.h"
-#include "common/port/directory_listing.h"
+#include "common/port/files/directory_listing.h"
 
 #include <doctest/doctest.h>
 #include <unistd.h>

@@ -13,7 +13,7 @@
 #include "common/job/plan.h"
 #include "common/partial/shard_processor.h"
 #include "common/port/clock.h"
-#include "common/port/file_util.h"
+#include "common/port/files/file_util.h"
 
 using namespace fanfold;
 

@@ -20,7 +20,7 @@
 #include "common/partial/shard_processor.h"
 #include "common/partial/table_overflow.h"
 #include "common/partial/worker_group_table.h"
-#include "common/port/file_util.h"
+#include "common/port/files/file_util.h"
 
 using namespace fanfold;
 

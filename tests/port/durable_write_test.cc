@@ -1,6 +1,6 @@
 // DurableWrite: one routine, three policies; each step's failure leaves the
 // old target and no temporary, and says which step failed in the policy's words.
-#include "common/port/durable_write.h"
+#include "common/port/files/durable_write.h"
 
 #include <doctest/doctest.h>
 

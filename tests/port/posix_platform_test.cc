@@ -11,7 +11,7 @@
 #include <fstream>
 
 #include "common/port/clock.h"
-#include "common/port/file_util.h"
+#include "common/port/files/file_util.h"
 
 namespace fanfold {
 namespace {

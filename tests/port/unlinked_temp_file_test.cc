@@ -8,7 +8,7 @@
 #include <filesystem>
 #include <string>
 
-#include "common/port/unlinked_temp_file.h"
+#include "common/port/files/unlinked_temp_file.h"
 
 using namespace fanfold;
 

@@ -2,7 +2,7 @@
 // run directory: every file is written to a temporary name in the same
 // directory, fsynced, then renamed over the target (and the directory
 // fsynced, best effort), so a crash leaves either the old file or the new
-// one, never a torn one (common/port/durable_write.h). Errors name the path
+// one, never a torn one (common/port/files/durable_write.h). Errors name the path
 // and the system's reason. Thread-safe (no shared state).
 #pragma once
 
@@ -10,7 +10,7 @@
 #include <string_view>
 
 #include "common/base/status.h"
-#include "common/port/durable_write.h"
+#include "common/port/files/durable_write.h"
 
 namespace fanfold {
 

@@ -1,4 +1,4 @@
-#include "common/port/directory_listing.h"
+#include "common/port/files/directory_listing.h"
 
 #include <dirent.h>
 

@@ -1,4 +1,4 @@
-#include "common/port/durable_write.h"
+#include "common/port/files/durable_write.h"
 
 #include <cerrno>
 #include <filesystem>

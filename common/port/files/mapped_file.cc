@@ -1,4 +1,4 @@
-#include "common/port/mapped_file.h"
+#include "common/port/files/mapped_file.h"
 
 #include <fcntl.h>
 #include <sys/mman.h>

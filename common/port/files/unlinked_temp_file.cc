@@ -1,4 +1,4 @@
-#include "common/port/unlinked_temp_file.h"
+#include "common/port/files/unlinked_temp_file.h"
 
 #include "common/port/os_error.h"
 

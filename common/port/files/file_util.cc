@@ -1,4 +1,4 @@
-#include "common/port/file_util.h"
+#include "common/port/files/file_util.h"
 
 namespace fanfold {
 

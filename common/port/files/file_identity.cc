@@ -1,4 +1,4 @@
-#include "common/port/file_identity.h"
+#include "common/port/files/file_identity.h"
 
 #include <sys/stat.h>
 
