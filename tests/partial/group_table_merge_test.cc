@@ -12,6 +12,7 @@
 
 #include "common/partial/group_key.h"
 #include "tests/measures/measure_test_util.h"
+#include "tests/partial/group_table_test_util.h"
 
 namespace fanfold {
 namespace {
@@ -27,25 +28,6 @@ std::vector<MeasureConfig> Configs() {
   configs[3].alpha = 0.01;
   configs[4].kind = MeasureKind::kMean;
   return configs;
-}
-
-std::string KeyOf(uint64_t g) {
-  std::string key;
-  AppendKeyValue(Value::Number(static_cast<double>(g)), &key);
-  return key;
-}
-
-void AddRecord(GroupTable* t, uint64_t group, double x) {
-  MeasureState* const* states = t->FindOrAdd(KeyOf(group));
-  const Value v = Value::Number(x);
-  for (size_t m = 0; m < t->measure_count(); ++m) states[m]->Add(&v);
-}
-
-std::string EncodeOf(const GroupTable& t) {
-  std::string out;
-  ByteWriter w(&out);
-  t.Encode(w);
-  return out;
 }
 
 // The reference fold: each shard table decoded, then merged state by state.

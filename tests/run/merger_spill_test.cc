@@ -15,6 +15,7 @@
 #include "common/port/memory_platform.h"
 #include "coordinator/merge/spill_folder.h"
 #include "coordinator/run/merger.h"
+#include "tests/run/merger_test_util.h"
 
 namespace fanfold {
 namespace {
@@ -52,15 +53,6 @@ std::string BigPartial(const Plan& plan, uint32_t shard) {
   return out;
 }
 
-std::string Text(Merger& merger) {
-  Result<OutputTable> t = merger.Finish(0);
-  REQUIRE(t.ok());
-  std::string text;
-  for (const auto& row : t->rows)
-    for (const Cell& c : row) text += std::to_string(c.number) + (c.kind == Cell::Kind::kFloat ? "f " : " ");
-  return text;
-}
-
 size_t FilesIn(const std::string& dir) {
   std::error_code ec;
   size_t n = 0;
@@ -82,7 +74,7 @@ TEST_CASE("merger: spilled runs give the in-memory tables' bytes and leave no fi
   Merger tables(plan.get(), n);
   tables.SetRunThreshold(0, 1);
   for (uint32_t s = 0; s < n; ++s) REQUIRE(tables.Add(s, disk[s]).ok());
-  const std::string expected = Text(tables);
+  const std::string expected = MergerText(tables);
 
   const std::string dir = std::filesystem::temp_directory_path() / ("ff-spill-test-" + std::to_string(getpid()));
   std::filesystem::create_directories(dir);
@@ -111,7 +103,7 @@ TEST_CASE("merger: spilled runs give the in-memory tables' bytes and leave no fi
           CHECK(m.runs()->spilled());
           CHECK(FilesIn(dir) == threads);  // one file per key range of the last fold
         }
-        CHECK(Text(m) == expected);
+        CHECK(MergerText(m) == expected);
       }
       CHECK(FilesIn(dir) == 0);  // the runs took their files with them
       folder->reset();

@@ -2,6 +2,7 @@
 // partial that is bad past its checksum costs only its shard; early
 // partials wait on disk, not in memory, when a reloader is set.
 #include "coordinator/run/merger.h"
+#include "tests/run/merger_test_util.h"
 
 #include <doctest/doctest.h>
 #include <malloc.h>
@@ -57,15 +58,6 @@ std::string PartialFor(const Plan& plan, uint32_t shard, int pad = 0) {
   return out;
 }
 
-std::string ResultText(Merger& merger) {
-  Result<OutputTable> t = merger.Finish(0);
-  REQUIRE(t.ok());
-  std::string text;
-  for (const auto& row : t->rows)
-    for (const Cell& c : row) text += std::to_string(c.number) + (c.kind == Cell::Kind::kFloat ? "f " : " ");
-  return text;
-}
-
 // Intent: any arrival order gives the same bytes as shard order, with and
 // without a reloader (early partials then come back from the "disk").
 TEST_CASE("merger: arrival order does not change the result") {
@@ -75,14 +67,14 @@ TEST_CASE("merger: arrival order does not change the result") {
   for (uint32_t s = 0; s < n; ++s) disk[s] = PartialFor(*plan, s);
   Merger in_order(plan.get(), n);
   for (uint32_t s = 0; s < n; ++s) REQUIRE(in_order.Add(s, disk[s]).ok());
-  const std::string expected = ResultText(in_order);
+  const std::string expected = MergerText(in_order);
   for (bool reload : {false, true}) {
     Merger m(plan.get(), n, /*waiting_budget=*/0);  // with a reloader, every early partial goes back to "disk"
     int reloads = 0;
     if (reload) m.SetReloader([&](uint32_t s, std::string* out) { ++reloads; *out = disk[s]; return Status::Ok(); });
     for (uint32_t s : {11u, 3u, 7u, 0u, 1u, 2u, 10u, 9u, 4u, 5u, 6u, 8u}) REQUIRE(m.Add(s, disk[s]).ok());
     REQUIRE(m.complete());
-    CHECK(ResultText(m) == expected);
+    CHECK(MergerText(m) == expected);
     CHECK(m.totals().shards_merged == n);
     if (reload) CHECK(reloads > 0);
   }
@@ -114,7 +106,7 @@ TEST_CASE("merger: a malformed body costs only its shard") {
   Merger without(plan.get(), 4);
   for (uint32_t s : {0u, 1u, 3u}) REQUIRE(without.Add(s, parts[s]).ok());
   without.MarkFailed(2);
-  const std::string expected = ResultText(without);
+  const std::string expected = MergerText(without);
 
   const std::vector<MeasureConfig> configs = ConfigsOf(*plan);
   PartialState p(&configs);
@@ -132,7 +124,7 @@ TEST_CASE("merger: a malformed body costs only its shard") {
   REQUIRE(with.late_failures().size() == 1);
   CHECK(with.late_failures()[0].first == 2);
   CHECK(with.totals().shards_merged == 3);
-  CHECK(ResultText(with) == expected);
+  CHECK(MergerText(with) == expected);
 }
 
 // Intent: with a reloader the merge checks while it folds (no separate
@@ -151,7 +143,7 @@ TEST_CASE("merger: a malformed body found midway is rebuilt away with a reloader
     for (uint32_t s = 0; s < n; ++s)
       if (s != bad) REQUIRE(without.Add(s, disk[s]).ok());
     without.MarkFailed(bad);
-    const std::string expected = ResultText(without);
+    const std::string expected = MergerText(without);
 
     PartialState p(&configs);
     REQUIRE(DecodePartial(disk[bad], &p).ok());
@@ -187,7 +179,7 @@ TEST_CASE("merger: a malformed body found midway is rebuilt away with a reloader
       CHECK(m.late_failures()[0].first == bad);
       CHECK(m.totals().shards_merged == n - 1);
       CHECK(m.totals().records == 7 * (n - 1));
-      CHECK(ResultText(m) == expected);
+      CHECK(MergerText(m) == expected);
       if (bad > 0 && !reversed) CHECK(reloads == static_cast<int>(bad));  // the rebuild read every shard before it
     }
   }
@@ -222,7 +214,7 @@ TEST_CASE("merger: a malformed body found midway is rebuilt away with a reloader
     for (uint32_t s = 0; s < n; ++s) REQUIRE(m.Add(s, forged_disk[s]).ok());
     CHECK(m.late_failures().size() == 2);
     CHECK(reloads == 1);  // the rebuild for shard 1 read shard 0; none for shard 4
-    CHECK(ResultText(m) == ResultText(without));
+    CHECK(MergerText(m) == MergerText(without));
   }
 }
 
@@ -238,7 +230,7 @@ TEST_CASE("merger: results folded as sorted runs equal the in-memory tables") {
   Merger in_memory(plan.get(), n);
   for (uint32_t s = 0; s < n; ++s) REQUIRE(in_memory.Add(s, disk[s]).ok());
   CHECK_FALSE(in_memory.in_runs());
-  const std::string expected = ResultText(in_memory);
+  const std::string expected = MergerText(in_memory);
 
   const std::vector<MeasureConfig> configs = ConfigsOf(*plan);
   PartialState p(&configs);
@@ -251,7 +243,7 @@ TEST_CASE("merger: results folded as sorted runs equal the in-memory tables") {
   for (uint32_t s = 0; s < n; ++s)
     if (s != 4) REQUIRE(without4.Add(s, disk[s]).ok());
   without4.MarkFailed(4);
-  const std::string expected_without4 = ResultText(without4);
+  const std::string expected_without4 = MergerText(without4);
 
   for (uint64_t threshold : {1, 6})
     for (size_t threads : {1, 2})
@@ -270,7 +262,7 @@ TEST_CASE("merger: results folded as sorted runs equal the in-memory tables") {
         CHECK(m.in_runs());
         CHECK(m.late_failures().size() == (forge ? 1u : 0u));
         CHECK(m.totals().shards_merged == (forge ? n - 1 : n));
-        CHECK(ResultText(m) == (forge ? expected_without4 : expected));
+        CHECK(MergerText(m) == (forge ? expected_without4 : expected));
       }
 }
 
@@ -368,7 +360,7 @@ TEST_CASE("merger: the tables merged on several threads give one thread's result
     REQUIRE(one.late_failures().size() == (forge ? 1u : 0u));
     if (forge) message = one.late_failures()[0].second;
     encoded[forge] = encode(one.tables(0));
-    expected[forge] = ResultText(one);
+    expected[forge] = MergerText(one);
   }
   CHECK(expected[0] != expected[1]);
   for (size_t threads : {1, 2, 3, 7})
@@ -390,7 +382,7 @@ TEST_CASE("merger: the tables merged on several threads give one thread's result
         REQUIRE(m.late_failures().size() == (forge ? 1u : 0u));
         if (forge) CHECK(m.late_failures()[0].second == message);
         CHECK(encode(m.tables(0)) == encoded[forge]);  // every state's bytes
-        CHECK(ResultText(m) == expected[forge]);
+        CHECK(MergerText(m) == expected[forge]);
       }
 }
 
