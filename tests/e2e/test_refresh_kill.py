@@ -75,6 +75,10 @@ def main():
         next_hour = 30
         killed = 0  # trials whose refresh was still running when killed
         resumed = 0  # trials finished by resume
+        # Kills land within the time the last finishing refresh or resume
+        # took (a refresh of a few new hours takes tens of milliseconds, less
+        # than a fixed window's end on a quiet machine).
+        span = 0.06
         for t in range(TRIALS):
             for h in hours[next_hour:next_hour + 5]:
                 shutil.copy(os.path.join(pool, h), data)
@@ -87,7 +91,7 @@ def main():
                 generation_before = json.load(f).get("generation", 1)
             proc = subprocess.Popen([env.fanfold, "refresh", rd, "-j", "2", "-q", "-o", out],
                                     stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, cwd=env.tmp)
-            time.sleep(rng.uniform(0.0, 0.06))
+            time.sleep(rng.uniform(0.0, span))
             kids = lib.child_pids(proc.pid)
             proc.send_signal(signal.SIGKILL)
             killed += proc.wait() == -signal.SIGKILL
@@ -101,7 +105,9 @@ def main():
                 generation = json.load(f).get("generation", 1)
             verb = "resume" if generation > generation_before and t % 2 == 1 else "refresh"
             resumed += verb == "resume"
+            started = time.monotonic()
             rc, _, err = env.fanfold_run(verb, rd, "-j", "2", "-q", "-o", out)
+            span = max(0.005, 0.9 * (time.monotonic() - started))
             c.check(rc == 0, "trial %d: the next %s exits %d: %s" % (t, verb, rc, lib.tail(err)))
             fresh = env.path("fresh%d.csv" % t)
             rc, _, err = env.fanfold_run("run", job, "--run-dir", env.path("runs", "f%d" % t), "--fresh", "-q",
