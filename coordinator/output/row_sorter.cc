@@ -168,7 +168,12 @@ Status RowSorter::Add(std::string_view key, std::string_view row) {
 }
 
 void RowSorter::SortEntries() {
-  std::sort(entries_.begin(), entries_.end(), [&](const Entry& a, const Entry& b) { return KeyOf(a) < KeyOf(b); });
+  const auto less = [&](const Entry& a, const Entry& b) { return KeyOf(a) < KeyOf(b); };
+  // Rows often arrive in the result's order already (the merge walks keys
+  // in key-byte order, which is the result's for fixed-width text keys):
+  // one pass says so, and the sort is skipped.
+  if (std::is_sorted(entries_.begin(), entries_.end(), less)) return;
+  std::sort(entries_.begin(), entries_.end(), less);
 }
 
 Status RowSorter::Spill() {
