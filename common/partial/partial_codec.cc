@@ -14,7 +14,7 @@ namespace {
 constexpr char kMagic[4] = {'F', 'F', 'P', 'S'};
 constexpr uint32_t kFlagRawBody = 1;   // header flag: the body is stored uncompressed
 constexpr size_t kRawBodyLimit = 4096;  // bodies smaller than this are stored raw
-constexpr size_t kChecksumOffset = 152;
+constexpr size_t kChecksumOffset = kPartialChecksumOffset;
 
 uint64_t Checksum(std::string_view header_prefix, std::string_view body) {
   // One hashing state per thread: making one per call was a heap
@@ -140,8 +140,19 @@ void SetPartialEncodeTime(uint64_t ns, std::string* partial) {
 }
 
 Status DecodePartialHeader(std::string_view bytes, PartialHeader* h, bool checksum_checked) {
-  if (bytes.size() < kPartialHeaderSize)
-    return Status::Corrupt("partial state is " + std::to_string(bytes.size()) + " bytes; expected at least " +
+  uint64_t raw_len = 0;
+  uint64_t checksum = 0;
+  FF_RETURN_IF_ERROR(DecodePartialHeaderOnly(bytes.substr(0, kPartialHeaderSize), bytes.size(), h, &raw_len, &checksum));
+  if (!checksum_checked && Checksum(bytes.substr(0, kChecksumOffset), bytes.substr(kPartialHeaderSize)) != checksum)
+    return Status::Corrupt("partial state checksum mismatch");
+  return Status::Ok();
+}
+
+Status DecodePartialHeaderOnly(std::string_view head, uint64_t stored_size, PartialHeader* h, uint64_t* raw_len_out,
+                               uint64_t* checksum_out) {
+  const std::string_view bytes = head;
+  if (stored_size < kPartialHeaderSize || head.size() < kPartialHeaderSize)
+    return Status::Corrupt("partial state is " + std::to_string(stored_size) + " bytes; expected at least " +
                            std::to_string(kPartialHeaderSize));
   if (std::memcmp(bytes.data(), kMagic, 4) != 0) return Status::Corrupt("not a partial state (bad magic)");
   ByteReader r(bytes.substr(4));
@@ -172,15 +183,15 @@ Status DecodePartialHeader(std::string_view bytes, PartialHeader* h, bool checks
   h->encode_ns = r.U64();
   uint64_t checksum = r.U64();
   if (!r.ok()) return Status::Corrupt("partial state header is truncated");
-  if (z_len != bytes.size() - kPartialHeaderSize)
-    return Status::Corrupt("partial state body is " + std::to_string(bytes.size() - kPartialHeaderSize) +
+  if (z_len != stored_size - kPartialHeaderSize)
+    return Status::Corrupt("partial state body is " + std::to_string(stored_size - kPartialHeaderSize) +
                            " bytes; header says " + std::to_string(z_len));
   if (raw_len > kMaxPartialBodyBytes) return Status::Corrupt("partial state body length is implausible");
   if ((h->flags & ~kFlagRawBody) != 0) return Status::Corrupt("partial state has unknown flags");
   if ((h->flags & kFlagRawBody) != 0 && z_len != raw_len)
     return Status::Corrupt("partial state body is stored raw but its two lengths differ");
-  if (!checksum_checked && Checksum(bytes.substr(0, kChecksumOffset), bytes.substr(kPartialHeaderSize)) != checksum)
-    return Status::Corrupt("partial state checksum mismatch");
+  *raw_len_out = raw_len;
+  *checksum_out = checksum;
   return Status::Ok();
 }
 

@@ -126,6 +126,17 @@ void SetPartialEncodeTime(uint64_t ns, std::string* partial);
 // when it received them), everything but the checksum is checked again.
 Status DecodePartialHeader(std::string_view bytes, PartialHeader* out, bool checksum_checked = false);
 
+// The header alone, for a partial read as a stream (coordinator/merge/
+// partial_stream.h): `head` is its first kPartialHeaderSize bytes of
+// `stored_size`. Every check of DecodePartialHeader but the checksum, which
+// is returned in *checksum (XXH3-64 of bytes [0, kPartialChecksumOffset)
+// followed by the stored body), with the body's length before compression
+// in *raw_len; flags bit 0 (h->flags & kPartialRawBody) says it is stored raw.
+inline constexpr size_t kPartialChecksumOffset = 152;
+inline constexpr uint32_t kPartialRawBody = 1;
+Status DecodePartialHeaderOnly(std::string_view head, uint64_t stored_size, PartialHeader* h, uint64_t* raw_len,
+                               uint64_t* checksum);
+
 // One reduction of an opened partial: `groups` views its GroupTable
 // encoding inside OpenedPartial::body.
 struct OpenedReduction {

@@ -1,6 +1,7 @@
 #include "coordinator/merge/group_fold.h"
 
 #include <algorithm>
+#include <optional>
 #include <thread>
 
 #include "common/base/byte_io.h"
@@ -10,10 +11,38 @@
 namespace fanfold {
 namespace {
 
+// A run or partial walked in memory (RunCursor), or a stored partial
+// decoded as it is walked (PartialGroupStream): the same calls.
+class FoldCursor {
+ public:
+  explicit FoldCursor(RunCursor c) : run_(std::move(c)) {}
+  explicit FoldCursor(std::unique_ptr<PartialGroupStream> s) : stream_(std::move(s)) {}
+  bool Next() { return stream_ ? stream_->Next() : run_->Next(); }
+  bool SeekAtLeast(std::string_view k) { return stream_ ? stream_->SeekAtLeast(k) : run_->SeekAtLeast(k); }
+  std::string_view key() const { return stream_ ? stream_->key() : run_->key(); }
+  std::string_view state(size_t j) const { return stream_ ? stream_->state(j) : run_->state(j); }
+  const Status& status() const { return stream_ ? stream_->status() : run_->status(); }
+  uint64_t groups_read() const { return stream_ ? stream_->groups_read() : run_->groups_read(); }
+
+ private:
+  std::optional<RunCursor> run_;
+  std::unique_ptr<PartialGroupStream> stream_;
+};
+
+// Partial p of the fold as a cursor.
+FoldCursor PartialCursor(const FoldInputs& in, size_t p, size_t m) {
+  if (in.streams.empty()) return FoldCursor(RunCursor(in.partials[p], m));
+  return FoldCursor(std::make_unique<PartialGroupStream>(in.streams[p], in.reduction, m));
+}
+uint64_t PartialGroups(const FoldInputs& in, size_t p, size_t m) {
+  if (in.streams.empty()) return EncodedGroupCursor(in.partials[p], m).group_count();
+  return in.stream_groups[p];
+}
+
 // Input i of the fold: 0 is the base run (when there is one), then the
 // partials in shard order. The merge order of equal keys is this index.
 struct Source {
-  RunCursor cursor;
+  FoldCursor cursor;
   size_t partial;  // index in FoldInputs::partials, or FoldOutcome::kNoPartial for the base
 };
 
@@ -53,10 +82,10 @@ RunCursor BaseCursor(const FoldInputs& in, size_t m) {
 FoldOutcome GroupFold::FoldRange(const FoldInputs& in, const KeyRange& range, std::string* out, const Drain* drain) {
   const size_t m = configs_->size();
   std::vector<Source> sources;
-  sources.reserve(in.partials.size() + 1);
-  if (HasBase(in)) sources.push_back({BaseCursor(in, m), FoldOutcome::kNoPartial});
-  for (size_t p = 0; p < in.partials.size(); ++p) sources.push_back({RunCursor(in.partials[p], m), p});
-  const auto in_range = [&](const RunCursor& c) { return !range.bounded || c.key() < range.hi; };
+  sources.reserve(in.partial_count() + 1);
+  if (HasBase(in)) sources.push_back({FoldCursor(BaseCursor(in, m)), FoldOutcome::kNoPartial});
+  for (size_t p = 0; p < in.partial_count(); ++p) sources.push_back({PartialCursor(in, p, m), p});
+  const auto in_range = [&](const FoldCursor& c) { return !range.bounded || c.key() < range.hi; };
   // The heap holds the sources positioned on a key in range, smallest key
   // on top, equal keys in source order (base, then shard order).
   std::vector<size_t> heap;
@@ -65,7 +94,7 @@ FoldOutcome GroupFold::FoldRange(const FoldInputs& in, const KeyRange& range, st
     return c > 0 || (c == 0 && a > b);
   };
   for (size_t i = 0; i < sources.size(); ++i) {
-    RunCursor& c = sources[i].cursor;
+    FoldCursor& c = sources[i].cursor;
     if (!c.status().ok()) return CursorFailed(sources[i]);
     if (c.SeekAtLeast(range.lo)) {
       if (in_range(c)) heap.push_back(i);
@@ -125,7 +154,7 @@ FoldOutcome GroupFold::FoldRange(const FoldInputs& in, const KeyRange& range, st
       if (!s.ok()) return Failed(std::move(s), FoldOutcome::kNoPartial);
     }
     for (size_t i : holders) {
-      RunCursor& c = sources[i].cursor;
+      FoldCursor& c = sources[i].cursor;
       if (c.Next()) {
         if (in_range(c)) {
           heap.push_back(i);
@@ -147,8 +176,8 @@ std::vector<std::string> SplitKeys(const FoldInputs& in, size_t measure_count, s
   const size_t none = SIZE_MAX;
   size_t largest = none;  // index in in.partials, or none for the base
   uint64_t most = HasBase(in) ? BaseCursor(in, measure_count).group_count() : 0;
-  for (size_t i = 0; i < in.partials.size(); ++i) {
-    const uint64_t n = EncodedGroupCursor(in.partials[i], measure_count).group_count();
+  for (size_t i = 0; i < in.partial_count(); ++i) {
+    const uint64_t n = PartialGroups(in, i, measure_count);
     if (n > most) {
       most = n;
       largest = i;
@@ -156,7 +185,7 @@ std::vector<std::string> SplitKeys(const FoldInputs& in, size_t measure_count, s
   }
   std::vector<std::string> cuts;
   if (parts < 2 || most < 2) return cuts;
-  RunCursor c = largest == none ? BaseCursor(in, measure_count) : RunCursor(in.partials[largest], measure_count);
+  FoldCursor c = largest == none ? FoldCursor(BaseCursor(in, measure_count)) : PartialCursor(in, largest, measure_count);
   for (size_t part = 1; part < parts; ++part) {
     const uint64_t at = most * part / parts;  // the cut's group index, ascending
     while (c.groups_read() <= at)

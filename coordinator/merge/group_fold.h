@@ -26,6 +26,7 @@
 
 #include "common/base/status.h"
 #include "common/measures/measure.h"
+#include "coordinator/merge/partial_stream.h"
 #include "coordinator/merge/run_cursor.h"
 
 namespace fanfold {
@@ -40,6 +41,15 @@ struct FoldInputs {
   std::vector<RunPiece> base_pieces;
   // Partials' group-table encodings (one reduction each), in shard order.
   std::vector<std::string_view> partials;
+  // Or, when not empty (partials is then ignored), the partials as stored
+  // bytes, each read as a stream of reduction `reduction`'s groups
+  // (coordinator/merge/partial_stream.h), in shard order, with their group
+  // counts (ScanStoredPartial's). Each range of a fold opens its own stream
+  // of each: memory per range and partial, not per group.
+  std::vector<const StoredPartialBytes*> streams;
+  std::vector<uint64_t> stream_groups;
+  size_t reduction = 0;
+  size_t partial_count() const { return streams.empty() ? partials.size() : streams.size(); }
 };
 
 // Keys k with lo <= k < hi; no upper bound when !bounded.

@@ -8,15 +8,19 @@
 
 namespace fanfold {
 namespace {
-
-uint64_t GroupCount(std::string_view encoded, size_t measures) {
-  return EncodedGroupCursor(encoded, measures).group_count();
+std::vector<size_t> MeasureCounts(const Plan* plan) {
+  std::vector<size_t> counts;
+  for (const ReductionPlan& r : plan->reductions) counts.push_back(r.configs.size());
+  return counts;
 }
-
 }  // namespace
 
 RunResults::RunResults(const Plan* plan, size_t threads, MergeMemory memory)
-    : plan_(plan), threads_(threads < 1 ? 1 : threads), memory_(memory), runs_(plan->reductions.size()) {}
+    : plan_(plan),
+      threads_(threads < 1 ? 1 : threads),
+      memory_(memory),
+      runs_(plan->reductions.size()),
+      measure_counts_(MeasureCounts(plan)) {}
 
 void RunResults::Start(size_t r, const GroupTable& table) {
   std::string encoding;
@@ -30,16 +34,26 @@ void RunResults::Start(size_t r, std::string encoded, uint64_t groups) {
   run_groups_ += groups;
 }
 
-void RunResults::Add(uint32_t shard, std::unique_ptr<OpenedPartial> p) {
-  for (size_t r = 0; r < p->reductions.size(); ++r)
-    batch_groups_ += GroupCount(p->reductions[r].groups, plan_->reductions[r].configs.size());
-  batch_bytes_ += p->body.size();
-  batch_.emplace_back(shard, std::move(p));
+Status RunResults::Add(uint32_t shard, std::unique_ptr<StoredPartialBytes> bytes, bool checksum_checked) {
+  Pending p;
+  p.shard = shard;
+  p.info = std::make_unique<OpenedPartial>();
+  FF_RETURN_IF_ERROR(ScanStoredPartial(*bytes, measure_counts_, checksum_checked, p.info.get(), &p.scanned));
+  for (uint64_t g : p.scanned.group_counts) batch_groups_ += g;
+  batch_streams_ += p.scanned.stream_bytes;
+  batch_raw_ += p.scanned.raw_bytes;
+  if (!open_) {
+    batch_held_ += bytes->memory_bytes();
+    p.held = std::move(bytes);
+  }
+  batch_.push_back(std::move(p));
+  return Status::Ok();
 }
 
 bool RunResults::BatchFull() const {
-  const uint64_t bytes_cap = std::min(kMaxBatchBytes, memory_.merge_bytes / 4);
-  return batch_groups_ >= 2 * run_groups_ || batch_bytes_ >= bytes_cap;
+  const uint64_t held_cap = std::min(kMaxBatchBytes, memory_.merge_bytes / 4);
+  return batch_groups_ >= 2 * run_groups_ || batch_.size() >= kMaxBatchPartials ||
+         batch_streams_ * threads_ >= memory_.merge_bytes / 2 || batch_held_ >= held_cap;
 }
 
 uint64_t RunResults::run_bytes() const {
@@ -52,14 +66,17 @@ uint64_t RunResults::run_bytes() const {
 bool RunResults::ShouldSpill() const {
   if (memory_.spill == nullptr) return false;
   if (spilled()) return true;
-  return 2 * (run_bytes() + batch_bytes_) > memory_.merge_bytes;
+  return 2 * run_bytes() + batch_raw_ + batch_held_ + batch_streams_ * threads_ > memory_.merge_bytes;
 }
 
-FoldOutcome RunResults::FoldOne(size_t r, bool spill, uint32_t end, std::unique_ptr<StoredRun>* next) {
+FoldOutcome RunResults::FoldOne(size_t r, bool spill, uint32_t end, const std::vector<const StoredPartialBytes*>& bytes,
+                                std::unique_ptr<StoredRun>* next) {
   const std::vector<MeasureConfig>* configs = &plan_->reductions[r].configs;
   FoldInputs in;
   in.base_pieces = runs_[r]->pieces();
-  for (const auto& [shard, p] : batch_) in.partials.push_back(p->reductions[r].groups);
+  in.streams = bytes;
+  in.reduction = r;
+  for (const Pending& p : batch_) in.stream_groups.push_back(p.scanned.group_counts[r]);
   const std::vector<KeyRange> ranges = CutRanges(in, configs->size(), threads_);
   std::vector<std::string> bodies(ranges.size());
   std::vector<std::string*> outs;
@@ -113,17 +130,35 @@ RunResults::Folded RunResults::Fold() {
   Folded out;
   while (!batch_.empty()) {
     const bool spill = ShouldSpill();
-    const uint32_t end = batch_.back().first + 1;
-    std::vector<std::unique_ptr<StoredRun>> next(runs_.size());
+    const uint32_t end = batch_.back().shard + 1;
+    // Each partial's stored bytes: held, or opened again (one file each,
+    // shared by the key ranges' streams).
+    std::vector<std::unique_ptr<StoredPartialBytes>> opened(batch_.size());
+    std::vector<const StoredPartialBytes*> bytes;
     size_t bad = FoldOutcome::kNoPartial;
     Status why;
+    for (size_t i = 0; i < batch_.size() && bad == FoldOutcome::kNoPartial; ++i) {
+      if (batch_[i].held) {
+        bytes.push_back(batch_[i].held.get());
+        continue;
+      }
+      Result<std::unique_ptr<StoredPartialBytes>> o = open_(batch_[i].shard);
+      if (!o.ok()) {
+        bad = i;
+        why = o.status();
+        break;
+      }
+      opened[i] = std::move(*o);
+      bytes.push_back(opened[i].get());
+    }
+    std::vector<std::unique_ptr<StoredRun>> next(runs_.size());
     uint64_t groups = 0;
     for (size_t r = 0; r < runs_.size() && bad == FoldOutcome::kNoPartial; ++r) {
-      FoldOutcome o = FoldOne(r, spill, end, &next[r]);
+      FoldOutcome o = FoldOne(r, spill, end, bytes, &next[r]);
       if (!o.status.ok() && o.bad_partial == FoldOutcome::kNoPartial) {
         out.fatal = o.status;
         batch_.clear();
-        batch_groups_ = batch_bytes_ = 0;
+        batch_groups_ = batch_held_ = batch_streams_ = batch_raw_ = 0;
         return out;
       }
       bad = o.bad_partial;
@@ -131,17 +166,17 @@ RunResults::Folded RunResults::Fold() {
       groups += o.groups;
     }
     if (bad != FoldOutcome::kNoPartial) {  // drop it and fold the rest again
-      out.bad.emplace_back(batch_[bad].first, why.message());
+      out.bad.emplace_back(batch_[bad].shard, why.message());
       batch_.erase(batch_.begin() + static_cast<std::ptrdiff_t>(bad));
       continue;
     }
     for (size_t r = 0; r < runs_.size(); ++r) runs_[r] = std::move(next[r]);  // the old runs' files go
     run_groups_ = groups;
     ++folds_;
-    out.merged = std::move(batch_);
+    for (Pending& p : batch_) out.merged.emplace_back(p.shard, std::move(p.info));
     batch_.clear();
   }
-  batch_groups_ = batch_bytes_ = 0;
+  batch_groups_ = batch_held_ = batch_streams_ = batch_raw_ = 0;
   return out;
 }
 

@@ -5,13 +5,17 @@
 // key ranges, keeping each key's left fold in shard order, so the runs
 // are byte for byte what the in-memory tables would encode. A partial the
 // fold finds bad is dropped and the batch folded again without it; the
-// runs only change when a whole batch folded. The runs stay in memory while
+// runs only change when a whole batch folded. A batch's partials are read
+// as streams from their stored bytes (coordinator/merge/partial_stream.h),
+// so a batch is bounded by open streams, not by its partials' sizes. The
+// runs stay in memory while
 // they fit the merge's memory share; past it (with a spill folder) every
 // fold writes them to files there (MergeMemory below). Owned by the
 // coordinator's Merger; not thread-safe (Fold uses its own threads inside).
 #pragma once
 
 #include <cstdint>
+#include <functional>
 #include <memory>
 #include <string>
 #include <utility>
@@ -22,23 +26,35 @@
 #include "common/partial/group_table.h"
 #include "common/partial/partial_codec.h"
 #include "coordinator/merge/group_fold.h"
+#include "coordinator/merge/partial_stream.h"
 #include "coordinator/merge/run_cursor.h"
 #include "coordinator/merge/spill_folder.h"
 #include "coordinator/merge/stored_run.h"
 
 namespace fanfold {
 
-// What the runs may hold in memory. A fold holds the old runs, the pending
-// batch's partials and the new runs at once, so the new runs are written
-// to spill files once twice the old runs' and the batch's bytes would pass
-// merge_bytes (and from then on: runs only grow); a batch is folded once
-// its bodies reach a quarter of merge_bytes (or kMaxBatchBytes), at least
-// one partial. Without a spill folder the runs stay in memory.
+// What the runs may hold in memory. A fold holds the old runs, the new
+// runs and one stream per partial of the pending batch and key range
+// (coordinator/merge/partial_stream.h: zstd's window for the partial's
+// frame and small buffers, not the decompressed partial), so the new runs
+// are written to spill files once twice the old runs' bytes plus the
+// batch's decompressed bytes and its streams would pass merge_bytes (and
+// from then on: runs only grow). A batch is folded once its streams (over
+// every key range) take half of merge_bytes, or it has kMaxBatchPartials
+// partials (the open files and streams a fold may hold), or the stored
+// bytes it keeps in memory (without an opener) reach a quarter of
+// merge_bytes or kMaxBatchBytes; at least one partial. Without a spill
+// folder the runs stay in memory.
 struct MergeMemory {
   static constexpr uint64_t kDefaultMergeBytes = uint64_t{256} << 20;
   uint64_t merge_bytes = kDefaultMergeBytes;
   SpillFolder* spill = nullptr;  // REQUIRES: outlives the RunResults
 };
+
+// Opens a shard's stored partial again (a pack of the run directory), for
+// the scan when it joins a batch and for the fold. Without one, a batch
+// keeps its partials' stored bytes in memory.
+using PartialOpener = std::function<Result<std::unique_ptr<StoredPartialBytes>>(uint32_t shard)>;
 
 class RunResults {
  public:
@@ -50,16 +66,22 @@ class RunResults {
   // The same from the table's encoding (`groups` groups).
   void Start(size_t r, std::string encoded, uint64_t groups);
 
-  // Adds a shard's partial (REQUIRES: one group table per reduction,
-  // shards in ascending order) to the pending batch.
-  void Add(uint32_t shard, std::unique_ptr<OpenedPartial> p);
+  // Where partials are read from at fold time (see PartialOpener).
+  void SetOpener(PartialOpener open) { open_ = std::move(open); }
+  // Adds a shard's partial (shards in ascending order) to the pending
+  // batch: `bytes` are its stored bytes (header, compressed body), scanned
+  // now (ScanStoredPartial: the checksum unless checksum_checked, the
+  // totals' counts, each reduction's group count); with an opener they
+  // are let go and opened again to fold. Fails iff the scan does (the
+  // partial is then not added: the caller drops its shard).
+  Status Add(uint32_t shard, std::unique_ptr<StoredPartialBytes> bytes, bool checksum_checked);
   bool pending() const { return !batch_.empty(); }
   // True iff the pending batch is big enough to fold: its groups are
   // twice the runs' (rewriting the runs then costs at most about half of
-  // folding the batch), or its partials' bodies hold kMaxBatchBytes (the
-  // memory a batch may take).
+  // folding the batch), or it reached a limit of MergeMemory's comment.
   bool BatchFull() const;
   static constexpr uint64_t kMaxBatchBytes = uint64_t{64} << 20;
+  static constexpr size_t kMaxBatchPartials = 64;
 
   struct Folded {
     // The batch's partials that folded, in shard order (for the totals).
@@ -88,7 +110,8 @@ class RunResults {
   bool ShouldSpill() const;
   // Folds reduction r's run with the batch into *next (in memory or, with
   // spill, in files named after `end`, the batch's last shard + 1).
-  FoldOutcome FoldOne(size_t r, bool spill, uint32_t end, std::unique_ptr<StoredRun>* next);
+  FoldOutcome FoldOne(size_t r, bool spill, uint32_t end, const std::vector<const StoredPartialBytes*>& bytes,
+                      std::unique_ptr<StoredRun>* next);
 
   const Plan* plan_;
   size_t threads_;
@@ -96,9 +119,20 @@ class RunResults {
   uint64_t folds_ = 0;
   std::vector<std::unique_ptr<StoredRun>> runs_;  // per reduction
   uint64_t run_groups_ = 0;        // over every reduction
-  std::vector<std::pair<uint32_t, std::unique_ptr<OpenedPartial>>> batch_;
+  struct Pending {
+    uint32_t shard = 0;
+    std::unique_ptr<OpenedPartial> info;       // header and counts, no body
+    std::unique_ptr<StoredPartialBytes> held;  // the stored bytes, without an opener
+    ScannedPartial scanned;
+  };
+
+  const std::vector<size_t> measure_counts_;
+  PartialOpener open_;
+  std::vector<Pending> batch_;
   uint64_t batch_groups_ = 0;
-  uint64_t batch_bytes_ = 0;
+  uint64_t batch_held_ = 0;     // stored bytes held in memory
+  uint64_t batch_streams_ = 0;  // one stream of each partial
+  uint64_t batch_raw_ = 0;      // decompressed bodies
 };
 
 }  // namespace fanfold

@@ -84,6 +84,12 @@ void Merger::Drain() {
     // Bytes kept in memory since Add had their checksum checked there;
     // reloaded ones are checked again.
     const bool reloaded = bytes.empty() && reload_;
+    if (runs_) {  // the batch reads it as a stream at fold time
+      AddToRuns(next_, std::move(bytes), !reloaded);
+      ++next_;
+      if (runs_->BatchFull()) FoldRuns();
+      continue;
+    }
     Status s = reloaded ? reload_(next_, &bytes) : Status::Ok();
     if (s.ok()) s = OpenPartial(bytes, &p, /*checksum_checked=*/!reloaded);
     if (s.ok() && p.reductions.size() != results_.size())
@@ -97,7 +103,8 @@ void Merger::Drain() {
         EstimatedTableBytes() + EstimatedTableBytes(p) > std::min(memory_.merge_bytes / 2, kTableCeilingBytes))
       StartRuns();
     if (s.ok() && runs_) {  // the fold checks it, and drops it if bad
-      runs_->Add(next_, std::move(opened));
+      opened.reset();
+      AddToRuns(next_, std::move(bytes), /*checked=*/true);
       ++next_;
       if (runs_->BatchFull()) FoldRuns();
       continue;
@@ -146,6 +153,28 @@ void Merger::Drain() {
   if (runs_ && next_ == shard_count_ && runs_->pending()) FoldRuns();
 }
 
+void Merger::AddToRuns(uint32_t shard, std::string bytes, bool checked) {
+  std::unique_ptr<StoredPartialBytes> stored;
+  Status s;
+  if (open_) {  // read from the run directory: the batch holds no bytes
+    Result<std::unique_ptr<StoredPartialBytes>> o = open_(shard);
+    if (o.ok()) stored = std::move(*o);
+    else s = o.status();
+    checked = false;
+  } else {
+    if (bytes.empty() && reload_) {
+      s = reload_(shard, &bytes);
+      checked = false;
+    }
+    stored = StoredPartialBytes::InMemory(std::move(bytes));
+  }
+  if (s.ok()) s = runs_->Add(shard, std::move(stored), checked);
+  if (!s.ok()) {  // the checksum matched when it came, so this is a bug, a forged file or a lost one
+    late_failures_.push_back({shard, s.message()});
+    failed_[shard] = true;
+  }
+}
+
 void Merger::Account(uint32_t shard, OpenedPartial& p) {
   for (size_t r = 0; r < results_.size(); ++r) totals_.kept_by_reduction[r] += p.reductions[r].kept;
   totals_.shards_merged++;
@@ -186,6 +215,7 @@ uint64_t Merger::EstimatedTableBytes(const OpenedPartial& p) const {
 
 void Merger::StartRuns() {
   runs_ = std::make_unique<RunResults>(plan_, run_threads_, memory_);
+  if (open_) runs_->SetOpener(open_);
   for (size_t r = 0; r < results_.size(); ++r) {
     std::string run;
     ByteWriter w(&run);

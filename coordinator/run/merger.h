@@ -81,6 +81,12 @@ class Merger {
   using Reloader = std::function<Status(uint32_t shard, std::string* out)>;
   void SetReloader(Reloader reload) { reload_ = std::move(reload); }
 
+  // Where the sorted runs' batches read partials from (the run
+  // directory's packs, as streams: coordinator/merge/partial_stream.h);
+  // without one a batch holds its partials' stored bytes in memory.
+  // REQUIRES: called before the first Add.
+  void SetOpener(PartialOpener open) { open_ = std::move(open); }
+
   // The merge's memory share and where runs that do not fit it go (the
   // run directory's spill folder; null keeps them in memory). The results
   // stay in-memory tables while their estimated size (EstimatedTableBytes)
@@ -174,6 +180,11 @@ class Merger {
   void StartRuns();  // moves every reduction's table to a run
   void FoldRuns();   // folds the runs' pending batch, accounting for it
   Status VisitRunRows(size_t r, const RowVisitor& visit);
+  // Adds shard's partial to the runs' batch: its stored bytes (`bytes`,
+  // checksum already checked iff `checked`; empty = reload them), or,
+  // with an opener, the run directory's copy; a partial that does not
+  // scan is a late failure.
+  void AddToRuns(uint32_t shard, std::string bytes, bool checked);
 
   const Plan* plan_;
   uint32_t shard_count_;
@@ -189,6 +200,7 @@ class Merger {
   std::map<uint32_t, std::string> waiting_;  // early partials by shard ("" = reload it)
   uint64_t waiting_bytes_ = 0;               // their total size
   Reloader reload_;
+  PartialOpener open_;
   std::vector<bool> failed_;
   MergeTotals totals_;
   std::vector<MalformedReport> samples_;

@@ -97,6 +97,16 @@ void RunEngine::Prepare() {
     if (s.ok() && out->empty()) s = Status::Internal("no saved partial for shard " + std::to_string(shard));
     return s;
   });
+  merger_.SetOpener([this](uint32_t shard) -> Result<std::unique_ptr<StoredPartialBytes>> {
+    RunDirectory::StoredSpan span;
+    FF_RETURN_IF_ERROR(dir_.LocateStagedOrCommitted(shard, &span));
+    if (span.path.empty() && span.bytes.empty())
+      return Status::Internal("no saved partial for shard " + std::to_string(shard));
+    if (span.path.empty()) return StoredPartialBytes::InMemory(std::move(span.bytes));
+    std::unique_ptr<ReadableFile> file;
+    if (OsError e = dir_.platform().OpenForRead(span.path, &file); !e.ok()) return e.ToStatus("open", span.path);
+    return StoredPartialBytes::InFile(std::move(file), span.path, span.offset, span.length);
+  });
   const int asked = options_.workers > 0 ? options_.workers
                                          : static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
   workers_ = std::max(1, std::min<int>(asked, static_cast<int>(in_.pending.size())));

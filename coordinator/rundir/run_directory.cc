@@ -332,6 +332,29 @@ Status RunDirectory::LoadStagedOrCommitted(uint32_t shard, std::string* out) con
   return LoadPartial(shard, out);
 }
 
+Status RunDirectory::LocateStagedOrCommitted(uint32_t shard, StoredSpan* out) const {
+  *out = StoredSpan();
+  const uint64_t written = pack_size_ - stage_buffer_.size();
+  const uint32_t slot = SlotOf(shard);
+  for (const auto& [s, loc] : staged_) {
+    if (s != slot) continue;
+    if (loc.offset >= written) {
+      out->bytes.assign(stage_buffer_, loc.offset - written, loc.length);
+    } else {
+      out->path = PackPath(loc.pack) + ".tmp";
+      out->offset = loc.offset;
+      out->length = loc.length;
+    }
+    return Status::Ok();
+  }
+  auto it = index_.find(slot);
+  if (it == index_.end()) return Status::Ok();
+  out->path = PackPath(it->second.pack);
+  out->offset = it->second.offset;
+  out->length = it->second.length;
+  return Status::Ok();
+}
+
 void RunDirectory::DiscardPartial(uint32_t shard) { index_.erase(SlotOf(shard)); }
 
 Status RunDirectory::WriteFile(const std::string& name, std::string_view data) const {

@@ -95,6 +95,17 @@ class RunDirectory {
   std::string PartialFile(uint32_t shard) const;
   // Reads shard's partial staged in the open batch, else its committed one.
   Status LoadStagedOrCommitted(uint32_t shard, std::string* out) const;
+  // Where shard's partial is (staged in the open batch, else committed),
+  // to be read in pieces: a pack file and a byte range of it, or, while
+  // it still sits in the stage buffer, a copy of its bytes. An empty path
+  // and no bytes iff there is none.
+  struct StoredSpan {
+    std::string path;
+    uint64_t offset = 0;
+    uint64_t length = 0;
+    std::string bytes;
+  };
+  Status LocateStagedOrCommitted(uint32_t shard, StoredSpan* out) const;
   // Forgets shard's committed partial (a corrupt or stale one); a later
   // commit of the shard supersedes it on disk too.
   void DiscardPartial(uint32_t shard);
