@@ -4,6 +4,7 @@
 #include <doctest/doctest.h>
 #include <unistd.h>
 
+#include <algorithm>
 #include <filesystem>
 #include <fstream>
 #include <map>
@@ -52,6 +53,48 @@ std::string BigPartial(const Plan& plan, uint32_t shard) {
   EncodePartial(p, &out);
   return out;
 }
+
+// Shard s of a run with disjoint keys: `groups` groups, keys s*groups ..
+// s*groups+groups-1, so the runs grow by every partial.
+std::string DisjointPartial(const Plan& plan, uint32_t shard, int groups) {
+  std::vector<MeasureConfig> configs;
+  for (const auto& m : plan.reductions[0].measures) configs.push_back(m.config);
+  PartialState p(&configs);
+  p.header.fingerprint = plan.fingerprint;
+  p.header.shard_index = shard;
+  p.header.records = static_cast<uint64_t>(groups);
+  for (int g = 0; g < groups; ++g) {
+    std::string key;
+    AppendKeyValue(Value::Number(static_cast<double>(shard * groups + g)), &key);
+    MeasureState* const* states = p.reductions[0].groups.FindOrAdd(key);
+    const Value v = Value::Number(0.1 * g + shard);
+    for (size_t m = 0; m < configs.size(); ++m) states[m]->Add(&v);
+  }
+  std::string out;
+  EncodePartial(p, &out);
+  return out;
+}
+
+// A file that counts how many of its kind are open at once.
+struct OpenCount {
+  int now = 0;
+  int most = 0;
+  int opened = 0;
+};
+class CountedFile : public ReadableFile {
+ public:
+  CountedFile(std::unique_ptr<ReadableFile> f, OpenCount* c) : f_(std::move(f)), c_(c) {
+    c_->most = std::max(c_->most, ++c_->now);
+    ++c_->opened;
+  }
+  ~CountedFile() override { --c_->now; }
+  OsError Size(uint64_t* size) override { return f_->Size(size); }
+  OsError ReadAt(uint64_t offset, size_t n, char* buf) override { return f_->ReadAt(offset, n, buf); }
+
+ private:
+  std::unique_ptr<ReadableFile> f_;
+  OpenCount* c_;
+};
 
 size_t FilesIn(const std::string& dir) {
   std::error_code ec;
@@ -110,6 +153,70 @@ TEST_CASE("merger: spilled runs give the in-memory tables' bytes and leave no fi
       CHECK_FALSE(std::filesystem::exists(dir));
     }
   { std::ofstream(dir + "/stale.grp") << "x"; }
+  std::filesystem::remove_all(dir);
+}
+
+// Intent: with an opener (the run directory's packs), a batch reads its
+// partials as streams from one pack file: the tables' bytes at 1-3 key
+// ranges and under a share that spills; never more partials open at once
+// than RunResults::kMaxBatchPartials, and batches do grow to that rule (the
+// runs are not rewritten once per shard); a tiny share folds one at a time.
+TEST_CASE("merger: batches streamed from a pack keep the bytes and the open-file rule") {
+  const auto plan = SpillPlan();
+  const uint32_t n = 200;
+  std::string pack;
+  std::vector<std::pair<uint64_t, uint64_t>> where(n);  // offset, length
+  std::map<uint32_t, std::string> disk;
+  for (uint32_t s = 0; s < n; ++s) {
+    disk[s] = DisjointPartial(*plan, s, 40);
+    where[s] = {pack.size() + 10, disk[s].size()};
+    pack += "frame-hdr " + disk[s];
+  }
+  const std::string path =
+      std::filesystem::temp_directory_path() / ("ff-spill-pack-" + std::to_string(getpid()) + ".pack");
+  { std::ofstream(path, std::ios::binary) << pack; }
+  Merger tables(plan.get(), n);
+  tables.SetRunThreshold(0, 1);
+  for (uint32_t s = 0; s < n; ++s) REQUIRE(tables.Add(s, disk[s]).ok());
+  const std::string expected = MergerText(tables);
+
+  const std::string dir = std::filesystem::temp_directory_path() / ("ff-spill-stream-" + std::to_string(getpid()));
+  for (uint64_t share : {uint64_t{64} << 10, uint64_t{1} << 30})
+    for (size_t threads : {1, 3}) {
+      CAPTURE(share);
+      CAPTURE(threads);
+      Result<std::unique_ptr<SpillFolder>> folder = SpillFolder::Open(dir);
+      REQUIRE(folder.ok());
+      OpenCount count;
+      Merger m(plan.get(), n, /*waiting_budget=*/0);
+      m.SetRunThreshold(1, threads);
+      m.SetMemory(MergeMemory{share, folder->get()});
+      m.SetReloader([&](uint32_t s, std::string* out) {
+        *out = disk[s];
+        return Status::Ok();
+      });
+      m.SetOpener([&](uint32_t s) -> Result<std::unique_ptr<StoredPartialBytes>> {
+        std::unique_ptr<ReadableFile> f;
+        if (OsError e = Platform::Posix().OpenForRead(path, &f); !e.ok()) return e.ToStatus("open", path);
+        return StoredPartialBytes::InFile(std::make_unique<CountedFile>(std::move(f), &count), path, where[s].first,
+                                          where[s].second);
+      });
+      for (uint32_t s = 0; s < n; ++s) REQUIRE(m.Add(s == 0 ? 1 : s == 1 ? 0 : s, disk[s == 0 ? 1 : s == 1 ? 0 : s]).ok());
+      REQUIRE(m.complete());
+      REQUIRE(m.in_runs());
+      CHECK(m.late_failures().empty());
+      CHECK(MergerText(m) == expected);
+      CHECK(count.now == 0);
+      CHECK(count.most <= static_cast<int>(RunResults::kMaxBatchPartials));
+      if (share > (uint64_t{1} << 20)) {
+        CHECK(count.most > static_cast<int>(RunResults::kMaxBatchPartials) / 2);
+        CHECK(m.runs()->folds() < 12);
+      } else {
+        CHECK(count.most == 1);
+        CHECK(m.runs()->spilled());
+      }
+    }
+  std::filesystem::remove(path);
   std::filesystem::remove_all(dir);
 }
 
