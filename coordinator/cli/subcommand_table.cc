@@ -33,7 +33,7 @@ constexpr const char* kDigitsHelp =
 
 constexpr const char* kMemoryCapHelp =
     "bound the coordinator's memory to this many bytes, e.g. 512MiB or 4GiB (default: the job's \"memory_cap\", "
-    "else a quarter of the available memory); results do not change";
+    "else a quarter of the available memory, at most 128MiB); results do not change";
 
 // --memory-cap SIZE into *out unless empty ("" = not given).
 Status ParseMemoryCapIfGiven(const std::string& text, uint64_t* out) {

@@ -20,7 +20,7 @@ MemoryShares SplitMemoryCap(uint64_t cap) {
 
 uint64_t DefaultMemoryCap() {
   const uint64_t available = AvailableMemoryBytes();
-  return available == 0 ? kFallbackCap : available / 4;
+  return std::min(available == 0 ? kFallbackCap : available / 4, kDefaultCapCeiling);
 }
 
 uint64_t MinimumMergeBytes(const Plan& plan, size_t threads) {
@@ -54,7 +54,7 @@ Result<MemoryShares> ResolveMemoryCap(uint64_t flag_cap, const Plan& plan, size_
     return s;
   }
   MemoryShares s = SplitMemoryCap(std::max(DefaultMemoryCap(), least));
-  s.source = "the default (a quarter of the available memory)";
+  s.source = "the default (a quarter of the available memory, at most 128 MiB)";
   return s;
 }
 

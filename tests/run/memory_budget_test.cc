@@ -4,9 +4,11 @@
 
 #include <doctest/doctest.h>
 
+#include <algorithm>
 #include <string>
 
 #include "common/job/job_spec.h"
+#include "common/port/process_control.h"
 
 namespace fanfold {
 namespace {
@@ -50,6 +52,20 @@ TEST_CASE("memory budget: flag, then job, then default") {
   REQUIRE(s.ok());
   CHECK(s->cap >= MinimumMemoryCap(*plain, 1));
   CHECK(s->cap == std::max(DefaultMemoryCap(), MinimumMemoryCap(*plain, 1)));
+}
+
+// Intent: the default is a quarter of the available memory, never past the
+// ceiling (what keeps the coordinator flat as groups grow) nor, on a
+// machine that does not say, past it either.
+TEST_CASE("memory budget: the default cap has a ceiling") {
+  const uint64_t available = AvailableMemoryBytes();
+  const uint64_t expected = std::min(available == 0 ? kFallbackCap : available / 4, kDefaultCapCeiling);
+  CHECK(DefaultMemoryCap() == expected);
+  CHECK(DefaultMemoryCap() <= uint64_t{128} << 20);
+  const auto plain = PlanWith("", 2);
+  Result<MemoryShares> s = ResolveMemoryCap(0, *plain);
+  REQUIRE(s.ok());
+  CHECK(s->source == "the default (a quarter of the available memory, at most 128 MiB)");
 }
 
 // Intent: the least workable cap grows with measures and key ranges, and a
