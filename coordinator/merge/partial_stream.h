@@ -29,8 +29,6 @@
 #include "common/partial/partial_codec.h"
 #include "common/port/platform.h"
 
-struct ZSTD_DCtx_s;
-
 namespace fanfold {
 
 class StoredPartialBytes {
@@ -72,7 +70,7 @@ Status ScanStoredPartial(const StoredPartialBytes& bytes, const std::vector<size
                          bool checksum_checked, OpenedPartial* info, ScannedPartial* scanned);
 
 // Decodes a stored body's bytes in order (zstd stream or raw) into a
-// window; internal to the streams, declared here for their members.
+// window: coordinator/merge/body_reader.h, internal to the streams.
 class BodyReader;
 
 class PartialGroupStream {
