@@ -20,7 +20,10 @@ integers, exact in both):
   with it: refused before the run journals a start (no worker started);
 * a "memory_cap" that is no byte count: refused naming /memory_cap;
 * `merge` of two parts, `refresh` and `scale` under --memory-cap 6MiB:
-  the same bytes, spilled (summary.json's "memory"), no spill folder left.
+  the same bytes, spilled (summary.json's "memory"), no spill folder left;
+* the default cap (no flag): at most 128 MiB (summary.json), the same bytes;
+* 3 key ranges at -j 3 under 6 MiB (batches read as streams from the packs
+  by each range): the same bytes.
 """
 
 import glob
@@ -120,6 +123,30 @@ def main():
             "SELECT meter, COUNT(*), SUM(wh), MAX(wh) FROM r GROUP BY meter ORDER BY meter")]
         c.check(len(want) > 100001, "only %d groups; the test wants 100k+" % (len(want) - 1))
         c.check(base.decode().splitlines() == want, "the in-memory result differs from sqlite3 GROUP BY")
+
+        # The default cap (no flag, no "memory_cap"): a quarter of the
+        # available memory, at most 128 MiB (memory_budget.h); the same
+        # bytes, whatever path the merge took.
+        rd = env.path("runs", "default-cap")
+        out = env.path("default-cap.csv")
+        rc, _, err = env.fanfold_run("run", job, "-j", "2", "-q", "--run-dir", rd, "-o", out)
+        if c.check(rc == 0, "default cap: exit %d: %s" % (rc, lib.tail(err))):
+            c.check(read(out) == base, "default cap: result differs from the in-memory merge's")
+            with open(os.path.join(rd, "summary.json")) as f:
+                memory = json.load(f)["memory"]
+            c.check(0 < memory["cap_bytes"] <= 128 << 20 and "at most 128 MiB" in memory["cap_from"],
+                    "default cap: summary.json says %r" % memory)
+            c.check(not os.path.exists(os.path.join(rd, "merge")), "default cap: the spill folder is left behind")
+
+        # Streamed batches over several key ranges, many shards' packs
+        # read at once: -j 3 and 3 key ranges under the 6 MiB cap.
+        rd = env.path("runs", "ranges")
+        out = env.path("ranges.csv")
+        done = subprocess.run([env.fanfold, "run", job, "-j", "3", "-q", "--memory-cap", "6MiB", "--run-dir", rd,
+                               "-o", out], env=with_switch("cap:3"), capture_output=True)
+        if c.check(done.returncode == 0, "3 key ranges: exit %d: %s" % (done.returncode,
+                                                                      lib.tail(done.stderr.decode()))):
+            c.check(read(out) == base, "3 key ranges under a 6 MiB cap: result differs from the in-memory merge's")
 
         # SIGKILL while spilling, then resume.
         rd = env.path("runs", "killed")
