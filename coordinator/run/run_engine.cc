@@ -269,8 +269,12 @@ Status RunEngine::WriteResult(size_t r) {
   std::snprintf(took, sizeof took, "%.3f", ElapsedSeconds() - began);
   LogDebug("output: reduction " + std::to_string(r) + ": " + std::to_string(done->rows_written) + " rows written in " +
            took + " s, ordered " +
-           (done->sort_files > 0 ? "through " + std::to_string(done->sort_files) + " sort files" : "in memory") +
-           " (sort budget " + std::to_string(sort_bytes_) + " bytes)");
+           (done->streamed     ? std::string("as the merge walked them (no sort)")
+            : done->sort_files > 0 ? "through " + std::to_string(done->sort_files) + " sort files"
+                                   : std::string("in memory")) +
+           " (sort budget " + std::to_string(sort_bytes_) + " bytes" +
+           (done->out_of_order_at > 0 ? "; row " + std::to_string(done->out_of_order_at) + " came out of order" : "") +
+           ")");
   return Status::Ok();
 }
 
