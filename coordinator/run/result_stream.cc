@@ -5,10 +5,12 @@
 #include <cstdlib>
 #include <filesystem>
 #include <memory>
+#include <thread>
 
 #include "common/port/files/durable_write.h"
 #include "common/port/files/file_util.h"
 #include "coordinator/output/ordered_rows.h"
+#include "coordinator/output/row_pipe.h"
 #include "coordinator/output/row_sorter.h"
 #include "coordinator/output/row_writer.h"
 #include "coordinator/output/sort_key.h"
@@ -130,25 +132,45 @@ Status StreamInOrder(Merger& merger, const Plan& plan, size_t r, const std::vect
   writers.reserve(files.copies.size());
   for (const Copy& c : files.copies) writers.emplace_back(spec.emit.format, columns, c.options, std::vector<size_t>(), c.sink);
   for (RowWriter& w : writers) FF_RETURN_IF_ERROR(w.Begin());
+  // The merge's walk (decoding, finalizing, the rows step) runs on a thread
+  // of its own; this one orders and writes. Nothing else touches the
+  // merger meanwhile.
   RowsStep step(rp.rows);
-  std::string prev, key;
-  uint64_t arrival = 0, seen = 0;
-  bool in_order = true;
-  Status walked = merger.VisitRows(r, [&](std::vector<Cell>* row) {
-    if (++seen % kPollRows == 0 && t.should_stop && t.should_stop()) return StopStatus();
-    if (!step.Apply(row)) return Status::Ok();
-    key.clear();
-    AppendSortKey(*row, order, arrival++, &key);
-    if (arrival > 1 && !(prev < key)) {
-      in_order = false;
-      out->out_of_order_at = arrival;
-      return Status::Internal("rows out of the result's order");  // stops the walk; in_order tells it apart
-    }
-    prev.swap(key);
-    for (RowWriter& w : writers) FF_RETURN_IF_ERROR(w.Row(*row));
-    return Status::Ok();
+  RowPipe pipe;
+  Status walked;
+  std::thread walker([&] {
+    walked = merger.VisitRows(r, [&](std::vector<Cell>* row) {
+      if (!step.Apply(row)) return Status::Ok();
+      return pipe.Put(row) ? Status::Ok() : Status::Interrupted("the result's writers stopped");
+    });
+    pipe.Finish();
   });
+  std::string prev, key;
+  uint64_t arrival = 0;
+  bool in_order = true;
+  auto write = [&]() -> Status {
+    std::vector<Cell>* rows = nullptr;
+    for (size_t n; (n = pipe.Next(&rows)) > 0;) {
+      if (t.should_stop && t.should_stop()) return StopStatus();  // a poll every batch
+      for (size_t i = 0; i < n; ++i) {
+        key.clear();
+        AppendSortKey(rows[i], order, arrival++, &key);
+        if (arrival > 1 && !(prev < key)) {
+          in_order = false;
+          out->out_of_order_at = arrival;
+          return Status::Ok();
+        }
+        prev.swap(key);
+        for (RowWriter& w : writers) FF_RETURN_IF_ERROR(w.Row(rows[i]));
+      }
+    }
+    return Status::Ok();
+  };
+  const Status written = write();
+  pipe.Close();  // a walk still going stops at its next full batch
+  walker.join();
   if (!in_order) return Status::Ok();  // files drops the temporaries
+  FF_RETURN_IF_ERROR(written);
   FF_RETURN_IF_ERROR(walked);
   for (RowWriter& w : writers) FF_RETURN_IF_ERROR(w.End());
   FF_RETURN_IF_ERROR(PublishFiles(files));

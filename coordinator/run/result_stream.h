@@ -12,7 +12,9 @@
 // is above the last: when the merge's key-byte order is the result's
 // (fixed-width text keys, for one) nothing is sorted. The first row out
 // of order drops those files unpublished and the rows are walked again
-// through the ordering above (at most one walk wasted).
+// through the ordering above (at most one walk wasted). On that path the
+// merge's walk (decode, finalize, rows step) runs on a thread of its own,
+// handing rows in batches (RowPipe) to this one, which orders and writes.
 // The bytes are those of SortRows + RenderTable over the whole table,
 // whatever the budget and path. Coordinator main thread only.
 #pragma once
