@@ -157,7 +157,7 @@ Status RunEngine::Run() {
       StartEventLine(in_.mode, CurrentPid(), workers_, in_.pending.size(), in_.reused.size(), WallNanos()));
   if (in_.pending.empty()) return Status::Ok();
   if (!transport.ok()) return transport.status();
-  Result<std::vector<uint32_t>> all = DispatchOrder(list_.shards);
+  Result<std::vector<uint32_t>> all = DispatchOrder(list_.shards, workers_);
   if (!all.ok()) return all.status();
   std::unordered_set<uint32_t> pending(in_.pending.begin(), in_.pending.end());
   std::vector<uint32_t> order;
