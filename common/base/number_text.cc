@@ -71,14 +71,19 @@ void AppendWideInt(__int128 v, std::string* out) {
   // Digits of the magnitude, least significant first; unsigned so that the
   // most negative value has a magnitude too.
   unsigned __int128 m = v < 0 ? -static_cast<unsigned __int128>(v) : static_cast<unsigned __int128>(v);
-  char digits[40];
-  size_t n = 0;
-  do {
-    digits[n++] = static_cast<char>('0' + static_cast<int>(m % 10));
+  char text[41];  // filled from the end: the digits, then the sign
+  size_t at = sizeof text;
+  while (m > UINT64_MAX) {  // 128-bit division only for the digits past 64 bits
+    text[--at] = static_cast<char>('0' + static_cast<int>(m % 10));
     m /= 10;
-  } while (m != 0);
-  if (v < 0) out->push_back('-');
-  while (n > 0) out->push_back(digits[--n]);
+  }
+  uint64_t small = static_cast<uint64_t>(m);
+  do {
+    text[--at] = static_cast<char>('0' + static_cast<int>(small % 10));
+    small /= 10;
+  } while (small != 0);
+  if (v < 0) text[--at] = '-';
+  out->append(text + at, sizeof text - at);
 }
 
 }  // namespace fanfold

@@ -161,6 +161,8 @@ TEST_CASE("AppendWideInt prints exact integers") {
   CHECK(text(-1) == "-1");
   CHECK(text(INT64_MIN) == "-9223372036854775808");    // Python: str(-2**63)
   CHECK(text(UINT64_MAX) == "18446744073709551615");   // Python: str(2**64 - 1)
+  CHECK(text(static_cast<__int128>(UINT64_MAX) + 1) == "18446744073709551616");     // Python: str(2**64)
+  CHECK(text(-static_cast<__int128>(UINT64_MAX) - 1) == "-18446744073709551616");  // Python: str(-2**64)
   CHECK(text(static_cast<__int128>(UINT64_MAX) * 1000 + 7) ==
         "18446744073709551615007");                    // Python: str((2**64 - 1) * 1000 + 7)
   const __int128 most_negative = -(static_cast<__int128>(1) << 126) * 2;
