@@ -22,7 +22,9 @@ fallback spills sorted files), and in the in-memory tables (no streaming
 tried), every result file and every shown file are byte for byte the same,
 and each reduction's rows equal sqlite3's (Python's stdlib module) GROUP BY
 with ORDER BY (BINARY collation compares text bytewise, as fanfold does;
-integers numerically); no temporary or sort file is left behind.
+integers numerically); no temporary or sort file is left behind. SIGINT
+and SIGKILL sent as the output stage starts, then `resume`: the same bytes
+and nothing left behind.
 """
 
 import csv
@@ -32,6 +34,7 @@ import json
 import os
 import random
 import re
+import signal
 import sqlite3
 import subprocess
 
@@ -107,10 +110,44 @@ def run(env, c, job, run_dir, switches, label):
         with open(env.path("shown", label, "%s.%s" % (name, fmt)), "rb") as f:
             shown[name] = f.read()
         c.check(shown[name] == kept[name], "%s: %s: the shown file differs from the run directory's" % (label, name))
-    left = [p for p in glob.glob(os.path.join(run_dir, "**", "*"), recursive=True) if "sort-" in p or ".tmp" in p]
-    left += [p for p in glob.glob(env.path("shown", label, "*")) if not p.endswith((".csv", ".json", ".ndjson"))]
-    c.check(not left, "%s: files left: %s" % (label, left))
+    c.check(not leftovers(env, run_dir, label), "%s: files left: %s" % (label, leftovers(env, run_dir, label)))
     return kept, shown, err
+
+
+def leftovers(env, run_dir, label):
+    """Sort files and temporaries (hidden ones included) left behind."""
+    left = [p for p in glob.glob(os.path.join(run_dir, "**", "*"), recursive=True) if "sort-" in p or ".tmp" in p]
+    left += glob.glob(os.path.join(run_dir, ".*.tmp*"))
+    shown = os.path.dirname(env.path("shown", label, "x"))
+    return left + [os.path.join(shown, n) for n in os.listdir(shown) if not n.endswith((".csv", ".json", ".ndjson"))]
+
+
+def interrupt_streaming(env, c, job, run_dir, sig, label, expected):
+    """Sends sig once the output stage starts (rows streaming to the files);
+    then resumes if needed: the same bytes, and nothing left behind."""
+    env_vars = dict(os.environ, FANFOLD_TEST_ONLY_MERGE_RUNS="50")
+    env_vars.pop("FANFOLD_TEST_ONLY_SORT_BYTES", None)
+    p = subprocess.Popen([env.fanfold, "run", job, "--run-dir", run_dir, "-j", "2", "--log-level", "debug",
+                          "--progress", "off"], stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, cwd=env.tmp,
+                         env=env_vars)
+    sent = False
+    for line in p.stderr:
+        if not sent and b"before the output stage" in line:
+            p.send_signal(sig)
+            sent = True
+    rc = p.wait(timeout=300)
+    c.check(sent, "%s: the output stage was never reached" % label)
+    if sig == signal.SIGINT:
+        c.check(rc in (0, 130), "%s: exit %d" % (label, rc))
+    if rc != 0:
+        done = subprocess.run([env.fanfold, "resume", run_dir, "--progress", "off"], stdout=subprocess.PIPE,
+                              stderr=subprocess.PIPE, cwd=env.tmp, env=env_vars, timeout=300)
+        c.check(done.returncode == 0, "%s: resume exit %d: %s" % (label, done.returncode,
+                                                                 lib.tail(done.stderr.decode())))
+    for name, _, fmt, _, _, _ in REDUCTIONS:
+        with open(os.path.join(run_dir, "result-%s.%s" % (name, fmt)), "rb") as f:
+            c.check(f.read() == expected[name], "%s: %s differs from the uninterrupted run's" % (label, name))
+    c.check(not leftovers(env, run_dir, "runs"), "%s: files left: %s" % (label, leftovers(env, run_dir, "runs")))
 
 
 def output_lines(err):
@@ -161,6 +198,9 @@ def main():
         for name, _, _, _, _, _ in REDUCTIONS:
             c.check(results["runs"][name] == results["tables"][name], "%s: runs and tables differ" % name)
             c.check(results["runs_spilled"][name] == results["tables"][name], "%s: spilled and tables differ" % name)
+        # Ctrl-C and SIGKILL while rows stream to the files, then resume.
+        for sig, label in ((signal.SIGINT, "runs_sigint"), (signal.SIGKILL, "runs_sigkill")):
+            interrupt_streaming(env, c, env.path("job-runs.json"), env.path("runs", label), sig, label, results["runs"])
         # The case is only a late one if the long name does not sort last.
         c.check(expected["late"][-1][0] != LATE_NAME, "late: %s sorts last; the data does not test a late row" % LATE_NAME)
     c.exit()
