@@ -73,7 +73,11 @@ void AppendCellJson(const Cell& c, std::string* out) {
 
 void AppendCsvField(std::string_view s, char sep, std::string* out) {
   bool quote = false;
-  for (char c : s) quote |= (c == sep || c == '"' || c == '\n' || c == '\r');
+  // '"', '\n' and '\r' all lie at or below '"': one compare per byte mostly.
+  for (size_t i = 0; i < s.size() && !quote; ++i) {
+    const unsigned char c = static_cast<unsigned char>(s[i]);
+    quote = c == static_cast<unsigned char>(sep) || (c <= '"' && (c == '"' || c == '\n' || c == '\r'));
+  }
   if (!quote) {
     out->append(s);
     return;

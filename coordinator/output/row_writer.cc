@@ -1,11 +1,37 @@
 #include "coordinator/output/row_writer.h"
 
 #include <algorithm>
+#include <cmath>
 
 #include "common/base/cell_text.h"
+#include "common/base/number_text.h"
 #include "coordinator/output/cell_render.h"
 
 namespace fanfold {
+namespace {
+
+// Appends one CSV field: AppendCsvField(PlainText(c, digits)) without the
+// text copy, and without the quoting scan for cells whose text never needs
+// quotes (numbers, booleans, null: digits, signs, '.', 'e', "inf", "nan").
+void AppendCsvCell(const Cell& c, int digits, std::string* out) {
+  switch (c.kind) {
+    case Cell::Kind::kNull: return;
+    case Cell::Kind::kBool: *out += c.boolean ? "true" : "false"; return;
+    case Cell::Kind::kInt: AppendWideInt(c.integer, out); return;
+    case Cell::Kind::kFloat:
+      if (digits <= 0 || !std::isfinite(c.number)) {
+        char buf[kNumberTextMax];
+        out->append(FormatNumber(c.number, buf));
+        return;
+      }
+      break;
+    case Cell::Kind::kString: AppendCsvField(c.str, ',', out); return;
+    default: break;
+  }
+  AppendCsvField(PlainText(c, digits), ',', out);
+}
+
+}  // namespace
 
 TableWidths::TableWidths(const std::vector<std::string>& columns, RenderOptions options)
     : options_(std::move(options)), width_(columns.size()) {
@@ -72,7 +98,7 @@ Status RowWriter::Row(const std::vector<Cell>& row) {
     case OutputFormat::kCsv:
       for (size_t c = 0; c < row.size(); ++c) {
         if (c) buf_.push_back(',');
-        AppendCsvField(PlainText(row[c], options_.DigitsFor(c)), ',', &buf_);
+        AppendCsvCell(row[c], options_.DigitsFor(c), &buf_);
       }
       buf_.push_back('\n');
       break;

@@ -11,7 +11,9 @@ namespace fanfold {
 namespace {
 
 void AppendBigEndian(uint64_t v, std::string* out) {
-  for (int shift = 56; shift >= 0; shift -= 8) out->push_back(static_cast<char>(static_cast<uint8_t>(v >> shift)));
+  char bytes[8];
+  for (int i = 0; i < 8; ++i) bytes[i] = static_cast<char>(static_cast<uint8_t>(v >> (56 - 8 * i)));
+  out->append(bytes, sizeof bytes);
 }
 
 // F as 8 bytes whose unsigned order is F's numeric order (-0 already +0).
@@ -39,12 +41,14 @@ void AppendInteger(__int128 v, std::string* out) {
 }
 
 void AppendEscaped(const std::string& s, std::string* out) {
-  for (char ch : s) {
-    out->push_back(ch);
-    if (ch == '\0') out->push_back(static_cast<char>(0xFF));
+  // Copied in stretches between NULs (most texts have none).
+  size_t at = 0;
+  for (size_t nul; (nul = s.find('\0', at)) != std::string::npos; at = nul + 1) {
+    out->append(s, at, nul + 1 - at);
+    out->push_back(static_cast<char>(0xFF));
   }
-  out->push_back('\0');
-  out->push_back('\0');
+  out->append(s, at, std::string::npos);
+  out->append(2, '\0');
 }
 
 }  // namespace

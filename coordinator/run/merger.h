@@ -156,7 +156,8 @@ class Merger {
   // is the one way the output stage reads the merge's result, whether it
   // is a table or a run. Fails if merging pushed a bounded measure past its
   // limit. REQUIRES: complete(); r < the plan's reduction count; called
-  // once per r (or Finish instead).
+  // once per r (or Finish instead), or, while in_runs(), again (each walk
+  // starts over: the output stage walks again when rows came out of order).
   using RowVisitor = std::function<Status(std::vector<Cell>* row)>;
   Status VisitRows(size_t r, const RowVisitor& visit);
   // Reduction r's finished table, sorted by key: VisitRows collected into

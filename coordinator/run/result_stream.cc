@@ -5,10 +5,12 @@
 #include <cstdlib>
 #include <filesystem>
 #include <memory>
+#include <thread>
 
 #include "common/port/files/durable_write.h"
 #include "common/port/files/file_util.h"
 #include "coordinator/output/ordered_rows.h"
+#include "coordinator/output/row_pipe.h"
 #include "coordinator/output/row_sorter.h"
 #include "coordinator/output/row_writer.h"
 #include "coordinator/output/sort_key.h"
@@ -65,6 +67,121 @@ Copy ToFile(StagedFile& f, RenderOptions options) {
   return {std::move(options), [&f](std::string_view bytes) { return f.Append(bytes); }};
 }
 
+// The files a result is written to: the run directory's copy, and the
+// shown file when it is one (stdout is written after, from the ordered
+// rows). Dropped unpublished, they remove their temporaries.
+struct Files {
+  std::unique_ptr<StagedFile> kept;
+  std::unique_ptr<StagedFile> shown;
+  Status shown_failed;  // the shown file could not be begun: reported after the kept copy is in place
+  std::vector<Copy> copies;
+};
+
+Status OpenFiles(Platform& platform, const ResultStreamTargets& t, Files* f) {
+  Result<std::unique_ptr<StagedFile>> kept = BeginFile(platform, t.run_dir_file);
+  if (!kept.ok()) return kept.status();
+  f->kept = std::move(*kept);
+  f->copies = {ToFile(*f->kept, {})};
+  if (!t.shown || t.shown_path.empty()) return Status::Ok();
+  const std::string parent = std::filesystem::path(t.shown_path).parent_path().string();
+  if (!parent.empty()) (void)platform.CreateDirectories(parent);  // a failure shows when the file is made
+  Result<std::unique_ptr<StagedFile>> shown = BeginFile(platform, t.shown_path);
+  if (!shown.ok()) {
+    f->shown_failed = shown.status();  // the run directory's copy is still written, as before streaming
+    return Status::Ok();
+  }
+  f->shown = std::move(*shown);
+  if (t.shown_options.rounds()) {
+    f->copies.push_back(ToFile(*f->shown, t.shown_options));
+  } else {  // the same bytes: rendered once, written to both
+    StagedFile* a = f->kept.get();
+    StagedFile* b = f->shown.get();
+    f->copies.front().sink = [a, b](std::string_view bytes) {
+      FF_RETURN_IF_ERROR(a->Append(bytes));
+      return b->Append(bytes);
+    };
+  }
+  return Status::Ok();
+}
+
+// Publishes the kept copy, then the shown file (or reports why there is none).
+Status PublishFiles(Files& f) {
+  FF_RETURN_IF_ERROR(f.kept->Publish());
+  FF_RETURN_IF_ERROR(f.shown_failed);
+  if (f.shown) FF_RETURN_IF_ERROR(f.shown->Publish());
+  return Status::Ok();
+}
+
+// The optimistic path: rows written to the files as the merge hands them
+// over, for as long as each row's sort key is above the one before (the
+// merge walks runs in key-byte order, which is the result's own for many
+// keys, e.g. fixed-width text). The first row below its predecessor stops
+// the walk: the files are dropped unpublished (nothing of them is kept)
+// and *streamed is false, so the caller orders every row from a new walk.
+// At most one walk and its writing are wasted; when the rows were in
+// order, they never pass through the sort's encode, arena and decode.
+Status StreamInOrder(Merger& merger, const Plan& plan, size_t r, const std::vector<std::string>& columns,
+                     const ResultStreamTargets& t, ResultStreamOutcome* out, bool* streamed) {
+  *streamed = false;
+  const ReductionPlan& rp = plan.reductions[r];
+  const ReductionSpec& spec = plan.spec.reductions[r];
+  const std::vector<SortColumn> order = SortColumnsFor(columns, rp.group.size(), spec.emit.order);
+  Files files;
+  FF_RETURN_IF_ERROR(OpenFiles(*t.platform, t, &files));
+  std::vector<RowWriter> writers;
+  writers.reserve(files.copies.size());
+  for (const Copy& c : files.copies) writers.emplace_back(spec.emit.format, columns, c.options, std::vector<size_t>(), c.sink);
+  for (RowWriter& w : writers) FF_RETURN_IF_ERROR(w.Begin());
+  // The merge's walk (decoding, finalizing, the rows step) runs on a thread
+  // of its own; this one orders and writes. Nothing else touches the
+  // merger meanwhile.
+  RowsStep step(rp.rows);
+  RowPipe pipe;
+  Status walked;
+  std::thread walker([&] {
+    walked = merger.VisitRows(r, [&](std::vector<Cell>* row) {
+      if (!step.Apply(row)) return Status::Ok();
+      return pipe.Put(row) ? Status::Ok() : Status::Interrupted("the result's writers stopped");
+    });
+    pipe.Finish();
+  });
+  std::string prev, key;
+  uint64_t arrival = 0;
+  bool in_order = true;
+  auto write = [&]() -> Status {
+    std::vector<Cell>* rows = nullptr;
+    for (size_t n; (n = pipe.Next(&rows)) > 0;) {
+      if (t.should_stop && t.should_stop()) return StopStatus();  // a poll every batch
+      for (size_t i = 0; i < n; ++i) {
+        key.clear();
+        AppendSortKey(rows[i], order, arrival++, &key);
+        if (arrival > 1 && !(prev < key)) {
+          in_order = false;
+          out->out_of_order_at = arrival;
+          return Status::Ok();
+        }
+        prev.swap(key);
+        for (RowWriter& w : writers) FF_RETURN_IF_ERROR(w.Row(rows[i]));
+      }
+    }
+    return Status::Ok();
+  };
+  const Status written = write();
+  pipe.Close();  // a walk still going stops at its next full batch
+  walker.join();
+  if (!in_order) return Status::Ok();  // files drops the temporaries
+  FF_RETURN_IF_ERROR(written);
+  FF_RETURN_IF_ERROR(walked);
+  for (RowWriter& w : writers) FF_RETURN_IF_ERROR(w.End());
+  FF_RETURN_IF_ERROR(PublishFiles(files));
+  out->rows = step.counts();
+  out->rows_written = writers.front().rows();
+  out->sort_files = 0;
+  out->streamed = true;
+  *streamed = true;
+  return Status::Ok();
+}
+
 }  // namespace
 
 Result<uint64_t> TestOnlySortBytes(uint64_t fallback) {
@@ -89,6 +206,16 @@ Result<ResultStreamOutcome> WriteResultStream(Merger& merger, const Plan& plan, 
   FF_RETURN_IF_ERROR(RemoveStaleSortFiles(platform, t.spill_dir));
   std::vector<std::string> columns = rp.columns;
   for (const AddedColumn& a : rp.rows.add) columns.push_back(a.name);
+  const OutputFormat format = spec.emit.format;
+  // Rows that may already come in the result's order are first tried
+  // straight to the files: runs (walked in key-byte order), no limit (a
+  // heap keeps few rows anyway), not the aligned table (it reads its rows
+  // twice) and not stdout (written only once the kept copy is in place).
+  if (merger.in_runs() && !spec.emit.limit && format != OutputFormat::kTable && (!t.shown || !t.shown_path.empty())) {
+    bool streamed = false;
+    FF_RETURN_IF_ERROR(StreamInOrder(merger, plan, r, columns, t, &out, &streamed));
+    if (streamed) return out;
+  }
   OrderedRows rows(SortColumnsFor(columns, rp.group.size(), spec.emit.order), spec.emit.limit,
                    std::max(t.sort_bytes, kMinSortBytes), platform, t.spill_dir);
   RowsStep step(rp.rows);
@@ -104,37 +231,11 @@ Result<ResultStreamOutcome> WriteResultStream(Merger& merger, const Plan& plan, 
   // Both are temporaries renamed into place at the end, the run directory's
   // first; a shown file is written in the same pass, stdout only after the
   // run directory's copy is in place (nothing shown of a result not kept).
-  const OutputFormat format = spec.emit.format;
-  Result<std::unique_ptr<StagedFile>> kept = BeginFile(platform, t.run_dir_file);
-  if (!kept.ok()) return kept.status();
-  std::vector<Copy> copies = {ToFile(**kept, {})};
-  std::unique_ptr<StagedFile> shown_file;
-  Status shown_failed;
-  if (t.shown && !t.shown_path.empty()) {
-    const std::string parent = std::filesystem::path(t.shown_path).parent_path().string();
-    if (!parent.empty()) (void)platform.CreateDirectories(parent);  // a failure shows when the file is made
-    Result<std::unique_ptr<StagedFile>> f = BeginFile(platform, t.shown_path);
-    if (f.ok()) {
-      shown_file = std::move(*f);
-      if (t.shown_options.rounds()) {
-        copies.push_back(ToFile(*shown_file, t.shown_options));
-      } else {  // the same bytes: rendered once, written to both
-        StagedFile* a = kept->get();
-        StagedFile* b = shown_file.get();
-        copies.front().sink = [a, b](std::string_view bytes) {
-          FF_RETURN_IF_ERROR(a->Append(bytes));
-          return b->Append(bytes);
-        };
-      }
-    } else {
-      shown_failed = f.status();  // the run directory's copy is still written, as before streaming
-    }
-  }
-  FF_RETURN_IF_ERROR(WriteRows(rows, format, columns, copies, t, &out.rows_written));
-  FF_RETURN_IF_ERROR((*kept)->Publish());
-  FF_RETURN_IF_ERROR(shown_failed);
-  if (shown_file) FF_RETURN_IF_ERROR(shown_file->Publish());
-  if (!t.shown || shown_file) return out;
+  Files files;
+  FF_RETURN_IF_ERROR(OpenFiles(platform, t, &files));
+  FF_RETURN_IF_ERROR(WriteRows(rows, format, columns, files.copies, t, &out.rows_written));
+  FF_RETURN_IF_ERROR(PublishFiles(files));
+  if (!t.shown || !t.shown_path.empty()) return out;
   auto to_stdout = [](std::string_view bytes) {
     std::fwrite(bytes.data(), 1, bytes.size(), stdout);
     return std::ferror(stdout) ? Status::IoError("cannot write the result to stdout") : Status::Ok();

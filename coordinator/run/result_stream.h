@@ -6,8 +6,17 @@
 // written row by row (RowWriter) to the run directory's result file (every
 // digit) and then to the shown output (a file, or stdout under the title;
 // rounded as asked). Files are written atomically (temporary + rename).
+// When the merge holds sorted runs, the result has no limit, is not the
+// aligned table and goes to files only, the rows are first written
+// straight to the files as they come, for as long as each one's sort key
+// is above the last: when the merge's key-byte order is the result's
+// (fixed-width text keys, for one) nothing is sorted. The first row out
+// of order drops those files unpublished and the rows are walked again
+// through the ordering above (at most one walk wasted). On that path the
+// merge's walk (decode, finalize, rows step) runs on a thread of its own,
+// handing rows in batches (RowPipe) to this one, which orders and writes.
 // The bytes are those of SortRows + RenderTable over the whole table,
-// whatever the budget. Coordinator main thread only.
+// whatever the budget and path. Coordinator main thread only.
 #pragma once
 
 #include <cstdint>
@@ -47,6 +56,12 @@ struct ResultStreamOutcome {
   RowsStepCounts rows;        // what the rows step did
   uint64_t rows_written = 0;  // rows in the result
   uint64_t sort_files = 0;    // sort files written (0: ordered in memory)
+  // The rows came in the result's order and went straight to the files,
+  // never sorted (see WriteResultStream).
+  bool streamed = false;
+  // Tried that, but row number out_of_order_at (1-based, past the rows
+  // step) came before the one ahead of it: the rows were then sorted.
+  uint64_t out_of_order_at = 0;
 };
 
 // REQUIRES: merger complete; r a reduction of plan; targets.platform set.

@@ -167,7 +167,7 @@ Status RunEngine::Run() {
       StartEventLine(in_.mode, CurrentPid(), workers_, in_.pending.size(), in_.reused.size(), WallNanos()));
   if (in_.pending.empty()) return Status::Ok();
   if (!transport.ok()) return transport.status();
-  Result<std::vector<uint32_t>> all = DispatchOrder(list_.shards);
+  Result<std::vector<uint32_t>> all = DispatchOrder(list_.shards, workers_);
   if (!all.ok()) return all.status();
   std::unordered_set<uint32_t> pending(in_.pending.begin(), in_.pending.end());
   std::vector<uint32_t> order;
@@ -279,8 +279,12 @@ Status RunEngine::WriteResult(size_t r) {
   std::snprintf(took, sizeof took, "%.3f", ElapsedSeconds() - began);
   LogDebug("output: reduction " + std::to_string(r) + ": " + std::to_string(done->rows_written) + " rows written in " +
            took + " s, ordered " +
-           (done->sort_files > 0 ? "through " + std::to_string(done->sort_files) + " sort files" : "in memory") +
-           " (sort budget " + std::to_string(sort_bytes_) + " bytes)");
+           (done->streamed     ? std::string("as the merge walked them (no sort)")
+            : done->sort_files > 0 ? "through " + std::to_string(done->sort_files) + " sort files"
+                                   : std::string("in memory")) +
+           " (sort budget " + std::to_string(sort_bytes_) + " bytes" +
+           (done->out_of_order_at > 0 ? "; row " + std::to_string(done->out_of_order_at) + " came out of order" : "") +
+           ")");
   return Status::Ok();
 }
 

@@ -66,11 +66,8 @@ Status RunShards(const ShardList& list, const std::vector<uint32_t>& order, Tran
     return Status::Ok();
   };
 
-  while (!queue.empty() || in_flight > 0) {
-    if (options.should_stop && options.should_stop()) {
-      result->interrupted = true;
-      break;
-    }
+  // Hands queued shards to every worker with room.
+  auto dispatch = [&]() -> Status {
     for (int w = 0; w < transport.worker_count() && !queue.empty(); ++w) {
       while (!queue.empty()) {
         auto [shard, attempt] = queue.front();
@@ -94,6 +91,15 @@ Status RunShards(const ShardList& list, const std::vector<uint32_t>& order, Tran
         ++in_flight;
       }
     }
+    return Status::Ok();
+  };
+
+  while (!queue.empty() || in_flight > 0) {
+    if (options.should_stop && options.should_stop()) {
+      result->interrupted = true;
+      break;
+    }
+    FF_RETURN_IF_ERROR(dispatch());
     TransportEvent ev;
     bool got = false;
     FF_RETURN_IF_ERROR(transport.Wait(limit_ns ? 50 : 200, &ev, &got));
@@ -127,6 +133,10 @@ Status RunShards(const ShardList& list, const std::vector<uint32_t>& order, Tran
     if (rec.end_ns < rec.start_ns) rec.end_ns = rec.start_ns;
     switch (ev.kind) {
       case TransportEvent::Kind::kDone: {
+        // The worker that sent it takes its next shard first: persisting
+        // and merging this partial (long for one with many groups) then
+        // overlap that shard's work instead of leaving the worker idle.
+        FF_RETURN_IF_ERROR(dispatch());
         Status rejected = DecodePartialHeader(ev.partial, &rec.header);
         if (rejected.ok() && options.on_partial) FF_RETURN_IF_ERROR(options.on_partial(job.shard, ev.partial));
         if (rejected.ok()) rejected = merger.Add(job.shard, std::move(ev.partial), &rec.header);

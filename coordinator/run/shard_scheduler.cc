@@ -6,11 +6,12 @@
 
 namespace fanfold {
 
-Result<std::vector<uint32_t>> DispatchOrder(const std::vector<Shard>& shards) {
+Result<std::vector<uint32_t>> DispatchOrder(const std::vector<Shard>& shards, int workers) {
   std::vector<uint32_t> order(shards.size());
   std::iota(order.begin(), order.end(), 0);
-  std::stable_sort(order.begin(), order.end(),
-                   [&](uint32_t a, uint32_t b) { return shards[a].bytes() > shards[b].bytes(); });
+  if (workers > 1)
+    std::stable_sort(order.begin(), order.end(),
+                     [&](uint32_t a, uint32_t b) { return shards[a].bytes() > shards[b].bytes(); });
   const char* sw = std::getenv("FANFOLD_TEST_ONLY_DISPATCH");
   if (sw == nullptr || *sw == '\0') return order;
   std::string mode(sw);

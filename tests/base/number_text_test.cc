@@ -6,6 +6,8 @@
 #include <doctest/doctest.h>
 
 #include <charconv>
+#include <cmath>
+#include <cstdint>
 #include <cstdio>
 #include <sstream>
 #include <string>
@@ -95,6 +97,54 @@ PYEOF
   CHECK(checked > 24000);
 }
 
+// The text FormatNumber gave before its short-decimal path: std::to_chars
+// (the C++ standard library's shortest round-trip) in the same notation.
+std::string ToCharsText(double v) {
+  if (v == 0) v = 0;
+  const double mag = std::fabs(v);
+  char buf[kNumberTextMax];
+  const bool fixed = v == 0 || (mag >= 1e-6 && mag < 1e16);
+  std::to_chars_result r = fixed ? std::to_chars(buf, buf + sizeof buf, v, std::chars_format::fixed)
+                                 : std::to_chars(buf, buf + sizeof buf, v, std::chars_format::scientific);
+  return std::string(buf, r.ptr);
+}
+
+// Intent: short decimals (the path that skips to_chars) print exactly as
+// std::to_chars prints them: every decimal of up to 4 fractional digits in
+// a range, random ones of every size up to and past 2^52 (where the path
+// gives way), their neighbouring doubles, and quotients that are not short.
+TEST_CASE("FormatNumber's short decimals equal std::to_chars") {
+  int checked = 0;
+  auto same = [&](double v) {
+    CAPTURE(v);
+    CHECK(Format(v) == ToCharsText(v));
+    ++checked;
+  };
+  const double pow10[] = {1, 10, 100, 1000, 10000, 100000};
+  for (int k = 0; k <= 5; ++k)
+    for (int64_t i = -30000; i <= 30000; ++i) same(static_cast<double>(i) / pow10[k]);
+  uint64_t seed = 20261203;
+  auto next = [&seed]() {  // splitmix64
+    uint64_t z = (seed += 0x9E3779B97F4A7C15ull);
+    z = (z ^ (z >> 30)) * 0xBF58476D1CE4E5B9ull;
+    z = (z ^ (z >> 27)) * 0x94D049BB133111EBull;
+    return z ^ (z >> 31);
+  };
+  for (int j = 0; j < 400000; ++j) {
+    const int bits = static_cast<int>(next() % 56);  // magnitudes up to 2^55
+    const int64_t i = static_cast<int64_t>(next() >> (64 - bits - 1)) * ((next() & 1) ? 1 : -1);
+    const double v = static_cast<double>(i) / pow10[next() % 6];
+    same(v);
+    same(std::nextafter(v, INFINITY));
+    same(std::nextafter(v, -INFINITY));
+    same(static_cast<double>(i) / 7);
+  }
+  for (double edge : {0x1p52, 0x1p52 - 1, 0x1p52 / 10, 0x1p52 / 10000, 4503599627370.4951, 0.5, 0.05, 0.0001,
+                      0.00015, 1e-6, 9.9999, 99999.99995, 0.1 + 0.2})
+    for (double v : {edge, -edge, std::nextafter(edge, 0.0), std::nextafter(edge, INFINITY)}) same(v);
+  CHECK(checked > 1900000);
+}
+
 }  // namespace fanfold
 
 namespace fanfold {
@@ -111,6 +161,8 @@ TEST_CASE("AppendWideInt prints exact integers") {
   CHECK(text(-1) == "-1");
   CHECK(text(INT64_MIN) == "-9223372036854775808");    // Python: str(-2**63)
   CHECK(text(UINT64_MAX) == "18446744073709551615");   // Python: str(2**64 - 1)
+  CHECK(text(static_cast<__int128>(UINT64_MAX) + 1) == "18446744073709551616");     // Python: str(2**64)
+  CHECK(text(-static_cast<__int128>(UINT64_MAX) - 1) == "-18446744073709551616");  // Python: str(-2**64)
   CHECK(text(static_cast<__int128>(UINT64_MAX) * 1000 + 7) ==
         "18446744073709551615007");                    // Python: str((2**64 - 1) * 1000 + 7)
   const __int128 most_negative = -(static_cast<__int128>(1) << 126) * 2;

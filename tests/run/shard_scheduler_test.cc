@@ -32,8 +32,8 @@ std::vector<Shard> Sized(const std::vector<uint64_t>& sizes) {
   return shards;
 }
 
-std::vector<uint32_t> Order(const std::vector<Shard>& shards) {
-  Result<std::vector<uint32_t>> r = DispatchOrder(shards);
+std::vector<uint32_t> Order(const std::vector<Shard>& shards, int workers = 2) {
+  Result<std::vector<uint32_t>> r = DispatchOrder(shards, workers);
   REQUIRE(r.ok());
   return *r;
 }
@@ -42,6 +42,15 @@ std::vector<uint32_t> Order(const std::vector<Shard>& shards) {
 TEST_CASE("shard_scheduler: largest shard first") {
   ::unsetenv(kSwitch);
   CHECK(Order(Sized({10, 500, 30, 7000, 2})) == std::vector<uint32_t>{3, 1, 2, 0, 4});
+}
+
+// Intent: one worker has nothing to balance: index order, so partials
+// reach the merge (which folds in shard order) in the order it takes them.
+TEST_CASE("shard_scheduler: one worker goes in index order") {
+  ::unsetenv(kSwitch);
+  CHECK(Order(Sized({10, 500, 30, 7000, 2}), 1) == std::vector<uint32_t>{0, 1, 2, 3, 4});
+  SwitchGuard guard("reverse");
+  CHECK(Order(Sized({10, 500, 30, 7000, 2}), 1) == std::vector<uint32_t>{4, 3, 2, 1, 0});
 }
 
 // Intent: equal sizes keep index order, so the order is the same on every run.
@@ -91,7 +100,7 @@ TEST_CASE("shard_scheduler: the shuffle switch is seeded and reproducible") {
 TEST_CASE("shard_scheduler: a malformed switch is an error") {
   for (const char* bad : {"shuffle:", "shuffle:12x", "sideways"}) {
     SwitchGuard guard(bad);
-    Result<std::vector<uint32_t>> r = DispatchOrder(Sized({1, 2}));
+    Result<std::vector<uint32_t>> r = DispatchOrder(Sized({1, 2}), 2);
     REQUIRE_FALSE(r.ok());
     CHECK(r.status().message().find(std::string("found '") + bad + "'") != std::string::npos);
   }
