@@ -72,6 +72,10 @@ struct NdjsonLineParser::Impl {
   // False iff the line holds no backslash at all (most lines): then no
   // string in it has an escape to check or undo.
   bool line_has_backslash = true;
+  // The group IndexGroup accepted: its text and the next structural index
+  // of it not yet given to a line.
+  const char* group = nullptr;
+  size_t group_next = 0;
 
   // Room for len bytes of line (stage 1's indexes, unescaped strings).
   bool Reserve(size_t len) {
@@ -332,6 +336,48 @@ LineVerdict NdjsonLineParser::Parse(const char* p, size_t len, size_t capacity, 
   // break or the chunk's padding (spaces), which no rule of the walk takes.
   if (idx[n] == len && IsJsonSpace(p[len])) return im.Walk<true>(p, idx, n, len, slots);
   return im.Walk<false>(p, idx, n, len, slots);
+}
+
+bool NdjsonLineParser::IndexGroup(const char* p, size_t len, size_t capacity) {
+  Impl& im = *impl_;
+  im.group = nullptr;
+  if (capacity < len + simdjson::SIMDJSON_PADDING || len > simdjson::SIMDJSON_MAXSIZE_BYTES || !im.Reserve(len))
+    return false;
+  if (im.stage1->stage1(reinterpret_cast<const uint8_t*>(p), len, simdjson::stage1_mode::regular) !=
+      simdjson::SUCCESS)
+    return false;
+  im.group = p;
+  im.group_next = 0;
+  return true;
+}
+
+LineVerdict NdjsonLineParser::ParseGrouped(const char* p, size_t len, std::vector<PointerNode>* nodes,
+                                           uint64_t generation, Value* slots) {
+  Impl& im = *impl_;
+  im.nodes = nodes;
+  im.generation = generation;
+  im.strings_end = im.strings.get();
+  im.line_has_backslash = std::memchr(p, '\\', len) != nullptr;
+  uint32_t* const idx = im.stage1->structural_indexes.get();
+  const size_t total = im.stage1->n_structural_indexes;  // idx[total] is the group's length
+  const auto begin = static_cast<uint32_t>(p - im.group);
+  const auto end = static_cast<uint32_t>(begin + len);
+  size_t first = im.group_next;
+  while (first < total && idx[first] < begin) ++first;  // an earlier line skipped as blank
+  // The first index past the line, by binary search: within the next 64
+  // indexes for most lines (a few dozen structurals each), else the rest.
+  const size_t near = std::min(total, first + 64);
+  uint32_t* const stop = near > first && idx[near - 1] >= end ? idx + near : idx + total;
+  const size_t last = static_cast<size_t>(std::lower_bound(idx + first, stop, end) - idx);
+  im.group_next = last;
+  // The line's indexes, relative to the group, ended as stage 1 ends a
+  // line's own (its length at index n, p[len] a space): the next line's
+  // first index is lent for that and given back.
+  const uint32_t lent = idx[last];
+  idx[last] = end;
+  const LineVerdict v = im.Walk<true>(im.group, idx + first, last - first, end, slots);
+  idx[last] = lent;
+  return v;
 }
 
 }  // namespace fanfold
