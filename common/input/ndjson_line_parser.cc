@@ -72,10 +72,13 @@ struct NdjsonLineParser::Impl {
   // False iff the line holds no backslash at all (most lines): then no
   // string in it has an escape to check or undo.
   bool line_has_backslash = true;
-  // The group IndexGroup accepted: its text and the next structural index
-  // of it not yet given to a line.
+  // The group IndexGroup accepted: its text, its end, the next structural
+  // index of it not yet given to a line, and its first backslash at or
+  // after the current line (group_end if none; null before the first line).
   const char* group = nullptr;
+  const char* group_end = nullptr;
   size_t group_next = 0;
+  const char* next_backslash = nullptr;
 
   // Room for len bytes of line (stage 1's indexes, unescaped strings).
   bool Reserve(size_t len) {
@@ -347,7 +350,9 @@ bool NdjsonLineParser::IndexGroup(const char* p, size_t len, size_t capacity) {
       simdjson::SUCCESS)
     return false;
   im.group = p;
+  im.group_end = p + len;
   im.group_next = 0;
+  im.next_backslash = nullptr;  // not looked for yet
   return true;
 }
 
@@ -357,7 +362,12 @@ LineVerdict NdjsonLineParser::ParseGrouped(const char* p, size_t len, std::vecto
   im.nodes = nodes;
   im.generation = generation;
   im.strings_end = im.strings.get();
-  im.line_has_backslash = std::memchr(p, '\\', len) != nullptr;
+  // One search per backslash in the group, not one per line.
+  if (im.next_backslash == nullptr || im.next_backslash < p) {
+    const void* b = std::memchr(p, '\\', static_cast<size_t>(im.group_end - p));
+    im.next_backslash = b != nullptr ? static_cast<const char*>(b) : im.group_end;
+  }
+  im.line_has_backslash = im.next_backslash < p + len;
   uint32_t* const idx = im.stage1->structural_indexes.get();
   const size_t total = im.stage1->n_structural_indexes;  // idx[total] is the group's length
   const auto begin = static_cast<uint32_t>(p - im.group);
