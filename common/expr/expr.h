@@ -8,6 +8,7 @@
 
 #include <memory>
 #include <string>
+#include <cstdint>
 #include <string_view>
 #include <utility>
 #include <vector>
@@ -41,14 +42,15 @@ class Expr {
   struct BatchScratch {
     std::vector<Value> regs;                               // per node and record
     std::vector<std::pair<const Value*, size_t>> columns;  // per node: base, stride
+    std::vector<uint8_t> batched;                          // per node: evaluated for the whole batch
   };
 
   // Evaluates a batch of records at once: for each r in sel[0, n), the
   // record whose slots are rows + r * width, its result written to
   // out[r * out_stride]. The same values as Eval per record (a differential
   // test compares them), with the evaluator's dispatch paid per batch, not
-  // per record; every operand is evaluated, also those that and, or,
-  // coalesce and branch would skip (no function has effects). Strings go to
+  // per record. Operands that and, or, coalesce and branch may skip are
+  // evaluated per record, only where needed, as Eval does. Strings go to
   // *arena as with Eval. out may be a slot of rows the expression does not
   // read. REQUIRES: every sel[j] < cap; rows has cap records of width slots.
   void EvalBatch(const Value* rows, size_t width, const uint32_t* sel, size_t n, size_t cap, Value* out,

@@ -71,12 +71,12 @@ struct Expr::Program {
   // Evaluates the expression on the records rows + r * width for each r in
   // sel[0, n), writing record r's result to out[r * out_stride]. Gives what
   // Eval gives on each record (tests/expr/batch_eval_test.cc compares them
-  // on generated expressions): each node is evaluated once per record, in
-  // node order, into registers (node k of record r at regs[k * cap + r]), so the
-  // op is chosen once per node and batch, not once per node and record.
-  // Every node is evaluated, also the operands that and, or, coalesce and
-  // branch would skip: the language's functions have no effects and never
-  // fail, so only the work differs, not the results.
+  // on generated expressions): each node that every record needs is
+  // evaluated once per record, in node order, into registers (node k of
+  // record r at regs[k * cap + r]), so the op is chosen once per node and
+  // batch, not once per node and record. The operands that and, or,
+  // coalesce and branch may skip (the right side, the arguments after the
+  // first) are evaluated per record by EvalAt, only where needed.
   // REQUIRES: as Expr::EvalBatch; *scratch is the caller's (reused, so
   // that only its first batches allocate). out may be a slot of rows (a
   // derived field): record r's result is written after its operands are read.

@@ -36,8 +36,35 @@ void Expr::Program::EvalBatch(const Value* rows, size_t width, const uint32_t* s
   if (regs->size() < count * cap) regs->resize(count * cap);
   if (scratch->columns.size() < count) scratch->columns.resize(count);
   auto* columns = scratch->columns.data();
+  // Which nodes every record needs: from the root down, all kids but the
+  // operands a short-circuit op may skip (children come before parents).
+  std::vector<uint8_t>& batched = scratch->batched;
+  batched.assign(count, 0);
+  batched[root] = 1;
+  for (size_t k = count; k-- > 0;) {
+    if (!batched[k]) continue;
+    const ExprNode& nd = nodes[k];
+    switch (nd.op) {
+      case ExprOp::kAnd:
+      case ExprOp::kOr: batched[nd.kids[0]] = 1; break;
+      case ExprOp::kCoalesce:
+      case ExprOp::kBranch: batched[args[nd.first_arg]] = 1; break;
+      default:
+        for (const int32_t kid : nd.kids)
+          if (kid >= 0) batched[kid] = 1;
+    }
+  }
+  // Node q of record r where a short-circuit op needs it: its column when
+  // it has one (a field, a constant, a node evaluated for the batch), else
+  // evaluated for this record alone.
+  auto lazy = [&](int32_t q, uint32_t r) -> Value {
+    if (batched[q] || nodes[q].op == ExprOp::kSlot || nodes[q].op == ExprOp::kConst)
+      return Column(columns[q]).at(r);
+    return EvalAt(q, rows + r * width, arena);
+  };
   for (size_t k = 0; k < count; ++k) {
     const ExprNode& nd = nodes[k];
+    if (!batched[k] && nd.op != ExprOp::kSlot && nd.op != ExprOp::kConst) continue;
     if (nd.op == ExprOp::kSlot) {
       columns[k] = {rows + nd.slot, width};
       if (k == root)
@@ -65,8 +92,8 @@ void Expr::Program::EvalBatch(const Value* rows, size_t width, const uint32_t* s
     switch (nd.op) {
       case ExprOp::kConst:
       case ExprOp::kSlot: break;  // handled above
-      case ExprOp::kAnd: FF_EACH_RECORD(Value::Bool(a.at(r).Truthy() && b.at(r).Truthy()));
-      case ExprOp::kOr: FF_EACH_RECORD(Value::Bool(a.at(r).Truthy() || b.at(r).Truthy()));
+      case ExprOp::kAnd: FF_EACH_RECORD(Value::Bool(a.at(r).Truthy() && lazy(nd.kids[1], r).Truthy()));
+      case ExprOp::kOr: FF_EACH_RECORD(Value::Bool(a.at(r).Truthy() || lazy(nd.kids[1], r).Truthy()));
       case ExprOp::kNot: FF_EACH_RECORD(Value::Bool(!a.at(r).Truthy()));
       case ExprOp::kCompare: FF_EACH_RECORD(Value::Bool(CompareValues(nd.compare, a.at(r), b.at(r))));
       case ExprOp::kCompareConst: FF_EACH_RECORD(Value::Bool(CompareToConstant(nd.compare, a.at(r), nd.constant)));
@@ -97,7 +124,7 @@ void Expr::Program::EvalBatch(const Value* rows, size_t width, const uint32_t* s
           const uint32_t r = sel[j];
           Value v = Value::Missing();
           for (int q = 0; q < nd.nargs; ++q) {
-            const Value& x = Column(columns[args[nd.first_arg + q]]).at(r);
+            Value x = q == 0 ? Column(columns[args[nd.first_arg]]).at(r) : lazy(args[nd.first_arg + q], r);
             if (x.is_present()) {
               v = x;
               break;
@@ -109,7 +136,7 @@ void Expr::Program::EvalBatch(const Value* rows, size_t width, const uint32_t* s
       case ExprOp::kBranch:
         for (size_t j = 0; j < n; ++j) {
           const uint32_t r = sel[j];
-          dst[r * ds] = EvalBranch(nd.nargs, [&](int q) { return Column(columns[args[nd.first_arg + q]]).at(r); });
+          dst[r * ds] = EvalBranch(nd.nargs, [&](int q) { return lazy(args[nd.first_arg + q], r); });
         }
         break;
     }
