@@ -68,6 +68,7 @@ struct NdjsonLineParser::Impl {
   size_t strings_cap = 0;
   uint8_t* strings_end = nullptr;
   std::vector<PointerNode>* nodes = nullptr;
+  PointerNode* node_data = nullptr;  // nodes->data(), for the current line
   uint64_t generation = 0;
   // False iff the line holds no backslash at all (most lines): then no
   // string in it has an escape to check or undo.
@@ -101,7 +102,7 @@ struct NdjsonLineParser::Impl {
   // The child of ni that `key` names and no earlier duplicate took, or -1.
   int32_t Member(int32_t ni, std::string_view key) {
     if (ni < 0) return -1;
-    const PointerNode& parent = (*nodes)[ni];
+    const PointerNode& parent = node_data[ni];
     if ((parent.child_lengths & TokenLengthBit(key.size())) == 0) return -1;
     // A key is followed by at least '"' and ':' and the line's padding, so
     // 8 bytes from its start are readable.
@@ -110,7 +111,7 @@ struct NdjsonLineParser::Impl {
       // The one child the key can be (pointer_trie.h): compare it whole.
       const int32_t c = parent.child_table[ChildHash(parent, prefix, key.size())];
       if (c < 0) return -1;
-      PointerNode& child = (*nodes)[c];
+      PointerNode& child = node_data[c];
       if (child.prefix != prefix || child.token.size() != key.size()) return -1;
       if (key.size() > 8 &&
           (key.size() <= 16 ? child.suffix != TokenSuffix(key.data(), key.size())
@@ -121,7 +122,7 @@ struct NdjsonLineParser::Impl {
       return c;
     }
     for (uint32_t c : parent.children) {
-      PointerNode& child = (*nodes)[c];
+      PointerNode& child = node_data[c];
       if (child.prefix != prefix || child.token.size() != key.size()) continue;
       if (key.size() > 8 && std::memcmp(child.token.data() + 8, key.data() + 8, key.size() - 8) != 0) continue;
       if (child.seen == generation) return -1;  // duplicate keys: the first one wins
@@ -132,9 +133,9 @@ struct NdjsonLineParser::Impl {
   }
 
   int32_t Element(int32_t ni, int64_t i) const {
-    if (ni < 0 || i > (*nodes)[ni].max_child_index) return -1;
-    for (uint32_t c : (*nodes)[ni].children)
-      if ((*nodes)[c].index == i) return static_cast<int32_t>(c);
+    if (ni < 0 || i > node_data[ni].max_child_index) return -1;
+    for (uint32_t c : node_data[ni].children)
+      if (node_data[c].index == i) return static_cast<int32_t>(c);
     return -1;
   }
 
@@ -236,7 +237,7 @@ array_begin:
 array_value:
   node = Element(stack[depth - 1].node, stack[depth - 1].index);
 value : {
-  const int slot = node >= 0 ? (*nodes)[node].slot : -1;
+  const int slot = node >= 0 ? node_data[node].slot : -1;
   const char c = at(i);
   switch (c) {
     case '{':
@@ -328,6 +329,7 @@ LineVerdict NdjsonLineParser::Parse(const char* p, size_t len, size_t capacity, 
   if (capacity < len + simdjson::SIMDJSON_PADDING) return LineVerdict::kTooLong;  // the caller's contract
   if (len > simdjson::SIMDJSON_MAXSIZE_BYTES || !im.Reserve(len)) return LineVerdict::kTooLong;
   im.nodes = nodes;
+  im.node_data = nodes->data();
   im.generation = generation;
   const simdjson::error_code err =
       im.stage1->stage1(reinterpret_cast<const uint8_t*>(p), len, simdjson::stage1_mode::regular);
@@ -360,6 +362,7 @@ LineVerdict NdjsonLineParser::ParseGrouped(const char* p, size_t len, std::vecto
                                            uint64_t generation, Value* slots) {
   Impl& im = *impl_;
   im.nodes = nodes;
+  im.node_data = nodes->data();
   im.generation = generation;
   im.strings_end = im.strings.get();
   // One search per backslash in the group, not one per line.
