@@ -199,6 +199,7 @@ struct NdjsonLineParser::Impl {
 template <bool kSentinel>
 LineVerdict NdjsonLineParser::Impl::Walk(const char* p, const uint32_t* idx, size_t n, size_t len, Value* slots) {
   const bool every = checks == ValueChecks::kEveryValue;
+  const bool backslash = line_has_backslash;
   // The character at structural i (NUL past the last one).
   auto at = [&](size_t i) -> char { return kSentinel || i < n ? p[idx[i]] : '\0'; };
   // Where the token at structural i ends: the next structural, or the end.
@@ -251,7 +252,7 @@ value : {
     case '"': {
       // A string no pointer reads in a line without backslashes has
       // nothing to check (stage 1 checked its UTF-8 and control bytes).
-      if (slot < 0 && !line_has_backslash) break;
+      if (slot < 0 && !backslash) break;
       std::string_view s;
       if (!StringAt(p + idx[i], token_end(i), slot >= 0, &s)) return LineVerdict::kInvalid;
       if (slot >= 0) slots[slot] = Value::String(s);
