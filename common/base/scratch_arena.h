@@ -33,13 +33,26 @@ class ScratchArena {
     if (n == 0) return {};
     char* p = Allocate(n);
     // Short strings (ids, names, timestamps) without a call to memcpy: two
-    // overlapping 8-byte moves cover 8..16 bytes, reading only s's bytes.
+    // overlapping moves of 4, 8 or 16 bytes cover 4..32 bytes, reading
+    // only s's bytes.
     if (n >= 8 && n <= 16) {
       uint64_t head, tail;
       std::memcpy(&head, s.data(), 8);
       std::memcpy(&tail, s.data() + n - 8, 8);
       std::memcpy(p, &head, 8);
       std::memcpy(p + n - 8, &tail, 8);
+    } else if (n >= 4 && n < 8) {
+      uint32_t head, tail;
+      std::memcpy(&head, s.data(), 4);
+      std::memcpy(&tail, s.data() + n - 4, 4);
+      std::memcpy(p, &head, 4);
+      std::memcpy(p + n - 4, &tail, 4);
+    } else if (n > 16 && n <= 32) {
+      char head[16], tail[16];
+      std::memcpy(head, s.data(), 16);
+      std::memcpy(tail, s.data() + n - 16, 16);
+      std::memcpy(p, head, 16);
+      std::memcpy(p + n - 16, tail, 16);
     } else {
       std::memcpy(p, s.data(), n);
     }

@@ -27,6 +27,11 @@ Value Expr::Eval(const Value* slots, ScratchArena* arena) const {
   return program_->Eval(slots, arena);
 }
 
+void Expr::EvalBatch(const Value* rows, size_t width, const uint32_t* sel, size_t n, size_t cap, Value* out,
+                     size_t out_stride, BatchScratch* scratch, ScratchArena* arena) const {
+  program_->EvalBatch(rows, width, sel, n, cap, out, out_stride, scratch, arena);
+}
+
 const std::string& Expr::text() const { return program_->text; }
 
 int Expr::DirectSlot() const {

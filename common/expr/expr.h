@@ -8,7 +8,9 @@
 
 #include <memory>
 #include <string>
+#include <cstdint>
 #include <string_view>
+#include <utility>
 #include <vector>
 
 #include "common/expr/ast.h"
@@ -35,6 +37,24 @@ class Expr {
   // REQUIRES: slots has one Value per slot of the FieldTable used to compile.
   // The result may point into slots' strings or into *arena.
   Value Eval(const Value* slots, ScratchArena* arena) const;
+
+  // Room EvalBatch reuses between calls: one per evaluating thread.
+  struct BatchScratch {
+    std::vector<Value> regs;                               // per node and record
+    std::vector<std::pair<const Value*, size_t>> columns;  // per node: base, stride
+    std::vector<uint8_t> batched;                          // per node: evaluated for the whole batch
+  };
+
+  // Evaluates a batch of records at once: for each r in sel[0, n), the
+  // record whose slots are rows + r * width, its result written to
+  // out[r * out_stride]. The same values as Eval per record (a differential
+  // test compares them), with the evaluator's dispatch paid per batch, not
+  // per record. Operands that and, or, coalesce and branch may skip are
+  // evaluated per record, only where needed, as Eval does. Strings go to
+  // *arena as with Eval. out may be a slot of rows the expression does not
+  // read. REQUIRES: every sel[j] < cap; rows has cap records of width slots.
+  void EvalBatch(const Value* rows, size_t width, const uint32_t* sel, size_t n, size_t cap, Value* out,
+                 size_t out_stride, BatchScratch* scratch, ScratchArena* arena) const;
 
   const std::string& text() const;
 

@@ -1,28 +1,9 @@
 #include "common/expr/program.h"
 
 #include "common/expr/conditional_functions.h"
-#include "common/expr/number_arithmetic.h"
+#include "common/expr/node_ops.h"
 
 namespace fanfold {
-namespace {
-
-Value Arithmetic(ExprOp op, const Value& l, const Value& r) {
-  Value x, y;
-  if (!l.AsNumeric(&x) || !r.AsNumeric(&y)) return Value::Missing();
-  NumberOp nop = NumberOp::kMod;
-  switch (op) {
-    case ExprOp::kAdd: nop = NumberOp::kAdd; break;
-    case ExprOp::kSub: nop = NumberOp::kSub; break;
-    case ExprOp::kMul: nop = NumberOp::kMul; break;
-    case ExprOp::kDiv: nop = NumberOp::kDiv; break;
-    default: break;
-  }
-  // Overflow to infinity (or NaN) has no place in a group key or a sum:
-  // ApplyNumberOp gives Missing, like any other unusable number.
-  return ApplyNumberOp(nop, x, y);
-}
-
-}  // namespace
 
 Value Expr::Program::EvalCall(const ExprNode& n, const Value* slots, ScratchArena* arena) const {
   Value a[3];
@@ -51,20 +32,15 @@ Value Expr::Program::EvalAt(int32_t index, const Value* slots, ScratchArena* are
     }
     case ExprOp::kIn: {
       Value a;
-      const Value& v = KidRef(n, 0, slots, arena, &a);
-      return Value::Bool(v.is_present() && sets[n.slot].Contains(v) != n.negated);
+      return InSetOf(sets[n.slot], n.negated, KidRef(n, 0, slots, arena, &a));
     }
     case ExprOp::kAdd:
     case ExprOp::kSub:
     case ExprOp::kMul:
     case ExprOp::kDiv:
     case ExprOp::kMod:
-      return Arithmetic(n.op, Kid(n, 0, slots, arena), Kid(n, 1, slots, arena));
-    case ExprOp::kNeg: {
-      Value x;
-      if (!Kid(n, 0, slots, arena).AsNumeric(&x)) return Value::Missing();
-      return NegateNumber(x);
-    }
+      return ArithmeticOf(n.op, Kid(n, 0, slots, arena), Kid(n, 1, slots, arena));
+    case ExprOp::kNeg: return NegateOf(Kid(n, 0, slots, arena));
     case ExprOp::kCall: return EvalCall(n, slots, arena);
     case ExprOp::kCoalesce:
       for (int k = 0; k < n.nargs; ++k) {
@@ -75,14 +51,8 @@ Value Expr::Program::EvalAt(int32_t index, const Value* slots, ScratchArena* are
     case ExprOp::kBranch:
       return EvalBranch(n.nargs, [&](int k) { return EvalAt(args[n.first_arg + k], slots, arena); });
     case ExprOp::kTextEq: {
-      // CompareToConstant for a string constant that is not numeric text:
-      // missing and null compare false; a string by its bytes; any other
-      // value is unequal.
       Value a;
-      const Value& v = KidRef(n, 0, slots, arena, &a);
-      if (!v.is_present()) return Value::Bool(false);
-      if (v.kind != ValueKind::kString) return Value::Bool(n.negated);
-      return Value::Bool((v.str == n.constant.value.str) != n.negated);
+      return TextEqOf(n, KidRef(n, 0, slots, arena, &a));
     }
     case ExprOp::kEpoch: {
       Value a;

@@ -1,6 +1,8 @@
 // Expr::Program: the compiled form of an expression — a flat array of nodes,
 // children before parents, evaluated by a small recursive walk that never
-// allocates (strings made by functions go to the caller's ScratchArena).
+// allocates (strings made by functions go to the caller's ScratchArena), or
+// for a batch of records at once by EvalBatch (program_batch.cc): the same
+// nodes as a linear program, one pass over the batch per node.
 // Filled once by CompileExprAst, then immutable: Eval may run on several
 // threads at once, each with its own arena.
 #pragma once
@@ -65,6 +67,21 @@ struct Expr::Program {
     return EvalAt(static_cast<int32_t>(nodes.size() - 1), slots, arena);
   }
   Value EvalAt(int32_t index, const Value* slots, ScratchArena* arena) const;
+
+  // Evaluates the expression on the records rows + r * width for each r in
+  // sel[0, n), writing record r's result to out[r * out_stride]. Gives what
+  // Eval gives on each record (tests/expr/batch_eval_test.cc compares them
+  // on generated expressions): each node that every record needs is
+  // evaluated once per record, in node order, into registers (node k of
+  // record r at regs[k * cap + r]), so the op is chosen once per node and
+  // batch, not once per node and record. The operands that and, or,
+  // coalesce and branch may skip (the right side, the arguments after the
+  // first) are evaluated per record by EvalAt, only where needed.
+  // REQUIRES: as Expr::EvalBatch; *scratch is the caller's (reused, so
+  // that only its first batches allocate). out may be a slot of rows (a
+  // derived field): record r's result is written after its operands are read.
+  void EvalBatch(const Value* rows, size_t width, const uint32_t* sel, size_t n, size_t cap, Value* out,
+                 size_t out_stride, BatchScratch* scratch, ScratchArena* arena) const;
 
  private:
   // Reads fields and constants inline: most operands are one or the other.

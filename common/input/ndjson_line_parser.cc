@@ -68,10 +68,18 @@ struct NdjsonLineParser::Impl {
   size_t strings_cap = 0;
   uint8_t* strings_end = nullptr;
   std::vector<PointerNode>* nodes = nullptr;
+  PointerNode* node_data = nullptr;  // nodes->data(), for the current line
   uint64_t generation = 0;
   // False iff the line holds no backslash at all (most lines): then no
   // string in it has an escape to check or undo.
   bool line_has_backslash = true;
+  // The group IndexGroup accepted: its text, its end, the next structural
+  // index of it not yet given to a line, and its first backslash at or
+  // after the current line (group_end if none; null before the first line).
+  const char* group = nullptr;
+  const char* group_end = nullptr;
+  size_t group_next = 0;
+  const char* next_backslash = nullptr;
 
   // Room for len bytes of line (stage 1's indexes, unescaped strings).
   bool Reserve(size_t len) {
@@ -94,7 +102,7 @@ struct NdjsonLineParser::Impl {
   // The child of ni that `key` names and no earlier duplicate took, or -1.
   int32_t Member(int32_t ni, std::string_view key) {
     if (ni < 0) return -1;
-    const PointerNode& parent = (*nodes)[ni];
+    const PointerNode& parent = node_data[ni];
     if ((parent.child_lengths & TokenLengthBit(key.size())) == 0) return -1;
     // A key is followed by at least '"' and ':' and the line's padding, so
     // 8 bytes from its start are readable.
@@ -103,7 +111,7 @@ struct NdjsonLineParser::Impl {
       // The one child the key can be (pointer_trie.h): compare it whole.
       const int32_t c = parent.child_table[ChildHash(parent, prefix, key.size())];
       if (c < 0) return -1;
-      PointerNode& child = (*nodes)[c];
+      PointerNode& child = node_data[c];
       if (child.prefix != prefix || child.token.size() != key.size()) return -1;
       if (key.size() > 8 &&
           (key.size() <= 16 ? child.suffix != TokenSuffix(key.data(), key.size())
@@ -114,7 +122,7 @@ struct NdjsonLineParser::Impl {
       return c;
     }
     for (uint32_t c : parent.children) {
-      PointerNode& child = (*nodes)[c];
+      PointerNode& child = node_data[c];
       if (child.prefix != prefix || child.token.size() != key.size()) continue;
       if (key.size() > 8 && std::memcmp(child.token.data() + 8, key.data() + 8, key.size() - 8) != 0) continue;
       if (child.seen == generation) return -1;  // duplicate keys: the first one wins
@@ -125,9 +133,9 @@ struct NdjsonLineParser::Impl {
   }
 
   int32_t Element(int32_t ni, int64_t i) const {
-    if (ni < 0 || i > (*nodes)[ni].max_child_index) return -1;
-    for (uint32_t c : (*nodes)[ni].children)
-      if ((*nodes)[c].index == i) return static_cast<int32_t>(c);
+    if (ni < 0 || i > node_data[ni].max_child_index) return -1;
+    for (uint32_t c : node_data[ni].children)
+      if (node_data[c].index == i) return static_cast<int32_t>(c);
     return -1;
   }
 
@@ -191,6 +199,7 @@ struct NdjsonLineParser::Impl {
 template <bool kSentinel>
 LineVerdict NdjsonLineParser::Impl::Walk(const char* p, const uint32_t* idx, size_t n, size_t len, Value* slots) {
   const bool every = checks == ValueChecks::kEveryValue;
+  const bool backslash = line_has_backslash;
   // The character at structural i (NUL past the last one).
   auto at = [&](size_t i) -> char { return kSentinel || i < n ? p[idx[i]] : '\0'; };
   // Where the token at structural i ends: the next structural, or the end.
@@ -229,7 +238,7 @@ array_begin:
 array_value:
   node = Element(stack[depth - 1].node, stack[depth - 1].index);
 value : {
-  const int slot = node >= 0 ? (*nodes)[node].slot : -1;
+  const int slot = node >= 0 ? node_data[node].slot : -1;
   const char c = at(i);
   switch (c) {
     case '{':
@@ -243,7 +252,7 @@ value : {
     case '"': {
       // A string no pointer reads in a line without backslashes has
       // nothing to check (stage 1 checked its UTF-8 and control bytes).
-      if (slot < 0 && !line_has_backslash) break;
+      if (slot < 0 && !backslash) break;
       std::string_view s;
       if (!StringAt(p + idx[i], token_end(i), slot >= 0, &s)) return LineVerdict::kInvalid;
       if (slot >= 0) slots[slot] = Value::String(s);
@@ -321,6 +330,7 @@ LineVerdict NdjsonLineParser::Parse(const char* p, size_t len, size_t capacity, 
   if (capacity < len + simdjson::SIMDJSON_PADDING) return LineVerdict::kTooLong;  // the caller's contract
   if (len > simdjson::SIMDJSON_MAXSIZE_BYTES || !im.Reserve(len)) return LineVerdict::kTooLong;
   im.nodes = nodes;
+  im.node_data = nodes->data();
   im.generation = generation;
   const simdjson::error_code err =
       im.stage1->stage1(reinterpret_cast<const uint8_t*>(p), len, simdjson::stage1_mode::regular);
@@ -332,6 +342,56 @@ LineVerdict NdjsonLineParser::Parse(const char* p, size_t len, size_t capacity, 
   // break or the chunk's padding (spaces), which no rule of the walk takes.
   if (idx[n] == len && IsJsonSpace(p[len])) return im.Walk<true>(p, idx, n, len, slots);
   return im.Walk<false>(p, idx, n, len, slots);
+}
+
+bool NdjsonLineParser::IndexGroup(const char* p, size_t len, size_t capacity) {
+  Impl& im = *impl_;
+  im.group = nullptr;
+  if (capacity < len + simdjson::SIMDJSON_PADDING || len > simdjson::SIMDJSON_MAXSIZE_BYTES || !im.Reserve(len))
+    return false;
+  if (im.stage1->stage1(reinterpret_cast<const uint8_t*>(p), len, simdjson::stage1_mode::regular) !=
+      simdjson::SUCCESS)
+    return false;
+  im.group = p;
+  im.group_end = p + len;
+  im.group_next = 0;
+  im.next_backslash = nullptr;  // not looked for yet
+  return true;
+}
+
+LineVerdict NdjsonLineParser::ParseGrouped(const char* p, size_t len, std::vector<PointerNode>* nodes,
+                                           uint64_t generation, Value* slots) {
+  Impl& im = *impl_;
+  im.nodes = nodes;
+  im.node_data = nodes->data();
+  im.generation = generation;
+  im.strings_end = im.strings.get();
+  // One search per backslash in the group, not one per line.
+  if (im.next_backslash == nullptr || im.next_backslash < p) {
+    const void* b = std::memchr(p, '\\', static_cast<size_t>(im.group_end - p));
+    im.next_backslash = b != nullptr ? static_cast<const char*>(b) : im.group_end;
+  }
+  im.line_has_backslash = im.next_backslash < p + len;
+  uint32_t* const idx = im.stage1->structural_indexes.get();
+  const size_t total = im.stage1->n_structural_indexes;  // idx[total] is the group's length
+  const auto begin = static_cast<uint32_t>(p - im.group);
+  const auto end = static_cast<uint32_t>(begin + len);
+  size_t first = im.group_next;
+  while (first < total && idx[first] < begin) ++first;  // an earlier line skipped as blank
+  // The first index past the line, by binary search: within the next 64
+  // indexes for most lines (a few dozen structurals each), else the rest.
+  const size_t near = std::min(total, first + 64);
+  uint32_t* const stop = near > first && idx[near - 1] >= end ? idx + near : idx + total;
+  const size_t last = static_cast<size_t>(std::lower_bound(idx + first, stop, end) - idx);
+  im.group_next = last;
+  // The line's indexes, relative to the group, ended as stage 1 ends a
+  // line's own (its length at index n, p[len] a space): the next line's
+  // first index is lent for that and given back.
+  const uint32_t lent = idx[last];
+  idx[last] = end;
+  const LineVerdict v = im.Walk<true>(im.group, idx + first, last - first, end, slots);
+  idx[last] = lent;
+  return v;
 }
 
 }  // namespace fanfold

@@ -66,6 +66,26 @@ class NdjsonLineParser {
   LineVerdict Parse(const char* p, size_t len, size_t capacity, std::vector<PointerNode>* nodes, uint64_t generation,
                     Value* slots);
 
+  // Stage 1 over a group of whole lines at once, p[0, len) (len at a line
+  // break or the end of the text), readable up to p + capacity: one call
+  // instead of one per line, which costs stage 1 about half its work on
+  // lines of a few hundred bytes. Returns true iff stage 1 accepts the
+  // group as a whole: then no string spans a line break (a line break
+  // inside a string is a control character stage 1 refuses), so every line
+  // starts outside a string and each line's structural indexes are the
+  // group's between its bounds, as stage 1 on the line alone gives them,
+  // and stage 1 on each line alone would succeed. Then ParseGrouped may
+  // parse the group's lines, in order. On false (any stage 1 error in any
+  // line), parse each line with Parse instead.
+  bool IndexGroup(const char* p, size_t len, size_t capacity);
+
+  // As Parse, for the line p[0, len) of the group IndexGroup accepted last:
+  // the same verdict and slots, from the group's indexes.
+  // REQUIRES: lines passed in order; p[len] is a line break or '\r' (or the
+  // group's end); no Parse since IndexGroup.
+  LineVerdict ParseGrouped(const char* p, size_t len, std::vector<PointerNode>* nodes, uint64_t generation,
+                           Value* slots);
+
  private:
   struct Impl;
   std::unique_ptr<Impl> impl_;  // keeps simdjson.h out of this header

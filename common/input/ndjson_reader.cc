@@ -32,11 +32,20 @@ std::string MalformedReason(std::string_view line, LineVerdict verdict) {
 
 bool IsJsonSpace(char c) { return c == ' ' || c == '\t' || c == '\r' || c == '\n'; }
 
+// About how many bytes of lines stage 1 indexes in one call: enough that
+// its cost per call vanishes, few enough that a group it refuses (a line
+// with bad UTF-8 or an unclosed string), parsed again line by line, costs
+// little. Measured on the benchmark data (lines of ~200 bytes): 4 KiB
+// groups take stage 1 from ~1,030 to ~560 instructions a line.
+constexpr size_t kGroupBytes = 4096;
+
 }  // namespace
 
 // One parse per line (NdjsonLineParser): the lines are cut here, so each
 // malformed line counts once, exactly, and the next line is read whatever
-// this one held. Measured on this project's benchmark data (see
+// this one held. Stage 1 indexes a group of lines (about kGroupBytes) in
+// one call; a group it refuses is indexed again line by line, so a line's
+// verdict never depends on its neighbours (tests/input/ndjson_group_test.cc). Measured on this project's benchmark data (see
 // bench/RESULTS.md): faster than the simdjson DOM parse it replaced, which
 // built a tape of every value and converted every number and string, and
 // than simdjson On-Demand walking every value for the same checks.
@@ -45,8 +54,10 @@ struct NdjsonReader::Impl {
       : chunk(options, simdjson::SIMDJSON_PADDING), parser(checks), slots(nslots) {}
 
   // Parses one line, readable up to p + capacity (the chunk's padding
-  // included). Returns false iff the sink asked to stop.
-  bool OnLine(const char* p, size_t len, size_t capacity, uint64_t line, RecordSink& sink, ReadStats& st) {
+  // included); `grouped`: from the group the parser indexed last
+  // (NdjsonLineParser::IndexGroup). Returns false iff the sink asked to stop.
+  bool OnLine(const char* p, size_t len, size_t capacity, bool grouped, uint64_t line, RecordSink& sink,
+              ReadStats& st) {
     while (len > 0 && p[len - 1] == '\r') --len;
     if (len == 0) return true;
     if (*p != '{') {
@@ -56,7 +67,8 @@ struct NdjsonReader::Impl {
     }
     std::fill(slots.begin(), slots.end(), Value::Missing());
     ++generation;
-    const LineVerdict verdict = parser.Parse(p, len, capacity, &nodes, generation, slots.data());
+    const LineVerdict verdict = grouped ? parser.ParseGrouped(p, len, &nodes, generation, slots.data())
+                                        : parser.Parse(p, len, capacity, &nodes, generation, slots.data());
     if (verdict != LineVerdict::kRecord) {
       ++st.malformed;
       if (st.samples.size() < ReadStats::kMaxSamples)
@@ -113,14 +125,26 @@ Status NdjsonReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
     const char* p = im.chunk.data();
     const char* end = p + im.chunk.size();
     while (p < end) {
-      const char* nl = static_cast<const char*>(std::memchr(p, '\n', static_cast<size_t>(end - p)));
-      if (nl == nullptr) {
-        if (!last) break;  // an incomplete line: keep it for the next chunk
-        nl = end;
+      // A group of lines: up to the first line break kGroupBytes on, else
+      // the chunk's last line break (or its end, at the end of the text).
+      // Stage 1 indexes the group in one call (IndexGroup); a group it
+      // refuses goes line by line.
+      const size_t left = static_cast<size_t>(end - p);
+      const char* group_end =
+          left > kGroupBytes ? static_cast<const char*>(std::memchr(p + kGroupBytes, '\n', left - kGroupBytes)) : nullptr;
+      if (group_end == nullptr) group_end = last ? end : static_cast<const char*>(memrchr(p, '\n', left));
+      if (group_end == nullptr) break;  // an incomplete line: keep it for the next chunk
+      const bool grouped = im.parser.IndexGroup(p, static_cast<size_t>(group_end - p), im.chunk.room_after(p));
+      // Its lines, each up to its line break (the group ends at one, or at
+      // the end of the text).
+      while (p < group_end || (p == group_end && group_end != end)) {
+        const char* nl = static_cast<const char*>(std::memchr(p, '\n', static_cast<size_t>(group_end - p)));
+        if (nl == nullptr) nl = group_end;
+        ++line;
+        if (!im.OnLine(p, static_cast<size_t>(nl - p), im.chunk.room_after(p), grouped, line, sink, st))
+          return Status::Ok();
+        p = nl == end ? end : nl + 1;
       }
-      ++line;
-      if (!im.OnLine(p, static_cast<size_t>(nl - p), im.chunk.room_after(p), line, sink, st)) return Status::Ok();
-      p = nl == end ? end : nl + 1;
     }
     if (last) return Status::Ok();
     im.chunk.Consume(static_cast<size_t>(p - im.chunk.data()));

@@ -62,6 +62,13 @@ struct ReductionFeed {
   // The records of keys the full table does not hold (made when needed).
   std::unique_ptr<TableOverflow> overflow;
   std::vector<Value> spill_args;  // one measure's arguments, while spilling
+  // The current batch, by record index (RecordBatch::kCapacity each): the
+  // records this reduction keeps, its evaluated keys (those not read from a
+  // field), each measure's `only` test and evaluated arguments.
+  std::vector<uint32_t> sel;
+  std::vector<Value> key_values;
+  std::vector<Value> only_values;
+  std::vector<std::vector<Value>> arg_values;  // per measure: kCapacity x stride
 };
 
 // Receives records from the reader and applies the plan to them: the job's
@@ -82,10 +89,15 @@ class Aggregator final : public RecordSink {
       f.table = std::make_unique<WorkerGroupTable>(&f.plan->configs);
       f.table->set_budget(budget_);
       for (const Expr& g : f.plan->group) f.group_direct.push_back(g.DirectSlot());
+      const size_t cap = RecordBatch::kCapacity;
+      f.sel.reserve(cap);
+      f.key_values.resize(f.plan->group.size() * cap);
+      f.only_values.resize(f.plan->measures.size() * cap);
       for (const CompiledMeasure& m : f.plan->measures) {
         std::array<int, 2> d = {-1, -1};
         for (size_t a = 0; a < m.args.size() && a < 2; ++a) d[a] = m.args[a].DirectSlot();
         f.arg_direct.push_back(d);
+        f.arg_values.emplace_back(cap * std::max<size_t>(m.args.size(), 1));
         MeasureInputs in;
         in.stride = m.args.size();
         in.groups = std::make_unique<uint32_t[]>(RecordBatch::kCapacity);
@@ -95,6 +107,8 @@ class Aggregator final : public RecordSink {
       feeds_.push_back(std::move(f));
     }
     unmatched_.assign(plan.lookups.size(), 0);
+    sel_.reserve(RecordBatch::kCapacity);
+    truth_ = std::make_unique<Value[]>(RecordBatch::kCapacity);
   }
 
   // Records wait in a batch and are aggregated a batch at a time, so the
@@ -106,14 +120,29 @@ class Aggregator final : public RecordSink {
   // Set when an overflow file could not be made (the shard fails).
   const Status& spill_error() const { return spill_error_; }
 
-  // Aggregates the waiting records: each record's derived fields, filters
-  // and group ids, then every measure's inputs of the batch in one call to
-  // its column. Returns false iff a measure ran past its limit (the shard
-  // fails; when two measures do so in one batch, the first in job order is
-  // named).
+  // Aggregates the waiting records: the lookups record by record, then each
+  // derived field and filter as one batch evaluation over the records still
+  // selected (Expr::EvalBatch), then every reduction (FeedBatch), then every
+  // measure's inputs of the batch in one call to its column. Returns false
+  // iff a measure ran past its limit (the shard fails; when two measures do
+  // so in one batch, the first in job order is named).
   bool Drain() {
     const uint64_t t0 = MonotonicNanos();
-    for (size_t i = 0; i < batch_.size(); ++i) Apply(batch_.record(i));
+    const size_t n = batch_.size();
+    sel_.clear();
+    for (size_t i = 0; i < n; ++i) {
+      ++seen_;
+      if ((seen_ & hook_mask_) == 0 && hook_) hook_(seen_);
+      Value* slots = batch_.record(i);
+      for (size_t t = 0; t < plan_.lookups.size(); ++t)
+        if (!plan_.lookups[t].Fill(slots, &arena_, &lookup_key_)) ++unmatched_[t];
+      sel_.push_back(static_cast<uint32_t>(i));
+    }
+    for (size_t i : plan_.derive_before_keep) Derive(i, sel_);
+    if (plan_.keep) Filter(*plan_.keep, &sel_);
+    for (size_t i : plan_.derive_after_keep) Derive(i, sel_);
+    kept_ += sel_.size();
+    for (ReductionFeed& f : feeds_) FeedBatch(f);
     const bool go_on = Flush() && spill_error_.ok();
     batch_.Clear();
     arena_.Reset();
@@ -139,55 +168,91 @@ class Aggregator final : public RecordSink {
   const std::vector<uint64_t>& unmatched() const { return unmatched_; }
 
  private:
-  void Derive(size_t i, Value* slots) {
+  Value* rows() { return batch_.record(0); }
+
+  // Derived field i of the selected records, written into their slots.
+  void Derive(size_t i, const std::vector<uint32_t>& sel) {
     const CompiledDerive& d = plan_.derive[i];
-    slots[d.slot] = d.expr.Eval(slots, &arena_);
+    d.expr.EvalBatch(rows(), width_, sel.data(), sel.size(), batch_.size(), rows() + d.slot, width_, &scratch_,
+                     &arena_);
   }
 
+  // Keeps the selected records for which `keep` is true, in order.
+  void Filter(const Expr& keep, std::vector<uint32_t>* sel) {
+    keep.EvalBatch(rows(), width_, sel->data(), sel->size(), batch_.size(), truth_.get(), 1, &scratch_, &arena_);
+    size_t kept = 0;
+    for (const uint32_t r : *sel)
+      if (truth_[r].Truthy()) (*sel)[kept++] = r;
+    sel->resize(kept);
+  }
+
+  // Expression e of the selected records into column[r * stride], or nothing
+  // when e is a plain field (direct >= 0: read from the record itself).
+  void EvalColumn(const Expr& e, int direct, const std::vector<uint32_t>& sel, Value* column, size_t stride) {
+    if (direct < 0)
+      e.EvalBatch(rows(), width_, sel.data(), sel.size(), batch_.size(), column, stride, &scratch_, &arena_);
+  }
+
+  // One reduction over the records the job kept: its own derived fields and
+  // filter, its keys and measure inputs as columns, then record by record
+  // (in record order) its group and its measures' queued inputs.
   // The strings evaluated for a record stay in arena_ until the batch ends:
   // its measures take them then.
-  void Apply(Value* slots) {
-    ++seen_;
-    if ((seen_ & hook_mask_) == 0 && hook_) hook_(seen_);
-    for (size_t t = 0; t < plan_.lookups.size(); ++t)
-      if (!plan_.lookups[t].Fill(slots, &arena_, &lookup_key_)) ++unmatched_[t];
-    for (size_t i : plan_.derive_before_keep) Derive(i, slots);
-    if (plan_.keep && !plan_.keep->Eval(slots, &arena_).Truthy()) return;
-    for (size_t i : plan_.derive_after_keep) Derive(i, slots);
-    ++kept_;
-    for (ReductionFeed& f : feeds_) Feed(f, slots);
-  }
-
-  // Finds one record's group in one reduction and queues its measures' inputs.
-  void Feed(ReductionFeed& f, Value* slots) {
+  void FeedBatch(ReductionFeed& f) {
     const ReductionPlan& rp = *f.plan;
-    for (size_t i : rp.derive_before_keep) Derive(i, slots);
-    if (rp.keep && !rp.keep->Eval(slots, &arena_).Truthy()) return;
-    for (size_t i : rp.derive_after_keep) Derive(i, slots);
-    ++f.kept;
-    key_.clear();
-    for (size_t g = 0; g < rp.group.size(); ++g) {
-      const int d = f.group_direct[g];
-      AppendKeyValue(d >= 0 ? slots[d] : rp.group[g].Eval(slots, &arena_), &key_);
-    }
-    const uint32_t group = f.table->FindOrAdd(key_);
-    if (group == WorkerGroupTable::kOverBudget) return Spill(f, slots);
+    std::vector<uint32_t>& sel = f.sel;
+    sel.assign(sel_.begin(), sel_.end());
+    for (size_t i : rp.derive_before_keep) Derive(i, sel);
+    if (rp.keep) Filter(*rp.keep, &sel);
+    for (size_t i : rp.derive_after_keep) Derive(i, sel);
+    f.kept += sel.size();
+    const size_t cap = RecordBatch::kCapacity;
+    for (size_t g = 0; g < rp.group.size(); ++g)
+      EvalColumn(rp.group[g], f.group_direct[g], sel, &f.key_values[g * cap], 1);
     for (size_t m = 0; m < rp.measures.size(); ++m) {
       const CompiledMeasure& cm = rp.measures[m];
-      if (cm.only && !cm.only->Eval(slots, &arena_).Truthy()) continue;  // not this measure's input
+      if (cm.only) cm.only->EvalBatch(rows(), width_, sel.data(), sel.size(), batch_.size(), &f.only_values[m * cap], 1,
+                                      &scratch_, &arena_);
+      const size_t stride = f.inputs[m].stride;
+      for (size_t a = 0; a < cm.args.size(); ++a)
+        EvalColumn(cm.args[a], f.arg_direct[m][a], sel, &f.arg_values[m][a], stride);
+    }
+    for (const uint32_t r : sel) Feed(f, r);
+  }
+
+  // The value of record r's key g, of measure m's argument a, and whether
+  // record r is measure m's input.
+  const Value& KeyValue(const ReductionFeed& f, size_t g, uint32_t r) {
+    const int d = f.group_direct[g];
+    return d >= 0 ? batch_.record(r)[d] : f.key_values[g * RecordBatch::kCapacity + r];
+  }
+  const Value& ArgValue(const ReductionFeed& f, size_t m, size_t a, uint32_t r) {
+    const int d = f.arg_direct[m][a];
+    return d >= 0 ? batch_.record(r)[d] : f.arg_values[m][r * f.inputs[m].stride + a];
+  }
+  bool MeasureTakes(const ReductionFeed& f, size_t m, uint32_t r) const {
+    return !f.plan->measures[m].only || f.only_values[m * RecordBatch::kCapacity + r].Truthy();
+  }
+
+  // Finds record r's group in one reduction and queues its measures' inputs.
+  void Feed(ReductionFeed& f, uint32_t r) {
+    const ReductionPlan& rp = *f.plan;
+    key_.clear();
+    for (size_t g = 0; g < rp.group.size(); ++g) AppendKeyValue(KeyValue(f, g, r), &key_);
+    const uint32_t group = f.table->FindOrAdd(key_);
+    if (group == WorkerGroupTable::kOverBudget) return Spill(f, r);
+    for (size_t m = 0; m < rp.measures.size(); ++m) {
+      if (!MeasureTakes(f, m, r)) continue;  // not this measure's input
       MeasureInputs& in = f.inputs[m];
       Value* args = &in.args[in.n * in.stride];
       in.groups[in.n++] = group;
-      for (size_t a = 0; a < cm.args.size(); ++a) {
-        const int d = f.arg_direct[m][a];
-        args[a] = d >= 0 ? slots[d] : cm.args[a].Eval(slots, &arena_);
-      }
+      for (size_t a = 0; a < in.stride; ++a) args[a] = ArgValue(f, m, a, r);
     }
   }
 
   // Writes a record of a key the full table does not hold to the reduction's
   // overflow: the key and each measure's arguments, evaluated as Feed does.
-  void Spill(ReductionFeed& f, Value* slots) {
+  void Spill(ReductionFeed& f, uint32_t r) {
     const ReductionPlan& rp = *f.plan;
     if (!f.overflow) {
       std::vector<size_t> strides;
@@ -196,16 +261,13 @@ class Aggregator final : public RecordSink {
     }
     f.overflow->BeginRecord(key_);
     for (size_t m = 0; m < rp.measures.size(); ++m) {
-      const CompiledMeasure& cm = rp.measures[m];
-      if (cm.only && !cm.only->Eval(slots, &arena_).Truthy()) {
+      if (!MeasureTakes(f, m, r)) {
         f.overflow->SkipMeasure();
         continue;
       }
-      f.spill_args.resize(cm.args.size());
-      for (size_t a = 0; a < cm.args.size(); ++a) {
-        const int d = f.arg_direct[m][a];
-        f.spill_args[a] = d >= 0 ? slots[d] : cm.args[a].Eval(slots, &arena_);
-      }
+      const size_t stride = f.inputs[m].stride;
+      f.spill_args.resize(stride);
+      for (size_t a = 0; a < stride; ++a) f.spill_args[a] = ArgValue(f, m, a, r);
       f.overflow->AddArgs(f.spill_args.data());
     }
     if (Status s = f.overflow->EndRecord(); !s.ok() && spill_error_.ok()) spill_error_ = s;
@@ -234,6 +296,10 @@ class Aggregator final : public RecordSink {
   const std::function<void(uint64_t)>& hook_;
   uint64_t hook_mask_;  // the hook runs when (records & mask) == 0
   ScratchArena arena_;  // the batch's evaluated strings
+  Expr::BatchScratch scratch_;
+  const size_t width_ = plan_.fields.size();  // slots per record of the batch
+  std::vector<uint32_t> sel_;               // the records the job's filter keeps
+  std::unique_ptr<Value[]> truth_;          // a filter's value per record
   std::string key_;
   std::string lookup_key_;
   std::vector<uint64_t> unmatched_;

@@ -1,0 +1,170 @@
+// Differential test of the NDJSON reader's grouped stage 1
+// (NdjsonLineParser::IndexGroup / ParseGrouped, used by NdjsonReader for
+// groups of lines): thousands of lines read together in one source, at
+// several chunk sizes, give for every line what the same line read alone
+// gives (a group of one line), and so the same malformed count and samples (line
+// and reason). The lines: clean records and mutated ones (deleted, inserted or
+// replaced bytes among brackets, quotes, backslashes, digits, letters, a
+// control byte and bytes of invalid UTF-8), blank lines, CRLF line ends,
+// strings left open and closed on a later line. Reading a line alone is
+// itself checked against Python's json module in ndjson_checks_test.cc.
+#include <doctest/doctest.h>
+
+#include <algorithm>
+#include <cstdint>
+#include <random>
+#include <string>
+#include <vector>
+
+#include "common/input/ndjson_line_parser.h"
+#include "common/input/ndjson_reader.h"
+#include "tests/input/ndjson_test_util.h"
+#include "tests/input/reader_test_util.h"
+
+namespace fanfold {
+namespace {
+
+// Keeps each record as "line: slot0|slot1|...".
+class LineRows : public RecordSink {
+ public:
+  explicit LineRows(size_t n) : n_(n) {}
+  bool OnRecord(Value* slots) override {
+    std::string row = std::to_string(record_line()) + ":";
+    for (size_t i = 0; i < n_; ++i) row += (i ? "|" : "") + Show(slots[i]);
+    rows.push_back(row);
+    return true;
+  }
+  std::vector<std::string> rows;
+
+ private:
+  size_t n_;
+};
+
+std::vector<std::string> MakeLines(uint32_t seed, size_t count) {
+  const std::vector<std::string> base = {
+      R"({"ts":"2026-03-01T00:00:01.317Z","lamp":"L-70804","event":"heartbeat","latency_ms":19.65,"fw":{"version":"4.1.3","channel":"stable"},"readings":[9.6,65],"fault":null})",
+      R"({"ts":"2026-03-01T00:00:03Z","lamp":"L-1\u00e9","power_w":49.2,"fw":{"ok":true,"n":-1e3},"readings":[],"fault":"F\"7"})",
+      R"({"lamp":"L-2","power_w":-0.5e-2,"readings":[[1,2],{"a":false}],"x":"a\\b","fault":{"code":12}})",
+      R"( {"power_w":18446744073709551615,"ts":1772323200,"z":[true,false,null,0.0,-0]} )",
+      R"({"district":"Drummet \"Old Quay\"","lamp":"L-3","power_w":7})"};
+  const std::string alphabet = "{}[],:\"\\ 0123456789.-+eEtrufalsnx#\x01\xC3\xA9\xFF";
+  std::mt19937 rng(seed);
+  std::vector<std::string> lines;
+  while (lines.size() < count) {
+    std::string l = base[rng() % base.size()];
+    // Runs of 150 lines in turn: clean (records, blank lines, CRLF);
+    // grammar errors only (bytes that leave every string closed and valid,
+    // so stage 1 accepts the group and the walk must stop each line at its
+    // own end); and anything (groups stage 1 refuses).
+    const int run = static_cast<int>((lines.size() / 150) % 3);
+    const uint32_t pick = rng() % 20;
+    switch (run == 2 || pick < 3 ? pick : 99) {
+      case 0: lines.push_back(""); continue;
+      case 1: lines.push_back("  \t"); continue;
+      case 2: l += "\r"; break;
+      case 3: l = R"({"lamp":"open string)"; break;       // closed by a later line's odd quote
+      case 4: l = R"(,"power_w":1,"x":"y"})"; break;      // an odd quote count
+      case 5: l += "\\"; break;                           // a backslash before the line break
+      default: break;
+    }
+    const std::string safe = "{}[],: 0123456789.-+eEtrufalsnx#";
+    if (run != 0 && rng() % 2 == 0) {
+      for (int e = 1 + static_cast<int>(rng() % 2); e > 0; --e) {
+        const size_t at = rng() % (l.size() + 1);
+        const char c = run == 1 ? safe[rng() % safe.size()] : alphabet[rng() % alphabet.size()];
+        // Grammar errors only: no quote or backslash removed or replaced,
+        // no byte put inside a string (between a quote and the next).
+        if (run == 1 && at < l.size() && (l[at] == '"' || l[at] == '\\')) continue;
+        if (run == 1 && std::count(l.begin(), l.begin() + static_cast<std::ptrdiff_t>(at), '"') % 2 == 1) continue;
+        switch (rng() % 3) {
+          case 0:
+            if (at < l.size()) l.erase(at, 1);
+            break;
+          case 1: l.insert(at, 1, c); break;
+          default:
+            if (at < l.size()) l[at] = c;
+            break;
+        }
+      }
+    }
+    if (l.find('\n') != std::string::npos) continue;  // a mutation never makes two lines of one
+    lines.push_back(l);
+  }
+  return lines;
+}
+
+// Intent: grouping lines for stage 1 changes no verdict, value, line number
+// or count, whether a group holds a malformed line or not, wherever chunks
+// and groups end; and the lines do include groups stage 1 refuses.
+TEST_CASE("lines read together give what each line read alone gives") {
+  const FieldTable fields = Fields({"/ts", "/lamp", "/power_w", "/fault", "/district"});
+  const std::vector<std::string> lines = MakeLines(20261203, 8000);
+  for (const ValueChecks checks : {ValueChecks::kReadValues, ValueChecks::kEveryValue}) {
+    CAPTURE(static_cast<int>(checks));
+    // Each line alone.
+    auto alone = NdjsonReader::Create(fields, ChunkOptions{}, checks);
+    REQUIRE(alone.ok());
+    std::vector<std::string> want;
+    uint64_t want_malformed = 0;
+    uint64_t grammar_malformed = 0;  // in the runs of grammar errors only
+    std::vector<MalformedSample> want_samples;
+    std::string text;
+    for (size_t i = 0; i < lines.size(); ++i) {
+      text += lines[i] + "\n";
+      auto src = MemorySource(lines[i] + "\n");
+      LineRows sink(fields.size());
+      ReadStats st;
+      REQUIRE((*alone)->Read(*src, sink, &st).ok());
+      REQUIRE(st.records + st.malformed <= 1);
+      if (st.malformed == 1) {
+        ++want_malformed;
+        if ((i / 150) % 3 == 1) ++grammar_malformed;
+        if (want_samples.size() < ReadStats::kMaxSamples) want_samples.push_back({i + 1, st.samples.at(0).reason});
+      }
+      // A line alone is line 1: renumber it.
+      for (const std::string& r : sink.rows) want.push_back(std::to_string(i + 1) + r.substr(r.find(':')));
+    }
+    CHECK(want_malformed > 300);            // malformed lines in many groups
+    CHECK(grammar_malformed > 300);         // also where stage 1 accepts the group
+    CHECK(want.size() > lines.size() / 3);  // and many records
+    // Groups of about 4 KiB as the reader cuts them: stage 1 accepts some
+    // and refuses others (each then read line by line).
+    int accepted = 0, refused = 0;
+    NdjsonLineParser parser(checks);
+    for (size_t at = 0; at < text.size();) {
+      size_t end = text.find('\n', std::min(text.size(), at + 4096));
+      if (end == std::string::npos) end = text.size();
+      std::string group = text.substr(at, end - at);
+      const size_t len = group.size();
+      group.append(128, ' ');
+      (parser.IndexGroup(group.data(), len, group.size()) ? accepted : refused) += 1;
+      at = end + 1;
+    }
+    CHECK(accepted > 20);
+    CHECK(refused > 20);
+    MESSAGE(accepted << " groups accepted, " << refused << " refused");
+    for (const size_t chunk : {size_t{1} << 20, size_t{5000}, size_t{777}}) {
+      CAPTURE(chunk);
+      auto together = NdjsonReader::Create(fields, ChunkOptions{chunk}, checks);
+      REQUIRE(together.ok());
+      auto src = MemorySource(text);
+      LineRows sink(fields.size());
+      ReadStats st;
+      REQUIRE((*together)->Read(*src, sink, &st).ok());
+      CHECK(st.malformed == want_malformed);
+      REQUIRE(sink.rows.size() == want.size());
+      int differ = 0;
+      for (size_t r = 0; r < want.size(); ++r)
+        if (sink.rows[r] != want[r] && ++differ <= 5) FAIL_CHECK("together " << sink.rows[r] << "\nalone    " << want[r]);
+      CHECK(differ == 0);
+      REQUIRE(st.samples.size() == want_samples.size());
+      for (size_t s = 0; s < st.samples.size(); ++s) {
+        CHECK(st.samples[s].line == want_samples[s].line);
+        CHECK(st.samples[s].reason == want_samples[s].reason);
+      }
+    }
+  }
+}
+
+}  // namespace
+}  // namespace fanfold
