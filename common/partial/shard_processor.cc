@@ -21,7 +21,7 @@ namespace fanfold {
 namespace {
 
 // Counts the time spent inside the inner source (reading + decompressing).
-class TimedSource final : public ByteSource {
+class TimedSource final : public ByteSource, public BlockLender {
  public:
   explicit TimedSource(ByteSource* inner) : inner_(inner) {}
   Result<size_t> Read(char* dst, size_t cap) override {
@@ -32,10 +32,23 @@ class TimedSource final : public ByteSource {
   }
   uint64_t compressed_bytes() const override { return inner_->compressed_bytes(); }
   bool starts_file() const override { return inner_->starts_file(); }
+  // A lending source's blocks pass through, timed the same way (with a
+  // helper thread: the time the parser waited for a block).
+  BlockLender* lender() override {
+    lender_ = inner_->lender();
+    return lender_ != nullptr ? this : nullptr;
+  }
+  Result<size_t> Lend(LentBlock* out) override {
+    uint64_t t0 = MonotonicNanos();
+    Result<size_t> r = lender_->Lend(out);
+    ns_ += MonotonicNanos() - t0;
+    return r;
+  }
   uint64_t ns() const { return ns_; }
 
  private:
   ByteSource* inner_;
+  BlockLender* lender_ = nullptr;
   uint64_t ns_ = 0;
 };
 
@@ -275,6 +288,10 @@ Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
                                                 ? OpenShardSource(task.path, task.compression)
                                                 : OpenChunkSource(task.path, task.offset, task.length);
   if (!src.ok()) return src.status().WithContext(where);
+  if ((task.length == UINT64_MAX ? id.size : task.length) >= kAheadMinFileBytes) {
+    if (ahead_ == nullptr || ahead_->threaded() != ahead_threaded) ahead_ = std::make_unique<DecodeAhead>(ahead_threaded);
+    src = ahead_->Wrap(std::move(src.value()));
+  }
 
   PartialState state(configs_);
   batch_.Clear();  // a failed shard may have left records behind
