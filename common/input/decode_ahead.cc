@@ -188,6 +188,15 @@ class AheadSource final : public ByteSource, public BlockLender {
   size_t copied_ = 0;
 };
 
+const char* AheadChoiceName(AheadChoice choice) {
+  switch (choice) {
+    case AheadChoice::kOn: return "on";
+    case AheadChoice::kOff: return "off";
+    case AheadChoice::kAuto: break;
+  }
+  return "auto";
+}
+
 bool AheadThreaded(AheadChoice choice, unsigned workers_on_host) {
   if (choice != AheadChoice::kAuto) return choice == AheadChoice::kOn;
   const unsigned cores = std::thread::hardware_concurrency();

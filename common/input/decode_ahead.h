@@ -37,6 +37,8 @@ inline constexpr size_t kAheadBlocks = 2;
 
 // The job file's "inputs"/"decode_ahead": "auto" (default), "on", "off".
 enum class AheadChoice { kAuto, kOn, kOff };
+// "auto", "on" or "off".
+const char* AheadChoiceName(AheadChoice choice);
 
 // Whether a worker fills blocks on a helper thread: "on" always, "off"
 // never, "auto" iff the workers on this machine (0: not known) are fewer
