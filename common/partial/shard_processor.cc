@@ -275,7 +275,8 @@ ShardProcessor::ShardProcessor(const Plan* plan) : plan_(plan), batch_(plan->fie
 Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
   // The four phases partition the time from here to the encoded partial:
   // reading = finding and opening the file plus every read of the source
-  // (decompression included); aggregating = the batches of records
+  // (decompression included; with decode ahead threaded, the time spent
+  // waiting for the helper's blocks); aggregating = the batches of records
   // (Aggregator::Drain); parsing = the rest of the reader's loop (splitting,
   // parsing, handing records over); encoding = the checks after the last
   // record and the encoding. Each is measured, none extrapolated.
