@@ -43,7 +43,12 @@ int main(int argc, char** argv) {
     f.OnFinish(task, &partial);
     return partial;
   };
-  Status s = RunWorkerLoop(launch->segment, launch->slot, process);
+  // Decompression on a helper thread while parsing (common/input/decode_ahead.h):
+  // the job's "decode_ahead", "auto" deciding by the workers on this machine.
+  auto on_attach = [&](unsigned workers) {
+    processor.ahead_threaded = AheadThreaded((*plan)->spec.decode_ahead, workers);
+  };
+  Status s = RunWorkerLoop(launch->segment, launch->slot, process, on_attach);
   if (!s.ok() && s.code() != Status::Code::kInterrupted) {
     std::cerr << "fanfold-worker: " << s.message() << "\n";
     return ExitCodeFor(s);

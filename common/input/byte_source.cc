@@ -434,6 +434,15 @@ Result<std::unique_ptr<ByteSource>> OpenShardSource(const std::string& path, Com
   return std::unique_ptr<ByteSource>(new GzipSource(std::move(in), *first));
 }
 
+void ReturnBlock(LentBlock* block) {
+  if (block->bytes == nullptr) return;
+  std::shared_ptr<BlockHome> home = std::move(block->home);
+  block->home.reset();
+  block->size = 0;
+  if (home != nullptr) home->Give(std::move(*block));
+  *block = LentBlock{};
+}
+
 std::unique_ptr<ByteSource> MemorySource(std::string bytes) {
   return std::make_unique<MemoryByteSource>(std::move(bytes));
 }

@@ -16,6 +16,8 @@
 
 namespace fanfold {
 
+class BlockLender;
+
 enum class Compression { kNone, kZstd, kGzip };
 
 // Compression implied by a file name's last extension.
@@ -34,6 +36,45 @@ class ByteSource {
   // (false for a chunk of a cut file other than the first): a byte-order mark
   // is skipped only there, so a cut file reads exactly as the whole file.
   virtual bool starts_file() const { return true; }
+  // Non-null iff the source hands out its bytes as whole blocks
+  // (decode_ahead.h); a ChunkBuffer then takes the blocks instead of
+  // copying them through Read. Read still works (it copies).
+  virtual BlockLender* lender() { return nullptr; }
+};
+
+// A block of decompressed bytes lent whole. The allocation holds `front`
+// writable bytes, then the data (`size` of at most `cap` bytes), then `tail`
+// writable bytes; `home` takes the allocation back for reuse.
+class BlockHome;
+struct LentBlock {
+  std::unique_ptr<char[]> bytes;
+  size_t front = 0;
+  size_t cap = 0;
+  size_t tail = 0;
+  size_t size = 0;
+  std::shared_ptr<BlockHome> home;
+  char* data() const { return bytes.get() + front; }
+};
+
+// Where a LentBlock's allocation goes back to (thread-safe).
+class BlockHome {
+ public:
+  virtual ~BlockHome() = default;
+  virtual void Give(LentBlock block) = 0;
+};
+
+// Gives a block back to its home, if it has one (an empty block has none).
+void ReturnBlock(LentBlock* block);
+
+class BlockLender {
+ public:
+  virtual ~BlockLender() = default;
+  // Moves the next block of bytes into *out and returns its size: 0 only at
+  // the clean end of the stream. As ByteSource::Read, bytes that arrived
+  // before an error come first and the error with the next call; after an
+  // error or the end every call returns the same. The caller returns the
+  // block with ReturnBlock when done with it.
+  virtual Result<size_t> Lend(LentBlock* out) = 0;
 };
 
 // Opens `path`, reading the byte range [offset, offset + length) of it when

@@ -2,7 +2,12 @@
 // cut records from. It keeps the unconsumed tail (an incomplete record) when
 // refilled, grows only when one record outgrows it, and keeps `padding` spare
 // bytes (set to spaces) after the data so parsers may read past a record's
-// end. Owns its memory; one per reader; not thread-safe.
+// end. From a source that lends whole blocks (ByteSource::lender(),
+// decode_ahead.h) it takes each block as its storage instead of copying,
+// moving only the unconsumed tail into the room before the block's data; a
+// tail too long for that room goes the copying way, so the limits below
+// hold exactly as with any other source. Owns its memory (lent blocks go
+// back to their home); one per reader; not thread-safe.
 #pragma once
 
 #include <cstddef>
@@ -34,16 +39,19 @@ struct ChunkOptions {
 class ChunkBuffer {
  public:
   ChunkBuffer(const ChunkOptions& options, size_t padding);
+  ~ChunkBuffer();
+  ChunkBuffer(const ChunkBuffer&) = delete;
+  ChunkBuffer& operator=(const ChunkBuffer&) = delete;
 
   // Forgets all data and the end-of-source flag (the allocation is kept).
   void Reset();
 
   // The unconsumed bytes. data()[size()] .. data()[size() + padding - 1]
   // are readable spaces.
-  const char* data() const { return buf_.get() + begin_; }
+  const char* data() const { return mem_ + begin_; }
   size_t size() const { return end_ - begin_; }
   // Bytes of the allocation from p (inside the data) to its end.
-  size_t room_after(const char* p) const { return static_cast<size_t>(buf_.get() + cap_ + padding_ - p); }
+  size_t room_after(const char* p) const { return static_cast<size_t>(mem_ + limit_ + padding_ - p); }
 
   // Marks the first n unconsumed bytes as used. REQUIRES: n <= size().
   void Consume(size_t n) { begin_ += n; }
@@ -53,6 +61,8 @@ class ChunkBuffer {
   // Returns the bytes added, or the source's error (when bytes arrived
   // before it, they are returned first and the error by the next Fill), or
   // Corrupt iff the unconsumed bytes already fill max_record_bytes.
+  // From a lending source: adds one block (or, for a long tail, copies as
+  // above).
   Result<size_t> Fill(ByteSource& src);
 
   // True iff the last Fill refused to grow past max_record_bytes.
@@ -64,6 +74,18 @@ class ChunkBuffer {
 
  private:
   void Pad();
+  Result<size_t> CopyFill(ByteSource& src);  // reads into buf_ (moved there first)
+  Result<size_t> TakeBlock(BlockLender& lender);
+  void UseOwn();  // moves the unconsumed bytes into buf_, gives the lent block back
+
+  // The storage in use: buf_ (own) or lent_'s allocation. Offsets count
+  // from mem_; the data may fill [?, limit_), padding_ readable bytes follow.
+  char* mem_;
+  size_t limit_;
+  LentBlock lent_;  // holds an allocation iff mem_ points into it
+  // Copies out of a lender's blocks for the copying way (a long tail).
+  class LentStream;
+  std::unique_ptr<LentStream> stream_;
 
   std::unique_ptr<char[]> buf_;
   size_t cap_;      // data capacity, not counting padding_

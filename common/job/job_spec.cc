@@ -23,7 +23,8 @@ using nlohmann::json;
 Status ParseInputs(const JobChecker& c, const json& in, JobSpec* job) {
   const std::string p = "/inputs";
   if (!in.is_object()) return c.Error(p, FoundText(in), "an object with \"files\"");
-  FF_RETURN_IF_ERROR(c.OnlyKeys(in, p, {"files", "format", "bad_record_limit", "chunk_bytes", "check_unread_values"}));
+  FF_RETURN_IF_ERROR(c.OnlyKeys(in, p, {"files", "format", "bad_record_limit", "chunk_bytes", "check_unread_values",
+                                             "decode_ahead"}));
   if (!in.contains("files")) return c.Error(p, "no \"files\"", "\"files\": a list of paths or patterns");
   const json& files = in["files"];
   if (files.is_string()) return c.Error(p + "/files", FoundText(files), "an array of strings (wrap it in [ ])");
@@ -57,6 +58,13 @@ Status ParseInputs(const JobChecker& c, const json& in, JobSpec* job) {
   if (const auto v = in.find("check_unread_values"); v != in.end()) {
     if (!v->is_boolean()) return c.Error(p + "/check_unread_values", FoundText(*v), "true or false");
     job->check_unread_values = v->get<bool>();
+  }
+  if (const auto v = in.find("decode_ahead"); v != in.end()) {
+    const std::string text = v->is_string() ? v->get<std::string>() : "";
+    if (text == "auto") job->decode_ahead = AheadChoice::kAuto;
+    else if (text == "on") job->decode_ahead = AheadChoice::kOn;
+    else if (text == "off") job->decode_ahead = AheadChoice::kOff;
+    else return c.Error(p + "/decode_ahead", FoundText(*v), "\"auto\", \"on\" or \"off\"");
   }
   return Status::Ok();
 }

@@ -14,6 +14,7 @@
 #include <vector>
 
 #include "common/measures/measure.h"
+#include "common/input/decode_ahead.h"
 #include "common/input/record_reader.h"
 #include "common/job/table_spec.h"
 #include "common/base/status.h"
@@ -99,6 +100,10 @@ struct JobSpec {
   // field reads (ValueChecks::kEveryValue); changes which lines are malformed,
   // so it is in the plan's fingerprint.
   bool check_unread_values = false;
+  // "decode_ahead": whether workers decompress on a helper thread while they
+  // parse (common/input/decode_ahead.h). Never in the plan's fingerprint:
+  // results do not depend on it.
+  AheadChoice decode_ahead = AheadChoice::kAuto;
   std::string keep;                 // "" = keep every record (shared by every reduction)
   std::vector<TableSpec> tables;    // lookup tables, job-level (table_spec.h)
   std::vector<DeriveSpec> derive;   // shared by every reduction

@@ -18,6 +18,7 @@
 #include "common/partial/partial_codec.h"
 #include "common/partial/record_batch.h"
 #include "common/job/plan.h"
+#include "common/input/decode_ahead.h"
 #include "common/input/record_reader.h"
 #include "common/job/shard_task.h"
 #include "common/base/status.h"
@@ -48,9 +49,15 @@ class ShardProcessor {
   // Test-only: when nonzero, the budget whatever the task says.
   uint64_t table_bytes_override = 0;
 
+  // Shards of at least kAheadMinFileBytes are read through a DecodeAhead
+  // (common/input/decode_ahead.h): its blocks filled by a helper thread iff
+  // ahead_threaded, else inline. Set before the first Process.
+  bool ahead_threaded = false;
+
  private:
   const Plan* plan_;
   std::vector<const std::vector<MeasureConfig>*> configs_;  // per reduction, the plan's
+  std::unique_ptr<DecodeAhead> ahead_;    // made on the first large shard
   std::unique_ptr<RecordReader> reader_;  // made on first use, kept across shards
   RecordBatch batch_;                      // records waiting to be aggregated
 };

@@ -2,7 +2,10 @@
 
 namespace fanfold {
 
-InProcessTransport::InProcessTransport(const Plan* plan, int workers) : processor_(plan), busy_(workers, false) {}
+InProcessTransport::InProcessTransport(const Plan* plan, int workers) : processor_(plan), busy_(workers, false) {
+  // One thread runs the shards, whatever the worker count: "auto" counts it as one.
+  processor_.ahead_threaded = AheadThreaded(plan->spec.decode_ahead, 1);
+}
 
 Status InProcessTransport::Assign(int w, const ShardTask& task) {
   if (w < 0 || w >= worker_count() || busy_[w]) return Status::Internal("assign to a busy or unknown worker");

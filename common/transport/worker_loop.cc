@@ -244,7 +244,8 @@ Result<WorkerLaunch> ParseWorkerLaunch(int argc, const char* const* argv) {
   return launch;
 }
 
-Status RunWorkerLoop(const std::string& segment, int slot, const ProcessFn& process) {
+Status RunWorkerLoop(const std::string& segment, int slot, const ProcessFn& process,
+                     const std::function<void(unsigned workers)>& on_attach) {
   // First thing: from here on the kernel kills us with the coordinator. The
   // spawner already asked for this before exec; asking again is harmless and
   // covers workers started some other way.
@@ -267,6 +268,7 @@ Status RunWorkerLoop(const std::string& segment, int slot, const ProcessFn& proc
                                ") is not running; worker exiting");
   }
 
+  if (on_attach) on_attach(view.worker_count());
   ShmChannel& ch = view.channel(static_cast<uint32_t>(slot));
   // Whatever an earlier worker of this slot left is settled: start in step.
   uint64_t done = ch.assign_seq.load(std::memory_order_acquire);

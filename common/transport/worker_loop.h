@@ -50,7 +50,9 @@ Result<WorkerLaunch> ParseWorkerLaunch(int argc, const char* const* argv);
 // returned before anything is served. An error from `process` is reported to
 // the coordinator as that shard's failure; the loop goes on.
 // Also sets this process up as a worker: SIGKILL on parent death, SIGINT and
-// SIGPIPE ignored.
-Status RunWorkerLoop(const std::string& segment, int slot, const ProcessFn& process);
+// SIGPIPE ignored. on_attach, when set, learns the run's worker count on
+// this machine (the segment's slots) before the first shard.
+Status RunWorkerLoop(const std::string& segment, int slot, const ProcessFn& process,
+                     const std::function<void(unsigned workers)>& on_attach = nullptr);
 
 }  // namespace fanfold

@@ -75,7 +75,11 @@ json SummaryJson(const RunInput& in, const RunSummary& s, int workers, uint64_t 
           {"memory", {{"cap_bytes", s.memory_cap},
                       {"cap_from", s.memory_cap_from},
                       {"merge", s.merge_held},
-                      {"spilled_bytes", s.merge_spilled_bytes}}}};
+                      {"spilled_bytes", s.merge_spilled_bytes}}},
+          // The job's choice and what its rule decides for this machine's workers
+          // (docs/decode-ahead.md); MPI agents decide for their own machines.
+          {"decode_ahead", {{"asked", AheadChoiceName(plan.spec.decode_ahead)},
+                            {"threaded", AheadThreaded(plan.spec.decode_ahead, static_cast<unsigned>(workers))}}}};
 }
 
 // What summary.json says of one reduction: its measures' skipped values and

@@ -260,3 +260,30 @@ TEST_CASE("check_unread_values is part of an NDJSON plan's fingerprint") {
   REQUIRE(!bad.ok());
   CHECK(bad.status().message().find("/inputs/check_unread_values") != std::string::npos);
 }
+
+// Intent: "decode_ahead" says how workers decompress, never what they
+// compute: parsed, refused when misspelled, and outside the fingerprint.
+TEST_CASE("decode_ahead is parsed and stays out of the fingerprint") {
+  auto plan_of = [](const char* inputs_extra) {
+    Result<JobSpec> spec = ParseJobSpec(std::string(R"({"inputs": {"files": ["a"])") + inputs_extra +
+                                            R"(}, "measures": [{"name": "n", "fn": "count"}]})",
+                                        "job.json");
+    REQUIRE(spec.ok());
+    Result<std::unique_ptr<Plan>> plan = CompilePlan(std::move(spec.value()), RecordFormat::kNdjson);
+    REQUIRE(plan.ok());
+    return std::move(plan.value());
+  };
+  const auto plain = plan_of("");
+  const auto on = plan_of(R"(, "decode_ahead": "on")");
+  const auto off = plan_of(R"(, "decode_ahead": "off")");
+  CHECK(plain->spec.decode_ahead == AheadChoice::kAuto);
+  CHECK(on->spec.decode_ahead == AheadChoice::kOn);
+  CHECK(off->spec.decode_ahead == AheadChoice::kOff);
+  CHECK(plain->fingerprint == on->fingerprint);
+  CHECK(plain->fingerprint == off->fingerprint);
+  Result<JobSpec> bad = ParseJobSpec(R"({"inputs": {"files": ["a"], "decode_ahead": true},
+    "measures": [{"name": "n", "fn": "count"}]})", "job.json");
+  REQUIRE(!bad.ok());
+  CHECK(bad.status().message().find("/inputs/decode_ahead") != std::string::npos);
+  CHECK(bad.status().message().find("\"auto\", \"on\" or \"off\"") != std::string::npos);
+}
