@@ -189,7 +189,14 @@ struct Value {
       return true;
     }
     if (text_number == TextNumber::kNotNumber) return false;
-    if (ShortNumeric(str, out)) return true;
+    if (NumberRep r; ShortNumeric(str, &r, &out->bits, &out->number)) {
+      out->kind = ValueKind::kNumber;
+      out->boolean = false;
+      out->rep = r;
+      out->text_number = TextNumber::kUnread;
+      out->str = {};
+      return true;
+    }
     const char* b = str.data();
     const char* e = b + str.size();
     const bool negative = *b == '-';
@@ -227,6 +234,10 @@ struct Value {
   // parsing. No effect on any other value or a string already read.
   void ReadTextNumber() {
     if (kind != ValueKind::kString || text_number != TextNumber::kUnread) return;
+    if (ShortNumeric(str, &rep, &bits, &number)) {
+      text_number = TextNumber::kNumber;
+      return;
+    }
     Value n;
     if (!AsNumeric(&n)) {
       text_number = TextNumber::kNotNumber;
@@ -238,13 +249,14 @@ struct Value {
     text_number = TextNumber::kNumber;
   }
 
-  // AsNumeric's result for the common numeric text in one pass: an
-  // optional sign, then 1 to 15 digits with at most one '.' among them.
+  // AsNumeric's result for the common numeric text in one pass, as the
+  // rep, bits and number of the kNumber it reads: an optional sign, then 1
+  // to 15 digits with at most one '.' among them.
   // Without a '.' that is the exact integer AsNumeric reads (|m| < 10^15);
   // with one, AsNumber's ShortDecimal value (the same arithmetic: m / 10^k,
-  // negated after the division). Returns false, *out untouched, for any
+  // negated after the division). Returns false, writing nothing, for any
   // other text, which the general path then reads.
-  static bool ShortNumeric(std::string_view s, Value* out) {
+  static bool ShortNumeric(std::string_view s, NumberRep* rep, uint64_t* bits, double* number) {
     static constexpr double kPow10[] = {1e0, 1e1, 1e2,  1e3,  1e4,  1e5,  1e6,  1e7,
                                         1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15};
     const char* c = s.data();
@@ -265,11 +277,16 @@ struct Value {
     const long digits = (c - first) - (dot != nullptr ? 1 : 0);
     if (c != e || digits == 0 || digits > 15) return false;
     if (dot == nullptr) {
-      *out = negative ? Int(-static_cast<int64_t>(m)) : Int(static_cast<int64_t>(m));
+      const int64_t i = negative ? -static_cast<int64_t>(m) : static_cast<int64_t>(m);
+      *rep = NumberRep::kInt64;
+      *bits = static_cast<uint64_t>(i);
+      *number = static_cast<double>(i);
       return true;
     }
     const double d = static_cast<double>(m) / kPow10[e - dot - 1];
-    *out = Number(negative ? -d : d);
+    *rep = NumberRep::kDouble;
+    *bits = 0;
+    *number = negative ? -d : d;
     return true;
   }
 
