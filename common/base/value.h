@@ -8,6 +8,12 @@
 // [-2^63, 2^64-1] is a number whose `rep` says it is an integer (int64 or, above
 // INT64_MAX, uint64), held exactly in `bits`; `number` is always its nearest
 // double, so code that only needs a double reads `number` as before.
+//
+// A string may carry its own numeric reading (ReadTextNumber): AsNumeric's
+// result for its text, kept in `rep`, `bits` and `number`, which a string
+// does not otherwise use. Copies keep it, so a CSV cell read by several
+// numeric measures is parsed once; AsNumber and AsNumeric answer from it
+// exactly as they would from the text.
 #pragma once
 
 #include <charconv>
@@ -34,6 +40,13 @@ enum class NumberRep : uint8_t {
   kUint64 = 2,  // bits is the value (> INT64_MAX); `number` its nearest double
 };
 
+// What a string's `rep`, `bits` and `number` hold (Value::ReadTextNumber).
+enum class TextNumber : uint8_t {
+  kUnread = 0,     // nothing: the text is parsed when asked
+  kNumber = 1,     // AsNumeric's result for the text
+  kNotNumber = 2,  // the text is no number (AsNumber and AsNumeric fail)
+};
+
 // The widest exact integer arithmetic works in: every int64 and uint64, and
 // their sums, differences and products, without overflow.
 using WideInt = __int128;
@@ -42,6 +55,9 @@ struct Value {
   ValueKind kind = ValueKind::kMissing;
   bool boolean = false;
   NumberRep rep = NumberRep::kDouble;
+  // kString only: what rep, bits and number hold (ReadTextNumber). In the
+  // padding before `number`, so a Value stays 40 bytes.
+  TextNumber text_number = TextNumber::kUnread;
   double number = 0;
   uint64_t bits = 0;
   std::string_view str;
@@ -109,6 +125,13 @@ struct Value {
       return true;
     }
     if (kind != ValueKind::kString || str.empty()) return false;
+    if (text_number == TextNumber::kNumber) {
+      // The one text whose AsNumber differs from its AsNumeric's `number`:
+      // a negative integer zero ("-0", "-000") reads as -0.0 here.
+      *out = rep != NumberRep::kDouble && bits == 0 && str[0] == '-' ? -0.0 : number;
+      return true;
+    }
+    if (text_number == TextNumber::kNotNumber) return false;
     const char* b = str.data();
     const char* e = b + str.size();
     if (*b == '+') ++b;  // from_chars rejects a leading '+'
@@ -158,6 +181,22 @@ struct Value {
       return true;
     }
     if (kind != ValueKind::kString || str.empty()) return false;
+    if (text_number == TextNumber::kNumber) {
+      *out = Make(ValueKind::kNumber);
+      out->rep = rep;
+      out->bits = bits;
+      out->number = number;
+      return true;
+    }
+    if (text_number == TextNumber::kNotNumber) return false;
+    if (NumberRep r; ShortNumeric(str, &r, &out->bits, &out->number)) {
+      out->kind = ValueKind::kNumber;
+      out->boolean = false;
+      out->rep = r;
+      out->text_number = TextNumber::kUnread;
+      out->str = {};
+      return true;
+    }
     const char* b = str.data();
     const char* e = b + str.size();
     const bool negative = *b == '-';
@@ -189,6 +228,68 @@ struct Value {
     return true;
   }
 
+  // A string reads its text as AsNumeric would, once, and keeps the result
+  // (text_number and, for a number, rep, bits and number): later AsNumber
+  // and AsNumeric calls on it or its copies give the same answers without
+  // parsing. No effect on any other value or a string already read.
+  void ReadTextNumber() {
+    if (kind != ValueKind::kString || text_number != TextNumber::kUnread) return;
+    if (ShortNumeric(str, &rep, &bits, &number)) {
+      text_number = TextNumber::kNumber;
+      return;
+    }
+    Value n;
+    if (!AsNumeric(&n)) {
+      text_number = TextNumber::kNotNumber;
+      return;
+    }
+    rep = n.rep;
+    bits = n.bits;
+    number = n.number;
+    text_number = TextNumber::kNumber;
+  }
+
+  // AsNumeric's result for the common numeric text in one pass, as the
+  // rep, bits and number of the kNumber it reads: an optional sign, then 1
+  // to 15 digits with at most one '.' among them.
+  // Without a '.' that is the exact integer AsNumeric reads (|m| < 10^15);
+  // with one, AsNumber's ShortDecimal value (the same arithmetic: m / 10^k,
+  // negated after the division). Returns false, writing nothing, for any
+  // other text, which the general path then reads.
+  static bool ShortNumeric(std::string_view s, NumberRep* rep, uint64_t* bits, double* number) {
+    static constexpr double kPow10[] = {1e0, 1e1, 1e2,  1e3,  1e4,  1e5,  1e6,  1e7,
+                                        1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15};
+    const char* c = s.data();
+    const char* const e = c + s.size();
+    if (c == e || e - c > 17) return false;  // sign + 15 digits + '.' at most
+    const bool negative = *c == '-';
+    if (*c == '-' || *c == '+') ++c;
+    // Digits, then iff a '.' follows, the digits after it.
+    uint64_t m = 0;
+    const char* const first = c;
+    for (unsigned d; c < e && (d = static_cast<unsigned>(*c - '0')) <= 9; ++c) m = m * 10 + d;
+    const char* dot = nullptr;
+    if (c < e && *c == '.') {
+      dot = c++;
+      for (unsigned d; c < e && (d = static_cast<unsigned>(*c - '0')) <= 9; ++c) m = m * 10 + d;
+    }
+    // At most 17 bytes in all, so m cannot overflow before this check.
+    const long digits = (c - first) - (dot != nullptr ? 1 : 0);
+    if (c != e || digits == 0 || digits > 15) return false;
+    if (dot == nullptr) {
+      const int64_t i = negative ? -static_cast<int64_t>(m) : static_cast<int64_t>(m);
+      *rep = NumberRep::kInt64;
+      *bits = static_cast<uint64_t>(i);
+      *number = static_cast<double>(i);
+      return true;
+    }
+    const double d = static_cast<double>(m) / kPow10[e - dot - 1];
+    *rep = NumberRep::kDouble;
+    *bits = 0;
+    *number = negative ? -d : d;
+    return true;
+  }
+
   // Truthiness used by filters: true, non-zero numbers and non-empty strings.
   bool Truthy() const {
     switch (kind) {
@@ -207,5 +308,8 @@ struct Value {
     return v;
   }
 };
+
+// Values are copied per record and per measure argument: keep them small.
+static_assert(sizeof(Value) <= 40, "Value grew past five words");
 
 }  // namespace fanfold

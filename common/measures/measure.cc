@@ -17,6 +17,23 @@ Status MeasureState::MergeEncoded(ByteReader& r, bool apply, MeasureState* scrat
 
 int MeasureArgCount(MeasureKind kind) { return MeasureRowOf(kind).arg_count; }
 
+bool MeasureReadsNumber(MeasureKind kind, size_t arg) {
+  switch (kind) {
+    case MeasureKind::kSum:
+    case MeasureKind::kMean:
+    case MeasureKind::kVariance:
+    case MeasureKind::kStddev:
+    case MeasureKind::kMin:
+    case MeasureKind::kMax:
+    case MeasureKind::kQuantile:
+    case MeasureKind::kDdSketch:
+    case MeasureKind::kHistogram: return arg == 0;
+    case MeasureKind::kAtLowest:
+    case MeasureKind::kAtHighest: return arg == 1;  // the ordering key
+    default: return false;
+  }
+}
+
 size_t OutputColumnCount(const MeasureConfig& config) {
   return MeasureRowOf(config.kind).columns("", config).size();
 }

@@ -141,6 +141,12 @@ std::unique_ptr<MeasureState> NewMeasureState(const MeasureConfig& config);
 // Number of arguments Add() expects for kind (0, 1 or 2).
 int MeasureArgCount(MeasureKind kind);
 
+// True iff kind's measure reads its argument `arg` (0-based) as a number
+// (Value::AsNumber or AsNumeric): the argument whose text is worth
+// reading once as a number (Value::ReadTextNumber) before the measure
+// takes it. A hint only: a measure gives the same result either way.
+bool MeasureReadsNumber(MeasureKind kind, size_t arg);
+
 // Number of cells Finalize() appends (the row's output columns).
 size_t OutputColumnCount(const MeasureConfig& config);
 

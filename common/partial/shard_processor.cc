@@ -71,6 +71,10 @@ struct ReductionFeed {
   uint64_t kept = 0;
   std::vector<int> group_direct;              // Expr::DirectSlot of each key
   std::vector<std::array<int, 2>> arg_direct;  // ... of each measure argument
+  // Per measure, bit a: argument a is a field the measure reads as a
+  // number; its text is read once in the batch (Value::ReadTextNumber), so
+  // every measure and reduction reading that field shares one parse.
+  std::vector<uint8_t> arg_numeric;
   std::vector<MeasureInputs> inputs;          // per measure
   // The records of keys the full table does not hold (made when needed).
   std::unique_ptr<TableOverflow> overflow;
@@ -108,9 +112,14 @@ class Aggregator final : public RecordSink {
       f.only_values.resize(f.plan->measures.size() * cap);
       for (const CompiledMeasure& m : f.plan->measures) {
         std::array<int, 2> d = {-1, -1};
-        for (size_t a = 0; a < m.args.size() && a < 2; ++a) d[a] = m.args[a].DirectSlot();
+        uint8_t numeric = 0;
+        for (size_t a = 0; a < m.args.size() && a < 2; ++a) {
+          d[a] = m.args[a].DirectSlot();
+          if (d[a] >= 0 && MeasureReadsNumber(m.config.kind, a)) numeric |= static_cast<uint8_t>(1u << a);
+        }
         f.arg_direct.push_back(d);
         f.arg_values.emplace_back(cap * std::max<size_t>(m.args.size(), 1));
+        f.arg_numeric.push_back(numeric);
         MeasureInputs in;
         in.stride = m.args.size();
         in.groups = std::make_unique<uint32_t[]>(RecordBatch::kCapacity);
@@ -259,7 +268,13 @@ class Aggregator final : public RecordSink {
       MeasureInputs& in = f.inputs[m];
       Value* args = &in.args[in.n * in.stride];
       in.groups[in.n++] = group;
-      for (size_t a = 0; a < in.stride; ++a) args[a] = ArgValue(f, m, a, r);
+      const uint8_t numeric = f.arg_numeric[m];
+      for (size_t a = 0; a < in.stride; ++a) {
+        const int d = f.arg_direct[m][a];
+        // A field a numeric measure reads is parsed once, in the batch, and shared.
+        if (d >= 0 && (numeric >> a & 1)) batch_.record(r)[d].ReadTextNumber();
+        args[a] = ArgValue(f, m, a, r);
+      }
     }
   }
 

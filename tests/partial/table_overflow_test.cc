@@ -214,7 +214,7 @@ TEST_CASE("table overflow: fed directly, partitioned again at every depth, equal
     recs.push_back({"key-" + std::to_string(rng() % 9000), (rng() % 2 ? 1e16 : 0.1) * (rng() % 3 ? 1 : -1), rng() % 5 == 0});
   auto feed = [&](WorkerGroupTable& t, uint32_t g, const Rec& r) {
     const Value v = Value::Number(r.v);
-    const Value by[2] = {Value{ValueKind::kString, false, NumberRep::kDouble, 0, 0, r.key}, v};
+    const Value by[2] = {Value::String(r.key), v};
     REQUIRE(t.column(0).AddBatch(&g, nullptr, 0, 1) == 1);
     if (!r.skip_sum) REQUIRE(t.column(1).AddBatch(&g, &v, 1, 1) == 1);
     REQUIRE(t.column(2).AddBatch(&g, &v, 1, 1) == 1);
@@ -238,7 +238,7 @@ TEST_CASE("table overflow: fed directly, partitioned again at every depth, equal
         continue;
       }
       const Value v = Value::Number(r.v);
-      const Value by[2] = {Value{ValueKind::kString, false, NumberRep::kDouble, 0, 0, r.key}, v};
+      const Value by[2] = {Value::String(r.key), v};
       overflow.BeginRecord(r.key);
       overflow.AddArgs(nullptr);
       if (r.skip_sum) overflow.SkipMeasure(); else overflow.AddArgs(&v);
