@@ -1,6 +1,7 @@
 #include "coordinator/run/result_stream.h"
 
 #include <algorithm>
+#include <cerrno>
 #include <cstdio>
 #include <cstdlib>
 #include <filesystem>
@@ -112,6 +113,25 @@ Status PublishFiles(Files& f) {
   return Status::Ok();
 }
 
+// Removes what a killed coordinator left of the run directory's result
+// file `path`: its StagedFile temporaries (".NAME.tmp-PID-N" beside it).
+// Only in the run directory, which one coordinator holds at a time; a
+// shown file's folder may have other writers.
+Status RemoveStaleTemporaries(Platform& platform, const std::string& path) {
+  const std::filesystem::path p(path);
+  const std::string dir = p.parent_path().string();
+  const std::string prefix = "." + p.filename().string() + ".tmp-";
+  std::vector<std::string> names;
+  if (dir.empty() || !platform.Exists(dir)) return Status::Ok();
+  if (OsError e = platform.ListDirectory(dir, &names); !e.ok()) return e.ToStatus("list", dir);
+  for (const std::string& n : names) {
+    if (n.compare(0, prefix.size(), prefix) != 0) continue;
+    const std::string stale = (std::filesystem::path(dir) / n).string();
+    if (OsError e = platform.Remove(stale); !e.ok() && e.code() != ENOENT) return e.ToStatus("remove", stale);
+  }
+  return Status::Ok();
+}
+
 // The optimistic path: rows written to the files as the merge hands them
 // over, for as long as each row's sort key is above the one before (the
 // merge walks runs in key-byte order, which is the result's own for many
@@ -202,8 +222,9 @@ Result<ResultStreamOutcome> WriteResultStream(Merger& merger, const Plan& plan, 
   Platform& platform = *t.platform;
   ResultStreamOutcome out;
   // Sort files of a coordinator that was killed (the run directory's lock
-  // says none is alive).
+  // says none is alive), and its temporaries of this result file.
   FF_RETURN_IF_ERROR(RemoveStaleSortFiles(platform, t.spill_dir));
+  FF_RETURN_IF_ERROR(RemoveStaleTemporaries(platform, t.run_dir_file));
   std::vector<std::string> columns = rp.columns;
   for (const AddedColumn& a : rp.rows.add) columns.push_back(a.name);
   const OutputFormat format = spec.emit.format;

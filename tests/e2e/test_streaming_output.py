@@ -20,7 +20,8 @@ without `order` (CSV). Checked:
   (the shown output cannot be written), after SIGINT during the output stage
   (exit 130 and `resume` finishes with the same bytes, or the run had
   already finished) and after SIGKILL there (the next `resume` removes the
-  leftovers and gives the same bytes);
+  leftovers, a planted temporary of the result file included, and gives
+  the same bytes);
 * `fanfold merge` of the job's two parts gives the whole run's bytes through
   the spilled sort.
 """
@@ -154,8 +155,14 @@ def interrupt_in_output(env, c, job, run_dir, sig, expected, label):
         c.check(rc in (0, 130), "%s: exit %d" % (label, rc))
         c.check(not sort_files(run_dir), "%s: sort files left after SIGINT" % label)
     if rc != 0:
+        # What a coordinator killed while writing its result leaves beside it:
+        # resume removes it (the run directory has one coordinator at a time).
+        with open(os.path.join(run_dir, ".result.csv.tmp-99999-1"), "w") as f:
+            f.write("half a result")
         rc2, _, err = run_env(env, [env.fanfold, "resume", run_dir, "--progress", "off"], "60000")
         c.check(rc2 == 0, "%s: resume exit %d: %s" % (label, rc2, lib.tail(err)))
+        left = [n for n in os.listdir(run_dir) if n.startswith(".result.csv.tmp-")]
+        c.check(not left, "%s: temporaries left after the resume: %s" % (label, left))
     c.check(not sort_files(run_dir), "%s: sort files left after the resume" % label)
     with open(os.path.join(run_dir, "result.csv"), "rb") as f:
         c.check(f.read() == expected, "%s: result differs from the uninterrupted run's" % label)
