@@ -1,0 +1,202 @@
+#include "common/partial/batch_aggregator.h"
+
+#include <algorithm>
+
+#include "common/measures/measure.h"
+#include "common/partial/group_key.h"
+#include "common/port/clock.h"
+
+namespace fanfold {
+
+BatchAggregator::BatchAggregator(const Plan& plan, RecordBatch* batch, const std::function<void(uint64_t)>& hook,
+                                 bool every, uint64_t table_bytes)
+    : plan_(plan), hook_(hook), hook_mask_(every ? 0 : 4095), batch_(*batch) {
+  const size_t share = plan.reductions.empty() ? 0 : table_bytes / plan.reductions.size();
+  budget_ = table_bytes == 0 ? 0 : std::max<size_t>(share, 1);
+  for (size_t r = 0; r < plan.reductions.size(); ++r) {
+    ReductionFeed f;
+    f.plan = &plan.reductions[r];
+    f.table = std::make_unique<WorkerGroupTable>(&f.plan->configs);
+    f.table->set_budget(budget_);
+    for (const Expr& g : f.plan->group) f.group_direct.push_back(g.DirectSlot());
+    const size_t cap = RecordBatch::kCapacity;
+    f.sel.reserve(cap);
+    f.key_values.resize(f.plan->group.size() * cap);
+    f.only_values.resize(f.plan->measures.size() * cap);
+    for (const CompiledMeasure& m : f.plan->measures) {
+      std::array<int, 2> d = {-1, -1};
+      uint8_t numeric = 0;
+      for (size_t a = 0; a < m.args.size() && a < 2; ++a) {
+        d[a] = m.args[a].DirectSlot();
+        if (d[a] >= 0 && MeasureReadsNumber(m.config.kind, a)) numeric |= static_cast<uint8_t>(1u << a);
+      }
+      f.arg_direct.push_back(d);
+      f.arg_values.emplace_back(cap * std::max<size_t>(m.args.size(), 1));
+      f.arg_numeric.push_back(numeric);
+      MeasureInputs in;
+      in.stride = m.args.size();
+      in.groups = std::make_unique<uint32_t[]>(RecordBatch::kCapacity);
+      in.args = std::make_unique<Value[]>(RecordBatch::kCapacity * std::max<size_t>(in.stride, 1));
+      f.inputs.push_back(std::move(in));
+    }
+    feeds_.push_back(std::move(f));
+  }
+  unmatched_.assign(plan.lookups.size(), 0);
+  sel_.reserve(RecordBatch::kCapacity);
+  truth_ = std::make_unique<Value[]>(RecordBatch::kCapacity);
+}
+
+bool BatchAggregator::OnRecord(Value* slots) {
+  batch_.Add(slots);
+  return !batch_.full() || Drain();
+}
+
+bool BatchAggregator::Drain() {
+  const uint64_t t0 = MonotonicNanos();
+  const size_t n = batch_.size();
+  sel_.clear();
+  for (size_t i = 0; i < n; ++i) {
+    ++seen_;
+    if ((seen_ & hook_mask_) == 0 && hook_) hook_(seen_);
+    Value* slots = batch_.record(i);
+    for (size_t t = 0; t < plan_.lookups.size(); ++t)
+      if (!plan_.lookups[t].Fill(slots, &arena_, &lookup_key_)) ++unmatched_[t];
+    sel_.push_back(static_cast<uint32_t>(i));
+  }
+  for (size_t i : plan_.derive_before_keep) Derive(i, sel_);
+  if (plan_.keep) Filter(*plan_.keep, &sel_);
+  for (size_t i : plan_.derive_after_keep) Derive(i, sel_);
+  kept_ += sel_.size();
+  for (ReductionFeed& f : feeds_) FeedBatch(f);
+  const bool go_on = Flush() && spill_error_.ok();
+  batch_.Clear();
+  arena_.Reset();
+  aggregate_ns_ += MonotonicNanos() - t0;
+  return go_on;
+}
+
+Status BatchAggregator::FinishOverflow(size_t r, int* over_limit_measure) {
+  return feeds_[r].overflow->Finish(std::move(feeds_[r].table), over_limit_measure);
+}
+
+void BatchAggregator::Derive(size_t i, const std::vector<uint32_t>& sel) {
+  const CompiledDerive& d = plan_.derive[i];
+  d.expr.EvalBatch(rows(), width_, sel.data(), sel.size(), batch_.size(), rows() + d.slot, width_, &scratch_, &arena_);
+}
+
+void BatchAggregator::Filter(const Expr& keep, std::vector<uint32_t>* sel) {
+  keep.EvalBatch(rows(), width_, sel->data(), sel->size(), batch_.size(), truth_.get(), 1, &scratch_, &arena_);
+  size_t kept = 0;
+  for (const uint32_t r : *sel)
+    if (truth_[r].Truthy()) (*sel)[kept++] = r;
+  sel->resize(kept);
+}
+
+void BatchAggregator::EvalColumn(const Expr& e, int direct, const std::vector<uint32_t>& sel, Value* column,
+                                 size_t stride) {
+  if (direct < 0)
+    e.EvalBatch(rows(), width_, sel.data(), sel.size(), batch_.size(), column, stride, &scratch_, &arena_);
+}
+
+// One reduction over the records the job kept: its own derived fields and
+// filter, its keys and measure inputs as columns, then record by record
+// (in record order) its group and its measures' queued inputs.
+// The strings evaluated for a record stay in arena_ until the batch ends:
+// its measures take them then.
+void BatchAggregator::FeedBatch(ReductionFeed& f) {
+  const ReductionPlan& rp = *f.plan;
+  std::vector<uint32_t>& sel = f.sel;
+  sel.assign(sel_.begin(), sel_.end());
+  for (size_t i : rp.derive_before_keep) Derive(i, sel);
+  if (rp.keep) Filter(*rp.keep, &sel);
+  for (size_t i : rp.derive_after_keep) Derive(i, sel);
+  f.kept += sel.size();
+  const size_t cap = RecordBatch::kCapacity;
+  for (size_t g = 0; g < rp.group.size(); ++g)
+    EvalColumn(rp.group[g], f.group_direct[g], sel, &f.key_values[g * cap], 1);
+  for (size_t m = 0; m < rp.measures.size(); ++m) {
+    const CompiledMeasure& cm = rp.measures[m];
+    if (cm.only)
+      cm.only->EvalBatch(rows(), width_, sel.data(), sel.size(), batch_.size(), &f.only_values[m * cap], 1, &scratch_,
+                         &arena_);
+    const size_t stride = f.inputs[m].stride;
+    for (size_t a = 0; a < cm.args.size(); ++a)
+      EvalColumn(cm.args[a], f.arg_direct[m][a], sel, &f.arg_values[m][a], stride);
+  }
+  for (const uint32_t r : sel) Feed(f, r);
+}
+
+const Value& BatchAggregator::KeyValue(const ReductionFeed& f, size_t g, uint32_t r) {
+  const int d = f.group_direct[g];
+  return d >= 0 ? batch_.record(r)[d] : f.key_values[g * RecordBatch::kCapacity + r];
+}
+
+const Value& BatchAggregator::ArgValue(const ReductionFeed& f, size_t m, size_t a, uint32_t r) {
+  const int d = f.arg_direct[m][a];
+  return d >= 0 ? batch_.record(r)[d] : f.arg_values[m][r * f.inputs[m].stride + a];
+}
+
+bool BatchAggregator::MeasureTakes(const ReductionFeed& f, size_t m, uint32_t r) const {
+  return !f.plan->measures[m].only || f.only_values[m * RecordBatch::kCapacity + r].Truthy();
+}
+
+void BatchAggregator::Feed(ReductionFeed& f, uint32_t r) {
+  const ReductionPlan& rp = *f.plan;
+  key_.clear();
+  for (size_t g = 0; g < rp.group.size(); ++g) AppendKeyValue(KeyValue(f, g, r), &key_);
+  const uint32_t group = f.table->FindOrAdd(key_);
+  if (group == WorkerGroupTable::kOverBudget) return Spill(f, r);
+  for (size_t m = 0; m < rp.measures.size(); ++m) {
+    if (!MeasureTakes(f, m, r)) continue;  // not this measure's input
+    MeasureInputs& in = f.inputs[m];
+    Value* args = &in.args[in.n * in.stride];
+    in.groups[in.n++] = group;
+    const uint8_t numeric = f.arg_numeric[m];
+    for (size_t a = 0; a < in.stride; ++a) {
+      const int d = f.arg_direct[m][a];
+      // A field a numeric measure reads is parsed once, in the batch, and shared.
+      if (d >= 0 && (numeric >> a & 1)) batch_.record(r)[d].ReadTextNumber();
+      args[a] = ArgValue(f, m, a, r);
+    }
+  }
+}
+
+void BatchAggregator::Spill(ReductionFeed& f, uint32_t r) {
+  const ReductionPlan& rp = *f.plan;
+  if (!f.overflow) {
+    std::vector<size_t> strides;
+    for (const CompiledMeasure& cm : rp.measures) strides.push_back(cm.args.size());
+    f.overflow = std::make_unique<TableOverflow>(&rp.configs, std::move(strides), budget_);
+  }
+  f.overflow->BeginRecord(key_);
+  for (size_t m = 0; m < rp.measures.size(); ++m) {
+    if (!MeasureTakes(f, m, r)) {
+      f.overflow->SkipMeasure();
+      continue;
+    }
+    const size_t stride = f.inputs[m].stride;
+    f.spill_args.resize(stride);
+    for (size_t a = 0; a < stride; ++a) f.spill_args[a] = ArgValue(f, m, a, r);
+    f.overflow->AddArgs(f.spill_args.data());
+  }
+  if (Status s = f.overflow->EndRecord(); !s.ok() && spill_error_.ok()) spill_error_ = s;
+}
+
+bool BatchAggregator::Flush() {
+  bool ok = true;
+  for (size_t r = 0; r < feeds_.size(); ++r) {
+    ReductionFeed& f = feeds_[r];
+    for (size_t m = 0; m < f.inputs.size(); ++m) {
+      MeasureInputs& in = f.inputs[m];
+      const size_t n = in.n;
+      if (ok && n > 0 && f.table->column(m).AddBatch(in.groups.get(), in.args.get(), in.stride, n) < n) {
+        over_limit_ = {static_cast<int>(r), static_cast<int>(m)};
+        ok = false;
+      }
+      in.n = 0;
+    }
+  }
+  return ok;
+}
+
+}  // namespace fanfold
