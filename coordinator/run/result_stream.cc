@@ -10,6 +10,7 @@
 
 #include "common/port/files/durable_write.h"
 #include "common/port/files/file_util.h"
+#include "common/port/process_control.h"
 #include "coordinator/output/ordered_rows.h"
 #include "coordinator/output/row_pipe.h"
 #include "coordinator/output/row_sorter.h"
@@ -113,19 +114,29 @@ Status PublishFiles(Files& f) {
   return Status::Ok();
 }
 
-// Removes what a killed coordinator left of the run directory's result
-// file `path`: its StagedFile temporaries (".NAME.tmp-PID-N" beside it).
-// Only in the run directory, which one coordinator holds at a time; a
-// shown file's folder may have other writers.
-Status RemoveStaleTemporaries(Platform& platform, const std::string& path) {
+// Removes what a killed coordinator left of the result file `path`: its
+// StagedFile temporaries (".NAME.tmp-PID-N" beside it). In the run
+// directory, which one coordinator holds at a time, every one of them; in a
+// shown file's folder, which may have other writers, only those whose
+// writer (PID) is no longer alive on this machine.
+Status RemoveStaleTemporaries(Platform& platform, const std::string& path, bool only_dead_writers) {
   const std::filesystem::path p(path);
-  const std::string dir = p.parent_path().string();
+  const std::string dir = p.parent_path().empty() ? "." : p.parent_path().string();
   const std::string prefix = "." + p.filename().string() + ".tmp-";
   std::vector<std::string> names;
-  if (dir.empty() || !platform.Exists(dir)) return Status::Ok();
+  if (!platform.Exists(dir)) return Status::Ok();
   if (OsError e = platform.ListDirectory(dir, &names); !e.ok()) return e.ToStatus("list", dir);
   for (const std::string& n : names) {
     if (n.compare(0, prefix.size(), prefix) != 0) continue;
+    if (only_dead_writers) {
+      // The name's PID: digits, then '-' and the temporary's own digits.
+      const std::string rest = n.substr(prefix.size());
+      const size_t dash = rest.find('-');
+      if (dash == 0 || dash == std::string::npos || dash > 9 ||
+          rest.find_first_not_of("0123456789-") != std::string::npos)
+        continue;
+      if (ProcessAlive(std::stoi(rest.substr(0, dash)))) continue;
+    }
     const std::string stale = (std::filesystem::path(dir) / n).string();
     if (OsError e = platform.Remove(stale); !e.ok() && e.code() != ENOENT) return e.ToStatus("remove", stale);
   }
@@ -224,7 +235,9 @@ Result<ResultStreamOutcome> WriteResultStream(Merger& merger, const Plan& plan, 
   // Sort files of a coordinator that was killed (the run directory's lock
   // says none is alive), and its temporaries of this result file.
   FF_RETURN_IF_ERROR(RemoveStaleSortFiles(platform, t.spill_dir));
-  FF_RETURN_IF_ERROR(RemoveStaleTemporaries(platform, t.run_dir_file));
+  FF_RETURN_IF_ERROR(RemoveStaleTemporaries(platform, t.run_dir_file, false));
+  // The shown file's: best effort, it is not the run's own folder.
+  if (t.shown && !t.shown_path.empty()) (void)RemoveStaleTemporaries(platform, t.shown_path, true);
   std::vector<std::string> columns = rp.columns;
   for (const AddedColumn& a : rp.rows.add) columns.push_back(a.name);
   const OutputFormat format = spec.emit.format;

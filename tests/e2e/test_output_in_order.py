@@ -24,6 +24,8 @@ and each reduction's rows equal sqlite3's (Python's stdlib module) GROUP BY
 with ORDER BY (BINARY collation compares text bytewise, as fanfold does;
 integers numerically); no temporary or sort file is left behind. SIGINT
 and SIGKILL sent as the output stage starts, then `resume`: the same bytes
+(temporaries of the shown files whose writer is gone removed, a live
+writer's kept)
 and nothing left behind.
 """
 
@@ -139,11 +141,29 @@ def interrupt_streaming(env, c, job, run_dir, sig, label, expected):
     c.check(sent, "%s: the output stage was never reached" % label)
     if sig == signal.SIGINT:
         c.check(rc in (0, 130), "%s: exit %d" % (label, rc))
+    planted = []
     if rc != 0:
+        # Temporaries of the shown files as a killed writer leaves them (its
+        # PID no longer alive: resume removes them) and as a live writer has
+        # them (this script's PID: resume leaves them alone).
+        gone = subprocess.Popen(["true"])
+        gone.wait()
+        shown = os.path.dirname(env.path("shown", "runs", "x"))
+        for name, _, fmt, _, _, _ in REDUCTIONS:
+            for pid in (gone.pid, os.getpid()):
+                path = os.path.join(shown, ".%s.%s.tmp-%d-7" % (name, fmt, pid))
+                with open(path, "w") as f:
+                    f.write("half a result")
+                planted.append((path, pid == os.getpid()))
         done = subprocess.run([env.fanfold, "resume", run_dir, "--progress", "off"], stdout=subprocess.PIPE,
                               stderr=subprocess.PIPE, cwd=env.tmp, env=env_vars, timeout=300)
         c.check(done.returncode == 0, "%s: resume exit %d: %s" % (label, done.returncode,
                                                                  lib.tail(done.stderr.decode())))
+    for path, live in planted:
+        c.check(os.path.exists(path) == live, "%s: %s: %s" % (label, os.path.basename(path), (
+            "a live writer's temporary was removed" if live else "a dead writer's temporary was left")))
+        if live:
+            os.remove(path)
     for name, _, fmt, _, _, _ in REDUCTIONS:
         with open(os.path.join(run_dir, "result-%s.%s" % (name, fmt)), "rb") as f:
             c.check(f.read() == expected[name], "%s: %s differs from the uninterrupted run's" % (label, name))
