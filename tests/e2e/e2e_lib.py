@@ -170,6 +170,18 @@ def process_alive(pid):
         return False
 
 
+def signal_at_output_stage(p, sig, timeout=300):
+    """Reads a `fanfold run --log-level debug` process's stderr and sends it
+    sig once its log says the output stage starts; waits for it. Returns
+    (whether sig was sent, exit code)."""
+    sent = False
+    for line in p.stderr:
+        if not sent and b"before the output stage" in line:
+            p.send_signal(sig)
+            sent = True
+    return sent, p.wait(timeout=timeout)
+
+
 def run_bench_smoke(args, script_name):
     """Runs bench/SCRIPT_NAME --smoke against args' build; returns (exit status, stdout, stderr),
     exit status -9 after 300 s."""

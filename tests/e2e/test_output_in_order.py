@@ -132,12 +132,7 @@ def interrupt_streaming(env, c, job, run_dir, sig, label, expected):
     p = subprocess.Popen([env.fanfold, "run", job, "--run-dir", run_dir, "-j", "2", "--log-level", "debug",
                           "--progress", "off"], stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, cwd=env.tmp,
                          env=env_vars)
-    sent = False
-    for line in p.stderr:
-        if not sent and b"before the output stage" in line:
-            p.send_signal(sig)
-            sent = True
-    rc = p.wait(timeout=300)
+    sent, rc = lib.signal_at_output_stage(p, sig)
     c.check(sent, "%s: the output stage was never reached" % label)
     if sig == signal.SIGINT:
         c.check(rc in (0, 130), "%s: exit %d" % (label, rc))

@@ -142,12 +142,7 @@ def interrupt_in_output(env, c, job, run_dir, sig, expected, label):
     argv = [env.fanfold, "run", job, "--run-dir", run_dir, "-j", "2", "--log-level", "debug", "--progress", "off"]
     p = subprocess.Popen(argv, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, cwd=env.tmp,
                          env=with_env("FANFOLD_TEST_ONLY_SORT_BYTES", "60000"))
-    sent = False
-    for line in p.stderr:
-        if not sent and b"before the output stage" in line:
-            p.send_signal(sig)
-            sent = True
-    rc = p.wait(timeout=300)
+    sent, rc = lib.signal_at_output_stage(p, sig)
     if args_verbose():
         print("%s: exit %d" % (label, rc))
     c.check(sent, "%s: the output stage was never reached" % label)
