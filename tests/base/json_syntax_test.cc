@@ -8,6 +8,8 @@
 #include <doctest/doctest.h>
 #include <nlohmann/json.hpp>
 
+#include "tests/base/text_edit_test_util.h"
+
 namespace fanfold {
 namespace {
 
@@ -133,15 +135,7 @@ TEST_CASE("json_syntax: agrees with the JSON reader on random edits") {
     for (int e = 0, edits = 1 + static_cast<int>(rng() % 4); e < edits; ++e) {
       const size_t pos = rng() % (t.size() + 1);
       const char c = alphabet[rng() % alphabet.size()];
-      switch (rng() % 3) {
-        case 0:
-          if (pos < t.size()) t.erase(pos, 1);
-          break;
-        case 1: t.insert(pos, 1, c); break;
-        default:
-          if (pos < t.size()) t[pos] = c;
-          break;
-      }
+      EditOneByte(&t, pos, c, rng());
     }
     if (nlohmann::json::accept(t) != JsonSyntaxProblem(t).empty() && ++disagreements <= 5) {
       CAPTURE(t);

@@ -20,6 +20,7 @@
 #include <doctest/doctest.h>
 
 #include "common/input/ndjson_reader.h"
+#include "tests/base/text_edit_test_util.h"
 #include "tests/input/ndjson_test_util.h"
 #include "tests/input/reader_test_util.h"
 
@@ -111,15 +112,7 @@ TEST_CASE("ValueChecks on mutated lines against Python's json module") {
     for (int e = 0; e < edits; ++e) {
       const size_t at = rng() % (l.size() + 1);
       const char c = alphabet[rng() % alphabet.size()];
-      switch (rng() % 3) {
-        case 0:
-          if (at < l.size()) l.erase(at, 1);
-          break;
-        case 1: l.insert(at, 1, c); break;
-        default:
-          if (at < l.size()) l[at] = c;
-          break;
-      }
+      EditOneByte(&l, at, c, rng());
     }
     lines.push_back(l);
   }

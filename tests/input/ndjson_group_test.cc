@@ -18,6 +18,7 @@
 
 #include "common/input/ndjson_line_parser.h"
 #include "common/input/ndjson_reader.h"
+#include "tests/base/text_edit_test_util.h"
 #include "tests/input/ndjson_test_util.h"
 #include "tests/input/reader_test_util.h"
 
@@ -76,15 +77,7 @@ std::vector<std::string> MakeLines(uint32_t seed, size_t count) {
         // no byte put inside a string (between a quote and the next).
         if (run == 1 && at < l.size() && (l[at] == '"' || l[at] == '\\')) continue;
         if (run == 1 && std::count(l.begin(), l.begin() + static_cast<std::ptrdiff_t>(at), '"') % 2 == 1) continue;
-        switch (rng() % 3) {
-          case 0:
-            if (at < l.size()) l.erase(at, 1);
-            break;
-          case 1: l.insert(at, 1, c); break;
-          default:
-            if (at < l.size()) l[at] = c;
-            break;
-        }
+        EditOneByte(&l, at, c, rng());
       }
     }
     if (l.find('\n') != std::string::npos) continue;  // a mutation never makes two lines of one
