@@ -131,12 +131,15 @@ Status RunShards(const ShardList& list, const std::vector<uint32_t>& order, Tran
     rec.start_ns = ev.start_ns != 0 ? ev.start_ns : job.assign_ns;
     rec.end_ns = ev.end_ns != 0 ? ev.end_ns : WallNanos();
     if (rec.end_ns < rec.start_ns) rec.end_ns = rec.start_ns;
+    Status dispatched;
     switch (ev.kind) {
       case TransportEvent::Kind::kDone: {
         // The worker that sent it takes its next shard first: persisting
         // and merging this partial (long for one with many groups) then
-        // overlap that shard's work instead of leaving the worker idle.
-        FF_RETURN_IF_ERROR(dispatch());
+        // overlap that shard's work instead of leaving the worker idle. A
+        // hand-out that fails ends the run only once this partial is kept
+        // and its attempt recorded.
+        dispatched = dispatch();
         Status rejected = DecodePartialHeader(ev.partial, &rec.header);
         if (rejected.ok() && options.on_partial) FF_RETURN_IF_ERROR(options.on_partial(job.shard, ev.partial));
         if (rejected.ok()) rejected = merger.Add(job.shard, std::move(ev.partial), &rec.header);
@@ -172,6 +175,7 @@ Status RunShards(const ShardList& list, const std::vector<uint32_t>& order, Tran
         why = "quarantined after " + std::to_string(job.attempt) + " attempts; last: " + why;
       fail(job.shard, job.attempt, why);
     }
+    FF_RETURN_IF_ERROR(dispatched);
   }
   std::sort(result->failures.begin(), result->failures.end(),
             [](const ShardFailure& a, const ShardFailure& b) { return a.shard < b.shard; });

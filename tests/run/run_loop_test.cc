@@ -382,5 +382,22 @@ TEST_CASE("run_loop: an on_partial error stops the run") {
   CHECK(s.message() == "disk full");
 }
 
+// Intent: a hand-out that fails ends the run, but only after the partial
+// the worker just returned is persisted and its attempt recorded: finished
+// work is never lost to a later shard's error (the worker takes its next
+// shard before its partial is persisted, run_loop.cc).
+TEST_CASE("run_loop: a failed hand-out keeps the partial just returned") {
+  Harness h(3, /*workers=*/1);
+  h.transport.RefuseAssign(1);
+  Status s = h.Run();
+  REQUIRE_FALSE(s.ok());
+  CHECK(s.message().find("shard 1 cannot be sent") != std::string::npos);
+  REQUIRE(h.persisted.size() == 1);
+  CHECK(h.persisted[0] == 0);
+  REQUIRE(h.attempts.size() == 1);
+  CHECK(h.attempts[0].shard == 0);
+  CHECK(h.attempts[0].outcome == Outcome::kDone);
+}
+
 }  // namespace
 }  // namespace fanfold

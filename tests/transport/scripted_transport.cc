@@ -26,6 +26,8 @@ int ScriptedTransport::room(int w) const {
 
 Status ScriptedTransport::Assign(int w, const ShardTask& task) {
   if (w < 0 || w >= worker_count() || room(w) <= 0) return Status::Internal("assign to a full or unknown worker");
+  if (static_cast<int64_t>(task.index) == refused_)
+    return Status::Internal("shard " + std::to_string(task.index) + " cannot be sent");
   Slot& slot = slots_[static_cast<size_t>(w)];
   slot.queue.push_back(Held{task, slot.queue.empty() ? NowNs() : 0});
   assignments_.push_back(Assignment{w, slot.generation, task});

@@ -57,6 +57,9 @@ class ScriptedTransport final : public Transport {
   // a worker starts it; the step is used up once its event is decided (so a
   // handed-back shard answers when it comes again). Unscripted: answer at once.
   void On(uint32_t shard, uint32_t attempt, ScriptStep step) { script_[{shard, attempt}] = std::move(step); }
+  // Assign of this shard fails (as a transport refuses a task it cannot
+  // send), with an Internal status naming it.
+  void RefuseAssign(uint32_t shard) { refused_ = shard; }
 
   // One Assign as the transport saw it: which worker slot, which incarnation
   // of the worker in it (0 = the first; +1 after each death), the task.
@@ -105,6 +108,7 @@ class ScriptedTransport final : public Transport {
   PartialSource partial_for_;
   std::vector<Slot> slots_;
   std::map<std::pair<uint32_t, uint32_t>, ScriptStep> script_;
+  int64_t refused_ = -1;
   std::deque<TransportEvent> pending_;  // decided, not yet delivered
   std::vector<Assignment> assignments_;
   std::vector<TransportEvent> delivered_;
