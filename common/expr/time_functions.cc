@@ -161,11 +161,20 @@ bool ParseIsoTimestampCommon(std::string_view text, double* epoch_seconds) {
   if (pos < n && p[pos] == '.') {
     ++pos;
     int64_t num = 0, den = 1;
-    for (; pos < n && pos < 29 && p[pos] >= '0' && p[pos] <= '9'; ++pos) {
-      num = num * 10 + (p[pos] - '0');
-      den *= 10;
+    // Milliseconds, the commonest fraction, at fixed places: three digits
+    // and then no digit (so n >= 24: p[23] is inside the text).
+    auto is_digit = [p](size_t i) { return p[i] >= '0' && p[i] <= '9'; };
+    if (n >= 24 && is_digit(20) && is_digit(21) && is_digit(22) && !is_digit(23)) {
+      num = (p[20] - '0') * 100 + (p[21] - '0') * 10 + (p[22] - '0');
+      den = 1000;
+      pos = 23;
+    } else {
+      for (; pos < n && pos < 29 && p[pos] >= '0' && p[pos] <= '9'; ++pos) {
+        num = num * 10 + (p[pos] - '0');
+        den *= 10;
+      }
+      if (den == 1 || (pos < n && p[pos] >= '0' && p[pos] <= '9')) return false;  // none, or a tenth
     }
-    if (den == 1 || (pos < n && p[pos] >= '0' && p[pos] <= '9')) return false;  // none, or a tenth
     fraction = static_cast<double>(num) / static_cast<double>(den);
   }
   if (pos + 1 == n && (p[pos] == 'Z' || p[pos] == 'z')) {

@@ -78,29 +78,39 @@ bool ParseShortJsonNumber(const char* p, const char* e, Value* out) {
                                       1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15};
   const bool negative = p < e && *p == '-';
   if (negative) ++p;
-  const char* const int_begin = p;
+  // One pass over at most 18 bytes (18 digits, or 15 digits and a point):
+  // each byte is a digit, taken into m, or the one point. 18 digits stay
+  // below 2^64, so m cannot overflow.
+  const ptrdiff_t n = e - p;
+  if (n == 0 || n > 18) return false;
   uint64_t m = 0;
-  while (p < e && IsDigit(*p) && p - int_begin < 19) m = m * 10 + static_cast<uint64_t>(*p++ - '0');
-  const ptrdiff_t int_digits = p - int_begin;
-  if (int_digits == 0 || int_digits > 18 || (int_digits > 1 && *int_begin == '0')) return false;
-  if (p == e) {
+  const char* dot = nullptr;
+  for (const char* c = p; c < e; ++c) {
+    const unsigned d = static_cast<unsigned>(static_cast<unsigned char>(*c)) - '0';
+    if (d <= 9) {
+      m = m * 10 + d;
+    } else if (*c == '.' && dot == nullptr) {
+      dot = c;
+    } else {
+      return false;
+    }
+  }
+  const ptrdiff_t int_digits = (dot != nullptr ? dot : e) - p;
+  if (int_digits == 0 || (int_digits > 1 && *p == '0')) return false;
+  if (dot == nullptr) {
     *out = Value::Int(negative ? -static_cast<int64_t>(m) : static_cast<int64_t>(m));
     return true;
   }
-  if (*p != '.' || int_digits > 15) return false;
-  const char* const frac_begin = ++p;
-  while (p < e && IsDigit(*p) && int_digits + (p - frac_begin) < 16) m = m * 10 + static_cast<uint64_t>(*p++ - '0');
-  const ptrdiff_t frac_digits = p - frac_begin;
-  if (p != e || frac_digits == 0 || int_digits + frac_digits > 15) return false;
+  const ptrdiff_t frac_digits = e - dot - 1;
+  if (frac_digits == 0 || int_digits + frac_digits > 15) return false;
   const double d = static_cast<double>(m) / kPow10[frac_digits];
   *out = Value::Number(negative ? -d : d);
   return true;
 }
 
-}  // namespace
-
-bool ParseJsonNumber(std::string_view text, Value* out) {
-  if (ParseShortJsonNumber(text.data(), text.data() + text.size(), out)) return true;
+// Every token ParseShortJsonNumber leaves: kept out of line, so that the
+// short path saves no registers for it.
+[[gnu::noinline]] bool ParseLongJsonNumber(std::string_view text, Value* out) {
   NumberParts n;
   if (!SplitJsonNumber(text, &n)) return false;
   const char* b = text.data();
@@ -161,6 +171,12 @@ bool ParseJsonNumber(std::string_view text, Value* out) {
   }
   *out = Value::Number(d);
   return true;
+}
+
+}  // namespace
+
+bool ParseJsonNumber(std::string_view text, Value* out) {
+  return ParseShortJsonNumber(text.data(), text.data() + text.size(), out) || ParseLongJsonNumber(text, out);
 }
 
 }  // namespace fanfold

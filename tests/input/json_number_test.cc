@@ -37,7 +37,8 @@ TEST_CASE("ParseJsonNumber") {
   CHECK(v.number == HUGE_VAL);  // Python: json.loads('1000000000000000000000000000000e280') == float('inf')
   REQUIRE(ParseJsonNumber("0.0000000000000000000001e320", &v));
   CHECK(v.number == 1e298);  // Python: json.loads('0.0000000000000000000001e320') == 1e298
-  for (const char* bad : {"", "-", "01", "1.", ".5", "+1", "1e", "1e+", "0x10", "1 ", "--1", "1.5.2", "inf", "NaN"}) {
+  for (const char* bad : {"", "-", "01", "1.", ".5", "+1", "1e", "1e+", "0x10", "1 ", "--1", "1.5.2", "inf", "NaN",
+                          "-01", "00.5", "-.5", "1..2", "1.5.", ".", "-."}) {
     INFO(bad);
     CHECK_FALSE(ParseJsonNumber(bad, &v));  // not a number token in RFC 8259 section 6's grammar
     CHECK_FALSE(IsJsonNumber(bad));
