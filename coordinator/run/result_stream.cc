@@ -170,7 +170,11 @@ Status StreamInOrder(Merger& merger, const Plan& plan, size_t r, const std::vect
   RowPipe pipe;
   Status walked;
   std::thread walker([&] {
+    uint64_t visited = 0;
     walked = merger.VisitRows(r, [&](std::vector<Cell>* row) {
+      // The walk polls too: rows the rows step drops never reach the
+      // writing thread, which polls once per batch it receives.
+      if (++visited % kPollRows == 0 && t.should_stop && t.should_stop()) return StopStatus();
       if (!step.Apply(row)) return Status::Ok();
       return pipe.Put(row) ? Status::Ok() : Status::Interrupted("the result's writers stopped");
     });
