@@ -37,6 +37,9 @@ class BodyReader {
   ~BodyReader() { ZSTD_freeDCtx(d_); }
 
   const Status& status() const { return status_; }
+  // The first failed read of the stored bytes (ok if none): an I/O error
+  // names the file, and must not turn into a checksum mismatch.
+  const Status& read_error() const { return read_error_; }
   const char* data() const { return out_.data() + beg_; }
   size_t avail() const { return end_ - beg_; }
   void Consume(size_t n) { beg_ += n; }
@@ -98,6 +101,7 @@ class BodyReader {
     while (status_.ok() && read_ < stored_) {
       const size_t k = static_cast<size_t>(std::min<uint64_t>(chunk.size(), stored_ - read_));
       status_ = src_->ReadAt(kPartialHeaderSize + read_, k, chunk.data());
+      if (!status_.ok()) read_error_ = status_;
       if (status_.ok() && hash_ != nullptr) XXH3_64bits_update(hash_, chunk.data(), k);
       read_ += k;
     }
@@ -110,7 +114,10 @@ class BodyReader {
     const size_t k = static_cast<size_t>(std::min<uint64_t>(room, stored_ - read_));
     if (k == 0) return 0;
     status_ = src_->ReadAt(kPartialHeaderSize + read_, k, to);
-    if (!status_.ok()) return 0;
+    if (!status_.ok()) {
+      read_error_ = status_;
+      return 0;
+    }
     if (hash_ != nullptr) XXH3_64bits_update(hash_, to, k);
     read_ += k;
     return k;
@@ -175,6 +182,7 @@ class BodyReader {
   size_t end_ = 0;
   bool ended_ = false;
   Status status_;
+  Status read_error_;
 };
 
 }  // namespace fanfold

@@ -144,6 +144,8 @@ Status ScanStoredPartial(const StoredPartialBytes& bytes, const std::vector<size
   if (hash != nullptr) {
     Status read = r.HashRest();
     if (!read.ok() && !r.status().ok() && s.ok()) s = read;
+    // A disk that fails to read is named as such, not as bad bytes.
+    if (!r.read_error().ok() && r.read_error().code() != Status::Code::kCorrupt) return r.read_error();
     if (XXH3_64bits_digest(hash) != checksum) return Status::Corrupt("partial state checksum mismatch");
   }
   return s;

@@ -7,9 +7,11 @@
 #include <doctest/doctest.h>
 #include <unistd.h>
 
+#include <cerrno>
 #include <cstring>
 #include <filesystem>
 #include <fstream>
+#include <memory>
 #include <string>
 #include <vector>
 
@@ -164,6 +166,48 @@ TEST_CASE("partial stream: corrupt and truncated partials are Corrupt with OpenP
     while (s.Next()) ++n;
     CHECK(s.status().code() == Status::Code::kCorrupt);
     CHECK(s.status().message().find("truncated") != std::string::npos);
+  }
+}
+
+// A file whose reads fail with EIO from byte `fail_at` on.
+class FailingFile final : public ReadableFile {
+ public:
+  FailingFile(std::string bytes, uint64_t fail_at) : bytes_(std::move(bytes)), fail_at_(fail_at) {}
+  OsError Size(uint64_t* size) override {
+    *size = bytes_.size();
+    return OsError::Ok();
+  }
+  OsError ReadAt(uint64_t offset, size_t n, char* buf) override {
+    if (offset + n > fail_at_ || offset + n > bytes_.size()) return OsError::Of("pread", EIO);
+    std::memcpy(buf, bytes_.data() + offset, n);
+    return OsError::Ok();
+  }
+
+ private:
+  std::string bytes_;
+  uint64_t fail_at_;
+};
+
+// Intent: a pack the disk cannot read is reported as a read error naming
+// the file, never as a checksum mismatch (which would call good bytes bad),
+// wherever in the body the read fails; a whole read still scans clean.
+TEST_CASE("partial stream: a read error of a pack is a read error, not a checksum mismatch") {
+  const std::string good = Stored(Configs(2), Configs(3), 5000, 4);
+  for (uint64_t fail_at : {uint64_t{kPartialHeaderSize + 10}, uint64_t{good.size() / 2}, uint64_t{good.size() - 5},
+                           uint64_t{good.size()}}) {
+    CAPTURE(fail_at);
+    auto bytes = StoredPartialBytes::InFile(std::make_unique<FailingFile>(good, fail_at), "/packs/p0001", 0,
+                                            good.size());
+    OpenedPartial info;
+    ScannedPartial scanned;
+    const Status got = ScanStoredPartial(*bytes, {2, 3}, /*checksum_checked=*/false, &info, &scanned);
+    if (fail_at == good.size()) {
+      CHECK(got.ok());
+      continue;
+    }
+    CHECK(got.code() != Status::Code::kCorrupt);
+    CHECK(got.message().find("/packs/p0001") != std::string::npos);
+    CHECK(got.message().find("checksum") == std::string::npos);
   }
 }
 
