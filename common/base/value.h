@@ -134,7 +134,7 @@ struct Value {
     if (text_number == TextNumber::kNotNumber) return false;
     const char* b = str.data();
     const char* e = b + str.size();
-    if (*b == '+') ++b;  // from_chars rejects a leading '+'
+    if (*b == '+' && ++b != e && *b == '-') return false;  // from_chars rejects a leading '+'; "+-5" is no number
     if (ShortDecimal(b, e, out)) return true;
     auto [p, ec] = std::from_chars(b, e, *out);
     // from_chars also reads "nan" and "inf": text like that is not a number here.

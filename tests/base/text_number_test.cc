@@ -19,7 +19,8 @@ namespace {
 // The documented rule of AsNumeric, restated with from_chars only: an
 // optional sign and decimal digits within [-2^63, 2^64-1] are that exact
 // integer; any other text is from_chars's double when it reads the whole
-// text as a finite number ('+' first allowed).
+// text as a finite number ('+' first allowed, but one sign at most: Python
+// 3's float('+-5') is a ValueError).
 bool ReferenceNumeric(std::string_view s, Value* out) {
   if (s.empty()) return false;
   const bool negative = s[0] == '-';
@@ -42,6 +43,7 @@ bool ReferenceNumeric(std::string_view s, Value* out) {
   }
   const char* b = s.data() + (s[0] == '+' ? 1 : 0);
   const char* e = s.data() + s.size();
+  if (s[0] == '+' && b != e && *b == '-') return false;
   double d = 0;
   auto [p, ec] = std::from_chars(b, e, d);
   if (ec != std::errc() || p != e || !std::isfinite(d)) return false;
@@ -99,6 +101,17 @@ TEST_CASE("Value::ReadTextNumber: edge cells answer as their text does") {
                         "4.1.3", "1..2", "1.2.", "abc"}) {
     CheckText(t);
   }
+  // Python 3: float('+-5') and float('-+5') raise ValueError (one sign at
+  // most); float('+5') == 5.0.
+  for (const char* t : {"+-5", "-+5", "+-0", "++5"}) {
+    CAPTURE(t);
+    double d = 0;
+    Value n;
+    CHECK_FALSE(Value::String(t).AsNumber(&d));
+    CHECK_FALSE(Value::String(t).AsNumeric(&n));
+  }
+  double five = 0;
+  CHECK((Value::String("+5").AsNumber(&five) && five == 5.0));
   // Python 3: float('9007199254740993') == 9007199254740992.0 (2^53 + 1
   // rounds to even), while the integer stays exact.
   Value v = Value::String("9007199254740993");

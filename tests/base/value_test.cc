@@ -13,12 +13,13 @@
 namespace fanfold {
 namespace {
 
-// AsNumber as it was before the fast path: from_chars alone.
+// AsNumber as it was before the fast path: from_chars alone, after at most
+// one sign (Python 3's float('+-5') is a ValueError).
 bool Reference(std::string_view s, double* out) {
   if (s.empty()) return false;
   const char* b = s.data();
   const char* e = b + s.size();
-  if (*b == '+') ++b;
+  if (*b == '+' && ++b != e && *b == '-') return false;
   auto [p, ec] = std::from_chars(b, e, *out);
   return ec == std::errc() && p == e && std::isfinite(*out);
 }
