@@ -16,7 +16,9 @@ namespace {
 // length + bytes), then per measure a byte (1 = its input, 0 = not) and,
 // when 1, its arguments. An argument: a byte of flags telling which of
 // Value's fields differ from a default Value, its kind, then those fields.
-// Every field is kept, so the Value read back is the Value written.
+// Every field but a string's kept numeric reading (Value::ReadTextNumber)
+// is kept, so the Value read back is the Value written, less that reading:
+// its text is parsed again when a measure asks (the same number).
 enum : uint8_t { kHasBool = 1, kHasRep = 2, kHasNumber = 4, kHasBits = 8, kHasStr = 16 };
 
 void PutValue(const Value& v, ByteWriter& w) {

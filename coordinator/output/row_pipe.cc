@@ -8,6 +8,7 @@ RowPipe::RowPipe() {
 
 bool RowPipe::Put(std::vector<Cell>* row) {
   Batch& b = batches_[write_ % kBatches];
+  if (b.n == kBatchRows) return false;  // a Put after one returned false (closed): nothing more is taken
   b.rows[b.n++].swap(*row);
   if (b.n < kBatchRows) return true;
   std::unique_lock<std::mutex> lock(mu_);
@@ -23,7 +24,7 @@ bool RowPipe::Put(std::vector<Cell>* row) {
 
 void RowPipe::Finish() {
   std::lock_guard<std::mutex> lock(mu_);
-  if (batches_[write_ % kBatches].n > 0) {
+  if (!closed_ && batches_[write_ % kBatches].n > 0) {  // after a close, no batch is handed over
     ++ready_;
     ++write_;
   }

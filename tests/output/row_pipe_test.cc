@@ -71,3 +71,21 @@ TEST_CASE("row_pipe: closing stops the producer") {
   producer.join();
   CHECK(put <= static_cast<int64_t>((RowPipe::kBatches + 2) * RowPipe::kBatchRows));
 }
+
+// Intent: a producer that goes on after Put said stop is refused again (no
+// row written past its batch) and its Finish hands nothing over: the
+// consumer that closed sees no more rows.
+TEST_CASE("row_pipe: Put and Finish after a close take nothing") {
+  RowPipe pipe;
+  pipe.Close();
+  std::vector<Cell> row;
+  int refused = 0;
+  for (int64_t i = 0; i < static_cast<int64_t>(3 * RowPipe::kBatchRows); ++i) {
+    row = Row(i);
+    refused += pipe.Put(&row) ? 0 : 1;
+  }
+  CHECK(refused == 2 * static_cast<int>(RowPipe::kBatchRows) + 1);
+  pipe.Finish();
+  std::vector<Cell>* rows = nullptr;
+  CHECK(pipe.Next(&rows) == 0);
+}
