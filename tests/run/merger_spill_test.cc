@@ -54,27 +54,6 @@ std::string BigPartial(const Plan& plan, uint32_t shard) {
   return out;
 }
 
-// Shard s of a run with disjoint keys: `groups` groups, keys s*groups ..
-// s*groups+groups-1, so the runs grow by every partial.
-std::string DisjointPartial(const Plan& plan, uint32_t shard, int groups) {
-  std::vector<MeasureConfig> configs;
-  for (const auto& m : plan.reductions[0].measures) configs.push_back(m.config);
-  PartialState p(&configs);
-  p.header.fingerprint = plan.fingerprint;
-  p.header.shard_index = shard;
-  p.header.records = static_cast<uint64_t>(groups);
-  for (int g = 0; g < groups; ++g) {
-    std::string key;
-    AppendKeyValue(Value::Number(static_cast<double>(shard * groups + g)), &key);
-    MeasureState* const* states = p.reductions[0].groups.FindOrAdd(key);
-    const Value v = Value::Number(0.1 * g + shard);
-    for (size_t m = 0; m < configs.size(); ++m) states[m]->Add(&v);
-  }
-  std::string out;
-  EncodePartial(p, &out);
-  return out;
-}
-
 // A file that counts how many of its kind are open at once.
 struct OpenCount {
   int now = 0;

@@ -1,11 +1,16 @@
 // merger_test_util: MergerText, a merger's finished first reduction as one
 // comparable string (every cell's number, floats marked), for tests that
-// compare merges made in different ways. Test-only; REQUIRES what Merger::Finish requires.
+// compare merges made in different ways; DisjointPartial, an encoded partial
+// whose keys no other shard has. Test-only; REQUIRES what Merger::Finish requires.
 #pragma once
 
 #include <doctest/doctest.h>
 
 #include <string>
+#include <vector>
+
+#include "common/partial/group_key.h"
+#include "common/partial/partial_codec.h"
 
 #include "coordinator/run/merger.h"
 
@@ -18,6 +23,28 @@ inline std::string MergerText(Merger& merger) {
   for (const auto& row : t->rows)
     for (const Cell& c : row) text += std::to_string(c.number) + (c.kind == Cell::Kind::kFloat ? "f " : " ");
   return text;
+}
+
+// Shard s of a plan's first reduction (one numeric key) with disjoint keys:
+// `groups` groups, keys s*groups .. s*groups+groups-1, so the runs grow by
+// every partial; every measure takes the value 0.1 * g + s of group g.
+inline std::string DisjointPartial(const Plan& plan, uint32_t shard, int groups) {
+  std::vector<MeasureConfig> configs;
+  for (const auto& m : plan.reductions[0].measures) configs.push_back(m.config);
+  PartialState p(&configs);
+  p.header.fingerprint = plan.fingerprint;
+  p.header.shard_index = shard;
+  p.header.records = static_cast<uint64_t>(groups);
+  for (int g = 0; g < groups; ++g) {
+    std::string key;
+    AppendKeyValue(Value::Number(static_cast<double>(shard * groups + g)), &key);
+    MeasureState* const* states = p.reductions[0].groups.FindOrAdd(key);
+    const Value v = Value::Number(0.1 * g + shard);
+    for (size_t m = 0; m < configs.size(); ++m) states[m]->Add(&v);
+  }
+  std::string out;
+  EncodePartial(p, &out);
+  return out;
 }
 
 }  // namespace fanfold

@@ -12,8 +12,8 @@
 #include <string>
 
 #include "common/job/job_spec.h"
-#include "common/partial/group_key.h"
 #include "coordinator/run/merger.h"
+#include "tests/run/merger_test_util.h"
 
 namespace fanfold {
 namespace {
@@ -28,25 +28,6 @@ std::unique_ptr<Plan> DropAllPlan() {
   return std::move(*plan);
 }
 
-// Shard s: `groups` groups with keys s*groups .. s*groups+groups-1, one record each.
-std::string Partial(const Plan& plan, uint32_t shard, int groups) {
-  std::vector<MeasureConfig> configs;
-  for (const auto& m : plan.reductions[0].measures) configs.push_back(m.config);
-  PartialState p(&configs);
-  p.header.fingerprint = plan.fingerprint;
-  p.header.shard_index = shard;
-  p.header.records = static_cast<uint64_t>(groups);
-  for (int g = 0; g < groups; ++g) {
-    std::string key;
-    AppendKeyValue(Value::Number(static_cast<double>(shard * groups + g)), &key);
-    const Value none = Value::Number(0);
-    p.reductions[0].groups.FindOrAdd(key)[0]->Add(&none);
-  }
-  std::string out;
-  EncodePartial(p, &out);
-  return out;
-}
-
 // Intent: a stop request (Ctrl-C) ends the output stage with Interrupted
 // while the merge walks 40,000 groups that the rows step all drops; without
 // a poll in the walk, the stage ran to its end and wrote an empty result.
@@ -59,7 +40,7 @@ TEST_CASE("result_stream: a stop request is honoured while every row is dropped"
     CAPTURE(stop);
     Merger merger(plan.get(), 4);
     merger.SetRunThreshold(1, 1);  // runs: the walk that streams in order
-    for (uint32_t s = 0; s < 4; ++s) REQUIRE(merger.Add(s, Partial(*plan, s, 10000)).ok());
+    for (uint32_t s = 0; s < 4; ++s) REQUIRE(merger.Add(s, DisjointPartial(*plan, s, 10000)).ok());
     ResultStreamTargets t;
     t.platform = &Platform::Posix();
     t.run_dir_file = dir + "/result.csv";
