@@ -76,6 +76,21 @@ uint64_t PeakChildRssBytes() { return g_peak_child_kib.load(std::memory_order_re
 int CurrentPid() { return static_cast<int>(::getpid()); }
 int ParentPid() { return static_cast<int>(::getppid()); }
 
+const std::string& HostNameForFiles() {
+  static const std::string name = [] {
+    char buf[256] = {};
+    if (::gethostname(buf, sizeof buf - 1) != 0 || buf[0] == '\0') return std::string("unknown-host");
+    std::string out(buf);
+    for (char& c : out) {
+      const bool plain = (c >= 'a' && c <= 'z') || (c >= 'A' && c <= 'Z') || (c >= '0' && c <= '9') || c == '.' ||
+                         c == '-';
+      if (!plain) c = '_';
+    }
+    return out;
+  }();
+  return name;
+}
+
 bool SelfExecutablePath(std::string* out) {
   char self[PATH_MAX];
   ssize_t n = ::readlink("/proc/self/exe", self, sizeof self - 1);

@@ -22,6 +22,10 @@ struct ExitInfo {
 
 int CurrentPid();
 int ParentPid();
+// This machine's host name (gethostname), with every byte other than a
+// letter, digit, '.' or '-' replaced by '_' so that it can go into a file
+// name; "unknown-host" iff the system does not say. Computed once.
+const std::string& HostNameForFiles();
 
 // Peak resident memory (ru_maxrss) in bytes: of this process (getrusage);
 // and of the largest of its children reaped by TryReap or Reap (wait4's

@@ -114,11 +114,30 @@ Status PublishFiles(Files& f) {
   return Status::Ok();
 }
 
+// `rest` is a temporary's name after ".NAME.tmp-": "PID@HOST-N" or "PID-N".
+// True iff HOST is absent or this machine's and no process PID lives here.
+bool WrittenByDeadLocalWriter(const std::string& rest) {
+  const size_t digits = rest.find_first_not_of("0123456789");
+  if (digits == 0 || digits == std::string::npos || digits > 9) return false;
+  const size_t last_dash = rest.rfind('-');
+  if (last_dash == std::string::npos || last_dash < digits || last_dash + 1 == rest.size() ||
+      rest.find_first_not_of("0123456789", last_dash + 1) != std::string::npos)
+    return false;
+  if (rest[digits] == '@') {
+    if (rest.compare(digits + 1, last_dash - digits - 1, HostNameForFiles()) != 0) return false;
+  } else if (digits != last_dash) {
+    return false;
+  }
+  return !ProcessAlive(std::stoi(rest.substr(0, digits)));
+}
+
 // Removes what a killed coordinator left of the result file `path`: its
-// StagedFile temporaries (".NAME.tmp-PID-N" beside it). In the run
-// directory, which one coordinator holds at a time, every one of them; in a
-// shown file's folder, which may have other writers, only those whose
-// writer (PID) is no longer alive on this machine.
+// StagedFile temporaries (".NAME.tmp-PID@HOST-N" beside it; before hosts were
+// named, ".NAME.tmp-PID-N"). In the run directory, which one coordinator
+// holds at a time, every one of them; in a shown file's folder, which may
+// have other writers (on other machines too, if the folder is shared), only
+// those written on this machine (its host name, or no host name) by a PID
+// that is no longer alive here.
 Status RemoveStaleTemporaries(Platform& platform, const std::string& path, bool only_dead_writers) {
   const std::filesystem::path p(path);
   const std::string dir = p.parent_path().empty() ? "." : p.parent_path().string();
@@ -128,15 +147,7 @@ Status RemoveStaleTemporaries(Platform& platform, const std::string& path, bool 
   if (OsError e = platform.ListDirectory(dir, &names); !e.ok()) return e.ToStatus("list", dir);
   for (const std::string& n : names) {
     if (n.compare(0, prefix.size(), prefix) != 0) continue;
-    if (only_dead_writers) {
-      // The name's PID: digits, then '-' and the temporary's own digits.
-      const std::string rest = n.substr(prefix.size());
-      const size_t dash = rest.find('-');
-      if (dash == 0 || dash == std::string::npos || dash > 9 ||
-          rest.find_first_not_of("0123456789-") != std::string::npos)
-        continue;
-      if (ProcessAlive(std::stoi(rest.substr(0, dash)))) continue;
-    }
+    if (only_dead_writers && !WrittenByDeadLocalWriter(n.substr(prefix.size()))) continue;
     const std::string stale = (std::filesystem::path(dir) / n).string();
     if (OsError e = platform.Remove(stale); !e.ok() && e.code() != ENOENT) return e.ToStatus("remove", stale);
   }

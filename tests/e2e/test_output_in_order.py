@@ -37,6 +37,7 @@ import os
 import random
 import re
 import signal
+import socket
 import sqlite3
 import subprocess
 
@@ -138,25 +139,30 @@ def interrupt_streaming(env, c, job, run_dir, sig, label, expected):
         c.check(rc in (0, 130), "%s: exit %d" % (label, rc))
     planted = []
     if rc != 0:
-        # Temporaries of the shown files as a killed writer leaves them (its
-        # PID no longer alive: resume removes them) and as a live writer has
-        # them (this script's PID: resume leaves them alone).
+        # Temporaries of the shown files as a killed writer on this machine
+        # leaves them (its PID no longer alive: resume removes them, with
+        # this host's name or the older name without a host), as a live
+        # writer has them (this script's PID: resume leaves them alone) and
+        # as a writer on another machine sharing the folder has them (its
+        # PID means nothing here: left alone).
         gone = subprocess.Popen(["true"])
         gone.wait()
+        host = "".join(ch if ch.isascii() and (ch.isalnum() or ch in ".-") else "_" for ch in socket.gethostname())
         shown = os.path.dirname(env.path("shown", "runs", "x"))
         for name, _, fmt, _, _, _ in REDUCTIONS:
-            for pid in (gone.pid, os.getpid()):
-                path = os.path.join(shown, ".%s.%s.tmp-%d-7" % (name, fmt, pid))
+            for tag, keep in (("%d@%s" % (gone.pid, host), False), ("%d" % gone.pid, False),
+                              ("%d@%s" % (os.getpid(), host), True), ("%d@elsewhere-%s" % (gone.pid, host), True)):
+                path = os.path.join(shown, ".%s.%s.tmp-%s-7" % (name, fmt, tag))
                 with open(path, "w") as f:
                     f.write("half a result")
-                planted.append((path, pid == os.getpid()))
+                planted.append((path, keep))
         done = subprocess.run([env.fanfold, "resume", run_dir, "--progress", "off"], stdout=subprocess.PIPE,
                               stderr=subprocess.PIPE, cwd=env.tmp, env=env_vars, timeout=300)
         c.check(done.returncode == 0, "%s: resume exit %d: %s" % (label, done.returncode,
                                                                  lib.tail(done.stderr.decode())))
     for path, live in planted:
         c.check(os.path.exists(path) == live, "%s: %s: %s" % (label, os.path.basename(path), (
-            "a live writer's temporary was removed" if live else "a dead writer's temporary was left")))
+            "a live or other machine's writer's temporary was removed" if live else "a dead writer's temporary was left")))
         if live:
             os.remove(path)
     for name, _, fmt, _, _, _ in REDUCTIONS:

@@ -1,6 +1,7 @@
 // DurableWrite: one routine, three policies; each step's failure leaves the
 // old target and no temporary, and says which step failed in the policy's words.
 #include "common/port/files/durable_write.h"
+#include "common/port/process_control.h"
 
 #include <doctest/doctest.h>
 
@@ -127,7 +128,8 @@ TEST_CASE("durable write: staged file naming and abandonment") {
   {
     auto staged = StagedFile::Begin(d.fs, "/d/t", p);
     REQUIRE(staged.ok());
-    CHECK((*staged)->temp_path().rfind("/d/.t.tmp-4242-", 0) == 0);  // MemoryPlatform's pid is 4242
+    // MemoryPlatform's pid is 4242; the host is this machine's.
+    CHECK((*staged)->temp_path().rfind("/d/.t.tmp-4242@" + HostNameForFiles() + "-", 0) == 0);
     REQUIRE((*staged)->Append("partial").ok());
     CHECK(d.fs.Files().size() == 2);
   }

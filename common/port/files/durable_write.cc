@@ -4,6 +4,8 @@
 #include <filesystem>
 #include <random>
 
+#include "common/port/process_control.h"
+
 namespace fanfold {
 
 StagedFile::StagedFile(Platform& platform, const DurableWritePolicy& policy, std::string target, std::string temp,
@@ -29,7 +31,8 @@ Result<std::unique_ptr<StagedFile>> StagedFile::Begin(Platform& platform, const 
   if (policy.temp_name == DurableWritePolicy::TempName::kUnique) {
     std::random_device rd;
     temp = (std::filesystem::path(dir) / ("." + target_path.filename().string() + ".tmp-" +
-                                          std::to_string(platform.CurrentPid()) + "-" + std::to_string(rd())))
+                                          std::to_string(platform.CurrentPid()) + "@" + HostNameForFiles() + "-" +
+                                          std::to_string(rd())))
                .string();
     mode = CreateMode::kExclusive;
   } else {

@@ -16,8 +16,9 @@
 namespace fanfold {
 
 struct DurableWritePolicy {
-  // kUnique: ".<name>.tmp-<pid>-<random>", created exclusively, so writers in
-  // several processes never share one; kSuffix: "<name>.tmp", emptied first
+  // kUnique: ".<name>.tmp-<pid>@<host>-<random>" (host: HostNameForFiles),
+  // created exclusively, so writers in several processes never share one and
+  // a cleaner can tell whether the writer ran on its own machine; kSuffix: "<name>.tmp", emptied first
   // (for a name only one writer ever uses).
   enum class TempName { kUnique, kSuffix };
   // kBestEffort ignores a directory that cannot be synced (some filesystems
