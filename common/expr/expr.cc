@@ -39,6 +39,12 @@ int Expr::DirectSlot() const {
   return nodes.size() == 1 && nodes[0].op == ExprOp::kSlot ? nodes[0].slot : -1;
 }
 
+bool Expr::ReadsZoneRules() const {
+  for (const ExprNode& n : program_->nodes)
+    if (!n.time.zone.is_utc()) return true;
+  return false;
+}
+
 std::vector<int> Expr::SlotsRead() const {
   std::vector<int> out;
   for (const ExprNode& n : program_->nodes)

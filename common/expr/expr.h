@@ -65,6 +65,9 @@ class Expr {
   // reference (then Eval(slots) == slots[slot]); -1 otherwise. Lets hot
   // loops skip the evaluator for the commonest expression.
   int DirectSlot() const;
+  // True iff some time function of the expression names a zone other than
+  // UTC, so its results depend on the tz database's rules.
+  bool ReadsZoneRules() const;
 
   Expr(Expr&&) noexcept;
   Expr& operator=(Expr&&) noexcept;

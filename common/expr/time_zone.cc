@@ -1,5 +1,7 @@
 #include "common/expr/time_zone.h"
 
+#include <fstream>
+
 #include <date/tz.h>
 
 #include <algorithm>
@@ -79,6 +81,23 @@ const std::vector<std::string>& TimeZone::Names() {
     return out;
   }();
   return names;
+}
+
+std::string TimeZone::DatabaseVersion() {
+  std::string version;
+  try {
+    version = date::get_tzdb().version;
+  } catch (const std::exception&) {  // no readable database
+    return "";
+  }
+  if (!version.empty() && version != "unknown") return version;
+  // Built on the system's compiled zones, the library finds no release
+  // (Debian installs no +VERSION file); tzdata's source file names it on its
+  // first line: "# version 2025b".
+  std::ifstream in("/usr/share/zoneinfo/tzdata.zi");
+  std::string line;
+  if (std::getline(in, line) && line.rfind("# version ", 0) == 0 && line.size() > 10) return line.substr(10);
+  return version;
 }
 
 bool TimeZone::Find(std::string_view name, TimeZone* zone) {

@@ -22,6 +22,11 @@ class TimeZone {
   // it ("Europe/Berlin"); returns false iff there is none.
   static bool Find(std::string_view name, TimeZone* zone);
 
+  // The release of the tz database the zones come from ("2025b"), from the
+  // library or else from the system's tzdata.zi; "unknown" iff neither
+  // says, "" iff no database is readable.
+  static std::string DatabaseVersion();
+
   // Every zone name of the database, sorted.
   static const std::vector<std::string>& Names();
 

@@ -8,6 +8,7 @@
 #include "common/base/json_location.h"
 #include "common/base/format_version.h"
 #include "common/base/nearest_names.h"
+#include "common/expr/time_zone.h"
 #include "common/measures/measure_options.h"
 #include "common/measures/measure_registry.h"
 
@@ -272,6 +273,32 @@ int PlanTextCodecVersion(std::string_view plan_text) {
   return version;
 }
 
+namespace {
+
+// True iff some fingerprinted expression of the plan reads a time zone's
+// rules (the "rows" step runs after the merge, on no partial: left out).
+bool PlanReadsZoneRules(const Plan& plan) {
+  auto reads = [](const Expr& e) { return e.ReadsZoneRules(); };
+  for (const CompiledLookup& l : plan.lookups)
+    if (reads(l.match)) return true;
+  if (plan.keep && reads(*plan.keep)) return true;
+  for (const CompiledDerive& d : plan.derive)
+    if (reads(d.expr)) return true;
+  for (const ReductionPlan& r : plan.reductions) {
+    if (r.keep && reads(*r.keep)) return true;
+    for (const Expr& g : r.group)
+      if (reads(g)) return true;
+    for (const CompiledMeasure& m : r.measures) {
+      if (m.only && reads(*m.only)) return true;
+      for (const Expr& a : m.args)
+        if (reads(a)) return true;
+    }
+  }
+  return false;
+}
+
+}  // namespace
+
 std::string PlanCanonicalText(const Plan& plan) {
   const JobSpec& s = plan.spec;
   std::string out = std::string(kPlanTextCodecPrefix) + std::to_string(kPartialFormatVersion) + "\n";
@@ -281,6 +308,9 @@ std::string PlanCanonicalText(const Plan& plan) {
   // Only when there are tables, so that plans without them keep their text.
   for (size_t i = 0; i < plan.lookups.size() && i < s.tables.size(); ++i)
     out += LookupCanonicalLine(plan.lookups[i], s.tables[i]) + "\n";
+  // Only when a zone's rules are read, so that other plans keep their text:
+  // partials computed under another tz database release are recomputed.
+  if (PlanReadsZoneRules(plan)) out += "tzdb=" + TimeZone::DatabaseVersion() + "\n";
   out += "keep=" + s.keep + "\n";
   for (const auto& d : s.derive) out += "derive " + d.name + "=" + d.expr + "\n";
   for (const ReductionSpec& r : s.reductions) {

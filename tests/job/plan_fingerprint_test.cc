@@ -3,6 +3,7 @@
 // changes it (so `resume` never mixes partials computed with other options).
 #include <doctest/doctest.h>
 
+#include <fstream>
 #include <string>
 #include <type_traits>
 #include <variant>
@@ -286,4 +287,36 @@ TEST_CASE("decode_ahead is parsed and stays out of the fingerprint") {
   REQUIRE(!bad.ok());
   CHECK(bad.status().message().find("/inputs/decode_ahead") != std::string::npos);
   CHECK(bad.status().message().find("\"auto\", \"on\" or \"off\"") != std::string::npos);
+}
+
+// The first line of tzdata's source file names its release ("# version
+// 2025b"; the tz project's tzdata.zi, installed by Debian's tzdata package).
+std::string TzdataVersion() {
+  std::ifstream in("/usr/share/zoneinfo/tzdata.zi");
+  std::string line;
+  if (!std::getline(in, line) || line.rfind("# version ", 0) != 0) return "";
+  return line.substr(10);
+}
+
+// Intent: a plan whose expressions read a zone's rules is tied to the tz
+// database release (partials made under other rules are recomputed); plans
+// in UTC keep their text.
+TEST_CASE("plan fingerprint: the tz database release when a zone is read") {
+  auto plan_of = [](const std::string& derive) {
+    Result<JobSpec> spec = ParseJobSpec(R"({"inputs": {"files": ["a"]}, "derive": [{"name": "h", "expr": ")" +
+                                            derive + R"("}], "group": ["h"], "measures": [{"name": "n", "fn": "count"}]})",
+                                        "job.json");
+    REQUIRE(spec.ok());
+    return CompileSpec(std::move(spec.value()));
+  };
+  const std::string utc = PlanCanonicalText(*plan_of("clock_hour(time({/ts}))"));
+  const std::string zoned = PlanCanonicalText(*plan_of("clock_hour(time({/ts}), 'Europe/Berlin')"));
+  CHECK(utc.find("tzdb=") == std::string::npos);
+  const std::string release = TzdataVersion();
+  if (release.empty()) {
+    MESSAGE("no /usr/share/zoneinfo/tzdata.zi to compare the release with");
+    CHECK(zoned.find("tzdb=") != std::string::npos);
+  } else {
+    CHECK(zoned.find("\ntzdb=" + release + "\n") != std::string::npos);
+  }
 }
