@@ -1,5 +1,9 @@
 #include "common/base/value_key.h"
 
+// XXH3 compiled into this file (the same algorithm as the library's, which
+// the other files call): HashValueKey runs once per value a hyperloglog
+// takes, and the library call costs as much as hashing a short string.
+#define XXH_INLINE_ALL
 #include <xxhash.h>
 
 #include <bit>

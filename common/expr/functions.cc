@@ -93,27 +93,11 @@ Value Substr(const Value* args, int nargs, ScratchArena* arena) {
 
 }  // namespace
 
-Value SubstrOf(const Value& v, double start, double count, ScratchArena* arena) {
+Value SubstrOfText(const Value& v, double start, double count, ScratchArena* arena) {
   char buf[kNumberTextMax];
   std::string_view s;
   if (!ValueText(v, buf, &s)) return Value::Missing();
-  const double size = static_cast<double>(s.size());
-  start = std::clamp(start, 0.0, size);
-  count = std::clamp(count, 0.0, size - start);
-  return Stable(s.substr(static_cast<size_t>(start), static_cast<size_t>(count)), v, arena);
-}
-
-Value EpochOf(const Value& v, bool ms) {
-  double t;
-  if (!ValueEpochSeconds(v, ms ? 1000 : 1, &t)) return Value::Missing();
-  return FiniteNumber(t);
-}
-
-Value ClockFieldOf(ExprFunction f, const Value& v, const TimeBucket& time) {
-  double t;
-  if (!ValueEpochSeconds(v, 1, &t)) return Value::Missing();
-  const int r = f == F::kClockHour ? ClockHour(t, time.zone) : IsoWeekday(t, time.zone);
-  return r < 0 ? Value::Missing() : Value::Int(r);
+  return Stable(SubstrBytes(s, start, count), v, arena);
 }
 
 bool SubstrOffset(const Value& v, double* out) { return Offset(v, out); }
@@ -155,14 +139,6 @@ bool ValueText(const Value& v, char* buf, std::string_view* out) {
     case ValueKind::kBool: *out = v.boolean ? "true" : "false"; return true;
     default: return false;
   }
-}
-
-bool ValueEpochSeconds(const Value& v, double units_per_second, double* out) {
-  double d;
-  if (v.kind == ValueKind::kString && ParseIsoTimestamp(v.str, out)) return true;
-  if (!v.AsNumber(&d) || !std::isfinite(d)) return false;
-  *out = d / units_per_second;
-  return true;
 }
 
 Value ApplyExprFunction(ExprFunction function, const Value* args, int nargs, const TimeBucket& time,

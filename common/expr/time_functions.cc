@@ -304,7 +304,7 @@ size_t FormatTimeBucket(double t, TimeUnit unit, char* out) {
 int ClockHour(double t, const TimeZone& zone) {
   int64_t s;
   if (!WholeSeconds(t, &s)) return -1;
-  if (zone.is_utc()) return static_cast<int>((s - FloorDiv(s, kSecondsPerDay) * kSecondsPerDay) / 3600);
+  if (zone.is_utc()) return ClockHourUtc(t);
   s = zone.Local(s);
   if (!WholeSeconds(static_cast<double>(s), &s)) return -1;
   return static_cast<int>((s - FloorDiv(s, kSecondsPerDay) * kSecondsPerDay) / 3600);

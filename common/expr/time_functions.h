@@ -4,6 +4,7 @@
 // a timestamp as a number or a bucket label. Pure functions; thread-safe.
 #pragma once
 
+#include <cmath>
 #include <cstddef>
 #include <cstdint>
 #include <string_view>
@@ -73,6 +74,12 @@ size_t FormatTimeBucket(double t, TimeUnit unit, char* out);
 // (UTC by default); -1 iff t or its local time is NaN or outside
 // [kMinEpochSeconds, kEndEpochSeconds).
 int ClockHour(double t, const TimeZone& zone = TimeZone());
+// ClockHour(t) on the UTC clock, inline (it runs once per record).
+inline int ClockHourUtc(double t) {
+  if (!(t >= kMinEpochSeconds && t < kEndEpochSeconds)) return -1;  // NaN fails too
+  const int64_t in_day = static_cast<int64_t>(std::floor(t)) % 86400;
+  return static_cast<int>((in_day < 0 ? in_day + 86400 : in_day) / 3600);
+}
 int IsoWeekday(double t, const TimeZone& zone = TimeZone());
 
 }  // namespace fanfold

@@ -33,11 +33,10 @@ BatchAggregator::BatchAggregator(const Plan& plan, RecordBatch* batch, const std
       f.arg_direct.push_back(d);
       f.arg_values.emplace_back(cap * std::max<size_t>(m.args.size(), 1));
       f.arg_numeric.push_back(numeric);
-      MeasureInputs in;
-      in.stride = m.args.size();
-      in.groups = std::make_unique<uint32_t[]>(RecordBatch::kCapacity);
-      in.args = std::make_unique<Value[]>(RecordBatch::kCapacity * std::max<size_t>(in.stride, 1));
-      f.inputs.push_back(std::move(in));
+    }
+    for (MeasureInputs* in : {&f.fed, &f.only_fed}) {
+      in->rows = std::make_unique<uint32_t[]>(RecordBatch::kCapacity);
+      in->groups = std::make_unique<uint32_t[]>(RecordBatch::kCapacity);
     }
     feeds_.push_back(std::move(f));
   }
@@ -119,7 +118,7 @@ void BatchAggregator::FeedBatch(ReductionFeed& f) {
     if (cm.only)
       cm.only->EvalBatch(rows(), width_, sel.data(), sel.size(), batch_.size(), &f.only_values[m * cap], 1, &scratch_,
                          &arena_);
-    const size_t stride = f.inputs[m].stride;
+    const size_t stride = cm.args.size();
     for (size_t a = 0; a < cm.args.size(); ++a)
       EvalColumn(cm.args[a], f.arg_direct[m][a], sel, &f.arg_values[m][a], stride);
   }
@@ -133,7 +132,7 @@ const Value& BatchAggregator::KeyValue(const ReductionFeed& f, size_t g, uint32_
 
 const Value& BatchAggregator::ArgValue(const ReductionFeed& f, size_t m, size_t a, uint32_t r) {
   const int d = f.arg_direct[m][a];
-  return d >= 0 ? batch_.record(r)[d] : f.arg_values[m][r * f.inputs[m].stride + a];
+  return d >= 0 ? batch_.record(r)[d] : f.arg_values[m][r * f.plan->measures[m].args.size() + a];
 }
 
 bool BatchAggregator::MeasureTakes(const ReductionFeed& f, size_t m, uint32_t r) const {
@@ -146,19 +145,8 @@ void BatchAggregator::Feed(ReductionFeed& f, uint32_t r) {
   for (size_t g = 0; g < rp.group.size(); ++g) AppendKeyValue(KeyValue(f, g, r), &key_);
   const uint32_t group = f.table->FindOrAdd(key_);
   if (group == WorkerGroupTable::kOverBudget) return Spill(f, r);
-  for (size_t m = 0; m < rp.measures.size(); ++m) {
-    if (!MeasureTakes(f, m, r)) continue;  // not this measure's input
-    MeasureInputs& in = f.inputs[m];
-    Value* args = &in.args[in.n * in.stride];
-    in.groups[in.n++] = group;
-    const uint8_t numeric = f.arg_numeric[m];
-    for (size_t a = 0; a < in.stride; ++a) {
-      const int d = f.arg_direct[m][a];
-      // A field a numeric measure reads is parsed once, in the batch, and shared.
-      if (d >= 0 && (numeric >> a & 1)) batch_.record(r)[d].ReadTextNumber();
-      args[a] = ArgValue(f, m, a, r);
-    }
-  }
+  f.fed.rows[f.fed.n] = r;  // the measures take it in Flush
+  f.fed.groups[f.fed.n++] = group;
 }
 
 void BatchAggregator::Spill(ReductionFeed& f, uint32_t r) {
@@ -174,7 +162,7 @@ void BatchAggregator::Spill(ReductionFeed& f, uint32_t r) {
       f.overflow->SkipMeasure();
       continue;
     }
-    const size_t stride = f.inputs[m].stride;
+    const size_t stride = rp.measures[m].args.size();
     f.spill_args.resize(stride);
     for (size_t a = 0; a < stride; ++a) f.spill_args[a] = ArgValue(f, m, a, r);
     f.overflow->AddArgs(f.spill_args.data());
@@ -184,17 +172,47 @@ void BatchAggregator::Spill(ReductionFeed& f, uint32_t r) {
 
 bool BatchAggregator::Flush() {
   bool ok = true;
+  Value* const rows = this->rows();
   for (size_t r = 0; r < feeds_.size(); ++r) {
     ReductionFeed& f = feeds_[r];
-    for (size_t m = 0; m < f.inputs.size(); ++m) {
-      MeasureInputs& in = f.inputs[m];
-      const size_t n = in.n;
-      if (ok && n > 0 && f.table->column(m).AddBatch(in.groups.get(), in.args.get(), in.stride, n) < n) {
+    for (size_t m = 0; ok && m < f.plan->measures.size(); ++m) {
+      const CompiledMeasure& cm = f.plan->measures[m];
+      const MeasureInputs* in = &f.fed;
+      if (cm.only) {  // the records its own test keeps, in order
+        const Value* only = &f.only_values[m * RecordBatch::kCapacity];
+        size_t k = 0;
+        for (size_t i = 0; i < f.fed.n; ++i) {
+          const uint32_t row = f.fed.rows[i];
+          if (!only[row].Truthy()) continue;
+          f.only_fed.rows[k] = row;
+          f.only_fed.groups[k++] = f.fed.groups[i];
+        }
+        f.only_fed.n = k;
+        in = &f.only_fed;
+      }
+      const size_t n = in->n;
+      if (n == 0) continue;
+      ArgColumns args;
+      args.count = std::min<size_t>(cm.args.size(), 2);
+      for (size_t a = 0; a < args.count; ++a) {
+        const int d = f.arg_direct[m][a];
+        if (d < 0) {  // evaluated: record row's at arg_values[m][row * stride + a]
+          args.base[a] = f.arg_values[m].data() + a;
+          args.step[a] = cm.args.size();
+          continue;
+        }
+        args.base[a] = rows + d;
+        args.step[a] = width_;
+        // A field a numeric measure reads is parsed once, in the batch, and shared.
+        if (f.arg_numeric[m] >> a & 1)
+          for (size_t i = 0; i < n; ++i) rows[in->rows[i] * width_ + d].ReadTextNumber();
+      }
+      if (f.table->column(m).AddRows(in->groups.get(), in->rows.get(), args, n) < n) {
         over_limit_ = {static_cast<int>(r), static_cast<int>(m)};
         ok = false;
       }
-      in.n = 0;
     }
+    f.fed.n = 0;
   }
   return ok;
 }

@@ -28,15 +28,15 @@
 
 namespace fanfold {
 
-// One measure's inputs of the current batch, in record order: the group of
-// each and its arguments (`stride` of them each), fed to the measure's
-// column in one call when the batch ends. Sized for a whole batch, so that
-// queueing never allocates or checks for room.
+// Records of the current batch fed to a reduction's table, in record order:
+// each one's record index and group. When the batch ends every measure
+// takes them (or those its `only` test keeps) in one call to its column,
+// reading the arguments where they are (MeasureColumn::AddRows). Sized for
+// a whole batch, so that queueing never allocates or checks for room.
 struct MeasureInputs {
-  size_t stride = 0;
   size_t n = 0;
+  std::unique_ptr<uint32_t[]> rows;
   std::unique_ptr<uint32_t[]> groups;
-  std::unique_ptr<Value[]> args;
 };
 
 // One reduction's view of the plan for the aggregator: its group table and
@@ -51,7 +51,8 @@ struct ReductionFeed {
   // number; its text is read once in the batch (Value::ReadTextNumber), so
   // every measure and reduction reading that field shares one parse.
   std::vector<uint8_t> arg_numeric;
-  std::vector<MeasureInputs> inputs;  // per measure
+  MeasureInputs fed;       // the batch's records in the table
+  MeasureInputs only_fed;  // those of one measure with `only`, while flushing
   // The records of keys the full table does not hold (made when needed).
   std::unique_ptr<TableOverflow> overflow;
   std::vector<Value> spill_args;  // one measure's arguments, while spilling

@@ -1,15 +1,49 @@
 #include "common/partial/measure_column.h"
 
+#include <cstdlib>
+#include <type_traits>
 #include <vector>
 
 #include "common/partial/chunked_array.h"
 
 #include "common/measures/extreme.h"
 #include "common/measures/moments.h"
+#include "common/measures/sketches/ddsketch.h"
+#include "common/measures/sketches/hyperloglog.h"
 #include "common/measures/sum.h"
 
 namespace fanfold {
 namespace {
+
+// Calls add(group, args) for each input of a batch whose arguments lie
+// contiguously (AddBatch), in order; returns n, or the index of the first
+// input add refused.
+template <class Add>
+size_t EachContiguous(const uint32_t* groups, const Value* args, size_t stride, size_t n, Add add) {
+  for (size_t i = 0; i < n; ++i)
+    if (!add(groups[i], args + i * stride)) return i;
+  return n;
+}
+
+// The same for inputs whose arguments are read in place (AddRows): one
+// argument is passed where it lies; two are copied side by side first.
+template <class Add>
+size_t EachInPlace(const uint32_t* groups, const uint32_t* rows, const ArgColumns& c, size_t n, Add add) {
+  if (c.count <= 1) {
+    const Value* base = c.count == 0 ? nullptr : c.base[0];
+    const size_t step = c.count == 0 ? 0 : c.step[0];
+    for (size_t i = 0; i < n; ++i)
+      if (!add(groups[i], base + rows[i] * step)) return i;
+    return n;
+  }
+  Value two[2];
+  for (size_t i = 0; i < n; ++i) {
+    two[0] = c.base[0][rows[i] * c.step[0]];
+    two[1] = c.base[1][rows[i] * c.step[1]];
+    if (!add(groups[i], two)) return i;
+  }
+  return n;
+}
 
 // count and count_present: one integer per group, encoded as CountState
 // encodes it (varint n).
@@ -18,18 +52,26 @@ class CountColumn final : public MeasureColumn {
   explicit CountColumn(bool present_only) : present_only_(present_only) {}
   void Resize(size_t groups) override { n_.Resize(groups, 0); }
   size_t AddBatch(const uint32_t* groups, const Value* args, size_t stride, size_t n) override {
-    if (present_only_) {
-      for (size_t i = 0; i < n; ++i) n_[groups[i]] += args[i * stride].is_present() ? 1 : 0;
-    } else {
-      for (size_t i = 0; i < n; ++i) ++n_[groups[i]];
-    }
-    return n;
+    if (!present_only_) return CountAll(groups, n);
+    return EachContiguous(groups, args, stride, n, [this](uint32_t g, const Value* a) { return Add(g, a); });
+  }
+  size_t AddRows(const uint32_t* groups, const uint32_t* rows, const ArgColumns& args, size_t n) override {
+    if (!present_only_) return CountAll(groups, n);
+    return EachInPlace(groups, rows, args, n, [this](uint32_t g, const Value* a) { return Add(g, a); });
   }
   void EncodeGroup(uint32_t g, ByteWriter& w) const override { w.Varint(n_[g]); }
   void Prefetch(uint32_t g) const override { __builtin_prefetch(&n_[g]); }
   size_t ApproxBytes() const override { return n_.bytes(); }
 
  private:
+  size_t CountAll(const uint32_t* groups, size_t n) {
+    for (size_t i = 0; i < n; ++i) ++n_[groups[i]];
+    return n;
+  }
+  bool Add(uint32_t g, const Value* a) {
+    n_[g] += a[0].is_present() ? 1 : 0;
+    return true;
+  }
   bool present_only_;
   ChunkedArray<uint64_t> n_;
 };
@@ -43,9 +85,10 @@ class StateColumn final : public MeasureColumn {
   explicit StateColumn(const State& empty) : empty_(empty) {}
   void Resize(size_t groups) override { states_.Resize(groups, empty_); }
   size_t AddBatch(const uint32_t* groups, const Value* args, size_t stride, size_t n) override {
-    for (size_t i = 0; i < n; ++i)
-      if (!states_[groups[i]].State::Add(args + i * stride)) return i;
-    return n;
+    return EachContiguous(groups, args, stride, n, [this](uint32_t g, const Value* a) { return states_[g].State::Add(a); });
+  }
+  size_t AddRows(const uint32_t* groups, const uint32_t* rows, const ArgColumns& args, size_t n) override {
+    return EachInPlace(groups, rows, args, n, [this](uint32_t g, const Value* a) { return states_[g].State::Add(a); });
   }
   void EncodeGroup(uint32_t g, ByteWriter& w) const override { states_[g].State::Encode(w); }
   void Prefetch(uint32_t g) const override { __builtin_prefetch(&states_[g]); }
@@ -57,17 +100,27 @@ class StateColumn final : public MeasureColumn {
 };
 
 // Every other measure: one MeasureState per group (their states own
-// variable-size data: kept values, registers, buckets, counters).
+// variable-size data: kept values, registers, buckets, counters). State is
+// the states' final class when the column knows it (the sketches: their
+// Add is then called directly, inlined), else MeasureState (a virtual call
+// per input).
+template <class State>
 class ObjectColumn final : public MeasureColumn {
  public:
   explicit ObjectColumn(const MeasureConfig& config) : config_(config) {}
   void Resize(size_t groups) override {
-    while (states_.size() < groups) states_.Push(NewMeasureState(config_));
+    while (states_.size() < groups) {
+      std::unique_ptr<MeasureState> s = NewMeasureState(config_);
+      // The registry makes State for this kind (a mismatch is a bug: caught here, not by a bad cast).
+      if (dynamic_cast<State*>(s.get()) == nullptr) std::abort();
+      states_.Push(std::move(s));
+    }
   }
   size_t AddBatch(const uint32_t* groups, const Value* args, size_t stride, size_t n) override {
-    for (size_t i = 0; i < n; ++i)
-      if (!states_[groups[i]]->Add(args + i * stride)) return i;
-    return n;
+    return EachContiguous(groups, args, stride, n, [this](uint32_t g, const Value* a) { return Add(g, a); });
+  }
+  size_t AddRows(const uint32_t* groups, const uint32_t* rows, const ArgColumns& args, size_t n) override {
+    return EachInPlace(groups, rows, args, n, [this](uint32_t g, const Value* a) { return Add(g, a); });
   }
   void EncodeGroup(uint32_t g, ByteWriter& w) const override { states_[g]->Encode(w); }
   // The pointers, and per state an estimate of its object and allocation
@@ -77,6 +130,13 @@ class ObjectColumn final : public MeasureColumn {
   static constexpr size_t kObjectBytes = 96;
 
  private:
+  bool Add(uint32_t g, const Value* a) {
+    if constexpr (std::is_same_v<State, MeasureState>) {
+      return states_[g]->Add(a);
+    } else {
+      return static_cast<State*>(states_[g].get())->State::Add(a);
+    }
+  }
   const MeasureConfig& config_;
   ChunkedArray<std::unique_ptr<MeasureState>> states_;
 };
@@ -93,7 +153,9 @@ std::unique_ptr<MeasureColumn> NewMeasureColumn(const MeasureConfig& config) {
     case MeasureKind::kStddev: return std::make_unique<StateColumn<MomentsState>>(MomentsState(config.kind));
     case MeasureKind::kMin: return std::make_unique<StateColumn<ExtremeState>>(ExtremeState(false));
     case MeasureKind::kMax: return std::make_unique<StateColumn<ExtremeState>>(ExtremeState(true));
-    default: return std::make_unique<ObjectColumn>(config);
+    case MeasureKind::kHyperLogLog: return std::make_unique<ObjectColumn<HyperLogLogState>>(config);
+    case MeasureKind::kDdSketch: return std::make_unique<ObjectColumn<DDSketchState>>(config);
+    default: return std::make_unique<ObjectColumn<MeasureState>>(config);
   }
 }
 

@@ -5,7 +5,8 @@
 // and no virtual call per group or record, since the column calls its final
 // state class directly; the others (quantile, distinct, top, sketches,
 // histogram, at_lowest/at_highest) keep one MeasureState per group behind
-// the same interface. Records arrive a batch at a time: one virtual call per
+// the same interface; the sketches (hyperloglog, ddsketch) call their final
+// class directly too. Records arrive a batch at a time: one virtual call per
 // batch per measure. Each group's bytes are exactly what the group's
 // MeasureState::Encode writes (same arithmetic, same order of inputs), so a
 // partial made with columns equals one made with GroupTable byte for byte.
@@ -22,6 +23,15 @@
 
 namespace fanfold {
 
+// Where the arguments of a batch's inputs are: argument a of the input at
+// record row is base[a][row * step[a]] (a field of the reader's batch, or a
+// column of evaluated arguments), so they are read in place, not copied.
+struct ArgColumns {
+  size_t count = 0;  // arguments per input, 0..2
+  const Value* base[2] = {nullptr, nullptr};
+  size_t step[2] = {0, 0};
+};
+
 class MeasureColumn {
  public:
   virtual ~MeasureColumn() = default;
@@ -36,6 +46,9 @@ class MeasureColumn {
   // column is then unusable and the shard fails).
   // REQUIRES: every groups[i] < the size given to Resize.
   virtual size_t AddBatch(const uint32_t* groups, const Value* args, size_t stride, size_t n) = 0;
+  // The same, with the i-th input's arguments at record rows[i] of `args`
+  // (see ArgColumns; args.count is the measure's argument count).
+  virtual size_t AddRows(const uint32_t* groups, const uint32_t* rows, const ArgColumns& args, size_t n) = 0;
 
   // Appends group g's state as MeasureState::Encode would write it.
   virtual void EncodeGroup(uint32_t g, ByteWriter& w) const = 0;
