@@ -63,7 +63,7 @@ class WorkerGroupTable {
   // Makes room for about `groups` groups in the index, so that a table
   // expected to grow that large (say, as large as the previous shard's)
   // does not rehash on the way. Keeps within a quarter of the budget, if
-  // there is one. Changes no result.
+  // there is one (its slots count toward it). Changes no result.
   void Reserve(size_t groups);
 
   size_t group_count() const { return keys_.size(); }
