@@ -110,6 +110,10 @@ TEST_CASE("worker_group_table: encodes GroupTable's bytes for every measure kind
       std::string key;
       AppendKeyValue(Value::Int(static_cast<int64_t>(g.Next() % groups)), &key);
       if (g.Next() % 4 == 0) AppendKeyValue(Value::String(i % 2 ? "a" : "bb"), &key);
+      // Keys of 128 bytes and more (a two-byte length) in every fifth
+      // seed; the empty key (a job without group fields) in seed 2.
+      if (seed % 5 == 0 && g.Next() % 3 == 0) AppendKeyValue(Value::String(std::string(120 + i % 20, 'x')), &key);
+      if (seed == 2) key.clear();
       MeasureState* const* states = reference.FindOrAdd(key);
       const uint32_t id = table.FindOrAdd(key);
       for (size_t j = 0; j < m; ++j) {
