@@ -141,9 +141,16 @@ bool BatchAggregator::MeasureTakes(const ReductionFeed& f, size_t m, uint32_t r)
 
 void BatchAggregator::Feed(ReductionFeed& f, uint32_t r) {
   const ReductionPlan& rp = *f.plan;
-  key_.clear();
-  for (size_t g = 0; g < rp.group.size(); ++g) AppendKeyValue(KeyValue(f, g, r), &key_);
-  const uint32_t group = f.table->FindOrAdd(key_);
+  // The key is written into key_'s bytes in place (grown when a value
+  // could pass its end), then viewed at its length.
+  size_t length = 0;
+  for (size_t g = 0; g < rp.group.size(); ++g) {
+    const Value& v = KeyValue(f, g, r);
+    if (const size_t need = length + KeyValueBound(v); need > key_.size()) key_.resize(std::max(need, 2 * key_.size()));
+    length += WriteKeyValue(v, key_.data() + length);
+  }
+  key_view_ = std::string_view(key_.data(), length);
+  const uint32_t group = f.table->FindOrAdd(key_view_);
   if (group == WorkerGroupTable::kOverBudget) return Spill(f, r);
   f.fed.rows[f.fed.n] = r;  // the measures take it in Flush
   f.fed.groups[f.fed.n++] = group;
@@ -156,7 +163,7 @@ void BatchAggregator::Spill(ReductionFeed& f, uint32_t r) {
     for (const CompiledMeasure& cm : rp.measures) strides.push_back(cm.args.size());
     f.overflow = std::make_unique<TableOverflow>(&rp.configs, std::move(strides), budget_);
   }
-  f.overflow->BeginRecord(key_);
+  f.overflow->BeginRecord(key_view_);
   for (size_t m = 0; m < rp.measures.size(); ++m) {
     if (!MeasureTakes(f, m, r)) {
       f.overflow->SkipMeasure();

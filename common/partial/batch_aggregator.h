@@ -91,6 +91,9 @@ class BatchAggregator final : public RecordSink {
 
   // The tables, once every record is drained.
   const WorkerGroupTable& table(size_t r) const { return *feeds_[r].table; }
+  // Presizes reduction r's table for about `groups` groups (see
+  // WorkerGroupTable::Reserve). Call before the first record.
+  void ReserveGroups(size_t r, size_t groups) { feeds_[r].table->Reserve(groups); }
   // Reduction r's overflow, or null when its table held every key; Finish
   // hands it the table.
   TableOverflow* overflow(size_t r) { return feeds_[r].overflow.get(); }
@@ -138,7 +141,8 @@ class BatchAggregator final : public RecordSink {
   const size_t width_ = plan_.fields.size();  // slots per record of the batch
   std::vector<uint32_t> sel_;                 // the records the job's filter keeps
   std::unique_ptr<Value[]> truth_;            // a filter's value per record
-  std::string key_;
+  std::string key_;            // room for a record's group key (see Feed)
+  std::string_view key_view_;  // the record's key, in key_
   std::string lookup_key_;
   std::vector<uint64_t> unmatched_;
   uint64_t seen_ = 0;

@@ -39,6 +39,11 @@ class ChunkedArray {
     if (chunks_.size() <= 1) return chunks_.empty() ? 0 : chunks_[0].capacity() * sizeof(T);
     return chunks_.size() * kChunk * sizeof(T);
   }
+  // The size up to which growing the array leaves bytes() unchanged.
+  size_t SameBytesUpTo() const {
+    if (chunks_.size() <= 1) return chunks_.empty() ? 0 : chunks_[0].capacity();
+    return chunks_.size() * kChunk;
+  }
 
  private:
   std::vector<std::vector<T>> chunks_;

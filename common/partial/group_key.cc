@@ -1,6 +1,8 @@
 #include "common/partial/group_key.h"
 
+#include <bit>
 #include <climits>
+#include <cstring>
 #include <cmath>
 #include <cstdint>
 
@@ -9,50 +11,12 @@
 #include "common/base/value_compare.h"
 
 namespace fanfold {
-namespace {
-constexpr uint8_t kTagDouble = 0x03;
-constexpr uint8_t kTagInt64 = 0x05;
-constexpr uint8_t kTagUint64 = 0x06;
-constexpr double kTwo63 = 9223372036854775808.0;
-constexpr double kTwo64 = 18446744073709551616.0;
-}  // namespace
+using namespace group_key_detail;  // the tags and bounds WriteKeyValue uses
 
 void AppendKeyValue(const Value& v, std::string* key) {
-  ByteWriter w(key);
-  switch (v.kind) {
-    case ValueKind::kBool:
-      w.U8(v.boolean ? 0x02 : 0x01);
-      return;
-    case ValueKind::kNumber: {
-      if (v.is_integer()) {
-        w.U8(v.rep == NumberRep::kUint64 ? kTagUint64 : kTagInt64);
-        w.U64(v.bits);
-        return;
-      }
-      const double d = v.number;
-      // An integral double in range is keyed as that integer (see the header).
-      if (d >= -kTwo63 && d < kTwo64 && std::floor(d) == d) {
-        if (d < kTwo63) {
-          w.U8(kTagInt64);
-          w.I64(static_cast<int64_t>(d));
-        } else {
-          w.U8(kTagUint64);
-          w.U64(static_cast<uint64_t>(d));
-        }
-        return;
-      }
-      w.U8(kTagDouble);
-      w.F64(d);
-      return;
-    }
-    case ValueKind::kString:
-      w.U8(0x04);
-      w.Str(v.str);
-      return;
-    default:
-      w.U8(0x00);
-      return;
-  }
+  const size_t at = key->size();
+  key->resize(at + KeyValueBound(v));
+  key->resize(at + WriteKeyValue(v, key->data() + at));
 }
 
 Status DecodeKey(std::string_view key, size_t arity, std::vector<Cell>* out) {

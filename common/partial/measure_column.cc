@@ -62,6 +62,7 @@ class CountColumn final : public MeasureColumn {
   void EncodeGroup(uint32_t g, ByteWriter& w) const override { w.Varint(n_[g]); }
   void Prefetch(uint32_t g) const override { __builtin_prefetch(&n_[g]); }
   size_t ApproxBytes() const override { return n_.bytes(); }
+  size_t StableBytesUpTo() const override { return n_.SameBytesUpTo(); }
 
  private:
   size_t CountAll(const uint32_t* groups, size_t n) {
@@ -93,6 +94,7 @@ class StateColumn final : public MeasureColumn {
   void EncodeGroup(uint32_t g, ByteWriter& w) const override { states_[g].State::Encode(w); }
   void Prefetch(uint32_t g) const override { __builtin_prefetch(&states_[g]); }
   size_t ApproxBytes() const override { return states_.bytes(); }
+  size_t StableBytesUpTo() const override { return states_.SameBytesUpTo(); }
 
  private:
   State empty_;
@@ -127,6 +129,8 @@ class ObjectColumn final : public MeasureColumn {
   // (what it owns beyond, kept values or registers, is bounded by the
   // measure's own limit or precision, not counted).
   size_t ApproxBytes() const override { return states_.bytes() + states_.size() * kObjectBytes; }
+  size_t StableBytesUpTo() const override { return states_.SameBytesUpTo(); }
+  size_t BytesPerGroup() const override { return kObjectBytes; }
   static constexpr size_t kObjectBytes = 96;
 
  private:

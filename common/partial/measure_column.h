@@ -60,6 +60,12 @@ class MeasureColumn {
   // estimate for the variable-size measures: their objects, not what
   // they own).
   virtual size_t ApproxBytes() const = 0;
+  // ApproxBytes, once the column has grown to n groups (n at least its
+  // size), is ApproxBytes() + (n - size) * BytesPerGroup() for every n up
+  // to StableBytesUpTo(): the group table checks its budget by that sum
+  // instead of asking every column for every new group.
+  virtual size_t StableBytesUpTo() const = 0;
+  virtual size_t BytesPerGroup() const { return 0; }
 };
 
 // A column for config's measure. REQUIRES: config validated.

@@ -90,6 +90,8 @@ Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
                                : task.table_bytes != 0   ? task.table_bytes
                                                          : kDefaultTableBytes;
   BatchAggregator agg(*plan_, &batch_, on_record, on_every_record, table_bytes);
+  last_groups_.resize(plan_->reductions.size(), 0);
+  for (size_t r = 0; r < last_groups_.size(); ++r) agg.ReserveGroups(r, last_groups_[r]);
   PresenceCounter present(plan_->fields, &agg);  // counts each raw field's values
   ReadStats stats;
   TimedSource timed(src->get());
@@ -161,6 +163,7 @@ Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
       state.reductions[r].encode_bytes_hint = o->encoded_bytes();
     } else {
       const WorkerGroupTable& table = agg.table(r);
+      last_groups_[r] = table.group_count();
       state.reductions[r].encode_groups = [&table](ByteWriter& w) { table.Encode(w); };
       state.reductions[r].encode_bytes_hint = table.EncodedBytesHint();
     }

@@ -60,6 +60,9 @@ class ShardProcessor {
   std::unique_ptr<DecodeAhead> ahead_;    // made on the first large shard
   std::unique_ptr<RecordReader> reader_;  // made on first use, kept across shards
   RecordBatch batch_;                      // records waiting to be aggregated
+  // Per reduction, the groups of the last shard's table: the next shard's
+  // table is presized to it (shards of one job tend to be alike).
+  std::vector<size_t> last_groups_;
 };
 
 }  // namespace fanfold

@@ -1,34 +1,71 @@
 #include "common/partial/worker_group_table.h"
 
+#include <algorithm>
+#include <cstdint>
 #include <string>
 
+#define XXH_INLINE_ALL  // the short keys hash without a call
 #include <xxhash.h>
 
 #include "common/partial/key_order.h"
 
 namespace fanfold {
 
-size_t WorkerGroupTable::IdHash::operator()(std::string_view s) const { return XXH3_64bits(s.data(), s.size()); }
+uint64_t WorkerGroupTable::HashKey(std::string_view key) { return XXH3_64bits(key.data(), key.size()); }
 
 WorkerGroupTable::WorkerGroupTable(const std::vector<MeasureConfig>* configs)
-    : configs_(configs), index_(0, IdHash{&keys_}, IdEq{&keys_}) {
+    : configs_(configs), index_(0, IdHash{this}, IdEq{&keys_}) {
   for (const MeasureConfig& c : *configs_) columns_.push_back(NewMeasureColumn(c));
 }
 
+void WorkerGroupTable::Reserve(size_t groups) {
+  // Room for an eighth more than asked (the next shard may hold a few more
+  // groups). The index's slots (4 bytes and a byte of metadata, at most 7/8
+  // full) stay within a quarter of the budget. The key list is left to
+  // grow: copying its views is cheap, and its doubling is what it was.
+  constexpr size_t kBytesPerGroup = 6;
+  groups += groups / 8;
+  if (budget_ > 0) groups = std::min(groups, budget_ / 4 / kBytesPerGroup);
+  if (groups > index_.size()) index_.reserve(groups);
+}
+
 uint32_t WorkerGroupTable::FindOrAdd(std::string_view key) {
-  auto it = index_.find(key);
+  const Probe probe{key, HashKey(key)};
+  auto it = index_.find(probe);
   if (it != index_.end()) return *it;
   if (full_) return kOverBudget;
   const uint32_t id = static_cast<uint32_t>(keys_.size());
   keys_.push_back(key_bytes_.Add(key));
+  new_id_ = id;  // the insert hashes id by probe.hash
+  new_hash_ = probe.hash;
   index_.insert(id);
-  for (auto& c : columns_) c->Resize(keys_.size());
+  new_id_ = UINT32_MAX;
   key_total_ += key.size();
-  if (budget_ > 0 && ApproxBytes() + keys_.size() * kSortBytesPerGroup > budget_) full_ = true;
+  if (budget_ > 0) {
+    const size_t n = keys_.size();
+    if (n > stable_until_ || index_.bucket_count() != synced_buckets_ || keys_.capacity() != synced_key_capacity_)
+      Resync();
+    if (base_bytes_ + key_total_ + n * (per_group_ + kSortBytesPerGroup) > budget_) full_ = true;
+  }
   return id;
 }
 
+void WorkerGroupTable::Resync() {
+  SyncColumns();
+  const size_t n = keys_.size();
+  per_group_ = 0;
+  stable_until_ = SIZE_MAX;
+  for (const auto& c : columns_) {
+    per_group_ += c->BytesPerGroup();
+    stable_until_ = std::min(stable_until_, c->StableBytesUpTo());
+  }
+  base_bytes_ = ApproxBytes() - key_total_ - n * per_group_;
+  synced_buckets_ = index_.bucket_count();
+  synced_key_capacity_ = keys_.capacity();
+}
+
 void WorkerGroupTable::Encode(ByteWriter& w) const {
+  SyncColumns();
   w.Varint(keys_.size());
   const std::vector<uint32_t> order = KeyOrder(keys_);
   // Groups go out in key order, scattered in memory: their key bytes and
@@ -49,6 +86,7 @@ void WorkerGroupTable::Encode(ByteWriter& w) const {
 std::vector<uint32_t> WorkerGroupTable::SortedGroups() const { return KeyOrder(keys_); }
 
 void WorkerGroupTable::EncodeGroup(uint32_t g, ByteWriter& w) const {
+  SyncColumns();
   std::string& out = *w.buffer();
   w.Str(keys_[g]);
   for (const auto& c : columns_) {
@@ -71,7 +109,9 @@ void WorkerGroupTable::EncodeGroup(uint32_t g, ByteWriter& w) const {
 }
 
 size_t WorkerGroupTable::ApproxBytes() const {
-  size_t bytes = keys_.capacity() * sizeof(std::string_view) + index_.bucket_count() * (sizeof(uint32_t) + 1);
+  SyncColumns();
+  size_t bytes = keys_.capacity() * sizeof(std::string_view) +
+                 index_.bucket_count() * (sizeof(uint32_t) + 1);
   bytes += key_total_;
   for (const auto& c : columns_) bytes += c->ApproxBytes();
   return bytes;

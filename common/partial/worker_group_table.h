@@ -1,10 +1,18 @@
 // WorkerGroupTable: a worker's group table for one shard and one reduction.
 // Each new key's bytes (common/partial/group_key.h) are stored once in a
 // KeyArena and the key gets the next group id; the hash index holds only
-// ids (4 bytes a slot, the key hashed once per lookup with XXH3-64); the
-// measures' states live in one MeasureColumn per measure indexed by group
-// id (flat arrays for the fixed-size measures). Records are fed a batch at a
-// time per measure (MeasureColumn::AddBatch).
+// ids (4 bytes a slot). A key is hashed once per lookup (XXH3-64), and a
+// new key's insert reuses that hash; only the index's growth hashes the
+// keys again (Reserve avoids it; keeping every hash instead would cost 8
+// bytes a group, which pushed the issue-14 row's tables past their default
+// budget). The measures' states
+// live in one MeasureColumn per measure indexed by group id (flat arrays
+// for the fixed-size measures); a new group's empty states are appended in
+// one call per column and batch (SyncColumns) rather than per group; a
+// budget counts them as they come by arithmetic, asking the columns again
+// only when a count could jump (a new chunk, the index's or key list's
+// growth). Records are fed a batch at a time per measure
+// (MeasureColumn::AddBatch).
 //
 // A table may be given a budget (set_budget): once its bytes (ApproxBytes,
 // plus what Encode's sort will take) pass it, the table is full — its
@@ -19,6 +27,7 @@
 #pragma once
 
 #include <cstdint>
+#include <cstring>
 #include <memory>
 #include <string_view>
 #include <vector>
@@ -51,10 +60,20 @@ class WorkerGroupTable {
   void set_budget(size_t bytes) { budget_ = bytes; }
   bool full() const { return full_; }
 
+  // Makes room for about `groups` groups in the index, so that a table
+  // expected to grow that large (say, as large as the previous shard's)
+  // does not rehash on the way. Keeps within a quarter of the budget, if
+  // there is one (its slots count toward it). Changes no result.
+  void Reserve(size_t groups);
+
   size_t group_count() const { return keys_.size(); }
   size_t measure_count() const { return columns_.size(); }
   std::string_view key(uint32_t g) const { return keys_[g]; }
-  MeasureColumn& column(size_t m) { return *columns_[m]; }
+  // Measure m's column, holding a state for every group.
+  MeasureColumn& column(size_t m) {
+    SyncColumns();
+    return *columns_[m];
+  }
 
   // Appends the table's encoding: GroupTable::Encode's layout, groups in
   // strictly ascending key-byte order.
@@ -76,26 +95,68 @@ class WorkerGroupTable {
   static constexpr size_t kSortBytesPerGroup = 20;
 
  private:
+  // A key being looked up, with its hash.
+  struct Probe {
+    std::string_view key;
+    uint64_t hash;
+  };
   struct IdHash {
     using is_transparent = void;
     using is_avalanching = void;  // XXH3's bits are already mixed
-    const std::vector<std::string_view>* keys;
-    size_t operator()(std::string_view s) const;
-    size_t operator()(uint32_t id) const { return (*this)((*keys)[id]); }
+    const WorkerGroupTable* table;
+    size_t operator()(const Probe& p) const { return p.hash; }
+    size_t operator()(uint32_t id) const {
+      return id == table->new_id_ ? table->new_hash_ : HashKey(table->keys_[id]);
+    }
   };
+  static uint64_t HashKey(std::string_view key);
   struct IdEq {
     using is_transparent = void;
     const std::vector<std::string_view>* keys;
     bool operator()(uint32_t a, uint32_t b) const { return a == b; }
-    bool operator()(std::string_view s, uint32_t id) const { return s == (*keys)[id]; }
-    bool operator()(uint32_t id, std::string_view s) const { return s == (*keys)[id]; }
+    bool operator()(const Probe& p, uint32_t id) const { return SameKey(p.key, (*keys)[id]); }
+    bool operator()(uint32_t id, const Probe& p) const { return SameKey(p.key, (*keys)[id]); }
   };
+  // a == b; keys of 8 to 16 bytes (most: an integer, or a short string and
+  // a tag) by two overlapping 8-byte loads instead of a call to memcmp.
+  static bool SameKey(std::string_view a, std::string_view b) {
+    const size_t n = a.size();
+    if (n != b.size()) return false;
+    if (n < 8 || n > 16) return a == b;
+    uint64_t a0, a1, b0, b1;
+    std::memcpy(&a0, a.data(), 8);
+    std::memcpy(&b0, b.data(), 8);
+    std::memcpy(&a1, a.data() + n - 8, 8);
+    std::memcpy(&b1, b.data() + n - 8, 8);
+    return ((a0 ^ b0) | (a1 ^ b1)) == 0;
+  }
+
+  // Recomputes the budget's base (see FindOrAdd) at the current size.
+  void Resync();
+
+  // Gives every column a state for every group.
+  void SyncColumns() const {
+    if (column_groups_ == keys_.size()) return;
+    column_groups_ = keys_.size();
+    for (const auto& c : columns_) c->Resize(column_groups_);
+  }
 
   const std::vector<MeasureConfig>* configs_;
   KeyArena key_bytes_;                   // every key's bytes, once
   std::vector<std::string_view> keys_;   // by group id, into key_bytes_
   boost::unordered_flat_set<uint32_t, IdHash, IdEq> index_;
   std::vector<std::unique_ptr<MeasureColumn>> columns_;  // one per measure
+  mutable size_t column_groups_ = 0;  // groups every column holds a state for
+  // Under a budget: ApproxBytes() at n groups, for n up to stable_until_ and
+  // while the index and key list keep their sizes, is
+  // base_bytes_ + key_total_ + n * per_group_.
+  size_t base_bytes_ = 0;
+  size_t per_group_ = 0;
+  size_t stable_until_ = 0;
+  size_t synced_buckets_ = 0;
+  size_t synced_key_capacity_ = 0;
+  uint32_t new_id_ = UINT32_MAX;      // the group being inserted, and its key's hash
+  uint64_t new_hash_ = 0;
   size_t key_total_ = 0;  // bytes of every key
   size_t budget_ = 0;     // 0 = none
   bool full_ = false;

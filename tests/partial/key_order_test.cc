@@ -42,7 +42,10 @@ std::vector<std::string> MakeKeys(size_t n, unsigned seed) {
 }  // namespace
 
 TEST_CASE("key order: the standard library's string_view order, small and radix-sized tables") {
-  for (size_t n : {size_t{0}, size_t{1}, size_t{7}, size_t{2047}, size_t{2048}, size_t{5000}, size_t{60000}}) {
+  // 70,000 and 200,000: ranges sorted by 16-bit digits, at the first window
+  // and (the shared-prefix keys) again at the second.
+  for (size_t n : {size_t{0}, size_t{1}, size_t{7}, size_t{2047}, size_t{2048}, size_t{5000}, size_t{60000},
+                   size_t{70000}, size_t{200000}}) {
     CAPTURE(n);
     const std::vector<std::string> keys = MakeKeys(n, static_cast<unsigned>(n) + 3);
     std::vector<std::string_view> views(keys.begin(), keys.end());

@@ -110,6 +110,10 @@ TEST_CASE("worker_group_table: encodes GroupTable's bytes for every measure kind
       std::string key;
       AppendKeyValue(Value::Int(static_cast<int64_t>(g.Next() % groups)), &key);
       if (g.Next() % 4 == 0) AppendKeyValue(Value::String(i % 2 ? "a" : "bb"), &key);
+      // Keys of 128 bytes and more (a two-byte length) in every fifth
+      // seed; the empty key (a job without group fields) in seed 2.
+      if (seed % 5 == 0 && g.Next() % 3 == 0) AppendKeyValue(Value::String(std::string(120 + i % 20, 'x')), &key);
+      if (seed == 2) key.clear();
       MeasureState* const* states = reference.FindOrAdd(key);
       const uint32_t id = table.FindOrAdd(key);
       for (size_t j = 0; j < m; ++j) {
@@ -157,6 +161,43 @@ TEST_CASE("worker_group_table: a bounded measure past its limit names the input"
   std::vector<uint32_t> groups(6, id);
   std::vector<Value> args = {Value::Int(1), Value::Int(2), Value::Int(1), Value::Int(3), Value::Int(4), Value::Int(5)};
   CHECK(t.column(0).AddBatch(groups.data(), args.data(), 1, 6) == 4);
+}
+
+// Intent: under a budget the table turns full at exactly the first new group
+// at which ApproxBytes() plus the sort's bytes pass the budget (the header's
+// rule), although it asks its columns for their bytes only now and then;
+// keys of every length (past a one-byte varint too), fixed-size and
+// per-group-object columns, a presized index; ids stay those of first
+// appearance either way.
+TEST_CASE("worker_group_table: the budget's rule holds group by group") {
+  std::vector<MeasureConfig> sum_only(2);
+  sum_only[1].kind = MeasureKind::kSum;
+  std::vector<MeasureConfig> every = EveryKind();
+  for (const std::vector<MeasureConfig>* configs : {&sum_only, &every}) {
+    for (const size_t budget : {size_t{1}, size_t{5000}, size_t{70000}, size_t{600000}, size_t{3000000}}) {
+      for (const size_t reserve : {size_t{0}, size_t{3000}}) {
+        CAPTURE(configs->size());
+        CAPTURE(budget);
+        CAPTURE(reserve);
+        WorkerGroupTable t(configs);
+        t.set_budget(budget);
+        t.Reserve(reserve);
+        TestLcg g(budget + reserve);
+        bool full = false;
+        for (uint32_t i = 0; i < 40000 && !full; ++i) {
+          std::string key(g.Next() % 7 == 0 ? 100 + g.Next() % 200 : g.Next() % 20, 'k');
+          for (char& c : key) c = static_cast<char>('a' + g.Next() % 26);
+          key += std::to_string(i);  // distinct
+          const uint32_t id = t.FindOrAdd(key);
+          REQUIRE(id == i);
+          full = t.ApproxBytes() + t.group_count() * WorkerGroupTable::kSortBytesPerGroup > budget;
+          REQUIRE(t.full() == full);
+        }
+        CHECK(full);  // every budget here is reached
+        CHECK(t.FindOrAdd("a key never seen") == WorkerGroupTable::kOverBudget);
+      }
+    }
+  }
 }
 
 }  // namespace
