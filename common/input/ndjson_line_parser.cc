@@ -80,6 +80,8 @@ struct NdjsonLineParser::Impl {
   const char* group_end = nullptr;
   size_t group_next = 0;
   const char* next_backslash = nullptr;
+  // How many structural indexes the last line parsed from a group had.
+  size_t last_line_indexes = 0;
 
   // Room for len bytes of line (stage 1's indexes, unescaped strings).
   bool Reserve(size_t len) {
@@ -213,6 +215,10 @@ LineVerdict NdjsonLineParser::Impl::Walk(const char* p, const uint32_t* idx, siz
   Frame* const stack = frames.get();
   size_t depth = 0;
   stack[depth++] = Frame{'{', 0, 0};
+  // The innermost open scope's bracket and trie node, kept out of the
+  // stack: most structurals need them, few open or close a scope.
+  bool in_object = true;
+  int32_t top_node = 0;
   size_t i = 1;
   int32_t node = -1;  // trie node of the value about to be read
   // Each label is a state of the grammar; every path ends at a return.
@@ -223,11 +229,20 @@ object_begin:
   }
 object_key : {
   if (at(i) != '"') return LineVerdict::kInvalid;
+  if (top_node < 0 && !backslash) {
+    // No pointer leads into this object and the line has no escapes: the
+    // key has nothing to check (stage 1 checked its bytes) and names
+    // nothing.
+    if (at(i + 1) != ':') return LineVerdict::kInvalid;
+    i += 2;
+    node = -1;
+    goto value;
+  }
   std::string_view key;
   if (!StringAt(p + idx[i], token_end(i), true, &key)) return LineVerdict::kInvalid;
   if (at(i + 1) != ':') return LineVerdict::kInvalid;
   i += 2;
-  node = Member(stack[depth - 1].node, key);
+  node = Member(top_node, key);
   goto value;
 }
 array_begin:
@@ -236,7 +251,7 @@ array_begin:
     goto scope_end;
   }
 array_value:
-  node = Element(stack[depth - 1].node, stack[depth - 1].index);
+  node = Element(top_node, stack[depth - 1].index);
 value : {
   const int slot = node >= 0 ? node_data[node].slot : -1;
   const char c = at(i);
@@ -246,8 +261,13 @@ value : {
       if (depth >= kMaxDepth) return LineVerdict::kTooDeep;
       if (slot >= 0) slots[slot] = Value::Other();
       stack[depth++] = Frame{c, node, 0};
+      top_node = node;
       ++i;
-      if (c == '{') goto object_begin;
+      if (c == '{') {
+        in_object = true;
+        goto object_begin;
+      }
+      in_object = false;
       goto array_begin;
     case '"': {
       // A string no pointer reads in a line without backslashes has
@@ -301,7 +321,7 @@ value : {
   ++i;
 }
 after_value:
-  if (stack[depth - 1].bracket == '{') {
+  if (in_object) {
     if (at(i) == ',') {
       ++i;
       goto object_key;
@@ -317,7 +337,11 @@ after_value:
   }
   ++i;
 scope_end:
-  if (--depth > 0) goto after_value;
+  if (--depth > 0) {
+    in_object = stack[depth - 1].bracket == '{';
+    top_node = stack[depth - 1].node;
+    goto after_value;
+  }
   return i == n ? LineVerdict::kRecord : LineVerdict::kInvalid;  // nothing after the root object
 }
 
@@ -378,11 +402,17 @@ LineVerdict NdjsonLineParser::ParseGrouped(const char* p, size_t len, std::vecto
   const auto end = static_cast<uint32_t>(begin + len);
   size_t first = im.group_next;
   while (first < total && idx[first] < begin) ++first;  // an earlier line skipped as blank
-  // The first index past the line, by binary search: within the next 64
-  // indexes for most lines (a few dozen structurals each), else the rest.
-  const size_t near = std::min(total, first + 64);
-  uint32_t* const stop = near > first && idx[near - 1] >= end ? idx + near : idx + total;
-  const size_t last = static_cast<size_t>(std::lower_bound(idx + first, stop, end) - idx);
+  // The first index past the line. Lines of one file tend to have the same
+  // shape, so first try the previous line's count of indexes; else a
+  // binary search within the next 64 indexes for most lines (a few dozen
+  // structurals each), else the rest.
+  size_t last = first + im.last_line_indexes;
+  if (!(last <= total && (last == first || idx[last - 1] < end) && (last == total || idx[last] >= end))) {
+    const size_t near = std::min(total, first + 64);
+    uint32_t* const stop = near > first && idx[near - 1] >= end ? idx + near : idx + total;
+    last = static_cast<size_t>(std::lower_bound(idx + first, stop, end) - idx);
+    im.last_line_indexes = last - first;
+  }
   im.group_next = last;
   // The line's indexes, relative to the group, ended as stage 1 ends a
   // line's own (its length at index n, p[len] a space): the next line's
