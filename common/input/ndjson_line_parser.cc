@@ -275,7 +275,13 @@ value : {
       if (slot < 0 && !backslash) break;
       std::string_view s;
       if (!StringAt(p + idx[i], token_end(i), slot >= 0, &s)) return LineVerdict::kInvalid;
-      if (slot >= 0) slots[slot] = Value::String(s);
+      if (slot >= 0) {
+        // The slot is still missing (each slot is filled at most once a
+        // line, after the reset the contract requires), so a string
+        // differs from it in its kind and text alone.
+        slots[slot].kind = ValueKind::kString;
+        slots[slot].str = s;
+      }
       break;
     }
     case 't':
