@@ -16,25 +16,6 @@ namespace {
 
 bool IsJsonSpace(char c) { return c == ' ' || c == '\t' || c == '\r' || c == '\n'; }
 
-// True iff s[0, n) holds a backslash; eight bytes at a time (the zero-byte
-// test of Hacker's Delight section 6-1, on each word XOR eight backslashes),
-// the last word read whole and masked (little-endian: its first bytes are
-// the low ones). Reads up to 7 bytes past s + n: a line is followed by its
-// line break and simdjson's padding, so they are readable.
-bool HasBackslash(const char* s, size_t n) {
-  constexpr uint64_t kOnes = 0x0101010101010101ULL;
-  constexpr uint64_t kHigh = 0x8080808080808080ULL;
-  for (size_t i = 0; i < n; i += 8) {
-    uint64_t w;
-    std::memcpy(&w, s + i, 8);
-    const uint64_t x = w ^ (kOnes * '\\');
-    uint64_t hits = (x - kOnes) & ~x & kHigh;
-    if (n - i < 8) hits &= (uint64_t{1} << (8 * (n - i))) - 1;  // only the bytes inside s[0, n)
-    if (hits != 0) return true;
-  }
-  return false;
-}
-
 LineVerdict VerdictOf(simdjson::error_code err) {
   switch (err) {
     case simdjson::SUCCESS: return LineVerdict::kRecord;
@@ -70,9 +51,13 @@ struct NdjsonLineParser::Impl {
   std::vector<PointerNode>* nodes = nullptr;
   PointerNode* node_data = nullptr;  // nodes->data(), for the current line
   uint64_t generation = 0;
-  // False iff the line holds no backslash at all (most lines): then no
-  // string in it has an escape to check or undo.
-  bool line_has_backslash = true;
+  // The first backslash at or after the walk's position, or bs_limit (the
+  // end of the text searched) if none: a string before it has no escape
+  // to check or undo (most strings; most lines have no backslash at all).
+  // It only moves forward, one search per backslash passed, so a line
+  // costs one search per backslash in it, not one per string.
+  const char* bs_next = nullptr;
+  const char* bs_limit = nullptr;
   // The group IndexGroup accepted: its text, its end, the next structural
   // index of it not yet given to a line, and its first backslash at or
   // after the current line (group_end if none; null before the first line).
@@ -82,6 +67,17 @@ struct NdjsonLineParser::Impl {
   const char* next_backslash = nullptr;
   // How many structural indexes the last line parsed from a group had.
   size_t last_line_indexes = 0;
+
+  // True iff [b, e) may hold a backslash: false iff the first backslash at
+  // or after b lies at or after e. REQUIRES: b no earlier than any b
+  // passed before for this text.
+  bool BackslashBefore(const char* b, const char* e) {
+    if (bs_next < b) {
+      const void* f = std::memchr(b, '\\', static_cast<size_t>(bs_limit - b));
+      bs_next = f != nullptr ? static_cast<const char*>(f) : bs_limit;
+    }
+    return bs_next < e;
+  }
 
   // Room for len bytes of line (stage 1's indexes, unescaped strings).
   bool Reserve(size_t len) {
@@ -161,7 +157,7 @@ struct NdjsonLineParser::Impl {
       while (*e != '"') e += *e == '\\' ? 2 : 1;
     }
     const size_t n = static_cast<size_t>(e - b);
-    if (!line_has_backslash || !HasBackslash(b, n)) {
+    if (!BackslashBefore(b, e)) {
       *out = std::string_view(b, n);
       return true;
     }
@@ -201,7 +197,6 @@ struct NdjsonLineParser::Impl {
 template <bool kSentinel>
 LineVerdict NdjsonLineParser::Impl::Walk(const char* p, const uint32_t* idx, size_t n, size_t len, Value* slots) {
   const bool every = checks == ValueChecks::kEveryValue;
-  const bool backslash = line_has_backslash;
   // The character at structural i (NUL past the last one).
   auto at = [&](size_t i) -> char { return kSentinel || i < n ? p[idx[i]] : '\0'; };
   // Where the token at structural i ends: the next structural, or the end.
@@ -229,9 +224,9 @@ object_begin:
   }
 object_key : {
   if (at(i) != '"') return LineVerdict::kInvalid;
-  if (top_node < 0 && !backslash) {
-    // No pointer leads into this object and the line has no escapes: the
-    // key has nothing to check (stage 1 checked its bytes) and names
+  if (top_node < 0 && !BackslashBefore(p + idx[i], token_end(i))) {
+    // No pointer leads into this object and the key holds no backslash:
+    // it has nothing to check (stage 1 checked its bytes) and names
     // nothing.
     if (at(i + 1) != ':') return LineVerdict::kInvalid;
     i += 2;
@@ -272,7 +267,7 @@ value : {
     case '"': {
       // A string no pointer reads in a line without backslashes has
       // nothing to check (stage 1 checked its UTF-8 and control bytes).
-      if (slot < 0 && !backslash) break;
+      if (slot < 0 && !BackslashBefore(p + idx[i], token_end(i))) break;
       std::string_view s;
       if (!StringAt(p + idx[i], token_end(i), slot >= 0, &s)) return LineVerdict::kInvalid;
       if (slot >= 0) {
@@ -365,7 +360,8 @@ LineVerdict NdjsonLineParser::Parse(const char* p, size_t len, size_t capacity, 
   const simdjson::error_code err =
       im.stage1->stage1(reinterpret_cast<const uint8_t*>(p), len, simdjson::stage1_mode::regular);
   if (err != simdjson::SUCCESS) return VerdictOf(err);
-  im.line_has_backslash = std::memchr(p, '\\', len) != nullptr;
+  im.bs_next = p;  // not looked for yet (BackslashBefore looks past it)
+  im.bs_limit = p + len;
   const uint32_t* idx = im.stage1->structural_indexes.get();
   const size_t n = im.stage1->n_structural_indexes;
   // Stage 1 ends its indexes with len; the reader's lines end at a line
@@ -401,7 +397,8 @@ LineVerdict NdjsonLineParser::ParseGrouped(const char* p, size_t len, std::vecto
     const void* b = std::memchr(p, '\\', static_cast<size_t>(im.group_end - p));
     im.next_backslash = b != nullptr ? static_cast<const char*>(b) : im.group_end;
   }
-  im.line_has_backslash = im.next_backslash < p + len;
+  im.bs_next = im.next_backslash;
+  im.bs_limit = im.group_end;
   uint32_t* const idx = im.stage1->structural_indexes.get();
   const size_t total = im.stage1->n_structural_indexes;  // idx[total] is the group's length
   const auto begin = static_cast<uint32_t>(p - im.group);
@@ -427,6 +424,7 @@ LineVerdict NdjsonLineParser::ParseGrouped(const char* p, size_t len, std::vecto
   idx[last] = end;
   const LineVerdict v = im.Walk<true>(im.group, idx + first, last - first, end, slots);
   idx[last] = lent;
+  im.next_backslash = im.bs_next;  // the walk may have searched further
   return v;
 }
 
