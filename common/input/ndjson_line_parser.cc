@@ -250,6 +250,25 @@ array_value:
 value : {
   const int slot = node >= 0 ? node_data[node].slot : -1;
   const char c = at(i);
+  // Strings first, outside the switch: the commonest value, and on most
+  // lines (no pointer reads it, no backslash) two tests decide it.
+  if (c == '"') {
+    // A string no pointer reads and without backslashes has nothing to
+    // check (stage 1 checked its UTF-8 and control bytes).
+    if (slot >= 0 || BackslashBefore(p + idx[i], token_end(i))) {
+      std::string_view s;
+      if (!StringAt(p + idx[i], token_end(i), slot >= 0, &s)) return LineVerdict::kInvalid;
+      if (slot >= 0) {
+        // The slot is still missing (each slot is filled at most once a
+        // line, after the reset the contract requires), so a string
+        // differs from it in its kind and text alone.
+        slots[slot].kind = ValueKind::kString;
+        slots[slot].str = s;
+      }
+    }
+    ++i;
+    goto after_value;
+  }
   switch (c) {
     case '{':
     case '[':
@@ -264,21 +283,6 @@ value : {
       }
       in_object = false;
       goto array_begin;
-    case '"': {
-      // A string no pointer reads in a line without backslashes has
-      // nothing to check (stage 1 checked its UTF-8 and control bytes).
-      if (slot < 0 && !BackslashBefore(p + idx[i], token_end(i))) break;
-      std::string_view s;
-      if (!StringAt(p + idx[i], token_end(i), slot >= 0, &s)) return LineVerdict::kInvalid;
-      if (slot >= 0) {
-        // The slot is still missing (each slot is filled at most once a
-        // line, after the reset the contract requires), so a string
-        // differs from it in its kind and text alone.
-        slots[slot].kind = ValueKind::kString;
-        slots[slot].str = s;
-      }
-      break;
-    }
     case 't':
     case 'f':
     case 'n':
