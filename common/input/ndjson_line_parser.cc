@@ -16,25 +16,6 @@ namespace {
 
 bool IsJsonSpace(char c) { return c == ' ' || c == '\t' || c == '\r' || c == '\n'; }
 
-// True iff s[0, n) holds a backslash; eight bytes at a time (the zero-byte
-// test of Hacker's Delight section 6-1, on each word XOR eight backslashes),
-// the last word read whole and masked (little-endian: its first bytes are
-// the low ones). Reads up to 7 bytes past s + n: a line is followed by its
-// line break and simdjson's padding, so they are readable.
-bool HasBackslash(const char* s, size_t n) {
-  constexpr uint64_t kOnes = 0x0101010101010101ULL;
-  constexpr uint64_t kHigh = 0x8080808080808080ULL;
-  for (size_t i = 0; i < n; i += 8) {
-    uint64_t w;
-    std::memcpy(&w, s + i, 8);
-    const uint64_t x = w ^ (kOnes * '\\');
-    uint64_t hits = (x - kOnes) & ~x & kHigh;
-    if (n - i < 8) hits &= (uint64_t{1} << (8 * (n - i))) - 1;  // only the bytes inside s[0, n)
-    if (hits != 0) return true;
-  }
-  return false;
-}
-
 LineVerdict VerdictOf(simdjson::error_code err) {
   switch (err) {
     case simdjson::SUCCESS: return LineVerdict::kRecord;
@@ -70,9 +51,13 @@ struct NdjsonLineParser::Impl {
   std::vector<PointerNode>* nodes = nullptr;
   PointerNode* node_data = nullptr;  // nodes->data(), for the current line
   uint64_t generation = 0;
-  // False iff the line holds no backslash at all (most lines): then no
-  // string in it has an escape to check or undo.
-  bool line_has_backslash = true;
+  // The first backslash at or after the walk's position, or bs_limit (the
+  // end of the text searched) if none: a string before it has no escape
+  // to check or undo (most strings; most lines have no backslash at all).
+  // It only moves forward, one search per backslash passed, so a line
+  // costs one search per backslash in it, not one per string.
+  const char* bs_next = nullptr;
+  const char* bs_limit = nullptr;
   // The group IndexGroup accepted: its text, its end, the next structural
   // index of it not yet given to a line, and its first backslash at or
   // after the current line (group_end if none; null before the first line).
@@ -80,6 +65,19 @@ struct NdjsonLineParser::Impl {
   const char* group_end = nullptr;
   size_t group_next = 0;
   const char* next_backslash = nullptr;
+  // How many structural indexes the last line parsed from a group had.
+  size_t last_line_indexes = 0;
+
+  // True iff [b, e) may hold a backslash: false iff the first backslash at
+  // or after b lies at or after e. REQUIRES: b no earlier than any b
+  // passed before for this text.
+  bool BackslashBefore(const char* b, const char* e) {
+    if (bs_next < b) {
+      const void* f = std::memchr(b, '\\', static_cast<size_t>(bs_limit - b));
+      bs_next = f != nullptr ? static_cast<const char*>(f) : bs_limit;
+    }
+    return bs_next < e;
+  }
 
   // Room for len bytes of line (stage 1's indexes, unescaped strings).
   bool Reserve(size_t len) {
@@ -159,7 +157,7 @@ struct NdjsonLineParser::Impl {
       while (*e != '"') e += *e == '\\' ? 2 : 1;
     }
     const size_t n = static_cast<size_t>(e - b);
-    if (!line_has_backslash || !HasBackslash(b, n)) {
+    if (!BackslashBefore(b, e)) {
       *out = std::string_view(b, n);
       return true;
     }
@@ -199,7 +197,6 @@ struct NdjsonLineParser::Impl {
 template <bool kSentinel>
 LineVerdict NdjsonLineParser::Impl::Walk(const char* p, const uint32_t* idx, size_t n, size_t len, Value* slots) {
   const bool every = checks == ValueChecks::kEveryValue;
-  const bool backslash = line_has_backslash;
   // The character at structural i (NUL past the last one).
   auto at = [&](size_t i) -> char { return kSentinel || i < n ? p[idx[i]] : '\0'; };
   // Where the token at structural i ends: the next structural, or the end.
@@ -213,6 +210,10 @@ LineVerdict NdjsonLineParser::Impl::Walk(const char* p, const uint32_t* idx, siz
   Frame* const stack = frames.get();
   size_t depth = 0;
   stack[depth++] = Frame{'{', 0, 0};
+  // The innermost open scope's bracket and trie node, kept out of the
+  // stack: most structurals need them, few open or close a scope.
+  bool in_object = true;
+  int32_t top_node = 0;
   size_t i = 1;
   int32_t node = -1;  // trie node of the value about to be read
   // Each label is a state of the grammar; every path ends at a return.
@@ -223,11 +224,20 @@ object_begin:
   }
 object_key : {
   if (at(i) != '"') return LineVerdict::kInvalid;
+  if (top_node < 0 && !BackslashBefore(p + idx[i], token_end(i))) {
+    // No pointer leads into this object and the key holds no backslash:
+    // it has nothing to check (stage 1 checked its bytes) and names
+    // nothing.
+    if (at(i + 1) != ':') return LineVerdict::kInvalid;
+    i += 2;
+    node = -1;
+    goto value;
+  }
   std::string_view key;
   if (!StringAt(p + idx[i], token_end(i), true, &key)) return LineVerdict::kInvalid;
   if (at(i + 1) != ':') return LineVerdict::kInvalid;
   i += 2;
-  node = Member(stack[depth - 1].node, key);
+  node = Member(top_node, key);
   goto value;
 }
 array_begin:
@@ -236,28 +246,43 @@ array_begin:
     goto scope_end;
   }
 array_value:
-  node = Element(stack[depth - 1].node, stack[depth - 1].index);
+  node = Element(top_node, stack[depth - 1].index);
 value : {
   const int slot = node >= 0 ? node_data[node].slot : -1;
   const char c = at(i);
+  // Strings first, outside the switch: the commonest value, and on most
+  // lines (no pointer reads it, no backslash) two tests decide it.
+  if (c == '"') {
+    // A string no pointer reads and without backslashes has nothing to
+    // check (stage 1 checked its UTF-8 and control bytes).
+    if (slot >= 0 || BackslashBefore(p + idx[i], token_end(i))) {
+      std::string_view s;
+      if (!StringAt(p + idx[i], token_end(i), slot >= 0, &s)) return LineVerdict::kInvalid;
+      if (slot >= 0) {
+        // The slot is still missing (each slot is filled at most once a
+        // line, after the reset the contract requires), so a string
+        // differs from it in its kind and text alone.
+        slots[slot].kind = ValueKind::kString;
+        slots[slot].str = s;
+      }
+    }
+    ++i;
+    goto after_value;
+  }
   switch (c) {
     case '{':
     case '[':
       if (depth >= kMaxDepth) return LineVerdict::kTooDeep;
       if (slot >= 0) slots[slot] = Value::Other();
       stack[depth++] = Frame{c, node, 0};
+      top_node = node;
       ++i;
-      if (c == '{') goto object_begin;
+      if (c == '{') {
+        in_object = true;
+        goto object_begin;
+      }
+      in_object = false;
       goto array_begin;
-    case '"': {
-      // A string no pointer reads in a line without backslashes has
-      // nothing to check (stage 1 checked its UTF-8 and control bytes).
-      if (slot < 0 && !backslash) break;
-      std::string_view s;
-      if (!StringAt(p + idx[i], token_end(i), slot >= 0, &s)) return LineVerdict::kInvalid;
-      if (slot >= 0) slots[slot] = Value::String(s);
-      break;
-    }
     case 't':
     case 'f':
     case 'n':
@@ -301,7 +326,7 @@ value : {
   ++i;
 }
 after_value:
-  if (stack[depth - 1].bracket == '{') {
+  if (in_object) {
     if (at(i) == ',') {
       ++i;
       goto object_key;
@@ -317,7 +342,11 @@ after_value:
   }
   ++i;
 scope_end:
-  if (--depth > 0) goto after_value;
+  if (--depth > 0) {
+    in_object = stack[depth - 1].bracket == '{';
+    top_node = stack[depth - 1].node;
+    goto after_value;
+  }
   return i == n ? LineVerdict::kRecord : LineVerdict::kInvalid;  // nothing after the root object
 }
 
@@ -335,7 +364,8 @@ LineVerdict NdjsonLineParser::Parse(const char* p, size_t len, size_t capacity, 
   const simdjson::error_code err =
       im.stage1->stage1(reinterpret_cast<const uint8_t*>(p), len, simdjson::stage1_mode::regular);
   if (err != simdjson::SUCCESS) return VerdictOf(err);
-  im.line_has_backslash = std::memchr(p, '\\', len) != nullptr;
+  im.bs_next = p;  // not looked for yet (BackslashBefore looks past it)
+  im.bs_limit = p + len;
   const uint32_t* idx = im.stage1->structural_indexes.get();
   const size_t n = im.stage1->n_structural_indexes;
   // Stage 1 ends its indexes with len; the reader's lines end at a line
@@ -371,18 +401,25 @@ LineVerdict NdjsonLineParser::ParseGrouped(const char* p, size_t len, std::vecto
     const void* b = std::memchr(p, '\\', static_cast<size_t>(im.group_end - p));
     im.next_backslash = b != nullptr ? static_cast<const char*>(b) : im.group_end;
   }
-  im.line_has_backslash = im.next_backslash < p + len;
+  im.bs_next = im.next_backslash;
+  im.bs_limit = im.group_end;
   uint32_t* const idx = im.stage1->structural_indexes.get();
   const size_t total = im.stage1->n_structural_indexes;  // idx[total] is the group's length
   const auto begin = static_cast<uint32_t>(p - im.group);
   const auto end = static_cast<uint32_t>(begin + len);
   size_t first = im.group_next;
   while (first < total && idx[first] < begin) ++first;  // an earlier line skipped as blank
-  // The first index past the line, by binary search: within the next 64
-  // indexes for most lines (a few dozen structurals each), else the rest.
-  const size_t near = std::min(total, first + 64);
-  uint32_t* const stop = near > first && idx[near - 1] >= end ? idx + near : idx + total;
-  const size_t last = static_cast<size_t>(std::lower_bound(idx + first, stop, end) - idx);
+  // The first index past the line. Lines of one file tend to have the same
+  // shape, so first try the previous line's count of indexes; else a
+  // binary search within the next 64 indexes for most lines (a few dozen
+  // structurals each), else the rest.
+  size_t last = first + im.last_line_indexes;
+  if (!(last <= total && (last == first || idx[last - 1] < end) && (last == total || idx[last] >= end))) {
+    const size_t near = std::min(total, first + 64);
+    uint32_t* const stop = near > first && idx[near - 1] >= end ? idx + near : idx + total;
+    last = static_cast<size_t>(std::lower_bound(idx + first, stop, end) - idx);
+    im.last_line_indexes = last - first;
+  }
   im.group_next = last;
   // The line's indexes, relative to the group, ended as stage 1 ends a
   // line's own (its length at index n, p[len] a space): the next line's
@@ -391,6 +428,7 @@ LineVerdict NdjsonLineParser::ParseGrouped(const char* p, size_t len, std::vecto
   idx[last] = end;
   const LineVerdict v = im.Walk<true>(im.group, idx + first, last - first, end, slots);
   idx[last] = lent;
+  im.next_backslash = im.bs_next;  // the walk may have searched further
   return v;
 }
 

@@ -47,6 +47,14 @@ class RecordSink {
   // slots has fields.size() entries. Return false to stop reading early.
   virtual bool OnRecord(Value* slots) = 0;
 
+  // Where a reader may build the next record's fields.size() slots, or
+  // null (the default): then it builds them in its own. A reader that uses
+  // the buffer resets every slot in it first, and passes it to the next
+  // OnRecord, or, for a line that is no record, asks again (the same
+  // buffer comes back). Saves the sink a copy of every slot; the strings
+  // still live only during OnRecord. Valid until the next OnRecord.
+  virtual Value* RecordBuffer() { return nullptr; }
+
   // The 1-based line on which the record now handed to OnRecord starts: the
   // readers set it just before each call (a lookup table's errors name
   // lines). A sink that wraps another does not pass it on.

@@ -46,7 +46,10 @@ BatchAggregator::BatchAggregator(const Plan& plan, RecordBatch* batch, const std
 }
 
 bool BatchAggregator::OnRecord(Value* slots) {
-  batch_.Add(slots);
+  if (slots == batch_.NextRow())
+    batch_.Commit();  // built in place (RecordBuffer)
+  else
+    batch_.Add(slots);
   return !batch_.full() || Drain();
 }
 

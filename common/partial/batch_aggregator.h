@@ -78,6 +78,8 @@ class BatchAggregator final : public RecordSink {
   // Records wait in a batch and are aggregated a batch at a time, so the
   // aggregation is timed with two clock reads per batch, not per record.
   bool OnRecord(Value* slots) override;
+  // The batch's next row: a reader builds the record there, no copy.
+  Value* RecordBuffer() override { return batch_.NextRow(); }
   // Set when an overflow file could not be made (the shard fails).
   const Status& spill_error() const { return spill_error_; }
 

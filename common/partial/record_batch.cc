@@ -16,6 +16,16 @@ void RecordBatch::Add(const Value* slots) {
   }
 }
 
+void RecordBatch::Commit() {
+  Value* row = record(size_++);
+  for (size_t i = 0; i < width_; ++i) {
+    if (row[i].kind == ValueKind::kString) {
+      row[i].str = strings_.Copy(row[i].str);
+      string_bytes_ += row[i].str.size();
+    }
+  }
+}
+
 void RecordBatch::Clear() {
   size_ = 0;
   string_bytes_ = 0;

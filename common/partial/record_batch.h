@@ -30,6 +30,14 @@ class RecordBatch {
   // REQUIRES: !full().
   void Add(const Value* slots);
 
+  // The row the next record takes, for a reader to build the record in
+  // place (RecordSink::RecordBuffer); then Commit adds it.
+  // REQUIRES: !full().
+  Value* NextRow() { return record(size_); }
+  // Adds the record built in NextRow(), copying the bytes of its strings
+  // (Add without the copy of the slots). REQUIRES: !full().
+  void Commit();
+
   size_t size() const { return size_; }
   bool full() const { return size_ == kCapacity || string_bytes_ >= kStringBudget; }
   // The i-th record's width slots, valid (and writable) until Clear().
