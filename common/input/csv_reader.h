@@ -58,10 +58,12 @@ class CsvReader final : public RecordReader {
   // Cuts one record starting at p. Returns kNeedMore iff it may continue
   // past end and the source has more (eof false).
   CutKind CutRecord(const char* p, const char* end, bool eof, bool header, Cut* out);
-  // The common record: not blank, no quote anywhere in it, and its line
-  // break before end. Cuts it as CutRecord would, writes each read cell to
-  // its slot in slots_ (every read slot, Missing for an empty cell) and
-  // returns true; false (slots_ in any state) for any other record.
+  // The common record: not blank, well formed, its line break before end
+  // and none inside quotes, each quote opening a field, closing it or
+  // doubled inside it, no "" escape in a read cell. Cuts it as CutRecord
+  // would, writes each read cell to its slot in slots_ (every read slot,
+  // Missing for an empty cell; a view into the chunk) and returns true;
+  // false (slots_ in any state) for any other record.
   // REQUIRES: the header is bound.
   bool CutPlainRecord(const char* p, const char* end, Cut* out);
   void KeepField(bool header, uint32_t field, const char* ptr, size_t scratch_offset, size_t len, bool in_scratch);
