@@ -372,6 +372,14 @@ Status CsvReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
     }
     const char* p = chunk_.data();
     const char* end = p + chunk_.size();
+    // The cells of this chunk's records stay valid until the chunk moves:
+    // lent to the sink until then.
+    sink.LendStrings();
+    auto end_loan = [&] {
+      const bool go_on = sink.EndLoan();
+      unescaped_.Reset();
+      return go_on;
+    };
     while (p < end) {
       Cut cut;
       // The common record writes its cells to slots_ as it is cut; any
@@ -385,10 +393,14 @@ Status CsvReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
       if (kind == CutKind::kBlank) continue;
       if (!have_header) {
         if (cut.bad != nullptr) {
+          end_loan();
           return Status::Corrupt(std::string("malformed ") + format_ + " header on line " +
                                  std::to_string(record_line) + ": " + cut.bad);
         }
-        FF_RETURN_IF_ERROR(BindHeader());
+        if (Status bound = BindHeader(); !bound.ok()) {
+          end_loan();
+          return bound;
+        }
         have_header = true;
         continue;
       }
@@ -406,15 +418,19 @@ Status CsvReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
         std::fill(slots_.begin(), slots_.end(), Value::Missing());
         for (const Cell& cell : cells_) {
           if (cell.len == 0) continue;  // an empty cell is Missing
-          const char* ptr = cell.in_scratch ? scratch_.data() + cell.scratch_offset : cell.ptr;
-          slots_[cell.slot] = Value::String(std::string_view(ptr, cell.len));
+          slots_[cell.slot] = Value::String(
+              cell.in_scratch ? unescaped_.Copy(std::string_view(scratch_.data() + cell.scratch_offset, cell.len))
+                              : std::string_view(cell.ptr, cell.len));
         }
       }
       ++st.records;
       sink.set_record_line(record_line);
-      if (!sink.OnRecord(slots_.data())) return Status::Ok();
+      if (!sink.OnRecord(slots_.data())) {
+        end_loan();
+        return Status::Ok();
+      }
     }
-    if (last) return Status::Ok();
+    if (!end_loan() || last) return Status::Ok();
     chunk_.Consume(static_cast<size_t>(p - chunk_.data()));
   }
 }

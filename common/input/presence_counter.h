@@ -27,6 +27,8 @@ class PresenceCounter final : public RecordSink {
     for (size_t i = 0; i < raw_slots_.size(); ++i) counts_[i] += slots[raw_slots_[i]].is_missing() ? 0 : 1;
     return next_->OnRecord(slots);
   }
+  void LendStrings() override { next_->LendStrings(); }
+  bool EndLoan() override { return next_->EndLoan(); }
 
   // Per raw field, in FieldTable order (derived fields skipped): the records
   // passed on in which it had a value.

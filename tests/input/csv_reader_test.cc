@@ -139,6 +139,81 @@ TEST_CASE("malformed records and their lines") {
   CHECK(limited.status.message() == "line 2: a record is longer than the limit of 20000 bytes");
 }
 
+// The loan of record_reader.h: every record comes inside a loan, the
+// strings it lent are unchanged until the loan ends (checked there, after
+// the reader has gone on cutting records), every loan ends before Read
+// returns, and an EndLoan returning false stops the reader. Inputs with
+// escapes in read cells, a line break inside quotes and CRLF, at chunk
+// sizes that make the reader refill (move its data) often.
+TEST_CASE("strings lent until the loan ends") {
+  const std::string input =
+      "a,b,c\r\n"
+      "1,\"x\"\"y\",3\r\n"
+      "plain,cell,here\n"
+      "\"multi\nline\",\"q\",\"\"\"\"\"\"\n"
+      "\n"
+      "bad,row\n"
+      "4,5,6\n"
+      "\"7\",\"8,9\",10";
+  FieldTable f = Fields({"c", "a", "b"});
+  class Borrower : public RecordSink {
+   public:
+    explicit Borrower(size_t stop_at_loan) : stop_at_loan_(stop_at_loan) {}
+    void LendStrings() override {
+      CHECK(!in_loan);
+      in_loan = true;
+    }
+    bool OnRecord(Value* slots) override {
+      CHECK(in_loan);
+      for (int i = 0; i < 3; ++i) {
+        lent_.push_back(slots[i].str);
+        copies_.emplace_back(slots[i].str);
+      }
+      std::string row;
+      for (int i = 0; i < 3; ++i) row += (i ? "|" : "") + Show(slots[i]);
+      rows.push_back(row);
+      return true;
+    }
+    bool EndLoan() override {
+      CHECK(in_loan);
+      in_loan = false;
+      for (size_t i = 0; i < lent_.size(); ++i) CHECK(std::string(lent_[i]) == copies_[i]);
+      lent_.clear();
+      copies_.clear();
+      return ++loans != stop_at_loan_;
+    }
+    bool in_loan = false;
+    size_t loans = 0;
+    std::vector<std::string> rows;
+
+   private:
+    size_t stop_at_loan_;
+    std::vector<std::string_view> lent_;
+    std::vector<std::string> copies_;
+  };
+  const std::vector<std::string> expected = {"'3'|'1'|'x\"y'", "'here'|'plain'|'cell'", "'\"\"'|'multi\nline'|'q'",
+                                             "'6'|'4'|'5'", "'10'|'7'|'8,9'"};
+  for (size_t chunk : {size_t{1}, size_t{7}, size_t{64}, kDefaultChunkBytes}) {
+    CAPTURE(chunk);
+    CsvReader reader(f, ',', ChunkOptions{chunk});
+    auto src = MemorySource(input);
+    Borrower sink(0);
+    ReadStats st;
+    REQUIRE(reader.Read(*src, sink, &st).ok());
+    CHECK(!sink.in_loan);
+    CHECK(sink.rows == expected);
+    CHECK(st.malformed == 1);
+  }
+  // A sink that stops at its first EndLoan gets the records of one chunk only.
+  CsvReader reader(f, ',', ChunkOptions{64});
+  auto src = MemorySource(input);
+  Borrower sink(1);
+  REQUIRE(reader.Read(*src, sink, nullptr).ok());
+  CHECK(sink.loans == 1);
+  CHECK(!sink.in_loan);
+  CHECK(sink.rows.size() < expected.size());
+}
+
 // A field that is not a header column is an error listing the header.
 TEST_CASE("missing header column") {
   Outcome o = Run(Fields({"a", "nope"}), "a,b,c\n1,2,3\n");
