@@ -224,10 +224,32 @@ bool CsvReader::CutPlainRecord(const char* p, const char* end, Cut* out) {
   const uint32_t last_column = static_cast<uint32_t>(field_slot_.size() - 1);
   uint32_t field = 0;
   const char* start = p;  // of the current field
-  auto keep = [&](const char* from, size_t len) {
-    if (field < 64 && (read_columns_ >> field & 1) == 0) return;  // a column no field reads
+  // A quoted field: its opening quote is the field's first byte; inside it
+  // separators are data and "" is one quote; after the closing quote comes a
+  // separator or the line end. Anything else here (a line break inside the
+  // quotes, a stray quote in an unquoted field, text after the closing
+  // quote, a read cell with "" escapes) is left to the general cut.
+  bool in_quotes = false;
+  bool quoted = false;         // the current field began with a quote
+  bool escaped = false;        // ... and holds a "" escape
+  const char* closed = nullptr;  // its closing quote
+  const char* skip = p;        // bytes before skip are no event (an escape's second quote)
+  // Ends the current field at `at` (a separator or the line break): writes
+  // its cell if its column is read. False iff the general cut must do it.
+  auto end_field = [&](const char* at) {
+    if (field < 64 && (read_columns_ >> field & 1) == 0) return true;  // a column no field reads
+    const char* from = start;
+    size_t len = static_cast<size_t>(at - start);
+    if (quoted) {
+      if (escaped) return false;  // the general cut undoes the escapes
+      from = start + 1;
+      len = static_cast<size_t>(closed - from);
+    } else if (*at == '\n' && len > 0 && start[len - 1] == '\r') {
+      --len;  // CRLF line end
+    }
     Value& v = slots[slot_of[std::min(field, last_column)]];
     v = len > 0 ? Value::String(std::string_view(from, len)) : Value::Missing();  // an empty cell is Missing
+    return true;
   };
   for (const char* b = p; b < end; b += 16) {
     ByteMasks m = MasksAt(b, sep_);
@@ -237,22 +259,59 @@ bool CsvReader::CutPlainRecord(const char* p, const char* end, Cut* out) {
       m.newline &= inside;
       m.quote &= inside;
     }
-    // The bytes of this record in the block: before its line break, if any.
-    const uint32_t record = m.newline != 0 ? (m.newline & (0 - m.newline)) - 1 : 0xFFFFu;
-    if ((m.quote & record) != 0) return false;  // quoted fields: the general cut
-    for (uint32_t s = m.sep & record; s != 0; s &= s - 1) {
-      const char* at = b + std::countr_zero(s);
-      keep(start, static_cast<size_t>(at - start));
+    if (m.quote == 0 && !in_quotes) {
+      // The common block: fields end at separators, the record at the
+      // first line break.
+      const uint32_t record = m.newline != 0 ? (m.newline & (0 - m.newline)) - 1 : 0xFFFFu;
+      for (uint32_t s = m.sep & record; s != 0; s &= s - 1) {
+        const char* at = b + std::countr_zero(s);
+        if (!end_field(at)) return false;
+        ++field;
+        start = at + 1;
+        quoted = false;
+      }
+      if (m.newline != 0) {
+        const char* nl = b + std::countr_zero(m.newline);
+        if (!end_field(nl)) return false;
+        *out = Cut{nl + 1, 1, field + 1, nullptr};
+        return true;
+      }
+      continue;
+    }
+    // A block with quotes, or inside a quoted field: every event in order.
+    for (uint32_t e = m.sep | m.newline | m.quote; e != 0; e &= e - 1) {
+      const char* at = b + std::countr_zero(e);
+      if (at < skip) continue;
+      const char c = *at;
+      if (in_quotes) {
+        if (c == '\n') return false;  // a line break inside quotes
+        if (c != '"') continue;        // a separator inside quotes is data
+        if (at + 2 >= end) return false;  // what follows is not in the chunk yet
+        if (at[1] == '"') {  // "" is one quote
+          escaped = true;
+          skip = at + 2;
+          continue;
+        }
+        in_quotes = false;
+        closed = at;
+        // Only a separator or a line end may follow the closing quote.
+        if (at[1] != sep_ && at[1] != '\n' && !(at[1] == '\r' && at[2] == '\n')) return false;
+        continue;
+      }
+      if (c == '"') {
+        if (at != start || quoted) return false;  // a stray quote, or text after a closing quote
+        in_quotes = quoted = true;
+        escaped = false;
+        continue;
+      }
+      if (!end_field(at)) return false;
+      if (c == '\n') {
+        *out = Cut{at + 1, 1, field + 1, nullptr};
+        return true;
+      }
       ++field;
       start = at + 1;
-    }
-    if (m.newline != 0) {
-      const char* nl = b + std::countr_zero(m.newline);
-      size_t len = static_cast<size_t>(nl - start);
-      if (len > 0 && start[len - 1] == '\r') --len;  // CRLF line end
-      keep(start, len);
-      *out = Cut{nl + 1, 1, field + 1, nullptr};
-      return true;
+      quoted = false;
     }
   }
   return false;  // no line break before end: the general cut decides
@@ -313,9 +372,17 @@ Status CsvReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
     }
     const char* p = chunk_.data();
     const char* end = p + chunk_.size();
+    // The cells of this chunk's records stay valid until the chunk moves:
+    // lent to the sink until then.
+    sink.LendStrings();
+    auto end_loan = [&] {
+      const bool go_on = sink.EndLoan();
+      unescaped_.Reset();
+      return go_on;
+    };
     while (p < end) {
       Cut cut;
-      // A quote-free record writes its cells to slots_ as it is cut; any
+      // The common record writes its cells to slots_ as it is cut; any
       // other goes through CutRecord and cells_.
       const bool plain = have_header && *p != '\n' && *p != '\r' && CutPlainRecord(p, end, &cut);
       const CutKind kind = plain ? CutKind::kRecord : CutRecord(p, end, last, !have_header, &cut);
@@ -326,10 +393,14 @@ Status CsvReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
       if (kind == CutKind::kBlank) continue;
       if (!have_header) {
         if (cut.bad != nullptr) {
+          end_loan();
           return Status::Corrupt(std::string("malformed ") + format_ + " header on line " +
                                  std::to_string(record_line) + ": " + cut.bad);
         }
-        FF_RETURN_IF_ERROR(BindHeader());
+        if (Status bound = BindHeader(); !bound.ok()) {
+          end_loan();
+          return bound;
+        }
         have_header = true;
         continue;
       }
@@ -347,15 +418,19 @@ Status CsvReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
         std::fill(slots_.begin(), slots_.end(), Value::Missing());
         for (const Cell& cell : cells_) {
           if (cell.len == 0) continue;  // an empty cell is Missing
-          const char* ptr = cell.in_scratch ? scratch_.data() + cell.scratch_offset : cell.ptr;
-          slots_[cell.slot] = Value::String(std::string_view(ptr, cell.len));
+          slots_[cell.slot] = Value::String(
+              cell.in_scratch ? unescaped_.Copy(std::string_view(scratch_.data() + cell.scratch_offset, cell.len))
+                              : std::string_view(cell.ptr, cell.len));
         }
       }
       ++st.records;
       sink.set_record_line(record_line);
-      if (!sink.OnRecord(slots_.data())) return Status::Ok();
+      if (!sink.OnRecord(slots_.data())) {
+        end_loan();
+        return Status::Ok();
+      }
     }
-    if (last) return Status::Ok();
+    if (!end_loan() || last) return Status::Ok();
     chunk_.Consume(static_cast<size_t>(p - chunk_.data()));
   }
 }

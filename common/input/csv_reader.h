@@ -1,6 +1,8 @@
 // CsvReader: reads CSV (RFC 4180) or TSV from a ByteSource: the first record
 // is the header and names the columns; each later record fills the raw slots
-// of a FieldTable (raw fields are column names) and goes to a RecordSink.
+// of a FieldTable (raw fields are column names) and goes to a RecordSink,
+// which may keep the cells' strings until the end of each chunk (a loan,
+// record_reader.h).
 // Quoted fields may hold separators, "" escapes and line breaks; an empty
 // cell is Missing. Owns its buffers; one reader per thread; reusable.
 #pragma once
@@ -15,6 +17,7 @@
 #include "common/input/chunk_buffer.h"
 #include "common/input/field_table.h"
 #include "common/input/record_reader.h"
+#include "common/base/scratch_arena.h"
 #include "common/base/status.h"
 #include "common/base/value.h"
 
@@ -58,10 +61,12 @@ class CsvReader final : public RecordReader {
   // Cuts one record starting at p. Returns kNeedMore iff it may continue
   // past end and the source has more (eof false).
   CutKind CutRecord(const char* p, const char* end, bool eof, bool header, Cut* out);
-  // The common record: not blank, no quote anywhere in it, and its line
-  // break before end. Cuts it as CutRecord would, writes each read cell to
-  // its slot in slots_ (every read slot, Missing for an empty cell) and
-  // returns true; false (slots_ in any state) for any other record.
+  // The common record: not blank, well formed, its line break before end
+  // and none inside quotes, each quote opening a field, closing it or
+  // doubled inside it, no "" escape in a read cell. Cuts it as CutRecord
+  // would, writes each read cell to its slot in slots_ (every read slot,
+  // Missing for an empty cell; a view into the chunk) and returns true;
+  // false (slots_ in any state) for any other record.
   // REQUIRES: the header is bound.
   bool CutPlainRecord(const char* p, const char* end, Cut* out);
   void KeepField(bool header, uint32_t field, const char* ptr, size_t scratch_offset, size_t len, bool in_scratch);
@@ -79,6 +84,9 @@ class CsvReader final : public RecordReader {
   std::vector<Value> slots_;      // the FieldTable's slots, then a spare one
   std::vector<Cell> cells_;
   std::string scratch_;
+  // Read cells with "" escapes undone, lent to the sink until the loan
+  // ends (record_reader.h); other cells are views into the chunk.
+  ScratchArena unescaped_;
 };
 
 }  // namespace fanfold

@@ -28,6 +28,8 @@ class PresenceCounter final : public RecordSink {
     return next_->OnRecord(slots);
   }
   Value* RecordBuffer() override { return next_->RecordBuffer(); }
+  void LendStrings() override { next_->LendStrings(); }
+  bool EndLoan() override { return next_->EndLoan(); }
 
   // Per raw field, in FieldTable order (derived fields skipped): the records
   // passed on in which it had a value.

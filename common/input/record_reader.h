@@ -61,6 +61,18 @@ class RecordSink {
   uint64_t record_line() const { return record_line_; }
   void set_record_line(uint64_t line) { record_line_ = line; }
 
+  // Strings lent past the sink call. A reader may open a loan with
+  // LendStrings(): every string it hands over until it ends the loan with
+  // EndLoan() stays valid until that EndLoan call. It ends the loan before
+  // those strings go (its buffer refilled or reused) and before its Read
+  // returns, unless a sink call returned false. A sink that keeps records
+  // may keep views instead of copies during a loan and must be done with
+  // them when EndLoan returns; EndLoan returning false stops the reader as
+  // OnRecord's false does. A sink that wraps another passes both on.
+  // Outside a loan a string lives only during its OnRecord call.
+  virtual void LendStrings() {}
+  virtual bool EndLoan() { return true; }
+
  private:
   uint64_t record_line_ = 0;
 };

@@ -80,6 +80,14 @@ class BatchAggregator final : public RecordSink {
   bool OnRecord(Value* slots) override;
   // The batch's next row: a reader builds the record there, no copy.
   Value* RecordBuffer() override { return batch_.NextRow(); }
+  // During a reader's loan (common/input/record_reader.h) the batch keeps
+  // views of the strings; the records are aggregated before the loan ends.
+  void LendStrings() override { batch_.set_copy_strings(false); }
+  bool EndLoan() override {
+    const bool go_on = batch_.size() == 0 || Drain();
+    batch_.set_copy_strings(true);
+    return go_on;
+  }
   // Set when an overflow file could not be made (the shard fails).
   const Status& spill_error() const { return spill_error_; }
 

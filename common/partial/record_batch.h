@@ -1,5 +1,6 @@
 // RecordBatch: records copied out of the reader (strings included, since a
-// reader's strings live only during its sink call), so the shard processor
+// reader's strings live only during its sink call, unless it lends them:
+// common/input/record_reader.h), so the shard processor
 // aggregates and times them a batch at a time: two clock reads per batch, not
 // per record. Owns its memory, reused between batches; not thread-safe.
 #pragma once
@@ -26,9 +27,13 @@ class RecordBatch {
   // that reads no field has none: its records are counted, not read).
   explicit RecordBatch(size_t width);
 
-  // Copies the record's width slots, and the bytes of its strings.
+  // Copies the record's width slots, and the bytes of its strings unless
+  // set_copy_strings(false) said they outlive the batch's records.
   // REQUIRES: !full().
   void Add(const Value* slots);
+  // Whether Add copies strings (initially true). Set false only while the
+  // strings handed to Add stay valid until the batch is cleared.
+  void set_copy_strings(bool copy) { copy_strings_ = copy; }
 
   // The row the next record takes, for a reader to build the record in
   // place (RecordSink::RecordBuffer); then Commit adds it.
@@ -53,6 +58,7 @@ class RecordBatch {
   std::vector<Value> rows_;  // kCapacity rows of width_ slots
   ScratchArena strings_;     // the records' string bytes
   size_t string_bytes_ = 0;  // their total
+  bool copy_strings_ = true;
 };
 
 }  // namespace fanfold
