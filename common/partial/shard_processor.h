@@ -25,9 +25,12 @@
 
 namespace fanfold {
 
+class BatchAggregator;
+
 class ShardProcessor {
  public:
   explicit ShardProcessor(const Plan* plan);
+  ~ShardProcessor();
 
   // Processes task and writes its encoded partial state to *partial, whose
   // header holds the time spent reading, parsing, aggregating and encoding,
@@ -60,6 +63,7 @@ class ShardProcessor {
   std::unique_ptr<DecodeAhead> ahead_;    // made on the first large shard
   std::unique_ptr<RecordReader> reader_;  // made on first use, kept across shards
   RecordBatch batch_;                      // records waiting to be aggregated
+  std::unique_ptr<BatchAggregator> agg_;   // made on the first shard, restarted for each
 };
 
 }  // namespace fanfold
