@@ -11,13 +11,9 @@ namespace fanfold {
 BatchAggregator::BatchAggregator(const Plan& plan, RecordBatch* batch, const std::function<void(uint64_t)>& hook,
                                  bool every, uint64_t table_bytes)
     : plan_(plan), hook_(hook), hook_mask_(every ? 0 : 4095), batch_(*batch) {
-  const size_t share = plan.reductions.empty() ? 0 : table_bytes / plan.reductions.size();
-  budget_ = table_bytes == 0 ? 0 : std::max<size_t>(share, 1);
   for (size_t r = 0; r < plan.reductions.size(); ++r) {
     ReductionFeed f;
     f.plan = &plan.reductions[r];
-    f.table = std::make_unique<WorkerGroupTable>(&f.plan->configs);
-    f.table->set_budget(budget_);
     for (const Expr& g : f.plan->group) f.group_direct.push_back(g.DirectSlot());
     const size_t cap = RecordBatch::kCapacity;
     f.sel.reserve(cap);
@@ -40,9 +36,38 @@ BatchAggregator::BatchAggregator(const Plan& plan, RecordBatch* batch, const std
     }
     feeds_.push_back(std::move(f));
   }
-  unmatched_.assign(plan.lookups.size(), 0);
   sel_.reserve(RecordBatch::kCapacity);
   truth_ = std::make_unique<Value[]>(RecordBatch::kCapacity);
+  Restart(table_bytes, every);
+}
+
+void BatchAggregator::Restart(uint64_t table_bytes, bool every) {
+  hook_mask_ = every ? 0 : 4095;
+  const size_t share = plan_.reductions.empty() ? 0 : table_bytes / plan_.reductions.size();
+  budget_ = table_bytes == 0 ? 0 : std::max<size_t>(share, 1);
+  for (ReductionFeed& f : feeds_) {
+    f.overflow.reset();
+    f.table = std::make_unique<WorkerGroupTable>(&f.plan->configs);
+    f.table->set_budget(budget_);
+    f.kept = 0;
+    f.fed.n = 0;
+    f.only_fed.n = 0;
+  }
+  unmatched_.assign(plan_.lookups.size(), 0);
+  sel_.clear();
+  arena_.Reset();
+  seen_ = 0;
+  kept_ = 0;
+  over_limit_ = {-1, -1};
+  aggregate_ns_ = 0;
+  spill_error_ = Status::Ok();
+}
+
+void BatchAggregator::ReleaseTables() {
+  for (ReductionFeed& f : feeds_) {
+    f.overflow.reset();
+    f.table.reset();
+  }
 }
 
 bool BatchAggregator::OnRecord(Value* slots) {

@@ -6,7 +6,9 @@
 // (common/partial/table_overflow.h). The Plan, the RecordBatch and the hook
 // are the caller's and must remain live while this is; the tables and
 // overflows are owned here until the caller encodes them. Not thread-safe;
-// one per shard being processed (ShardProcessor makes one per Process).
+// one shard at a time: ShardProcessor keeps one across shards (Restart, then
+// ReleaseTables once the shard's partial is encoded), so the batch buffers
+// (thousands of Values) are made once per worker, not once per tiny shard.
 #pragma once
 
 #include <array>
@@ -74,6 +76,14 @@ class BatchAggregator final : public RecordSink {
   // of table_bytes (0 = no limit).
   BatchAggregator(const Plan& plan, RecordBatch* batch, const std::function<void(uint64_t)>& hook, bool every,
                   uint64_t table_bytes);
+
+  // Starts the next shard as a new aggregator would: empty tables (each with
+  // an equal share of table_bytes), no overflow, every count zero; keeps the
+  // batch buffers. REQUIRES: the batch is empty.
+  void Restart(uint64_t table_bytes, bool every);
+  // Drops the tables and overflows (their memory and spill files) once the
+  // shard's partial is encoded; Restart makes new ones.
+  void ReleaseTables();
 
   // Records wait in a batch and are aggregated a batch at a time, so the
   // aggregation is timed with two clock reads per batch, not per record.

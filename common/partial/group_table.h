@@ -85,6 +85,9 @@ class GroupTable {
   // order, with the groups' framing read a few groups ahead of the merge
   // so that their lookups and states' memory are loaded in the meantime.
   Status MergeWalk(ByteReader& r, uint64_t n, uint64_t first);
+  // The first position at or after `from` in order_ whose key is not below
+  // `key`. REQUIRES: every key before `from` is below `key`.
+  size_t NextNotBelow(std::string_view key, size_t from) const;
 
   const std::vector<MeasureConfig>* configs_;
   KeyArena key_bytes_;  // every key's bytes, once; keys_ and index_ view them

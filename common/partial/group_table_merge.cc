@@ -14,6 +14,7 @@
 // as the plain walk would have). Groups read ahead are added to the table
 // before the merge reaches them; on failure the table is partly merged
 // either way (see MergeEncoded's contract).
+#include <algorithm>
 #include <array>
 #include <cstdint>
 
@@ -56,6 +57,21 @@ class OrderInserts {
 
 }  // namespace
 
+size_t GroupTable::NextNotBelow(std::string_view key, size_t from) const {
+  const size_t n = order_.size();
+  const auto below = [&](uint32_t id) { return keys_[id] < key; };
+  size_t lo = from;  // every position before lo holds a key below `key`
+  size_t probe = from;
+  for (size_t step = 1; probe < n && below(order_[probe]); step <<= 1) {
+    lo = probe + 1;
+    probe = lo + step - 1;
+  }
+  // The answer is in [lo, min(probe, n)]: probe, if inside, is not below.
+  const auto first = order_.begin() + static_cast<std::ptrdiff_t>(lo);
+  const auto last = order_.begin() + static_cast<std::ptrdiff_t>(std::min(probe, n));
+  return static_cast<size_t>(std::partition_point(first, last, below) - order_.begin());
+}
+
 Status GroupTable::MergeWalk(ByteReader& r, uint64_t n, uint64_t first) {
   const size_t m = measure_count();
   if (scratch_.empty())
@@ -87,7 +103,11 @@ Status GroupTable::MergeWalk(ByteReader& r, uint64_t n, uint64_t first) {
     }
     previous = key;
     // Keys ascend, so the table's keys below this one were passed already.
-    while (at < order_.size() && keys_[order_[at]] < key) ++at;
+    // The rest are galloped over (probes 1, 2, 4, ... ahead, then a binary
+    // search between the last two): a partial of a few groups folded into a
+    // table of thousands costs a few compares per group, not a walk of the
+    // whole table; one that matches the table key for key still costs one.
+    at = NextNotBelow(key, at);
     uint32_t id;
     if (at < order_.size() && keys_[order_[at]] == key) {
       id = order_[at];

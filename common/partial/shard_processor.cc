@@ -62,6 +62,8 @@ ShardProcessor::ShardProcessor(const Plan* plan) : plan_(plan), batch_(plan->fie
   for (const ReductionPlan& r : plan->reductions) configs_.push_back(&r.configs);
 }
 
+ShardProcessor::~ShardProcessor() = default;
+
 Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
   // The four phases partition the time from here to the encoded partial:
   // reading = finding and opening the file plus every read of the source
@@ -89,7 +91,15 @@ Status ShardProcessor::Process(const ShardTask& task, std::string* partial) {
   const uint64_t table_bytes = table_bytes_override != 0 ? table_bytes_override
                                : task.table_bytes != 0   ? task.table_bytes
                                                          : kDefaultTableBytes;
-  BatchAggregator agg(*plan_, &batch_, on_record, on_every_record, table_bytes);
+  if (!agg_) agg_ = std::make_unique<BatchAggregator>(*plan_, &batch_, on_record, on_every_record, table_bytes);
+  else agg_->Restart(table_bytes, on_every_record);
+  BatchAggregator& agg = *agg_;
+  // The tables (and any overflow's files) go when this shard is done, as
+  // they would with an aggregator of its own.
+  struct ReleaseAtEnd {
+    BatchAggregator* agg;
+    ~ReleaseAtEnd() { agg->ReleaseTables(); }
+  } release_at_end{agg_.get()};
   last_groups_.resize(plan_->reductions.size(), 0);
   for (size_t r = 0; r < last_groups_.size(); ++r) agg.ReserveGroups(r, last_groups_[r]);
   PresenceCounter present(plan_->fields, &agg);  // counts each raw field's values

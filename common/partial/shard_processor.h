@@ -25,9 +25,12 @@
 
 namespace fanfold {
 
+class BatchAggregator;
+
 class ShardProcessor {
  public:
   explicit ShardProcessor(const Plan* plan);
+  ~ShardProcessor();
 
   // Processes task and writes its encoded partial state to *partial, whose
   // header holds the time spent reading, parsing, aggregating and encoding,
@@ -63,6 +66,7 @@ class ShardProcessor {
   // Per reduction, the groups of the last shard's table: the next shard's
   // table is presized to it (shards of one job tend to be alike).
   std::vector<size_t> last_groups_;
+  std::unique_ptr<BatchAggregator> agg_;   // made on the first shard, restarted for each
 };
 
 }  // namespace fanfold

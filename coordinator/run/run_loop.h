@@ -45,7 +45,7 @@ struct RunLoopOptions {
   // transport's room(). Past the first, a worker only takes more while the
   // bytes it holds stay within queue_bytes, so big shards are still handed
   // out one at a time, largest first, to whichever worker is free.
-  uint32_t queue_depth = 3;
+  uint32_t queue_depth = 4;
   uint64_t queue_bytes = 1u << 20;
   // Each worker's group-table budget, sent with every task (0 = the
   // worker's default; ShardTask::table_bytes).

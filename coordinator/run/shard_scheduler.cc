@@ -9,9 +9,10 @@ namespace fanfold {
 Result<std::vector<uint32_t>> DispatchOrder(const std::vector<Shard>& shards, int workers) {
   std::vector<uint32_t> order(shards.size());
   std::iota(order.begin(), order.end(), 0);
+  // Small shards weigh 0: after every big one, in index order (the sort is stable).
+  const auto weight = [&](uint32_t s) { return shards[s].bytes() >= kSmallShardBytes ? shards[s].bytes() : 0; };
   if (workers > 1)
-    std::stable_sort(order.begin(), order.end(),
-                     [&](uint32_t a, uint32_t b) { return shards[a].bytes() > shards[b].bytes(); });
+    std::stable_sort(order.begin(), order.end(), [&](uint32_t a, uint32_t b) { return weight(a) > weight(b); });
   const char* sw = std::getenv("FANFOLD_TEST_ONLY_DISPATCH");
   if (sw == nullptr || *sw == '\0') return order;
   std::string mode(sw);

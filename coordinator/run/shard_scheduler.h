@@ -1,6 +1,12 @@
 // ShardScheduler: decides the order shards are handed out — largest first
 // (longest-processing-time-first), ties by shard index — so one big shard
-// does not finish last alone. With one worker there is nothing to balance:
+// does not finish last alone. Shards under kSmallShardBytes come after the
+// big ones in index order: each takes milliseconds, so their order hardly
+// moves the end of the run, and in index order their partials reach the
+// merge about when it can fold them (sorted by size, thousands of tiny
+// shards arrive in random index order: the merge then holds them, reads
+// most back from the run directory, and folds them all at the end while the
+// workers wait). With one worker there is nothing to balance:
 // shards go in index order, so each partial arrives when the merge (which
 // folds in shard order) can take it, instead of waiting and being read
 // back from the run directory. A test-only switch reorders dispatch to prove
@@ -17,6 +23,10 @@
 #include "common/base/status.h"
 
 namespace fanfold {
+
+// Below this many bytes (ShardList's Shard::bytes()) a shard is dispatched
+// in index order after the larger ones.
+inline constexpr uint64_t kSmallShardBytes = uint64_t{1} << 20;
 
 // Returns shard indices in dispatch order for `workers` workers (the
 // transport's count). Fails only on a malformed test switch.

@@ -69,6 +69,40 @@ TEST_CASE("group_table_merge: the read-ahead merge equals merging decoded states
   CHECK(EncodeOf(fast) == EncodeOf(reference));
 }
 
+// Intent: many partials of 1-46 groups each (old keys, new keys between
+// them, numbers below and above every old one, adjacent numbers) folded into a table of
+// thousands, where the walk gallops over the table's order instead of
+// stepping through it: the same groups and bytes as the reference fold.
+TEST_CASE("group_table_merge: small partials into a big table equal merging decoded states") {
+  const std::vector<MeasureConfig> configs = Configs();
+  testing::TestLcg rng(17);
+  GroupTable fast(&configs), reference(&configs);
+  {
+    GroupTable big(&configs);
+    for (uint64_t g = 0; g < 4000; ++g) AddRecord(&big, g * 5 + 2, static_cast<double>(g % 97));
+    const std::string bytes = EncodeOf(big);
+    REQUIRE(fast.MergeEncoded(bytes).ok());
+    MergeByDecoding(&reference, bytes, &configs);
+  }
+  for (int shard = 0; shard < 400; ++shard) {
+    GroupTable part(&configs);
+    const int groups = 1 + shard % 23;
+    for (int i = 0; i < groups; ++i) {
+      uint64_t group = rng.Next() % 20010;  // an old key (g * 5 + 2) one time in five
+      if (i % 3 == 0) group = (rng.Next() % 4000) * 5 + 2;
+      if (shard % 50 == 0 && i == 0) group = 0;  // below every old number
+      if (shard % 50 == 1 && i == 0) group = 30000 + static_cast<uint64_t>(shard);  // above every old number
+      AddRecord(&part, group, static_cast<double>(rng.Next() % 1000) / 7.0);
+      if (shard % 7 == 0) AddRecord(&part, group + 1, 1.5);  // adjacent keys
+    }
+    const std::string bytes = EncodeOf(part);
+    REQUIRE(fast.MergeEncoded(bytes).ok());
+    MergeByDecoding(&reference, bytes, &configs);
+    CHECK(fast.group_count() == reference.group_count());
+  }
+  CHECK(EncodeOf(fast) == EncodeOf(reference));
+}
+
 // Intent: a table cut short at any byte, or with one byte changed, fails
 // in MergeEncoded with CheckEncoded's message (both name the same group
 // and measure), read-ahead or not.

@@ -173,6 +173,55 @@ TEST_CASE("table overflow: two reductions share the budget, a filter and derived
   }
 }
 
+// Intent: one ShardProcessor serving shard after shard (it keeps its
+// aggregator's buffers and restarts it per shard) gives every shard the
+// partial a fresh processor gives: after a big shard, after one whose
+// tables overflowed (the budget from the task), after a failed one (a line
+// cut mid-record past the job's bad_record_limit), with no overflow file
+// left behind after any of them.
+TEST_CASE("table overflow: a reused processor gives each shard a fresh processor's partial") {
+  OverflowDir d;
+  const std::string big = d.dir + "/big.ndjson", small = d.dir + "/small.ndjson", bad = d.dir + "/bad.ndjson";
+  REQUIRE(WriteFileAtomic(big, MakeShard(6000, 3000, 21)).ok());
+  REQUIRE(WriteFileAtomic(small, MakeShard(25, 40, 22)).ok());
+  REQUIRE(WriteFileAtomic(bad, "{\"k\": \n{\"k\": \n").ok());  // two malformed lines of two
+  Result<JobSpec> spec = ParseJobSpec(R"({"inputs": {"files": ["s.ndjson"], "bad_record_limit": 0.5},
+    "group": ["{/k}", "{/n}"], )" + std::string(kAllMeasures) + "}",
+                                      d.dir + "/job.json");
+  REQUIRE(spec.ok());
+  Result<std::unique_ptr<Plan>> compiled = CompilePlan(std::move(*spec), RecordFormat::kNdjson);
+  REQUIRE(compiled.ok());
+  const std::unique_ptr<Plan> plan = std::move(compiled.value());
+  ShardProcessor reused(plan.get());
+  const struct {
+    const std::string* path;
+    uint64_t budget;  // the task's; 0 = the default
+  } steps[] = {{&big, 0}, {&small, 0}, {&big, 30000}, {&small, 0}, {&bad, 0}, {&small, 2}, {&big, 0}, {&small, 0}};
+  for (const auto& step : steps) {
+    CAPTURE(*step.path);
+    CAPTURE(step.budget);
+    ShardTask task;
+    task.path = *step.path;
+    task.table_bytes = step.budget;
+    std::string partial;
+    Outcome got;
+    got.status = reused.Process(task, &partial);
+    const Outcome want = Process(*plan, *step.path, step.budget);
+    CHECK(d.temp_files() == 0);
+    if (step.path == &bad) {
+      CHECK(!got.status.ok());
+      CHECK(got.status.message() == want.status.message());
+      continue;
+    }
+    REQUIRE(got.status.ok());
+    OpenedPartial opened;
+    REQUIRE(OpenPartial(partial, &opened).ok());
+    got.header = opened.header;
+    got.body = opened.body;
+    CheckSame(want, got);
+  }
+}
+
 TEST_CASE("table overflow: a bounded measure past its limit among the overflow's keys fails the shard") {
   // Intent: the overflow passes catch a limit as the table does, with the
   // same message; and nothing is left in the temporary directory.
