@@ -10,7 +10,9 @@
 // Not thread-safe; a copy resumes independently from the same group.
 #pragma once
 
+#include <bit>
 #include <cstdint>
+#include <cstring>
 #include <string_view>
 #include <vector>
 
@@ -48,13 +50,35 @@ class EncodedGroupCursor {
   uint64_t groups_read() const { return read_; }   // Next() calls that returned true
   bool positioned() const { return positioned_; }  // a group is current
   // Bytes of the encoding read so far (the current group's included).
-  uint64_t consumed() const { return size_ - r_.remaining(); }
+  uint64_t consumed() const { return static_cast<uint64_t>(p_ - begin_); }
+  // The current group's whole framing (key and states with their
+  // lengths), as it lies in the encoding. REQUIRES: positioned().
+  std::string_view group_bytes() const { return std::string_view(group_, static_cast<size_t>(p_ - group_)); }
+
+  // a < b in key-byte order (unsigned bytes, a prefix first), as
+  // std::string_view's operator< but inline, 8 bytes at a time.
+  static bool KeyLess(std::string_view a, std::string_view b);
 
  private:
   bool Fail(const std::string& what);
+  // The next length (a varint) at p_, which must leave it within the
+  // encoding: false (p_ unchanged) when it does not fit.
+  bool Length(uint64_t* n) {
+    // One byte is the common case (keys and small states under 128 bytes).
+    if (p_ < end_ && static_cast<unsigned char>(*p_) < 0x80) [[likely]] {
+      *n = static_cast<unsigned char>(*p_);
+      if (*n > static_cast<uint64_t>(end_ - p_ - 1)) return false;
+      ++p_;
+      return true;
+    }
+    return LongLength(n);
+  }
+  bool LongLength(uint64_t* n);
 
-  ByteReader r_;
-  size_t size_;
+  const char* begin_;
+  const char* p_;
+  const char* end_;
+  const char* group_ = nullptr;  // the current group's first byte
   size_t m_;
   uint64_t count_ = 0;
   uint64_t read_ = 0;
@@ -64,5 +88,33 @@ class EncodedGroupCursor {
   std::vector<std::string_view> states_;
   Status status_;
 };
+
+// SeekAtLeast for any cursor with positioned(), key() and Next() (this
+// one, RunCursor, PartialGroupStream): Next() until the key is >= `key`
+// (the current group counts). True iff there is such a group.
+template <class Cursor>
+bool SeekCursorAtLeast(Cursor& c, std::string_view key) {
+  if (c.positioned() && !EncodedGroupCursor::KeyLess(c.key(), key)) return true;
+  while (c.Next())
+    if (!EncodedGroupCursor::KeyLess(c.key(), key)) return true;
+  return false;
+}
+
+inline bool EncodedGroupCursor::KeyLess(std::string_view a, std::string_view b) {
+  const size_t n = a.size() < b.size() ? a.size() : b.size();
+  size_t i = 0;
+  for (; i + 8 <= n; i += 8) {
+    uint64_t x, y;
+    std::memcpy(&x, a.data() + i, 8);
+    std::memcpy(&y, b.data() + i, 8);
+    if (x != y) {
+      if constexpr (std::endian::native == std::endian::little) return __builtin_bswap64(x) < __builtin_bswap64(y);
+      return x < y;
+    }
+  }
+  for (; i < n; ++i)
+    if (a[i] != b[i]) return static_cast<unsigned char>(a[i]) < static_cast<unsigned char>(b[i]);
+  return a.size() < b.size();
+}
 
 }  // namespace fanfold

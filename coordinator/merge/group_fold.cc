@@ -21,6 +21,8 @@ class FoldCursor {
   bool SeekAtLeast(std::string_view k) { return stream_ ? stream_->SeekAtLeast(k) : run_->SeekAtLeast(k); }
   std::string_view key() const { return stream_ ? stream_->key() : run_->key(); }
   std::string_view state(size_t j) const { return stream_ ? stream_->state(j) : run_->state(j); }
+  // REQUIRES: a run's cursor (the base), positioned.
+  std::string_view group_bytes() const { return run_->group_bytes(); }
   const Status& status() const { return stream_ ? stream_->status() : run_->status(); }
   uint64_t groups_read() const { return stream_ ? stream_->groups_read() : run_->groups_read(); }
 
@@ -90,8 +92,9 @@ FoldOutcome GroupFold::FoldRange(const FoldInputs& in, const KeyRange& range, st
   // on top, equal keys in source order (base, then shard order).
   std::vector<size_t> heap;
   const auto later = [&](size_t a, size_t b) {
-    const int c = sources[a].cursor.key().compare(sources[b].cursor.key());
-    return c > 0 || (c == 0 && a > b);
+    const std::string_view ka = sources[a].cursor.key();
+    const std::string_view kb = sources[b].cursor.key();
+    return EncodedGroupCursor::KeyLess(kb, ka) || (a > b && !EncodedGroupCursor::KeyLess(ka, kb));
   };
   for (size_t i = 0; i < sources.size(); ++i) {
     FoldCursor& c = sources[i].cursor;
@@ -114,13 +117,14 @@ FoldOutcome GroupFold::FoldRange(const FoldInputs& in, const KeyRange& range, st
       holders.push_back(heap.back());
       heap.pop_back();
     }
-    w.Str(key);
     const bool from_base = sources[holders[0]].partial == FoldOutcome::kNoPartial;
     if (from_base && holders.size() == 1) {
-      // No later shard has this key: its state bytes are what the
-      // in-memory table would encode, unchanged.
-      for (size_t j = 0; j < m; ++j) w.Str(sources[holders[0]].cursor.state(j));
+      // No later shard has this key: its bytes are what the in-memory
+      // table would encode, unchanged (a run's framing is ours, written
+      // as below), so the group is copied whole.
+      w.Bytes(sources[holders[0]].cursor.group_bytes());
     } else {
+      w.Str(key);
       for (size_t j = 0; j < m; ++j) {
         MeasureState& st = *states_[j];
         size_t h = 0;

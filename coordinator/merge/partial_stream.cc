@@ -8,6 +8,7 @@
 #include <zstd.h>
 
 #include "coordinator/merge/body_reader.h"
+#include "coordinator/merge/encoded_group_cursor.h"
 
 namespace fanfold {
 
@@ -231,7 +232,7 @@ bool PartialGroupStream::Next() {
   // Views only now: Ensure may have moved the window.
   key_ = std::string_view(r.data() + key_at, key_len);
   for (size_t j = 0; j < m_; ++j) states_[j] = std::string_view(r.data() + at_[j], lens_[j]);
-  if (read_ > 0 && !(std::string_view(prev_key_) < key_))
+  if (read_ > 0 && !EncodedGroupCursor::KeyLess(prev_key_, key_))
     return Fail("group " + std::to_string(read_) + ": keys not in strictly ascending order");
   table_left_ -= pos;
   pending_ = pos;
@@ -240,11 +241,6 @@ bool PartialGroupStream::Next() {
   return true;
 }
 
-bool PartialGroupStream::SeekAtLeast(std::string_view key) {
-  if (positioned_ && key_ >= key) return true;
-  while (Next())
-    if (key_ >= key) return true;
-  return false;
-}
+bool PartialGroupStream::SeekAtLeast(std::string_view key) { return SeekCursorAtLeast(*this, key); }
 
 }  // namespace fanfold

@@ -40,7 +40,7 @@ bool RunCursor::Next() {
     released_ = 0;
     cur_ = EncodedGroupCursor(pieces_[piece_].body, m_, pieces_[piece_].groups);
     if (cur_.Next()) {
-      if (before_ > 0 && !(last_key_ < cur_.key()))
+      if (before_ > 0 && !EncodedGroupCursor::KeyLess(last_key_, cur_.key()))
         return Fail(Status::Corrupt("piece " + std::to_string(piece_) +
                                     " of the run: its first key is not above the previous piece's last"));
       return true;
@@ -55,11 +55,6 @@ bool RunCursor::Next() {
   return true;
 }
 
-bool RunCursor::SeekAtLeast(std::string_view key) {
-  if (positioned() && cur_.key() >= key) return true;
-  while (Next())
-    if (cur_.key() >= key) return true;
-  return false;
-}
+bool RunCursor::SeekAtLeast(std::string_view key) { return SeekCursorAtLeast(*this, key); }
 
 }  // namespace fanfold

@@ -43,6 +43,9 @@ class RunCursor {
   // REQUIRES: the last Next() or SeekAtLeast() returned true.
   std::string_view key() const { return cur_.key(); }
   std::string_view state(size_t j) const { return cur_.state(j); }
+  // The current group's framing as it lies in the run (key and states
+  // with their lengths): what a fold copies through untouched.
+  std::string_view group_bytes() const { return cur_.group_bytes(); }
 
   const Status& status() const { return status_; }
   uint64_t group_count() const { return count_; }

@@ -4,6 +4,7 @@
 
 #include <doctest/doctest.h>
 
+#include <random>
 #include <string>
 #include <vector>
 
@@ -71,6 +72,35 @@ TEST_CASE("encoded_group_cursor: walks groups in key order with their state byte
   CHECK(s.key() == KeyOf(30));
   CHECK_FALSE(s.SeekAtLeast(KeyOf(41)));
   CHECK(s.status().ok());
+}
+
+// Intent: KeyLess orders keys as the C++ standard's std::string_view
+// operator< does (char_traits<char>::compare: unsigned bytes, then the
+// shorter first), on keys of 0-40 bytes sharing prefixes, bytes >= 0x80
+// and NUL included; and group_bytes() is each group's framing exactly
+// (the groups' bytes concatenated are the encoding after its count).
+TEST_CASE("encoded_group_cursor: KeyLess is string_view's order; group_bytes is the framing") {
+  std::mt19937_64 rng(7);
+  const std::string alphabet("\x00\x01a\x7f\x80\xff", 6);
+  std::vector<std::string> keys;
+  for (int i = 0; i < 400; ++i) {
+    std::string k(rng() % 41, 'x');
+    for (char& ch : k) ch = alphabet[rng() % alphabet.size()];
+    keys.push_back(k);
+    if (!k.empty()) keys.push_back(k.substr(0, k.size() - 1));  // a prefix of it
+  }
+  for (const std::string& a : keys)
+    for (const std::string& b : keys)
+      REQUIRE(EncodedGroupCursor::KeyLess(a, b) == (std::string_view(a) < std::string_view(b)));
+
+  const auto configs = Configs();
+  const std::string bytes = Encoded(configs, {3, 1, 2, 400, -5});
+  EncodedGroupCursor c(bytes, 2);
+  const size_t head = 1;  // the count, 5, is one varint byte
+  std::string joined;
+  while (c.Next()) joined += c.group_bytes();
+  CHECK(c.status().ok());
+  CHECK(joined == bytes.substr(head));
 }
 
 // Intent: a count past the bytes, a truncated group, keys out of order or
