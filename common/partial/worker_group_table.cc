@@ -21,9 +21,11 @@ WorkerGroupTable::WorkerGroupTable(const std::vector<MeasureConfig>* configs)
 void WorkerGroupTable::Reserve(size_t groups) {
   // Room for an eighth more than asked (the next shard may hold a few more
   // groups). The index's slots (4 bytes and a byte of metadata, at most 7/8
-  // full) stay within a quarter of the budget. The key list is left to
-  // grow: copying its views is cheap, and its doubling is what it was.
-  constexpr size_t kBytesPerGroup = 6;
+  // full, and their count rounded up to a power of two of slot groups: up
+  // to 2 x 8/7 x 5 = 11.4 bytes a group) stay within a quarter of the
+  // budget. The key list is left to grow: copying its views is cheap, and
+  // its doubling is what it was.
+  constexpr size_t kBytesPerGroup = 12;
   groups += groups / 8;
   if (budget_ > 0) groups = std::min(groups, budget_ / 4 / kBytesPerGroup);
   if (groups > index_.size()) index_.reserve(groups);
