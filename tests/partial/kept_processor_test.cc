@@ -1,7 +1,8 @@
-// Review checks of the session's merged lanes (reviewer's branch `review`):
-// each case pins a claim a contract comment makes, so that the claim and the
-// code cannot drift apart silently. Sources are the contract comments named
-// beside each check.
+// A worker's ShardProcessor kept across shards: the group table presized
+// from the previous shard stays within its share of the budget, and after a
+// shard that failed (inside a batch, while the CSV reader lent its strings)
+// the next shards' partials are a fresh processor's. Sources are the
+// contract comments named beside each check.
 #include <doctest/doctest.h>
 
 #include <stdlib.h>
@@ -23,7 +24,7 @@ namespace {
 // "The index's slots ... stay within a quarter of the budget". A presized
 // table's index counts toward its budget, so a larger index turns the table
 // full earlier (more records to the overflow files) than the documented bound.
-TEST_CASE("review: a presized index stays within a quarter of its table's budget") {
+TEST_CASE("kept processor: a presized index stays within a quarter of its table's budget") {
   std::vector<MeasureConfig> count_only(1);  // kind defaults to count
   for (size_t budget = 4096; budget <= (size_t{64} << 20); budget = budget * 5 / 4) {
     CAPTURE(budget);
@@ -40,7 +41,7 @@ TEST_CASE("review: a presized index stays within a quarter of its table's budget
 // CSV reader had its cells on loan (a measure past its limit), so the loan
 // (RecordBatch::set_copy_strings) and the restarted aggregator carry nothing
 // over. Invented data; several chunks a shard (cells quoted, "" escapes).
-TEST_CASE("review: a kept processor over CSV shards, after a failure on loan, matches a fresh one") {
+TEST_CASE("kept processor: a kept processor over CSV shards, after a failure on loan, matches a fresh one") {
   char tmpl[] = "/tmp/fanfold-review-XXXXXX";
   const std::string dir = mkdtemp(tmpl);
   auto shard = [&](const std::string& name, int rows, int kinds) {
