@@ -76,19 +76,17 @@ uint64_t PeakChildRssBytes() { return g_peak_child_kib.load(std::memory_order_re
 int CurrentPid() { return static_cast<int>(::getpid()); }
 int ParentPid() { return static_cast<int>(::getppid()); }
 
-const std::string& HostNameForFiles() {
-  static const std::string name = [] {
+const std::string& HostTagForFiles() {
+  static const std::string tag = [] {
     char buf[256] = {};
-    if (::gethostname(buf, sizeof buf - 1) != 0 || buf[0] == '\0') return std::string("unknown-host");
-    std::string out(buf);
-    for (char& c : out) {
-      const bool plain = (c >= 'a' && c <= 'z') || (c >= 'A' && c <= 'Z') || (c >= '0' && c <= '9') || c == '.' ||
-                         c == '-';
-      if (!plain) c = '_';
-    }
-    return out;
+    if (::gethostname(buf, sizeof buf - 1) != 0) buf[0] = '\0';
+    uint32_t h = 2166136261u;  // FNV-1a, 32 bits (offset basis, prime 16777619)
+    for (const char* c = buf; *c != '\0'; ++c) h = (h ^ static_cast<unsigned char>(*c)) * 16777619u;
+    char hex[9];
+    std::snprintf(hex, sizeof hex, "%08x", h);
+    return std::string(hex);
   }();
-  return name;
+  return tag;
 }
 
 bool SelfExecutablePath(std::string* out) {

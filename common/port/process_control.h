@@ -22,10 +22,11 @@ struct ExitInfo {
 
 int CurrentPid();
 int ParentPid();
-// This machine's host name (gethostname), with every byte other than a
-// letter, digit, '.' or '-' replaced by '_' so that it can go into a file
-// name; "unknown-host" iff the system does not say. Computed once.
-const std::string& HostNameForFiles();
+// A short tag of this machine for file names: 8 lowercase hex digits of the
+// 32-bit FNV-1a hash of its host name (gethostname; of "" iff the system does
+// not say), so names grow by a fixed 8 bytes whatever the host is called.
+// Computed once.
+const std::string& HostTagForFiles();
 
 // Peak resident memory (ru_maxrss) in bytes: of this process (getrusage);
 // and of the largest of its children reaped by TryReap or Reap (wait4's

@@ -114,7 +114,7 @@ Status PublishFiles(Files& f) {
   return Status::Ok();
 }
 
-// `rest` is a temporary's name after ".NAME.tmp-": "PID@HOST-N" or "PID-N".
+// `rest` is a temporary's name after ".NAME.tmp-": "PID@HOST-N" (HOST: HostTagForFiles) or "PID-N".
 // True iff HOST is absent or this machine's and no process PID lives here.
 bool WrittenByDeadLocalWriter(const std::string& rest) {
   const size_t digits = rest.find_first_not_of("0123456789");
@@ -124,7 +124,7 @@ bool WrittenByDeadLocalWriter(const std::string& rest) {
       rest.find_first_not_of("0123456789", last_dash + 1) != std::string::npos)
     return false;
   if (rest[digits] == '@') {
-    if (rest.compare(digits + 1, last_dash - digits - 1, HostNameForFiles()) != 0) return false;
+    if (rest.compare(digits + 1, last_dash - digits - 1, HostTagForFiles()) != 0) return false;
   } else if (digits != last_dash) {
     return false;
   }
@@ -136,7 +136,7 @@ bool WrittenByDeadLocalWriter(const std::string& rest) {
 // named, ".NAME.tmp-PID-N"). In the run directory, which one coordinator
 // holds at a time, every one of them; in a shown file's folder, which may
 // have other writers (on other machines too, if the folder is shared), only
-// those written on this machine (its host name, or no host name) by a PID
+// those written on this machine (its host tag, or none) by a PID
 // that is no longer alive here.
 Status RemoveStaleTemporaries(Platform& platform, const std::string& path, bool only_dead_writers) {
   const std::filesystem::path p(path);

@@ -147,7 +147,12 @@ def interrupt_streaming(env, c, job, run_dir, sig, label, expected):
         # PID means nothing here: left alone).
         gone = subprocess.Popen(["true"])
         gone.wait()
-        host = "".join(ch if ch.isascii() and (ch.isalnum() or ch in ".-") else "_" for ch in socket.gethostname())
+        # This machine's tag: FNV-1a (32 bits) of its host name, as 8 hex
+        # digits (Fowler, Noll and Vo's published offset basis and prime).
+        h = 2166136261
+        for byte in socket.gethostname().encode():
+            h = ((h ^ byte) * 16777619) & 0xFFFFFFFF
+        host = "%08x" % h
         shown = os.path.dirname(env.path("shown", "runs", "x"))
         for name, _, fmt, _, _, _ in REDUCTIONS:
             for tag, keep in (("%d@%s" % (gone.pid, host), False), ("%d" % gone.pid, False),

@@ -129,7 +129,7 @@ TEST_CASE("durable write: staged file naming and abandonment") {
     auto staged = StagedFile::Begin(d.fs, "/d/t", p);
     REQUIRE(staged.ok());
     // MemoryPlatform's pid is 4242; the host is this machine's.
-    CHECK((*staged)->temp_path().rfind("/d/.t.tmp-4242@" + HostNameForFiles() + "-", 0) == 0);
+    CHECK((*staged)->temp_path().rfind("/d/.t.tmp-4242@" + HostTagForFiles() + "-", 0) == 0);
     REQUIRE((*staged)->Append("partial").ok());
     CHECK(d.fs.Files().size() == 2);
   }

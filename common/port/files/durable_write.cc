@@ -31,7 +31,7 @@ Result<std::unique_ptr<StagedFile>> StagedFile::Begin(Platform& platform, const 
   if (policy.temp_name == DurableWritePolicy::TempName::kUnique) {
     std::random_device rd;
     temp = (std::filesystem::path(dir) / ("." + target_path.filename().string() + ".tmp-" +
-                                          std::to_string(platform.CurrentPid()) + "@" + HostNameForFiles() + "-" +
+                                          std::to_string(platform.CurrentPid()) + "@" + HostTagForFiles() + "-" +
                                           std::to_string(rd())))
                .string();
     mode = CreateMode::kExclusive;

@@ -16,7 +16,7 @@
 namespace fanfold {
 
 struct DurableWritePolicy {
-  // kUnique: ".<name>.tmp-<pid>@<host>-<random>" (host: HostNameForFiles),
+  // kUnique: ".<name>.tmp-<pid>@<host>-<random>" (host: HostTagForFiles),
   // created exclusively, so writers in several processes never share one and
   // a cleaner can tell whether the writer ran on its own machine; kSuffix: "<name>.tmp", emptied first
   // (for a name only one writer ever uses).
