@@ -107,9 +107,15 @@ Status GroupTable::MergeWalk(ByteReader& r, uint64_t n, uint64_t first) {
     // search between the last two): a partial of a few groups folded into a
     // table of thousands costs a few compares per group, not a walk of the
     // whole table; one that matches the table key for key still costs one.
-    at = NextNotBelow(key, at);
+    // Most often the table's next key is this one: one three-way compare
+    // settles it; otherwise the gallop starts just past it.
+    int c = at < order_.size() ? keys_[order_[at]].compare(key) : 1;
+    if (c < 0) {
+      at = NextNotBelow(key, at + 1);
+      c = at < order_.size() ? keys_[order_[at]].compare(key) : 1;
+    }
     uint32_t id;
-    if (at < order_.size() && keys_[order_[at]] == key) {
+    if (c == 0) {
       id = order_[at];
     } else {
       id = AddGroup(key);

@@ -263,11 +263,26 @@ void HyperLogLogState::RaiseSorted(const uint32_t* entries, size_t k) {
   // (Those raised before one is found missing are raised again below:
   // a max, so no harm.)
   {
+    // An entry of `index` is the first not below index << 8 (its rank is at
+    // least 1): a binary search over what is left of a list of up to 64,
+    // not a scan of it, for each of the few registers a partial brings;
+    // without branches on the data (conditional moves), which a CPU could
+    // not predict.
+    const uint32_t* const list = sparse_.data();
+    const size_t size = sparse_.size();
     size_t a = 0, j = 0;
     for (; j < k; ++j) {
       const uint32_t index = entries[j] >> 8;
-      while (a < sparse_.size() && (sparse_[a] >> 8) < index) ++a;
-      if (a == sparse_.size() || (sparse_[a] >> 8) != index) break;
+      const uint32_t want = index << 8;
+      if (a == size) break;
+      const uint32_t* base = list + a;  // the answer is in [base, base + n]
+      for (size_t n = size - a; n > 1;) {
+        const size_t half = n / 2;
+        base = base[half] < want ? base + half : base;
+        n -= half;
+      }
+      a = static_cast<size_t>(base - list) + (*base < want ? 1 : 0);
+      if (a == size || (list[a] >> 8) != index) break;
       sparse_[a] = std::max(sparse_[a], entries[j]);  // same index: the larger rank
     }
     if (j == k) return;
@@ -314,7 +329,11 @@ void HyperLogLogState::PrefetchMerge(std::string_view encoded) const {
   const uint8_t form = r.U8();
   if (!r.ok()) return;
   if (registers_.empty()) {
-    if (!sparse_.empty()) __builtin_prefetch(sparse_.data());
+    // The whole list (up to 64 entries of 4 bytes: four lines).
+    const char* list = reinterpret_cast<const char*>(sparse_.data());
+    const size_t bytes = sparse_.size() * sizeof(sparse_[0]);
+    for (size_t i = 0; i < bytes; i += 64) __builtin_prefetch(list + i);
+    if (bytes > 0) __builtin_prefetch(list + bytes - 1);  // the list need not start a line
     return;
   }
   const size_t m = registers_.size();
