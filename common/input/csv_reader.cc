@@ -18,27 +18,34 @@ uint64_t CountNewlines(const char* b, const char* e) {
 static_assert(std::endian::native == std::endian::little, "ScanUnquoted takes the lowest byte as the first");
 
 // Bytes readable after the data: ScanUnquoted loads 8 bytes at a time,
-// ByteMasks 16.
-constexpr size_t kScanPadding = 16;
+// MasksAt 64.
+constexpr size_t kScanPadding = 64;
 
-// Which of the 16 bytes at q are `sep`, '\n' and '"' (bit i: byte q[i]).
+// Which of the 64 bytes at q are `sep`, '\n' and '"' (bit i: byte q[i]).
 struct ByteMasks {
-  uint32_t sep, newline, quote;
+  uint64_t sep, newline, quote;
 };
 
 ByteMasks MasksAt(const char* q, char sep) {
 #if defined(__SSE2__)
-  const __m128i v = _mm_loadu_si128(reinterpret_cast<const __m128i*>(q));
-  return ByteMasks{
-      static_cast<uint32_t>(_mm_movemask_epi8(_mm_cmpeq_epi8(v, _mm_set1_epi8(sep)))),
-      static_cast<uint32_t>(_mm_movemask_epi8(_mm_cmpeq_epi8(v, _mm_set1_epi8('\n')))),
-      static_cast<uint32_t>(_mm_movemask_epi8(_mm_cmpeq_epi8(v, _mm_set1_epi8('"'))))};
+  const __m128i seps = _mm_set1_epi8(sep);
+  const __m128i newlines = _mm_set1_epi8('\n');
+  const __m128i quotes = _mm_set1_epi8('"');
+  ByteMasks m{0, 0, 0};
+  for (int i = 0; i < 4; ++i) {
+    const __m128i v = _mm_loadu_si128(reinterpret_cast<const __m128i*>(q + 16 * i));
+    m.sep |= static_cast<uint64_t>(static_cast<uint32_t>(_mm_movemask_epi8(_mm_cmpeq_epi8(v, seps)))) << (16 * i);
+    m.newline |= static_cast<uint64_t>(static_cast<uint32_t>(_mm_movemask_epi8(_mm_cmpeq_epi8(v, newlines))))
+                 << (16 * i);
+    m.quote |= static_cast<uint64_t>(static_cast<uint32_t>(_mm_movemask_epi8(_mm_cmpeq_epi8(v, quotes)))) << (16 * i);
+  }
+  return m;
 #else
   ByteMasks m{0, 0, 0};
-  for (uint32_t i = 0; i < 16; ++i) {
-    m.sep |= static_cast<uint32_t>(q[i] == sep) << i;
-    m.newline |= static_cast<uint32_t>(q[i] == '\n') << i;
-    m.quote |= static_cast<uint32_t>(q[i] == '"') << i;
+  for (uint32_t i = 0; i < 64; ++i) {
+    m.sep |= static_cast<uint64_t>(q[i] == sep) << i;
+    m.newline |= static_cast<uint64_t>(q[i] == '\n') << i;
+    m.quote |= static_cast<uint64_t>(q[i] == '"') << i;
   }
   return m;
 #endif
@@ -236,8 +243,12 @@ bool CsvReader::CutPlainRecord(const char* p, const char* end, Cut* out) {
   const char* skip = p;        // bytes before skip are no event (an escape's second quote)
   // Ends the current field at `at` (a separator or the line break): writes
   // its cell if its column is read. False iff the general cut must do it.
+  const Value string_cell = Value::String(std::string_view());
+  const Value missing_cell = Value::Missing();
+  // A local copy: the cell stores below could alias the member.
+  const uint64_t read_columns = read_columns_;
   auto end_field = [&](const char* at) {
-    if (field < 64 && (read_columns_ >> field & 1) == 0) return true;  // a column no field reads
+    if (field < 64 && (read_columns >> field & 1) == 0) return true;  // a column no field reads
     const char* from = start;
     size_t len = static_cast<size_t>(at - start);
     if (quoted) {
@@ -248,71 +259,110 @@ bool CsvReader::CutPlainRecord(const char* p, const char* end, Cut* out) {
       --len;  // CRLF line end
     }
     Value& v = slots[slot_of[std::min(field, last_column)]];
-    v = len > 0 ? Value::String(std::string_view(from, len)) : Value::Missing();  // an empty cell is Missing
+    if (len > 0) {
+      v = string_cell;  // a string with nothing read from its text yet
+      v.str = std::string_view(from, len);
+    } else {
+      v = missing_cell;  // an empty cell is Missing
+    }
     return true;
   };
-  for (const char* b = p; b < end; b += 16) {
-    ByteMasks m = MasksAt(b, sep_);
-    if (end - b < 16) {  // only the bytes before end count
-      const uint32_t inside = (uint32_t{1} << (end - b)) - 1;
+  // 64-byte blocks. The block holding p may be the one the last record
+  // ended in: its masks are kept (block_), so each block of the chunk is
+  // read once however many records it holds.
+  const char* b;
+  ByteMasks m;
+  if (block_ != nullptr && p >= block_ && p < block_ + 64) {
+    b = block_;
+    m = ByteMasks{block_sep_, block_newline_, block_quote_};
+  } else {
+    b = p;
+    m = MasksAt(b, sep_);
+    if (end - b < 64) {  // only the bytes before end count
+      const uint64_t inside = (uint64_t{1} << (end - b)) - 1;
       m.sep &= inside;
       m.newline &= inside;
       m.quote &= inside;
     }
-    if (m.quote == 0 && !in_quotes) {
+  }
+  // Bits before p belong to earlier records.
+  uint64_t live = ~uint64_t{0} << (p - b);
+  for (;;) {
+    const uint64_t sep = m.sep & live;
+    const uint64_t newline = m.newline & live;
+    const uint64_t quote = m.quote & live;
+    if (quote == 0 && !in_quotes) {
       // The common block: fields end at separators, the record at the
       // first line break.
-      const uint32_t record = m.newline != 0 ? (m.newline & (0 - m.newline)) - 1 : 0xFFFFu;
-      for (uint32_t s = m.sep & record; s != 0; s &= s - 1) {
+      const uint64_t record = newline != 0 ? (newline & (0 - newline)) - 1 : ~uint64_t{0};
+      for (uint64_t s = sep & record; s != 0; s &= s - 1) {
         const char* at = b + std::countr_zero(s);
         if (!end_field(at)) return false;
         ++field;
         start = at + 1;
         quoted = false;
       }
-      if (m.newline != 0) {
-        const char* nl = b + std::countr_zero(m.newline);
+      if (newline != 0) {
+        const char* nl = b + std::countr_zero(newline);
         if (!end_field(nl)) return false;
         *out = Cut{nl + 1, 1, field + 1, nullptr};
+        block_ = b;
+        block_sep_ = m.sep;
+        block_newline_ = m.newline;
+        block_quote_ = m.quote;
         return true;
       }
-      continue;
-    }
-    // A block with quotes, or inside a quoted field: every event in order.
-    for (uint32_t e = m.sep | m.newline | m.quote; e != 0; e &= e - 1) {
-      const char* at = b + std::countr_zero(e);
-      if (at < skip) continue;
-      const char c = *at;
-      if (in_quotes) {
-        if (c == '\n') return false;  // a line break inside quotes
-        if (c != '"') continue;        // a separator inside quotes is data
-        if (at + 2 >= end) return false;  // what follows is not in the chunk yet
-        if (at[1] == '"') {  // "" is one quote
-          escaped = true;
-          skip = at + 2;
+    } else {
+      // A block with quotes, or inside a quoted field: every event in order.
+      for (uint64_t e = sep | newline | quote; e != 0; e &= e - 1) {
+        const char* at = b + std::countr_zero(e);
+        if (at < skip) continue;
+        const char c = *at;
+        if (in_quotes) {
+          if (c == '\n') return false;  // a line break inside quotes
+          if (c != '"') continue;        // a separator inside quotes is data
+          if (at + 2 >= end) return false;  // what follows is not in the chunk yet
+          if (at[1] == '"') {  // "" is one quote
+            escaped = true;
+            skip = at + 2;
+            continue;
+          }
+          in_quotes = false;
+          closed = at;
+          // Only a separator or a line end may follow the closing quote.
+          if (at[1] != sep_ && at[1] != '\n' && !(at[1] == '\r' && at[2] == '\n')) return false;
           continue;
         }
-        in_quotes = false;
-        closed = at;
-        // Only a separator or a line end may follow the closing quote.
-        if (at[1] != sep_ && at[1] != '\n' && !(at[1] == '\r' && at[2] == '\n')) return false;
-        continue;
+        if (c == '"') {
+          if (at != start || quoted) return false;  // a stray quote, or text after a closing quote
+          in_quotes = quoted = true;
+          escaped = false;
+          continue;
+        }
+        if (!end_field(at)) return false;
+        if (c == '\n') {
+          *out = Cut{at + 1, 1, field + 1, nullptr};
+          block_ = b;
+          block_sep_ = m.sep;
+          block_newline_ = m.newline;
+          block_quote_ = m.quote;
+          return true;
+        }
+        ++field;
+        start = at + 1;
+        quoted = false;
       }
-      if (c == '"') {
-        if (at != start || quoted) return false;  // a stray quote, or text after a closing quote
-        in_quotes = quoted = true;
-        escaped = false;
-        continue;
-      }
-      if (!end_field(at)) return false;
-      if (c == '\n') {
-        *out = Cut{at + 1, 1, field + 1, nullptr};
-        return true;
-      }
-      ++field;
-      start = at + 1;
-      quoted = false;
     }
+    b += 64;
+    if (b >= end) break;
+    m = MasksAt(b, sep_);
+    if (end - b < 64) {
+      const uint64_t inside = (uint64_t{1} << (end - b)) - 1;
+      m.sep &= inside;
+      m.newline &= inside;
+      m.quote &= inside;
+    }
+    live = ~uint64_t{0};
   }
   return false;  // no line break before end: the general cut decides
 }
@@ -372,6 +422,7 @@ Status CsvReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
     }
     const char* p = chunk_.data();
     const char* end = p + chunk_.size();
+    block_ = nullptr;  // the chunk may have moved
     // The cells of this chunk's records stay valid until the chunk moves:
     // lent to the sink until then.
     sink.LendStrings();

@@ -81,6 +81,10 @@ class CsvReader final : public RecordReader {
   std::vector<int> column_slot_;  // per header column: slot to fill, or -1
   std::vector<int> field_slot_;   // column_slot_ with the spare slot for -1, then one more spare
   uint64_t read_columns_ = 0;     // bit c: column c (< 64) is read; set for columns 64 and up
+  // The 64-byte block CutPlainRecord last ended a record in (null: none in
+  // this chunk) and its separator, line break and quote masks.
+  const char* block_ = nullptr;
+  uint64_t block_sep_ = 0, block_newline_ = 0, block_quote_ = 0;
   std::vector<Value> slots_;      // the FieldTable's slots, then a spare one
   std::vector<Cell> cells_;
   std::string scratch_;
