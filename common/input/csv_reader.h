@@ -69,9 +69,14 @@ class CsvReader final : public RecordReader {
   // false (slots_ in any state) for any other record.
   // REQUIRES: the header is bound.
   bool CutPlainRecord(const char* p, const char* end, Cut* out);
+  // CutPlainRecord reading the bytes with AVX2. REQUIRES: avx2_.
+  bool CutPlainRecordAvx2(const char* p, const char* end, Cut* out);
+  template <bool kAvx2>
+  bool CutPlainRecordWith(const char* p, const char* end, Cut* out);
   void KeepField(bool header, uint32_t field, const char* ptr, size_t scratch_offset, size_t len, bool in_scratch);
   Status BindHeader();
 
+  bool avx2_ = false;  // the CPU has AVX2 (checked at run time)
   char sep_;
   const char* format_;  // "CSV" or "TSV", for messages
   std::vector<std::string> raw_names_;
