@@ -275,21 +275,24 @@ inline __attribute__((always_inline)) bool CsvReader::CutPlainRecordWith(const c
   bool escaped = false;        // ... and holds a "" escape
   const char* closed = nullptr;  // its closing quote
   const char* skip = p;        // bytes before skip are no event (an escape's second quote)
-  // Ends the current field at `at` (a separator or the line break): writes
-  // its cell if its column is read. False iff the general cut must do it.
   const Value string_cell = Value::String(std::string_view());
   const Value missing_cell = Value::Missing();
-  // A local copy: the cell stores below could alias the member.
-  const uint64_t read_columns = read_columns_;
-  auto end_field = [&](const char* at) {
-    if (field < 64 && (read_columns >> field & 1) == 0) return true;  // a column no field reads
+  // Bit 0: the current field's column is read. Shifted (arithmetically) at
+  // each field, so the top bit stands for every column from 63 on. A local
+  // copy: the cell stores below could alias the member.
+  int64_t read_here = static_cast<int64_t>(read_columns_);
+  // Ends the current field at `at` (a separator, or the line break iff
+  // line_end): writes its cell if its column is read. False iff the general
+  // cut must do it.
+  auto end_field = [&](const char* at, bool line_end) {
+    if ((read_here & 1) == 0) return true;  // a column no field reads
     const char* from = start;
     size_t len = static_cast<size_t>(at - start);
     if (quoted) {
       if (escaped) return false;  // the general cut undoes the escapes
       from = start + 1;
       len = static_cast<size_t>(closed - from);
-    } else if (*at == '\n' && len > 0 && start[len - 1] == '\r') {
+    } else if (line_end && len > 0 && start[len - 1] == '\r') {
       --len;  // CRLF line end
     }
     Value& v = slots[slot_of[std::min(field, last_column)]];
@@ -331,14 +334,15 @@ inline __attribute__((always_inline)) bool CsvReader::CutPlainRecordWith(const c
       const uint64_t record = newline != 0 ? (newline & (0 - newline)) - 1 : ~uint64_t{0};
       for (uint64_t s = sep & record; s != 0; s &= s - 1) {
         const char* at = b + std::countr_zero(s);
-        if (!end_field(at)) return false;
+        if (!end_field(at, false)) return false;
         ++field;
+        read_here >>= 1;
         start = at + 1;
         quoted = false;
       }
       if (newline != 0) {
         const char* nl = b + std::countr_zero(newline);
-        if (!end_field(nl)) return false;
+        if (!end_field(nl, true)) return false;
         *out = Cut{nl + 1, 1, field + 1, nullptr};
         block_ = b;
         block_sep_ = m.sep;
@@ -373,7 +377,7 @@ inline __attribute__((always_inline)) bool CsvReader::CutPlainRecordWith(const c
           escaped = false;
           continue;
         }
-        if (!end_field(at)) return false;
+        if (!end_field(at, c == '\n')) return false;
         if (c == '\n') {
           *out = Cut{at + 1, 1, field + 1, nullptr};
           block_ = b;
@@ -383,6 +387,7 @@ inline __attribute__((always_inline)) bool CsvReader::CutPlainRecordWith(const c
           return true;
         }
         ++field;
+        read_here >>= 1;
         start = at + 1;
         quoted = false;
       }
@@ -438,7 +443,7 @@ Status CsvReader::BindHeader() {
   for (int slot : column_slot_) field_slot_.push_back(slot >= 0 ? slot : spare);
   field_slot_.push_back(spare);  // every field past the header's count
   read_columns_ = ~uint64_t{0};
-  for (size_t c = 0; c < column_slot_.size() && c < 64; ++c)
+  for (size_t c = 0; c < column_slot_.size() && c < 63; ++c)
     if (column_slot_[c] < 0) read_columns_ &= ~(uint64_t{1} << c);
   return Status::Ok();
 }

@@ -85,7 +85,9 @@ class CsvReader final : public RecordReader {
   std::vector<std::string> header_;
   std::vector<int> column_slot_;  // per header column: slot to fill, or -1
   std::vector<int> field_slot_;   // column_slot_ with the spare slot for -1, then one more spare
-  uint64_t read_columns_ = 0;     // bit c: column c (< 64) is read; set for columns 64 and up
+  // Bit c: column c (< 63) is read; bit 63, set, stands for every column
+  // from 63 on (an unread one among them only costs a store to the spare slot).
+  uint64_t read_columns_ = 0;
   // The 64-byte block CutPlainRecord last ended a record in (null: none in
   // this chunk) and its separator, line break and quote masks.
   const char* block_ = nullptr;
