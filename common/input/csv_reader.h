@@ -73,6 +73,18 @@ class CsvReader final : public RecordReader {
   bool CutPlainRecordAvx2(const char* p, const char* end, Cut* out);
   template <bool kAvx2>
   bool CutPlainRecordWith(const char* p, const char* end, Cut* out);
+  // Cuts and hands to sink (as Read does: counted in st->records, *line
+  // advanced) the common records from p on while each is one CutPlainRecord
+  // takes with the header's field count; returns where it stopped: end, a
+  // blank line, or a record the general path must take. *stopped: the sink
+  // asked to stop (the record it had is counted).
+  const char* CutPlainRun(const char* p, const char* end, RecordSink& sink, uint64_t* line, ReadStats* st,
+                          bool* stopped);
+  const char* CutPlainRunAvx2(const char* p, const char* end, RecordSink& sink, uint64_t* line, ReadStats* st,
+                              bool* stopped);
+  template <bool kAvx2>
+  const char* CutPlainRunWith(const char* p, const char* end, RecordSink& sink, uint64_t* line, ReadStats* st,
+                              bool* stopped);
   void KeepField(bool header, uint32_t field, const char* ptr, size_t scratch_offset, size_t len, bool in_scratch);
   Status BindHeader();
 
