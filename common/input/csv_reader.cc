@@ -104,6 +104,16 @@ const char* ScanUnquoted(const char* q, const char* end, char sep) {
   return end;
 }
 
+// A cell's value before its text is set: a string with nothing read from
+// its text yet; and an empty cell's, Missing.
+constexpr Value StringCell() {
+  Value v;
+  v.kind = ValueKind::kString;
+  return v;
+}
+constexpr Value kStringCell = StringCell();
+constexpr Value kMissingCell{};
+
 // Header listings in error messages stop after this many names.
 constexpr size_t kMaxListedColumns = 40;
 
@@ -260,9 +270,8 @@ template <bool kAvx2>
 inline __attribute__((always_inline)) bool CsvReader::CutPlainRecordWith(const char* p, const char* end, Cut* out) {
   // Each field's cell goes straight to its slot: unread columns, and any
   // past the header's count, to the spare slot at the end of slots_.
-  Value* const slots = slots_.data();
-  const int* const slot_of = field_slot_.data();
-  const uint32_t last_column = static_cast<uint32_t>(field_slot_.size() - 1);
+  Value* const* const cell_of = field_cell_.data();
+  const uint32_t last_column = static_cast<uint32_t>(field_cell_.size() - 1);
   uint32_t field = 0;
   const char* start = p;  // of the current field
   // A quoted field: its opening quote is the field's first byte; inside it
@@ -275,8 +284,6 @@ inline __attribute__((always_inline)) bool CsvReader::CutPlainRecordWith(const c
   bool escaped = false;        // ... and holds a "" escape
   const char* closed = nullptr;  // its closing quote
   const char* skip = p;        // bytes before skip are no event (an escape's second quote)
-  const Value string_cell = Value::String(std::string_view());
-  const Value missing_cell = Value::Missing();
   // Bit 0: the current field's column is read. Shifted (arithmetically) at
   // each field, so the top bit stands for every column from 63 on. A local
   // copy: the cell stores below could alias the member.
@@ -295,12 +302,12 @@ inline __attribute__((always_inline)) bool CsvReader::CutPlainRecordWith(const c
     } else if (line_end && len > 0 && start[len - 1] == '\r') {
       --len;  // CRLF line end
     }
-    Value& v = slots[slot_of[std::min(field, last_column)]];
+    Value& v = *cell_of[std::min(field, last_column)];
     if (len > 0) {
-      v = string_cell;  // a string with nothing read from its text yet
+      v = kStringCell;
       v.str = std::string_view(from, len);
     } else {
-      v = missing_cell;  // an empty cell is Missing
+      v = kMissingCell;
     }
     return true;
   };
@@ -475,9 +482,9 @@ Status CsvReader::BindHeader() {
     if (column_slot_[column] < 0) column_slot_[column] = raw_slots_[i];
   }
   const int spare = static_cast<int>(slots_.size() - 1);
-  field_slot_.clear();
-  for (int slot : column_slot_) field_slot_.push_back(slot >= 0 ? slot : spare);
-  field_slot_.push_back(spare);  // every field past the header's count
+  field_cell_.clear();
+  for (int slot : column_slot_) field_cell_.push_back(&slots_[static_cast<size_t>(slot >= 0 ? slot : spare)]);
+  field_cell_.push_back(&slots_[static_cast<size_t>(spare)]);  // every field past the header's count
   read_columns_ = ~uint64_t{0};
   for (size_t c = 0; c < column_slot_.size() && c < 63; ++c)
     if (column_slot_[c] < 0) read_columns_ &= ~(uint64_t{1} << c);

@@ -96,7 +96,9 @@ class CsvReader final : public RecordReader {
   ChunkBuffer chunk_;
   std::vector<std::string> header_;
   std::vector<int> column_slot_;  // per header column: slot to fill, or -1
-  std::vector<int> field_slot_;   // column_slot_ with the spare slot for -1, then one more spare
+  // Per header column, the slot its cells go to in slots_ (the spare one
+  // for -1 in column_slot_), then the spare again for fields past the header.
+  std::vector<Value*> field_cell_;
   // Bit c: column c (< 63) is read; bit 63, set, stands for every column
   // from 63 on (an unread one among them only costs a store to the spare slot).
   uint64_t read_columns_ = 0;
