@@ -7,6 +7,9 @@
 #if defined(__SSE2__)
 #include <emmintrin.h>
 #endif
+#if defined(__x86_64__) && defined(__GNUC__)
+#include <immintrin.h>
+#endif
 
 namespace fanfold {
 namespace {
@@ -18,30 +21,64 @@ uint64_t CountNewlines(const char* b, const char* e) {
 static_assert(std::endian::native == std::endian::little, "ScanUnquoted takes the lowest byte as the first");
 
 // Bytes readable after the data: ScanUnquoted loads 8 bytes at a time,
-// ByteMasks 16.
-constexpr size_t kScanPadding = 16;
+// MasksAt 64.
+constexpr size_t kScanPadding = 64;
 
-// Which of the 16 bytes at q are `sep`, '\n' and '"' (bit i: byte q[i]).
+// Which of the 64 bytes at q are `sep`, '\n' and '"' (bit i: byte q[i]).
 struct ByteMasks {
-  uint32_t sep, newline, quote;
+  uint64_t sep, newline, quote;
 };
 
 ByteMasks MasksAt(const char* q, char sep) {
 #if defined(__SSE2__)
-  const __m128i v = _mm_loadu_si128(reinterpret_cast<const __m128i*>(q));
-  return ByteMasks{
-      static_cast<uint32_t>(_mm_movemask_epi8(_mm_cmpeq_epi8(v, _mm_set1_epi8(sep)))),
-      static_cast<uint32_t>(_mm_movemask_epi8(_mm_cmpeq_epi8(v, _mm_set1_epi8('\n')))),
-      static_cast<uint32_t>(_mm_movemask_epi8(_mm_cmpeq_epi8(v, _mm_set1_epi8('"'))))};
+  const __m128i seps = _mm_set1_epi8(sep);
+  const __m128i newlines = _mm_set1_epi8('\n');
+  const __m128i quotes = _mm_set1_epi8('"');
+  ByteMasks m{0, 0, 0};
+  for (int i = 0; i < 4; ++i) {
+    const __m128i v = _mm_loadu_si128(reinterpret_cast<const __m128i*>(q + 16 * i));
+    m.sep |= static_cast<uint64_t>(static_cast<uint32_t>(_mm_movemask_epi8(_mm_cmpeq_epi8(v, seps)))) << (16 * i);
+    m.newline |= static_cast<uint64_t>(static_cast<uint32_t>(_mm_movemask_epi8(_mm_cmpeq_epi8(v, newlines))))
+                 << (16 * i);
+    m.quote |= static_cast<uint64_t>(static_cast<uint32_t>(_mm_movemask_epi8(_mm_cmpeq_epi8(v, quotes)))) << (16 * i);
+  }
+  return m;
 #else
   ByteMasks m{0, 0, 0};
-  for (uint32_t i = 0; i < 16; ++i) {
-    m.sep |= static_cast<uint32_t>(q[i] == sep) << i;
-    m.newline |= static_cast<uint32_t>(q[i] == '\n') << i;
-    m.quote |= static_cast<uint32_t>(q[i] == '"') << i;
+  for (uint32_t i = 0; i < 64; ++i) {
+    m.sep |= static_cast<uint64_t>(q[i] == sep) << i;
+    m.newline |= static_cast<uint64_t>(q[i] == '\n') << i;
+    m.quote |= static_cast<uint64_t>(q[i] == '"') << i;
   }
   return m;
 #endif
+}
+
+#if defined(__x86_64__) && defined(__GNUC__)
+#define FANFOLD_CSV_AVX2 1
+// MasksAt with two 32-byte AVX2 loads. Only on a CPU that has AVX2 (the
+// build sets no -march: the caller checks at run time).
+__attribute__((target("avx2"))) inline ByteMasks MasksAtAvx2(const char* q, char sep) {
+  const __m256i seps = _mm256_set1_epi8(sep);
+  const __m256i newlines = _mm256_set1_epi8('\n');
+  const __m256i quotes = _mm256_set1_epi8('"');
+  const __m256i lo = _mm256_loadu_si256(reinterpret_cast<const __m256i*>(q));
+  const __m256i hi = _mm256_loadu_si256(reinterpret_cast<const __m256i*>(q + 32));
+  auto mask = [&](__m256i c) __attribute__((target("avx2"))) {
+    return static_cast<uint64_t>(static_cast<uint32_t>(_mm256_movemask_epi8(_mm256_cmpeq_epi8(lo, c)))) |
+           static_cast<uint64_t>(static_cast<uint32_t>(_mm256_movemask_epi8(_mm256_cmpeq_epi8(hi, c)))) << 32;
+  };
+  return ByteMasks{mask(seps), mask(newlines), mask(quotes)};
+}
+#endif
+
+// The masks of the 64 bytes at q, by AVX2 or SSE2.
+template <bool kAvx2>
+inline __attribute__((always_inline)) ByteMasks Masks(const char* q, char sep) {
+#if defined(FANFOLD_CSV_AVX2)
+  if constexpr (kAvx2) return MasksAtAvx2(q, sep);
+#endif
+  return MasksAt(q, sep);
 }
 
 // Scans an unquoted field: the first separator or '\n' at or after q, or
@@ -67,6 +104,16 @@ const char* ScanUnquoted(const char* q, const char* end, char sep) {
   return end;
 }
 
+// A cell's value before its text is set: a string with nothing read from
+// its text yet; and an empty cell's, Missing.
+constexpr Value StringCell() {
+  Value v;
+  v.kind = ValueKind::kString;
+  return v;
+}
+constexpr Value kStringCell = StringCell();
+constexpr Value kMissingCell{};
+
 // Header listings in error messages stop after this many names.
 constexpr size_t kMaxListedColumns = 40;
 
@@ -75,6 +122,9 @@ constexpr size_t kMaxListedColumns = 40;
 CsvReader::CsvReader(const FieldTable& fields, char separator, const ChunkOptions& options)
     : sep_(separator), format_(separator == '\t' ? "TSV" : "CSV"), chunk_(options, kScanPadding),
       slots_(fields.size() + 1) {
+#if defined(FANFOLD_CSV_AVX2)
+  avx2_ = __builtin_cpu_supports("avx2");
+#endif
   for (size_t s = 0; s < fields.size(); ++s) {
     if (fields.slot(s).derived) continue;
     raw_names_.push_back(fields.slot(s).name);
@@ -216,12 +266,12 @@ CsvReader::CutKind CsvReader::CutRecord(const char* p, const char* end, bool eof
   return CutKind::kRecord;
 }
 
-bool CsvReader::CutPlainRecord(const char* p, const char* end, Cut* out) {
+template <bool kAvx2>
+inline __attribute__((always_inline)) bool CsvReader::CutPlainRecordWith(const char* p, const char* end, Cut* out) {
   // Each field's cell goes straight to its slot: unread columns, and any
   // past the header's count, to the spare slot at the end of slots_.
-  Value* const slots = slots_.data();
-  const int* const slot_of = field_slot_.data();
-  const uint32_t last_column = static_cast<uint32_t>(field_slot_.size() - 1);
+  Value* const* const cell_of = field_cell_.data();
+  const uint32_t last_column = static_cast<uint32_t>(field_cell_.size() - 1);
   uint32_t field = 0;
   const char* start = p;  // of the current field
   // A quoted field: its opening quote is the field's first byte; inside it
@@ -234,88 +284,182 @@ bool CsvReader::CutPlainRecord(const char* p, const char* end, Cut* out) {
   bool escaped = false;        // ... and holds a "" escape
   const char* closed = nullptr;  // its closing quote
   const char* skip = p;        // bytes before skip are no event (an escape's second quote)
-  // Ends the current field at `at` (a separator or the line break): writes
-  // its cell if its column is read. False iff the general cut must do it.
-  auto end_field = [&](const char* at) {
-    if (field < 64 && (read_columns_ >> field & 1) == 0) return true;  // a column no field reads
+  // Bit 0: the current field's column is read. Shifted (arithmetically) at
+  // each field, so the top bit stands for every column from 63 on. A local
+  // copy: the cell stores below could alias the member.
+  int64_t read_here = static_cast<int64_t>(read_columns_);
+  // Ends the current field at `at` (a separator, or the line break iff
+  // line_end): writes its cell if its column is read. False iff the general
+  // cut must do it.
+  auto end_field = [&](const char* at, bool line_end) {
+    if ((read_here & 1) == 0) return true;  // a column no field reads
     const char* from = start;
     size_t len = static_cast<size_t>(at - start);
     if (quoted) {
       if (escaped) return false;  // the general cut undoes the escapes
       from = start + 1;
       len = static_cast<size_t>(closed - from);
-    } else if (*at == '\n' && len > 0 && start[len - 1] == '\r') {
+    } else if (line_end && len > 0 && start[len - 1] == '\r') {
       --len;  // CRLF line end
     }
-    Value& v = slots[slot_of[std::min(field, last_column)]];
-    v = len > 0 ? Value::String(std::string_view(from, len)) : Value::Missing();  // an empty cell is Missing
+    Value& v = *cell_of[std::min(field, last_column)];
+    if (len > 0) {
+      v = kStringCell;
+      v.str = std::string_view(from, len);
+    } else {
+      v = kMissingCell;
+    }
     return true;
   };
-  for (const char* b = p; b < end; b += 16) {
-    ByteMasks m = MasksAt(b, sep_);
-    if (end - b < 16) {  // only the bytes before end count
-      const uint32_t inside = (uint32_t{1} << (end - b)) - 1;
+  // 64-byte blocks. The block holding p may be the one the last record
+  // ended in: its masks are kept (block_), so each block of the chunk is
+  // read once however many records it holds.
+  const char* b;
+  ByteMasks m;
+  if (block_ != nullptr && p >= block_ && p < block_ + 64) {
+    b = block_;
+    m = ByteMasks{block_sep_, block_newline_, block_quote_};
+  } else {
+    b = p;
+    m = Masks<kAvx2>(b, sep_);
+    if (end - b < 64) {  // only the bytes before end count
+      const uint64_t inside = (uint64_t{1} << (end - b)) - 1;
       m.sep &= inside;
       m.newline &= inside;
       m.quote &= inside;
     }
-    if (m.quote == 0 && !in_quotes) {
+  }
+  // Bits before p belong to earlier records.
+  uint64_t live = ~uint64_t{0} << (p - b);
+  for (;;) {
+    const uint64_t sep = m.sep & live;
+    const uint64_t newline = m.newline & live;
+    const uint64_t quote = m.quote & live;
+    if (quote == 0 && !in_quotes) {
       // The common block: fields end at separators, the record at the
       // first line break.
-      const uint32_t record = m.newline != 0 ? (m.newline & (0 - m.newline)) - 1 : 0xFFFFu;
-      for (uint32_t s = m.sep & record; s != 0; s &= s - 1) {
+      const uint64_t record = newline != 0 ? (newline & (0 - newline)) - 1 : ~uint64_t{0};
+      for (uint64_t s = sep & record; s != 0; s &= s - 1) {
         const char* at = b + std::countr_zero(s);
-        if (!end_field(at)) return false;
+        if (!end_field(at, false)) return false;
         ++field;
+        read_here >>= 1;
         start = at + 1;
         quoted = false;
       }
-      if (m.newline != 0) {
-        const char* nl = b + std::countr_zero(m.newline);
-        if (!end_field(nl)) return false;
+      if (newline != 0) {
+        const char* nl = b + std::countr_zero(newline);
+        if (!end_field(nl, true)) return false;
         *out = Cut{nl + 1, 1, field + 1, nullptr};
+        block_ = b;
+        block_sep_ = m.sep;
+        block_newline_ = m.newline;
+        block_quote_ = m.quote;
         return true;
       }
-      continue;
-    }
-    // A block with quotes, or inside a quoted field: every event in order.
-    for (uint32_t e = m.sep | m.newline | m.quote; e != 0; e &= e - 1) {
-      const char* at = b + std::countr_zero(e);
-      if (at < skip) continue;
-      const char c = *at;
-      if (in_quotes) {
-        if (c == '\n') return false;  // a line break inside quotes
-        if (c != '"') continue;        // a separator inside quotes is data
-        if (at + 2 >= end) return false;  // what follows is not in the chunk yet
-        if (at[1] == '"') {  // "" is one quote
-          escaped = true;
-          skip = at + 2;
+    } else {
+      // A block with quotes, or inside a quoted field: every event in order.
+      for (uint64_t e = sep | newline | quote; e != 0; e &= e - 1) {
+        const char* at = b + std::countr_zero(e);
+        if (at < skip) continue;
+        const char c = *at;
+        if (in_quotes) {
+          if (c == '\n') return false;  // a line break inside quotes
+          if (c != '"') continue;        // a separator inside quotes is data
+          if (at + 2 >= end) return false;  // what follows is not in the chunk yet
+          if (at[1] == '"') {  // "" is one quote
+            escaped = true;
+            skip = at + 2;
+            continue;
+          }
+          in_quotes = false;
+          closed = at;
+          // Only a separator or a line end may follow the closing quote.
+          if (at[1] != sep_ && at[1] != '\n' && !(at[1] == '\r' && at[2] == '\n')) return false;
           continue;
         }
-        in_quotes = false;
-        closed = at;
-        // Only a separator or a line end may follow the closing quote.
-        if (at[1] != sep_ && at[1] != '\n' && !(at[1] == '\r' && at[2] == '\n')) return false;
-        continue;
+        if (c == '"') {
+          if (at != start || quoted) return false;  // a stray quote, or text after a closing quote
+          in_quotes = quoted = true;
+          escaped = false;
+          continue;
+        }
+        if (!end_field(at, c == '\n')) return false;
+        if (c == '\n') {
+          *out = Cut{at + 1, 1, field + 1, nullptr};
+          block_ = b;
+          block_sep_ = m.sep;
+          block_newline_ = m.newline;
+          block_quote_ = m.quote;
+          return true;
+        }
+        ++field;
+        read_here >>= 1;
+        start = at + 1;
+        quoted = false;
       }
-      if (c == '"') {
-        if (at != start || quoted) return false;  // a stray quote, or text after a closing quote
-        in_quotes = quoted = true;
-        escaped = false;
-        continue;
-      }
-      if (!end_field(at)) return false;
-      if (c == '\n') {
-        *out = Cut{at + 1, 1, field + 1, nullptr};
-        return true;
-      }
-      ++field;
-      start = at + 1;
-      quoted = false;
     }
+    b += 64;
+    if (b >= end) break;
+    m = Masks<kAvx2>(b, sep_);
+    if (end - b < 64) {
+      const uint64_t inside = (uint64_t{1} << (end - b)) - 1;
+      m.sep &= inside;
+      m.newline &= inside;
+      m.quote &= inside;
+    }
+    live = ~uint64_t{0};
   }
   return false;  // no line break before end: the general cut decides
 }
+
+template <bool kAvx2>
+inline __attribute__((always_inline)) const char* CsvReader::CutPlainRunWith(const char* p, const char* end,
+                                                                              RecordSink& sink, uint64_t* line,
+                                                                              ReadStats* st, bool* stopped) {
+  const size_t columns = header_.size();
+  while (p < end && *p != '\n' && *p != '\r') {
+    Cut cut;
+    if (!CutPlainRecordWith<kAvx2>(p, end, &cut) || cut.fields != columns) break;
+    ++st->records;
+    sink.set_record_line(*line);
+    *line += cut.newlines;
+    p = cut.next;
+    if (!sink.OnRecord(slots_.data())) {
+      *stopped = true;
+      break;
+    }
+  }
+  return p;
+}
+
+bool CsvReader::CutPlainRecord(const char* p, const char* end, Cut* out) {
+  return CutPlainRecordWith<false>(p, end, out);
+}
+
+const char* CsvReader::CutPlainRun(const char* p, const char* end, RecordSink& sink, uint64_t* line, ReadStats* st,
+                                   bool* stopped) {
+  return CutPlainRunWith<false>(p, end, sink, line, st, stopped);
+}
+
+#if defined(FANFOLD_CSV_AVX2)
+__attribute__((target("avx2"))) bool CsvReader::CutPlainRecordAvx2(const char* p, const char* end, Cut* out) {
+  return CutPlainRecordWith<true>(p, end, out);
+}
+
+__attribute__((target("avx2"))) const char* CsvReader::CutPlainRunAvx2(const char* p, const char* end,
+                                                                       RecordSink& sink, uint64_t* line,
+                                                                       ReadStats* st, bool* stopped) {
+  return CutPlainRunWith<true>(p, end, sink, line, st, stopped);
+}
+#else
+bool CsvReader::CutPlainRecordAvx2(const char* p, const char* end, Cut* out) { return CutPlainRecord(p, end, out); }
+
+const char* CsvReader::CutPlainRunAvx2(const char* p, const char* end, RecordSink& sink, uint64_t* line,
+                                       ReadStats* st, bool* stopped) {
+  return CutPlainRun(p, end, sink, line, st, stopped);
+}
+#endif
 
 Status CsvReader::BindHeader() {
   column_slot_.assign(header_.size(), -1);
@@ -338,11 +482,11 @@ Status CsvReader::BindHeader() {
     if (column_slot_[column] < 0) column_slot_[column] = raw_slots_[i];
   }
   const int spare = static_cast<int>(slots_.size() - 1);
-  field_slot_.clear();
-  for (int slot : column_slot_) field_slot_.push_back(slot >= 0 ? slot : spare);
-  field_slot_.push_back(spare);  // every field past the header's count
+  field_cell_.clear();
+  for (int slot : column_slot_) field_cell_.push_back(&slots_[static_cast<size_t>(slot >= 0 ? slot : spare)]);
+  field_cell_.push_back(&slots_[static_cast<size_t>(spare)]);  // every field past the header's count
   read_columns_ = ~uint64_t{0};
-  for (size_t c = 0; c < column_slot_.size() && c < 64; ++c)
+  for (size_t c = 0; c < column_slot_.size() && c < 63; ++c)
     if (column_slot_[c] < 0) read_columns_ &= ~(uint64_t{1} << c);
   return Status::Ok();
 }
@@ -372,6 +516,7 @@ Status CsvReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
     }
     const char* p = chunk_.data();
     const char* end = p + chunk_.size();
+    block_ = nullptr;  // the chunk may have moved
     // The cells of this chunk's records stay valid until the chunk moves:
     // lent to the sink until then.
     sink.LendStrings();
@@ -381,10 +526,21 @@ Status CsvReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
       return go_on;
     };
     while (p < end) {
+      if (have_header) {
+        // The common records, one after another, without leaving the fast cut.
+        bool stopped = false;
+        p = avx2_ ? CutPlainRunAvx2(p, end, sink, &line, &st, &stopped) : CutPlainRun(p, end, sink, &line, &st, &stopped);
+        if (stopped) {
+          end_loan();
+          return Status::Ok();
+        }
+        if (p >= end) break;
+      }
       Cut cut;
       // The common record writes its cells to slots_ as it is cut; any
       // other goes through CutRecord and cells_.
-      const bool plain = have_header && *p != '\n' && *p != '\r' && CutPlainRecord(p, end, &cut);
+      const bool plain = have_header && *p != '\n' && *p != '\r' &&
+                         (avx2_ ? CutPlainRecordAvx2(p, end, &cut) : CutPlainRecord(p, end, &cut));
       const CutKind kind = plain ? CutKind::kRecord : CutRecord(p, end, last, !have_header, &cut);
       if (kind == CutKind::kNeedMore) break;
       const uint64_t record_line = line;

@@ -69,9 +69,26 @@ class CsvReader final : public RecordReader {
   // false (slots_ in any state) for any other record.
   // REQUIRES: the header is bound.
   bool CutPlainRecord(const char* p, const char* end, Cut* out);
+  // CutPlainRecord reading the bytes with AVX2. REQUIRES: avx2_.
+  bool CutPlainRecordAvx2(const char* p, const char* end, Cut* out);
+  template <bool kAvx2>
+  bool CutPlainRecordWith(const char* p, const char* end, Cut* out);
+  // Cuts and hands to sink (as Read does: counted in st->records, *line
+  // advanced) the common records from p on while each is one CutPlainRecord
+  // takes with the header's field count; returns where it stopped: end, a
+  // blank line, or a record the general path must take. *stopped: the sink
+  // asked to stop (the record it had is counted).
+  const char* CutPlainRun(const char* p, const char* end, RecordSink& sink, uint64_t* line, ReadStats* st,
+                          bool* stopped);
+  const char* CutPlainRunAvx2(const char* p, const char* end, RecordSink& sink, uint64_t* line, ReadStats* st,
+                              bool* stopped);
+  template <bool kAvx2>
+  const char* CutPlainRunWith(const char* p, const char* end, RecordSink& sink, uint64_t* line, ReadStats* st,
+                              bool* stopped);
   void KeepField(bool header, uint32_t field, const char* ptr, size_t scratch_offset, size_t len, bool in_scratch);
   Status BindHeader();
 
+  bool avx2_ = false;  // the CPU has AVX2 (checked at run time)
   char sep_;
   const char* format_;  // "CSV" or "TSV", for messages
   std::vector<std::string> raw_names_;
@@ -79,8 +96,16 @@ class CsvReader final : public RecordReader {
   ChunkBuffer chunk_;
   std::vector<std::string> header_;
   std::vector<int> column_slot_;  // per header column: slot to fill, or -1
-  std::vector<int> field_slot_;   // column_slot_ with the spare slot for -1, then one more spare
-  uint64_t read_columns_ = 0;     // bit c: column c (< 64) is read; set for columns 64 and up
+  // Per header column, the slot its cells go to in slots_ (the spare one
+  // for -1 in column_slot_), then the spare again for fields past the header.
+  std::vector<Value*> field_cell_;
+  // Bit c: column c (< 63) is read; bit 63, set, stands for every column
+  // from 63 on (an unread one among them only costs a store to the spare slot).
+  uint64_t read_columns_ = 0;
+  // The 64-byte block CutPlainRecord last ended a record in (null: none in
+  // this chunk) and its separator, line break and quote masks.
+  const char* block_ = nullptr;
+  uint64_t block_sep_ = 0, block_newline_ = 0, block_quote_ = 0;
   std::vector<Value> slots_;      // the FieldTable's slots, then a spare one
   std::vector<Cell> cells_;
   std::string scratch_;
