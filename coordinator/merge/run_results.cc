@@ -69,15 +69,15 @@ bool RunResults::ShouldSpill() const {
   return 2 * run_bytes() + batch_raw_ + batch_held_ + batch_streams_ * threads_ > memory_.merge_bytes;
 }
 
-FoldOutcome RunResults::FoldOne(size_t r, bool spill, uint32_t end, size_t range_count,
-                                const std::vector<const StoredPartialBytes*>& bytes, std::unique_ptr<StoredRun>* next) {
+FoldOutcome RunResults::FoldOne(size_t r, bool spill, uint32_t end, const std::vector<const StoredPartialBytes*>& bytes,
+                                std::unique_ptr<StoredRun>* next) {
   const std::vector<MeasureConfig>* configs = &plan_->reductions[r].configs;
   FoldInputs in;
   in.base_pieces = runs_[r]->pieces();
   in.streams = bytes;
   in.reduction = r;
   for (const Pending& p : batch_) in.stream_groups.push_back(p.scanned.group_counts[r]);
-  const std::vector<KeyRange> ranges = CutRanges(in, configs->size(), range_count);
+  const std::vector<KeyRange> ranges = CutRanges(in, configs->size(), threads_);
   std::vector<std::string> bodies(ranges.size());
   std::vector<std::string*> outs;
   for (std::string& b : bodies) outs.push_back(&b);
@@ -126,8 +126,7 @@ FoldOutcome RunResults::FoldOne(size_t r, bool spill, uint32_t end, size_t range
   return o;
 }
 
-RunResults::Folded RunResults::Fold(size_t ranges) {
-  ranges = ranges == 0 ? threads_ : std::min(ranges, threads_);
+RunResults::Folded RunResults::Fold() {
   Folded out;
   while (!batch_.empty()) {
     const bool spill = ShouldSpill();
@@ -155,7 +154,7 @@ RunResults::Folded RunResults::Fold(size_t ranges) {
     std::vector<std::unique_ptr<StoredRun>> next(runs_.size());
     uint64_t groups = 0;
     for (size_t r = 0; r < runs_.size() && bad == FoldOutcome::kNoPartial; ++r) {
-      FoldOutcome o = FoldOne(r, spill, end, ranges, bytes, &next[r]);
+      FoldOutcome o = FoldOne(r, spill, end, bytes, &next[r]);
       if (!o.status.ok() && o.bad_partial == FoldOutcome::kNoPartial) {
         out.fatal = o.status;
         batch_.clear();

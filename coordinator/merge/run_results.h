@@ -76,7 +76,6 @@ class RunResults {
   // partial is then not added: the caller drops its shard).
   Status Add(uint32_t shard, std::unique_ptr<StoredPartialBytes> bytes, bool checksum_checked);
   bool pending() const { return !batch_.empty(); }
-  size_t pending_partials() const { return batch_.size(); }
   // True iff the pending batch is big enough to fold: its groups are
   // twice the runs' (rewriting the runs then costs at most about half of
   // folding the batch), or it reached a limit of MergeMemory's comment.
@@ -93,10 +92,8 @@ class RunResults {
     // its limit, or a run's own bytes bad); the runs are then as before.
     Status fatal;
   };
-  // Folds the pending batch into the runs and empties it, over at most
-  // `ranges` key ranges (0: the threads given at construction; the bytes
-  // do not depend on it).
-  Folded Fold(size_t ranges = 0);
+  // Folds the pending batch into the runs and empties it.
+  Folded Fold();
 
   // Walks reduction r's run: its groups in ascending key order, each key's
   // states as the in-memory table would encode them. Valid while this
@@ -113,8 +110,8 @@ class RunResults {
   bool ShouldSpill() const;
   // Folds reduction r's run with the batch into *next (in memory or, with
   // spill, in files named after `end`, the batch's last shard + 1).
-  FoldOutcome FoldOne(size_t r, bool spill, uint32_t end, size_t ranges,
-                      const std::vector<const StoredPartialBytes*>& bytes, std::unique_ptr<StoredRun>* next);
+  FoldOutcome FoldOne(size_t r, bool spill, uint32_t end, const std::vector<const StoredPartialBytes*>& bytes,
+                      std::unique_ptr<StoredRun>* next);
 
   const Plan* plan_;
   size_t threads_;

@@ -87,7 +87,7 @@ void Merger::Drain() {
     if (runs_) {  // the batch reads it as a stream at fold time
       AddToRuns(next_, std::move(bytes), !reloaded);
       ++next_;
-      if (FoldDue()) FoldRuns();
+      if (runs_->BatchFull()) FoldRuns();
       continue;
     }
     Status s = reloaded ? reload_(next_, &bytes) : Status::Ok();
@@ -106,7 +106,7 @@ void Merger::Drain() {
       opened.reset();
       AddToRuns(next_, std::move(bytes), /*checked=*/true);
       ++next_;
-      if (FoldDue()) FoldRuns();
+      if (runs_->BatchFull()) FoldRuns();
       continue;
     }
     // Without a reloader every byte is checked before any is merged, so a
@@ -225,22 +225,8 @@ void Merger::StartRuns() {
   }
 }
 
-bool Merger::FoldDue() const {
-  if (!runs_->pending()) return false;
-  // The batch rule bounds the total rewriting; the tail rule keeps the
-  // last fold (after the last partial, the run's critical path) small:
-  // once the batch holds as many partials as shards are still to come,
-  // it is folded now, while the workers run, so the batches near the end
-  // halve and the last fold takes about one partial. It costs at most
-  // about log2(shards) more rewrites of the run.
-  return runs_->BatchFull() || runs_->pending_partials() >= shard_count_ - next_;
-}
-
 void Merger::FoldRuns() {
-  // A fold before the last partial runs beside the workers: over one key
-  // range (one thread), so it takes no core a worker could use; the last
-  // fold, which the result waits for, over every range.
-  RunResults::Folded f = runs_->Fold(complete() ? 0 : 1);
+  RunResults::Folded f = runs_->Fold();
   for (auto& [shard, message] : f.bad) {  // the checksum matched, so this is a bug or a forged file
     late_failures_.push_back({shard, std::move(message)});
     failed_[shard] = true;

@@ -179,7 +179,6 @@ class Merger {
   // Adds a merged partial's counts and samples to the totals.
   void Account(uint32_t shard, OpenedPartial& p);
   void StartRuns();  // moves every reduction's table to a run
-  bool FoldDue() const;  // whether the runs' pending batch is folded now
   void FoldRuns();   // folds the runs' pending batch, accounting for it
   Status VisitRunRows(size_t r, const RowVisitor& visit);
   // Adds shard's partial to the runs' batch: its stored bytes (`bytes`,
