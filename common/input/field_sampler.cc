@@ -6,7 +6,7 @@
 #include <cstring>
 
 #include "common/base/json_location.h"
-#include "common/input/csv_reader.h"
+#include "common/input/csv/csv_reader.h"
 #include "common/input/json_pointer.h"
 #include "common/port/clock.h"
 

@@ -2,7 +2,7 @@
 
 #include <cstdlib>
 
-#include "common/input/csv_reader.h"
+#include "common/input/csv/csv_reader.h"
 #include "common/input/ndjson_reader.h"
 #include "common/input/record_reader.h"
 

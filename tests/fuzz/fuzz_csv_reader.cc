@@ -7,7 +7,7 @@
 #include <cstdint>
 #include <string>
 
-#include "common/input/csv_reader.h"
+#include "common/input/csv/csv_reader.h"
 #include "common/input/record_reader.h"
 #include "tests/fuzz/fuzz_reader_util.h"
 

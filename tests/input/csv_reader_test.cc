@@ -1,7 +1,7 @@
-// Tests for CsvReader / ReadRecords on CSV and TSV (common/input/csv_reader.h).
+// Tests for CsvReader / ReadRecords on CSV and TSV (common/input/csv/csv_reader.h).
 // External references: the examples of RFC 4180 section 2, and Python 3's
 // csv module (run through popen on generated files) as an independent parser.
-#include "common/input/csv_reader.h"
+#include "common/input/csv/csv_reader.h"
 
 #include <doctest/doctest.h>
 #include <stdlib.h>

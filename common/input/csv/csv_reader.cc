@@ -1,4 +1,4 @@
-#include "common/input/csv_reader.h"
+#include "common/input/csv/csv_reader.h"
 
 #include <algorithm>
 #include <bit>
