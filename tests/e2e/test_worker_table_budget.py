@@ -94,6 +94,17 @@ def run(env, c, job, workers, budget, label, tmpdir):
         return f.read(), partial_bodies(run_dir)
 
 
+def cpu_ticks(pid):
+    """User + system CPU time of pid in clock ticks (proc(5): fields 14 and
+    15 of /proc/PID/stat), or None if it is gone."""
+    try:
+        with open("/proc/%d/stat" % pid) as f:
+            fields = f.read().rsplit(")", 1)[1].split()
+        return int(fields[11]) + int(fields[12])
+    except (OSError, IndexError, ValueError):
+        return None
+
+
 def overflow_fds(pid, tmpdir):
     """The worker's open files under tmpdir (Linux /proc/PID/fd links)."""
     found = []
@@ -124,9 +135,13 @@ def kill_trial(env, c, job, base, tmpdir):
         for w in lib.worker_pids(p.pid):
             files = overflow_fds(w, tmpdir)
             if files:
-                # The stalled worker (the others finish their shards and go on).
+                # The stalled worker: its overflow files unchanged and no CPU
+                # time used for 0.3 s. A worker still reading (slowly, say
+                # under a sanitizer) keeps using CPU; killing it instead would
+                # leave the stalled one asleep and the run waiting for ever.
+                cpu = cpu_ticks(w)
                 time.sleep(0.3)
-                if overflow_fds(w, tmpdir) == files:
+                if overflow_fds(w, tmpdir) == files and cpu is not None and cpu_ticks(w) == cpu:
                     victim = w
                     break
         time.sleep(0.05)
