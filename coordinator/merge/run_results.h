@@ -99,6 +99,8 @@ class RunResults {
   // states as the in-memory table would encode them. Valid while this
   // RunResults lives and no Fold runs.
   RunCursor Cursor(size_t r) const { return RunCursor(runs_[r]->pieces(), plan_->reductions[r].configs.size()); }
+  // Reduction r's run as its pieces (key ranges, in key order).
+  std::vector<RunPiece> Pieces(size_t r) const { return runs_[r]->pieces(); }
   uint64_t run_groups() const { return run_groups_; }
   // The runs' bytes, over every reduction, and whether they are in files.
   uint64_t run_bytes() const;

@@ -130,7 +130,12 @@ Status RowWriter::End() {
 }
 
 Status RowWriter::MaybeFlush() {
-  if (buf_.size() < kFlushBytes) return Status::Ok();
+  if (buf_.size() < flush_bytes_) return Status::Ok();
+  return Flush();
+}
+
+Status RowWriter::Flush() {
+  if (buf_.empty()) return Status::Ok();
   Status s = sink_(buf_);
   buf_.clear();
   return s;

@@ -51,6 +51,12 @@ class RowWriter {
   Status Row(const std::vector<Cell>& row);
   // The text after the last row; hands everything left to the sink.
   Status End();
+  // Hands the text held so far to the sink (a piece ending at a line end).
+  Status Flush();
+  // Text held, not yet handed to the sink.
+  size_t held() const { return buf_.size(); }
+  // The sink gets the text once this much is held (default kFlushBytes).
+  void set_flush_bytes(size_t n) { flush_bytes_ = n; }
   uint64_t rows() const { return rows_; }
 
  private:
@@ -63,6 +69,7 @@ class RowWriter {
   std::vector<size_t> width_;
   Sink sink_;
   std::string buf_;
+  size_t flush_bytes_ = kFlushBytes;
   uint64_t rows_ = 0;
 };
 

@@ -160,6 +160,20 @@ class Merger {
   // starts over: the output stage walks again when rows came out of order).
   using RowVisitor = std::function<Status(std::vector<Cell>* row)>;
   Status VisitRows(size_t r, const RowVisitor& visit);
+  // While in_runs(): the pieces of reduction r's run (the key ranges of
+  // its last fold, in key order), which VisitRunPieces walks at once.
+  size_t run_pieces(size_t r) const { return runs_ ? runs_->Pieces(r).size() : 0; }
+  // VisitRows while in_runs(), each piece of the run walked on a thread of
+  // its own (piece 0 on the calling one): visit(p, row) gets piece p's rows
+  // in VisitRows' order, and every row of piece p comes before piece p + 1's
+  // there. visit is called from several threads at once, never twice at
+  // once for one piece. Returns the lowest piece's error (then the keys
+  // ascending across pieces are checked). REQUIRES: as VisitRows; in_runs().
+  // done(p, status) is called on piece p's thread once its walk ended
+  // (status: ok, or why it stopped), before the walks are joined.
+  using PieceRowVisitor = std::function<Status(size_t piece, std::vector<Cell>* row)>;
+  using PieceDone = std::function<void(size_t piece, const Status& walked)>;
+  Status VisitRunPieces(size_t r, const PieceRowVisitor& visit, const PieceDone& done);
   // Reduction r's finished table, sorted by key: VisitRows collected into
   // memory (tests and benchmarks; runs stream with VisitRows).
   Result<OutputTable> Finish(size_t r);
