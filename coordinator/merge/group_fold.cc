@@ -48,6 +48,44 @@ struct Source {
   size_t partial;  // index in FoldInputs::partials, or FoldOutcome::kNoPartial for the base
 };
 
+// A source on the fold's heap: its current key, and its index (the merge
+// order of equal keys).
+struct HeapEntry {
+  std::string_view key;
+  size_t src;
+};
+
+// a comes before b: smaller key, or the same key from an earlier source.
+inline bool Before(const HeapEntry& a, const HeapEntry& b) {
+  if (EncodedGroupCursor::KeyLess(a.key, b.key)) return true;
+  return a.src < b.src && !EncodedGroupCursor::KeyLess(b.key, a.key);
+}
+
+void SiftDown(std::vector<HeapEntry>& h, size_t i) {
+  const size_t n = h.size();
+  const HeapEntry x = h[i];
+  for (;;) {
+    size_t c = 2 * i + 1;
+    if (c >= n) break;
+    if (c + 1 < n && Before(h[c + 1], h[c])) ++c;
+    if (!Before(h[c], x)) break;
+    h[i] = h[c];
+    i = c;
+  }
+  h[i] = x;
+}
+
+void SiftUp(std::vector<HeapEntry>& h, size_t i) {
+  const HeapEntry x = h[i];
+  while (i > 0) {
+    const size_t parent = (i - 1) / 2;
+    if (!Before(x, h[parent])) break;
+    h[i] = h[parent];
+    i = parent;
+  }
+  h[i] = x;
+}
+
 FoldOutcome Failed(Status s, size_t partial) {
   FoldOutcome o;
   o.status = std::move(s);
@@ -89,33 +127,38 @@ FoldOutcome GroupFold::FoldRange(const FoldInputs& in, const KeyRange& range, st
   for (size_t p = 0; p < in.partial_count(); ++p) sources.push_back({PartialCursor(in, p, m), p});
   const auto in_range = [&](const FoldCursor& c) { return !range.bounded || c.key() < range.hi; };
   // The heap holds the sources positioned on a key in range, smallest key
-  // on top, equal keys in source order (base, then shard order).
-  std::vector<size_t> heap;
-  const auto later = [&](size_t a, size_t b) {
-    const std::string_view ka = sources[a].cursor.key();
-    const std::string_view kb = sources[b].cursor.key();
-    return EncodedGroupCursor::KeyLess(kb, ka) || (a > b && !EncodedGroupCursor::KeyLess(ka, kb));
-  };
+  // on top, equal keys in source order (base, then shard order); each
+  // entry caches its source's key.
+  std::vector<HeapEntry> heap;
   for (size_t i = 0; i < sources.size(); ++i) {
     FoldCursor& c = sources[i].cursor;
     if (!c.status().ok()) return CursorFailed(sources[i]);
     if (c.SeekAtLeast(range.lo)) {
-      if (in_range(c)) heap.push_back(i);
+      if (in_range(c)) heap.push_back({c.key(), i});
     } else if (!c.status().ok()) {
       return CursorFailed(sources[i]);
     }
   }
-  std::make_heap(heap.begin(), heap.end(), later);
+  for (size_t i = heap.size() / 2; i-- > 0;) SiftDown(heap, i);
   FoldOutcome outcome;
   ByteWriter w(out);
   std::vector<size_t> holders;  // sources positioned on the current key, in source order
   while (!heap.empty()) {
     holders.clear();
-    const std::string_view key = sources[heap.front()].cursor.key();
-    while (!heap.empty() && sources[heap.front()].cursor.key() == key) {
-      std::pop_heap(heap.begin(), heap.end(), later);
-      holders.push_back(heap.back());
-      heap.pop_back();
+    const std::string_view key = heap.front().key;
+    // Other sources on this key lie below the top through entries with
+    // the same key, so when neither child has it the top is alone (the
+    // common case: advanced and sifted down in place, below).
+    const bool alone = (heap.size() < 2 || heap[1].key != key) && (heap.size() < 3 || heap[2].key != key);
+    if (alone) {
+      holders.push_back(heap.front().src);
+    } else {
+      while (!heap.empty() && heap.front().key == key) {
+        holders.push_back(heap.front().src);
+        heap.front() = heap.back();
+        heap.pop_back();
+        if (!heap.empty()) SiftDown(heap, 0);
+      }
     }
     const bool from_base = sources[holders[0]].partial == FoldOutcome::kNoPartial;
     if (from_base && holders.size() == 1) {
@@ -157,12 +200,24 @@ FoldOutcome GroupFold::FoldRange(const FoldInputs& in, const KeyRange& range, st
       Status s = (*drain)(out);
       if (!s.ok()) return Failed(std::move(s), FoldOutcome::kNoPartial);
     }
+    if (alone) {  // the top's source moves on in place
+      FoldCursor& c = sources[holders[0]].cursor;
+      if (c.Next() && in_range(c)) {
+        heap.front().key = c.key();
+      } else {
+        if (!c.status().ok()) return CursorFailed(sources[holders[0]]);
+        heap.front() = heap.back();
+        heap.pop_back();
+      }
+      if (!heap.empty()) SiftDown(heap, 0);
+      continue;
+    }
     for (size_t i : holders) {
       FoldCursor& c = sources[i].cursor;
       if (c.Next()) {
         if (in_range(c)) {
-          heap.push_back(i);
-          std::push_heap(heap.begin(), heap.end(), later);
+          heap.push_back({c.key(), i});
+          SiftUp(heap, heap.size() - 1);
         }
       } else if (!c.status().ok()) {
         return CursorFailed(sources[i]);
