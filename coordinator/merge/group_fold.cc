@@ -1,6 +1,7 @@
 #include "coordinator/merge/group_fold.h"
 
 #include <algorithm>
+#include <cstring>
 #include <optional>
 #include <thread>
 
@@ -59,6 +60,21 @@ struct HeapEntry {
 inline bool Before(const HeapEntry& a, const HeapEntry& b) {
   if (EncodedGroupCursor::KeyLess(a.key, b.key)) return true;
   return a.src < b.src && !EncodedGroupCursor::KeyLess(b.key, a.key);
+}
+
+// Keys are short: compared inline, a word at a time.
+inline bool SameKey(std::string_view a, std::string_view b) {
+  if (a.size() != b.size()) return false;
+  size_t i = 0;
+  for (; i + 8 <= a.size(); i += 8) {
+    uint64_t x, y;
+    std::memcpy(&x, a.data() + i, 8);
+    std::memcpy(&y, b.data() + i, 8);
+    if (x != y) return false;
+  }
+  for (; i < a.size(); ++i)
+    if (a[i] != b[i]) return false;
+  return true;
 }
 
 void SiftDown(std::vector<HeapEntry>& h, size_t i) {
@@ -125,7 +141,8 @@ FoldOutcome GroupFold::FoldRange(const FoldInputs& in, const KeyRange& range, st
   sources.reserve(in.partial_count() + 1);
   if (HasBase(in)) sources.push_back({FoldCursor(BaseCursor(in, m)), FoldOutcome::kNoPartial});
   for (size_t p = 0; p < in.partial_count(); ++p) sources.push_back({PartialCursor(in, p, m), p});
-  const auto in_range = [&](const FoldCursor& c) { return !range.bounded || c.key() < range.hi; };
+  const std::string_view hi = range.hi;
+  const auto in_range = [&](const FoldCursor& c) { return !range.bounded || EncodedGroupCursor::KeyLess(c.key(), hi); };
   // The heap holds the sources positioned on a key in range, smallest key
   // on top, equal keys in source order (base, then shard order); each
   // entry caches its source's key.
@@ -149,11 +166,11 @@ FoldOutcome GroupFold::FoldRange(const FoldInputs& in, const KeyRange& range, st
     // Other sources on this key lie below the top through entries with
     // the same key, so when neither child has it the top is alone (the
     // common case: advanced and sifted down in place, below).
-    const bool alone = (heap.size() < 2 || heap[1].key != key) && (heap.size() < 3 || heap[2].key != key);
+    const bool alone = (heap.size() < 2 || !SameKey(heap[1].key, key)) && (heap.size() < 3 || !SameKey(heap[2].key, key));
     if (alone) {
       holders.push_back(heap.front().src);
     } else {
-      while (!heap.empty() && heap.front().key == key) {
+      while (!heap.empty() && SameKey(heap.front().key, key)) {
         holders.push_back(heap.front().src);
         heap.front() = heap.back();
         heap.pop_back();
