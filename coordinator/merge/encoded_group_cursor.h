@@ -112,8 +112,20 @@ inline bool EncodedGroupCursor::KeyLess(std::string_view a, std::string_view b) 
       return x < y;
     }
   }
-  for (; i < n; ++i)
-    if (a[i] != b[i]) return static_cast<unsigned char>(a[i]) < static_cast<unsigned char>(b[i]);
+  if (i < n) {  // the last 1-7 common bytes as one word: the 8 ending there, or zero-padded
+    uint64_t x = 0, y = 0;
+    if (n >= 8) {  // overlaps bytes already found equal, which leaves the order to the rest
+      std::memcpy(&x, a.data() + n - 8, 8);
+      std::memcpy(&y, b.data() + n - 8, 8);
+    } else {
+      std::memcpy(&x, a.data(), n);
+      std::memcpy(&y, b.data(), n);
+    }
+    if (x != y) {
+      if constexpr (std::endian::native == std::endian::little) return __builtin_bswap64(x) < __builtin_bswap64(y);
+      return x < y;
+    }
+  }
   return a.size() < b.size();
 }
 
