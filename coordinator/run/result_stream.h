@@ -14,7 +14,10 @@
 // of order drops those files unpublished and the rows are walked again
 // through the ordering above (at most one walk wasted). On that path the
 // merge's walk (decode, finalize, rows step) runs on a thread of its own,
-// handing rows in batches (RowPipe) to this one, which orders and writes.
+// handing rows in batches (RowPipe) to this one, which orders and writes;
+// for CSV and NDJSON over a run of several pieces, each piece is walked,
+// checked and formatted on its own thread and the text written in piece
+// order (RangeTextQueue).
 // The bytes are those of SortRows + RenderTable over the whole table,
 // whatever the budget and path. Coordinator main thread only.
 #pragma once
