@@ -70,6 +70,19 @@ void WorkerGroupTable::Encode(ByteWriter& w) const {
   SyncColumns();
   w.Varint(keys_.size());
   const std::vector<uint32_t> order = KeyOrder(keys_);
+  // With every column's states bounded (below a one-byte length), groups
+  // are written by pointer; else through EncodeGroup.
+  size_t state_bytes = 0;
+  bool bounded = true;
+  for (const auto& c : columns_) {
+    const size_t b = c->EncodeBound();
+    bounded = bounded && b > 0 && b < 0x80;
+    state_bytes += 1 + b;
+  }
+  if (bounded) {
+    EncodeBounded(order, state_bytes, w);
+    return;
+  }
   // Groups go out in key order, scattered in memory: their key bytes and
   // states are fetched a few groups ahead (the states one step later, as
   // the key's bytes wait on its view).
@@ -83,6 +96,46 @@ void WorkerGroupTable::Encode(ByteWriter& w) const {
     }
     EncodeGroup(order[i], w);
   }
+}
+
+void WorkerGroupTable::EncodeBounded(const std::vector<uint32_t>& order, size_t state_bytes, ByteWriter& w) const {
+  // EncodeGroup's bytes: the key behind its varint length, then each state
+  // behind its length (one byte: every bound is below 0x80). The buffer
+  // grows a piece at a time (zero-filled by resize while the piece is in
+  // the cache, then overwritten), within the capacity the caller reserved.
+  constexpr size_t kPiece = size_t{64} << 10;
+  std::string& out = *w.buffer();
+  size_t used = out.size();
+  char* p = out.data() + used;
+  char* limit = p;
+  constexpr size_t kAhead = 8;
+  const size_t n = order.size();
+  for (size_t i = 0; i < n; ++i) {
+    if (i + 2 * kAhead < n) __builtin_prefetch(&keys_[order[i + 2 * kAhead]]);
+    if (i + kAhead < n) {
+      const uint32_t ahead = order[i + kAhead];
+      __builtin_prefetch(keys_[ahead].data());
+      for (const auto& c : columns_) c->Prefetch(ahead);
+    }
+    const uint32_t g = order[i];
+    const std::string_view key = keys_[g];
+    const size_t need = kMaxVarintBytes + key.size() + state_bytes;
+    if (static_cast<size_t>(limit - p) < need) {
+      used = static_cast<size_t>(p - out.data());
+      out.resize(used + std::max(need, kPiece));
+      p = out.data() + used;
+      limit = out.data() + out.size();
+    }
+    p = PutVarint(p, key.size());
+    std::memcpy(p, key.data(), key.size());
+    p += key.size();
+    for (const auto& c : columns_) {
+      char* length = p++;
+      p = c->EncodeGroupTo(g, p);
+      *length = static_cast<char>(p - length - 1);
+    }
+  }
+  out.resize(static_cast<size_t>(p - out.data()));
 }
 
 std::vector<uint32_t> WorkerGroupTable::SortedGroups() const { return KeyOrder(keys_); }

@@ -131,6 +131,10 @@ class WorkerGroupTable {
     return ((a0 ^ b0) | (a1 ^ b1)) == 0;
   }
 
+  // Encode's groups when every column has an EncodeBound: written by
+  // pointer, state_bytes = the sum of (1 + bound) over the columns.
+  void EncodeBounded(const std::vector<uint32_t>& order, size_t state_bytes, ByteWriter& w) const;
+
   // Recomputes the budget's base (see FindOrAdd) at the current size.
   void Resync();
 
