@@ -36,22 +36,34 @@ uint64_t KeyWindow(std::string_view key, size_t offset) {
   return w;
 }
 
+// How many leading bytes a and b share, at most n (n <= both sizes).
+size_t SharedBytes(const char* a, const char* b, size_t n) {
+  auto first_difference = [](uint64_t x, uint64_t y) { return static_cast<size_t>(std::countr_zero(x ^ y)) / 8; };
+  uint64_t x, y;
+  size_t i = 0;
+  for (; i + 8 <= n; i += 8) {
+    std::memcpy(&x, a + i, 8);
+    std::memcpy(&y, b + i, 8);
+    if (x != y) return i + first_difference(x, y);
+  }
+  if (i == n) return n;
+  if (n >= 8) {  // the last 8 bytes, those before i known equal
+    std::memcpy(&x, a + n - 8, 8);
+    std::memcpy(&y, b + n - 8, 8);
+    return x == y ? n : n - 8 + first_difference(x, y);
+  }
+  while (i < n && a[i] == b[i]) ++i;
+  return i;
+}
+
 // How many leading bytes every key shares (0 for no keys).
 size_t SharedPrefix(const std::vector<std::string_view>& keys) {
+  static_assert(std::endian::native == std::endian::little, "the first differing byte is the lowest");
   if (keys.empty()) return 0;
   const std::string_view first = keys[0];
   size_t shared = first.size();
   for (const std::string_view k : keys) {
-    size_t i = 0;
-    const size_t n = std::min(shared, k.size());
-    for (; i + 8 <= n; i += 8) {
-      uint64_t a, b;
-      std::memcpy(&a, first.data() + i, 8);
-      std::memcpy(&b, k.data() + i, 8);
-      if (a != b) break;
-    }
-    while (i < n && first[i] == k[i]) ++i;
-    shared = i;
+    shared = SharedBytes(first.data(), k.data(), std::min(shared, k.size()));
     if (shared == 0) break;
   }
   return shared;

@@ -131,9 +131,10 @@ class WorkerGroupTable {
     return ((a0 ^ b0) | (a1 ^ b1)) == 0;
   }
 
-  // Encode's groups when every column has an EncodeBound: written by
-  // pointer, state_bytes = the sum of (1 + bound) over the columns.
-  void EncodeBounded(const std::vector<uint32_t>& order, size_t state_bytes, ByteWriter& w) const;
+  // Encode's groups, in `order`, when every column has an EncodeBound of at
+  // most kMaxBoundedState: written a block at a time by pointer.
+  void EncodeBounded(const std::vector<uint32_t>& order, ByteWriter& w) const;
+  static constexpr size_t kMaxBoundedState = 64;
 
   // Recomputes the budget's base (see FindOrAdd) at the current size.
   void Resync();
