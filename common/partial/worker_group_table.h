@@ -22,7 +22,10 @@
 //
 // Encode writes exactly GroupTable::Encode's bytes for the same records
 // (docs/partial-state.md; GroupTable stays the coordinator's table and the
-// reference the differential test compares against). Neither copied nor
+// reference the differential test compares against). When every measure's
+// state has a small bound (count, count_present, sum) the groups are written
+// by pointer, a block of states per column call (EncodeBounded); otherwise
+// group by group through a ByteWriter. Neither copied nor
 // moved (the index's hash reads the key list by address); not thread-safe.
 #pragma once
 

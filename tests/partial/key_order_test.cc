@@ -65,7 +65,7 @@ TEST_CASE("key order: the standard library's string_view order, small and radix-
 // keys ending inside the first window, keys shorter than 8 bytes, and keys
 // running on for several windows.
 TEST_CASE("key order: keys sharing a prefix, the prefix itself among them") {
-  for (const std::string prefix : {std::string("\x04\x0cT-000"), std::string("ab"), std::string()}) {
+  for (const std::string& prefix : {std::string("\x04\x0cT-000"), std::string("ab"), std::string()}) {
     for (size_t n : {size_t{50}, size_t{3000}, size_t{100000}}) {
       CAPTURE(prefix.size());
       CAPTURE(n);
