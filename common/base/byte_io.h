@@ -46,6 +46,23 @@ class ByteWriter {
   std::string* out_;
 };
 
+// Raw writers for a caller that made room first (a hot encoder writing into
+// a buffer it sized): the same bytes ByteWriter's Varint and U64 append.
+// Each returns the end of what it wrote.
+inline constexpr size_t kMaxVarintBytes = 10;  // a varint of a uint64_t
+inline char* PutVarint(char* out, uint64_t v) {
+  while (v >= 0x80) {
+    *out++ = static_cast<char>(static_cast<uint8_t>(v) | 0x80);
+    v >>= 7;
+  }
+  *out++ = static_cast<char>(v);
+  return out;
+}
+inline char* PutU64(char* out, uint64_t v) {
+  std::memcpy(out, &v, 8);
+  return out + 8;
+}
+
 class ByteReader {
  public:
   explicit ByteReader(std::string_view in) : p_(in.data()), end_(in.data() + in.size()) {}

@@ -2,11 +2,6 @@
 
 namespace fanfold {
 
-namespace {
-constexpr uint8_t kFloatResult = 1;
-constexpr uint8_t kHasIntegerPart = 2;
-}  // namespace
-
 void SumState::AddInteger(WideInt x) {
   if (wide_.Add(x)) return;
   double hi, lo;
@@ -45,16 +40,8 @@ void SumState::MergeSame(const SumState& o) {
 }
 
 void SumState::Encode(ByteWriter& w) const {
-  w.Varint(skipped_);
-  w.Varint(n_);
-  if (n_ == 0) return;
-  const bool has_integer_part = wide_.total() != 0;
-  w.U8((float_result_ ? kFloatResult : 0) | (has_integer_part ? kHasIntegerPart : 0));
-  if (has_integer_part) wide_.Encode(w);
-  if (float_result_) {
-    w.F64(sum_);
-    w.F64(correction_);
-  }
+  char bytes[kMaxEncodedBytes];
+  w.Bytes(std::string_view(bytes, static_cast<size_t>(EncodeTo(bytes) - bytes)));
 }
 
 Status SumState::Decode(ByteReader& r) {

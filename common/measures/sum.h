@@ -7,6 +7,7 @@
 // one, else the compensated sum of both parts. Single-threaded.
 #pragma once
 
+#include <bit>
 #include <cmath>
 
 #include "common/base/wide_sum.h"
@@ -35,6 +36,27 @@ class SumState final : public SameStateMerge<SumState> {
   // the result is a Float; bit 1: a non-zero integer part follows), iff bit 1
   // the integer part (WideSum, 16 bytes), iff bit 0 f64 sum, f64 correction.
   void Encode(ByteWriter& w) const override;
+  // Writes Encode's bytes at out, which has room for kMaxEncodedBytes;
+  // returns their end. Inline: a worker's column encodes one per group.
+  static constexpr size_t kMaxEncodedBytes = 2 * kMaxVarintBytes + 1 + 16 + 16;
+  char* EncodeTo(char* out) const {
+    out = PutVarint(out, skipped_);
+    out = PutVarint(out, n_);
+    if (n_ == 0) return out;
+    const WideInt total = wide_.total();
+    const bool has_integer_part = total != 0;
+    *out++ = static_cast<char>((float_result_ ? kFloatResult : 0) | (has_integer_part ? kHasIntegerPart : 0));
+    if (has_integer_part) {  // WideSum::Encode's 16 bytes
+      const auto bits = static_cast<unsigned __int128>(total);
+      out = PutU64(out, static_cast<uint64_t>(bits));
+      out = PutU64(out, static_cast<uint64_t>(bits >> 64));
+    }
+    if (float_result_) {
+      out = PutU64(out, std::bit_cast<uint64_t>(sum_));
+      out = PutU64(out, std::bit_cast<uint64_t>(correction_));
+    }
+    return out;
+  }
   Status Decode(ByteReader& r) override;
   // Int(exact sum) while every value used was an integer; else
   // Float(Result()); Null when no usable value was added.
@@ -70,6 +92,9 @@ class SumState final : public SameStateMerge<SumState> {
       *correction += (x - t) + *sum;
     *sum = t;
   }
+
+  static constexpr uint8_t kFloatResult = 1;     // flags bit 0
+  static constexpr uint8_t kHasIntegerPart = 2;  // flags bit 1
 
   uint64_t n_ = 0;
   uint64_t skipped_ = 0;

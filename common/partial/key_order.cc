@@ -16,16 +16,57 @@ struct SortEntry {
 // The 8 bytes of key at [offset, offset + 8) as a big-endian integer, zeros
 // past the key's end.
 uint64_t KeyWindow(std::string_view key, size_t offset) {
+  uint64_t w;
   if (offset + 8 <= key.size()) {
-    uint64_t w;
     std::memcpy(&w, key.data() + offset, 8);
+  } else if (key.size() <= offset) {
+    return 0;
+  } else if (key.size() >= 8) {
+    // The key's last 8 bytes, the ones before offset shifted out (the
+    // shift is below 64: the key goes past offset).
+    std::memcpy(&w, key.data() + key.size() - 8, 8);
     if constexpr (std::endian::native == std::endian::little) w = __builtin_bswap64(w);
-    return w;
+    return w << (8 * (offset + 8 - key.size()));
+  } else {
+    unsigned char bytes[8] = {};
+    std::memcpy(bytes, key.data() + offset, key.size() - offset);
+    std::memcpy(&w, bytes, 8);
   }
-  uint64_t w = 0;
-  for (size_t i = 0; i < 8; ++i)
-    w = (w << 8) | (offset + i < key.size() ? static_cast<unsigned char>(key[offset + i]) : 0u);
+  if constexpr (std::endian::native == std::endian::little) w = __builtin_bswap64(w);
   return w;
+}
+
+// How many leading bytes a and b share, at most n (n <= both sizes).
+size_t SharedBytes(const char* a, const char* b, size_t n) {
+  auto first_difference = [](uint64_t x, uint64_t y) { return static_cast<size_t>(std::countr_zero(x ^ y)) / 8; };
+  uint64_t x, y;
+  size_t i = 0;
+  for (; i + 8 <= n; i += 8) {
+    std::memcpy(&x, a + i, 8);
+    std::memcpy(&y, b + i, 8);
+    if (x != y) return i + first_difference(x, y);
+  }
+  if (i == n) return n;
+  if (n >= 8) {  // the last 8 bytes, those before i known equal
+    std::memcpy(&x, a + n - 8, 8);
+    std::memcpy(&y, b + n - 8, 8);
+    return x == y ? n : n - 8 + first_difference(x, y);
+  }
+  while (i < n && a[i] == b[i]) ++i;
+  return i;
+}
+
+// How many leading bytes every key shares (0 for no keys).
+size_t SharedPrefix(const std::vector<std::string_view>& keys) {
+  static_assert(std::endian::native == std::endian::little, "the first differing byte is the lowest");
+  if (keys.empty()) return 0;
+  const std::string_view first = keys[0];
+  size_t shared = first.size();
+  for (const std::string_view k : keys) {
+    shared = SharedBytes(first.data(), k.data(), std::min(shared, k.size()));
+    if (shared == 0) break;
+  }
+  return shared;
 }
 
 // Below this many entries a range is sorted by comparisons, above by radix
@@ -95,7 +136,9 @@ void SortRange(const std::vector<std::string_view>& keys, SortEntry* begin, Sort
 std::vector<uint32_t> KeyOrder(const std::vector<std::string_view>& keys) {
   std::vector<SortEntry> order(keys.size());
   for (uint32_t g = 0; g < keys.size(); ++g) order[g].group = g;
-  if (!order.empty()) SortRange(keys, order.data(), order.data() + order.size(), 0);
+  // Keys of one table often share their first bytes (a tag and a length, a
+  // fixed prefix of an identifier): the sort starts past them.
+  if (!order.empty()) SortRange(keys, order.data(), order.data() + order.size(), SharedPrefix(keys));
   std::vector<uint32_t> ids(order.size());
   for (size_t i = 0; i < order.size(); ++i) ids[i] = order[i].group;
   return ids;

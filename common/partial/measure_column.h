@@ -52,6 +52,17 @@ class MeasureColumn {
 
   // Appends group g's state as MeasureState::Encode would write it.
   virtual void EncodeGroup(uint32_t g, ByteWriter& w) const = 0;
+  // The most bytes one group's state takes in EncodeRangeTo, or 0 when the
+  // column's states have no such bound (the table then encodes through
+  // EncodeGroup). Count and sum have one: a worker's table with many groups
+  // has their states written a block at a time, by pointer, with no
+  // ByteWriter call per field and no virtual call per group.
+  virtual size_t EncodeBound() const { return 0; }
+  // Writes the states of groups[0, n) (EncodeGroup's bytes each) one after
+  // another at out, which has room for n * EncodeBound() bytes, and sets
+  // ends[i] to the offset from out at which group i's state ends.
+  // REQUIRES: EncodeBound() > 0.
+  virtual void EncodeRangeTo(const uint32_t* groups, size_t n, char* out, uint32_t* ends) const;
   // A hint that group g's state will be encoded soon (groups are encoded
   // in key order, which is random in memory): fetches it into the cache.
   virtual void Prefetch(uint32_t g) const { (void)g; }

@@ -87,23 +87,38 @@ void EncodePartialBody(const PartialState& p, std::string* body) {
 }
 
 void EncodePartial(const PartialState& p, std::string* out) {
-  std::string body;
+  // The body and the compressed bytes go through buffers kept by the
+  // thread from partial to partial: a many-group partial's (megabytes) were
+  // allocated, page-faulted and zero-filled anew each time. Kept only up
+  // to kKeepBytes each, so one huge partial does not pin its memory.
+  constexpr size_t kKeepBytes = size_t{64} << 20;
+  thread_local std::string body_buffer;
+  thread_local std::string z_buffer;
+  std::string& body = body_buffer;
   EncodePartialBody(p, &body);
 
   // A small body is stored as it is: compressing it and decompressing it
   // again cost more than its bytes (thousands of tiny shards).
   const bool raw = body.size() < kRawBodyLimit;
-  std::string z;
-  if (raw) {
-    z = body;
-  } else {
-    z.resize(ZSTD_compressBound(body.size()));
-    size_t zn = ZSTD_compressCCtx(Contexts().c, z.data(), z.size(), body.data(), body.size(), 1);
-    z.resize(ZSTD_isError(zn) ? 0 : zn);  // compressBound makes an error impossible
+  std::string_view z = body;
+  if (!raw) {
+    const size_t bound = ZSTD_compressBound(body.size());
+    if (z_buffer.size() < bound) z_buffer.resize(bound);  // never shrunk: no zero-fill next time
+    const size_t zn = ZSTD_compressCCtx(Contexts().c, z_buffer.data(), bound, body.data(), body.size(), 1);
+    z = std::string_view(z_buffer.data(), ZSTD_isError(zn) ? 0 : zn);  // compressBound makes an error impossible
   }
+  struct Release {  // after the partial is written out
+    std::string& body;
+    std::string& z;
+    ~Release() {
+      if (body.capacity() > kKeepBytes) std::string().swap(body);
+      if (z.capacity() > kKeepBytes) std::string().swap(z);
+    }
+  } release{body, z_buffer};
 
   const PartialHeader& h = p.header;
   out->clear();
+  out->reserve(kPartialHeaderSize + z.size());
   ByteWriter w(out);
   w.Bytes(std::string_view(kMagic, 4));
   w.U16(kPartialFormatVersion);

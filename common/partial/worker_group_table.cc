@@ -70,6 +70,18 @@ void WorkerGroupTable::Encode(ByteWriter& w) const {
   SyncColumns();
   w.Varint(keys_.size());
   const std::vector<uint32_t> order = KeyOrder(keys_);
+  // With every column's states bounded (by kMaxBoundedState: one length
+  // byte, and one fixed-size copy each), groups are written a block at a
+  // time by pointer; else through EncodeGroup.
+  bool bounded = true;
+  for (const auto& c : columns_) {
+    const size_t b = c->EncodeBound();
+    bounded = bounded && b > 0 && b <= kMaxBoundedState;
+  }
+  if (bounded) {
+    EncodeBounded(order, w);
+    return;
+  }
   // Groups go out in key order, scattered in memory: their key bytes and
   // states are fetched a few groups ahead (the states one step later, as
   // the key's bytes wait on its view).
@@ -83,6 +95,56 @@ void WorkerGroupTable::Encode(ByteWriter& w) const {
     }
     EncodeGroup(order[i], w);
   }
+}
+
+void WorkerGroupTable::EncodeBounded(const std::vector<uint32_t>& order, ByteWriter& w) const {
+  // EncodeGroup's bytes: the key behind its varint length, then each state
+  // behind its length (one byte: every bound is below 0x80). Per block of
+  // groups, each column writes its states into a scratch of its own (one
+  // call a block); they are then copied behind the keys, kMaxBoundedState
+  // bytes at a time (a fixed-size copy; the scratch and the output have
+  // that much room past any state). The output grows a piece at a time
+  // (zero-filled by resize while the piece is in the cache, then
+  // overwritten), within the capacity the caller reserved.
+  constexpr size_t kBlock = 256;
+  constexpr size_t kPiece = size_t{64} << 10;
+  const size_t m = columns_.size();
+  std::vector<std::vector<char>> scratch(m);
+  for (size_t c = 0; c < m; ++c) scratch[c].resize(kBlock * columns_[c]->EncodeBound() + kMaxBoundedState);
+  std::vector<uint32_t> ends(m * (kBlock + 1), 0);  // per column: 0, then each state's end
+  const size_t per_group = kMaxVarintBytes + m * (1 + kMaxBoundedState);
+  std::string& out = *w.buffer();
+  size_t used = out.size();
+  char* p = out.data() + used;
+  char* limit = p;
+  constexpr size_t kAhead = 8;
+  const size_t n = order.size();
+  for (size_t b = 0; b < n; b += kBlock) {
+    const size_t k = std::min(kBlock, n - b);
+    for (size_t c = 0; c < m; ++c) columns_[c]->EncodeRangeTo(&order[b], k, scratch[c].data(), &ends[c * (kBlock + 1) + 1]);
+    for (size_t i = b; i < b + k; ++i) {
+      if (i + 2 * kAhead < n) __builtin_prefetch(&keys_[order[i + 2 * kAhead]]);
+      if (i + kAhead < n) __builtin_prefetch(keys_[order[i + kAhead]].data());
+      const std::string_view key = keys_[order[i]];
+      if (static_cast<size_t>(limit - p) < per_group + key.size()) {
+        used = static_cast<size_t>(p - out.data());
+        out.resize(used + std::max(per_group + key.size(), kPiece));
+        p = out.data() + used;
+        limit = out.data() + out.size();
+      }
+      p = PutVarint(p, key.size());
+      std::memcpy(p, key.data(), key.size());
+      p += key.size();
+      for (size_t c = 0; c < m; ++c) {
+        const uint32_t* e = &ends[c * (kBlock + 1) + (i - b)];
+        const uint32_t length = e[1] - e[0];
+        *p++ = static_cast<char>(length);
+        std::memcpy(p, scratch[c].data() + e[0], kMaxBoundedState);
+        p += length;
+      }
+    }
+  }
+  out.resize(static_cast<size_t>(p - out.data()));
 }
 
 std::vector<uint32_t> WorkerGroupTable::SortedGroups() const { return KeyOrder(keys_); }

@@ -22,7 +22,10 @@
 //
 // Encode writes exactly GroupTable::Encode's bytes for the same records
 // (docs/partial-state.md; GroupTable stays the coordinator's table and the
-// reference the differential test compares against). Neither copied nor
+// reference the differential test compares against). When every measure's
+// state has a small bound (count, count_present, sum) the groups are written
+// by pointer, a block of states per column call (EncodeBounded); otherwise
+// group by group through a ByteWriter. Neither copied nor
 // moved (the index's hash reads the key list by address); not thread-safe.
 #pragma once
 
@@ -130,6 +133,11 @@ class WorkerGroupTable {
     std::memcpy(&b1, b.data() + n - 8, 8);
     return ((a0 ^ b0) | (a1 ^ b1)) == 0;
   }
+
+  // Encode's groups, in `order`, when every column has an EncodeBound of at
+  // most kMaxBoundedState: written a block at a time by pointer.
+  void EncodeBounded(const std::vector<uint32_t>& order, ByteWriter& w) const;
+  static constexpr size_t kMaxBoundedState = 64;
 
   // Recomputes the budget's base (see FindOrAdd) at the current size.
   void Resync();

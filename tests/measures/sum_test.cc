@@ -212,6 +212,23 @@ TEST_CASE("sum: integer part encoding") {
   CHECK(FinalInteger(*testing::DecodeOf(SumConfig(), z)) == 0);
 }
 
+// Intent: the float part's bytes, fixed by the documented layout (sum.h)
+// and IEEE 754 binary64 little-endian: 0.75 = 0x3FE8000000000000 (as
+// Python's struct.pack('<d', 0.75) gives), correction 0.0 = eight zero bytes.
+TEST_CASE("sum: integer and float parts encoding") {
+  Rows rows;
+  rows.Add(Value::Null());  // skipped
+  rows.AddNumber(0.5);
+  rows.Add(Value::Int(3));
+  rows.AddNumber(0.25);
+  const std::string bytes = testing::EncodeOf(*testing::Whole(SumConfig(), rows));
+  std::string want("\x01\x03\x03", 3);           // skipped 1, n 3, flags 3
+  want += std::string("\x03", 1) + std::string(15, '\0');  // integer part 3
+  want += std::string("\0\0\0\0\0\0\xE8\x3F", 8);  // sum 0.75
+  want += std::string(8, '\0');                  // correction 0
+  CHECK(bytes == want);
+}
+
 // Intent: the integer part's overflow (more than 2^63 values: reached here
 // by merging two decoded states) is defined: the result becomes the Float
 // of the whole sum, not a wrapped integer.

@@ -58,3 +58,36 @@ TEST_CASE("key order: the standard library's string_view order, small and radix-
     CHECK(got == want);
   }
 }
+
+// Intent: keys that all share their first bytes (a tag, a length and a fixed
+// start of an identifier; KeyOrder starts its windows past them) still come
+// out in std::string_view order — with the shared prefix itself as a key,
+// keys ending inside the first window, keys shorter than 8 bytes, and keys
+// running on for several windows.
+TEST_CASE("key order: keys sharing a prefix, the prefix itself among them") {
+  for (const std::string& prefix : {std::string("\x04\x0cT-000"), std::string("ab"), std::string()}) {
+    for (size_t n : {size_t{50}, size_t{3000}, size_t{100000}}) {
+      CAPTURE(prefix.size());
+      CAPTURE(n);
+      std::mt19937_64 rng(n + prefix.size());
+      std::vector<std::string> keys{prefix};
+      for (size_t i = 0; i < n; ++i) {
+        std::string k = prefix;
+        const size_t tail = rng() % 4 == 0 ? rng() % 20 : 5 + rng() % 3;
+        for (size_t j = 0; j < tail; ++j) k.push_back(rng() % 8 == 0 ? '\0' : static_cast<char>('0' + rng() % 10));
+        keys.push_back(std::move(k));
+      }
+      std::sort(keys.begin(), keys.end());
+      keys.erase(std::unique(keys.begin(), keys.end()), keys.end());
+      std::shuffle(keys.begin(), keys.end(), rng);
+      std::vector<std::string_view> views(keys.begin(), keys.end());
+      const std::vector<uint32_t> order = KeyOrder(views);
+      REQUIRE(order.size() == views.size());
+      std::vector<std::string_view> got;
+      for (uint32_t i : order) got.push_back(views[i]);
+      std::vector<std::string_view> want = views;
+      std::sort(want.begin(), want.end());
+      CHECK(got == want);
+    }
+  }
+}

@@ -47,6 +47,18 @@ std::vector<MeasureConfig> EveryKind() {
   return c;
 }
 
+// Only measures whose states have a bounded encoding (count, count_present,
+// sum): the table then writes its groups by pointer (EncodeBounded), which
+// this set exercises against GroupTable's ByteWriter path.
+std::vector<MeasureConfig> BoundedKinds() {
+  std::vector<MeasureConfig> c(4);
+  c[0].kind = MeasureKind::kCount;
+  c[1].kind = MeasureKind::kSum;
+  c[2].kind = MeasureKind::kCountPresent;
+  c[3].kind = MeasureKind::kSum;
+  return c;
+}
+
 // A value of every shape a measure meets: missing, null, bools, integers
 // (small, negative, beyond int64), doubles (with -0.0 and infinities),
 // numeric and other text.
@@ -83,9 +95,10 @@ std::string Encoded(const WorkerGroupTable& t) {
 // Intent: the worker table is a drop-in for GroupTable's encoding, for every
 // kind, whatever the batch boundaries, record shapes and group counts.
 TEST_CASE("worker_group_table: encodes GroupTable's bytes for every measure kind") {
-  const std::vector<MeasureConfig> configs = EveryKind();
-  const size_t m = configs.size();
+  for (const std::vector<MeasureConfig>& configs : {EveryKind(), BoundedKinds()})
   for (uint64_t seed = 1; seed <= 60; ++seed) {
+    const size_t m = configs.size();
+    CAPTURE(m);
     TestLcg g(seed * 7919);
     GroupTable reference(&configs);
     WorkerGroupTable table(&configs);
