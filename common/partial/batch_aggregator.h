@@ -144,8 +144,9 @@ class BatchAggregator final : public RecordSink {
   const Value& KeyValue(const ReductionFeed& f, size_t g, uint32_t r);
   const Value& ArgValue(const ReductionFeed& f, size_t m, size_t a, uint32_t r);
   bool MeasureTakes(const ReductionFeed& f, size_t m, uint32_t r) const;
-  // Finds record r's group in one reduction and queues its measures' inputs.
-  void Feed(ReductionFeed& f, uint32_t r);
+  // Finds the group of each selected record in one reduction (in record
+  // order) and queues its measures' inputs.
+  void Feed(ReductionFeed& f, const std::vector<uint32_t>& sel);
   // Writes a record of a key the full table does not hold to the reduction's
   // overflow: the key and each measure's arguments, evaluated as Feed does.
   void Spill(ReductionFeed& f, uint32_t r);
@@ -161,7 +162,9 @@ class BatchAggregator final : public RecordSink {
   const size_t width_ = plan_.fields.size();  // slots per record of the batch
   std::vector<uint32_t> sel_;                 // the records the job's filter keeps
   std::unique_ptr<Value[]> truth_;            // a filter's value per record
-  std::string key_;            // room for a record's group key (see Feed)
+  std::string key_;            // room for a batch's group keys, end to end (see Feed)
+  std::unique_ptr<uint32_t[]> key_end_;   // per selected record: where its key ends in key_
+  std::unique_ptr<uint64_t[]> key_hash_;  // ... and its key's hash
   std::string_view key_view_;  // the record's key, in key_
   std::string lookup_key_;
   std::vector<uint64_t> unmatched_;

@@ -11,37 +11,31 @@
 
 namespace fanfold {
 
-uint64_t WorkerGroupTable::HashKey(std::string_view key) { return XXH3_64bits(key.data(), key.size()); }
+uint64_t WorkerGroupTable::Hash(std::string_view key) { return XXH3_64bits(key.data(), key.size()); }
 
-WorkerGroupTable::WorkerGroupTable(const std::vector<MeasureConfig>* configs)
-    : configs_(configs), index_(0, IdHash{this}, IdEq{&keys_}) {
+WorkerGroupTable::WorkerGroupTable(const std::vector<MeasureConfig>* configs) : configs_(configs) {
   for (const MeasureConfig& c : *configs_) columns_.push_back(NewMeasureColumn(c));
 }
 
 void WorkerGroupTable::Reserve(size_t groups) {
   // Room for an eighth more than asked (the next shard may hold a few more
-  // groups). The index's slots (4 bytes and a byte of metadata, at most 7/8
-  // full, and their count rounded up to a power of two of slot groups: up
-  // to 2 x 8/7 x 5 = 11.4 bytes a group) stay within a quarter of the
-  // budget. The key list is left to grow: copying its views is cheap, and
-  // its doubling is what it was.
-  constexpr size_t kBytesPerGroup = 12;
+  // groups). The index's slots (4 bytes, at most half full, their count a
+  // power of two: up to 2 x 2 x 4 = 16 bytes a group) stay within a
+  // quarter of the budget. The key list is left to grow: copying its views
+  // is cheap, and its doubling is what it was.
+  constexpr size_t kBytesPerGroup = 16;
   groups += groups / 8;
   if (budget_ > 0) groups = std::min(groups, budget_ / 4 / kBytesPerGroup);
-  if (groups > index_.size()) index_.reserve(groups);
+  index_.Reserve(groups, static_cast<uint32_t>(keys_.size()), [this](uint32_t id) { return Hash(keys_[id]); });
 }
 
-uint32_t WorkerGroupTable::FindOrAdd(std::string_view key) {
-  const Probe probe{key, HashKey(key)};
-  auto it = index_.find(probe);
-  if (it != index_.end()) return *it;
+uint32_t WorkerGroupTable::FindOrAdd(std::string_view key, uint64_t hash) {
+  const uint32_t found = index_.Find(hash, [this, key](uint32_t id) { return SameKey(key, keys_[id]); });
+  if (found != GroupIndex::kNone) return found;
   if (full_) return kOverBudget;
   const uint32_t id = static_cast<uint32_t>(keys_.size());
   keys_.push_back(key_bytes_.Add(key));
-  new_id_ = id;  // the insert hashes id by probe.hash
-  new_hash_ = probe.hash;
-  index_.insert(id);
-  new_id_ = UINT32_MAX;
+  index_.Insert(id, hash, keys_.size(), [this](uint32_t g) { return Hash(keys_[g]); });
   key_total_ += key.size();
   if (budget_ > 0) {
     const size_t n = keys_.size();
@@ -113,7 +107,7 @@ void WorkerGroupTable::EncodeGroup(uint32_t g, ByteWriter& w) const {
 size_t WorkerGroupTable::ApproxBytes() const {
   SyncColumns();
   size_t bytes = keys_.capacity() * sizeof(std::string_view) +
-                 index_.bucket_count() * (sizeof(uint32_t) + 1);
+                 index_.bucket_count() * sizeof(uint32_t);
   bytes += key_total_;
   for (const auto& c : columns_) bytes += c->ApproxBytes();
   return bytes;
