@@ -46,10 +46,18 @@ BatchAggregator::BatchAggregator(const Plan& plan, RecordBatch* batch, const std
 void BatchAggregator::Restart(uint64_t table_bytes, bool every) {
   hook_mask_ = every ? 0 : 4095;
   const size_t share = plan_.reductions.empty() ? 0 : table_bytes / plan_.reductions.size();
+  const size_t last_budget = budget_;
   budget_ = table_bytes == 0 ? 0 : std::max<size_t>(share, 1);
+  // The last shard's table is kept, cleared, with its memory (faulted in
+  // once per worker, not once per shard) unless this budget is smaller:
+  // the memory it keeps is within the last budget, and so within this one.
+  const bool keep = budget_ == 0 ? last_budget == 0 : last_budget != 0 && budget_ >= last_budget;
   for (ReductionFeed& f : feeds_) {
     f.overflow.reset();
-    f.table = std::make_unique<WorkerGroupTable>(&f.plan->configs);
+    if (f.table && keep)
+      f.table->Clear();
+    else
+      f.table = std::make_unique<WorkerGroupTable>(&f.plan->configs);
     f.table->set_budget(budget_);
     f.kept = 0;
     f.fed.n = 0;
@@ -68,7 +76,7 @@ void BatchAggregator::Restart(uint64_t table_bytes, bool every) {
 void BatchAggregator::ReleaseTables() {
   for (ReductionFeed& f : feeds_) {
     f.overflow.reset();
-    f.table.reset();
+    if (f.table) f.table->Clear();
   }
 }
 

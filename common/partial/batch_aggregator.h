@@ -8,7 +8,8 @@
 // overflows are owned here until the caller encodes them. Not thread-safe;
 // one shard at a time: ShardProcessor keeps one across shards (Restart, then
 // ReleaseTables once the shard's partial is encoded), so the batch buffers
-// (thousands of Values) are made once per worker, not once per tiny shard.
+// (thousands of Values) are made once per worker, not once per tiny shard,
+// and the group tables' memory once, not once per shard of many groups.
 #pragma once
 
 #include <array>
@@ -79,10 +80,13 @@ class BatchAggregator final : public RecordSink {
 
   // Starts the next shard as a new aggregator would: empty tables (each with
   // an equal share of table_bytes), no overflow, every count zero; keeps the
-  // batch buffers. REQUIRES: the batch is empty.
+  // batch buffers, and the last shard's tables' memory unless the share is
+  // smaller than it was (WorkerGroupTable::Clear: a cleared table counts
+  // and fills as a new one). REQUIRES: the batch is empty.
   void Restart(uint64_t table_bytes, bool every);
-  // Drops the tables and overflows (their memory and spill files) once the
-  // shard's partial is encoded; Restart makes new ones.
+  // Drops the overflows (their memory and spill files) and the tables'
+  // groups once the shard's partial is encoded; the tables keep their
+  // memory for the next shard.
   void ReleaseTables();
 
   // Records wait in a batch and are aggregated a batch at a time, so the

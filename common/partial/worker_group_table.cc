@@ -34,16 +34,32 @@ uint32_t WorkerGroupTable::FindOrAdd(std::string_view key, uint64_t hash) {
   if (found != GroupIndex::kNone) return found;
   if (full_) return kOverBudget;
   const uint32_t id = static_cast<uint32_t>(keys_.size());
+  if (keys_.size() == key_capacity_) {  // doubles, as a vector's push_back does
+    key_capacity_ = std::max<size_t>(1, 2 * key_capacity_);
+    keys_.reserve(key_capacity_);
+  }
   keys_.push_back(key_bytes_.Add(key));
   index_.Insert(id, hash, keys_.size(), [this](uint32_t g) { return Hash(keys_[g]); });
   key_total_ += key.size();
   if (budget_ > 0) {
     const size_t n = keys_.size();
-    if (n > stable_until_ || index_.bucket_count() != synced_buckets_ || keys_.capacity() != synced_key_capacity_)
+    if (n > stable_until_ || index_.bucket_count() != synced_buckets_ || key_capacity_ != synced_key_capacity_)
       Resync();
     if (base_bytes_ + key_total_ + n * (per_group_ + kSortBytesPerGroup) > budget_) full_ = true;
   }
   return id;
+}
+
+void WorkerGroupTable::Clear() {
+  keys_.clear();
+  key_capacity_ = 0;
+  key_bytes_.Clear();
+  index_.Clear();
+  for (const auto& c : columns_) c->Clear();
+  column_groups_ = 0;
+  base_bytes_ = per_group_ = stable_until_ = synced_buckets_ = synced_key_capacity_ = 0;
+  key_total_ = 0;
+  full_ = false;
 }
 
 void WorkerGroupTable::Resync() {
@@ -57,7 +73,7 @@ void WorkerGroupTable::Resync() {
   }
   base_bytes_ = ApproxBytes() - key_total_ - n * per_group_;
   synced_buckets_ = index_.bucket_count();
-  synced_key_capacity_ = keys_.capacity();
+  synced_key_capacity_ = key_capacity_;
 }
 
 void WorkerGroupTable::Encode(ByteWriter& w) const {
@@ -106,7 +122,7 @@ void WorkerGroupTable::EncodeGroup(uint32_t g, ByteWriter& w) const {
 
 size_t WorkerGroupTable::ApproxBytes() const {
   SyncColumns();
-  size_t bytes = keys_.capacity() * sizeof(std::string_view) +
+  size_t bytes = key_capacity_ * sizeof(std::string_view) +
                  index_.bucket_count() * sizeof(uint32_t);
   bytes += key_total_;
   for (const auto& c : columns_) bytes += c->ApproxBytes();

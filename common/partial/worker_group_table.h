@@ -62,6 +62,14 @@ class WorkerGroupTable {
   // Fetches the index slot of a key with this hash into the cache.
   void Prefetch(uint64_t hash) const { index_.Prefetch(hash); }
 
+  // Forgets every group (and fullness), keeping the memory of the index,
+  // the key list and arena and the columns for the next shard's groups.
+  // From here the table behaves as a new one (same ids, same ApproxBytes
+  // at every group, so full at the same group): what it counts is what a
+  // new table would hold; the memory it keeps beyond that is at most what
+  // it counted before (under the caller's budget then).
+  void Clear();
+
   // Bytes past which the table takes no new key (0 = no limit, the default).
   // At least one group is always taken.
   void set_budget(size_t bytes) { budget_ = bytes; }
@@ -129,6 +137,7 @@ class WorkerGroupTable {
   const std::vector<MeasureConfig>* configs_;
   KeyArena key_bytes_;                   // every key's bytes, once
   std::vector<std::string_view> keys_;   // by group id, into key_bytes_
+  size_t key_capacity_ = 0;  // keys_'s, as if grown from empty by doubling
   GroupIndex index_;                     // hash -> group id
   std::vector<std::unique_ptr<MeasureColumn>> columns_;  // one per measure
   mutable size_t column_groups_ = 0;  // groups every column holds a state for
@@ -139,7 +148,7 @@ class WorkerGroupTable {
   size_t per_group_ = 0;
   size_t stable_until_ = 0;
   size_t synced_buckets_ = 0;
-  size_t synced_key_capacity_ = 0;
+  size_t synced_key_capacity_ = 0;  // key_capacity_ at the last Resync
   size_t key_total_ = 0;  // bytes of every key
   size_t budget_ = 0;     // 0 = none
   bool full_ = false;
