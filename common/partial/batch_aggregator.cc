@@ -199,10 +199,7 @@ void BatchAggregator::Feed(ReductionFeed& f, const std::vector<uint32_t>& sel) {
     const size_t begin = i == 0 ? 0 : key_end_[i - 1];
     return std::string_view(key_.data() + begin, key_end_[i] - begin);
   };
-  for (size_t i = 0; i < n; ++i) {
-    key_hash_[i] = WorkerGroupTable::Hash(key_of(i));
-    table.Prefetch(key_hash_[i]);
-  }
+  table.HashBatch(key_.data(), key_end_.get(), n, key_hash_.get());
   for (size_t i = 0; i < n; ++i) {
     key_view_ = key_of(i);
     const uint32_t group = table.FindOrAdd(key_view_, key_hash_[i]);

@@ -13,6 +13,15 @@ namespace fanfold {
 
 uint64_t WorkerGroupTable::Hash(std::string_view key) { return XXH3_64bits(key.data(), key.size()); }
 
+void WorkerGroupTable::HashBatch(const char* bytes, const uint32_t* ends, size_t n, uint64_t* hashes) const {
+  size_t begin = 0;
+  for (size_t i = 0; i < n; ++i) {
+    hashes[i] = XXH3_64bits(bytes + begin, ends[i] - begin);
+    index_.Prefetch(hashes[i]);
+    begin = ends[i];
+  }
+}
+
 WorkerGroupTable::WorkerGroupTable(const std::vector<MeasureConfig>* configs) : configs_(configs) {
   for (const MeasureConfig& c : *configs_) columns_.push_back(NewMeasureColumn(c));
 }
@@ -29,9 +38,7 @@ void WorkerGroupTable::Reserve(size_t groups) {
   index_.Reserve(groups, static_cast<uint32_t>(keys_.size()), [this](uint32_t id) { return Hash(keys_[id]); });
 }
 
-uint32_t WorkerGroupTable::FindOrAdd(std::string_view key, uint64_t hash) {
-  const uint32_t found = index_.Find(hash, [this, key](uint32_t id) { return SameKey(key, keys_[id]); });
-  if (found != GroupIndex::kNone) return found;
+uint32_t WorkerGroupTable::Add(std::string_view key, uint64_t hash) {
   if (full_) return kOverBudget;
   const uint32_t id = static_cast<uint32_t>(keys_.size());
   if (keys_.size() == key_capacity_) {  // doubles, as a vector's push_back does

@@ -56,11 +56,18 @@ class WorkerGroupTable {
   uint32_t FindOrAdd(std::string_view key) { return FindOrAdd(key, Hash(key)); }
   // The same, for a key whose Hash is known (a batch's keys are hashed, and
   // their slots fetched by Prefetch, before they are looked up).
-  uint32_t FindOrAdd(std::string_view key, uint64_t hash);
+  // Inline: a key found again (most records) costs a probe and a compare.
+  uint32_t FindOrAdd(std::string_view key, uint64_t hash) {
+    const uint32_t found = index_.Find(hash, [this, key](uint32_t id) { return SameKey(key, keys_[id]); });
+    return found != GroupIndex::kNone ? found : Add(key, hash);
+  }
   static constexpr uint32_t kOverBudget = UINT32_MAX;
   static uint64_t Hash(std::string_view key);
   // Fetches the index slot of a key with this hash into the cache.
   void Prefetch(uint64_t hash) const { index_.Prefetch(hash); }
+  // Hash of each of n keys lying end to end in `bytes` (key i ends at
+  // ends[i]) into hashes[i], each slot fetched (Prefetch): one call a batch.
+  void HashBatch(const char* bytes, const uint32_t* ends, size_t n, uint64_t* hashes) const;
 
   // Forgets every group (and fullness), keeping the memory of the index,
   // the key list and arena and the columns for the next shard's groups.
@@ -124,6 +131,8 @@ class WorkerGroupTable {
     return ((a0 ^ b0) | (a1 ^ b1)) == 0;
   }
 
+  // FindOrAdd of a key the index does not hold.
+  uint32_t Add(std::string_view key, uint64_t hash);
   // Recomputes the budget's base (see FindOrAdd) at the current size.
   void Resync();
 
