@@ -28,11 +28,11 @@ WorkerGroupTable::WorkerGroupTable(const std::vector<MeasureConfig>* configs) : 
 
 void WorkerGroupTable::Reserve(size_t groups) {
   // Room for an eighth more than asked (the next shard may hold a few more
-  // groups). The index's slots (4 bytes, at most half full, their count a
-  // power of two: up to 2 x 2 x 4 = 16 bytes a group) stay within a
+  // groups). The index's slots (4 bytes, at most 3/4 full, their count a
+  // power of two: up to 2 x 4/3 x 4 = 10.7 bytes a group) stay within a
   // quarter of the budget. The key list is left to grow: copying its views
   // is cheap, and its doubling is what it was.
-  constexpr size_t kBytesPerGroup = 16;
+  constexpr size_t kBytesPerGroup = 11;
   groups += groups / 8;
   if (budget_ > 0) groups = std::min(groups, budget_ / 4 / kBytesPerGroup);
   index_.Reserve(groups, static_cast<uint32_t>(keys_.size()), [this](uint32_t id) { return Hash(keys_[id]); });
