@@ -37,6 +37,8 @@ BatchAggregator::BatchAggregator(const Plan& plan, RecordBatch* batch, const std
     feeds_.push_back(std::move(f));
   }
   sel_.reserve(RecordBatch::kCapacity);
+  key_end_ = std::make_unique<uint32_t[]>(RecordBatch::kCapacity);
+  key_hash_ = std::make_unique<uint64_t[]>(RecordBatch::kCapacity);
   truth_ = std::make_unique<Value[]>(RecordBatch::kCapacity);
   Restart(table_bytes, every);
 }
@@ -44,10 +46,18 @@ BatchAggregator::BatchAggregator(const Plan& plan, RecordBatch* batch, const std
 void BatchAggregator::Restart(uint64_t table_bytes, bool every) {
   hook_mask_ = every ? 0 : 4095;
   const size_t share = plan_.reductions.empty() ? 0 : table_bytes / plan_.reductions.size();
+  const size_t last_budget = budget_;
   budget_ = table_bytes == 0 ? 0 : std::max<size_t>(share, 1);
+  // The last shard's table is kept, cleared, with its memory (faulted in
+  // once per worker, not once per shard) unless this budget is smaller:
+  // the memory it keeps is within the last budget, and so within this one.
+  const bool keep = budget_ == 0 ? last_budget == 0 : last_budget != 0 && budget_ >= last_budget;
   for (ReductionFeed& f : feeds_) {
     f.overflow.reset();
-    f.table = std::make_unique<WorkerGroupTable>(&f.plan->configs);
+    if (f.table && keep)
+      f.table->Clear();
+    else
+      f.table = std::make_unique<WorkerGroupTable>(&f.plan->configs);
     f.table->set_budget(budget_);
     f.kept = 0;
     f.fed.n = 0;
@@ -66,7 +76,7 @@ void BatchAggregator::Restart(uint64_t table_bytes, bool every) {
 void BatchAggregator::ReleaseTables() {
   for (ReductionFeed& f : feeds_) {
     f.overflow.reset();
-    f.table.reset();
+    if (f.table) f.table->Clear();
   }
 }
 
@@ -150,7 +160,7 @@ void BatchAggregator::FeedBatch(ReductionFeed& f) {
     for (size_t a = 0; a < cm.args.size(); ++a)
       EvalColumn(cm.args[a], f.arg_direct[m][a], sel, &f.arg_values[m][a], stride);
   }
-  for (const uint32_t r : sel) Feed(f, r);
+  Feed(f, sel);
 }
 
 const Value& BatchAggregator::KeyValue(const ReductionFeed& f, size_t g, uint32_t r) {
@@ -167,21 +177,39 @@ bool BatchAggregator::MeasureTakes(const ReductionFeed& f, size_t m, uint32_t r)
   return !f.plan->measures[m].only || f.only_values[m * RecordBatch::kCapacity + r].Truthy();
 }
 
-void BatchAggregator::Feed(ReductionFeed& f, uint32_t r) {
+void BatchAggregator::Feed(ReductionFeed& f, const std::vector<uint32_t>& sel) {
   const ReductionPlan& rp = *f.plan;
-  // The key is written into key_'s bytes in place (grown when a value
-  // could pass its end), then viewed at its length.
+  const size_t n = sel.size();
+  // Every record's key is written into key_'s bytes, end to end (grown when
+  // a value could pass its end), ...
   size_t length = 0;
-  for (size_t g = 0; g < rp.group.size(); ++g) {
-    const Value& v = KeyValue(f, g, r);
-    if (const size_t need = length + KeyValueBound(v); need > key_.size()) key_.resize(std::max(need, 2 * key_.size()));
-    length += WriteKeyValue(v, key_.data() + length);
+  for (size_t i = 0; i < n; ++i) {
+    for (size_t g = 0; g < rp.group.size(); ++g) {
+      const Value& v = KeyValue(f, g, sel[i]);
+      if (const size_t need = length + KeyValueBound(v); need > key_.size())
+        key_.resize(std::max(need, 2 * key_.size()));
+      length += WriteKeyValue(v, key_.data() + length);
+    }
+    key_end_[i] = static_cast<uint32_t>(length);
   }
-  key_view_ = std::string_view(key_.data(), length);
-  const uint32_t group = f.table->FindOrAdd(key_view_);
-  if (group == WorkerGroupTable::kOverBudget) return Spill(f, r);
-  f.fed.rows[f.fed.n] = r;  // the measures take it in Flush
-  f.fed.groups[f.fed.n++] = group;
+  // ... then hashed, their index slots fetched, and only then looked up: a
+  // lookup rarely waits on memory, nor on the stores that wrote its key.
+  WorkerGroupTable& table = *f.table;
+  const auto key_of = [this](size_t i) {
+    const size_t begin = i == 0 ? 0 : key_end_[i - 1];
+    return std::string_view(key_.data() + begin, key_end_[i] - begin);
+  };
+  table.HashBatch(key_.data(), key_end_.get(), n, key_hash_.get());
+  for (size_t i = 0; i < n; ++i) {
+    key_view_ = key_of(i);
+    const uint32_t group = table.FindOrAdd(key_view_, key_hash_[i]);
+    if (group == WorkerGroupTable::kOverBudget) {
+      Spill(f, sel[i]);
+      continue;
+    }
+    f.fed.rows[f.fed.n] = sel[i];  // the measures take it in Flush
+    f.fed.groups[f.fed.n++] = group;
+  }
 }
 
 void BatchAggregator::Spill(ReductionFeed& f, uint32_t r) {

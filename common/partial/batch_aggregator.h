@@ -8,7 +8,8 @@
 // overflows are owned here until the caller encodes them. Not thread-safe;
 // one shard at a time: ShardProcessor keeps one across shards (Restart, then
 // ReleaseTables once the shard's partial is encoded), so the batch buffers
-// (thousands of Values) are made once per worker, not once per tiny shard.
+// (thousands of Values) are made once per worker, not once per tiny shard,
+// and the group tables' memory once, not once per shard of many groups.
 #pragma once
 
 #include <array>
@@ -79,10 +80,13 @@ class BatchAggregator final : public RecordSink {
 
   // Starts the next shard as a new aggregator would: empty tables (each with
   // an equal share of table_bytes), no overflow, every count zero; keeps the
-  // batch buffers. REQUIRES: the batch is empty.
+  // batch buffers, and the last shard's tables' memory unless the share is
+  // smaller than it was (WorkerGroupTable::Clear: a cleared table counts
+  // and fills as a new one). REQUIRES: the batch is empty.
   void Restart(uint64_t table_bytes, bool every);
-  // Drops the tables and overflows (their memory and spill files) once the
-  // shard's partial is encoded; Restart makes new ones.
+  // Drops the overflows (their memory and spill files) and the tables'
+  // groups once the shard's partial is encoded; the tables keep their
+  // memory for the next shard.
   void ReleaseTables();
 
   // Records wait in a batch and are aggregated a batch at a time, so the
@@ -144,8 +148,9 @@ class BatchAggregator final : public RecordSink {
   const Value& KeyValue(const ReductionFeed& f, size_t g, uint32_t r);
   const Value& ArgValue(const ReductionFeed& f, size_t m, size_t a, uint32_t r);
   bool MeasureTakes(const ReductionFeed& f, size_t m, uint32_t r) const;
-  // Finds record r's group in one reduction and queues its measures' inputs.
-  void Feed(ReductionFeed& f, uint32_t r);
+  // Finds the group of each selected record in one reduction (in record
+  // order) and queues its measures' inputs.
+  void Feed(ReductionFeed& f, const std::vector<uint32_t>& sel);
   // Writes a record of a key the full table does not hold to the reduction's
   // overflow: the key and each measure's arguments, evaluated as Feed does.
   void Spill(ReductionFeed& f, uint32_t r);
@@ -161,7 +166,9 @@ class BatchAggregator final : public RecordSink {
   const size_t width_ = plan_.fields.size();  // slots per record of the batch
   std::vector<uint32_t> sel_;                 // the records the job's filter keeps
   std::unique_ptr<Value[]> truth_;            // a filter's value per record
-  std::string key_;            // room for a record's group key (see Feed)
+  std::string key_;            // room for a batch's group keys, end to end (see Feed)
+  std::unique_ptr<uint32_t[]> key_end_;   // per selected record: where its key ends in key_
+  std::unique_ptr<uint64_t[]> key_hash_;  // ... and its key's hash
   std::string_view key_view_;  // the record's key, in key_
   std::string lookup_key_;
   std::vector<uint64_t> unmatched_;

@@ -66,6 +66,7 @@ class CountColumn final : public MeasureColumn {
  public:
   explicit CountColumn(bool present_only) : present_only_(present_only) {}
   void Resize(size_t groups) override { n_.Resize(groups, 0); }
+  void Clear() override { n_.Clear(); }
   size_t AddBatch(const uint32_t* groups, const Value* args, size_t stride, size_t n) override {
     if (!present_only_) return CountAll(groups, n);
     return EachContiguous(groups, args, stride, n, [this](uint32_t g, const Value* a) { return Add(g, a); });
@@ -105,6 +106,7 @@ class StateColumn final : public MeasureColumn {
  public:
   explicit StateColumn(const State& empty) : empty_(empty) {}
   void Resize(size_t groups) override { states_.Resize(groups, empty_); }
+  void Clear() override { states_.Clear(); }
   size_t AddBatch(const uint32_t* groups, const Value* args, size_t stride, size_t n) override {
     return EachContiguous(groups, args, stride, n, [this](uint32_t g, const Value* a) { return states_[g].State::Add(a); });
   }
@@ -151,6 +153,7 @@ class ObjectColumn final : public MeasureColumn {
       states_.Push(std::move(s));
     }
   }
+  void Clear() override { states_.Clear(); }
   size_t AddBatch(const uint32_t* groups, const Value* args, size_t stride, size_t n) override {
     return EachContiguous(groups, args, stride, n, [this](uint32_t g, const Value* a) { return Add(g, a); });
   }

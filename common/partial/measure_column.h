@@ -38,6 +38,9 @@ class MeasureColumn {
 
   // Appends empty states until the column holds `groups` of them.
   virtual void Resize(size_t groups) = 0;
+  // Drops every state (a kept table's next shard); keeps the arrays' memory
+  // and counts its bytes as a new column would (ApproxBytes).
+  virtual void Clear() = 0;
 
   // Feeds n inputs in order: the i-th goes to group groups[i] with the
   // arguments args[i * stride, i * stride + stride) (stride >= the measure's

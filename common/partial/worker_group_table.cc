@@ -11,45 +11,62 @@
 
 namespace fanfold {
 
-uint64_t WorkerGroupTable::HashKey(std::string_view key) { return XXH3_64bits(key.data(), key.size()); }
+uint64_t WorkerGroupTable::Hash(std::string_view key) { return XXH3_64bits(key.data(), key.size()); }
 
-WorkerGroupTable::WorkerGroupTable(const std::vector<MeasureConfig>* configs)
-    : configs_(configs), index_(0, IdHash{this}, IdEq{&keys_}) {
+void WorkerGroupTable::HashBatch(const char* bytes, const uint32_t* ends, size_t n, uint64_t* hashes) const {
+  size_t begin = 0;
+  for (size_t i = 0; i < n; ++i) {
+    hashes[i] = XXH3_64bits(bytes + begin, ends[i] - begin);
+    index_.Prefetch(hashes[i]);
+    begin = ends[i];
+  }
+}
+
+WorkerGroupTable::WorkerGroupTable(const std::vector<MeasureConfig>* configs) : configs_(configs) {
   for (const MeasureConfig& c : *configs_) columns_.push_back(NewMeasureColumn(c));
 }
 
 void WorkerGroupTable::Reserve(size_t groups) {
   // Room for an eighth more than asked (the next shard may hold a few more
-  // groups). The index's slots (4 bytes and a byte of metadata, at most 7/8
-  // full, and their count rounded up to a power of two of slot groups: up
-  // to 2 x 8/7 x 5 = 11.4 bytes a group) stay within a quarter of the
-  // budget. The key list is left to grow: copying its views is cheap, and
-  // its doubling is what it was.
-  constexpr size_t kBytesPerGroup = 12;
+  // groups). The index's slots (4 bytes, at most 3/4 full, their count a
+  // power of two: up to 2 x 4/3 x 4 = 10.7 bytes a group) stay within a
+  // quarter of the budget. The key list is left to grow: copying its views
+  // is cheap, and its doubling is what it was.
+  constexpr size_t kBytesPerGroup = 11;
   groups += groups / 8;
   if (budget_ > 0) groups = std::min(groups, budget_ / 4 / kBytesPerGroup);
-  if (groups > index_.size()) index_.reserve(groups);
+  index_.Reserve(groups, static_cast<uint32_t>(keys_.size()), [this](uint32_t id) { return Hash(keys_[id]); });
 }
 
-uint32_t WorkerGroupTable::FindOrAdd(std::string_view key) {
-  const Probe probe{key, HashKey(key)};
-  auto it = index_.find(probe);
-  if (it != index_.end()) return *it;
+uint32_t WorkerGroupTable::Add(std::string_view key, uint64_t hash) {
   if (full_) return kOverBudget;
   const uint32_t id = static_cast<uint32_t>(keys_.size());
+  if (keys_.size() == key_capacity_) {  // doubles, as a vector's push_back does
+    key_capacity_ = std::max<size_t>(1, 2 * key_capacity_);
+    keys_.reserve(key_capacity_);
+  }
   keys_.push_back(key_bytes_.Add(key));
-  new_id_ = id;  // the insert hashes id by probe.hash
-  new_hash_ = probe.hash;
-  index_.insert(id);
-  new_id_ = UINT32_MAX;
+  index_.Insert(id, hash, keys_.size(), [this](uint32_t g) { return Hash(keys_[g]); });
   key_total_ += key.size();
   if (budget_ > 0) {
     const size_t n = keys_.size();
-    if (n > stable_until_ || index_.bucket_count() != synced_buckets_ || keys_.capacity() != synced_key_capacity_)
+    if (n > stable_until_ || index_.bucket_count() != synced_buckets_ || key_capacity_ != synced_key_capacity_)
       Resync();
     if (base_bytes_ + key_total_ + n * (per_group_ + kSortBytesPerGroup) > budget_) full_ = true;
   }
   return id;
+}
+
+void WorkerGroupTable::Clear() {
+  keys_.clear();
+  key_capacity_ = 0;
+  key_bytes_.Clear();
+  index_.Clear();
+  for (const auto& c : columns_) c->Clear();
+  column_groups_ = 0;
+  base_bytes_ = per_group_ = stable_until_ = synced_buckets_ = synced_key_capacity_ = 0;
+  key_total_ = 0;
+  full_ = false;
 }
 
 void WorkerGroupTable::Resync() {
@@ -63,7 +80,7 @@ void WorkerGroupTable::Resync() {
   }
   base_bytes_ = ApproxBytes() - key_total_ - n * per_group_;
   synced_buckets_ = index_.bucket_count();
-  synced_key_capacity_ = keys_.capacity();
+  synced_key_capacity_ = key_capacity_;
 }
 
 void WorkerGroupTable::Encode(ByteWriter& w) const {
@@ -174,8 +191,8 @@ void WorkerGroupTable::EncodeGroup(uint32_t g, ByteWriter& w) const {
 
 size_t WorkerGroupTable::ApproxBytes() const {
   SyncColumns();
-  size_t bytes = keys_.capacity() * sizeof(std::string_view) +
-                 index_.bucket_count() * (sizeof(uint32_t) + 1);
+  size_t bytes = key_capacity_ * sizeof(std::string_view) +
+                 index_.bucket_count() * sizeof(uint32_t);
   bytes += key_total_;
   for (const auto& c : columns_) bytes += c->ApproxBytes();
   return bytes;

@@ -1,11 +1,13 @@
 // WorkerGroupTable: a worker's group table for one shard and one reduction.
 // Each new key's bytes (common/partial/group_key.h) are stored once in a
-// KeyArena and the key gets the next group id; the hash index holds only
-// ids (4 bytes a slot). A key is hashed once per lookup (XXH3-64), and a
-// new key's insert reuses that hash; only the index's growth hashes the
-// keys again (Reserve avoids it; keeping every hash instead would cost 8
-// bytes a group, which pushed the issue-14 row's tables past their default
-// budget). The measures' states
+// KeyArena and the key gets the next group id; the hash index
+// (common/partial/group_index.h) holds only ids and hash tags (4 bytes a
+// slot). A key is hashed once per lookup (XXH3-64), and a new key's insert
+// reuses that hash; only the index's growth hashes the keys again (Reserve
+// avoids it; keeping every hash instead would cost 8 bytes a group, which
+// pushed the issue-14 row's tables past their default budget). A batch's
+// keys are hashed first and their slots fetched (Prefetch) before the
+// lookups, which then rarely wait on memory. The measures' states
 // live in one MeasureColumn per measure indexed by group id (flat arrays
 // for the fixed-size measures); a new group's empty states are appended in
 // one call per column and batch (SyncColumns) rather than per group; a
@@ -25,8 +27,8 @@
 // reference the differential test compares against). When every measure's
 // state has a small bound (count, count_present, sum) the groups are written
 // by pointer, a block of states per column call (EncodeBounded); otherwise
-// group by group through a ByteWriter. Neither copied nor
-// moved (the index's hash reads the key list by address); not thread-safe.
+// group by group through a ByteWriter. Neither copied nor moved; not
+// thread-safe.
 #pragma once
 
 #include <cstdint>
@@ -35,10 +37,9 @@
 #include <string_view>
 #include <vector>
 
-#include <boost/unordered/unordered_flat_set.hpp>
-
 #include "common/base/byte_io.h"
 #include "common/measures/measure.h"
+#include "common/partial/group_index.h"
 #include "common/partial/key_arena.h"
 #include "common/partial/measure_column.h"
 
@@ -55,8 +56,29 @@ class WorkerGroupTable {
   // order of first appearance), creating it, with empty states in every
   // column, if new.
   // When the table is full and the key is new: kOverBudget, nothing added.
-  uint32_t FindOrAdd(std::string_view key);
+  uint32_t FindOrAdd(std::string_view key) { return FindOrAdd(key, Hash(key)); }
+  // The same, for a key whose Hash is known (a batch's keys are hashed, and
+  // their slots fetched by Prefetch, before they are looked up).
+  // Inline: a key found again (most records) costs a probe and a compare.
+  uint32_t FindOrAdd(std::string_view key, uint64_t hash) {
+    const uint32_t found = index_.Find(hash, [this, key](uint32_t id) { return SameKey(key, keys_[id]); });
+    return found != GroupIndex::kNone ? found : Add(key, hash);
+  }
   static constexpr uint32_t kOverBudget = UINT32_MAX;
+  static uint64_t Hash(std::string_view key);
+  // Fetches the index slot of a key with this hash into the cache.
+  void Prefetch(uint64_t hash) const { index_.Prefetch(hash); }
+  // Hash of each of n keys lying end to end in `bytes` (key i ends at
+  // ends[i]) into hashes[i], each slot fetched (Prefetch): one call a batch.
+  void HashBatch(const char* bytes, const uint32_t* ends, size_t n, uint64_t* hashes) const;
+
+  // Forgets every group (and fullness), keeping the memory of the index,
+  // the key list and arena and the columns for the next shard's groups.
+  // From here the table behaves as a new one (same ids, same ApproxBytes
+  // at every group, so full at the same group): what it counts is what a
+  // new table would hold; the memory it keeps beyond that is at most what
+  // it counted before (under the caller's budget then).
+  void Clear();
 
   // Bytes past which the table takes no new key (0 = no limit, the default).
   // At least one group is always taken.
@@ -98,28 +120,6 @@ class WorkerGroupTable {
   static constexpr size_t kSortBytesPerGroup = 20;
 
  private:
-  // A key being looked up, with its hash.
-  struct Probe {
-    std::string_view key;
-    uint64_t hash;
-  };
-  struct IdHash {
-    using is_transparent = void;
-    using is_avalanching = void;  // XXH3's bits are already mixed
-    const WorkerGroupTable* table;
-    size_t operator()(const Probe& p) const { return p.hash; }
-    size_t operator()(uint32_t id) const {
-      return id == table->new_id_ ? table->new_hash_ : HashKey(table->keys_[id]);
-    }
-  };
-  static uint64_t HashKey(std::string_view key);
-  struct IdEq {
-    using is_transparent = void;
-    const std::vector<std::string_view>* keys;
-    bool operator()(uint32_t a, uint32_t b) const { return a == b; }
-    bool operator()(const Probe& p, uint32_t id) const { return SameKey(p.key, (*keys)[id]); }
-    bool operator()(uint32_t id, const Probe& p) const { return SameKey(p.key, (*keys)[id]); }
-  };
   // a == b; keys of 8 to 16 bytes (most: an integer, or a short string and
   // a tag) by two overlapping 8-byte loads instead of a call to memcmp.
   static bool SameKey(std::string_view a, std::string_view b) {
@@ -139,6 +139,8 @@ class WorkerGroupTable {
   void EncodeBounded(const std::vector<uint32_t>& order, ByteWriter& w) const;
   static constexpr size_t kMaxBoundedState = 64;
 
+  // FindOrAdd of a key the index does not hold.
+  uint32_t Add(std::string_view key, uint64_t hash);
   // Recomputes the budget's base (see FindOrAdd) at the current size.
   void Resync();
 
@@ -152,7 +154,8 @@ class WorkerGroupTable {
   const std::vector<MeasureConfig>* configs_;
   KeyArena key_bytes_;                   // every key's bytes, once
   std::vector<std::string_view> keys_;   // by group id, into key_bytes_
-  boost::unordered_flat_set<uint32_t, IdHash, IdEq> index_;
+  size_t key_capacity_ = 0;  // keys_'s, as if grown from empty by doubling
+  GroupIndex index_;                     // hash -> group id
   std::vector<std::unique_ptr<MeasureColumn>> columns_;  // one per measure
   mutable size_t column_groups_ = 0;  // groups every column holds a state for
   // Under a budget: ApproxBytes() at n groups, for n up to stable_until_ and
@@ -162,9 +165,7 @@ class WorkerGroupTable {
   size_t per_group_ = 0;
   size_t stable_until_ = 0;
   size_t synced_buckets_ = 0;
-  size_t synced_key_capacity_ = 0;
-  uint32_t new_id_ = UINT32_MAX;      // the group being inserted, and its key's hash
-  uint64_t new_hash_ = 0;
+  size_t synced_key_capacity_ = 0;  // key_capacity_ at the last Resync
   size_t key_total_ = 0;  // bytes of every key
   size_t budget_ = 0;     // 0 = none
   bool full_ = false;

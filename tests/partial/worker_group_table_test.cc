@@ -213,5 +213,59 @@ TEST_CASE("worker_group_table: the budget's rule holds group by group") {
   }
 }
 
+// Intent: a cleared table (kept for the next shard) behaves as a new one
+// (the header's claim for Clear): for every budget and presize, group by
+// group the same id, the same ApproxBytes (so full at the same group) and
+// at the end the same encoding, although it keeps the memory of a larger
+// table filled before (an index, key list, arena and columns grown past
+// what the new table needs, and kept chunks of the arena too small for a
+// long key).
+TEST_CASE("worker_group_table: a cleared table counts, fills and encodes as a new one") {
+  const std::vector<MeasureConfig> configs = EveryKind();
+  std::vector<std::string> strings;
+  for (const size_t budget : {size_t{0}, size_t{20000}, size_t{400000}, size_t{3000000}}) {
+    for (const size_t reserve : {size_t{0}, size_t{500}, size_t{50000}}) {
+      CAPTURE(budget);
+      CAPTURE(reserve);
+      WorkerGroupTable kept(&configs);
+      TestLcg g(budget * 7 + reserve);
+      for (uint32_t i = 0; i < 30000; ++i) kept.FindOrAdd("before-" + std::to_string(i) + std::string(i % 97, 'x'));
+      for (size_t m = 0; m < configs.size(); ++m) {  // every column grown, its states fed
+        std::vector<Value> args(2, Value::Int(static_cast<int64_t>(m)));
+        const uint32_t last = 29999;
+        REQUIRE(kept.column(m).AddBatch(&last, args.data(), 2, 1) == 1);
+      }
+      REQUIRE(kept.ApproxBytes() > 30000 * configs.size());
+      kept.Clear();
+      CHECK(kept.group_count() == 0);
+      WorkerGroupTable fresh(&configs);
+      for (WorkerGroupTable* t : {&kept, &fresh}) {
+        t->set_budget(budget);
+        t->Reserve(reserve);
+      }
+      CHECK(kept.ApproxBytes() == fresh.ApproxBytes());
+      for (uint32_t i = 0; i < 9000 && !fresh.full(); ++i) {
+        // Keys repeat (ids found again), some longer than an arena chunk.
+        const uint64_t k = g.Next() % 6000;
+        const std::string key =
+            "k" + std::to_string(k) + std::string(k % 500 == 0 ? 70000 : k % 23, static_cast<char>('a' + k % 26));
+        const uint32_t a = kept.FindOrAdd(key), b = fresh.FindOrAdd(key);
+        REQUIRE(a == b);
+        REQUIRE(kept.ApproxBytes() == fresh.ApproxBytes());
+        REQUIRE(kept.full() == fresh.full());
+        if (a == WorkerGroupTable::kOverBudget) continue;
+        std::vector<Value> args(2);
+        for (Value& v : args) v = RandomValue(g, &strings);
+        for (size_t m = 0; m < configs.size(); ++m) {
+          REQUIRE(kept.column(m).AddBatch(&a, args.data(), 2, 1) == 1);
+          REQUIRE(fresh.column(m).AddBatch(&b, args.data(), 2, 1) == 1);
+        }
+      }
+      CHECK(kept.group_count() == fresh.group_count());
+      CHECK(Encoded(kept) == Encoded(fresh));
+    }
+  }
+}
+
 }  // namespace
 }  // namespace fanfold
