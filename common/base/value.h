@@ -175,19 +175,26 @@ struct Value {
   // sign and decimal digits only, within [-2^63, 2^64-1], as that exact
   // integer; any other string AsNumber accepts as its double.
   // Returns true iff *out was set (to a kNumber).
+  // The two common cases (a number, a string already read) inline; the
+  // rest in AsNumericText.
   bool AsNumeric(Value* out) const {
     if (kind == ValueKind::kNumber) {
       *out = *this;
       return true;
     }
-    if (kind != ValueKind::kString || str.empty()) return false;
-    if (text_number == TextNumber::kNumber) {
+    if (kind == ValueKind::kString && text_number == TextNumber::kNumber) {
       *out = Make(ValueKind::kNumber);
       out->rep = rep;
       out->bits = bits;
       out->number = number;
       return true;
     }
+    return AsNumericText(out);
+  }
+  // AsNumeric of any value but a number or a string read as one.
+  [[gnu::noinline]] bool AsNumericText(Value* out) const {
+    if (kind != ValueKind::kString || str.empty()) return false;
+    if (text_number == TextNumber::kNumber) return AsNumeric(out);
     if (text_number == TextNumber::kNotNumber) return false;
     if (NumberRep r; ShortNumeric(str, &r, &out->bits, &out->number)) {
       out->kind = ValueKind::kNumber;

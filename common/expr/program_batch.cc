@@ -4,7 +4,9 @@
 // row width as stride, a constant has stride 0, an evaluated node its own
 // register column — so every op's loop reads its operands without asking
 // what they are.
+#include <algorithm>
 #include <cstddef>
+#include <cstdint>
 #include <utility>
 #include <vector>
 
@@ -24,6 +26,15 @@ struct Column {
   explicit Column(const std::pair<const Value*, size_t>& c) : base(c.first), stride(c.second) {}
   const Value& at(uint32_t r) const { return base[r * stride]; }
 };
+
+// A substr start or count (a floored number, +infinity for "to the end")
+// as a byte count: SubstrBytes clamps it to [0, size], which for a
+// non-negative whole number is min(it, size).
+size_t SpanBytes(double d) {
+  if (!(d > 0)) return 0;
+  if (d >= 9.0e18) return SIZE_MAX;  // infinity too
+  return static_cast<size_t>(d);
+}
 
 }  // namespace
 
@@ -107,7 +118,23 @@ void Expr::Program::EvalBatch(const Value* rows, size_t width, const uint32_t* s
       case ExprOp::kTextEq: FF_EACH_RECORD(TextEqOf(nd, a.at(r)));
       case ExprOp::kEpoch: FF_EACH_RECORD(EpochOf(a.at(r), nd.function == ExprFunction::kTimeMs));
       case ExprOp::kClockField: FF_EACH_RECORD(ClockFieldOf(nd.function, a.at(r), nd.time));
-      case ExprOp::kSubstrFixed: FF_EACH_RECORD(SubstrOf(a.at(r), nd.span[0], nd.span[1], arena));
+      case ExprOp::kSubstrFixed: {
+        // A string's part with the span as byte counts, clamped as
+        // SubstrBytes clamps (integer arithmetic instead of doubles).
+        const size_t start = SpanBytes(nd.span[0]), count = SpanBytes(nd.span[1]);
+        for (size_t j = 0; j < n; ++j) {
+          const uint32_t r = sel[j];
+          const Value& v = a.at(r);
+          if (v.kind == ValueKind::kString) {
+            const size_t size = v.str.size();
+            const size_t from = std::min(start, size);
+            dst[r * ds] = Value::String(std::string_view(v.str.data() + from, std::min(count, size - from)));
+          } else {
+            dst[r * ds] = SubstrOfText(v, nd.span[0], nd.span[1], arena);
+          }
+        }
+        break;
+      }
       case ExprOp::kCall: {
         const Column c = nd.kids[2] >= 0 ? Column(columns[nd.kids[2]]) : Column{};
         const Column kid[3] = {a, b, c};

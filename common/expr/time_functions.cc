@@ -130,6 +130,43 @@ bool DayOfDate(const char* p, int64_t* days) {
   return true;
 }
 
+// The epoch second of the minute at p[0, 16) ("YYYY-MM-DDThh:mm", the
+// separator T, t or a space), or false iff it is not one. Timestamps of
+// one log come in time order, so most share the previous one's minute: the
+// last minute seen (per thread) is remembered by its sixteen bytes.
+bool MinuteOfText(const char* p, int64_t* seconds) {
+  struct LastMinute {
+    uint64_t head = 0;  // bytes 0..7, "YYYY-MM-"
+    uint64_t tail = 0;  // bytes 8..15, "DDThh:mm"
+    int64_t seconds = 0;
+    bool set = false;
+  };
+  thread_local LastMinute last;
+  uint64_t head, tail;
+  std::memcpy(&head, p, 8);
+  std::memcpy(&tail, p + 8, 8);
+  if (last.set && head == last.head && tail == last.tail) {
+    *seconds = last.seconds;
+    return true;
+  }
+  unsigned bad = 0;  // any byte that should be a digit and is not
+  auto digit = [p, &bad](size_t i) {
+    const unsigned v = static_cast<unsigned>(static_cast<unsigned char>(p[i])) - '0';
+    bad |= v > 9 ? 1u : 0u;
+    return static_cast<int>(v);
+  };
+  const int hour = digit(11) * 10 + digit(12);
+  const int minute = digit(14) * 10 + digit(15);
+  const char sep = p[10];
+  if (bad != 0 || p[13] != ':' || (sep != 'T' && sep != 't' && sep != ' ') || hour > 23 || minute > 59)
+    return false;
+  int64_t days;
+  if (!DayOfDate(p, &days)) return false;
+  *seconds = days * kSecondsPerDay + hour * 3600 + minute * 60;
+  last = LastMinute{head, tail, *seconds, true};
+  return true;
+}
+
 // The common shape, read at fixed positions without bounds checks per
 // field: YYYY-MM-DD{T|t| }hh:mm:ss, then optionally '.' and 1 to 9
 // fraction digits, then optionally Z, z or an offset +hh:mm / -hh:mm.
@@ -146,16 +183,11 @@ bool ParseIsoTimestampCommon(std::string_view text, double* epoch_seconds) {
     bad |= v > 9 ? 1u : 0u;
     return static_cast<int>(v);
   };
-  const int hour = digit(11) * 10 + digit(12);
-  const int minute = digit(14) * 10 + digit(15);
   const int second = digit(17) * 10 + digit(18);
-  const char sep = p[10];
-  if (bad != 0 || p[13] != ':' || p[16] != ':' || (sep != 'T' && sep != 't' && sep != ' ') || hour > 23 ||
-      minute > 59 || second > 59)
-    return false;
-  int64_t days;
-  if (!DayOfDate(p, &days)) return false;
-  int64_t seconds = days * kSecondsPerDay + hour * 3600 + minute * 60 + second;
+  if (bad != 0 || p[16] != ':' || second > 59) return false;
+  int64_t seconds;
+  if (!MinuteOfText(p, &seconds)) return false;
+  seconds += second;
   size_t pos = 19;
   double fraction = 0;
   if (pos < n && p[pos] == '.') {

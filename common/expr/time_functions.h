@@ -47,7 +47,9 @@ int IsoWeekdayFromDays(int64_t days);
 // ninth are read but ignored. Returns true iff the whole text matched.
 // The common RFC 3339 shape (YYYY-MM-DDThh:mm:ss, up to nine fraction
 // digits after '.', then Z, +hh:mm, -hh:mm or nothing) takes a fast path
-// that reads fixed positions and remembers the last date's day number; every other text goes to ParseIsoTimestampGeneral, which gives
+// that reads fixed positions and remembers (per thread) the last minute's
+// epoch second and the last date's day number; every other text goes to
+// ParseIsoTimestampGeneral, which gives
 // the same answer for all texts (tests/expr/time_functions_test.cc checks
 // the two against each other on mutated timestamps).
 bool ParseIsoTimestamp(std::string_view text, double* epoch_seconds);
@@ -77,7 +79,11 @@ int ClockHour(double t, const TimeZone& zone = TimeZone());
 // ClockHour(t) on the UTC clock, inline (it runs once per record).
 inline int ClockHourUtc(double t) {
   if (!(t >= kMinEpochSeconds && t < kEndEpochSeconds)) return -1;  // NaN fails too
-  const int64_t in_day = static_cast<int64_t>(std::floor(t)) % 86400;
+  // floor(t) as an integer without a libm call: truncation, one less for a
+  // negative non-integer (exact: |t| < 2^63 here).
+  int64_t whole = static_cast<int64_t>(t);
+  whole -= static_cast<double>(whole) > t ? 1 : 0;
+  const int64_t in_day = whole % 86400;
   return static_cast<int>((in_day < 0 ? in_day + 86400 : in_day) / 3600);
 }
 int IsoWeekday(double t, const TimeZone& zone = TimeZone());

@@ -21,14 +21,14 @@ BatchAggregator::BatchAggregator(const Plan& plan, RecordBatch* batch, const std
     f.only_values.resize(f.plan->measures.size() * cap);
     for (const CompiledMeasure& m : f.plan->measures) {
       std::array<int, 2> d = {-1, -1};
-      uint8_t numeric = 0;
       for (size_t a = 0; a < m.args.size() && a < 2; ++a) {
         d[a] = m.args[a].DirectSlot();
-        if (d[a] >= 0 && MeasureReadsNumber(m.config.kind, a)) numeric |= static_cast<uint8_t>(1u << a);
+        if (d[a] >= 0 && MeasureReadsNumber(m.config.kind, a) &&
+            std::find(f.numeric_slots.begin(), f.numeric_slots.end(), d[a]) == f.numeric_slots.end())
+          f.numeric_slots.push_back(d[a]);
       }
       f.arg_direct.push_back(d);
       f.arg_values.emplace_back(cap * std::max<size_t>(m.args.size(), 1));
-      f.arg_numeric.push_back(numeric);
     }
     for (MeasureInputs* in : {&f.fed, &f.only_fed}) {
       in->rows = std::make_unique<uint32_t[]>(RecordBatch::kCapacity);
@@ -124,8 +124,10 @@ void BatchAggregator::Derive(size_t i, const std::vector<uint32_t>& sel) {
 void BatchAggregator::Filter(const Expr& keep, std::vector<uint32_t>* sel) {
   keep.EvalBatch(rows(), width_, sel->data(), sel->size(), batch_.size(), truth_.get(), 1, &scratch_, &arena_);
   size_t kept = 0;
-  for (const uint32_t r : *sel)
-    if (truth_[r].Truthy()) (*sel)[kept++] = r;
+  for (const uint32_t r : *sel) {
+    const Value& t = truth_[r];  // a comparison's bool, mostly: read inline
+    if (t.kind == ValueKind::kBool ? t.boolean : t.Truthy()) (*sel)[kept++] = r;
+  }
   sel->resize(kept);
 }
 
@@ -238,6 +240,10 @@ bool BatchAggregator::Flush() {
   Value* const rows = this->rows();
   for (size_t r = 0; r < feeds_.size(); ++r) {
     ReductionFeed& f = feeds_[r];
+    // A field numeric measures read is parsed once, in the batch, and
+    // shared by every measure (and reduction) reading it.
+    for (const int d : f.numeric_slots)
+      for (size_t i = 0; i < f.fed.n; ++i) rows[f.fed.rows[i] * width_ + d].ReadTextNumber();
     for (size_t m = 0; ok && m < f.plan->measures.size(); ++m) {
       const CompiledMeasure& cm = f.plan->measures[m];
       const MeasureInputs* in = &f.fed;
@@ -266,9 +272,6 @@ bool BatchAggregator::Flush() {
         }
         args.base[a] = rows + d;
         args.step[a] = width_;
-        // A field a numeric measure reads is parsed once, in the batch, and shared.
-        if (f.arg_numeric[m] >> a & 1)
-          for (size_t i = 0; i < n; ++i) rows[in->rows[i] * width_ + d].ReadTextNumber();
       }
       if (f.table->column(m).AddRows(in->groups.get(), in->rows.get(), args, n) < n) {
         over_limit_ = {static_cast<int>(r), static_cast<int>(m)};

@@ -50,10 +50,10 @@ struct ReductionFeed {
   uint64_t kept = 0;
   std::vector<int> group_direct;               // Expr::DirectSlot of each key
   std::vector<std::array<int, 2>> arg_direct;  // ... of each measure argument
-  // Per measure, bit a: argument a is a field the measure reads as a
-  // number; its text is read once in the batch (Value::ReadTextNumber), so
-  // every measure and reduction reading that field shares one parse.
-  std::vector<uint8_t> arg_numeric;
+  // The fields a measure reads as a number, each once: their text is read
+  // once in the batch (Value::ReadTextNumber), so every measure and
+  // reduction reading that field shares one parse.
+  std::vector<int> numeric_slots;
   MeasureInputs fed;       // the batch's records in the table
   MeasureInputs only_fed;  // those of one measure with `only`, while flushing
   // The records of keys the full table does not hold (made when needed).

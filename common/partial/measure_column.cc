@@ -1,6 +1,7 @@
 #include "common/partial/measure_column.h"
 
 #include <cstdlib>
+#include <memory>
 #include <type_traits>
 #include <vector>
 
@@ -155,9 +156,11 @@ class ObjectColumn final : public MeasureColumn {
   }
   void Clear() override { states_.Clear(); }
   size_t AddBatch(const uint32_t* groups, const Value* args, size_t stride, size_t n) override {
+    Taking(n);
     return EachContiguous(groups, args, stride, n, [this](uint32_t g, const Value* a) { return Add(g, a); });
   }
   size_t AddRows(const uint32_t* groups, const uint32_t* rows, const ArgColumns& args, size_t n) override {
+    Taking(n);
     return EachInPlace(groups, rows, args, n, [this](uint32_t g, const Value* a) { return Add(g, a); });
   }
   void EncodeGroup(uint32_t g, ByteWriter& w) const override { states_[g]->Encode(w); }
@@ -173,12 +176,27 @@ class ObjectColumn final : public MeasureColumn {
   bool Add(uint32_t g, const Value* a) {
     if constexpr (std::is_same_v<State, MeasureState>) {
       return states_[g]->Add(a);
+    } else if constexpr (std::is_same_v<State, DDSketchState>) {
+      DDSketchState* s = static_cast<DDSketchState*>(states_[g].get());
+      return memo_ ? s->AddMemo(a, memo_.get()) : s->DDSketchState::Add(a);
     } else {
       return static_cast<State*>(states_[g].get())->State::Add(a);
     }
   }
+  // ddsketch: past its first kMemoAfter inputs the column reads bucket
+  // indexes through a memo (the same indexes; made late so that a tiny
+  // shard does not pay for the table).
+  void Taking(size_t n) {
+    if constexpr (std::is_same_v<State, DDSketchState>) {
+      if (!memo_ && (taken_ += n) > kMemoAfter) memo_ = std::make_unique<DDSketchState::IndexMemo>();
+    }
+  }
   const MeasureConfig& config_;
   ChunkedArray<std::unique_ptr<MeasureState>> states_;
+  // ddsketch only: the inputs taken until the memo is made, and the memo.
+  static constexpr size_t kMemoAfter = 4096;
+  size_t taken_ = 0;
+  std::unique_ptr<DDSketchState::IndexMemo> memo_;
 };
 
 }  // namespace

@@ -58,7 +58,7 @@ class ExprMaker {
       case 7: return Of({"lower", "upper", "len", "has", "lacks", "num", "text", "time", "time_ms", "one_if", "clock_hour", "weekday"}) + "(" + Make(depth - 1) + ")";
       case 8: return Of({"starts_with", "ends_with", "contains", "bucket_start"}) + "(" + Make(depth - 1) + ", " + Make(depth - 1) + ")";
       case 9:
-        if (Pick(2)) return "substr(" + Make(depth - 1) + ", " + Of({"0", "1", "-2", "2.7"}) + (Pick(2) ? ", " + Of({"0", "3", "1.5"}) : "") + ")";
+        if (Pick(2)) return "substr(" + Make(depth - 1) + ", " + Of({"0", "1", "-2", "2.7", "5", "1e300", "-1e300"}) + (Pick(2) ? ", " + Of({"0", "3", "1.5", "-1", "1e300"}) : "") + ")";
         return "substr(" + Make(depth - 1) + ", " + Make(depth - 1) + ")";
       case 10: {
         std::string s = "coalesce(" + Make(depth - 1);

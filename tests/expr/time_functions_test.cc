@@ -12,6 +12,7 @@
 #include <cstring>
 #include <sstream>
 #include <string>
+#include <vector>
 
 namespace fanfold {
 namespace {
@@ -149,6 +150,35 @@ TEST_CASE("FormatTimeBucket floors and bounds its input") {
   CHECK(IsoWeekday(-1e300) == -1);
 }
 
+// Intent: the inline UTC clock hour floors without libm: negative and
+// fractional seconds (just below and at whole hours and days, at the range
+// ends) give what Python's (math.floor(t) % 86400) // 3600 gives (floored
+// modulo; computed here with std::floor as the reference).
+TEST_CASE("ClockHourUtc floors negative and fractional seconds") {
+  auto reference = [](double t) {
+    const double s = std::floor(t);
+    const double in_day = s - std::floor(s / 86400) * 86400;
+    return static_cast<int>(in_day / 3600);
+  };
+  std::vector<double> ts = {0, -0.0, -1e-9, 1e-9, -0.5, 0.5, -3600, -3600.5, -3599.5, 3599.999, 3600, -86400,
+                            -86400.25, -86399.75, 86399.5, kMinEpochSeconds, kMinEpochSeconds + 0.5,
+                            kEndEpochSeconds - 0.5, kEndEpochSeconds - 1e-3, 1772323200.004, -1772323200.004};
+  uint64_t state = 3;
+  for (int i = 0; i < 20000; ++i) {
+    state = state * 6364136223846793005ULL + 1442695040888963407ULL;
+    const double u = static_cast<double>(state >> 11) / 9007199254740992.0;  // [0, 1)
+    ts.push_back(kMinEpochSeconds + u * (kEndEpochSeconds - kMinEpochSeconds));
+    ts.push_back(std::round(ts.back() / 3600) * 3600 - (i % 3) * 0.25);
+  }
+  for (const double t : ts) {
+    CAPTURE(t);
+    CHECK(ClockHourUtc(t) == reference(t));
+  }
+  CHECK(ClockHourUtc(kMinEpochSeconds - 0.5) == -1);
+  CHECK(ClockHourUtc(kEndEpochSeconds) == -1);
+  CHECK(ClockHourUtc(NAN) == -1);
+}
+
 // Intent: the civil-date conversion is a bijection over the whole range and
 // has the day count Python gives it.
 TEST_CASE("DaysFromCivil and CivilFromDays round-trip every day of 0001..9999") {
@@ -274,6 +304,40 @@ TEST_CASE("ParseIsoTimestamp's fast path equals the general parser on mutated ti
     ++total;
   }
   CHECK(accepted > 3000);  // the sweep reaches both outcomes
+  CHECK(total - accepted > 3000);
+}
+
+// Intent: the fast path remembers the last minute ("YYYY-MM-DDThh:mm") it
+// read; texts that share those sixteen bytes with the one before (the usual
+// case in a log) and differ after them (seconds, fraction, zone, mutated
+// bytes) still equal the general parser, as do texts that differ from the
+// remembered minute in one byte of it.
+TEST_CASE("ParseIsoTimestamp's remembered minute equals the general parser") {
+  const char* minutes[] = {"2026-03-05T14:07", "2026-03-05 14:07", "2024-02-29t23:59", "2026-03-05T14:08"};
+  const char* tails[] = {":09Z", ":09.250Z", ":59.999999999+01:00", ":00", ":60Z", ":5Z", ":09.Z", ":09.1234567891z",
+                         ":09-05:30", ":09+0530", "", ":", ":09.250Zx", ":0a.250Z", ";09Z"};
+  const char alphabet[] = "0123456789-:TtZz.+ ";
+  uint64_t state = 7;
+  auto next = [&state] {
+    state = state * 6364136223846793005ULL + 1442695040888963407ULL;
+    return state >> 33;
+  };
+  int accepted = 0, total = 0;
+  for (int round = 0; round < 20000; ++round) {
+    std::string text = std::string(minutes[(round / 50) % 4]) + tails[next() % (sizeof tails / sizeof tails[0])];
+    if (next() % 4 == 0) text[next() % text.size()] = alphabet[next() % (sizeof alphabet - 1)];
+    CAPTURE(text);
+    double fast = -1, general = -1;
+    const bool a = ParseIsoTimestamp(text, &fast);
+    const bool b = ParseIsoTimestampGeneral(text, &general);
+    REQUIRE(a == b);
+    if (a) {
+      CHECK(std::memcmp(&fast, &general, sizeof fast) == 0);
+      ++accepted;
+    }
+    ++total;
+  }
+  CHECK(accepted > 3000);
   CHECK(total - accepted > 3000);
 }
 

@@ -23,6 +23,9 @@
 #pragma once
 
 #include <cmath>
+#include <cstdint>
+#include <cstring>
+#include <memory>
 #include <vector>
 
 #include "common/measures/sketches/ddsketch_store.h"
@@ -37,23 +40,39 @@ class DDSketchState final : public MeasureState {
   explicit DDSketchState(const MeasureConfig& config);
 
   bool Add(const Value* args) override {
-    double x;
-    if (!args[0].AsNumber(&x) || !std::isfinite(x)) {
-      ++skipped_;
-      return true;
-    }
-    if (x > 0) {
-      pos_.Add(Index(x));
-    } else if (x < 0) {
-      neg_.Add(Index(-x));
-    } else {
-      x = 0.0;  // -0.0 too: one zero, so min/max are canonical
-      ++zero_;
-    }
-    if (!(x >= min_)) min_ = x;  // also true while empty (min_ is NaN)
-    if (!(x <= max_)) max_ = x;
-    return true;
+    return AddWith(args, [this](double m) { return Index(m); });
   }
+
+  // Remembers the bucket index of recently seen magnitudes, so that a value
+  // seen again skips the logarithm: one per column of states made from one
+  // config (so one gamma). A direct-mapped table of 2^13 entries, each the
+  // magnitude's bits and the index Index computed for it, so a hit returns
+  // exactly what Index returns. Not thread-safe.
+  class IndexMemo {
+   public:
+    int32_t IndexOf(double magnitude, const DDSketchState& s) {
+      uint64_t bits;
+      std::memcpy(&bits, &magnitude, sizeof bits);
+      // Fibonacci hashing of the bits; a magnitude is > 0, so its bits are
+      // never 0, the empty entry's key.
+      Entry& e = entries_[(bits * 0x9E3779B97F4A7C15ull) >> (64 - kSlotBits)];
+      if (e.bits != bits) e = Entry{bits, s.Index(magnitude)};
+      return e.index;
+    }
+
+   private:
+    static constexpr int kSlotBits = 13;
+    struct Entry {
+      uint64_t bits = 0;
+      int32_t index = 0;
+    };
+    std::unique_ptr<Entry[]> entries_ = std::make_unique<Entry[]>(size_t{1} << kSlotBits);
+  };
+  // Add, with the bucket index read through memo (made for this state's config).
+  bool AddMemo(const Value* args, IndexMemo* memo) {
+    return AddWith(args, [this, memo](double m) { return memo->IndexOf(m, *this); });
+  }
+
   Status Merge(const MeasureState& other) override;
   // Encoding: varint skipped, varint zero count, negative store, positive
   // store (DDSketchStore::Encode), then iff any value: f64 min, f64 max.
@@ -72,6 +91,26 @@ class DDSketchState final : public MeasureState {
   double alpha() const { return alpha_; }
 
  private:
+  // Add, with the bucket index of a magnitude from index_of.
+  template <class IndexOf>
+  bool AddWith(const Value* args, IndexOf index_of) {
+    double x;
+    if (!args[0].AsNumber(&x) || !std::isfinite(x)) {
+      ++skipped_;
+      return true;
+    }
+    if (x > 0) {
+      pos_.Add(index_of(x));
+    } else if (x < 0) {
+      neg_.Add(index_of(-x));
+    } else {
+      x = 0.0;  // -0.0 too: one zero, so min/max are canonical
+      ++zero_;
+    }
+    if (!(x >= min_)) min_ = x;  // also true while empty (min_ is NaN)
+    if (!(x <= max_)) max_ = x;
+    return true;
+  }
   // An encoded state, checked, its stores left in the input.
   struct Encoded {
     uint64_t skipped = 0, zero = 0;

@@ -201,3 +201,46 @@ TEST_CASE("ddsketch: empty and skipped") {
 
 }  // namespace
 }  // namespace fanfold
+
+namespace fanfold {
+namespace {
+
+// Intent: a state fed through the bucket-index memo (what a worker's column
+// uses past its first inputs) keeps the documented guarantee and equals, byte
+// for byte, the state fed by Add: the memo only remembers Index's answers.
+// The values repeat (a pool of 12,000 drawn values, so the 8,192-entry memo
+// both hits and evicts), both signs, zeros, text, NaN and infinities.
+TEST_CASE("ddsketch: the bucket-index memo changes no bucket") {
+  for (double alpha : {0.01, 0.001, 1e-6}) {
+    INFO("alpha " << alpha);
+    TestLcg g(404);
+    std::vector<double> pool;
+    for (int i = 0; i < 12000; ++i) pool.push_back(Draw(i % 2 ? Shape::kLognormal : Shape::kSignedWithZeros, g));
+    Rows rows;
+    std::vector<double> values;
+    for (int i = 0; i < 60000; ++i) {
+      const double x = pool[g.Next() % pool.size()];
+      values.push_back(x);
+      rows.AddNumber(x);
+    }
+    rows.AddString("7.25");
+    values.push_back(7.25);
+    rows.AddString("n/a");
+    rows.AddNumber(NAN);
+    rows.AddNumber(INFINITY);
+    rows.AddNumber(-INFINITY);
+    const MeasureConfig config = SketchConfig(alpha);
+    DDSketchState plain(config), memoized(config);
+    DDSketchState::IndexMemo memo;
+    for (size_t i = 0; i < rows.size(); ++i) {
+      plain.Add(rows.args(i));
+      memoized.AddMemo(rows.args(i), &memo);
+    }
+    CHECK(memoized.skipped() == 4);
+    CHECK(testing::EncodeOf(memoized) == testing::EncodeOf(plain));
+    if (alpha >= 0.001) CheckGuarantee(memoized, values, alpha);
+  }
+}
+
+}  // namespace
+}  // namespace fanfold
