@@ -57,12 +57,12 @@ struct Step {
 
 class AheadSource final : public ByteSource, public BlockLender {
  public:
-  AheadSource(DecodeAhead* owner, std::unique_ptr<ByteSource> inner) : owner_(owner), inner_(std::move(inner)) {
-    if (owner_->threaded_) owner_->Start([this] { Pump(); });
-  }
+  // Threaded, the helper starts on the first Lend or Read, so that a study
+  // named before (SetStudy) sees every block.
+  AheadSource(DecodeAhead* owner, std::unique_ptr<ByteSource> inner) : owner_(owner), inner_(std::move(inner)) {}
 
   ~AheadSource() override {
-    if (owner_->threaded_) {
+    if (started_) {
       std::unique_lock<std::mutex> lock(mu_);
       stop_ = true;
       cv_.notify_all();
@@ -77,6 +77,10 @@ class AheadSource final : public ByteSource, public BlockLender {
     if (ended_) return size_t{0};
     Step step;
     if (owner_->threaded_) {
+      if (!started_) {
+        started_ = true;
+        owner_->Start([this] { Pump(); });
+      }
       std::unique_lock<std::mutex> lock(mu_);
       cv_.wait(lock, [this] { return !steps_.empty(); });
       step = std::move(steps_.front());
@@ -121,10 +125,12 @@ class AheadSource final : public ByteSource, public BlockLender {
   }
   bool starts_file() const override { return starts_file_; }
   BlockLender* lender() override { return this; }
+  void SetStudy(std::shared_ptr<BlockStudy> study) override { study_ = std::move(study); }
 
  private:
-  // Fills one block from the inner source and appends its steps. Runs on
-  // the helper (threaded) or the caller (inline): the same calls either way.
+  // Fills one block from the inner source, has the study (if any) study
+  // it, and appends its steps. Runs on the helper (threaded) or the caller
+  // (inline): the same calls either way.
   void FillOne() {
     LentBlock b = owner_->pool_->Take();
     Status error;
@@ -140,6 +146,14 @@ class AheadSource final : public ByteSource, public BlockLender {
         break;
       }
       b.size += *n;
+    }
+    if (b.size > 0) {
+      if (study_ != nullptr) {
+        study_->Study(b.data(), b.size, b.tail, &b.note);
+        b.note->maker = study_.get();
+      } else if (b.note != nullptr) {
+        b.note->maker = nullptr;  // left from the block's last use
+      }
     }
     const uint64_t compressed = inner_->compressed_bytes();
     std::lock_guard<std::mutex> lock(mu_);
@@ -181,6 +195,8 @@ class AheadSource final : public ByteSource, public BlockLender {
   bool finished_ = false;    // the last step (end or error) is queued
   bool stop_ = false;
   bool pump_done_ = false;
+  bool started_ = false;  // the helper runs Pump (threaded, from the first Lend)
+  std::shared_ptr<BlockStudy> study_;  // set before started_, read by FillOne
   // The caller's side.
   Status final_;
   bool ended_ = false;
