@@ -44,6 +44,7 @@ struct NdjsonBlockIndex final : BlockNote {
   std::vector<uint32_t> indexes;
 };
 
+// Defined in ndjson_reader.cc.
 class NdjsonBlockStudy final : public BlockStudy {
  public:
   void Study(const char* data, size_t size, size_t readable_after, std::unique_ptr<BlockNote>* note) override;
