@@ -125,7 +125,13 @@ class AheadSource final : public ByteSource, public BlockLender {
   }
   bool starts_file() const override { return starts_file_; }
   BlockLender* lender() override { return this; }
-  void SetStudy(std::shared_ptr<BlockStudy> study) override { study_ = std::move(study); }
+  // Threaded only: inline, the reader's own pass over each part of the
+  // block it is about to parse keeps those bytes in the nearest cache
+  // (cachegrind, NDJSON inline: 9.4 M first-level data misses with its own
+  // pass, 11.2 M with the study's over the whole block first).
+  void SetStudy(std::shared_ptr<BlockStudy> study) override {
+    if (owner_->threaded_) study_ = std::move(study);
+  }
 
  private:
   // Fills one block from the inner source, has the study (if any) study
