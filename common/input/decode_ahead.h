@@ -9,10 +9,10 @@
 // it until it is full, the source ends, or it fails), so the bytes, the bytes
 // before an error, and the error itself are identical in both modes.
 // Threaded, a study the reader names (BlockLender::SetStudy,
-// block_study.h) runs on the helper on each block right after it is
-// filled, and its note goes with the block; the helper starts on the first
-// Lend or Read, so the study sees every block. Inline the study is not run
-// (the reader does that work itself, nearer in the cache).
+// block_study.h) runs on the helper on each block filled after that, right
+// after filling it, and its note goes with the block (the first block may
+// be filled before: the helper starts at once). Inline the study is not
+// run (the reader does that work itself, nearer in the cache).
 // Blocks are kept for reuse (a worker reads many shards). The wrapped source
 // stops and waits for the helper when destroyed; one wrapped source at a time
 // per DecodeAhead. Not thread-safe for callers (one per worker thread).
