@@ -13,6 +13,7 @@
 #include <string>
 
 #include "common/base/status.h"
+#include "common/input/block_study.h"
 
 namespace fanfold {
 
@@ -53,6 +54,9 @@ struct LentBlock {
   size_t tail = 0;
   size_t size = 0;
   std::shared_ptr<BlockHome> home;
+  // What the lender's study found in the bytes (block_study.h); kept with
+  // the allocation for reuse.
+  std::unique_ptr<BlockNote> note;
   char* data() const { return bytes.get() + front; }
 };
 
@@ -75,6 +79,10 @@ class BlockLender {
   // error or the end every call returns the same. The caller returns the
   // block with ReturnBlock when done with it.
   virtual Result<size_t> Lend(LentBlock* out) = 0;
+  // Runs study on every block before it is lent (block_study.h), on the
+  // thread that fills it. REQUIRES: no block lent yet. Default: ignored
+  // (the blocks then carry no note of the study's making).
+  virtual void SetStudy(std::shared_ptr<BlockStudy> study) { (void)study; }
 };
 
 // Opens `path`, reading the byte range [offset, offset + length) of it when

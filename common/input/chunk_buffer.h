@@ -69,6 +69,17 @@ class ChunkBuffer {
   bool over_limit() const { return over_limit_; }
   // True iff src has reported its end: data() then holds all that is left.
   bool eof() const { return eof_; }
+  // The note that `maker` left on the lent block now holding the data
+  // (block_study.h), or null (no such note, or the data were copied into
+  // the buffer's own memory). The block's bytes start at note_base(): the
+  // unconsumed tail of the block before lies just before them.
+  BlockNote* note(const BlockStudy* maker) const {
+    if (maker == nullptr || lent_.bytes == nullptr || mem_ != lent_.bytes.get() || lent_.note == nullptr || lent_.note->maker != maker)
+      return nullptr;
+    return lent_.note.get();
+  }
+  const char* note_base() const { return lent_.data(); }
+
   // Decompressed bytes read from the source since Reset().
   uint64_t total_read() const { return total_read_; }
 

@@ -8,6 +8,11 @@
 // sequence of Read calls (each block is filled by reads of the room left in
 // it until it is full, the source ends, or it fails), so the bytes, the bytes
 // before an error, and the error itself are identical in both modes.
+// Threaded, a study the reader names (BlockLender::SetStudy,
+// block_study.h) runs on the helper on each block filled after that, right
+// after filling it, and its note goes with the block (the first block may
+// be filled before: the helper starts at once). Inline the study is not
+// run (the reader does that work itself, nearer in the cache).
 // Blocks are kept for reuse (a worker reads many shards). The wrapped source
 // stops and waits for the helper when destroyed; one wrapped source at a time
 // per DecodeAhead. Not thread-safe for callers (one per worker thread).

@@ -64,6 +64,10 @@ struct NdjsonLineParser::Impl {
   const char* group = nullptr;
   const char* group_end = nullptr;
   size_t group_next = 0;
+  // The group's structural indexes (group_idx[group_total] is its length):
+  // stage1's own, or those AdoptGroup was given.
+  uint32_t* group_idx = nullptr;
+  size_t group_total = 0;
   const char* next_backslash = nullptr;
   // How many structural indexes the last line parsed from a group had.
   size_t last_line_indexes = 0;
@@ -386,6 +390,29 @@ bool NdjsonLineParser::IndexGroup(const char* p, size_t len, size_t capacity) {
   im.group_end = p + len;
   im.group_next = 0;
   im.next_backslash = nullptr;  // not looked for yet
+  im.group_idx = im.stage1->structural_indexes.get();
+  im.group_total = im.stage1->n_structural_indexes;
+  return true;
+}
+
+void NdjsonLineParser::GroupIndexes(const uint32_t** idx, size_t* n) const {
+  *idx = impl_->group_idx;
+  *n = impl_->group_total;
+}
+
+bool NdjsonLineParser::AdoptGroup(const char* p, size_t len, size_t capacity, uint32_t* idx, size_t n) {
+  Impl& im = *impl_;
+  im.group = nullptr;
+  // The checks of IndexGroup but stage 1; Reserve makes the unescaping
+  // room (and the simdjson object whose unescaper StringAt uses).
+  if (capacity < len + simdjson::SIMDJSON_PADDING || len > simdjson::SIMDJSON_MAXSIZE_BYTES || !im.Reserve(len))
+    return false;
+  im.group = p;
+  im.group_end = p + len;
+  im.group_next = 0;
+  im.next_backslash = nullptr;
+  im.group_idx = idx;
+  im.group_total = n;
   return true;
 }
 
@@ -403,8 +430,8 @@ LineVerdict NdjsonLineParser::ParseGrouped(const char* p, size_t len, std::vecto
   }
   im.bs_next = im.next_backslash;
   im.bs_limit = im.group_end;
-  uint32_t* const idx = im.stage1->structural_indexes.get();
-  const size_t total = im.stage1->n_structural_indexes;  // idx[total] is the group's length
+  uint32_t* const idx = im.group_idx;
+  const size_t total = im.group_total;  // idx[total] is the group's length
   const auto begin = static_cast<uint32_t>(p - im.group);
   const auto end = static_cast<uint32_t>(begin + len);
   size_t first = im.group_next;

@@ -79,7 +79,21 @@ class NdjsonLineParser {
   // line), parse each line with Parse instead.
   bool IndexGroup(const char* p, size_t len, size_t capacity);
 
-  // As Parse, for the line p[0, len) of the group IndexGroup accepted last:
+  // The structural indexes of the group IndexGroup accepted last: *n of
+  // them, relative to the group's start, and then its length (*idx holds
+  // *n + 1 entries). Valid until the next call of this parser.
+  void GroupIndexes(const uint32_t** idx, size_t* n) const;
+
+  // As IndexGroup, with the indexes another parser's IndexGroup made of
+  // the same bytes (GroupIndexes, copied): idx[0, n] as that gives them,
+  // writable, unchanged by the call (ParseGrouped lends one entry while it
+  // parses a line and gives it back) and kept until the group's last
+  // ParseGrouped. Returns false where IndexGroup would for a reason of
+  // size (then parse each line with Parse).
+  bool AdoptGroup(const char* p, size_t len, size_t capacity, uint32_t* idx, size_t n);
+
+  // As Parse, for the line p[0, len) of the group IndexGroup (or
+  // AdoptGroup) accepted last:
   // the same verdict and slots, from the group's indexes.
   // REQUIRES: lines passed in order; p[len] is a line break or '\r' (or the
   // group's end); no Parse since IndexGroup.

@@ -9,6 +9,7 @@
 #include <vector>
 
 #include "common/base/json_syntax.h"
+#include "common/input/ndjson_block_index.h"
 #include "common/input/ndjson_line_parser.h"
 #include "common/input/pointer_trie.h"
 
@@ -33,14 +34,15 @@ std::string MalformedReason(std::string_view line, LineVerdict verdict) {
   }
 }
 
+// Asks the cache for bytes [p, p + n).
+void Prefetch(const void* p, size_t n) {
+  const char* c = static_cast<const char*>(p);
+  for (size_t i = 0; i < n; i += 64) __builtin_prefetch(c + i);
+}
+
 bool IsJsonSpace(char c) { return c == ' ' || c == '\t' || c == '\r' || c == '\n'; }
 
-// About how many bytes of lines stage 1 indexes in one call: enough that
-// its cost per call vanishes, few enough that a group it refuses (a line
-// with bad UTF-8 or an unclosed string), parsed again line by line, costs
-// little. Measured on the benchmark data (lines of ~200 bytes): 4 KiB
-// groups take stage 1 from ~1,030 to ~560 instructions a line.
-constexpr size_t kGroupBytes = 4096;
+constexpr size_t kGroupBytes = kNdjsonGroupBytes;
 
 }  // namespace
 
@@ -48,7 +50,10 @@ constexpr size_t kGroupBytes = 4096;
 // malformed line counts once, exactly, and the next line is read whatever
 // this one held. Stage 1 indexes a group of lines (about kGroupBytes) in
 // one call; a group it refuses is indexed again line by line, so a line's
-// verdict never depends on its neighbours (tests/input/ndjson_group_test.cc). Measured on this project's benchmark data (see
+// verdict never depends on its neighbours (tests/input/ndjson_group_test.cc).
+// From a lending source (decode ahead) the groups of a block's whole lines
+// come indexed with the block (NdjsonBlockStudy, on the helper thread when
+// threaded); the reader indexes only the lines cut by the blocks' edges. Measured on this project's benchmark data (see
 // bench/RESULTS.md): faster than the simdjson DOM parse it replaced, which
 // built a tape of every value and converted every number and string, and
 // than simdjson On-Demand walking every value for the same checks.
@@ -90,11 +95,53 @@ struct NdjsonReader::Impl {
 
   ChunkBuffer chunk;
   NdjsonLineParser parser;
+  // Indexes the lenders' blocks (shared with the source that runs it).
+  const std::shared_ptr<NdjsonBlockStudy> study = std::make_shared<NdjsonBlockStudy>();
   std::vector<PointerNode> nodes;  // nodes[0] is the root
   std::vector<Value> slots;
   const std::vector<Value> missing;  // as many slots, each Value::Missing()
   uint64_t generation = 0;
 };
+
+// The block study of ndjson_block_index.h (kept here, beside its one
+// user, so that the folder stays within its count of files).
+void NdjsonBlockStudy::Study(const char* data, size_t size, size_t readable_after,
+                             std::unique_ptr<BlockNote>* note) {
+  auto* index = dynamic_cast<NdjsonBlockIndex*>(note->get());
+  if (index == nullptr) {
+    index = new NdjsonBlockIndex;
+    note->reset(index);
+  }
+  index->groups.clear();
+  index->indexes.clear();
+  // The whole lines: after the first line break, up to the last one.
+  const void* first_nl = std::memchr(data, '\n', size);
+  if (first_nl == nullptr) return;
+  const size_t begin = static_cast<size_t>(static_cast<const char*>(first_nl) - data) + 1;
+  const void* last_nl = begin < size ? memrchr(data + begin, '\n', size - begin) : nullptr;
+  if (last_nl == nullptr) return;
+  const size_t end = static_cast<size_t>(static_cast<const char*>(last_nl) - data);
+  for (size_t at = begin; at <= end;) {
+    // Up to the first line break kNdjsonGroupBytes on, else the last one.
+    size_t stop = end;
+    if (end - at > kNdjsonGroupBytes)
+      stop = static_cast<size_t>(
+          static_cast<const char*>(std::memchr(data + at + kNdjsonGroupBytes, '\n', end + 1 - at - kNdjsonGroupBytes)) -
+          data);
+    NdjsonBlockIndex::Group g{static_cast<uint32_t>(at), static_cast<uint32_t>(stop), false,
+                              static_cast<uint32_t>(index->indexes.size()), 0};
+    if (parser_.IndexGroup(data + at, stop - at, size + readable_after - at)) {
+      const uint32_t* idx = nullptr;
+      size_t n = 0;
+      parser_.GroupIndexes(&idx, &n);
+      g.indexed = true;
+      g.count = static_cast<uint32_t>(n);
+      index->indexes.insert(index->indexes.end(), idx, idx + n + 1);
+    }
+    index->groups.push_back(g);
+    at = stop + 1;
+  }
+}
 
 NdjsonReader::NdjsonReader(std::unique_ptr<Impl> impl) : impl_(std::move(impl)) {}
 NdjsonReader::~NdjsonReader() = default;
@@ -114,6 +161,7 @@ Status NdjsonReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
   st = ReadStats{};
   Impl& im = *impl_;
   im.chunk.Reset();
+  if (BlockLender* lender = src.lender()) lender->SetStudy(im.study);
   uint64_t line = 0;
   bool at_start = src.starts_file();
   for (;;) {
@@ -133,17 +181,44 @@ Status NdjsonReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
     }
     const char* p = im.chunk.data();
     const char* end = p + im.chunk.size();
+    // The groups the study indexed, if the data are its block's.
+    auto* index = static_cast<NdjsonBlockIndex*>(im.chunk.note(im.study.get()));
+    const char* base = index != nullptr ? im.chunk.note_base() : nullptr;
+    size_t next = 0;  // index->groups[next]: the next group indexed with the block
     while (p < end) {
-      // A group of lines: up to the first line break kGroupBytes on, else
-      // the chunk's last line break (or its end, at the end of the text).
-      // Stage 1 indexes the group in one call (IndexGroup); a group it
-      // refuses goes line by line.
-      const size_t left = static_cast<size_t>(end - p);
-      const char* group_end =
-          left > kGroupBytes ? static_cast<const char*>(std::memchr(p + kGroupBytes, '\n', left - kGroupBytes)) : nullptr;
-      if (group_end == nullptr) group_end = last ? end : static_cast<const char*>(memrchr(p, '\n', left));
-      if (group_end == nullptr) break;  // an incomplete line: keep it for the next chunk
-      const bool grouped = im.parser.IndexGroup(p, static_cast<size_t>(group_end - p), im.chunk.room_after(p));
+      const NdjsonBlockIndex::Group* indexed = nullptr;
+      if (index != nullptr && next < index->groups.size()) indexed = &index->groups[next];
+      const char* group_end;
+      bool grouped;
+      if (indexed != nullptr && p == base + indexed->begin) {
+        ++next;
+        // The block was indexed on the helper's core: ask for the next
+        // group's bytes and indexes now, so that the walk (one dependent
+        // load after another) finds them in this core's cache.
+        if (next < index->groups.size()) {
+          const NdjsonBlockIndex::Group& g = index->groups[next];
+          Prefetch(base + g.begin, g.end - g.begin);
+          if (g.indexed) Prefetch(index->indexes.data() + g.first, (g.count + 1) * sizeof(uint32_t));
+        }
+        group_end = base + indexed->end;
+        grouped = indexed->indexed && im.parser.AdoptGroup(p, indexed->end - indexed->begin, im.chunk.room_after(p),
+                                                           index->indexes.data() + indexed->first, indexed->count);
+      } else {
+        // A group of lines: up to the first line break kGroupBytes on,
+        // else the chunk's last line break (or its end, at the end of the
+        // text), or the line break before the block's first indexed group.
+        // Stage 1 indexes the group in one call (IndexGroup); a group it
+        // refuses goes line by line.
+        const char* stop = indexed != nullptr && p < base + indexed->begin ? base + indexed->begin - 1 : end;
+        const size_t left = static_cast<size_t>(stop - p);
+        group_end = left > kGroupBytes ? static_cast<const char*>(std::memchr(p + kGroupBytes, '\n', left - kGroupBytes))
+                                       : nullptr;
+        if (group_end == nullptr) {
+          group_end = stop != end ? stop : last ? end : static_cast<const char*>(memrchr(p, '\n', left));
+        }
+        if (group_end == nullptr) break;  // an incomplete line: keep it for the next chunk
+        grouped = im.parser.IndexGroup(p, static_cast<size_t>(group_end - p), im.chunk.room_after(p));
+      }
       // Its lines, each up to its line break (the group ends at one, or at
       // the end of the text).
       while (p < group_end || (p == group_end && group_end != end)) {

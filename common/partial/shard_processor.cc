@@ -36,6 +36,7 @@ class TimedSource final : public ByteSource, public BlockLender {
     lender_ = inner_->lender();
     return lender_ != nullptr ? this : nullptr;
   }
+  void SetStudy(std::shared_ptr<BlockStudy> study) override { lender_->SetStudy(std::move(study)); }
   Result<size_t> Lend(LentBlock* out) override {
     uint64_t t0 = MonotonicNanos();
     Result<size_t> r = lender_->Lend(out);

@@ -16,6 +16,8 @@
 #include <string>
 #include <vector>
 
+#include "common/input/decode_ahead.h"
+#include "common/input/ndjson_block_index.h"
 #include "common/input/ndjson_line_parser.h"
 #include "common/input/ndjson_reader.h"
 #include "tests/base/text_edit_test_util.h"
@@ -84,6 +86,54 @@ std::vector<std::string> MakeLines(uint32_t seed, size_t count) {
     lines.push_back(l);
   }
   return lines;
+}
+
+// What each line read alone gives: its records (renumbered to the line's
+// number in the whole text), the malformed count and the first samples.
+struct Alone {
+  std::vector<std::string> rows;
+  uint64_t malformed = 0;
+  uint64_t grammar_malformed = 0;  // in the runs of grammar errors only
+  std::vector<MalformedSample> samples;
+  std::string text;  // the lines, each ended by a line break
+};
+
+Alone ReadAlone(const FieldTable& fields, const std::vector<std::string>& lines, ValueChecks checks) {
+  auto alone = NdjsonReader::Create(fields, ChunkOptions{}, checks);
+  REQUIRE(alone.ok());
+  Alone a;
+  for (size_t i = 0; i < lines.size(); ++i) {
+    a.text += lines[i] + "\n";
+    auto src = MemorySource(lines[i] + "\n");
+    LineRows sink(fields.size());
+    ReadStats st;
+    REQUIRE((*alone)->Read(*src, sink, &st).ok());
+    REQUIRE(st.records + st.malformed <= 1);
+    if (st.malformed == 1) {
+      ++a.malformed;
+      if ((i / 150) % 3 == 1) ++a.grammar_malformed;
+      if (a.samples.size() < ReadStats::kMaxSamples) a.samples.push_back({i + 1, st.samples.at(0).reason});
+    }
+    // A line alone is line 1: renumber it.
+    for (const std::string& r : sink.rows) a.rows.push_back(std::to_string(i + 1) + r.substr(r.find(':')));
+  }
+  return a;
+}
+
+// Checks a whole read against the lines read alone.
+void CheckSame(const Alone& want, const LineRows& sink, const ReadStats& st) {
+  CHECK(st.malformed == want.malformed);
+  REQUIRE(sink.rows.size() == want.rows.size());
+  int differ = 0;
+  for (size_t r = 0; r < want.rows.size(); ++r)
+    if (sink.rows[r] != want.rows[r] && ++differ <= 5)
+      FAIL_CHECK("together " << sink.rows[r] << "\nalone    " << want.rows[r]);
+  CHECK(differ == 0);
+  REQUIRE(st.samples.size() == want.samples.size());
+  for (size_t s = 0; s < st.samples.size(); ++s) {
+    CHECK(st.samples[s].line == want.samples[s].line);
+    CHECK(st.samples[s].reason == want.samples[s].reason);
+  }
 }
 
 // Intent: grouping lines for stage 1 changes no verdict, value, line number
@@ -155,6 +205,131 @@ TEST_CASE("lines read together give what each line read alone gives") {
         CHECK(st.samples[s].line == want_samples[s].line);
         CHECK(st.samples[s].reason == want_samples[s].reason);
       }
+    }
+  }
+}
+
+
+// Passes a lender's blocks through and counts those that come with groups
+// the reader's study indexed (so a test knows the helper's indexes were
+// there to use).
+class WatchedSource final : public ByteSource, public BlockLender {
+ public:
+  explicit WatchedSource(ByteSource* inner) : inner_(inner), lender_(inner->lender()) {}
+  Result<size_t> Read(char* dst, size_t cap) override { return inner_->Read(dst, cap); }
+  uint64_t compressed_bytes() const override { return inner_->compressed_bytes(); }
+  BlockLender* lender() override { return this; }
+  void SetStudy(std::shared_ptr<BlockStudy> study) override {
+    study_ = study.get();
+    lender_->SetStudy(std::move(study));
+  }
+  Result<size_t> Lend(LentBlock* out) override {
+    Result<size_t> n = lender_->Lend(out);
+    if (n.ok() && *n > 0) {
+      ++blocks;
+      const auto* index = dynamic_cast<const NdjsonBlockIndex*>(out->note.get());
+      if (index != nullptr && index->maker == study_ && study_ != nullptr)
+        for (const NdjsonBlockIndex::Group& g : index->groups) indexed_groups += g.indexed ? 1 : 0;
+    }
+    return n;
+  }
+  int blocks = 0;
+  int indexed_groups = 0;
+
+ private:
+  ByteSource* inner_;
+  BlockLender* lender_;
+  const BlockStudy* study_ = nullptr;
+};
+
+// Intent: the indexes the block study makes (on the decode-ahead thread)
+// are exactly those the reader's own stage 1 makes of the same group of
+// lines, its groups cover exactly the block's whole lines, and a group
+// stage 1 refuses is marked refused; wherever the block's edges cut a line.
+TEST_CASE("a block's index is what the reader's own stage 1 makes of its groups") {
+  const std::vector<std::string> lines = MakeLines(7, 900);
+  std::string text;
+  for (const std::string& l : lines) text += l + "\n";
+  NdjsonBlockStudy study;
+  NdjsonLineParser own;
+  std::unique_ptr<BlockNote> note = std::make_unique<BlockNote>();  // of another kind: replaced
+  int indexed = 0, refused = 0;
+  for (size_t cut = 30000; cut < 30400; ++cut) {  // every position of a few lines
+    const size_t size = 40000 + cut % 7;  // a run of clean lines and one of mutated ones
+    std::string block = text.substr(cut, size);
+    block.append(4096, 'x');  // readable after the block, not space
+    study.Study(block.data(), size, 4096, &note);
+    const auto* index = dynamic_cast<const NdjsonBlockIndex*>(note.get());
+    REQUIRE(index != nullptr);
+    const std::string_view bytes(block.data(), size);
+    REQUIRE(!index->groups.empty());
+    CHECK(index->groups.front().begin == bytes.find('\n') + 1);
+    CHECK(index->groups.back().end == bytes.rfind('\n'));
+    for (size_t g = 0; g < index->groups.size(); ++g) {
+      const NdjsonBlockIndex::Group& gr = index->groups[g];
+      CAPTURE(cut);
+      CAPTURE(g);
+      if (g > 0) CHECK(gr.begin == index->groups[g - 1].end + 1);
+      REQUIRE(bytes[gr.end] == '\n');
+      std::string copy = block.substr(gr.begin, gr.end - gr.begin);
+      const size_t len = copy.size();
+      copy.append(128, ' ');
+      const bool accepted = own.IndexGroup(copy.data(), len, copy.size());
+      REQUIRE(accepted == gr.indexed);
+      (accepted ? indexed : refused) += 1;
+      if (!accepted) continue;
+      const uint32_t* idx = nullptr;
+      size_t n = 0;
+      own.GroupIndexes(&idx, &n);
+      REQUIRE(n == gr.count);
+      CHECK(idx[n] == len);
+      CHECK(std::equal(idx, idx + n + 1, index->indexes.begin() + gr.first));
+    }
+  }
+  CHECK(indexed > 100);
+  CHECK(refused > 100);
+  // A block without two line breaks has no whole line to index.
+  for (const std::string& b : {std::string("{\"a\":1}"), std::string("{\"a\":1}\n{\"b\":")}) {
+    std::string block = b + std::string(4096, ' ');
+    study.Study(block.data(), b.size(), 4096, &note);
+    CHECK(static_cast<const NdjsonBlockIndex*>(note.get())->groups.empty());
+  }
+}
+
+// Intent: read through decode ahead, threaded (the block study indexing
+// whole lines on the helper, the reader the lines cut by the blocks'
+// edges) or inline (the reader indexing all), every line gives what it gives read
+// alone — the same records, values, line numbers, malformed count and
+// samples — wherever the edges cut (malformed lines and strings left open
+// across an edge included), and the study's indexes were in use.
+TEST_CASE("lines read through decode ahead give what each line read alone gives") {
+  const FieldTable fields = Fields({"/ts", "/lamp", "/power_w", "/fault", "/district"});
+  const std::vector<std::string> lines = MakeLines(20261204, 1800);
+  for (const ValueChecks checks : {ValueChecks::kReadValues, ValueChecks::kEveryValue}) {
+    CAPTURE(static_cast<int>(checks));
+    const Alone want = ReadAlone(fields, lines, checks);
+    CHECK(want.malformed > 50);
+    auto reader = NdjsonReader::Create(fields, ChunkOptions{}, checks);
+    REQUIRE(reader.ok());
+    std::vector<std::pair<bool, size_t>> runs;  // threaded, block bytes
+    for (size_t b = 6000; b < 6260; ++b) runs.push_back({true, b});  // every edge position of a line or two
+    for (size_t b : {size_t{100}, size_t{777}, size_t{4096}, size_t{65536}, kAheadBlockBytes}) {
+      runs.push_back({false, b});
+      runs.push_back({true, b});
+    }
+    for (const auto& [threaded, block] : runs) {
+      CAPTURE(threaded);
+      CAPTURE(block);
+      DecodeAhead ahead(threaded, block);
+      std::unique_ptr<ByteSource> src = ahead.Wrap(MemorySource(want.text));
+      WatchedSource watched(src.get());
+      LineRows sink(fields.size());
+      ReadStats st;
+      REQUIRE((*reader)->Read(watched, sink, &st).ok());
+      CheckSame(want, sink, st);
+      // Threaded, the helper indexed the blocks; inline, the reader did.
+      if (threaded && block >= 4096) CHECK(watched.indexed_groups >= watched.blocks / 2);
+      if (!threaded) CHECK(watched.indexed_groups == 0);
     }
   }
 }
