@@ -94,6 +94,14 @@ IsoWeek IsoWeekFromDays(int64_t days) {
 
 namespace {
 
+// The digit at p[i]; sets *bad non-zero when p[i] is not an ASCII digit
+// (the callers test *bad once, after reading every field).
+inline int DigitAt(const char* p, size_t i, unsigned* bad) {
+  const unsigned v = static_cast<unsigned>(static_cast<unsigned char>(p[i])) - '0';
+  *bad |= v > 9 ? 1u : 0u;
+  return static_cast<int>(v);
+}
+
 // The day number of the date at p[0, 10) ("YYYY-MM-DD"), or false iff it
 // is not one. Timestamps of one log mostly share their date, so the last
 // date seen (per thread) is remembered by its ten bytes.
@@ -114,11 +122,7 @@ bool DayOfDate(const char* p, int64_t* days) {
     return true;
   }
   unsigned bad = 0;  // any byte that should be a digit and is not
-  auto digit = [p, &bad](size_t i) {
-    const unsigned v = static_cast<unsigned>(static_cast<unsigned char>(p[i])) - '0';
-    bad |= v > 9 ? 1u : 0u;
-    return static_cast<int>(v);
-  };
+  auto digit = [p, &bad](size_t i) { return DigitAt(p, i, &bad); };
   const int year = digit(0) * 1000 + digit(1) * 100 + digit(2) * 10 + digit(3);
   const int month = digit(5) * 10 + digit(6);
   const int day = digit(8) * 10 + digit(9);
@@ -150,11 +154,7 @@ bool MinuteOfText(const char* p, int64_t* seconds) {
     return true;
   }
   unsigned bad = 0;  // any byte that should be a digit and is not
-  auto digit = [p, &bad](size_t i) {
-    const unsigned v = static_cast<unsigned>(static_cast<unsigned char>(p[i])) - '0';
-    bad |= v > 9 ? 1u : 0u;
-    return static_cast<int>(v);
-  };
+  auto digit = [p, &bad](size_t i) { return DigitAt(p, i, &bad); };
   const int hour = digit(11) * 10 + digit(12);
   const int minute = digit(14) * 10 + digit(15);
   const char sep = p[10];
@@ -178,11 +178,7 @@ bool ParseIsoTimestampCommon(std::string_view text, double* epoch_seconds) {
   if (n < 19) return false;
   const char* p = text.data();
   unsigned bad = 0;  // any byte that should be a digit and is not
-  auto digit = [p, &bad](size_t i) {
-    const unsigned v = static_cast<unsigned>(static_cast<unsigned char>(p[i])) - '0';
-    bad |= v > 9 ? 1u : 0u;
-    return static_cast<int>(v);
-  };
+  auto digit = [p, &bad](size_t i) { return DigitAt(p, i, &bad); };
   const int second = digit(17) * 10 + digit(18);
   if (bad != 0 || p[16] != ':' || second > 59) return false;
   int64_t seconds;
