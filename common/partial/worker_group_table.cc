@@ -150,7 +150,7 @@ void WorkerGroupTable::EncodeBounded(const std::vector<uint32_t>& order, ByteWri
         limit = out.data() + out.size();
       }
       p = PutVarint(p, key.size());
-      std::memcpy(p, key.data(), key.size());
+      if (!key.empty()) std::memcpy(p, key.data(), key.size());  // an empty key's view may be null
       p += key.size();
       for (size_t c = 0; c < m; ++c) {
         const uint32_t* e = &ends[c * (kBlock + 1) + (i - b)];
