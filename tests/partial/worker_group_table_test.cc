@@ -4,6 +4,7 @@
 // encodes for the same records — the old path is the reference.
 #include "common/partial/worker_group_table.h"
 
+#include <deque>
 #include <doctest/doctest.h>
 
 #include <string>
@@ -62,7 +63,9 @@ std::vector<MeasureConfig> BoundedKinds() {
 // A value of every shape a measure meets: missing, null, bools, integers
 // (small, negative, beyond int64), doubles (with -0.0 and infinities),
 // numeric and other text.
-Value RandomValue(TestLcg& g, std::vector<std::string>* strings) {
+// `strings` keeps the texts the values view: a deque, so a later push_back
+// never moves them.
+Value RandomValue(TestLcg& g, std::deque<std::string>* strings) {
   switch (g.Next() % 12) {
     case 0: return Value::Missing();
     case 1: return Value::Null();
@@ -106,8 +109,7 @@ TEST_CASE("worker_group_table: encodes GroupTable's bytes for every measure kind
     // 16,384 bytes (two- and three-byte length prefixes).
     const size_t groups = seed == 1 ? 1 : 1 + g.Next() % (seed % 3 == 0 ? 2000 : 40);
     const size_t records = seed == 1 ? 5000 : g.Next() % 3000;
-    std::vector<std::string> strings;
-    strings.reserve(records * 2 * m + 1);  // views into it stay valid
+    std::deque<std::string> strings;
     // The batch being queued: per measure, the groups and two arguments each.
     std::vector<std::vector<uint32_t>> batch_groups(m);
     std::vector<std::vector<Value>> batch_args(m);
@@ -222,7 +224,7 @@ TEST_CASE("worker_group_table: the budget's rule holds group by group") {
 // long key).
 TEST_CASE("worker_group_table: a cleared table counts, fills and encodes as a new one") {
   const std::vector<MeasureConfig> configs = EveryKind();
-  std::vector<std::string> strings;
+  std::deque<std::string> strings;
   for (const size_t budget : {size_t{0}, size_t{20000}, size_t{400000}, size_t{3000000}}) {
     for (const size_t reserve : {size_t{0}, size_t{500}, size_t{50000}}) {
       CAPTURE(budget);
