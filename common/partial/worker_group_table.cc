@@ -16,7 +16,7 @@ uint64_t WorkerGroupTable::Hash(std::string_view key) { return XXH3_64bits(key.d
 void WorkerGroupTable::HashBatch(const char* bytes, const uint32_t* ends, size_t n, uint64_t* hashes) const {
   size_t begin = 0;
   for (size_t i = 0; i < n; ++i) {
-    hashes[i] = XXH3_64bits(bytes + begin, ends[i] - begin);
+    hashes[i] = Hash(std::string_view(bytes + begin, ends[i] - begin));
     index_.Prefetch(hashes[i]);
     begin = ends[i];
   }

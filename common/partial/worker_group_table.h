@@ -6,7 +6,7 @@
 // reuses that hash; only the index's growth hashes the keys again (Reserve
 // avoids it; keeping every hash instead would cost 8 bytes a group, which
 // pushed the issue-14 row's tables past their default budget). A batch's
-// keys are hashed first and their slots fetched (Prefetch) before the
+// keys are hashed first and their index slots fetched (HashBatch) before the
 // lookups, which then rarely wait on memory. The measures' states
 // live in one MeasureColumn per measure indexed by group id (flat arrays
 // for the fixed-size measures); a new group's empty states are appended in
@@ -58,7 +58,7 @@ class WorkerGroupTable {
   // When the table is full and the key is new: kOverBudget, nothing added.
   uint32_t FindOrAdd(std::string_view key) { return FindOrAdd(key, Hash(key)); }
   // The same, for a key whose Hash is known (a batch's keys are hashed, and
-  // their slots fetched by Prefetch, before they are looked up).
+  // their slots fetched by HashBatch, before they are looked up).
   // Inline: a key found again (most records) costs a probe and a compare.
   uint32_t FindOrAdd(std::string_view key, uint64_t hash) {
     const uint32_t found = index_.Find(hash, [this, key](uint32_t id) { return SameKey(key, keys_[id]); });
@@ -66,10 +66,9 @@ class WorkerGroupTable {
   }
   static constexpr uint32_t kOverBudget = UINT32_MAX;
   static uint64_t Hash(std::string_view key);
-  // Fetches the index slot of a key with this hash into the cache.
-  void Prefetch(uint64_t hash) const { index_.Prefetch(hash); }
   // Hash of each of n keys lying end to end in `bytes` (key i ends at
-  // ends[i]) into hashes[i], each slot fetched (Prefetch): one call a batch.
+  // ends[i]) into hashes[i], each one's index slot fetched into the cache:
+  // one call a batch.
   void HashBatch(const char* bytes, const uint32_t* ends, size_t n, uint64_t* hashes) const;
 
   // Forgets every group (and fullness), keeping the memory of the index,
