@@ -6,6 +6,7 @@
 // Coordinator main thread; owns nothing beyond its scratch and counts.
 #pragma once
 
+#include <cstddef>
 #include <cstdint>
 #include <vector>
 
@@ -20,6 +21,13 @@ struct RowsStepCounts {
   std::vector<uint64_t> no_value;  // per added column: rows where it came out null or missing
   uint64_t rows_in = 0;            // rows the merge gave
   uint64_t rows_dropped = 0;       // rows the filter did not keep
+  // Adds another step's counts over the same plan (the rows step of
+  // another key range of one result).
+  void Add(const RowsStepCounts& o) {
+    rows_in += o.rows_in;
+    rows_dropped += o.rows_dropped;
+    for (size_t i = 0; i < o.no_value.size() && i < no_value.size(); ++i) no_value[i] += o.no_value[i];
+  }
 };
 
 class RowsStep {

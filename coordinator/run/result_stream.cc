@@ -361,12 +361,7 @@ Status StreamPiecesInOrder(Merger& merger, const Plan& plan, size_t r, const std
   FF_RETURN_IF_ERROR(walked);
   FF_RETURN_IF_ERROR(PublishFiles(files));
   out->rows = outs.front()->step.counts();
-  for (size_t p = 1; p < pieces; ++p) {
-    const RowsStepCounts& c = outs[p]->step.counts();
-    out->rows.rows_in += c.rows_in;
-    out->rows.rows_dropped += c.rows_dropped;
-    for (size_t i = 0; i < c.no_value.size() && i < out->rows.no_value.size(); ++i) out->rows.no_value[i] += c.no_value[i];
-  }
+  for (size_t p = 1; p < pieces; ++p) out->rows.Add(outs[p]->step.counts());
   out->rows_written = before;
   out->sort_files = 0;
   out->streamed = true;
