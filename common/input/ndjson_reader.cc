@@ -42,13 +42,11 @@ void Prefetch(const void* p, size_t n) {
 
 bool IsJsonSpace(char c) { return c == ' ' || c == '\t' || c == '\r' || c == '\n'; }
 
-constexpr size_t kGroupBytes = kNdjsonGroupBytes;
-
 }  // namespace
 
 // One parse per line (NdjsonLineParser): the lines are cut here, so each
 // malformed line counts once, exactly, and the next line is read whatever
-// this one held. Stage 1 indexes a group of lines (about kGroupBytes) in
+// this one held. Stage 1 indexes a group of lines (about kNdjsonGroupBytes) in
 // one call; a group it refuses is indexed again line by line, so a line's
 // verdict never depends on its neighbours (tests/input/ndjson_group_test.cc).
 // From a lending source (decode ahead) the groups of a block's whole lines
@@ -123,11 +121,8 @@ void NdjsonBlockStudy::Study(const char* data, size_t size, size_t readable_afte
   const size_t end = static_cast<size_t>(static_cast<const char*>(last_nl) - data);
   for (size_t at = begin; at <= end;) {
     // Up to the first line break kNdjsonGroupBytes on, else the last one.
-    size_t stop = end;
-    if (end - at > kNdjsonGroupBytes)
-      stop = static_cast<size_t>(
-          static_cast<const char*>(std::memchr(data + at + kNdjsonGroupBytes, '\n', end + 1 - at - kNdjsonGroupBytes)) -
-          data);
+    const char* cut = NdjsonGroupBreak(data + at, data + end + 1);
+    const size_t stop = cut != nullptr ? static_cast<size_t>(cut - data) : end;
     NdjsonBlockIndex::Group g{static_cast<uint32_t>(at), static_cast<uint32_t>(stop), false,
                               static_cast<uint32_t>(index->indexes.size()), 0};
     if (parser_.IndexGroup(data + at, stop - at, size + readable_after - at)) {
@@ -204,18 +199,15 @@ Status NdjsonReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
         grouped = indexed->indexed && im.parser.AdoptGroup(p, indexed->end - indexed->begin, im.chunk.room_after(p),
                                                            index->indexes.data() + indexed->first, indexed->count);
       } else {
-        // A group of lines: up to the first line break kGroupBytes on,
+        // A group of lines: up to the first line break kNdjsonGroupBytes on,
         // else the chunk's last line break (or its end, at the end of the
         // text), or the line break before the block's first indexed group.
         // Stage 1 indexes the group in one call (IndexGroup); a group it
         // refuses goes line by line.
         const char* stop = indexed != nullptr && p < base + indexed->begin ? base + indexed->begin - 1 : end;
-        const size_t left = static_cast<size_t>(stop - p);
-        group_end = left > kGroupBytes ? static_cast<const char*>(std::memchr(p + kGroupBytes, '\n', left - kGroupBytes))
-                                       : nullptr;
-        if (group_end == nullptr) {
-          group_end = stop != end ? stop : last ? end : static_cast<const char*>(memrchr(p, '\n', left));
-        }
+        group_end = NdjsonGroupBreak(p, stop);
+        if (group_end == nullptr)
+          group_end = stop != end ? stop : last ? end : static_cast<const char*>(memrchr(p, '\n', static_cast<size_t>(stop - p)));
         if (group_end == nullptr) break;  // an incomplete line: keep it for the next chunk
         grouped = im.parser.IndexGroup(p, static_cast<size_t>(group_end - p), im.chunk.room_after(p));
       }
