@@ -58,6 +58,10 @@ class ShardProcessor {
   bool ahead_threaded = false;
 
  private:
+  // Process less the encoding time's stamp: sets *encode_from to when the
+  // last record was aggregated (the encoding phase's start).
+  Status ProcessShard(const ShardTask& task, std::string* partial, uint64_t* encode_from);
+
   const Plan* plan_;
   std::vector<const std::vector<MeasureConfig>*> configs_;  // per reduction, the plan's
   std::unique_ptr<DecodeAhead> ahead_;    // made on the first large shard

@@ -89,9 +89,28 @@ Status ScriptedTransport::Wait(int timeout_ms, TransportEvent* event, bool* got)
     }
     const uint64_t now = NowNs();
     uint64_t next_due = UINT64_MAX;  // earliest kDelay answer still to come
+    // Answers at once (due 0) in worker order, then kDelay answers in the
+    // order of their due times even when this thread was late to look (a
+    // loaded machine), not in worker order.
+    int best = -1;
+    uint64_t best_due = UINT64_MAX;
     for (int w = 0; w < worker_count(); ++w) {
       Slot& slot = slots_[static_cast<size_t>(w)];
       if (slot.queue.empty()) continue;
+      const Held& head = slot.queue.front();
+      const ScriptStep step = StepFor(head.task);
+      if (step.act == ScriptStep::Act::kDrop) continue;
+      const uint64_t due = step.act == ScriptStep::Act::kDelay ? head.start_ns + step.delay_ms * 1'000'000 : 0;
+      if (due > now) {
+        next_due = std::min(next_due, due);
+      } else if (due < best_due) {
+        best = w;
+        best_due = due;
+      }
+    }
+    if (best >= 0) {
+      const int w = best;
+      Slot& slot = slots_[static_cast<size_t>(w)];
       const Held& head = slot.queue.front();
       const ScriptStep step = StepFor(head.task);
       TransportEvent ev;
@@ -100,14 +119,8 @@ Status ScriptedTransport::Wait(int timeout_ms, TransportEvent* event, bool* got)
       ev.start_ns = head.start_ns;
       ev.end_ns = now;
       switch (step.act) {
-        case ScriptStep::Act::kDrop:
-          continue;
-        case ScriptStep::Act::kDelay:
-          if (now < head.start_ns + step.delay_ms * 1'000'000) {
-            next_due = std::min(next_due, head.start_ns + step.delay_ms * 1'000'000);
-            continue;
-          }
-          [[fallthrough]];
+        case ScriptStep::Act::kDrop:  // not chosen above
+        case ScriptStep::Act::kDelay:  // due: chosen above
         case ScriptStep::Act::kAnswer:
           ev.partial = partial_for_(head.task.index);
           break;

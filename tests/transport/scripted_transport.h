@@ -81,8 +81,9 @@ class ScriptedTransport final : public Transport {
   int room(int w) const override;
   Status Assign(int w, const ShardTask& task) override;
   bool Running(int w, uint32_t* shard, uint64_t* since_ns) const override;
-  // Delivers a pending death's kReturned events first, then the due answer
-  // of the lowest-numbered worker; sleeps (at most timeout_ms) for a kDelay.
+  // Delivers a pending death's kReturned events first, then the
+  // lowest-numbered worker's immediate answer, else the due kDelay answer
+  // due earliest; sleeps (at most timeout_ms) for a kDelay.
   Status Wait(int timeout_ms, TransportEvent* event, bool* got) override;
   Status Abort(int w) override;
   void Shutdown() override { shut_down_ = true; }
