@@ -1,9 +1,12 @@
 #include "worker/fault_injection.h"
 
+#include "common/partial/partial_codec.h"
+
 #include <signal.h>
 #include <unistd.h>
 
 #include <charconv>
+#include <cstring>
 #include <chrono>
 #include <cstdlib>
 #include <sstream>
@@ -47,7 +50,8 @@ Result<FaultPlan> FaultPlan::Parse(const std::string& text) {
     else if (kind == "exit") f.kind = Kind::kExit;
     else if (kind == "stall") f.kind = Kind::kStall;
     else if (kind == "corrupt") f.kind = Kind::kCorrupt;
-    else return bad("unknown fault kind '" + kind + "' (expected crash, exit, stall or corrupt)");
+    else if (kind == "forge") f.kind = Kind::kForge;
+    else return bad("unknown fault kind '" + kind + "' (expected crash, exit, stall, corrupt or forge)");
     bool have_shard = false;
     std::stringstream kvs(colon == std::string::npos ? "" : entry.substr(colon + 1));
     std::string kv;
@@ -90,16 +94,40 @@ void FaultPlan::OnRecord(const ShardTask& task, uint64_t records) const {
         }
         std::this_thread::sleep_for(std::chrono::milliseconds(f.ms));
         break;
-      case Kind::kCorrupt: break;
+      case Kind::kCorrupt:
+      case Kind::kForge: break;
     }
   }
 }
+
+namespace {
+
+// The forge fault: *partial again with its body (decompressed) one byte
+// shorter, stored raw, its lengths and checksum made to match
+// (common/partial/partial_codec.h: flags at byte 20, the body's two lengths
+// at 104 and 112). Left as it was when it does not open.
+void ForgeCutBody(std::string* partial) {
+  OpenedPartial p;
+  if (!OpenPartial(*partial, &p).ok() || p.body.empty()) return;
+  p.body.pop_back();
+  std::string out = partial->substr(0, kPartialHeaderSize) + p.body;
+  const uint32_t flags = kPartialRawBody;
+  const uint64_t len = p.body.size();
+  std::memcpy(out.data() + 20, &flags, 4);
+  std::memcpy(out.data() + 104, &len, 8);
+  std::memcpy(out.data() + 112, &len, 8);
+  SetPartialEncodeTime(p.header.encode_ns, &out);  // seals the checksum over the new body
+  partial->swap(out);
+}
+
+}  // namespace
 
 void FaultPlan::OnFinish(const ShardTask& task, std::string* partial) const {
   for (const Fault& f : faults_) {
     if (f.kind == Kind::kCorrupt && Matches(f, task) && !partial->empty()) {
       (*partial)[partial->size() / 2] ^= 0x10;
     }
+    if (f.kind == Kind::kForge && Matches(f, task)) ForgeCutBody(partial);
   }
 }
 

@@ -4,7 +4,10 @@
 // value must begin with "inject:" so that no stray setting can trigger it:
 //   FANFOLD_TEST_ONLY_FAULTS='inject:crash:shard=3,attempt=1,after=100;stall:shard=5,ms=60000'
 // Kinds: crash (SIGKILL itself), exit (code=N), stall (sleep ms, default
-// forever), corrupt (flip one bit of the encoded partial). Keys: shard
+// forever), corrupt (flip one bit of the encoded partial), forge (cut the
+// last byte of the partial's body, store the body raw and seal the checksum
+// again: a partial that arrives whole but whose last group is cut short,
+// found only when the merge reads that group). Keys: shard
 // (required), attempt (default: every attempt), after (records, default 0).
 // Immutable once parsed; used from the worker's single thread.
 #pragma once
@@ -20,7 +23,7 @@ namespace fanfold {
 
 class FaultPlan {
  public:
-  enum class Kind { kCrash, kExit, kStall, kCorrupt };
+  enum class Kind { kCrash, kExit, kStall, kCorrupt, kForge };
   struct Fault {
     Kind kind = Kind::kCrash;
     uint32_t shard = 0;

@@ -178,13 +178,13 @@ FoldOutcome GroupFold::FoldRange(const FoldInputs& in, const KeyRange& range, st
       }
     }
     const bool from_base = sources[holders[0]].partial == FoldOutcome::kNoPartial;
-    if (from_base && holders.size() == 1) {
+    if (from_base && holders.size() == 1 && visit_ == nullptr) {
       // No later shard has this key: its bytes are what the in-memory
       // table would encode, unchanged (a run's framing is ours, written
       // as below), so the group is copied whole.
       w.Bytes(sources[holders[0]].cursor.group_bytes());
     } else {
-      w.Str(key);
+      if (visit_ == nullptr) w.Str(key);
       for (size_t j = 0; j < m; ++j) {
         MeasureState& st = *states_[j];
         size_t h = 0;
@@ -206,10 +206,17 @@ FoldOutcome GroupFold::FoldRange(const FoldInputs& in, const KeyRange& range, st
                                         std::to_string(j)),
                           src.partial);
         }
+        if (visit_ != nullptr) continue;  // handed over below, not encoded
         encoded_.clear();
         ByteWriter sw(&encoded_);
         st.Encode(sw);
         w.Str(encoded_);
+      }
+      if (visit_ != nullptr) {
+        if (Status s = (*visit_)(key, states_); !s.ok()) {
+          visit_failed_ = true;
+          return Failed(std::move(s), FoldOutcome::kNoPartial);
+        }
       }
     }
     ++outcome.groups;
@@ -246,6 +253,17 @@ FoldOutcome GroupFold::FoldRange(const FoldInputs& in, const KeyRange& range, st
     if (!s.ok()) return Failed(std::move(s), FoldOutcome::kNoPartial);
   }
   return outcome;
+}
+
+FoldOutcome GroupFold::FoldRangeTo(const FoldInputs& in, const KeyRange& range, const Visit& visit,
+                                   bool* visit_failed) {
+  visit_ = &visit;
+  visit_failed_ = false;
+  std::string unused;
+  FoldOutcome o = FoldRange(in, range, &unused, nullptr);
+  *visit_failed = visit_failed_;
+  visit_ = nullptr;
+  return o;
 }
 
 std::vector<std::string> SplitKeys(const FoldInputs& in, size_t measure_count, size_t parts) {

@@ -86,7 +86,18 @@ class GroupFold {
   FoldOutcome FoldRange(const FoldInputs& in, const KeyRange& range, std::string* out,
                         const Drain* drain = nullptr);
 
+  // FoldRange without writing the groups: each folded group's key and
+  // states (as the in-memory table would hold them: a group only the base
+  // run has is decoded from its bytes) go to visit, in ascending key
+  // order; nothing is encoded. A visit failure ends the fold with that
+  // status (kNoPartial) and visit_failed set. Used to fold the last batch
+  // straight into the output (docs/streaming-merge.md).
+  using Visit = std::function<Status(std::string_view key, const std::vector<std::unique_ptr<MeasureState>>& states)>;
+  FoldOutcome FoldRangeTo(const FoldInputs& in, const KeyRange& range, const Visit& visit, bool* visit_failed);
+
  private:
+  const Visit* visit_ = nullptr;  // set while FoldRangeTo runs
+  bool visit_failed_ = false;
   const std::vector<MeasureConfig>* configs_;
   std::vector<std::unique_ptr<MeasureState>> states_;   // the key being folded
   std::vector<std::unique_ptr<MeasureState>> scratch_;  // MergeEncoded's

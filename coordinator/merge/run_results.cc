@@ -126,7 +126,47 @@ FoldOutcome RunResults::FoldOne(size_t r, bool spill, uint32_t end, const std::v
   return o;
 }
 
+std::vector<std::pair<uint32_t, const OpenedPartial*>> RunResults::PendingPartials() const {
+  std::vector<std::pair<uint32_t, const OpenedPartial*>> out;
+  for (const Pending& p : batch_) out.emplace_back(p.shard, p.info.get());
+  return out;
+}
+
+size_t RunResults::PrepareStraight(size_t r) {
+  auto s = std::make_unique<Straight>();
+  s->reduction = r;
+  s->in.base_pieces = runs_[r]->pieces();
+  s->in.reduction = r;
+  for (const Pending& p : batch_) {
+    if (p.held) {
+      s->in.streams.push_back(p.held.get());
+    } else {
+      Result<std::unique_ptr<StoredPartialBytes>> o = open_(p.shard);
+      if (!o.ok()) return 0;  // Fold() drops it, naming the file
+      s->opened.push_back(std::move(*o));
+      s->in.streams.push_back(s->opened.back().get());
+    }
+    s->in.stream_groups.push_back(p.scanned.group_counts[r]);
+  }
+  s->ranges = CutRanges(s->in, measure_counts_[r], threads_);
+  straight_ = std::move(s);
+  return straight_->ranges.size();
+}
+
+FoldOutcome RunResults::FoldStraight(size_t i, const GroupFold::Visit& visit, bool* visit_failed) const {
+  const Straight& s = *straight_;
+  return GroupFold(&plan_->reductions[s.reduction].configs).FoldRangeTo(s.in, s.ranges[i], visit, visit_failed);
+}
+
+void RunResults::Consumed() {
+  straight_.reset();
+  batch_.clear();
+  batch_groups_ = batch_held_ = batch_streams_ = batch_raw_ = 0;
+  ++folds_;
+}
+
 RunResults::Folded RunResults::Fold() {
+  straight_.reset();
   Folded out;
   while (!batch_.empty()) {
     const bool spill = ShouldSpill();

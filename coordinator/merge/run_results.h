@@ -95,6 +95,24 @@ class RunResults {
   // Folds the pending batch into the runs and empties it.
   Folded Fold();
 
+  // The pending batch's partials (shard and header counts), in shard order:
+  // what the totals will count once they fold.
+  std::vector<std::pair<uint32_t, const OpenedPartial*>> PendingPartials() const;
+
+  // The last fold straight into the output (docs/streaming-merge.md): the
+  // pending batch folded with reduction r's run over key ranges, each
+  // group handed to a visitor instead of written to a new run. Prepare
+  // opens the batch's partials and cuts the ranges (0 ranges: a partial
+  // could not be opened; fold the usual way); FoldStraight(i, visit) folds
+  // range i on the calling thread (ranges may run at once, one thread
+  // each); Consumed() empties the batch once every range folded (the run
+  // is then not the result any more: nothing may walk it again). A failed
+  // range changes nothing: Fold() then folds the batch the usual way.
+  // REQUIRES: one reduction in the plan; pending().
+  size_t PrepareStraight(size_t r);
+  FoldOutcome FoldStraight(size_t i, const GroupFold::Visit& visit, bool* visit_failed) const;
+  void Consumed();
+
   // Walks reduction r's run: its groups in ascending key order, each key's
   // states as the in-memory table would encode them. Valid while this
   // RunResults lives and no Fold runs.
@@ -127,6 +145,14 @@ class RunResults {
     std::unique_ptr<StoredPartialBytes> held;  // the stored bytes, without an opener
     ScannedPartial scanned;
   };
+
+  struct Straight {  // PrepareStraight's
+    size_t reduction = 0;
+    std::vector<std::unique_ptr<StoredPartialBytes>> opened;
+    FoldInputs in;
+    std::vector<KeyRange> ranges;
+  };
+  std::unique_ptr<Straight> straight_;
 
   const std::vector<size_t> measure_counts_;
   PartialOpener open_;

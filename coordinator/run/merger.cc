@@ -87,7 +87,7 @@ void Merger::Drain() {
     if (runs_) {  // the batch reads it as a stream at fold time
       AddToRuns(next_, std::move(bytes), !reloaded);
       ++next_;
-      if (runs_->BatchFull()) FoldRuns();
+      if (runs_->BatchFull() && !LastFoldWaits()) FoldRuns();
       continue;
     }
     Status s = reloaded ? reload_(next_, &bytes) : Status::Ok();
@@ -106,7 +106,7 @@ void Merger::Drain() {
       opened.reset();
       AddToRuns(next_, std::move(bytes), /*checked=*/true);
       ++next_;
-      if (runs_->BatchFull()) FoldRuns();
+      if (runs_->BatchFull() && !LastFoldWaits()) FoldRuns();
       continue;
     }
     // Without a reloader every byte is checked before any is merged, so a
@@ -150,7 +150,42 @@ void Merger::Drain() {
     for (size_t r = 0; r < results_.size() && !runs_ && run_threshold_ > 0 && run_threshold_ != kRunsByBudget; ++r)
       if (results_[r].table.group_count() > run_threshold_) StartRuns();
   }
-  if (runs_ && next_ == shard_count_ && runs_->pending()) FoldRuns();
+  if (runs_ && next_ == shard_count_ && runs_->pending()) {
+    if (LastFoldWaits()) DeferLastFold();
+    else FoldRuns();
+  }
+}
+
+bool Merger::LastFoldWaits() const {
+  if (!defer_last_fold_ || results_.size() != 1) return false;
+  uint32_t s = next_;  // every shard from here on merged or failed?
+  while (s < shard_count_ && failed_[s]) ++s;
+  return s == shard_count_;
+}
+
+void Merger::DeferLastFold() {
+  // Counted now as if every partial folds, so the totals read before the
+  // output stage are the run's; a fold that fails restores these first.
+  saved_totals_ = totals_;
+  saved_samples_ = samples_;
+  for (const auto& [shard, info] : runs_->PendingPartials()) Account(shard, *info);
+  deferred_ = true;
+}
+
+void Merger::FoldPending() {
+  if (!deferred_) return;
+  deferred_ = false;
+  totals_ = std::move(saved_totals_);
+  samples_ = std::move(saved_samples_);
+  FoldRuns();
+}
+
+size_t Merger::PrepareStraight(size_t r) { return deferred_ ? runs_->PrepareStraight(r) : 0; }
+
+void Merger::ConsumeStraight() {
+  runs_->Consumed();
+  deferred_ = false;
+  consumed_ = true;
 }
 
 void Merger::AddToRuns(uint32_t shard, std::string bytes, bool checked) {
@@ -175,7 +210,7 @@ void Merger::AddToRuns(uint32_t shard, std::string bytes, bool checked) {
   }
 }
 
-void Merger::Account(uint32_t shard, OpenedPartial& p) {
+void Merger::Account(uint32_t shard, const OpenedPartial& p) {
   for (size_t r = 0; r < results_.size(); ++r) totals_.kept_by_reduction[r] += p.reductions[r].kept;
   totals_.shards_merged++;
   totals_.records += p.header.records;
@@ -193,8 +228,8 @@ void Merger::Account(uint32_t shard, OpenedPartial& p) {
   } else {
     totals_.lookup_counts_known = false;
   }
-  for (auto& sample : p.samples)
-    if (samples_.size() < kMaxReportedSamples) samples_.push_back({shard, std::move(sample)});
+  for (const auto& sample : p.samples)
+    if (samples_.size() < kMaxReportedSamples) samples_.push_back({shard, sample});
 }
 
 uint64_t Merger::EstimatedTableBytes() const {
@@ -267,6 +302,8 @@ Result<OutputTable> Merger::Finish(size_t r) {
 
 Status Merger::VisitRows(size_t r, const RowVisitor& visit) {
   if (!complete()) return Status::Internal("Merger::VisitRows before every shard was merged");
+  if (consumed_) return Status::Internal("Merger::VisitRows after the result was folded straight into the output");
+  FoldPending();
   if (!fatal_.ok()) return fatal_;
   if (runs_) return VisitRunRows(r, visit);
   const ReductionPlan& plan = plan_->reductions[r];
@@ -293,108 +330,6 @@ Status Merger::VisitRows(size_t r, const RowVisitor& visit) {
         degraded[m] += states[m]->degraded() ? 1 : 0;
       }
       FF_RETURN_IF_ERROR(visit(&row));
-    }
-  }
-  return Status::Ok();
-}
-
-namespace {
-
-// Walks `groups` (a run, or one piece of it), each group's states decoded
-// and finalized into a row handed to visit; adds each measure's skipped
-// values and degraded groups. `first_group` numbers the cursor's first
-// group in the run (for messages).
-Status WalkRunGroups(const ReductionPlan& plan, RunCursor& groups, uint64_t first_group,
-                     const Merger::RowVisitor& visit, std::vector<uint64_t>* skipped,
-                     std::vector<uint64_t>* degraded) {
-  std::vector<std::unique_ptr<MeasureState>> states;
-  for (const MeasureConfig& c : plan.configs) states.push_back(NewMeasureState(c));
-  // The run holds each group's states as the in-memory table would encode
-  // them; decoded one group at a time, they finalize to the same cells.
-  std::vector<Cell> row;
-  while (groups.Next()) {
-    row.clear();
-    row.reserve(plan.columns.size());
-    FF_RETURN_IF_ERROR(DecodeKey(groups.key(), plan.group.size(), &row));
-    for (size_t m = 0; m < states.size(); ++m) {
-      ByteReader sr(groups.state(m));
-      Status s = states[m]->Decode(sr);
-      if (!s.ok())
-        return s.WithContext("the merged run, group " + std::to_string(first_group + groups.groups_read() - 1));
-      states[m]->Finalize(&row);
-      (*skipped)[m] += states[m]->skipped();
-      (*degraded)[m] += states[m]->degraded() ? 1 : 0;
-    }
-    FF_RETURN_IF_ERROR(visit(&row));
-  }
-  if (!groups.status().ok()) return groups.status().WithContext("the merged run");
-  return Status::Ok();
-}
-
-}  // namespace
-
-Status Merger::VisitRunRows(size_t r, const RowVisitor& visit) {
-  const ReductionPlan& plan = plan_->reductions[r];
-  std::vector<uint64_t>& skipped = results_[r].skipped;
-  std::vector<uint64_t>& degraded = results_[r].degraded;
-  skipped.assign(plan.measures.size(), 0);
-  degraded.assign(plan.measures.size(), 0);
-  RunCursor groups = runs_->Cursor(r);
-  return WalkRunGroups(plan, groups, 0, visit, &skipped, &degraded);
-}
-
-Status Merger::VisitRunPieces(size_t r, const PieceRowVisitor& visit, const PieceDone& done) {
-  if (!complete()) return Status::Internal("Merger::VisitRunPieces before every shard was merged");
-  if (!fatal_.ok()) return fatal_;
-  if (!runs_) return Status::Internal("Merger::VisitRunPieces without runs");
-  const ReductionPlan& plan = plan_->reductions[r];
-  const std::vector<RunPiece> pieces = runs_->Pieces(r);
-  const size_t m = plan.configs.size();
-  struct PieceWalk {
-    Status status;
-    std::vector<uint64_t> skipped, degraded;
-    std::string_view first_key, last_key;  // views into the piece
-    bool any = false;                      // it has a group
-  };
-  std::vector<PieceWalk> walks(pieces.size());
-  const auto walk = [&](size_t p) {
-    PieceWalk& w = walks[p];
-    w.skipped.assign(plan.measures.size(), 0);
-    w.degraded.assign(plan.measures.size(), 0);
-    uint64_t first_group = 0;
-    for (size_t i = 0; i < p; ++i) first_group += pieces[i].groups;
-    RunCursor groups({pieces[p]}, m);
-    w.status = WalkRunGroups(plan, groups, first_group, [&](std::vector<Cell>* row) {
-      if (!w.any) w.first_key = groups.key();
-      w.any = true;
-      w.last_key = groups.key();
-      return visit(p, row);
-    }, &w.skipped, &w.degraded);
-    if (const MappedFile* f = pieces[p].file) f->Release(0, pieces[p].body.size());
-    done(p, w.status);
-  };
-  {
-    std::vector<std::jthread> running;
-    for (size_t p = 1; p < pieces.size(); ++p) running.emplace_back(walk, p);
-    if (!pieces.empty()) walk(0);
-  }
-  std::vector<uint64_t>& skipped = results_[r].skipped;
-  std::vector<uint64_t>& degraded = results_[r].degraded;
-  skipped.assign(plan.measures.size(), 0);
-  degraded.assign(plan.measures.size(), 0);
-  std::string_view last;  // the last key of the pieces so far
-  bool any = false;
-  for (size_t p = 0; p < walks.size(); ++p) {
-    if (!walks[p].status.ok()) return walks[p].status;
-    if (any && walks[p].any && !EncodedGroupCursor::KeyLess(last, walks[p].first_key))
-      return Status::Corrupt("piece " + std::to_string(p) +
-                             " of the run: its first key is not above the previous piece's last")
-          .WithContext("the merged run");
-    if (walks[p].any) last = walks[p].last_key;
-    any = any || walks[p].any;
-    for (size_t j = 0; j < skipped.size(); ++j) {
-      skipped[j] += walks[p].skipped[j];
-      degraded[j] += walks[p].degraded[j];
     }
   }
   return Status::Ok();

@@ -174,6 +174,29 @@ class Merger {
   using PieceRowVisitor = std::function<Status(size_t piece, std::vector<Cell>* row)>;
   using PieceDone = std::function<void(size_t piece, const Status& walked)>;
   Status VisitRunPieces(size_t r, const PieceRowVisitor& visit, const PieceDone& done);
+  // The last fold straight into the output (docs/streaming-merge.md).
+  // With SetDeferLastFold(true) and one reduction, a merge that ends in
+  // runs leaves its last batch unfolded: complete() holds and the totals
+  // count the batch's partials as if they folded. The output stage then
+  // either folds it straight into its rows — PrepareStraight(r) gives the
+  // key ranges (0: not possible, e.g. a partial cannot be opened),
+  // VisitStraightPieces walks them as VisitRunPieces walks pieces (the
+  // folded groups finalized into rows, never written as a run), and once
+  // the rows are written ConsumeStraight() ends it (nothing may walk the
+  // result again) — or calls FoldPending(), which folds it the usual way
+  // (VisitRows and VisitRunPieces do that themselves). When the fold
+  // itself fails in VisitStraightPieces (a partial found bad mid-walk, a
+  // measure past its limit), *refold is set and Ok returned: the caller
+  // drops what it wrote, calls FoldPending() — which restores the totals,
+  // drops the bad partial as a late failure and folds again — and walks
+  // the run. REQUIRES: SetDeferLastFold before the first Add.
+  void SetDeferLastFold(bool defer) { defer_last_fold_ = defer; }
+  bool last_fold_pending() const { return deferred_; }
+  void FoldPending();
+  size_t PrepareStraight(size_t r);
+  Status VisitStraightPieces(size_t r, size_t ranges, const PieceRowVisitor& visit, const PieceDone& done,
+                             bool* refold);
+  void ConsumeStraight();
   // Reduction r's finished table, sorted by key: VisitRows collected into
   // memory (tests and benchmarks; runs stream with VisitRows).
   Result<OutputTable> Finish(size_t r);
@@ -191,9 +214,13 @@ class Merger {
   // found bad midway through its merge). REQUIRES: reload_ set.
   Status Rebuild(uint32_t end);
   // Adds a merged partial's counts and samples to the totals.
-  void Account(uint32_t shard, OpenedPartial& p);
+  void Account(uint32_t shard, const OpenedPartial& p);
   void StartRuns();  // moves every reduction's table to a run
   void FoldRuns();   // folds the runs' pending batch, accounting for it
+  void DeferLastFold();  // leaves the last batch for the output stage (above)
+  // True iff the batch is the last (no shard left but failed ones) and
+  // deferring applies: it then waits even when full.
+  bool LastFoldWaits() const;
   Status VisitRunRows(size_t r, const RowVisitor& visit);
   // Adds shard's partial to the runs' batch: its stored bytes (`bytes`,
   // checksum already checked iff `checked`; empty = reload them), or,
@@ -225,6 +252,11 @@ class Merger {
   MergeMemory memory_;
   size_t run_threads_ = DefaultThreads();
   std::unique_ptr<RunResults> runs_;  // set once the results moved to runs
+  bool defer_last_fold_ = false;
+  bool deferred_ = false;  // the last batch waits for the output stage
+  bool consumed_ = false;  // it was folded straight into the output
+  MergeTotals saved_totals_;                // the totals before it was counted
+  std::vector<MalformedReport> saved_samples_;
 };
 
 }  // namespace fanfold

@@ -65,6 +65,12 @@ struct ResultStreamOutcome {
   // Tried that, but row number out_of_order_at (1-based, past the rows
   // step) came before the one ahead of it: the rows were then sorted.
   uint64_t out_of_order_at = 0;
+  // The merge's last fold went straight into the rows (no last run written).
+  bool straight = false;
+  // It was tried, but the fold found a partial bad mid-walk: nothing of
+  // that walk was kept, the merge folded again without it and the run
+  // was walked.
+  bool refolded = false;
 };
 
 // REQUIRES: merger complete; r a reduction of plan; targets.platform set.

@@ -114,6 +114,11 @@ void RunEngine::Prepare() {
 
 Status RunEngine::Budget() {
   FF_RETURN_IF_ERROR(ApplyTestOnlyMergeThreads(&merger_));  // first: it resets the runs' key ranges too
+  Result<bool> straight = TestOnlyStraightFold();
+  if (!straight.ok()) return straight.status();
+  // The last fold waits for the output stage, which folds it straight
+  // into its rows when it can (docs/streaming-merge.md).
+  merger_.SetDeferLastFold(*straight);
   size_t threads = merger_.run_threads();
   FF_RETURN_IF_ERROR(ApplyTestOnlyMergeRuns(&merger_, &threads));
   // The cap must hold one key range's buffers; the runs' fold takes as many
@@ -212,17 +217,14 @@ Status RunEngine::Commit(const Status& run) {
 void RunEngine::Tally() {
   if (const RunResults* runs = merger_.runs())
     LogDebug(std::string("merge: the results were folded as sorted runs (docs/streaming-merge.md), ") +
-             std::to_string(runs->folds()) + " folds" +
+             std::to_string(runs->folds() + (merger_.last_fold_pending() ? 1 : 0)) + " folds" +
+             (merger_.last_fold_pending() ? " (the last one left for the output stage)" : "") +
              (spill_->bytes_written() > 0 ? ", " + ByteSizeText(spill_->bytes_written()) + " written to spill files"
                                           : ", in memory"));
   LogDebug("merge: coordinator peak RSS before the output stage: " +
            std::to_string(PeakRssBytes() >> 20) + " MiB");
-  for (const auto& [shard, message] : merger_.late_failures())
-    loop_.failures.push_back({shard, list_.shards[shard].path, message, 1});
+  TallyLateFailures();
   summary_.shards_total = list_.shards.size();
-  summary_.totals = merger_.totals();
-  summary_.samples = merger_.malformed_samples();
-  summary_.failures = loop_.failures;
   summary_.interrupted = loop_.interrupted;
   summary_.shards_reused = in_.reused.size();
   summary_.wall_seconds = ElapsedSeconds();
@@ -230,6 +232,16 @@ void RunEngine::Tally() {
   summary_.peak_worker_rss = PeakChildRssBytes();
   summary_.memory_cap = shares_.cap;
   summary_.memory_cap_from = shares_.source;
+}
+
+void RunEngine::TallyLateFailures() {
+  const auto& late = merger_.late_failures();
+  for (; late_tallied_ < late.size(); ++late_tallied_)
+    loop_.failures.push_back({late[late_tallied_].first, list_.shards[late[late_tallied_].first].path,
+                              late[late_tallied_].second, 1});
+  summary_.totals = merger_.totals();
+  summary_.samples = merger_.malformed_samples();
+  summary_.failures = loop_.failures;
   summary_.merge_spilled_bytes = spill_->bytes_written();
   summary_.merge_held = !merger_.in_runs()                ? "tables"
                         : summary_.merge_spilled_bytes > 0 ? "spilled runs"
@@ -273,13 +285,20 @@ Status RunEngine::WriteResult(size_t r) {
   finished_[r].output_path = t.shown ? t.shown_path : t.run_dir_file;
   const double began = ElapsedSeconds();
   Result<ResultStreamOutcome> done = WriteResultStream(merger_, plan_, r, t);
+  // A last fold that found a bad partial mid-walk folded again without
+  // it: its shard is a late failure and the totals changed.
+  TallyLateFailures();
   if (!done.ok()) return done.status();
+  if (done->refolded)
+    LogDebug("output: reduction " + std::to_string(r) +
+             ": the last fold found a partial bad while writing; folded again without it, and written again");
   finished_[r].rows = done->rows;
   char took[32];
   std::snprintf(took, sizeof took, "%.3f", ElapsedSeconds() - began);
   LogDebug("output: reduction " + std::to_string(r) + ": " + std::to_string(done->rows_written) + " rows written in " +
            took + " s, ordered " +
-           (done->streamed     ? std::string("as the merge walked them (no sort)")
+           (done->streamed     ? std::string("as the merge walked them (no sort)") +
+                                     (done->straight ? ", the last fold straight into them" : "")
             : done->sort_files > 0 ? "through " + std::to_string(done->sort_files) + " sort files"
                                    : std::string("in memory")) +
            " (sort budget " + std::to_string(sort_bytes_) + " bytes" +

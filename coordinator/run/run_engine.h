@@ -87,6 +87,11 @@ class RunEngine {
   Status Commit(const Status& run);
   // Adds the merger's late failures to loop_ and fills summary_.
   void Tally();
+  // The merger's late failures not yet in loop_ added there; summary_'s
+  // totals, samples, failures and spill figures set from the merger's
+  // (again after the output stage: its last fold may drop a partial and
+  // fold again).
+  void TallyLateFailures();
   // After an interruption: journals it, commits, prints the summary lines and
   // how to resume. Returns the Interrupted status for the exit code.
   Status Stop();
@@ -126,6 +131,7 @@ class RunEngine {
   int workers_ = 1;          // worker processes (Prepare)
   RunLoopResult loop_;       // failures, retries, interruption (Run, Tally)
   RunSummary summary_;       // what the summary lines and summary.json say (Tally)
+  size_t late_tallied_ = 0;  // the merger's late failures already in loop_
   std::vector<FinishedReduction> finished_;  // per reduction (WriteResult)
   bool stdout_used_ = false;  // a result went to stdout already (WriteResult)
   uint64_t sort_bytes_ = 0;   // the output stage's share (Budget: the memory cap's, or the test-only switch)

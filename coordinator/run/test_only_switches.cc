@@ -46,6 +46,19 @@ Status ApplyTestOnlyMergeThreads(Merger* merger) {
   return Status::Ok();
 }
 
+// FANFOLD_TEST_ONLY_STRAIGHT_FOLD=0|1 (tests only): 0 makes the merge
+// fold its last batch into a run before the output stage walks it, as it
+// did before the last fold went straight into the output, so tests can
+// compare both paths byte for byte. Unset: 1.
+Result<bool> TestOnlyStraightFold() {
+  const char* sw = std::getenv("FANFOLD_TEST_ONLY_STRAIGHT_FOLD");
+  if (sw == nullptr || *sw == '\0') return true;
+  const std::string v(sw);
+  if (v != "0" && v != "1")
+    return Status::InvalidArgument("FANFOLD_TEST_ONLY_STRAIGHT_FOLD: expected 0 or 1, found '" + v + "'");
+  return v == "1";
+}
+
 // FANFOLD_TEST_ONLY_WORKER_TABLE_BYTES=BYTES (tests only): every task tells
 // its worker to keep its group tables within BYTES instead of the memory
 // cap's worker share, so small test jobs take the overflow path

@@ -7,6 +7,7 @@
 //   FANFOLD_TEST_ONLY_MERGE_RUNS=GROUPS[:THREADS] or cap[:THREADS]
 //   FANFOLD_TEST_ONLY_MERGE_THREADS=N
 //   FANFOLD_TEST_ONLY_WORKER_TABLE_BYTES=BYTES
+//   FANFOLD_TEST_ONLY_STRAIGHT_FOLD=0|1
 // (FANFOLD_TEST_ONLY_SORT_BYTES is read by coordinator/run/result_stream.)
 #pragma once
 
@@ -22,6 +23,9 @@ namespace fanfold {
 Status ApplyTestOnlyMergeRuns(Merger* merger, size_t* threads_out);
 // Sets the merger's threads (call first: it resets the runs' key ranges too).
 Status ApplyTestOnlyMergeThreads(Merger* merger);
+// Whether the merge's last fold may go straight into the output (default
+// yes; 0 folds it into a run first, the path before, for comparisons).
+Result<bool> TestOnlyStraightFold();
 // The worker table budget tests ask for; 0 when unset.
 Result<uint64_t> TestOnlyWorkerTableBytes();
 
