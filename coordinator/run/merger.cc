@@ -315,7 +315,7 @@ Status Merger::VisitRows(size_t r, const RowVisitor& visit) {
   skipped.assign(plan.measures.size(), 0);
   degraded.assign(plan.measures.size(), 0);
   // Rows of every range, each range's in its table's order; the output
-  // stage orders them (coordinator/run/result_stream.h).
+  // stage orders them (coordinator/run/result/result_stream.h).
   std::vector<Cell> row;
   for (size_t i = 0; i < result.range_count(); ++i) {
     const GroupTable& table = result.table(i);

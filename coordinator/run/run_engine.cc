@@ -23,7 +23,7 @@
 #include "coordinator/run/console_log.h"
 #include "coordinator/run/merger.h"
 #include "coordinator/run/progress_meter.h"
-#include "coordinator/run/result_stream.h"
+#include "coordinator/run/result/result_stream.h"
 #include "coordinator/run/run_loop.h"
 #include "coordinator/run/run_summary.h"
 #include "coordinator/run/summary_json.h"

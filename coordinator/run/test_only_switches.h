@@ -8,7 +8,7 @@
 //   FANFOLD_TEST_ONLY_MERGE_THREADS=N
 //   FANFOLD_TEST_ONLY_WORKER_TABLE_BYTES=BYTES
 //   FANFOLD_TEST_ONLY_STRAIGHT_FOLD=0|1
-// (FANFOLD_TEST_ONLY_SORT_BYTES is read by coordinator/run/result_stream.)
+// (FANFOLD_TEST_ONLY_SORT_BYTES is read by coordinator/run/result/result_stream.)
 #pragma once
 
 #include <cstddef>

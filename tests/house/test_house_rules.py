@@ -46,7 +46,12 @@ ALLOWED = {
     "coordinator/output": COMMON,
     "coordinator/rundir": COMMON,
     "coordinator/merge": COMMON,
-    "coordinator/run": COMMON + ["coordinator/output", "coordinator/rundir", "coordinator/merge"],
+    "coordinator/run": COMMON + ["coordinator/output", "coordinator/rundir", "coordinator/merge",
+                                 "coordinator/run/result"],
+    # The output stage's drivers kept in a sub-folder of run (the folder-size
+    # rule): they read the run's Merger, and run_engine calls them.
+    "coordinator/run/result": COMMON + ["coordinator/output", "coordinator/rundir", "coordinator/merge",
+                                        "coordinator/run"],
     "coordinator/report": COMMON + ["coordinator/rundir", "coordinator/run"],
     "coordinator/cli": COMMON + ["coordinator/output", "coordinator/rundir", "coordinator/run",
                                  "coordinator/report"],

@@ -2,7 +2,7 @@
 // (result_stream.cc, StreamInOrder): a stop request is honoured while the
 // merge walks, even when the rows step drops every row (so no row ever
 // reaches the writing thread, which polls once per batch it receives).
-#include "coordinator/run/result_stream.h"
+#include "coordinator/run/result/result_stream.h"
 
 #include <doctest/doctest.h>
 #include <unistd.h>

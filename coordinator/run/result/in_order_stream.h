@@ -1,4 +1,4 @@
-// The output stage's optimistic path (coordinator/run/result_stream.h):
+// The output stage's optimistic path (coordinator/run/result/result_stream.h):
 // rows written straight to the result's files as the merge walks its
 // runs, for as long as each row sorts above the one before; the first row
 // out of order drops the files unpublished and the caller orders the rows.
@@ -14,7 +14,7 @@
 #include "common/base/status.h"
 #include "common/job/plan.h"
 #include "coordinator/run/merger.h"
-#include "coordinator/run/result_stream.h"
+#include "coordinator/run/result/result_stream.h"
 
 namespace fanfold {
 

@@ -1,4 +1,4 @@
-#include "coordinator/run/in_order_stream.h"
+#include "coordinator/run/result/in_order_stream.h"
 
 #include <algorithm>
 #include <memory>
@@ -9,7 +9,7 @@
 #include "coordinator/output/row_writer.h"
 #include "coordinator/output/rows_step.h"
 #include "coordinator/output/sort_key.h"
-#include "coordinator/run/result_files.h"
+#include "coordinator/run/result/result_files.h"
 
 namespace fanfold {
 

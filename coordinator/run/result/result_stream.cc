@@ -1,4 +1,4 @@
-#include "coordinator/run/result_stream.h"
+#include "coordinator/run/result/result_stream.h"
 
 #include <algorithm>
 #include <cerrno>
@@ -15,8 +15,8 @@
 #include "coordinator/output/row_sorter.h"
 #include "coordinator/output/row_writer.h"
 #include "coordinator/output/sort_key.h"
-#include "coordinator/run/in_order_stream.h"
-#include "coordinator/run/result_files.h"
+#include "coordinator/run/result/in_order_stream.h"
+#include "coordinator/run/result/result_files.h"
 
 namespace fanfold {
 namespace {

@@ -1,4 +1,4 @@
-// The files a result is written to (coordinator/run/result_stream.h): the
+// The files a result is written to (coordinator/run/result/result_stream.h): the
 // run directory's copy and the shown file, both temporaries (StagedFile)
 // renamed into place only by PublishResultFiles, the run directory's
 // first; dropped unpublished, they remove their temporaries, so a result
@@ -13,7 +13,7 @@
 #include "common/base/status.h"
 #include "common/port/files/durable_write.h"
 #include "coordinator/output/row_writer.h"
-#include "coordinator/run/result_stream.h"
+#include "coordinator/run/result/result_stream.h"
 
 namespace fanfold {
 

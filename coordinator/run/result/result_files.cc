@@ -1,4 +1,4 @@
-#include "coordinator/run/result_files.h"
+#include "coordinator/run/result/result_files.h"
 
 #include <filesystem>
 
