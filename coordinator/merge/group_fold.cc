@@ -1,6 +1,7 @@
 #include "coordinator/merge/group_fold.h"
 
 #include <algorithm>
+#include <cmath>
 #include <cstring>
 #include <optional>
 #include <thread>
@@ -266,12 +267,15 @@ FoldOutcome GroupFold::FoldRangeTo(const FoldInputs& in, const KeyRange& range, 
   return o;
 }
 
-std::vector<std::string> SplitKeys(const FoldInputs& in, size_t measure_count, size_t parts) {
+std::vector<std::string> SplitKeys(const FoldInputs& in, size_t measure_count, size_t parts, double seek_share) {
   const size_t none = SIZE_MAX;
   size_t largest = none;  // index in in.partials, or none for the base
   uint64_t most = HasBase(in) ? BaseCursor(in, measure_count).group_count() : 0;
+  uint64_t all = most, streamed = 0;  // input groups, and those read as streams
   for (size_t i = 0; i < in.partial_count(); ++i) {
     const uint64_t n = PartialGroups(in, i, measure_count);
+    all += n;
+    if (!in.streams.empty()) streamed += n;
     if (n > most) {
       most = n;
       largest = i;
@@ -279,9 +283,18 @@ std::vector<std::string> SplitKeys(const FoldInputs& in, size_t measure_count, s
   }
   std::vector<std::string> cuts;
   if (parts < 2 || most < 2) return cuts;
+  // Where range `part` starts, as a fraction of the keys (the header's rule).
+  const double a = all == 0 ? 1.0 : 1.0 - std::clamp(seek_share, 0.0, 0.9) * static_cast<double>(streamed) /
+                                              static_cast<double>(all);
+  const auto start = [&](size_t part) {
+    if (a >= 1.0) return static_cast<double>(part) / static_cast<double>(parts);
+    return (1.0 - std::pow(a, static_cast<double>(part))) / (1.0 - std::pow(a, static_cast<double>(parts)));
+  };
   FoldCursor c = largest == none ? FoldCursor(BaseCursor(in, measure_count)) : PartialCursor(in, largest, measure_count);
   for (size_t part = 1; part < parts; ++part) {
-    const uint64_t at = most * part / parts;  // the cut's group index, ascending
+    // The cut's group index, ascending (the even split exactly in integers).
+    const uint64_t at = a >= 1.0 ? most * part / parts
+                                 : std::min<uint64_t>(most - 1, static_cast<uint64_t>(start(part) * static_cast<double>(most)));
     while (c.groups_read() <= at)
       if (!c.Next()) return cuts;  // bad framing: the fold itself finds it and names its input
     if (cuts.empty() || cuts.back() < c.key()) cuts.emplace_back(c.key());
@@ -289,10 +302,10 @@ std::vector<std::string> SplitKeys(const FoldInputs& in, size_t measure_count, s
   return cuts;
 }
 
-std::vector<KeyRange> CutRanges(const FoldInputs& in, size_t measure_count, size_t threads) {
+std::vector<KeyRange> CutRanges(const FoldInputs& in, size_t measure_count, size_t threads, double seek_share) {
   std::vector<KeyRange> ranges(1);
   if (threads > 1) {
-    for (std::string& cut : SplitKeys(in, measure_count, threads)) {
+    for (std::string& cut : SplitKeys(in, measure_count, threads, seek_share)) {
       ranges.back().hi = cut;
       ranges.back().bounded = true;
       ranges.push_back(KeyRange{std::move(cut), "", false});

@@ -148,7 +148,7 @@ size_t RunResults::PrepareStraight(size_t r) {
     }
     s->in.stream_groups.push_back(p.scanned.group_counts[r]);
   }
-  s->ranges = CutRanges(s->in, measure_counts_[r], threads_);
+  s->ranges = CutRanges(s->in, measure_counts_[r], threads_, kSeekShareIntoRows);
   straight_ = std::move(s);
   return straight_->ranges.size();
 }
