@@ -459,4 +459,10 @@ LineVerdict NdjsonLineParser::ParseGrouped(const char* p, size_t len, std::vecto
   return v;
 }
 
+std::string_view NdjsonLineParser::Unescaped() const {
+  const Impl& im = *impl_;
+  if (im.strings_end == im.strings.get()) return {};
+  return {reinterpret_cast<const char*>(im.strings.get()), static_cast<size_t>(im.strings_end - im.strings.get())};
+}
+
 }  // namespace fanfold

@@ -100,6 +100,11 @@ class NdjsonLineParser {
   LineVerdict ParseGrouped(const char* p, size_t len, std::vector<PointerNode>* nodes, uint64_t generation,
                            Value* slots);
 
+  // The memory holding the strings the last Parse or ParseGrouped unescaped
+  // (those with a backslash; empty if none): a slot's string lies in it or
+  // in the line's own bytes. Valid until the parser's next call.
+  std::string_view Unescaped() const;
+
  private:
   struct Impl;
   std::unique_ptr<Impl> impl_;  // keeps simdjson.h out of this header

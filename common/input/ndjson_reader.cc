@@ -11,6 +11,7 @@
 #include "common/base/json_syntax.h"
 #include "common/input/ndjson_block_index.h"
 #include "common/input/ndjson_line_parser.h"
+#include "common/base/scratch_arena.h"
 #include "common/input/pointer_trie.h"
 
 namespace fanfold {
@@ -87,8 +88,25 @@ struct NdjsonReader::Impl {
       return true;
     }
     ++st.records;
+    // The record's strings are lent (Read): those in the chunk stay there;
+    // those the parser unescaped (a backslash in them) live only until its
+    // next line, so they are copied into the loan's own memory.
+    if (const std::string_view u = parser.Unescaped(); !u.empty()) {
+      const auto from = reinterpret_cast<uintptr_t>(u.data());
+      for (size_t i = 0; i < slots.size(); ++i)
+        if (record[i].kind == ValueKind::kString && reinterpret_cast<uintptr_t>(record[i].str.data()) - from < u.size())
+          record[i].str = loaned.Copy(record[i].str);
+    }
     sink.set_record_line(line);
     return sink.OnRecord(record);
+  }
+
+  // Ends the loan of the chunk's strings (and of `loaned`). Returns false
+  // iff the sink asked to stop.
+  bool EndLoan(RecordSink& sink) {
+    const bool go_on = sink.EndLoan();
+    loaned.Reset();
+    return go_on;
   }
 
   ChunkBuffer chunk;
@@ -98,6 +116,7 @@ struct NdjsonReader::Impl {
   std::vector<PointerNode> nodes;  // nodes[0] is the root
   std::vector<Value> slots;
   const std::vector<Value> missing;  // as many slots, each Value::Missing()
+  ScratchArena loaned;  // the unescaped strings lent with the chunk's
   uint64_t generation = 0;
 };
 
@@ -176,6 +195,10 @@ Status NdjsonReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
     }
     const char* p = im.chunk.data();
     const char* end = p + im.chunk.size();
+    // The strings of this chunk's records stay valid until the chunk is
+    // refilled: lent to the sink until then (RecordSink::LendStrings), so a
+    // batch keeps views, not copies.
+    sink.LendStrings();
     // The groups the study indexed, if the data are its block's.
     auto* index = static_cast<NdjsonBlockIndex*>(im.chunk.note(im.study.get()));
     const char* base = index != nullptr ? im.chunk.note_base() : nullptr;
@@ -222,7 +245,7 @@ Status NdjsonReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
         p = nl == end ? end : nl + 1;
       }
     }
-    if (last) return Status::Ok();
+    if (!im.EndLoan(sink) || last) return Status::Ok();
     im.chunk.Consume(static_cast<size_t>(p - im.chunk.data()));
   }
 }
