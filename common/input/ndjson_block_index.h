@@ -7,7 +7,10 @@
 // kNdjsonGroupBytes, each cut as the reader cuts its own, and leaves per
 // group either its indexes (stage 1 accepted it) or a mark that stage 1
 // refused it (the reader then parses its lines one by one, as it does for
-// a group of its own that stage 1 refuses). A group's indexes are exactly
+// a group of its own that stage 1 refuses). For a group it indexed it also
+// cuts the lines: where each ends and where its structural indexes end, so
+// the reader neither searches for line breaks nor for a line's indexes.
+// A group's indexes are exactly
 // what IndexGroup gives on its bytes, so a line's verdict and values are
 // the same whoever indexed it. One study per reader; it owns its own
 // simdjson object (it runs on another thread than the reader's parser).
@@ -47,12 +50,21 @@ struct NdjsonBlockIndex final : BlockNote {
   struct Group {
     uint32_t begin;  // offset in the block of the group's first byte
     uint32_t end;    // offset of the line break that ends it
-    bool indexed;    // stage 1 accepted it: its indexes follow
+    bool indexed;    // stage 1 accepted it: its indexes and lines follow
     uint32_t first;  // its indexes: indexes[first, first + count] (the
     uint32_t count;  // last entry is its length, end - begin)
+    uint32_t first_line;  // its lines (if indexed): lines[first_line, first_line + line_count)
+    uint32_t line_count;
+  };
+  // A line of an indexed group, every line in order (empty ones too).
+  struct Line {
+    uint32_t end;        // offset in the block of the line break that ends it
+    uint32_t index_end;  // its indexes end at the group's index_end-th: those of the
+                         // line are the group's [the line before's index_end, this)
   };
   std::vector<Group> groups;
   std::vector<uint32_t> indexes;
+  std::vector<Line> lines;
 };
 
 // Defined in ndjson_reader.cc.

@@ -417,7 +417,7 @@ bool NdjsonLineParser::AdoptGroup(const char* p, size_t len, size_t capacity, ui
 }
 
 LineVerdict NdjsonLineParser::ParseGrouped(const char* p, size_t len, std::vector<PointerNode>* nodes,
-                                           uint64_t generation, Value* slots) {
+                                           uint64_t generation, Value* slots, size_t index_end) {
   Impl& im = *impl_;
   im.nodes = nodes;
   im.node_data = nodes->data();
@@ -440,8 +440,8 @@ LineVerdict NdjsonLineParser::ParseGrouped(const char* p, size_t len, std::vecto
   // shape, so first try the previous line's count of indexes; else a
   // binary search within the next 64 indexes for most lines (a few dozen
   // structurals each), else the rest.
-  size_t last = first + im.last_line_indexes;
-  if (!(last <= total && (last == first || idx[last - 1] < end) && (last == total || idx[last] >= end))) {
+  size_t last = index_end != kFindIndexes ? index_end : first + im.last_line_indexes;
+  if (index_end == kFindIndexes && !(last <= total && (last == first || idx[last - 1] < end) && (last == total || idx[last] >= end))) {
     const size_t near = std::min(total, first + 64);
     uint32_t* const stop = near > first && idx[near - 1] >= end ? idx + near : idx + total;
     last = static_cast<size_t>(std::lower_bound(idx + first, stop, end) - idx);

@@ -63,8 +63,10 @@ struct NdjsonReader::Impl {
   // Parses one line, readable up to p + capacity (the chunk's padding
   // included); `grouped`: from the group the parser indexed last
   // (NdjsonLineParser::IndexGroup). Returns false iff the sink asked to stop.
-  bool OnLine(const char* p, size_t len, size_t capacity, bool grouped, uint64_t line, RecordSink& sink,
-              ReadStats& st) {
+  // index_end: where the line's indexes end among the group's, if known
+  // (NdjsonBlockIndex::Line), else kFindIndexes.
+  bool OnLine(const char* p, size_t len, size_t capacity, bool grouped, size_t index_end, uint64_t line,
+              RecordSink& sink, ReadStats& st) {
     while (len > 0 && p[len - 1] == '\r') --len;
     if (len == 0) return true;
     if (*p != '{') {
@@ -79,7 +81,7 @@ struct NdjsonReader::Impl {
     if (record == nullptr) record = slots.data();
     if (!slots.empty()) std::memcpy(static_cast<void*>(record), missing.data(), slots.size() * sizeof(Value));
     ++generation;
-    const LineVerdict verdict = grouped ? parser.ParseGrouped(p, len, &nodes, generation, record)
+    const LineVerdict verdict = grouped ? parser.ParseGrouped(p, len, &nodes, generation, record, index_end)
                                         : parser.Parse(p, len, capacity, &nodes, generation, record);
     if (verdict != LineVerdict::kRecord) {
       ++st.malformed;
@@ -131,6 +133,7 @@ void NdjsonBlockStudy::Study(const char* data, size_t size, size_t readable_afte
   }
   index->groups.clear();
   index->indexes.clear();
+  index->lines.clear();
   // The whole lines: after the first line break, up to the last one.
   const void* first_nl = std::memchr(data, '\n', size);
   if (first_nl == nullptr) return;
@@ -143,7 +146,7 @@ void NdjsonBlockStudy::Study(const char* data, size_t size, size_t readable_afte
     const char* cut = NdjsonGroupBreak(data + at, data + end + 1);
     const size_t stop = cut != nullptr ? static_cast<size_t>(cut - data) : end;
     NdjsonBlockIndex::Group g{static_cast<uint32_t>(at), static_cast<uint32_t>(stop), false,
-                              static_cast<uint32_t>(index->indexes.size()), 0};
+                              static_cast<uint32_t>(index->indexes.size()), 0, 0, 0};
     if (parser_.IndexGroup(data + at, stop - at, size + readable_after - at)) {
       const uint32_t* idx = nullptr;
       size_t n = 0;
@@ -151,6 +154,28 @@ void NdjsonBlockStudy::Study(const char* data, size_t size, size_t readable_afte
       g.indexed = true;
       g.count = static_cast<uint32_t>(n);
       index->indexes.insert(index->indexes.end(), idx, idx + n + 1);
+      // Its lines: each line's break, and the first of the group's indexes
+      // at or past it (idx[n] is the group's length, past every index).
+      // Lines of a file tend to have alike shapes: the line before's count
+      // of indexes is tried first.
+      g.first_line = static_cast<uint32_t>(index->lines.size());
+      const char* const group_end = data + stop;
+      size_t k = 0, shape = 0;
+      for (const char* l = data + at;;) {
+        const void* found = std::memchr(l, '\n', static_cast<size_t>(group_end - l));
+        const char* nl = found != nullptr ? static_cast<const char*>(found) : group_end;
+        const auto e = static_cast<uint32_t>(nl - (data + at));
+        size_t last = k + shape;
+        if (!(last <= n && (last == k || idx[last - 1] < e) && idx[last] >= e)) {
+          last = static_cast<size_t>(std::lower_bound(idx + k, idx + n, e) - idx);
+          shape = last - k;
+        }
+        index->lines.push_back({static_cast<uint32_t>(nl - data), static_cast<uint32_t>(last)});
+        k = last;
+        if (nl == group_end) break;
+        l = nl + 1;
+      }
+      g.line_count = static_cast<uint32_t>(index->lines.size() - g.first_line);
     }
     index->groups.push_back(g);
     at = stop + 1;
@@ -235,12 +260,25 @@ Status NdjsonReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
         grouped = im.parser.IndexGroup(p, static_cast<size_t>(group_end - p), im.chunk.room_after(p));
       }
       // Its lines, each up to its line break (the group ends at one, or at
-      // the end of the text).
+      // the end of the text): as the study cut them, if it indexed the
+      // group, else found here.
+      if (grouped && indexed != nullptr && p == base + indexed->begin) {
+        const NdjsonBlockIndex::Line* l = index->lines.data() + indexed->first_line;
+        for (const NdjsonBlockIndex::Line* const stop = l + indexed->line_count; l != stop; ++l) {
+          const char* nl = base + l->end;
+          ++line;
+          if (!im.OnLine(p, static_cast<size_t>(nl - p), im.chunk.room_after(p), true, l->index_end, line, sink, st))
+            return Status::Ok();
+          p = nl + 1;
+        }
+        continue;
+      }
       while (p < group_end || (p == group_end && group_end != end)) {
         const char* nl = static_cast<const char*>(std::memchr(p, '\n', static_cast<size_t>(group_end - p)));
         if (nl == nullptr) nl = group_end;
         ++line;
-        if (!im.OnLine(p, static_cast<size_t>(nl - p), im.chunk.room_after(p), grouped, line, sink, st))
+        if (!im.OnLine(p, static_cast<size_t>(nl - p), im.chunk.room_after(p), grouped, kFindIndexes, line, sink,
+                       st))
           return Status::Ok();
         p = nl == end ? end : nl + 1;
       }

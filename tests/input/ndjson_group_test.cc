@@ -269,8 +269,10 @@ class WatchedSource final : public ByteSource, public BlockLender {
 
 // Intent: the indexes the block study makes (on the decode-ahead thread)
 // are exactly those the reader's own stage 1 makes of the same group of
-// lines, its groups cover exactly the block's whole lines, and a group
-// stage 1 refuses is marked refused; wherever the block's edges cut a line.
+// lines, its groups cover exactly the block's whole lines, a group stage 1
+// refuses is marked refused, and an indexed group's lines are cut where
+// its line breaks are, each with the indexes before its break; wherever
+// the block's edges cut a line.
 TEST_CASE("a block's index is what the reader's own stage 1 makes of its groups") {
   const std::vector<std::string> lines = MakeLines(7, 900);
   std::string text;
@@ -309,6 +311,18 @@ TEST_CASE("a block's index is what the reader's own stage 1 makes of its groups"
       REQUIRE(n == gr.count);
       CHECK(idx[n] == len);
       CHECK(std::equal(idx, idx + n + 1, index->indexes.begin() + gr.first));
+      // Its lines, each line of the group (empty ones too) in order: where
+      // it ends, and the first of the group's indexes past it.
+      size_t line_begin = gr.begin;
+      REQUIRE(gr.first_line + gr.line_count <= index->lines.size());
+      for (uint32_t l = 0; l < gr.line_count; ++l) {
+        const NdjsonBlockIndex::Line& line = index->lines[gr.first_line + l];
+        CHECK(line.end == bytes.find('\n', line_begin));
+        const size_t past = static_cast<size_t>(std::lower_bound(idx, idx + n, line.end - gr.begin) - idx);
+        CHECK(line.index_end == past);
+        line_begin = line.end + 1;
+      }
+      CHECK(line_begin == gr.end + 1);  // the last line ends the group
     }
   }
   CHECK(indexed > 100);
