@@ -43,6 +43,28 @@ void Prefetch(const void* p, size_t n) {
 
 bool IsJsonSpace(char c) { return c == ' ' || c == '\t' || c == '\r' || c == '\n'; }
 
+// Drops the line's trailing '\r's from *len; false iff that leaves it blank
+// (empty or JSON whitespace only): no record and no verdict.
+bool TrimLine(const char* p, size_t* len) {
+  while (*len > 0 && p[*len - 1] == '\r') --*len;
+  if (*len == 0) return false;
+  if (*p != '{') {
+    size_t i = 0;
+    while (i < *len && IsJsonSpace(p[i])) ++i;
+    if (i == *len) return false;  // whitespace-only line
+  }
+  return true;
+}
+
+// Copies the strings of record[0, width) that lie in `unescaped` (a
+// parser's memory, reused on its next line) into `arena`.
+void KeepUnescaped(std::string_view unescaped, Value* record, size_t width, ScratchArena* arena) {
+  const auto from = reinterpret_cast<uintptr_t>(unescaped.data());
+  for (size_t i = 0; i < width; ++i)
+    if (record[i].kind == ValueKind::kString && reinterpret_cast<uintptr_t>(record[i].str.data()) - from < unescaped.size())
+      record[i].str = arena->Copy(record[i].str);
+}
+
 }  // namespace
 
 // One parse per line (NdjsonLineParser): the lines are cut here, so each
@@ -80,13 +102,7 @@ struct NdjsonReader::Impl {
   // (NdjsonBlockIndex::Line), else kFindIndexes.
   bool OnLine(const char* p, size_t len, size_t capacity, bool grouped, size_t index_end, uint64_t line,
               RecordSink& sink, ReadStats& st) {
-    while (len > 0 && p[len - 1] == '\r') --len;
-    if (len == 0) return true;
-    if (*p != '{') {
-      size_t i = 0;
-      while (i < len && IsJsonSpace(p[i])) ++i;
-      if (i == len) return true;  // whitespace-only line
-    }
+    if (!TrimLine(p, &len)) return true;
     // The record goes where the sink wants it (its batch's next row), else
     // in our slots; reset by one memset, or one block copy of missing
     // values (a loop of stores took ~80 instructions a line on the
@@ -103,23 +119,55 @@ struct NdjsonReader::Impl {
     const LineVerdict verdict = grouped ? parser.ParseGrouped(p, len, &nodes, generation, record, index_end)
                                         : parser.Parse(p, len, capacity, &nodes, generation, record);
     if (verdict != LineVerdict::kRecord) {
-      ++st.malformed;
-      if (st.samples.size() < ReadStats::kMaxSamples)
-        st.samples.push_back(MalformedSample{line, MalformedReason(std::string_view(p, len), verdict)});
+      Malformed(p, len, verdict, line, st);
       return true;
     }
     ++st.records;
     // The record's strings are lent (Read): those in the chunk stay there;
     // those the parser unescaped (a backslash in them) live only until its
     // next line, so they are copied into the loan's own memory.
-    if (const std::string_view u = parser.Unescaped(); !u.empty()) {
-      const auto from = reinterpret_cast<uintptr_t>(u.data());
-      for (size_t i = 0; i < slots.size(); ++i)
-        if (record[i].kind == ValueKind::kString && reinterpret_cast<uintptr_t>(record[i].str.data()) - from < u.size())
-          record[i].str = loaned.Copy(record[i].str);
-    }
+    if (const std::string_view u = parser.Unescaped(); !u.empty()) KeepUnescaped(u, record, slots.size(), &loaned);
     sink.set_record_line(line);
     return sink.OnRecord(record);
+  }
+
+  // Counts the malformed line p[0, len) (trimmed) and keeps it as a sample
+  // while there is room.
+  static void Malformed(const char* p, size_t len, LineVerdict verdict, uint64_t line, ReadStats& st) {
+    ++st.malformed;
+    if (st.samples.size() < ReadStats::kMaxSamples)
+      st.samples.push_back(MalformedSample{line, MalformedReason(std::string_view(p, len), verdict)});
+  }
+
+  // The lines of a group the study parsed (NdjsonBlockIndex::Line), from
+  // p, the group's first byte, on: their verdicts and records as it left
+  // them, the records copied into the sink's buffer (or our slots).
+  // Returns false iff the sink asked to stop; else *p is past the group.
+  bool OnParsedLines(const NdjsonBlockIndex& index, const NdjsonBlockIndex::Group& group, const char* base,
+                     const char** p, uint64_t* line, RecordSink& sink, ReadStats& st) {
+    const NdjsonBlockIndex::Line* l = index.lines.data() + group.first_line;
+    for (const NdjsonBlockIndex::Line* const stop = l + group.line_count; l != stop; ++l) {
+      const char* nl = base + l->end;
+      ++*line;
+      if (!l->blank) {
+        if (l->verdict != LineVerdict::kRecord) {
+          size_t len = static_cast<size_t>(nl - *p);
+          TrimLine(*p, &len);
+          Malformed(*p, len, l->verdict, *line, st);
+        } else {
+          Value* record = sink.RecordBuffer();
+          if (record == nullptr) record = slots.data();
+          if (!slots.empty())
+            std::memcpy(static_cast<void*>(record), index.values.data() + size_t{l->record} * slots.size(),
+                        slots.size() * sizeof(Value));
+          ++st.records;
+          sink.set_record_line(*line);
+          if (!sink.OnRecord(record)) return false;
+        }
+      }
+      *p = nl + 1;
+    }
+    return true;
   }
 
   // Ends the loan of the chunk's strings (and of `loaned`). Returns false
@@ -132,8 +180,9 @@ struct NdjsonReader::Impl {
 
   ChunkBuffer chunk;
   NdjsonLineParser parser;
-  // Indexes the lenders' blocks (shared with the source that runs it).
-  const std::shared_ptr<NdjsonBlockStudy> study = std::make_shared<NdjsonBlockStudy>();
+  // Indexes (and partly parses) the lenders' blocks (shared with the
+  // source that runs it); made with the trie.
+  std::shared_ptr<NdjsonBlockStudy> study;
   std::vector<PointerNode> nodes;  // nodes[0] is the root
   std::vector<Value> slots;
   const std::vector<Value> missing;  // as many slots, each Value::Missing()
@@ -154,6 +203,8 @@ void NdjsonBlockStudy::Study(const char* data, size_t size, size_t readable_afte
   index->groups.clear();
   index->indexes.clear();
   index->lines.clear();
+  index->values.clear();
+  index->strings.Reset();
   // The whole lines: after the first line break, up to the last one.
   const void* first_nl = std::memchr(data, '\n', size);
   if (first_nl == nullptr) return;
@@ -166,7 +217,7 @@ void NdjsonBlockStudy::Study(const char* data, size_t size, size_t readable_afte
     const char* cut = NdjsonGroupBreak(data + at, data + end + 1);
     const size_t stop = cut != nullptr ? static_cast<size_t>(cut - data) : end;
     NdjsonBlockIndex::Group g{static_cast<uint32_t>(at), static_cast<uint32_t>(stop), false,
-                              static_cast<uint32_t>(index->indexes.size()), 0, 0, 0};
+                              static_cast<uint32_t>(index->indexes.size()), 0, 0, 0, false};
     if (parser_.IndexGroup(data + at, stop - at, size + readable_after - at)) {
       const uint32_t* idx = nullptr;
       size_t n = 0;
@@ -179,6 +230,7 @@ void NdjsonBlockStudy::Study(const char* data, size_t size, size_t readable_afte
       // Lines of a file tend to have alike shapes: the line before's count
       // of indexes is tried first.
       g.first_line = static_cast<uint32_t>(index->lines.size());
+      g.parsed = parse_ && indexed_groups_++ % kNdjsonParseEvery == kNdjsonParseEvery - 1;
       const char* const group_end = data + stop;
       size_t k = 0, shape = 0;
       for (const char* l = data + at;;) {
@@ -190,7 +242,25 @@ void NdjsonBlockStudy::Study(const char* data, size_t size, size_t readable_afte
           last = static_cast<size_t>(std::lower_bound(idx + k, idx + n, e) - idx);
           shape = last - k;
         }
-        index->lines.push_back({static_cast<uint32_t>(nl - data), static_cast<uint32_t>(last)});
+        NdjsonBlockIndex::Line line{static_cast<uint32_t>(nl - data), static_cast<uint32_t>(last), false,
+                                    LineVerdict::kRecord, 0};
+        if (g.parsed) {
+          // As the reader's OnLine, into the note.
+          size_t len = static_cast<size_t>(nl - l);
+          line.blank = !TrimLine(l, &len);
+          if (!line.blank) {
+            const size_t at_value = index->values.size();
+            line.record = static_cast<uint32_t>(width_ == 0 ? 0 : at_value / width_);
+            index->values.resize(at_value + width_);  // Missing
+            Value* record = index->values.data() + at_value;
+            line.verdict = parser_.ParseGrouped(l, len, &nodes_, ++generation_, record, last);
+            if (line.verdict != LineVerdict::kRecord)
+              index->values.resize(at_value);
+            else if (const std::string_view u = parser_.Unescaped(); !u.empty())
+              KeepUnescaped(u, record, width_, &index->strings);
+          }
+        }
+        index->lines.push_back(line);
         k = last;
         if (nl == group_end) break;
         l = nl + 1;
@@ -211,6 +281,7 @@ Result<std::unique_ptr<NdjsonReader>> NdjsonReader::Create(const FieldTable& fie
   if (!nodes.ok()) return nodes.status();
   auto impl = std::make_unique<Impl>(options, fields.size(), checks);
   impl->nodes = std::move(*nodes);
+  impl->study = std::make_shared<NdjsonBlockStudy>(impl->nodes, fields.size(), checks);
   return std::unique_ptr<NdjsonReader>(new NdjsonReader(std::move(impl)));
 }
 
@@ -264,6 +335,10 @@ Status NdjsonReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
           if (g.indexed) Prefetch(index->indexes.data() + g.first, (g.count + 1) * sizeof(uint32_t));
         }
         group_end = base + indexed->end;
+        if (indexed->parsed) {
+          if (!im.OnParsedLines(*index, *indexed, base, &p, &line, sink, st)) return Status::Ok();
+          continue;
+        }
         grouped = indexed->indexed && im.parser.AdoptGroup(p, indexed->end - indexed->begin, im.chunk.room_after(p),
                                                            index->indexes.data() + indexed->first, indexed->count);
       } else {

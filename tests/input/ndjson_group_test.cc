@@ -254,12 +254,16 @@ class WatchedSource final : public ByteSource, public BlockLender {
       ++blocks;
       const auto* index = dynamic_cast<const NdjsonBlockIndex*>(out->note.get());
       if (index != nullptr && index->maker == study_ && study_ != nullptr)
-        for (const NdjsonBlockIndex::Group& g : index->groups) indexed_groups += g.indexed ? 1 : 0;
+        for (const NdjsonBlockIndex::Group& g : index->groups) {
+          indexed_groups += g.indexed ? 1 : 0;
+          parsed_groups += g.parsed ? 1 : 0;
+        }
     }
     return n;
   }
   int blocks = 0;
   int indexed_groups = 0;
+  int parsed_groups = 0;  // of those, the groups the study also parsed
 
  private:
   ByteSource* inner_;
@@ -340,7 +344,8 @@ TEST_CASE("a block's index is what the reader's own stage 1 makes of its groups"
 // edges) or inline (the reader indexing all), every line gives what it gives read
 // alone — the same records, values, line numbers, malformed count and
 // samples — wherever the edges cut (malformed lines and strings left open
-// across an edge included), and the study's indexes were in use.
+// across an edge included), and the study's indexes, and the lines it
+// parsed (NdjsonBlockIndex::Group::parsed), were in use.
 TEST_CASE("lines read through decode ahead give what each line read alone gives") {
   const FieldTable fields = Fields({"/ts", "/lamp", "/power_w", "/fault", "/district"});
   const std::vector<std::string> lines = MakeLines(20261204, 1800);
@@ -370,6 +375,8 @@ TEST_CASE("lines read through decode ahead give what each line read alone gives"
       CHECK(!sink.in_loan);
       // Threaded, the helper indexed the blocks; inline, the reader did.
       if (threaded && block >= 4096) CHECK(watched.indexed_groups >= watched.blocks / 2);
+      // ... and parsed one group in kNdjsonParseEvery of them.
+      if (threaded && block >= 4096) CHECK(watched.parsed_groups >= watched.indexed_groups / 10);
       if (!threaded) CHECK(watched.indexed_groups == 0);
     }
   }
