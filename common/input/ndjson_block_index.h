@@ -48,9 +48,14 @@ inline constexpr size_t kNdjsonGroupBytes = 4096;
 // The study parses one indexed group in this many (counted over the
 // study's blocks). Measured on the benchmark data (callgrind, -j 1 with
 // the helper thread): a walk moved to the helper costs the parsing thread
-// a copy of the record's slots instead; one in four keeps the helper below
-// the parsing thread.
+// a copy of the record's slots instead; one in five leaves the helper ~50M
+// instructions below the parsing thread on two shards, one in four only
+// ~20M below.
 inline constexpr size_t kNdjsonParseEvery = 5;
+// The most bytes of parsed records' slots a block's note holds (a group
+// whose records would pass it is only indexed): about the block's size,
+// for the benchmark data (9 slots a line of ~200 bytes) a third of it.
+inline constexpr size_t kNdjsonParsedBytes = size_t{1} << 20;
 
 // Where a group of lines starting at p ends when lines go on to `stop`:
 // the first line break kNdjsonGroupBytes or more past p (before stop), or

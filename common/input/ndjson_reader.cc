@@ -230,7 +230,7 @@ void NdjsonBlockStudy::Study(const char* data, size_t size, size_t readable_afte
       // Lines of a file tend to have alike shapes: the line before's count
       // of indexes is tried first.
       g.first_line = static_cast<uint32_t>(index->lines.size());
-      g.parsed = parse_ && indexed_groups_++ % kNdjsonParseEvery == kNdjsonParseEvery - 1;
+      const bool pick = parse_ && indexed_groups_++ % kNdjsonParseEvery == kNdjsonParseEvery - 1;
       const char* const group_end = data + stop;
       size_t k = 0, shape = 0;
       for (const char* l = data + at;;) {
@@ -242,30 +242,35 @@ void NdjsonBlockStudy::Study(const char* data, size_t size, size_t readable_afte
           last = static_cast<size_t>(std::lower_bound(idx + k, idx + n, e) - idx);
           shape = last - k;
         }
-        NdjsonBlockIndex::Line line{static_cast<uint32_t>(nl - data), static_cast<uint32_t>(last), false,
-                                    LineVerdict::kRecord, 0};
-        if (g.parsed) {
-          // As the reader's OnLine, into the note.
-          size_t len = static_cast<size_t>(nl - l);
-          line.blank = !TrimLine(l, &len);
-          if (!line.blank) {
-            const size_t at_value = index->values.size();
-            line.record = static_cast<uint32_t>(width_ == 0 ? 0 : at_value / width_);
-            index->values.resize(at_value + width_);  // Missing
-            Value* record = index->values.data() + at_value;
-            line.verdict = parser_.ParseGrouped(l, len, &nodes_, ++generation_, record, last);
-            if (line.verdict != LineVerdict::kRecord)
-              index->values.resize(at_value);
-            else if (const std::string_view u = parser_.Unescaped(); !u.empty())
-              KeepUnescaped(u, record, width_, &index->strings);
-          }
-        }
-        index->lines.push_back(line);
+        index->lines.push_back(
+            {static_cast<uint32_t>(nl - data), static_cast<uint32_t>(last), false, LineVerdict::kRecord, 0});
         k = last;
         if (nl == group_end) break;
         l = nl + 1;
       }
       g.line_count = static_cast<uint32_t>(index->lines.size() - g.first_line);
+      // The group picked to parse, if its records' slots fit the block's
+      // budget for them (many short lines of a wide job would not).
+      g.parsed = pick && (index->values.size() + size_t{g.line_count} * width_) * sizeof(Value) <= kNdjsonParsedBytes;
+      const char* l = data + at;
+      for (uint32_t j = 0; g.parsed && j < g.line_count; ++j) {
+        // As the reader's OnLine, into the note.
+        NdjsonBlockIndex::Line& line = index->lines[g.first_line + j];
+        size_t len = static_cast<size_t>(data + line.end - l);
+        line.blank = !TrimLine(l, &len);
+        if (!line.blank) {
+          const size_t at_value = index->values.size();
+          line.record = static_cast<uint32_t>(width_ == 0 ? 0 : at_value / width_);
+          index->values.resize(at_value + width_);  // Missing
+          Value* record = index->values.data() + at_value;
+          line.verdict = parser_.ParseGrouped(l, len, &nodes_, ++generation_, record, line.index_end);
+          if (line.verdict != LineVerdict::kRecord)
+            index->values.resize(at_value);
+          else if (const std::string_view u = parser_.Unescaped(); !u.empty())
+            KeepUnescaped(u, record, width_, &index->strings);
+        }
+        l = data + line.end + 1;
+      }
     }
     index->groups.push_back(g);
     at = stop + 1;

@@ -20,6 +20,7 @@
 #include "common/input/ndjson_block_index.h"
 #include "common/input/ndjson_line_parser.h"
 #include "common/input/ndjson_reader.h"
+#include "common/input/pointer_trie.h"
 #include "tests/base/text_edit_test_util.h"
 #include "tests/input/ndjson_test_util.h"
 #include "tests/input/reader_test_util.h"
@@ -336,6 +337,33 @@ TEST_CASE("a block's index is what the reader's own stage 1 makes of its groups"
     std::string block = b + std::string(4096, ' ');
     study.Study(block.data(), b.size(), 4096, &note);
     CHECK(static_cast<const NdjsonBlockIndex*>(note.get())->groups.empty());
+  }
+}
+
+// Intent: the study parses a group only while its records' slots fit the
+// note's budget (kNdjsonParsedBytes): short lines of a wide job are only
+// indexed, those of a narrow one parsed one group in kNdjsonParseEvery.
+TEST_CASE("the block study parses groups within its budget for slots") {
+  std::string text;
+  while (text.size() < 200000) text += "{}\n";
+  text.append(4096, ' ');
+  for (const size_t width : {size_t{1}, size_t{1000}}) {
+    CAPTURE(width);
+    FieldTable fields;
+    for (size_t f = 0; f < width; ++f) fields.InternField("/f" + std::to_string(f));
+    Result<std::vector<PointerNode>> nodes = BuildPointerTrie(fields);
+    REQUIRE(nodes.ok());
+    NdjsonBlockStudy study(*nodes, width, ValueChecks::kReadValues);
+    std::unique_ptr<BlockNote> note;
+    study.Study(text.data(), text.size() - 4096, 4096, &note);
+    const auto* index = dynamic_cast<const NdjsonBlockIndex*>(note.get());
+    REQUIRE(index != nullptr);
+    size_t parsed = 0;
+    for (const NdjsonBlockIndex::Group& g : index->groups) parsed += g.parsed ? 1 : 0;
+    CHECK(index->groups.size() > 40);
+    CHECK(index->values.size() * sizeof(Value) <= kNdjsonParsedBytes);
+    if (width == 1) CHECK(parsed == index->groups.size() / kNdjsonParseEvery);
+    if (width == 1000) CHECK(parsed == 0);
   }
 }
 
