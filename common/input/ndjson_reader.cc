@@ -333,8 +333,9 @@ Status NdjsonReader::Read(ByteSource& src, RecordSink& sink, ReadStats* stats) {
         ++next;
         // The block was indexed on the helper's core: ask for the next
         // group's bytes and indexes now, so that the walk (one dependent
-        // load after another) finds them in this core's cache.
-        if (next < index->groups.size()) {
+        // load after another) finds them in this core's cache. A group the
+        // study parsed is not walked: its records are copied in order.
+        if (next < index->groups.size() && !index->groups[next].parsed) {
           const NdjsonBlockIndex::Group& g = index->groups[next];
           Prefetch(base + g.begin, g.end - g.begin);
           if (g.indexed) Prefetch(index->indexes.data() + g.first, (g.count + 1) * sizeof(uint32_t));
