@@ -26,13 +26,23 @@ class PresenceCounter {
   }
 
   // Counts the n records rows[0, n), each the table's size() slots, end to
-  // end (a RecordBatch's rows). A field at a time: one pass down a column.
+  // end (a RecordBatch's rows). A field at a time: one pass down a column,
+  // four rows a step (two instructions a value, not five, on the benchmark
+  // data).
   void CountRows(const Value* rows, size_t n) {
+    const size_t w = width_;
     for (size_t i = 0; i < raw_slots_.size(); ++i) {
       const Value* v = rows + raw_slots_[i];
-      uint64_t c = 0;
-      for (size_t r = 0; r < n; ++r, v += width_) c += v->is_missing() ? 0 : 1;
-      counts_[i] += c;
+      uint64_t c0 = 0, c1 = 0, c2 = 0, c3 = 0;
+      size_t r = 0;
+      for (; r + 4 <= n; r += 4, v += 4 * w) {
+        c0 += v[0].is_missing() ? 0 : 1;
+        c1 += v[w].is_missing() ? 0 : 1;
+        c2 += v[2 * w].is_missing() ? 0 : 1;
+        c3 += v[3 * w].is_missing() ? 0 : 1;
+      }
+      for (; r < n; ++r, v += w) c0 += v->is_missing() ? 0 : 1;
+      counts_[i] += c0 + c1 + c2 + c3;
     }
   }
 
