@@ -38,6 +38,9 @@
 
 namespace fanfold {
 
+// NdjsonLineParser::ParseGrouped finds the line's indexes itself.
+inline constexpr size_t kFindIndexes = SIZE_MAX;
+
 // Why a line is not a record (kRecord: it is one).
 enum class LineVerdict {
   kRecord,
@@ -94,11 +97,18 @@ class NdjsonLineParser {
 
   // As Parse, for the line p[0, len) of the group IndexGroup (or
   // AdoptGroup) accepted last:
-  // the same verdict and slots, from the group's indexes.
+  // the same verdict and slots, from the group's indexes. index_end: the
+  // first of the group's indexes at or past the line's end (its line break),
+  // if the caller knows it (the block study's lines), else kFindIndexes.
   // REQUIRES: lines passed in order; p[len] is a line break or '\r' (or the
   // group's end); no Parse since IndexGroup.
   LineVerdict ParseGrouped(const char* p, size_t len, std::vector<PointerNode>* nodes, uint64_t generation,
-                           Value* slots);
+                           Value* slots, size_t index_end = kFindIndexes);
+
+  // The memory holding the strings the last Parse or ParseGrouped unescaped
+  // (those with a backslash; empty if none): a slot's string lies in it or
+  // in the line's own bytes. Valid until the parser's next call.
+  std::string_view Unescaped() const;
 
  private:
   struct Impl;

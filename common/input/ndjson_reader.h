@@ -5,8 +5,11 @@
 // parses each once (NdjsonLineParser: simdjson stage 1 and our own walk), converting only
 // the values a pointer reads. Which errors make a line malformed is
 // ValueChecks' choice (ndjson_line_parser.h). JSON integers within
-// [-2^63, 2^64) are exact integer Values. One reader per thread; reusable
-// across sources (build it once per worker).
+// [-2^63, 2^64) are exact integer Values. The records' strings are lent to
+// the sink a chunk at a time (RecordSink::LendStrings). From a decode-ahead
+// source the reader's block study indexes the blocks, cuts their lines and
+// parses a share of them on the helper thread (ndjson_block_index.h). One
+// reader per thread; reusable across sources (build it once per worker).
 #pragma once
 
 #include <cstddef>

@@ -71,9 +71,11 @@ void BatchAggregator::Restart(uint64_t table_bytes, bool every) {
   over_limit_ = {-1, -1};
   aggregate_ns_ = 0;
   spill_error_ = Status::Ok();
+  presence_ = nullptr;
 }
 
 void BatchAggregator::ReleaseTables() {
+  presence_ = nullptr;
   for (ReductionFeed& f : feeds_) {
     f.overflow.reset();
     if (f.table) f.table->Clear();
@@ -91,6 +93,7 @@ bool BatchAggregator::OnRecord(Value* slots) {
 bool BatchAggregator::Drain() {
   const uint64_t t0 = MonotonicNanos();
   const size_t n = batch_.size();
+  if (presence_ != nullptr) presence_->CountRows(rows(), n);  // before anything writes into the rows
   sel_.clear();
   for (size_t i = 0; i < n; ++i) {
     ++seen_;

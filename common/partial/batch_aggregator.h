@@ -23,6 +23,7 @@
 #include "common/base/scratch_arena.h"
 #include "common/base/status.h"
 #include "common/base/value.h"
+#include "common/input/presence_counter.h"
 #include "common/input/record_reader.h"
 #include "common/job/plan.h"
 #include "common/partial/record_batch.h"
@@ -84,9 +85,9 @@ class BatchAggregator final : public RecordSink {
   // smaller than it was (WorkerGroupTable::Clear: a cleared table counts
   // and fills as a new one). REQUIRES: the batch is empty.
   void Restart(uint64_t table_bytes, bool every);
-  // Drops the overflows (their memory and spill files) and the tables'
-  // groups once the shard's partial is encoded; the tables keep their
-  // memory for the next shard.
+  // Drops the overflows (their memory and spill files), the tables'
+  // groups and the presence counter once the shard's partial is encoded;
+  // the tables keep their memory for the next shard.
   void ReleaseTables();
 
   // Records wait in a batch and are aggregated a batch at a time, so the
@@ -102,6 +103,10 @@ class BatchAggregator final : public RecordSink {
     batch_.set_copy_strings(true);
     return go_on;
   }
+  // Counts the raw fields' values of every record drained from now on, a
+  // batch at a time, into `counter` (null: none). Restart forgets it.
+  // REQUIRES: counter built from the plan's fields, live while set.
+  void CountPresence(PresenceCounter* counter) { presence_ = counter; }
   // Set when an overflow file could not be made (the shard fails).
   const Status& spill_error() const { return spill_error_; }
 
@@ -176,6 +181,7 @@ class BatchAggregator final : public RecordSink {
   uint64_t kept_ = 0;
   std::pair<int, int> over_limit_ = {-1, -1};
   RecordBatch& batch_;
+  PresenceCounter* presence_ = nullptr;
   uint64_t aggregate_ns_ = 0;  // inside Drain
   std::vector<ReductionFeed> feeds_;
   size_t budget_ = 0;  // each table's, 0 = none

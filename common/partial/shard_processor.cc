@@ -112,7 +112,8 @@ Status ShardProcessor::ProcessShard(const ShardTask& task, std::string* partial,
   } release_at_end{agg_.get()};
   last_groups_.resize(plan_->reductions.size(), 0);
   for (size_t r = 0; r < last_groups_.size(); ++r) agg.ReserveGroups(r, last_groups_[r]);
-  PresenceCounter present(plan_->fields, &agg);  // counts each raw field's values
+  PresenceCounter present(plan_->fields);  // counts each raw field's values, a batch at a time
+  agg.CountPresence(&present);
   ReadStats stats;
   TimedSource timed(src->get());
   const uint64_t t0 = MonotonicNanos();
@@ -123,7 +124,7 @@ Status ShardProcessor::ProcessShard(const ShardTask& task, std::string* partial,
     if (!r.ok()) return r.status().WithContext(where);
     reader_ = std::move(r.value());
   }
-  Status s = reader_->Read(timed, present, &stats);
+  Status s = reader_->Read(timed, agg, &stats);
   if (s.ok() && agg.over_limit().first < 0 && agg.spill_error().ok()) agg.Drain();
   const uint64_t t1 = MonotonicNanos();
   *encode_from = t1;

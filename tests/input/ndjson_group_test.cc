@@ -20,6 +20,7 @@
 #include "common/input/ndjson_block_index.h"
 #include "common/input/ndjson_line_parser.h"
 #include "common/input/ndjson_reader.h"
+#include "common/input/pointer_trie.h"
 #include "tests/base/text_edit_test_util.h"
 #include "tests/input/ndjson_test_util.h"
 #include "tests/input/reader_test_util.h"
@@ -27,20 +28,44 @@
 namespace fanfold {
 namespace {
 
-// Keeps each record as "line: slot0|slot1|...".
+// Keeps each record as "line: slot0|slot1|...". It also borrows the
+// strings as record_reader.h lets a sink during a loan: it keeps views of
+// them and, when the loan ends, counts in `broken` the records that came
+// outside a loan and the views whose bytes changed since their record came
+// (escaped strings, which the parser unescapes into memory it reuses every
+// line, and strings in a decode-ahead block, which goes back to be
+// refilled).
 class LineRows : public RecordSink {
  public:
   explicit LineRows(size_t n) : n_(n) {}
+  void LendStrings() override {
+    broken += in_loan ? 1 : 0;
+    in_loan = true;
+  }
   bool OnRecord(Value* slots) override {
+    broken += in_loan ? 0 : 1;
     std::string row = std::to_string(record_line()) + ":";
-    for (size_t i = 0; i < n_; ++i) row += (i ? "|" : "") + Show(slots[i]);
+    for (size_t i = 0; i < n_; ++i) {
+      row += (i ? "|" : "") + Show(slots[i]);
+      if (slots[i].kind == ValueKind::kString) lent_.push_back({slots[i].str, std::string(slots[i].str)});
+    }
     rows.push_back(row);
     return true;
   }
+  bool EndLoan() override {
+    broken += in_loan ? 0 : 1;
+    in_loan = false;
+    for (const auto& [view, copy] : lent_) broken += view == copy ? 0 : 1;
+    lent_.clear();
+    return true;
+  }
   std::vector<std::string> rows;
+  bool in_loan = false;
+  size_t broken = 0;
 
  private:
   size_t n_;
+  std::vector<std::pair<std::string_view, std::string>> lent_;
 };
 
 std::vector<std::string> MakeLines(uint32_t seed, size_t count) {
@@ -194,6 +219,7 @@ TEST_CASE("lines read together give what each line read alone gives") {
       LineRows sink(fields.size());
       ReadStats st;
       REQUIRE((*together)->Read(*src, sink, &st).ok());
+      CHECK(sink.broken == 0);
       CHECK(st.malformed == want_malformed);
       REQUIRE(sink.rows.size() == want.size());
       int differ = 0;
@@ -229,12 +255,16 @@ class WatchedSource final : public ByteSource, public BlockLender {
       ++blocks;
       const auto* index = dynamic_cast<const NdjsonBlockIndex*>(out->note.get());
       if (index != nullptr && index->maker == study_ && study_ != nullptr)
-        for (const NdjsonBlockIndex::Group& g : index->groups) indexed_groups += g.indexed ? 1 : 0;
+        for (const NdjsonBlockIndex::Group& g : index->groups) {
+          indexed_groups += g.indexed ? 1 : 0;
+          parsed_groups += g.parsed ? 1 : 0;
+        }
     }
     return n;
   }
   int blocks = 0;
   int indexed_groups = 0;
+  int parsed_groups = 0;  // of those, the groups the study also parsed
 
  private:
   ByteSource* inner_;
@@ -244,8 +274,10 @@ class WatchedSource final : public ByteSource, public BlockLender {
 
 // Intent: the indexes the block study makes (on the decode-ahead thread)
 // are exactly those the reader's own stage 1 makes of the same group of
-// lines, its groups cover exactly the block's whole lines, and a group
-// stage 1 refuses is marked refused; wherever the block's edges cut a line.
+// lines, its groups cover exactly the block's whole lines, a group stage 1
+// refuses is marked refused, and an indexed group's lines are cut where
+// its line breaks are, each with the indexes before its break; wherever
+// the block's edges cut a line.
 TEST_CASE("a block's index is what the reader's own stage 1 makes of its groups") {
   const std::vector<std::string> lines = MakeLines(7, 900);
   std::string text;
@@ -284,6 +316,18 @@ TEST_CASE("a block's index is what the reader's own stage 1 makes of its groups"
       REQUIRE(n == gr.count);
       CHECK(idx[n] == len);
       CHECK(std::equal(idx, idx + n + 1, index->indexes.begin() + gr.first));
+      // Its lines, each line of the group (empty ones too) in order: where
+      // it ends, and the first of the group's indexes past it.
+      size_t line_begin = gr.begin;
+      REQUIRE(gr.first_line + gr.line_count <= index->lines.size());
+      for (uint32_t l = 0; l < gr.line_count; ++l) {
+        const NdjsonBlockIndex::Line& line = index->lines[gr.first_line + l];
+        CHECK(line.end == bytes.find('\n', line_begin));
+        const size_t past = static_cast<size_t>(std::lower_bound(idx, idx + n, line.end - gr.begin) - idx);
+        CHECK(line.index_end == past);
+        line_begin = line.end + 1;
+      }
+      CHECK(line_begin == gr.end + 1);  // the last line ends the group
     }
   }
   CHECK(indexed > 100);
@@ -296,12 +340,40 @@ TEST_CASE("a block's index is what the reader's own stage 1 makes of its groups"
   }
 }
 
+// Intent: the study parses a group only while its records' slots fit the
+// note's budget (kNdjsonParsedBytes): short lines of a wide job are only
+// indexed, those of a narrow one parsed one group in kNdjsonParseEvery.
+TEST_CASE("the block study parses groups within its budget for slots") {
+  std::string text;
+  while (text.size() < 200000) text += "{}\n";
+  text.append(4096, ' ');
+  for (const size_t width : {size_t{1}, size_t{1000}}) {
+    CAPTURE(width);
+    FieldTable fields;
+    for (size_t f = 0; f < width; ++f) fields.InternField("/f" + std::to_string(f));
+    Result<std::vector<PointerNode>> nodes = BuildPointerTrie(fields);
+    REQUIRE(nodes.ok());
+    NdjsonBlockStudy study(*nodes, width, ValueChecks::kReadValues);
+    std::unique_ptr<BlockNote> note;
+    study.Study(text.data(), text.size() - 4096, 4096, &note);
+    const auto* index = dynamic_cast<const NdjsonBlockIndex*>(note.get());
+    REQUIRE(index != nullptr);
+    size_t parsed = 0;
+    for (const NdjsonBlockIndex::Group& g : index->groups) parsed += g.parsed ? 1 : 0;
+    CHECK(index->groups.size() > 40);
+    CHECK(index->values.size() * sizeof(Value) <= kNdjsonParsedBytes);
+    if (width == 1) CHECK(parsed == index->groups.size() / kNdjsonParseEvery);
+    if (width == 1000) CHECK(parsed == 0);
+  }
+}
+
 // Intent: read through decode ahead, threaded (the block study indexing
 // whole lines on the helper, the reader the lines cut by the blocks'
 // edges) or inline (the reader indexing all), every line gives what it gives read
 // alone — the same records, values, line numbers, malformed count and
 // samples — wherever the edges cut (malformed lines and strings left open
-// across an edge included), and the study's indexes were in use.
+// across an edge included), and the study's indexes, and the lines it
+// parsed (NdjsonBlockIndex::Group::parsed), were in use.
 TEST_CASE("lines read through decode ahead give what each line read alone gives") {
   const FieldTable fields = Fields({"/ts", "/lamp", "/power_w", "/fault", "/district"});
   const std::vector<std::string> lines = MakeLines(20261204, 1800);
@@ -327,8 +399,12 @@ TEST_CASE("lines read through decode ahead give what each line read alone gives"
       ReadStats st;
       REQUIRE((*reader)->Read(watched, sink, &st).ok());
       CheckSame(want, sink, st);
+      CHECK(sink.broken == 0);
+      CHECK(!sink.in_loan);
       // Threaded, the helper indexed the blocks; inline, the reader did.
       if (threaded && block >= 4096) CHECK(watched.indexed_groups >= watched.blocks / 2);
+      // ... and parsed one group in kNdjsonParseEvery of them.
+      if (threaded && block >= 4096) CHECK(watched.parsed_groups >= watched.indexed_groups / 10);
       if (!threaded) CHECK(watched.indexed_groups == 0);
     }
   }

@@ -5,40 +5,52 @@
 
 #include <doctest/doctest.h>
 
-#include "common/input/record_reader.h"
-
 using namespace fanfold;
 
-namespace {
-
-// Counts the records it is handed and stops after `stop_after`.
-class Count final : public RecordSink {
- public:
-  explicit Count(uint64_t stop_after) : stop_after_(stop_after) {}
-  bool OnRecord(Value*) override { return ++n < stop_after_; }
-  uint64_t n = 0;
-
- private:
-  uint64_t stop_after_;
-};
-
-}  // namespace
-
 // Intent: null counts as present, Missing does not, derived slots are not
-// counted, and the next sink's "stop" is passed back.
+// counted, and batches add up (records of width 3, end to end, as a
+// RecordBatch holds them).
 TEST_CASE("presence counter: counts raw fields with a value") {
   FieldTable fields;
   fields.InternField("/a");
   fields.AddDerived("d");
   fields.InternField("/b");
-  Count next(3);
-  PresenceCounter counter(fields, &next);
-  Value r1[3] = {Value::Number(1), Value::Number(9), Value::Missing()};
-  Value r2[3] = {Value::Null(), Value::Missing(), Value::String("x")};
-  CHECK(counter.OnRecord(r1));
-  CHECK(counter.OnRecord(r2));
-  Value r3[3] = {Value::Missing(), Value::Missing(), Value::Missing()};
-  CHECK_FALSE(counter.OnRecord(r3));  // the third record: the next sink says stop
-  CHECK(next.n == 3);
+  PresenceCounter counter(fields);
+  const Value rows[9] = {Value::Number(1),  Value::Number(9),  Value::Missing(),    // record 1
+                         Value::Null(),     Value::Missing(),  Value::String("x"),  // record 2
+                         Value::Missing(),  Value::Number(2),  Value::Missing()};   // record 3
+  counter.CountRows(rows, 2);
   CHECK(counter.counts() == std::vector<uint64_t>{2, 1});
+  counter.CountRows(rows + 3, 2);  // records 2 and 3: a second batch
+  CHECK(counter.counts() == std::vector<uint64_t>{3, 2});
+  counter.CountRows(rows, 0);  // an empty batch
+  CHECK(counter.counts() == std::vector<uint64_t>{3, 2});
+}
+
+// Intent: batches of any length (four rows a step, then the rest) count
+// each record once: 0 to 11 records of width 3, /a present in every
+// record whose number is not a multiple of 3, /b in the even ones (counted
+// here by hand, record by record).
+TEST_CASE("presence counter: batches of every length up to 11") {
+  FieldTable fields;
+  fields.InternField("/a");
+  fields.AddDerived("d");
+  fields.InternField("/b");
+  std::vector<Value> rows;
+  for (int r = 0; r < 11; ++r) {
+    rows.push_back(r % 3 != 0 ? Value::Number(r) : Value::Missing());
+    rows.push_back(Value::Number(1));  // derived: never counted
+    rows.push_back(r % 2 == 0 ? Value::Null() : Value::Missing());
+  }
+  for (size_t n = 0; n <= 11; ++n) {
+    CAPTURE(n);
+    PresenceCounter counter(fields);
+    counter.CountRows(rows.data(), n);
+    uint64_t a = 0, b = 0;
+    for (size_t r = 0; r < n; ++r) {
+      a += r % 3 != 0 ? 1 : 0;
+      b += r % 2 == 0 ? 1 : 0;
+    }
+    CHECK(counter.counts() == std::vector<uint64_t>{a, b});
+  }
 }

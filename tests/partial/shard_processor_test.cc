@@ -143,5 +143,19 @@ TEST_CASE("shard processor: per-field present counts reach the partial") {
   CHECK(p.header.records == 4);
   CHECK(p.header.kept == 2);
   CHECK(p.field_present == std::vector<uint64_t>{3, 0, 2});  // {/k}, {/feedr}, {/v}
+  // The same processor on a shard of several batches (RecordBatch::kCapacity
+  // records each): line i (from 0) has /k, and /v when i % 3 == 0, so 700
+  // lines have 700 and 234 values; the first shard's counts are not carried.
+  const std::string many = dir + "/m.ndjson";
+  {
+    std::ofstream out(many);
+    for (int i = 0; i < 700; ++i) out << "{\"k\": " << i << (i % 3 == 0 ? ", \"v\": 1}\n" : "}\n");
+  }
+  task.path = many;
+  REQUIRE(processor.Process(task, &bytes).ok());
+  PartialState q(&configs);
+  REQUIRE(DecodePartial(bytes, &q).ok());
+  CHECK(q.header.records == 700);
+  CHECK(q.field_present == std::vector<uint64_t>{700, 0, 234});
   std::filesystem::remove_all(dir);
 }
