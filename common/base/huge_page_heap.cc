@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <cstdlib>
 #include <fstream>
+#include <limits>
 #include <mutex>
 #include <string>
 #include <vector>
@@ -68,7 +69,7 @@ uint64_t ReserveAndAdvise() {
   // so big buffers made again and again (a partial's bytes) come from the
   // heap, already backed, not from fresh mappings each time.
   if (mallopt(M_MMAP_THRESHOLD, kMmapThreshold) == 0 ||
-      mallopt(M_TRIM_THRESHOLD, static_cast<int>(kHugePageHeapReserveBytes)) == 0 ||
+      mallopt(M_TRIM_THRESHOLD, std::numeric_limits<int>::max()) == 0 ||  // above the span: never trimmed off
       mallopt(M_TOP_PAD, static_cast<int>(kHugePageHeapReserveBytes)) == 0)
     return 0;
   std::vector<void*> held;
