@@ -98,6 +98,12 @@ class ByteReader {
   }
   double F64() { return std::bit_cast<double>(U64()); }
   uint64_t Varint() {
+    // Most varints are one byte (lengths, small counts, gaps): read inline.
+    if (ok_ && p_ != end_ && static_cast<uint8_t>(*p_) < 0x80) return static_cast<uint8_t>(*p_++);
+    return VarintLong();
+  }
+  // Varint's general case: any length, every byte checked.
+  uint64_t VarintLong() {
     uint64_t v = 0;
     for (int shift = 0; shift < 64; shift += 7) {
       uint8_t b = U8();

@@ -78,6 +78,16 @@ void Merger::Drain() {
     if (it == waiting_.end()) break;
     auto opened = std::make_unique<OpenedPartial>();
     OpenedPartial& p = *opened;
+    // The body's buffer is kept from one partial to the next (body_buffer_),
+    // so its pages are not faulted in and zeroed again for every partial.
+    p.body.swap(body_buffer_);
+    struct ReturnBody {
+      std::unique_ptr<OpenedPartial>& opened;
+      std::string& keep;
+      ~ReturnBody() {
+        if (opened) keep.swap(opened->body);
+      }
+    } return_body{opened, body_buffer_};
     std::string bytes = std::move(it->second);
     waiting_.erase(it);
     waiting_bytes_ -= bytes.size();

@@ -240,6 +240,7 @@ class Merger {
   std::vector<ReductionResult> results_;  // per reduction
   uint64_t waiting_budget_;
   std::map<uint32_t, std::string> waiting_;  // early partials by shard ("" = reload it)
+  std::string body_buffer_;  // the last merged partial's body buffer, reused by the next
   uint64_t waiting_bytes_ = 0;               // their total size
   Reloader reload_;
   PartialOpener open_;

@@ -135,18 +135,29 @@ void DDSketchStore::Encode(ByteWriter& w) const {
 bool DDSketchStore::ReadRun(ByteReader& r, EncodedRun* out) {
   const uint64_t span = r.Varint();
   if (!r.ok() || span > static_cast<uint64_t>(kMaxSpan)) return false;
-  *out = EncodedRun();
+  out->lo = 0;
+  out->span = 0;
+  out->total = 0;
+  out->counts = ByteReader(std::string_view());
+  out->listed = 0;
+  out->listed_all = span == 0;
   if (span == 0) return true;
   const int64_t lo = UnZigZag(r.Varint());
   // lo comes from the input: compare it with a bound rather than add to it.
   if (!r.ok() || lo < kMinIndex || lo > kMaxIndex - static_cast<int64_t>(span) + 1) return false;
   out->counts = r;
   uint64_t total = 0, covered = 0;
+  uint32_t nonempty = 0;
   bool after_empty_run = false;
   while (covered < span) {
     const uint64_t c = r.Varint();
     if (!r.ok() || c > kMaxTotal - total) return false;
     if (c > 0) {
+      if (nonempty < EncodedRun::kListed) {
+        out->offset[nonempty] = static_cast<uint16_t>(covered);
+        out->count[nonempty] = c;
+      }
+      ++nonempty;
       total += c;
       ++covered;
       after_empty_run = false;
@@ -162,6 +173,8 @@ bool DDSketchStore::ReadRun(ByteReader& r, EncodedRun* out) {
   out->lo = static_cast<int32_t>(lo);
   out->span = span;
   out->total = total;
+  out->listed = std::min(nonempty, EncodedRun::kListed);
+  out->listed_all = nonempty <= EncodedRun::kListed;
   return true;
 }
 

@@ -67,6 +67,14 @@ class DDSketchStore {
     uint64_t span = 0;  // 0 iff empty
     uint64_t total = 0;
     ByteReader counts{std::string_view()};  // at the first entry
+    // The first kListed non-empty buckets as ReadRun decoded them (bucket
+    // lo + offset[j] holds count[j]); all of them iff listed_all, and then
+    // MergeRun and AssignRun read these instead of decoding the bytes again.
+    static constexpr uint32_t kListed = 16;
+    uint32_t listed = 0;
+    bool listed_all = false;
+    uint16_t offset[kListed];  // < span <= kMaxSpan
+    uint64_t count[kListed];
   };
   // Reads and checks one encoded store (Decode's checks) from r. Returns
   // false on corrupt input.
@@ -87,6 +95,10 @@ class DDSketchStore {
   // index order. REQUIRES: run was filled by ReadRun.
   template <class Visit>
   static void ForEachBucket(const EncodedRun& run, Visit visit) {
+    if (run.listed_all) {
+      for (uint32_t j = 0; j < run.listed; ++j) visit(run.offset[j], run.count[j]);
+      return;
+    }
     ByteReader in = run.counts;
     for (uint64_t i = 0; i < run.span;) {
       const uint64_t c = in.Varint();
