@@ -178,19 +178,23 @@ Status ShardProcessor::ProcessShard(const ShardTask& task, std::string* partial,
   for (size_t r = 0; r < state.reductions.size(); ++r) {
     state.reductions[r].kept = agg.kept_by(r);
     if (TableOverflow* o = agg.overflow(r)) {
-      state.reductions[r].encode_groups = [o, &merged](ByteWriter& w) {
+      state.reductions[r].encode_groups = [o, &merged](ByteWriter& w, const BodyProgress&) {
         if (Status e = o->Encode(w); !e.ok() && merged.ok()) merged = e;
       };
       state.reductions[r].encode_bytes_hint = o->encoded_bytes();
     } else {
       const WorkerGroupTable& table = agg.table(r);
       last_groups_[r] = table.group_count();
-      state.reductions[r].encode_groups = [&table](ByteWriter& w) { table.Encode(w); };
+      state.reductions[r].encode_groups = [&table](ByteWriter& w, const BodyProgress& progress) {
+        table.Encode(w, progress);
+      };
       state.reductions[r].encode_bytes_hint = table.EncodedBytesHint();
+      if (encode_threaded) state.reductions[r].encode_bytes_exact = table.EncodedBytes();
     }
   }
   state.lookup_unmatched = agg.unmatched();
-  EncodePartial(state, partial);
+  if (encode_threaded && !compressor_) compressor_ = std::make_unique<BodyCompressor>();
+  EncodePartial(state, partial, encode_threaded ? compressor_.get() : nullptr);
   if (!merged.ok()) return merged.WithContext(where);
   return Status::Ok();
 }
