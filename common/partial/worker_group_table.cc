@@ -114,11 +114,12 @@ void WorkerGroupTable::Encode(ByteWriter& w, const BodyProgress& progress) const
   const bool bounded = Bounded();
   if (bounded && progress) progress(w.size(), w.size() + kMaxVarintBytes);
   w.Varint(keys_.size());
-  const std::vector<uint32_t> order = KeyOrder(keys_);
   if (bounded) {
-    EncodeBounded(order, w, progress);
+    KeyOrderStretches stretches(keys_);
+    EncodeBounded(stretches, w, progress);
     return;
   }
+  const std::vector<uint32_t> order = KeyOrder(keys_);
   // Groups go out in key order, scattered in memory: their key bytes and
   // states are fetched a few groups ahead (the states one step later, as
   // the key's bytes wait on its view).
@@ -134,7 +135,7 @@ void WorkerGroupTable::Encode(ByteWriter& w, const BodyProgress& progress) const
   }
 }
 
-void WorkerGroupTable::EncodeBounded(const std::vector<uint32_t>& order, ByteWriter& w,
+void WorkerGroupTable::EncodeBounded(KeyOrderStretches& stretches, ByteWriter& w,
                                      const BodyProgress& progress) const {
   // EncodeGroup's bytes: the key behind its varint length, then each state
   // behind its length (one byte: every bound is below 0x80). Per block of
@@ -156,9 +157,11 @@ void WorkerGroupTable::EncodeBounded(const std::vector<uint32_t>& order, ByteWri
   char* p = out.data() + used;
   char* limit = p;
   constexpr size_t kAhead = 8;
-  const size_t n = order.size();
+  const size_t n = keys_.size();
+  const std::vector<uint32_t>& order = stretches.ids();
   for (size_t b = 0; b < n; b += kBlock) {
     const size_t k = std::min(kBlock, n - b);
+    stretches.SortAtLeast(std::min(n, b + k + 2 * kAhead));  // the block and what is fetched ahead
     for (size_t c = 0; c < m; ++c) columns_[c]->EncodeRangeTo(&order[b], k, scratch[c].data(), &ends[c * (kBlock + 1) + 1]);
     for (size_t i = b; i < b + k; ++i) {
       if (i + 2 * kAhead < n) __builtin_prefetch(&keys_[order[i + 2 * kAhead]]);

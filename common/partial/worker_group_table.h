@@ -42,6 +42,7 @@
 #include "common/partial/body_compressor.h"
 #include "common/partial/group_index.h"
 #include "common/partial/key_arena.h"
+#include "common/partial/key_order.h"
 #include "common/partial/measure_column.h"
 
 namespace fanfold {
@@ -142,7 +143,8 @@ class WorkerGroupTable {
 
   // Encode's groups, in `order`, when every column has an EncodeBound of at
   // most kMaxBoundedState: written a block at a time by pointer.
-  void EncodeBounded(const std::vector<uint32_t>& order, ByteWriter& w, const BodyProgress& progress) const;
+  // The key order is sorted a stretch at a time as the groups are written.
+  void EncodeBounded(KeyOrderStretches& order, ByteWriter& w, const BodyProgress& progress) const;
   bool Bounded() const;
   static constexpr size_t kMaxBoundedState = 64;
 
