@@ -28,6 +28,19 @@ BodyCompressor::~BodyCompressor() {
   delete z_;
 }
 
+void BodyCompressor::Post(std::function<void()> job) {
+  if (!helper_.joinable()) helper_ = std::thread([this] { Run(); });
+  std::lock_guard<std::mutex> lk(mu_);
+  job_ = std::move(job);
+  job_done_ = false;
+  wake_.notify_one();
+}
+
+void BodyCompressor::WaitPosted() {
+  std::unique_lock<std::mutex> lk(mu_);
+  idle_.wait(lk, [this] { return job_done_; });
+}
+
 void BodyCompressor::Begin(const char* body, size_t total, size_t room) {
   if (!helper_.joinable()) helper_ = std::thread([this] { Run(); });
   // Kept up to kKeepBytes, so that one huge partial does not pin its memory.
@@ -91,8 +104,20 @@ bool BodyCompressor::Finish(std::string_view* frame) {
 void BodyCompressor::Run() {
   std::unique_lock<std::mutex> lk(mu_);
   for (;;) {
-    wake_.wait(lk, [this] { return quit_ || (active_ && (finishing_ || final_ - fed_ >= kStepBytes)); });
+    wake_.wait(lk, [this] {
+      return quit_ || job_ || (active_ && (finishing_ || final_ - fed_ >= kStepBytes));
+    });
     if (quit_) return;
+    if (job_) {
+      std::function<void()> job = std::move(job_);
+      job_ = nullptr;
+      lk.unlock();
+      job();
+      lk.lock();
+      job_done_ = true;
+      idle_.notify_all();
+      continue;
+    }
     const size_t upto = final_;
     const bool end = finishing_;
     busy_ = true;

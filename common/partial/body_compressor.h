@@ -56,6 +56,13 @@ class BodyCompressor {
   // reported short, or zstd failed.
   bool Finish(std::string_view* frame);
 
+  // Runs job on the helper thread (started if need be) while the caller
+  // goes on (say, sizing a body while the caller sorts it); WaitPosted waits
+  // for it. REQUIRES: no body begun and not finished, no job posted and not
+  // waited for.
+  void Post(std::function<void()> job);
+  void WaitPosted();
+
   // Bodies shorter than this are compressed by the caller in one call: the
   // hand-over would cost more than the overlap saves.
   static constexpr size_t kMinBytes = size_t{512} << 10;
@@ -76,6 +83,8 @@ class BodyCompressor {
   bool finishing_ = false;
   bool failed_ = false;
   bool quit_ = false;
+  std::function<void()> job_;  // posted, not yet run
+  bool job_done_ = true;
   size_t total_ = 0;
   size_t room_ = 0;
   size_t final_ = 0;   // reported final by the writer

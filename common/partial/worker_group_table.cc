@@ -109,29 +109,39 @@ size_t WorkerGroupTable::EncodedBytes() const {
   return bytes;
 }
 
-void WorkerGroupTable::Encode(ByteWriter& w, const BodyProgress& progress) const {
+void WorkerGroupTable::Encode(ByteWriter& w, const BodyProgress& progress, KeyOrderStretches* order) const {
   SyncColumns();
   const bool bounded = Bounded();
   if (bounded && progress) progress(w.size(), w.size() + kMaxVarintBytes);
   w.Varint(keys_.size());
   if (bounded) {
-    KeyOrderStretches stretches(keys_);
-    EncodeBounded(stretches, w, progress);
+    if (order != nullptr) {
+      EncodeBounded(*order, w, progress);
+    } else {
+      KeyOrderStretches stretches(keys_);
+      EncodeBounded(stretches, w, progress);
+    }
     return;
   }
-  const std::vector<uint32_t> order = KeyOrder(keys_);
+  std::vector<uint32_t> sorted;
+  if (order != nullptr) {
+    order->SortAtLeast(keys_.size());
+    sorted = order->TakeIds();
+  } else {
+    sorted = KeyOrder(keys_);
+  }
   // Groups go out in key order, scattered in memory: their key bytes and
   // states are fetched a few groups ahead (the states one step later, as
   // the key's bytes wait on its view).
   constexpr size_t kAhead = 8;
-  for (size_t i = 0; i < order.size(); ++i) {
-    if (i + 2 * kAhead < order.size()) __builtin_prefetch(&keys_[order[i + 2 * kAhead]]);
-    if (i + kAhead < order.size()) {
-      const uint32_t ahead = order[i + kAhead];
+  for (size_t i = 0; i < sorted.size(); ++i) {
+    if (i + 2 * kAhead < sorted.size()) __builtin_prefetch(&keys_[sorted[i + 2 * kAhead]]);
+    if (i + kAhead < sorted.size()) {
+      const uint32_t ahead = sorted[i + kAhead];
       __builtin_prefetch(keys_[ahead].data());
       for (const auto& c : columns_) c->Prefetch(ahead);
     }
-    EncodeGroup(order[i], w);
+    EncodeGroup(sorted[i], w);
   }
 }
 

@@ -105,11 +105,19 @@ class WorkerGroupTable {
   // strictly ascending key-byte order. When the states are bounded (see
   // EncodedBytes), `progress` (if set) hears before each growth of w's
   // buffer how many of its bytes are final (body_compressor.h).
-  void Encode(ByteWriter& w, const BodyProgress& progress = BodyProgress()) const;
+  // `order`, when given, is this table's KeyOrderStretches (made by
+  // StartOrder, none of it taken yet): the caller dealt the keys meanwhile.
+  void Encode(ByteWriter& w, const BodyProgress& progress = BodyProgress(), KeyOrderStretches* order = nullptr) const;
+  // The key order Encode would start with (its deal into buckets done).
+  std::unique_ptr<KeyOrderStretches> StartOrder() const { return std::make_unique<KeyOrderStretches>(keys_); }
   // Exactly how many bytes Encode writes, when every column's states are
   // bounded (one pass over the states in group order, not the key sort);
-  // else 0.
+  // else 0. Reads the keys only as StartOrder does, so the two may run on
+  // two threads at once once Sync was called.
   size_t EncodedBytes() const;
+  // Gives every column a state for every group (Encode and EncodedBytes
+  // do it first).
+  void Sync() const { SyncColumns(); }
   // The group ids in Encode's order (ascending key bytes).
   std::vector<uint32_t> SortedGroups() const;
   // Appends group g as Encode writes it: the key, then each measure's state
