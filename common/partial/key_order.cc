@@ -152,9 +152,8 @@ KeyOrderStretches::KeyOrderStretches(const std::vector<std::string_view>& keys)
   offset_ = SharedPrefix(keys);
   std::vector<SortEntry> entries(n);
   for (uint32_t g = 0; g < n; ++g) entries[g] = SortEntry{KeyWindow(keys[g], offset_), g};
-  if (n < kStretchMinKeys) {  // one stretch
+  if (n < kStretchMinKeys) {  // one stretch (no bucket_ends_: Next sorts all)
     entries_ = std::move(entries);
-    bucket_ends_.push_back(static_cast<uint32_t>(n));
     ids_.resize(n);
     return;
   }
@@ -173,6 +172,13 @@ KeyOrderStretches::KeyOrderStretches(const std::vector<std::string_view>& keys)
 }
 
 bool KeyOrderStretches::Next() {
+  if (bucket_ends_.empty()) {  // a small table, in one stretch
+    if (sorted_ == entries_.size()) return false;
+    SortByWindows(keys_, entries_.data(), entries_.data() + entries_.size(), offset_);
+    for (size_t i = 0; i < entries_.size(); ++i) ids_[i] = entries_[i].group;
+    sorted_ = entries_.size();
+    return true;
+  }
   if (next_bucket_ == bucket_ends_.size()) return false;
   const size_t from = sorted_;
   size_t to = from;

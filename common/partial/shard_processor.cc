@@ -179,11 +179,12 @@ Status ShardProcessor::ProcessShard(const ShardTask& task, std::string* partial,
   // (encode_threaded; about BodyCompressor::kMinBytes or more) needs its
   // exact length first: measured on the compressor's thread while this one
   // deals the table's keys for its sort.
-  std::vector<std::unique_ptr<KeyOrderStretches>> orders(state.reductions.size());
+  std::vector<std::unique_ptr<KeyOrderStretches>> orders;  // per reduction, when any is sized
   std::vector<size_t> sized;  // reductions whose exact length is measured
   for (size_t r = 0; r < state.reductions.size() && encode_threaded; ++r)
     if (agg.overflow(r) == nullptr && agg.table(r).EncodedBytesHint() >= BodyCompressor::kMinBytes / 2) sized.push_back(r);
   if (!sized.empty()) {
+    orders.resize(state.reductions.size());
     if (!compressor_) compressor_ = std::make_unique<BodyCompressor>();
     std::vector<const WorkerGroupTable*> tables;
     for (size_t r : sized) {
@@ -206,7 +207,7 @@ Status ShardProcessor::ProcessShard(const ShardTask& task, std::string* partial,
     } else {
       const WorkerGroupTable& table = agg.table(r);
       last_groups_[r] = table.group_count();
-      state.reductions[r].encode_groups = [&table, order = orders[r].get()](ByteWriter& w, const BodyProgress& progress) {
+      state.reductions[r].encode_groups = [&table, order = orders.empty() ? nullptr : orders[r].get()](ByteWriter& w, const BodyProgress& progress) {
         table.Encode(w, progress, order);
       };
       state.reductions[r].encode_bytes_hint = table.EncodedBytesHint();
