@@ -47,6 +47,7 @@ int main(int argc, char** argv) {
   // the job's "decode_ahead", "auto" deciding by the workers on this machine.
   auto on_attach = [&](unsigned workers) {
     processor.ahead_threaded = AheadThreaded((*plan)->spec.decode_ahead, workers);
+    processor.encode_threaded = AheadThreaded(AheadChoice::kAuto, workers);
   };
   Status s = RunWorkerLoop(launch->segment, launch->slot, process, on_attach);
   if (!s.ok() && s.code() != Status::Code::kInterrupted) {

@@ -8,10 +8,7 @@
 namespace fanfold {
 namespace {
 
-struct SortEntry {
-  uint64_t window = 0;  // 8 key bytes at the current offset, big-endian
-  uint32_t group = 0;
-};
+using SortEntry = KeyOrderStretches::Entry;
 
 // The 8 bytes of key at [offset, offset + 8) as a big-endian integer, zeros
 // past the key's end.
@@ -107,9 +104,17 @@ void RadixSortByWindow(SortEntry* begin, SortEntry* end) {
   if (src != begin) std::copy(src, src + n, begin);
 }
 
+// Sorts [begin, end), whose keys agree on their first `offset` bytes and
+// whose windows at offset are set.
+void SortByWindows(const std::vector<std::string_view>& keys, SortEntry* begin, SortEntry* end, size_t offset);
+
 // Sorts [begin, end), whose keys agree on their first `offset` bytes.
 void SortRange(const std::vector<std::string_view>& keys, SortEntry* begin, SortEntry* end, size_t offset) {
   for (SortEntry* e = begin; e != end; ++e) e->window = KeyWindow(keys[e->group], offset);
+  SortByWindows(keys, begin, end, offset);
+}
+
+void SortByWindows(const std::vector<std::string_view>& keys, SortEntry* begin, SortEntry* end, size_t offset) {
   if (static_cast<size_t>(end - begin) >= kWideRadixMin)
     RadixSortByWindow<16>(begin, end);
   else if (static_cast<size_t>(end - begin) >= kRadixMin)
@@ -131,17 +136,70 @@ void SortRange(const std::vector<std::string_view>& keys, SortEntry* begin, Sort
   }
 }
 
+// Tables from this many keys on are dealt into buckets by the top 16 bits
+// of their first window and sorted a stretch of about kStretchKeys at a time.
+constexpr size_t kStretchMinKeys = size_t{1} << 15;
+constexpr size_t kStretchKeys = size_t{1} << 13;
+
 }  // namespace
 
-std::vector<uint32_t> KeyOrder(const std::vector<std::string_view>& keys) {
-  std::vector<SortEntry> order(keys.size());
-  for (uint32_t g = 0; g < keys.size(); ++g) order[g].group = g;
+KeyOrderStretches::KeyOrderStretches(const std::vector<std::string_view>& keys)
+    : keys_(keys) {
+  const size_t n = keys.size();
+  if (n == 0) return;
   // Keys of one table often share their first bytes (a tag and a length, a
   // fixed prefix of an identifier): the sort starts past them.
-  if (!order.empty()) SortRange(keys, order.data(), order.data() + order.size(), SharedPrefix(keys));
-  std::vector<uint32_t> ids(order.size());
-  for (size_t i = 0; i < order.size(); ++i) ids[i] = order[i].group;
-  return ids;
+  offset_ = SharedPrefix(keys);
+  std::vector<SortEntry> entries(n);
+  for (uint32_t g = 0; g < n; ++g) entries[g] = SortEntry{KeyWindow(keys[g], offset_), g};
+  if (n < kStretchMinKeys) {  // one stretch (no bucket_ends_: Next sorts all)
+    entries_ = std::move(entries);
+    ids_.resize(n);
+    return;
+  }
+  // Dealt by the window's top 16 bits, stably (a counting pass, a scatter).
+  constexpr size_t kBuckets = size_t{1} << 16;
+  std::vector<uint32_t> at(kBuckets + 1, 0);
+  for (const SortEntry& e : entries) ++at[(e.window >> 48) + 1];
+  for (size_t b = 0; b < kBuckets; ++b) at[b + 1] += at[b];
+  bucket_ends_.reserve(kBuckets);
+  for (size_t b = 0; b < kBuckets; ++b)
+    if (at[b + 1] != at[b]) bucket_ends_.push_back(at[b + 1]);
+  entries_.resize(n);
+  for (const SortEntry& e : entries) entries_[at[e.window >> 48]++] = e;
+  std::vector<SortEntry>().swap(entries);
+  ids_.resize(n);  // after the deal: its two arrays and the ids are not all held at once
+}
+
+bool KeyOrderStretches::Next() {
+  if (bucket_ends_.empty()) {  // a small table, in one stretch
+    if (sorted_ == entries_.size()) return false;
+    SortByWindows(keys_, entries_.data(), entries_.data() + entries_.size(), offset_);
+    for (size_t i = 0; i < entries_.size(); ++i) ids_[i] = entries_[i].group;
+    sorted_ = entries_.size();
+    return true;
+  }
+  if (next_bucket_ == bucket_ends_.size()) return false;
+  const size_t from = sorted_;
+  size_t to = from;
+  do {
+    const size_t begin = to;
+    to = bucket_ends_[next_bucket_++];
+    // The keys of a bucket share the window's top 16 bits (which its radix
+    // passes skip).
+    SortByWindows(keys_, entries_.data() + begin, entries_.data() + to, offset_);
+  } while (to - from < kStretchKeys && next_bucket_ < bucket_ends_.size());
+  for (size_t i = from; i < to; ++i) ids_[i] = entries_[i].group;
+  sorted_ = to;
+  if (next_bucket_ == bucket_ends_.size()) std::vector<SortEntry>().swap(entries_);
+  return true;
+}
+
+std::vector<uint32_t> KeyOrder(const std::vector<std::string_view>& keys) {
+  KeyOrderStretches order(keys);
+  while (order.Next()) {
+  }
+  return order.TakeIds();
 }
 
 }  // namespace fanfold

@@ -1,5 +1,6 @@
 #include "common/partial/measure_column.h"
 
+#include <algorithm>
 #include <cstdlib>
 #include <memory>
 #include <type_traits>
@@ -81,6 +82,12 @@ class CountColumn final : public MeasureColumn {
   void EncodeRangeTo(const uint32_t* groups, size_t n, char* out, uint32_t* ends) const override {
     EachInRange(groups, n, out, ends, [this](uint32_t g, char* p) { return PutVarint(p, n_[g]); },
                 [this](uint32_t g) { __builtin_prefetch(&n_[g]); });
+  }
+  size_t EncodedStateBytes(size_t groups) const override {
+    size_t bytes = groups;  // a varint of at least one byte each
+    for (size_t g = 0; g < groups; ++g)
+      for (uint64_t v = n_[g]; v >= 0x80; v >>= 7) ++bytes;
+    return bytes;
   }
   void Prefetch(uint32_t g) const override { __builtin_prefetch(&n_[g]); }
   size_t ApproxBytes() const override { return n_.bytes(); }
@@ -200,6 +207,22 @@ class ObjectColumn final : public MeasureColumn {
 };
 
 }  // namespace
+
+size_t MeasureColumn::EncodedStateBytes(size_t groups) const {
+  // The states written a block at a time into a scratch, and measured.
+  constexpr size_t kBlock = 256;
+  std::vector<uint32_t> ids(kBlock);
+  std::vector<uint32_t> ends(kBlock);
+  std::vector<char> scratch(kBlock * EncodeBound());
+  size_t bytes = 0;
+  for (size_t b = 0; b < groups; b += kBlock) {
+    const size_t k = std::min(kBlock, groups - b);
+    for (size_t i = 0; i < k; ++i) ids[i] = static_cast<uint32_t>(b + i);
+    EncodeRangeTo(ids.data(), k, scratch.data(), ends.data());
+    bytes += ends[k - 1];
+  }
+  return bytes;
+}
 
 void MeasureColumn::EncodeRangeTo(const uint32_t* groups, size_t n, char* out, uint32_t* ends) const {
   // Only a column with an EncodeBound has a writer by pointer; the table

@@ -66,6 +66,9 @@ class MeasureColumn {
   // ends[i] to the offset from out at which group i's state ends.
   // REQUIRES: EncodeBound() > 0.
   virtual void EncodeRangeTo(const uint32_t* groups, size_t n, char* out, uint32_t* ends) const;
+  // The bytes EncodeRangeTo writes for the states of groups [0, groups),
+  // together (in group order: no sort needed). REQUIRES: EncodeBound() > 0.
+  virtual size_t EncodedStateBytes(size_t groups) const;
   // A hint that group g's state will be encoded soon (groups are encoded
   // in key order, which is random in memory): fetches it into the cache.
   virtual void Prefetch(uint32_t g) const { (void)g; }

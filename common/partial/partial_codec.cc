@@ -55,9 +55,11 @@ Status ReadSamples(OpenedPartial* out);
 
 uint64_t PathHash(std::string_view path) { return XXH3_64bits(path.data(), path.size()); }
 
-void EncodePartialBody(const PartialState& p, std::string* body) {
-  body->clear();
-  ByteWriter bw(body);
+namespace {
+
+// The body's part before the reductions: samples, field and lookup counts,
+// the reduction count.
+void EncodeBodyPrefix(const PartialState& p, ByteWriter& bw) {
   bw.Varint(p.samples.size());
   for (const auto& s : p.samples) {
     bw.Varint(s.line);
@@ -68,6 +70,56 @@ void EncodePartialBody(const PartialState& p, std::string* body) {
   bw.Varint(p.lookup_unmatched.size());
   for (uint64_t n : p.lookup_unmatched) bw.Varint(n);
   bw.Varint(p.reductions.size());
+}
+
+size_t VarintBytes(uint64_t v) {
+  size_t n = 1;
+  for (; v >= 0x80; v >>= 7) ++n;
+  return n;
+}
+
+// EncodePartialBody's bytes written into *body while c compresses them into
+// *frame. False (nothing compressed; the body is to be written again) when
+// a reduction's length is not known beforehand, the body is shorter than
+// BodyCompressor::kMinBytes, a table wrote other than its known length, or
+// the compression did not finish.
+bool EncodeBodyCompressing(const PartialState& p, std::string* body, BodyCompressor* c, std::string_view* frame) {
+  body->clear();
+  ByteWriter bw(body);
+  EncodeBodyPrefix(p, bw);
+  uint64_t total = body->size();
+  for (const ReductionPartial& r : p.reductions) {
+    if (r.encode_bytes_exact == 0 || !r.encode_groups) return false;
+    total += VarintBytes(r.kept) + 8 + r.encode_bytes_exact;
+  }
+  if (total < BodyCompressor::kMinBytes) return false;
+  // Room past the end for a table's last growth (WorkerGroupTable::Encode
+  // grows by at most one group's bound past what it writes).
+  constexpr size_t kSlackBytes = size_t{256} << 10;
+  body->reserve(total + kSlackBytes);
+  c->Begin(body->data(), total, body->capacity());
+  const BodyProgress progress = [c](size_t final_bytes, size_t grow_to) { c->Progress(final_bytes, grow_to); };
+  for (const ReductionPartial& r : p.reductions) {
+    c->Progress(body->size(), body->size() + kMaxVarintBytes + 8);
+    bw.Varint(r.kept);
+    bw.U64(r.encode_bytes_exact);
+    const size_t at = body->size();
+    r.encode_groups(bw, progress);
+    if (body->size() - at != r.encode_bytes_exact) {  // a bug: the length written is wrong
+      c->Abandon();
+      return false;
+    }
+  }
+  c->Progress(body->size(), body->size());
+  return c->Finish(frame);
+}
+
+}  // namespace
+
+void EncodePartialBody(const PartialState& p, std::string* body) {
+  body->clear();
+  ByteWriter bw(body);
+  EncodeBodyPrefix(p, bw);
   size_t hint = 0;
   for (const ReductionPartial& r : p.reductions) hint += r.encode_bytes_hint + 32;
   body->reserve(body->size() + hint);
@@ -78,7 +130,7 @@ void EncodePartialBody(const PartialState& p, std::string* body) {
     const size_t at = body->size();
     bw.U64(0);
     if (r.encode_groups)
-      r.encode_groups(bw);
+      r.encode_groups(bw, BodyProgress());
     else
       r.groups.Encode(bw);
     const uint64_t length = body->size() - at - 8;
@@ -86,7 +138,7 @@ void EncodePartialBody(const PartialState& p, std::string* body) {
   }
 }
 
-void EncodePartial(const PartialState& p, std::string* out) {
+void EncodePartial(const PartialState& p, std::string* out, BodyCompressor* compressor) {
   // The body and the compressed bytes go through buffers kept by the
   // thread from partial to partial: a many-group partial's (megabytes) were
   // allocated, page-faulted and zero-filled anew each time. Kept only up
@@ -95,13 +147,17 @@ void EncodePartial(const PartialState& p, std::string* out) {
   thread_local std::string body_buffer;
   thread_local std::string z_buffer;
   std::string& body = body_buffer;
-  EncodePartialBody(p, &body);
+  std::string_view z;
+  const bool streamed = compressor != nullptr && EncodeBodyCompressing(p, &body, compressor, &z);
+  if (!streamed) {
+    EncodePartialBody(p, &body);
+    z = body;
+  }
 
   // A small body is stored as it is: compressing it and decompressing it
   // again cost more than its bytes (thousands of tiny shards).
   const bool raw = body.size() < kRawBodyLimit;
-  std::string_view z = body;
-  if (!raw) {
+  if (!raw && !streamed) {
     const size_t bound = ZSTD_compressBound(body.size());
     if (z_buffer.size() < bound) z_buffer.resize(bound);  // never shrunk: no zero-fill next time
     const size_t zn = ZSTD_compressCCtx(Contexts().c, z_buffer.data(), bound, body.data(), body.size(), 1);

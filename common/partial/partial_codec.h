@@ -41,6 +41,7 @@
 #include <string_view>
 #include <vector>
 
+#include "common/partial/body_compressor.h"
 #include "common/partial/group_table.h"
 #include "common/input/record_reader.h"
 #include "common/base/format_version.h"
@@ -77,11 +78,16 @@ struct ReductionPartial {
   uint64_t kept = 0;  // records past the job's filter and the reduction's own
   GroupTable groups;
   // Set by a worker: writes its own table's encoding (WorkerGroupTable::
-  // Encode, the same layout) in place of `groups`'s.
-  std::function<void(ByteWriter&)> encode_groups;
+  // Encode, the same layout) in place of `groups`'s, reporting its progress
+  // to the BodyProgress when that is set (see body_compressor.h).
+  std::function<void(ByteWriter&, const BodyProgress&)> encode_groups;
   // About how many bytes encode_groups writes (0 = unknown): the body is
   // reserved once instead of growing by doubling, which copies it.
   size_t encode_bytes_hint = 0;
+  // Exactly how many bytes encode_groups writes, when known before it
+  // writes them (0 = not known): the body can then be compressed while it
+  // is written (EncodePartial with a BodyCompressor).
+  uint64_t encode_bytes_exact = 0;
   explicit ReductionPartial(const std::vector<MeasureConfig>* configs) : groups(configs) {}
 };
 
@@ -110,8 +116,11 @@ struct PartialState {
 uint64_t PathHash(std::string_view path);
 
 // Encodes p into *out (replacing its contents). zstd level 1: partials are
-// written once and read once, so speed beats ratio.
-void EncodePartial(const PartialState& p, std::string* out);
+// written once and read once, so speed beats ratio. With a compressor, a
+// body of at least BodyCompressor::kMinBytes whose reductions all know
+// their exact bytes (encode_bytes_exact) is compressed on its helper thread
+// while it is written; the bytes are the same either way.
+void EncodePartial(const PartialState& p, std::string* out, BodyCompressor* compressor = nullptr);
 
 // The body alone, before compression (samples, field counts, lookup
 // counts, then each reduction's kept count and group table).

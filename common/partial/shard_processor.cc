@@ -176,22 +176,46 @@ Status ShardProcessor::ProcessShard(const ShardTask& task, std::string* partial,
   state.samples = std::move(stats.samples);
   state.field_present = present.counts();
   Status merged;  // the first failure to read an overflow's runs back
+  // A table whose body may be compressed while it is written
+  // (encode_threaded; about BodyCompressor::kMinBytes or more) needs its
+  // exact length first: measured on the compressor's thread while this one
+  // deals the table's keys for its sort.
+  std::vector<std::unique_ptr<KeyOrderStretches>> orders;  // per reduction, when any is sized
+  std::vector<size_t> sized;  // reductions whose exact length is measured
+  for (size_t r = 0; r < state.reductions.size() && encode_threaded; ++r)
+    if (agg.overflow(r) == nullptr && agg.table(r).EncodedBytesHint() >= BodyCompressor::kMinBytes / 2) sized.push_back(r);
+  if (!sized.empty()) {
+    orders.resize(state.reductions.size());
+    if (!compressor_) compressor_ = std::make_unique<BodyCompressor>();
+    std::vector<const WorkerGroupTable*> tables;
+    for (size_t r : sized) {
+      tables.push_back(&agg.table(r));
+      tables.back()->Sync();  // the columns are not resized while both threads read
+    }
+    compressor_->Post([&tables, &sized, &state] {
+      for (size_t i = 0; i < sized.size(); ++i) state.reductions[sized[i]].encode_bytes_exact = tables[i]->EncodedBytes();
+    });
+    for (size_t i = 0; i < sized.size(); ++i) orders[sized[i]] = tables[i]->StartOrder();
+    compressor_->WaitPosted();
+  }
   for (size_t r = 0; r < state.reductions.size(); ++r) {
     state.reductions[r].kept = agg.kept_by(r);
     if (TableOverflow* o = agg.overflow(r)) {
-      state.reductions[r].encode_groups = [o, &merged](ByteWriter& w) {
+      state.reductions[r].encode_groups = [o, &merged](ByteWriter& w, const BodyProgress&) {
         if (Status e = o->Encode(w); !e.ok() && merged.ok()) merged = e;
       };
       state.reductions[r].encode_bytes_hint = o->encoded_bytes();
     } else {
       const WorkerGroupTable& table = agg.table(r);
       last_groups_[r] = table.group_count();
-      state.reductions[r].encode_groups = [&table](ByteWriter& w) { table.Encode(w); };
+      state.reductions[r].encode_groups = [&table, order = orders.empty() ? nullptr : orders[r].get()](ByteWriter& w, const BodyProgress& progress) {
+        table.Encode(w, progress, order);
+      };
       state.reductions[r].encode_bytes_hint = table.EncodedBytesHint();
     }
   }
   state.lookup_unmatched = agg.unmatched();
-  EncodePartial(state, partial);
+  EncodePartial(state, partial, sized.empty() ? nullptr : compressor_.get());
   if (!merged.ok()) return merged.WithContext(where);
   return Status::Ok();
 }

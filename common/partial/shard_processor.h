@@ -56,6 +56,12 @@ class ShardProcessor {
   // (common/input/decode_ahead.h): its blocks filled by a helper thread iff
   // ahead_threaded, else inline. Set before the first Process.
   bool ahead_threaded = false;
+  // A many-group partial's body is compressed on a helper thread while it
+  // is written (common/partial/body_compressor.h; the same bytes) iff
+  // encode_threaded: set, as decode ahead's "auto", when the workers on the
+  // machine are fewer than its hardware threads. The helper idles while
+  // records are read.
+  bool encode_threaded = false;
 
  private:
   // Process less the encoding time's stamp: sets *encode_from to when the
@@ -71,6 +77,7 @@ class ShardProcessor {
   // table is presized to it (shards of one job tend to be alike).
   std::vector<size_t> last_groups_;
   std::unique_ptr<BatchAggregator> agg_;   // made on the first shard, restarted for each
+  std::unique_ptr<BodyCompressor> compressor_;  // made on first use when encode_threaded
 };
 
 }  // namespace fanfold

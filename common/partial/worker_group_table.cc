@@ -48,6 +48,10 @@ uint32_t WorkerGroupTable::Add(std::string_view key, uint64_t hash) {
   keys_.push_back(key_bytes_.Add(key));
   index_.Insert(id, hash, keys_.size(), [this](uint32_t g) { return Hash(keys_[g]); });
   key_total_ += key.size();
+  for (size_t n = key.size(); ; n >>= 7) {
+    ++key_length_bytes_;
+    if (n < 0x80) break;
+  }
   if (budget_ > 0) {
     const size_t n = keys_.size();
     if (n > stable_until_ || index_.bucket_count() != synced_buckets_ || key_capacity_ != synced_key_capacity_)
@@ -65,7 +69,7 @@ void WorkerGroupTable::Clear() {
   for (const auto& c : columns_) c->Clear();
   column_groups_ = 0;
   base_bytes_ = per_group_ = stable_until_ = synced_buckets_ = synced_key_capacity_ = 0;
-  key_total_ = 0;
+  key_total_ = key_length_bytes_ = 0;
   full_ = false;
 }
 
@@ -83,10 +87,7 @@ void WorkerGroupTable::Resync() {
   synced_key_capacity_ = key_capacity_;
 }
 
-void WorkerGroupTable::Encode(ByteWriter& w) const {
-  SyncColumns();
-  w.Varint(keys_.size());
-  const std::vector<uint32_t> order = KeyOrder(keys_);
+bool WorkerGroupTable::Bounded() const {
   // With every column's states bounded (by kMaxBoundedState: one length
   // byte, and one fixed-size copy each), groups are written a block at a
   // time by pointer; else through EncodeGroup.
@@ -95,26 +96,57 @@ void WorkerGroupTable::Encode(ByteWriter& w) const {
     const size_t b = c->EncodeBound();
     bounded = bounded && b > 0 && b <= kMaxBoundedState;
   }
+  return bounded;
+}
+
+size_t WorkerGroupTable::EncodedBytes() const {
+  if (!Bounded()) return 0;
+  SyncColumns();
+  size_t bytes = 1;  // the group count's varint
+  for (size_t n = keys_.size(); n >= 0x80; n >>= 7) ++bytes;
+  bytes += key_length_bytes_ + key_total_;
+  for (const auto& c : columns_) bytes += keys_.size() + c->EncodedStateBytes(keys_.size());  // a length byte each
+  return bytes;
+}
+
+void WorkerGroupTable::Encode(ByteWriter& w, const BodyProgress& progress, KeyOrderStretches* order) const {
+  SyncColumns();
+  const bool bounded = Bounded();
+  if (bounded && progress) progress(w.size(), w.size() + kMaxVarintBytes);
+  w.Varint(keys_.size());
   if (bounded) {
-    EncodeBounded(order, w);
+    if (order != nullptr) {
+      EncodeBounded(*order, w, progress);
+    } else {
+      KeyOrderStretches stretches(keys_);
+      EncodeBounded(stretches, w, progress);
+    }
     return;
+  }
+  std::vector<uint32_t> sorted;
+  if (order != nullptr) {
+    order->SortAtLeast(keys_.size());
+    sorted = order->TakeIds();
+  } else {
+    sorted = KeyOrder(keys_);
   }
   // Groups go out in key order, scattered in memory: their key bytes and
   // states are fetched a few groups ahead (the states one step later, as
   // the key's bytes wait on its view).
   constexpr size_t kAhead = 8;
-  for (size_t i = 0; i < order.size(); ++i) {
-    if (i + 2 * kAhead < order.size()) __builtin_prefetch(&keys_[order[i + 2 * kAhead]]);
-    if (i + kAhead < order.size()) {
-      const uint32_t ahead = order[i + kAhead];
+  for (size_t i = 0; i < sorted.size(); ++i) {
+    if (i + 2 * kAhead < sorted.size()) __builtin_prefetch(&keys_[sorted[i + 2 * kAhead]]);
+    if (i + kAhead < sorted.size()) {
+      const uint32_t ahead = sorted[i + kAhead];
       __builtin_prefetch(keys_[ahead].data());
       for (const auto& c : columns_) c->Prefetch(ahead);
     }
-    EncodeGroup(order[i], w);
+    EncodeGroup(sorted[i], w);
   }
 }
 
-void WorkerGroupTable::EncodeBounded(const std::vector<uint32_t>& order, ByteWriter& w) const {
+void WorkerGroupTable::EncodeBounded(KeyOrderStretches& stretches, ByteWriter& w,
+                                     const BodyProgress& progress) const {
   // EncodeGroup's bytes: the key behind its varint length, then each state
   // behind its length (one byte: every bound is below 0x80). Per block of
   // groups, each column writes its states into a scratch of its own (one
@@ -135,9 +167,11 @@ void WorkerGroupTable::EncodeBounded(const std::vector<uint32_t>& order, ByteWri
   char* p = out.data() + used;
   char* limit = p;
   constexpr size_t kAhead = 8;
-  const size_t n = order.size();
+  const size_t n = keys_.size();
+  const std::vector<uint32_t>& order = stretches.ids();
   for (size_t b = 0; b < n; b += kBlock) {
     const size_t k = std::min(kBlock, n - b);
+    stretches.SortAtLeast(std::min(n, b + k + 2 * kAhead));  // the block and what is fetched ahead
     for (size_t c = 0; c < m; ++c) columns_[c]->EncodeRangeTo(&order[b], k, scratch[c].data(), &ends[c * (kBlock + 1) + 1]);
     for (size_t i = b; i < b + k; ++i) {
       if (i + 2 * kAhead < n) __builtin_prefetch(&keys_[order[i + 2 * kAhead]]);
@@ -145,7 +179,12 @@ void WorkerGroupTable::EncodeBounded(const std::vector<uint32_t>& order, ByteWri
       const std::string_view key = keys_[order[i]];
       if (static_cast<size_t>(limit - p) < per_group + key.size()) {
         used = static_cast<size_t>(p - out.data());
-        out.resize(used + std::max(per_group + key.size(), kPiece));
+        // A piece, but not past the reserved capacity when this group fits.
+        const size_t need = per_group + key.size();
+        const size_t room = out.capacity() - used;
+        const size_t grow_to = used + std::max(need, std::min(kPiece, room));
+        if (progress) progress(used, grow_to);
+        out.resize(grow_to);
         p = out.data() + used;
         limit = out.data() + out.size();
       }

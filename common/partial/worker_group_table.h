@@ -39,8 +39,10 @@
 
 #include "common/base/byte_io.h"
 #include "common/measures/measure.h"
+#include "common/partial/body_compressor.h"
 #include "common/partial/group_index.h"
 #include "common/partial/key_arena.h"
+#include "common/partial/key_order.h"
 #include "common/partial/measure_column.h"
 
 namespace fanfold {
@@ -100,8 +102,22 @@ class WorkerGroupTable {
   }
 
   // Appends the table's encoding: GroupTable::Encode's layout, groups in
-  // strictly ascending key-byte order.
-  void Encode(ByteWriter& w) const;
+  // strictly ascending key-byte order. When the states are bounded (see
+  // EncodedBytes), `progress` (if set) hears before each growth of w's
+  // buffer how many of its bytes are final (body_compressor.h).
+  // `order`, when given, is this table's KeyOrderStretches (made by
+  // StartOrder, none of it taken yet): the caller dealt the keys meanwhile.
+  void Encode(ByteWriter& w, const BodyProgress& progress = BodyProgress(), KeyOrderStretches* order = nullptr) const;
+  // The key order Encode would start with (its deal into buckets done).
+  std::unique_ptr<KeyOrderStretches> StartOrder() const { return std::make_unique<KeyOrderStretches>(keys_); }
+  // Exactly how many bytes Encode writes, when every column's states are
+  // bounded (one pass over the states in group order, not the key sort);
+  // else 0. Reads the keys only as StartOrder does, so the two may run on
+  // two threads at once once Sync was called.
+  size_t EncodedBytes() const;
+  // Gives every column a state for every group (Encode and EncodedBytes
+  // do it first).
+  void Sync() const { SyncColumns(); }
   // The group ids in Encode's order (ascending key bytes).
   std::vector<uint32_t> SortedGroups() const;
   // Appends group g as Encode writes it: the key, then each measure's state
@@ -135,7 +151,9 @@ class WorkerGroupTable {
 
   // Encode's groups, in `order`, when every column has an EncodeBound of at
   // most kMaxBoundedState: written a block at a time by pointer.
-  void EncodeBounded(const std::vector<uint32_t>& order, ByteWriter& w) const;
+  // The key order is sorted a stretch at a time as the groups are written.
+  void EncodeBounded(KeyOrderStretches& order, ByteWriter& w, const BodyProgress& progress) const;
+  bool Bounded() const;
   static constexpr size_t kMaxBoundedState = 64;
 
   // FindOrAdd of a key the index does not hold.
@@ -166,6 +184,7 @@ class WorkerGroupTable {
   size_t synced_buckets_ = 0;
   size_t synced_key_capacity_ = 0;  // key_capacity_ at the last Resync
   size_t key_total_ = 0;  // bytes of every key
+  size_t key_length_bytes_ = 0;  // bytes of every key's varint length
   size_t budget_ = 0;     // 0 = none
   bool full_ = false;
 };

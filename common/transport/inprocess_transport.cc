@@ -5,6 +5,7 @@ namespace fanfold {
 InProcessTransport::InProcessTransport(const Plan* plan, int workers) : processor_(plan), busy_(workers, false) {
   // One thread runs the shards, whatever the worker count: "auto" counts it as one.
   processor_.ahead_threaded = AheadThreaded(plan->spec.decode_ahead, 1);
+  processor_.encode_threaded = AheadThreaded(AheadChoice::kAuto, 1);
 }
 
 Status InProcessTransport::Assign(int w, const ShardTask& task) {

@@ -5,6 +5,7 @@
 #include <doctest/doctest.h>
 #include <stdlib.h>
 
+#include <cstring>
 #include <filesystem>
 #include <fstream>
 #include <string>
@@ -30,15 +31,15 @@ std::unique_ptr<Plan> CompileJob(const std::string& measures, bool bare = false)
   return std::move(plan.value());
 }
 
-// A temporary NDJSON file of n records {"k":"g<i%5>","v":i}, removed at the end.
+// A temporary NDJSON file of n records {"k":"g<i%groups>","v":i}, removed at the end.
 struct TempShard {
-  explicit TempShard(int n) {
+  explicit TempShard(int n, int groups = 5) {
     char tmpl[] = "/tmp/fanfold-shard-processor-test-XXXXXX";
     int fd = mkstemp(tmpl);
     REQUIRE(fd >= 0);
     close(fd);
     path = tmpl;
-    for (int i = 0; i < n; ++i) text += R"({"k":"g)" + std::to_string(i % 5) + R"(","v":)" + std::to_string(i) + "}\n";
+    for (int i = 0; i < n; ++i) text += R"({"k":"g)" + std::to_string(i % groups) + R"(","v":)" + std::to_string(i) + "}\n";
     REQUIRE(WriteFileAtomic(path, text).ok());
   }
   ~TempShard() { unlink(path.c_str()); }
@@ -158,4 +159,35 @@ TEST_CASE("shard processor: per-field present counts reach the partial") {
   CHECK(q.header.records == 700);
   CHECK(q.field_present == std::vector<uint64_t>{700, 0, 234});
   std::filesystem::remove_all(dir);
+}
+
+// Intent: a worker with a spare core (encode_threaded: the body compressed on
+// a helper thread while it is written) writes the very partial a worker
+// without one writes — but for the measured times in the header — for a
+// many-group shard (a body of megabytes) and a small one, shard after shard.
+TEST_CASE("shard processor: the partial is the same with and without the encode helper thread") {
+  std::unique_ptr<Plan> plan = CompileJob(R"({"name": "n", "fn": "count"}, {"name": "s", "fn": "sum", "of": "{/v}"})");
+  TempShard many(150000, 70000);
+  TempShard few(3000);
+  ShardProcessor inline_processor(plan.get());
+  ShardProcessor threaded(plan.get());
+  threaded.encode_threaded = true;
+  for (const TempShard* shard : {&many, &few, &many}) {
+    ShardTask task;
+    task.path = shard->path;
+    std::string a;
+    std::string b;
+    REQUIRE(inline_processor.Process(task, &a).ok());
+    REQUIRE(threaded.Process(task, &b).ok());
+    REQUIRE(a.size() == b.size());
+    // Bytes [120, 160) are the four phase times and the checksum over them.
+    CHECK(a.substr(0, 120) == b.substr(0, 120));
+    CHECK(a.substr(kPartialHeaderSize) == b.substr(kPartialHeaderSize));
+    PartialHeader h;
+    CHECK(DecodePartialHeader(b, &h).ok());
+    uint64_t raw_len = 0;  // the body's length before compression, at offset 104
+    std::memcpy(&raw_len, b.data() + 104, 8);
+    if (shard == &many) CHECK(raw_len > BodyCompressor::kMinBytes);  // the one streamed
+    else CHECK(raw_len < BodyCompressor::kMinBytes);
+  }
 }

@@ -144,6 +144,8 @@ TEST_CASE("worker_group_table: encodes GroupTable's bytes for every measure kind
     flush();
     CHECK(table.group_count() == reference.group_count());
     CHECK(Encoded(table) == Encoded(reference));
+    // EncodedBytes is exact for bounded states (count, sum), else 0.
+    CHECK(table.EncodedBytes() == (m == 4 ? Encoded(table).size() : 0));
   }
 }
 
