@@ -21,37 +21,13 @@
 namespace fanfold {
 namespace {
 
-std::unique_ptr<Plan> SpillPlan() {
-  const char* job = R"({"inputs": {"files": ["x.ndjson"]}, "group": ["{/k}"],
-    "measures": [{"name": "n", "fn": "count"}, {"name": "s", "fn": "sum", "of": "{/v}"},
-                 {"name": "q", "fn": "ddsketch", "of": "{/v}", "at": [0.5]}]})";
-  Result<JobSpec> spec = ParseJobSpec(job, "test.json");
-  REQUIRE(spec.ok());
-  Result<std::unique_ptr<Plan>> plan = CompilePlan(std::move(*spec), RecordFormat::kNdjson);
-  REQUIRE(plan.ok());
-  return std::move(*plan);
-}
-
 // Shard s: 1,500 groups, keys s*700 .. s*700+1499 (overlapping the next
 // shard's by 800), values
 // whose float sum depends on the merge order.
 std::string BigPartial(const Plan& plan, uint32_t shard) {
-  std::vector<MeasureConfig> configs;
-  for (const auto& m : plan.reductions[0].measures) configs.push_back(m.config);
-  PartialState p(&configs);
-  p.header.fingerprint = plan.fingerprint;
-  p.header.shard_index = shard;
-  p.header.records = 1500;
-  for (int g = 0; g < 1500; ++g) {
-    std::string key;
-    AppendKeyValue(Value::Number(static_cast<double>(shard * 700 + g)), &key);
-    MeasureState* const* states = p.reductions[0].groups.FindOrAdd(key);
-    const Value v = Value::Number(shard % 2 == 0 ? 1e16 : 1.0 + shard * 0.1 + g);
-    for (size_t m = 0; m < configs.size(); ++m) states[m]->Add(&v);
-  }
-  std::string out;
-  EncodePartial(p, &out);
-  return out;
+  return MadePartial(
+      plan, shard, 1500, [&](int g) { return static_cast<double>(shard * 700 + g); },
+      [&](int g) { return Value::Number(shard % 2 == 0 ? 1e16 : 1.0 + shard * 0.1 + g); });
 }
 
 // A file that counts how many of its kind are open at once.
@@ -89,7 +65,7 @@ size_t FilesIn(const std::string& dir) {
 // the merger, the folder (and a stale file a killed run left) with the
 // SpillFolder.
 TEST_CASE("merger: spilled runs give the in-memory tables' bytes and leave no file") {
-  const auto plan = SpillPlan();
+  const auto plan = CountSumSketchPlan();
   const uint32_t n = 10;
   std::map<uint32_t, std::string> disk;
   for (uint32_t s = 0; s < n; ++s) disk[s] = BigPartial(*plan, s);
@@ -141,7 +117,7 @@ TEST_CASE("merger: spilled runs give the in-memory tables' bytes and leave no fi
 // than RunResults::kMaxBatchPartials, and batches do grow to that rule (the
 // runs are not rewritten once per shard); a tiny share folds one at a time.
 TEST_CASE("merger: batches streamed from a pack keep the bytes and the open-file rule") {
-  const auto plan = SpillPlan();
+  const auto plan = CountSumSketchPlan();
   const uint32_t n = 200;
   std::string pack;
   std::vector<std::pair<uint64_t, uint64_t>> where(n);  // offset, length
@@ -202,7 +178,7 @@ TEST_CASE("merger: batches streamed from a pack keep the bytes and the open-file
 // Intent: the estimate that decides between tables and runs grows with
 // groups and measures (it is what the share is compared with).
 TEST_CASE("merger: the tables' estimated bytes follow groups and measures") {
-  const auto plan = SpillPlan();
+  const auto plan = CountSumSketchPlan();
   Merger m(plan.get(), 2);
   m.SetRunThreshold(0, 1);
   CHECK(m.EstimatedTableBytes() == 0);
@@ -216,7 +192,7 @@ TEST_CASE("merger: the tables' estimated bytes follow groups and measures") {
 // merge with a message naming the file, and Finish reports it instead of a
 // result; no crash, no partial result.
 TEST_CASE("merger: a spill file that cannot be written is an error, not a crash") {
-  const auto plan = SpillPlan();
+  const auto plan = CountSumSketchPlan();
   MemoryPlatform disk;
   disk.SetSpaceLeft(1000);
   Result<std::unique_ptr<SpillFolder>> folder = SpillFolder::Open("/run/merge", disk);

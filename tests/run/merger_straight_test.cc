@@ -21,37 +21,13 @@
 namespace fanfold {
 namespace {
 
-std::unique_ptr<Plan> StraightPlan() {
-  const char* job = R"({"inputs": {"files": ["x.ndjson"]}, "group": ["{/k}"],
-    "measures": [{"name": "n", "fn": "count"}, {"name": "s", "fn": "sum", "of": "{/v}"},
-                 {"name": "q", "fn": "ddsketch", "of": "{/v}", "at": [0.5]}]})";
-  Result<JobSpec> spec = ParseJobSpec(job, "test.json");
-  REQUIRE(spec.ok());
-  Result<std::unique_ptr<Plan>> plan = CompilePlan(std::move(*spec), RecordFormat::kNdjson);
-  REQUIRE(plan.ok());
-  return std::move(*plan);
-}
-
 // Shard s: 300 groups over keys shared with nearby shards (key (7g + 131s)
 // mod 3000), values whose sum's rounding depends on the merge order; every
 // fifth value is text (skipped by the sum).
 std::string OverlappingPartial(const Plan& plan, uint32_t shard) {
-  std::vector<MeasureConfig> configs;
-  for (const auto& m : plan.reductions[0].measures) configs.push_back(m.config);
-  PartialState p(&configs);
-  p.header.fingerprint = plan.fingerprint;
-  p.header.shard_index = shard;
-  p.header.records = 300;
-  for (int g = 0; g < 300; ++g) {
-    std::string key;
-    AppendKeyValue(Value::Number(static_cast<double>((7 * g + 131 * static_cast<int>(shard)) % 3000)), &key);
-    MeasureState* const* states = p.reductions[0].groups.FindOrAdd(key);
-    const Value v = g % 5 == 4 ? Value::String("none") : Value::Number(shard % 2 == 0 ? 1e16 : 0.1 * g + shard);
-    for (size_t m = 0; m < configs.size(); ++m) states[m]->Add(&v);
-  }
-  std::string out;
-  EncodePartial(p, &out);
-  return out;
+  return MadePartial(
+      plan, shard, 300, [&](int g) { return static_cast<double>((7 * g + 131 * static_cast<int>(shard)) % 3000); },
+      [&](int g) { return g % 5 == 4 ? Value::String("none") : Value::Number(shard % 2 == 0 ? 1e16 : 0.1 * g + shard); });
 }
 
 // `good` again with its body one byte short, stored raw, lengths and
@@ -114,7 +90,7 @@ std::string StraightText(Merger& m, const Plan& plan, bool* refold) {
 // at 1, 2, 3 and 7 key ranges; afterwards nothing may walk the result
 // again; without the straight walk, VisitRows folds the waiting batch itself.
 TEST_CASE("merger: the last fold straight into rows equals the usual path") {
-  const auto plan = StraightPlan();
+  const auto plan = CountSumSketchPlan();
   const uint32_t n = 10;
   std::map<uint32_t, std::string> disk;
   for (uint32_t s = 0; s < n; ++s) disk[s] = OverlappingPartial(*plan, s);
@@ -161,7 +137,7 @@ TEST_CASE("merger: the last fold straight into rows equals the usual path") {
 // it, and folds the rest to exactly the result without that shard —
 // whichever partial of the batch it is and over 1, 2 and 3 key ranges.
 TEST_CASE("merger: a partial found bad in the straight walk is folded away") {
-  const auto plan = StraightPlan();
+  const auto plan = CountSumSketchPlan();
   const uint32_t n = 14;
   std::map<uint32_t, std::string> disk;
   for (uint32_t s = 0; s < n; ++s) disk[s] = OverlappingPartial(*plan, s);

@@ -20,17 +20,6 @@
 namespace fanfold {
 namespace {
 
-std::unique_ptr<Plan> TestPlan() {
-  const char* job = R"({"inputs": {"files": ["x.ndjson"]}, "group": ["{/k}"],
-    "measures": [{"name": "n", "fn": "count"}, {"name": "s", "fn": "sum", "of": "{/v}"},
-                 {"name": "q", "fn": "ddsketch", "of": "{/v}", "at": [0.5]}]})";
-  Result<JobSpec> spec = ParseJobSpec(job, "test.json");
-  REQUIRE(spec.ok());
-  Result<std::unique_ptr<Plan>> plan = CompilePlan(std::move(*spec), RecordFormat::kNdjson);
-  REQUIRE(plan.ok());
-  return std::move(*plan);
-}
-
 // The measure configs of the plan's one reduction.
 std::vector<MeasureConfig> ConfigsOf(const Plan& plan) {
   std::vector<MeasureConfig> configs;
@@ -61,7 +50,7 @@ std::string PartialFor(const Plan& plan, uint32_t shard, int pad = 0) {
 // Intent: any arrival order gives the same bytes as shard order, with and
 // without a reloader (early partials then come back from the "disk").
 TEST_CASE("merger: arrival order does not change the result") {
-  const auto plan = TestPlan();
+  const auto plan = CountSumSketchPlan();
   const uint32_t n = 12;
   std::map<uint32_t, std::string> disk;
   for (uint32_t s = 0; s < n; ++s) disk[s] = PartialFor(*plan, s);
@@ -100,7 +89,7 @@ std::string WrapBody(const std::string& like, const std::string& body) {
 // last group cut short) is reported as a late failure and leaves the result
 // exactly as if that shard had failed: none of its good groups are merged.
 TEST_CASE("merger: a malformed body costs only its shard") {
-  const auto plan = TestPlan();
+  const auto plan = CountSumSketchPlan();
   std::vector<std::string> parts;
   for (uint32_t s = 0; s < 4; ++s) parts.push_back(PartialFor(*plan, s));
   Merger without(plan.get(), 4);
@@ -133,7 +122,7 @@ TEST_CASE("merger: a malformed body costs only its shard") {
 // out exactly as if that shard had failed, whether it was found first, in
 // the middle or last, and in any arrival order.
 TEST_CASE("merger: a malformed body found midway is rebuilt away with a reloader") {
-  const auto plan = TestPlan();
+  const auto plan = CountSumSketchPlan();
   const uint32_t n = 6;
   std::map<uint32_t, std::string> disk;
   for (uint32_t s = 0; s < n; ++s) disk[s] = PartialFor(*plan, s, /*pad=*/3);
@@ -223,7 +212,7 @@ TEST_CASE("merger: a malformed body found midway is rebuilt away with a reloader
 // any arrival order, and a forged partial in a batch is dropped there
 // alone: the result is exactly that of the other shards.
 TEST_CASE("merger: results folded as sorted runs equal the in-memory tables") {
-  const auto plan = TestPlan();
+  const auto plan = CountSumSketchPlan();
   const uint32_t n = 9;
   std::map<uint32_t, std::string> disk;
   for (uint32_t s = 0; s < n; ++s) disk[s] = PartialFor(*plan, s, /*pad=*/static_cast<int>(s % 3));
@@ -270,7 +259,7 @@ TEST_CASE("merger: results folded as sorted runs equal the in-memory tables") {
 // the waiting budget; past it they wait on disk, and their buffers are
 // released, not just emptied (clear() keeps the capacity).
 TEST_CASE("merger: early partials past the budget wait on disk, not in memory") {
-  const auto plan = TestPlan();
+  const auto plan = CountSumSketchPlan();
   const uint32_t n = 401;
   const std::string one = PartialFor(*plan, 1, 3000);  // ~3.5 KB encoded (integer group keys compress well)
   REQUIRE(one.size() > 3000);
@@ -302,7 +291,7 @@ TEST_CASE("merger: early partials past the budget wait on disk, not in memory") 
 // shards (reused ones come through Add as well), and a partial without the
 // counts makes them unknown rather than wrong.
 TEST_CASE("merger: per-field present counts add up over shards") {
-  const auto plan = TestPlan();  // raw fields {/k}, {/v}
+  const auto plan = CountSumSketchPlan();  // raw fields {/k}, {/v}
   const std::vector<MeasureConfig> configs = ConfigsOf(*plan);
   const auto partial = [&](uint32_t shard, std::vector<uint64_t> present) {
     PartialState p(&configs);
@@ -338,7 +327,7 @@ namespace fanfold {
 // finds it (with a reloader: the result is rebuilt without it) and when
 // every partial is checked first (without one).
 TEST_CASE("merger: the tables merged on several threads give one thread's result") {
-  const auto plan = TestPlan();
+  const auto plan = CountSumSketchPlan();
   const uint32_t n = 6;
   std::map<uint32_t, std::string> disk;
   for (uint32_t s = 0; s < n; ++s) disk[s] = PartialFor(*plan, s, /*pad=*/9000 + static_cast<int>(s));
