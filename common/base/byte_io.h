@@ -50,6 +50,12 @@ class ByteWriter {
 // a buffer it sized): the same bytes ByteWriter's Varint and U64 append.
 // Each returns the end of what it wrote.
 inline constexpr size_t kMaxVarintBytes = 10;  // a varint of a uint64_t
+// The bytes PutVarint (and ByteWriter::Varint) write for v.
+inline size_t VarintBytes(uint64_t v) {
+  size_t n = 1;
+  for (; v >= 0x80; v >>= 7) ++n;
+  return n;
+}
 inline char* PutVarint(char* out, uint64_t v) {
   while (v >= 0x80) {
     *out++ = static_cast<char>(static_cast<uint8_t>(v) | 0x80);

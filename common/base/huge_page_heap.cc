@@ -35,8 +35,12 @@ constexpr uintptr_t kThreadHeapBytes = uintptr_t{64} << 20;
 // glibc's largest dynamic mmap threshold (DEFAULT_MMAP_THRESHOLD_MAX on
 // 64-bit builds, malloc/malloc.c).
 constexpr int kMmapThreshold = 32 << 20;
-// glibc's default M_TOP_PAD (DEFAULT_TOP_PAD, malloc/malloc.c).
+// glibc's defaults of M_TOP_PAD, M_TRIM_THRESHOLD and M_MMAP_THRESHOLD
+// (DEFAULT_TOP_PAD, DEFAULT_TRIM_THRESHOLD, DEFAULT_MMAP_THRESHOLD_MIN,
+// malloc/malloc.c).
 constexpr int kDefaultTopPad = 128 << 10;
+constexpr int kDefaultTrimThreshold = 128 << 10;
+constexpr int kDefaultMmapThreshold = 128 << 10;
 
 bool MadviseMode() {
   std::ifstream in("/sys/kernel/mm/transparent_hugepage/enabled");
@@ -68,10 +72,19 @@ uint64_t ReserveAndAdvise() {
   // from 128 KiB as big blocks are freed: it is fixed where it would end,
   // so big buffers made again and again (a partial's bytes) come from the
   // heap, already backed, not from fresh mappings each time.
+  // Whatever fails below puts malloc's defaults back (the threshold then
+  // stays at its starting 128 KiB instead of climbing), and with trimming
+  // on again an unused span goes back to the system at the next free.
+  auto give_up = [] {
+    (void)mallopt(M_TOP_PAD, kDefaultTopPad);
+    (void)mallopt(M_TRIM_THRESHOLD, kDefaultTrimThreshold);
+    (void)mallopt(M_MMAP_THRESHOLD, kDefaultMmapThreshold);
+    return uint64_t{0};
+  };
   if (mallopt(M_MMAP_THRESHOLD, kMmapThreshold) == 0 ||
       mallopt(M_TRIM_THRESHOLD, std::numeric_limits<int>::max()) == 0 ||  // above the span: never trimmed off
       mallopt(M_TOP_PAD, static_cast<int>(kHugePageHeapReserveBytes)) == 0)
-    return 0;
+    return give_up();
   std::vector<void*> held;
   for (int i = 0; i < 256 && reinterpret_cast<uintptr_t>(sbrk(0)) == before; ++i) {
     void* p = std::malloc(size_t{64} << 10);
@@ -81,10 +94,10 @@ uint64_t ReserveAndAdvise() {
   for (void* p : held) std::free(p);
   (void)mallopt(M_TOP_PAD, kDefaultTopPad);
   const uintptr_t after = reinterpret_cast<uintptr_t>(sbrk(0));
-  if (after == static_cast<uintptr_t>(-1) || after <= before) return 0;  // the break did not move: nothing to advise
+  if (after == static_cast<uintptr_t>(-1) || after <= before) return give_up();  // the break did not move
   const uintptr_t lo = (before + kHugePage - 1) & ~(kHugePage - 1);
   const uintptr_t hi = after & ~(kHugePage - 1);
-  if (hi <= lo || madvise(reinterpret_cast<void*>(lo), hi - lo, MADV_HUGEPAGE) != 0) return 0;
+  if (hi <= lo || madvise(reinterpret_cast<void*>(lo), hi - lo, MADV_HUGEPAGE) != 0) return give_up();
   TheState().main_hi = after;
   return hi - lo;
 }

@@ -18,6 +18,9 @@ namespace fanfold {
 namespace {
 
 static_assert(std::is_trivially_copyable_v<Value>, "slots are reset by one memcpy");
+// ZeroIsMissing compares Value member by member: a member added to Value
+// (a size other than these 40 bytes) must be added to that comparison too.
+static_assert(sizeof(Value) == 40, "compare the new member of Value in ZeroIsMissing");
 
 // Why a line is not a record, in our words: the column and what was
 // expected (JsonLineSyntaxProblem), or, for a line that is JSON by RFC 8259

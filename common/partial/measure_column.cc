@@ -84,9 +84,8 @@ class CountColumn final : public MeasureColumn {
                 [this](uint32_t g) { __builtin_prefetch(&n_[g]); });
   }
   size_t EncodedStateBytes(size_t groups) const override {
-    size_t bytes = groups;  // a varint of at least one byte each
-    for (size_t g = 0; g < groups; ++g)
-      for (uint64_t v = n_[g]; v >= 0x80; v >>= 7) ++bytes;
+    size_t bytes = 0;
+    for (size_t g = 0; g < groups; ++g) bytes += VarintBytes(n_[g]);
     return bytes;
   }
   void Prefetch(uint32_t g) const override { __builtin_prefetch(&n_[g]); }

@@ -72,12 +72,6 @@ void EncodeBodyPrefix(const PartialState& p, ByteWriter& bw) {
   bw.Varint(p.reductions.size());
 }
 
-size_t VarintBytes(uint64_t v) {
-  size_t n = 1;
-  for (; v >= 0x80; v >>= 7) ++n;
-  return n;
-}
-
 // EncodePartialBody's bytes written into *body while c compresses them into
 // *frame. False (nothing compressed; the body is to be written again) when
 // a reduction's length is not known beforehand, the body is shorter than

@@ -48,10 +48,7 @@ uint32_t WorkerGroupTable::Add(std::string_view key, uint64_t hash) {
   keys_.push_back(key_bytes_.Add(key));
   index_.Insert(id, hash, keys_.size(), [this](uint32_t g) { return Hash(keys_[g]); });
   key_total_ += key.size();
-  for (size_t n = key.size(); ; n >>= 7) {
-    ++key_length_bytes_;
-    if (n < 0x80) break;
-  }
+  key_length_bytes_ += VarintBytes(key.size());
   if (budget_ > 0) {
     const size_t n = keys_.size();
     if (n > stable_until_ || index_.bucket_count() != synced_buckets_ || key_capacity_ != synced_key_capacity_)
@@ -102,9 +99,7 @@ bool WorkerGroupTable::Bounded() const {
 size_t WorkerGroupTable::EncodedBytes() const {
   if (!Bounded()) return 0;
   SyncColumns();
-  size_t bytes = 1;  // the group count's varint
-  for (size_t n = keys_.size(); n >= 0x80; n >>= 7) ++bytes;
-  bytes += key_length_bytes_ + key_total_;
+  size_t bytes = VarintBytes(keys_.size()) + key_length_bytes_ + key_total_;  // the group count, the keys
   for (const auto& c : columns_) bytes += keys_.size() + c->EncodedStateBytes(keys_.size());  // a length byte each
   return bytes;
 }
@@ -123,13 +118,12 @@ void WorkerGroupTable::Encode(ByteWriter& w, const BodyProgress& progress, KeyOr
     }
     return;
   }
-  std::vector<uint32_t> sorted;
-  if (order != nullptr) {
-    order->SortAtLeast(keys_.size());
-    sorted = order->TakeIds();
-  } else {
-    sorted = KeyOrder(keys_);
-  }
+  // The order's ids are read, not taken: an Encode again (a fallback's
+  // second writing) finds them still there.
+  std::vector<uint32_t> own;
+  if (order != nullptr) order->SortAtLeast(keys_.size());
+  else own = KeyOrder(keys_);
+  const std::vector<uint32_t>& sorted = order != nullptr ? order->ids() : own;
   // Groups go out in key order, scattered in memory: their key bytes and
   // states are fetched a few groups ahead (the states one step later, as
   // the key's bytes wait on its view).

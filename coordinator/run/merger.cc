@@ -85,7 +85,9 @@ void Merger::Drain() {
       std::unique_ptr<OpenedPartial>& opened;
       std::string& keep;
       ~ReturnBody() {
-        if (opened) keep.swap(opened->body);
+        // Kept up to 64 MiB, as the workers' encode buffers: one huge
+        // partial does not pin its memory outside the merge's share.
+        if (opened && opened->body.capacity() <= (size_t{64} << 20)) keep.swap(opened->body);
       }
     } return_body{opened, body_buffer_};
     std::string bytes = std::move(it->second);
@@ -174,6 +176,7 @@ bool Merger::LastFoldWaits() const {
 }
 
 void Merger::DeferLastFold() {
+  if (deferred_) return;  // the batch is counted once
   // Counted now as if every partial folds, so the totals read before the
   // output stage are the run's; a fold that fails restores these first.
   saved_totals_ = totals_;

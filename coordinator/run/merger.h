@@ -135,11 +135,6 @@ class Merger {
   bool in_runs() const { return runs_ != nullptr; }
   // The runs, once in_runs(): their size, whether spilled, how many folds.
   const RunResults* runs() const { return runs_.get(); }
-  // Walks reduction r's finished groups in ascending key order (each
-  // key's states as encoded bytes, one per measure), for a streaming output
-  // stage. REQUIRES: complete(), in_runs(); valid while the merger lives.
-  RunCursor FinalGroups(size_t r) const { return runs_->Cursor(r); }
-
   // True iff every shard was added or marked failed.
   bool complete() const { return next_ == shard_count_; }
   const MergeTotals& totals() const { return totals_; }

@@ -54,8 +54,11 @@ TEST_CASE("huge page heap: the heap's top is THP-eligible once advised") {
   // whole pages only).
   const uintptr_t end = reinterpret_cast<uintptr_t>(sbrk(0));
   const uintptr_t last_page_end = end & ~((uintptr_t{2} << 20) - 1);
-  CHECK(ThpEligibleAt(last_page_end - 1) == 1);
-  CHECK(ThpEligibleAt(last_page_end - (uintptr_t{2} << 20)) == 1);
+  // THPeligible is in smaps from Linux 5.0 on (-1: the field is absent, nothing to read).
+  if (ThpEligibleAt(last_page_end - 1) != -1) {
+    CHECK(ThpEligibleAt(last_page_end - 1) == 1);
+    CHECK(ThpEligibleAt(last_page_end - (uintptr_t{2} << 20)) == 1);
+  }
   // Blocks from the advised heap hold what is written to them.
   char* block = static_cast<char*>(std::malloc(size_t{4} << 20));
   REQUIRE(block != nullptr);

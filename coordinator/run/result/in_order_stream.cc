@@ -198,6 +198,7 @@ Status StreamPiecesInOrder(Merger& merger, const Plan& plan, size_t r, const std
   });
   bool in_order = true;
   Status written;
+  bool write_failed = false;  // written is a stop or a sink's error, not a piece's
   uint64_t before = 0;      // rows of the pieces before
   std::string last_cells;  // the last row's so far
   for (size_t p = 0; p < pieces && in_order && written.ok(); ++p) {
@@ -208,7 +209,10 @@ Status StreamPiecesInOrder(Merger& merger, const Plan& plan, size_t r, const std
       if (t.should_stop && t.should_stop()) written = StopStatus();  // a poll every chunk
       for (size_t c = 0; c < copies && written.ok(); ++c) written = files.copies[c].sink(chunk[c]);
     }
-    if (!written.ok()) break;
+    if (!written.ok()) {
+      write_failed = true;
+      break;
+    }
     const PieceOutput& po = *outs[p];
     if (po.broke_at > 0) {
       in_order = false;
@@ -226,6 +230,7 @@ Status StreamPiecesInOrder(Merger& merger, const Plan& plan, size_t r, const std
   }
   queue.Close();  // walks still going stop at their next chunk
   walker.join();
+  if (write_failed) return written;    // a stop or a full disk comes first: no refold to redo it
   if (*refold) return Status::Ok();    // files drops the temporaries
   if (!in_order) return Status::Ok();  // likewise
   FF_RETURN_IF_ERROR(written);

@@ -1,6 +1,6 @@
 // The files a result is written to (coordinator/run/result/result_stream.h): the
 // run directory's copy and the shown file, both temporaries (StagedFile)
-// renamed into place only by PublishResultFiles, the run directory's
+// renamed into place only by PublishFiles, the run directory's
 // first; dropped unpublished, they remove their temporaries, so a result
 // that fails half-way leaves nothing of itself. Helpers of the output
 // stage; coordinator main thread only.

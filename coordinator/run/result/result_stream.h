@@ -12,7 +12,8 @@
 // is above the last: when the merge's key-byte order is the result's
 // (fixed-width text keys, for one) nothing is sorted. The first row out
 // of order drops those files unpublished and the rows are walked again
-// through the ordering above (at most one walk wasted). On that path the
+// through the ordering above (at most one walk wasted, after a last fold
+// straight into the output also that fold, done again). On that path the
 // merge's walk (decode, finalize, rows step) runs on a thread of its own,
 // handing rows in batches (RowPipe) to this one, which orders and writes;
 // for CSV and NDJSON over a run of several pieces, each piece is walked,
