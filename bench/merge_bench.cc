@@ -29,7 +29,6 @@
 #include <string_view>
 #include <vector>
 
-#include "common/base/huge_page_heap.h"
 #include "common/partial/group_key.h"
 #include "common/job/job_spec.h"
 #include "common/partial/partial_codec.h"
@@ -186,10 +185,6 @@ int Run(const BenchOptions& o) {
   std::vector<MeasureConfig> configs;
   for (const CompiledMeasure& m : pl.reductions[0].measures) configs.push_back(m.config);
 
-  // As the coordinator does when it makes its merger, before any large
-  // allocation (common/base/huge_page_heap.h): here before the templates
-  // are built, whose freed memory the merge's tables reuse.
-  const uint64_t huge_page_heap_bytes = PreferHugePagesForHeap();
   const auto build_start = std::chrono::steady_clock::now();
   std::vector<std::string> encoded;
   for (uint64_t t = 0; t < o.templates; ++t) {
@@ -284,7 +279,7 @@ int Run(const BenchOptions& o) {
       "\"build_s\": %.3f, \"merge_s\": %.4f, \"merge_all_s\": %.4f, \"merge_cpu_s\": %.4f, "
       "\"merge_all_cpu_s\": %.4f, \"finish_s\": %.4f, "
       "\"per_partial_ms\": {\"median\": %.3f, \"min\": %.3f, \"max\": %.3f}, \"peak_rss_kib\": %ld, "
-      "\"huge_page_heap_bytes\": %llu, \"sorted_runs\": %s, \"check_first\": %s, \"threads\": %zu, \"groups_per_thread\": %s, "
+      "\"sorted_runs\": %s, \"check_first\": %s, \"threads\": %zu, \"groups_per_thread\": %s, "
       "\"decompress_s\": %.4f, \"decompress_cpu_s\": %.4f, \"critical_path_cpu_s\": %.4f, "
       "\"critical_path_over_decompress_cpu\": %.2f, \"merge_over_decompress\": %.2f, \"merge_cpu_over_decompress\": %.2f, "
       "\"produce_s_per_partial\": %.5f, \"merge_s_per_partial\": %.5f, \"workers_to_saturate_estimate\": %.1f}\n",
@@ -294,7 +289,7 @@ int Run(const BenchOptions& o) {
       merge_s * static_cast<double>(o.partials) / static_cast<double>(merged), merge_cpu_s,
       merge_cpu_s * static_cast<double>(o.partials) / static_cast<double>(merged), finish_s,
       1000 * sorted[sorted.size() / 2], 1000 * sorted.front(), 1000 * sorted.back(), ru.ru_maxrss,
-      static_cast<unsigned long long>(huge_page_heap_bytes), merger.in_runs() ? "true" : "false", o.check_first ? "true" : "false", threads, per_thread.c_str(),
+      merger.in_runs() ? "true" : "false", o.check_first ? "true" : "false", threads, per_thread.c_str(),
       decompress_s, dz.cpu_s, critical_cpu_s, critical_cpu_s / dz.cpu_s, merge_s / decompress_s, merge_cpu_s / dz.cpu_s, build_s / static_cast<double>(o.templates),
       merge_s / static_cast<double>(merged),
       // An estimate: workers producing partials at the measured cost of

@@ -5,7 +5,6 @@
 #include <algorithm>
 #include <thread>
 
-#include "common/base/huge_page_heap.h"
 
 namespace fanfold {
 namespace {
@@ -20,9 +19,6 @@ double ThreadCpuSeconds() {
 
 RangeTables::RangeTables(const std::vector<MeasureConfig>* configs, size_t ranges, uint64_t min_groups_for_threads)
     : configs_(configs), wanted_(std::max<size_t>(ranges, 1)), min_groups_for_threads_(min_groups_for_threads) {
-  // The tables' states are touched a few lines each for every partial, all
-  // over the heap: on 2 MiB pages the walk waits far less for page walks.
-  (void)PreferHugePagesForHeap();
   tables_.emplace_back(configs_);
   merged_.assign(1, 0);
 }
@@ -177,10 +173,7 @@ Status RangeTables::Walk(std::string_view encoded, bool merge) {
     std::vector<std::jthread> running;
     for (size_t i = 1; i < walked; ++i)
       if (slices[i].count > 0)
-        running.emplace_back([&walk, i] {
-          PreferHugePagesForThreadHeap();  // the groups it adds are allocated from its thread heap
-          walk(i);
-        });
+        running.emplace_back([&walk, i] { walk(i); });
     walk(0);
   }
   double sum = 0, slowest = 0;

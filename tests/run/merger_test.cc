@@ -271,9 +271,9 @@ TEST_CASE("merger: early partials past the budget wait on disk, not in memory") 
     *out = PartialFor(*plan, s, 3000);
     return Status::Ok();
   });
-  // The encoder's buffers, kept between partials, at their size first: with
-  // a fixed mmap threshold (common/base/huge_page_heap.h) they are heap
-  // blocks, counted below, and the count is of the waiting partials.
+  // The encoder's buffers, kept between partials, at their size first: if
+  // malloc hands them out from its heap they would be counted below, and
+  // the count is of the waiting partials.
   (void)PartialFor(*plan, n - 1, 3000);
   const size_t before = mallinfo2().uordblks;
   for (uint32_t s = 1; s < n; ++s) REQUIRE(m.Add(s, PartialFor(*plan, s, 3000)).ok());
