@@ -175,15 +175,20 @@ def main():
         # SIGKILL during the straight walk, then resume.
         e = dict(os.environ)
         e["FANFOLD_TEST_ONLY_MERGE_RUNS"] = "5000:2"
-        rd = env.path("runs", "killed")
-        out = env.path("killed.csv")
-        p = subprocess.Popen([env.fanfold, "run", csv_job, "-j", "1", "--progress", "off", "--log-level", "debug",
-                              "--run-dir", rd, "-o", out], stdout=subprocess.DEVNULL, stderr=subprocess.PIPE,
-                             env=e, cwd=env.tmp)
-        sent, rc = lib.signal_at_output_stage(p, signal.SIGKILL)
+        # A loaded machine may let the coordinator publish before the signal
+        # lands (nothing to test then): up to three tries, each afresh.
+        for attempt in range(3):
+            rd = env.path("runs", "killed%d" % attempt)
+            out = env.path("killed%d.csv" % attempt)
+            p = subprocess.Popen([env.fanfold, "run", csv_job, "-j", "1", "--progress", "off", "--log-level", "debug",
+                                  "--run-dir", rd, "-o", out], stdout=subprocess.DEVNULL, stderr=subprocess.PIPE,
+                                 env=e, cwd=env.tmp)
+            sent, rc = lib.signal_at_output_stage(p, signal.SIGKILL)
+            if not os.path.exists(os.path.join(rd, "result.csv")):
+                break
         c.check(sent and rc == -signal.SIGKILL, "SIGKILL at the output stage: sent %s, exit %s" % (sent, rc))
         c.check(not os.path.exists(os.path.join(rd, "result.csv")),
-                "SIGKILL came after the result was published (too late to test)")
+                "SIGKILL came after the result was published, three times (too late to test)")
         rc, _, err = env.run([env.fanfold, "resume", rd, "-q", "-o", out])
         c.check(rc == 0, "resume after SIGKILL: exit %d: %s" % (rc, lib.tail(err)))
         c.check(rc != 0 or read(out) == ref, "resume after SIGKILL: the bytes differ")
