@@ -14,6 +14,7 @@
 #include <doctest/doctest.h>
 
 #include "common/measures/measure.h"
+#include "common/measures/measure_registry.h"
 
 namespace fanfold::testing {
 
@@ -75,6 +76,36 @@ inline Rows TypedValueData() {
       rows.Add(Value::Bool(j % 2 == 0));
   }
   return rows;
+}
+
+// One measure of every registered kind (a new kind is covered unedited),
+// with options that exercise them: quantiles, precision, k, limit, edges.
+inline std::vector<MeasureConfig> AllKindConfigs() {
+  std::vector<MeasureConfig> configs;
+  for (const MeasureRow& row : MeasureRows()) {
+    MeasureConfig c;
+    c.kind = row.kind;
+    c.probabilities = {0.1, 0.5, 0.99};
+    c.precision = 8;
+    c.k = 3;
+    c.limit = 100000;
+    c.edges = {-1000, -0.5, 0, 10, 1000, 1e17};
+    configs.push_back(c);
+  }
+  return configs;
+}
+
+// A value of every sort, drawn from g (one or two draws): rounding-sensitive
+// magnitudes, text (kept in strings), integers, missing, negatives.
+inline Value MixedValue(TestLcg& g, Rows& strings) {
+  switch (g.Next() % 6) {
+    case 0: return Value::Number(1e16);
+    case 1: return Value::Number(1.0 + static_cast<double>(g.Next() % 1000) * 0.1);
+    case 2: return Value::String(strings.Keep("w" + std::to_string(g.Next() % 7)));
+    case 3: return Value::Int(static_cast<int64_t>(g.Next() % 50));
+    case 4: return Value::Missing();
+    default: return Value::Number(-static_cast<double>(g.Next() % 300) / 7.0);
+  }
 }
 
 inline std::string EncodeOf(const MeasureState& s) {

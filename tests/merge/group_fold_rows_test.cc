@@ -21,21 +21,6 @@ namespace {
 
 using testing::TestLcg;
 
-std::vector<MeasureConfig> EveryKind() {  // one measure of every registered kind
-  std::vector<MeasureConfig> configs;
-  for (const MeasureRow& row : MeasureRows()) {
-    MeasureConfig c;
-    c.kind = row.kind;
-    c.probabilities = {0.1, 0.5, 0.99};
-    c.precision = 8;
-    c.k = 3;
-    c.limit = 100000;
-    c.edges = {-1000, -0.5, 0, 10, 1000, 1e17};
-    configs.push_back(c);
-  }
-  return configs;
-}
-
 // Shard tables over up to 400 numeric keys, values of every sort (rounding-
 // sensitive sums, text, integers, missing, tie-rich ordering keys).
 std::vector<std::string> Tables(const std::vector<MeasureConfig>* configs, int shards) {
@@ -49,14 +34,7 @@ std::vector<std::string> Tables(const std::vector<MeasureConfig>* configs, int s
       AppendKeyValue(Value::Number(static_cast<double>(g.Next() % (100 + 60 * static_cast<uint64_t>(s)))), &key);
       MeasureState* const* states = t.FindOrAdd(key);
       Value args[2];
-      switch (g.Next() % 6) {
-        case 0: args[0] = Value::Number(1e16); break;
-        case 1: args[0] = Value::Number(1.0 + static_cast<double>(g.Next() % 1000) * 0.1); break;
-        case 2: args[0] = Value::String(strings.Keep("w" + std::to_string(g.Next() % 7))); break;
-        case 3: args[0] = Value::Int(static_cast<int64_t>(g.Next() % 50)); break;
-        case 4: args[0] = Value::Missing(); break;
-        default: args[0] = Value::Number(-static_cast<double>(g.Next() % 300) / 7.0); break;
-      }
+      args[0] = testing::MixedValue(g, strings);
       args[1] = Value::Number(static_cast<double>(g.Next() % 20));
       for (size_t m = 0; m < configs->size(); ++m) REQUIRE(states[m]->Add(args));
     }
@@ -81,7 +59,7 @@ std::string RowText(std::string_view key, const std::vector<std::unique_ptr<Meas
 
 // Intent: straight into rows = into a run, then decoded, for every kind.
 TEST_CASE("group_fold: folded straight into rows, states finalize as the run's decoded ones") {
-  const std::vector<MeasureConfig> configs = EveryKind();
+  const std::vector<MeasureConfig> configs = testing::AllKindConfigs();
   const std::vector<std::string> tables = Tables(&configs, 7);
   // The base: the first three shards folded into a run.
   FoldInputs first;
@@ -131,7 +109,7 @@ TEST_CASE("group_fold: folded straight into rows, states finalize as the run's d
 // Intent: a partial cut short is named as the bad partial (not the
 // visitor's failure); a visitor's error ends the fold as its own.
 TEST_CASE("group_fold: straight into rows tells a bad partial from a visitor's error") {
-  const std::vector<MeasureConfig> configs = EveryKind();
+  const std::vector<MeasureConfig> configs = testing::AllKindConfigs();
   std::vector<std::string> tables = Tables(&configs, 3);
   FoldInputs in;
   in.partials = {tables[0], tables[1], tables[2]};

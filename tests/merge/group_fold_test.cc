@@ -22,22 +22,6 @@ namespace {
 
 using testing::TestLcg;
 
-// One measure of every registered kind (a new kind is covered unedited).
-std::vector<MeasureConfig> AllKindConfigs() {
-  std::vector<MeasureConfig> configs;
-  for (const MeasureRow& row : MeasureRows()) {
-    MeasureConfig c;
-    c.kind = row.kind;
-    c.probabilities = {0.1, 0.5, 0.99};
-    c.precision = 8;
-    c.k = 3;
-    c.limit = 100000;
-    c.edges = {-1000, -0.5, 0, 10, 1000, 1e17};
-    configs.push_back(c);
-  }
-  return configs;
-}
-
 std::string KeyOf(uint64_t g) {
   std::string key;
   AppendKeyValue(Value::Number(static_cast<double>(g)), &key);
@@ -65,14 +49,7 @@ std::vector<std::string> ShardTables(const std::vector<MeasureConfig>* configs, 
     for (int i = 0; i < records; ++i) {
       MeasureState* const* states = t.FindOrAdd(KeyOf(g.Next() % span));
       Value args[2];
-      switch (g.Next() % 6) {
-        case 0: args[0] = Value::Number(1e16); break;
-        case 1: args[0] = Value::Number(1.0 + static_cast<double>(g.Next() % 1000) * 0.1); break;
-        case 2: args[0] = Value::String(strings.Keep("w" + std::to_string(g.Next() % 7))); break;
-        case 3: args[0] = Value::Int(static_cast<int64_t>(g.Next() % 50)); break;
-        case 4: args[0] = Value::Missing(); break;
-        default: args[0] = Value::Number(-static_cast<double>(g.Next() % 300) / 7.0); break;
-      }
+      args[0] = testing::MixedValue(g, strings);
       args[1] = Value::Number(static_cast<double>(g.Next() % 20));  // ordering key, tie-rich
       for (size_t m = 0; m < configs->size(); ++m) REQUIRE(states[m]->Add(args));
     }
@@ -109,7 +86,7 @@ std::string Streamed(const std::vector<MeasureConfig>* configs, const std::vecto
 // byte for byte, for every measure kind, batch size and thread count: each
 // key folds in shard order, and a run's states decode to what the table held.
 TEST_CASE("group_fold: streamed runs equal the in-memory fold byte for byte") {
-  const std::vector<MeasureConfig> configs = AllKindConfigs();
+  const std::vector<MeasureConfig> configs = testing::AllKindConfigs();
   const std::vector<std::string> tables = ShardTables(&configs, 12, 300, 400);
   const std::string expected = InMemory(&configs, tables);
   for (size_t batch : {1, 2, 5, 12})
@@ -129,7 +106,7 @@ TEST_CASE("group_fold: streamed runs equal the in-memory fold byte for byte") {
 // Intent: key ranges cut at SplitKeys' keys partition the groups: their
 // outputs, concatenated in key order, are the whole fold's groups.
 TEST_CASE("group_fold: key ranges partition the keys") {
-  const std::vector<MeasureConfig> configs = AllKindConfigs();
+  const std::vector<MeasureConfig> configs = testing::AllKindConfigs();
   const std::vector<std::string> tables = ShardTables(&configs, 4, 120, 200);
   FoldInputs in;
   for (const std::string& t : tables) in.partials.push_back(t);
@@ -169,7 +146,7 @@ size_t FindLastStateLength(const std::string& encoded, size_t m) {
 // naming that partial, at every thread count, and folding again without
 // it gives the in-memory fold of the others.
 TEST_CASE("group_fold: a bad partial is named, and the others fold without it") {
-  const std::vector<MeasureConfig> configs = AllKindConfigs();
+  const std::vector<MeasureConfig> configs = testing::AllKindConfigs();
   std::vector<std::string> tables = ShardTables(&configs, 5, 80, 150);
   const std::string good2 = tables[2];
   std::string cut = good2;
@@ -208,7 +185,7 @@ TEST_CASE("group_fold: a bad partial is named, and the others fold without it") 
 // in-memory fold's bytes; when it refuses, it names that partial. Never a
 // crash (this file also runs under the sanitizers in CI).
 TEST_CASE("group_fold: mutated partials are refused exactly when the in-memory check refuses them") {
-  const std::vector<MeasureConfig> configs = AllKindConfigs();
+  const std::vector<MeasureConfig> configs = testing::AllKindConfigs();
   const std::vector<std::string> tables = ShardTables(&configs, 3, 40, 60);
   // The run of the first two shards, and the third shard mutated.
   const std::string run = Streamed(&configs, {tables[0], tables[1]}, 2, 1);
