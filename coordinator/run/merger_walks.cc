@@ -12,6 +12,31 @@ namespace fanfold {
 
 namespace {
 
+// A group's row: its key's cells, then each state's finalized cells;
+// adds each measure's skipped values and degraded groups.
+Status FinalRow(const ReductionPlan& plan, std::string_view key,
+                const std::vector<std::unique_ptr<MeasureState>>& states, std::vector<Cell>* row,
+                std::vector<uint64_t>* skipped, std::vector<uint64_t>* degraded) {
+  row->clear();
+  row->reserve(plan.columns.size());
+  FF_RETURN_IF_ERROR(DecodeKey(key, plan.group.size(), row));
+  for (size_t m = 0; m < states.size(); ++m) {
+    states[m]->Finalize(row);
+    (*skipped)[m] += states[m]->skipped();
+    (*degraded)[m] += states[m]->degraded() ? 1 : 0;
+  }
+  return Status::Ok();
+}
+
+// Adds one walk's per-measure counts to the totals.
+void AddCounts(const std::vector<uint64_t>& skipped, const std::vector<uint64_t>& degraded,
+               std::vector<uint64_t>* total_skipped, std::vector<uint64_t>* total_degraded) {
+  for (size_t j = 0; j < total_skipped->size(); ++j) {
+    (*total_skipped)[j] += skipped[j];
+    (*total_degraded)[j] += degraded[j];
+  }
+}
+
 // Walks `groups` (a run, or one piece of it), each group's states decoded
 // and finalized into a row handed to visit; adds each measure's skipped
 // values and degraded groups. `first_group` numbers the cursor's first
@@ -25,18 +50,13 @@ Status WalkRunGroups(const ReductionPlan& plan, RunCursor& groups, uint64_t firs
   // them; decoded one group at a time, they finalize to the same cells.
   std::vector<Cell> row;
   while (groups.Next()) {
-    row.clear();
-    row.reserve(plan.columns.size());
-    FF_RETURN_IF_ERROR(DecodeKey(groups.key(), plan.group.size(), &row));
     for (size_t m = 0; m < states.size(); ++m) {
       ByteReader sr(groups.state(m));
       Status s = states[m]->Decode(sr);
       if (!s.ok())
         return s.WithContext("the merged run, group " + std::to_string(first_group + groups.groups_read() - 1));
-      states[m]->Finalize(&row);
-      (*skipped)[m] += states[m]->skipped();
-      (*degraded)[m] += states[m]->degraded() ? 1 : 0;
     }
+    FF_RETURN_IF_ERROR(FinalRow(plan, groups.key(), states, &row, skipped, degraded));
     FF_RETURN_IF_ERROR(visit(&row));
   }
   if (!groups.status().ok()) return groups.status().WithContext("the merged run");
@@ -106,10 +126,7 @@ Status Merger::VisitRunPieces(size_t r, const PieceRowVisitor& visit, const Piec
           .WithContext("the merged run");
     if (walks[p].any) last = walks[p].last_key;
     any = any || walks[p].any;
-    for (size_t j = 0; j < skipped.size(); ++j) {
-      skipped[j] += walks[p].skipped[j];
-      degraded[j] += walks[p].degraded[j];
-    }
+    AddCounts(walks[p].skipped, walks[p].degraded, &skipped, &degraded);
   }
   return Status::Ok();
 }
@@ -134,14 +151,7 @@ Status Merger::VisitStraightPieces(size_t r, size_t ranges, const PieceRowVisito
     // would give after encoding and decoding them (group_fold_test).
     const GroupFold::Visit to_row = [&](std::string_view key,
                                         const std::vector<std::unique_ptr<MeasureState>>& states) -> Status {
-      row.clear();
-      row.reserve(plan.columns.size());
-      FF_RETURN_IF_ERROR(DecodeKey(key, plan.group.size(), &row));
-      for (size_t m = 0; m < states.size(); ++m) {
-        states[m]->Finalize(&row);
-        w.skipped[m] += states[m]->skipped();
-        w.degraded[m] += states[m]->degraded() ? 1 : 0;
-      }
+      FF_RETURN_IF_ERROR(FinalRow(plan, key, states, &row, &w.skipped, &w.degraded));
       return visit(p, &row);
     };
     bool visit_failed = false;
@@ -165,10 +175,7 @@ Status Merger::VisitStraightPieces(size_t r, size_t ranges, const PieceRowVisito
       return Status::Ok();
     }
     if (!w.status.ok()) return w.status;
-    for (size_t j = 0; j < skipped.size(); ++j) {
-      skipped[j] += w.skipped[j];
-      degraded[j] += w.degraded[j];
-    }
+    AddCounts(w.skipped, w.degraded, &skipped, &degraded);
   }
   return Status::Ok();
 }
