@@ -12,6 +12,7 @@
 // state's decoder cannot read into the next one).
 #pragma once
 
+#include <cstdint>
 #include <memory>
 #include <string>
 #include <string_view>
@@ -63,6 +64,26 @@ class GroupTable {
   Status CheckEncodedGroups(std::string_view groups, uint64_t count, uint64_t first);
   Status MergeEncodedGroups(std::string_view groups, uint64_t count, uint64_t first);
 
+  // The batched fold (group_table_batch.cc): several later shards' slices
+  // at once, in shard order, walked side by side in key order, so each
+  // group's states are loaded once per batch rather than once per shard.
+  // Each key's states fold exactly as MergeEncodedGroups would fold the
+  // slices one after another (shard order), so the result is the same.
+  // PlanBatch reads the slices' framing and finds every key, changing
+  // nothing; *new_groups: the keys the table lacks. ApplyBatch then adds
+  // them and merges. A failure of either (bad bytes, a bounded measure past
+  // its limit) names the slice and group; after ApplyBatch fails the table
+  // is partly merged (callers rebuild it). REQUIRES: each slice's framing
+  // was checked (CutByKeys: lengths fit, keys ascend); the slices' bytes
+  // stay live until ApplyBatch returns; nothing else changes the table in
+  // between.
+  struct EncodedSlice {
+    std::string_view groups;  // `count` groups framed as in Encode, no leading count
+    uint64_t count = 0;
+    uint64_t first = 0;       // the first group's index in its whole encoding
+  };
+  Status PlanBatch(const std::vector<EncodedSlice>& slices, uint64_t* new_groups);
+  Status ApplyBatch();
   void Encode(ByteWriter& w) const;
   // REQUIRES: this table is empty. Fails on corrupt bytes.
   Status Decode(ByteReader& r);
@@ -105,6 +126,24 @@ class GroupTable {
   // One state per measure that encoded states are checked in or decoded
   // into while merging (MeasureState::MergeEncoded's scratch).
   std::vector<std::unique_ptr<MeasureState>> scratch_;
+  // The planned batch (PlanBatch to ApplyBatch): each distinct key in
+  // ascending order with its group id (kNewGroup: to be added before
+  // order_[before]) and its slices' states, in slice order.
+  static constexpr uint32_t kNewGroup = UINT32_MAX;
+  struct BatchKey {
+    std::string_view key;
+    uint32_t id = kNewGroup;
+    size_t before = 0;
+    uint32_t first_state = 0;  // into batch_states_
+    uint32_t slices = 0;       // how many slices hold the key
+  };
+  struct BatchStates {
+    std::string_view states;  // the group's m length-prefixed states
+    uint32_t slice = 0;
+    uint64_t group = 0;       // index in its whole encoding, for messages
+  };
+  std::vector<BatchKey> batch_keys_;
+  std::vector<BatchStates> batch_states_;
 };
 
 }  // namespace fanfold

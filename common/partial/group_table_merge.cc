@@ -20,40 +20,13 @@
 
 #include "common/partial/group_table.h"
 #include "common/partial/key_order.h"
+#include "common/partial/order_inserts.h"
 
 namespace fanfold {
 namespace {
 
 constexpr size_t kAhead = 16;         // groups between lookup and merge
 constexpr size_t kRing = kAhead + 1;  // groups read but not yet merged, at most
-
-// Groups a walk added, sorted into the table's key order when it ends
-// (whatever way it ends): each new id goes before the group that was at
-// `before` in the old order, and they come in ascending key order.
-class OrderInserts {
- public:
-  OrderInserts(std::vector<uint32_t>* order, size_t* ordered) : order_(order), ordered_(ordered) {}
-  ~OrderInserts() {
-    if (added_.empty()) return;
-    std::vector<uint32_t> merged;
-    merged.reserve(order_->size() + added_.size());
-    size_t from = 0;
-    for (const auto& [before, id] : added_) {
-      merged.insert(merged.end(), order_->begin() + from, order_->begin() + before);
-      merged.push_back(id);
-      from = before;
-    }
-    merged.insert(merged.end(), order_->begin() + from, order_->end());
-    order_->swap(merged);
-    *ordered_ = order_->size();
-  }
-  void Add(size_t before, uint32_t id) { added_.emplace_back(before, id); }
-
- private:
-  std::vector<uint32_t>* order_;
-  size_t* ordered_;
-  std::vector<std::pair<size_t, uint32_t>> added_;
-};
 
 }  // namespace
 

@@ -156,25 +156,37 @@ Status RangeTables::Walk(std::string_view encoded, bool merge) {
   // hold nothing before it, and are not walked.
   const size_t walked = std::min(bad_range, tables_.size() - 1) + 1;
   std::vector<Status> done(walked);
-  std::vector<double> cpu(walked, 0.0);
-  const auto walk = [&](size_t i) {
-    const double c0 = ThreadCpuSeconds();
+  uint64_t groups = 0;
+  for (size_t i = 0; i < walked; ++i) groups += slices[i].count;
+  OnRanges(walked, groups, [&](size_t i) {
     const Slice& s = slices[i];
+    if (s.count == 0 && i > 0) return;
     const std::string_view bytes = encoded.substr(s.begin, s.end - s.begin);
     done[i] = merge ? tables_[i].MergeEncodedGroups(bytes, s.count, s.first)
                     : tables_[i].CheckEncodedGroups(bytes, s.count, s.first);
+  });
+  for (size_t i = 0; i < walked; ++i) {
+    if (!done[i].ok()) return done[i];  // the lowest range's: the first group's error
+    if (merge) merged_[i] += slices[i].count;
+  }
+  return framing;
+}
+
+template <class RangeWalk>
+void RangeTables::OnRanges(size_t n, uint64_t groups, const RangeWalk& walk) {
+  std::vector<double> cpu(n, 0.0);
+  const auto timed = [&](size_t i) {
+    const double c0 = ThreadCpuSeconds();
+    walk(i);
     cpu[i] = ThreadCpuSeconds() - c0;
   };
-  uint64_t groups = 0;
-  for (size_t i = 0; i < walked; ++i) groups += slices[i].count;
-  if (groups < min_groups_for_threads_) {  // starting threads would cost more than they save
-    for (size_t i = 0; i < walked; ++i) walk(i);
+  const bool threaded = groups >= min_groups_for_threads_;
+  if (!threaded) {  // starting threads would cost more than they save
+    for (size_t i = 0; i < n; ++i) timed(i);
   } else {
     std::vector<std::jthread> running;
-    for (size_t i = 1; i < walked; ++i)
-      if (slices[i].count > 0)
-        running.emplace_back([&walk, i] { walk(i); });
-    walk(0);
+    for (size_t i = 1; i < n; ++i) running.emplace_back([&timed, i] { timed(i); });
+    timed(0);
   }
   double sum = 0, slowest = 0;
   for (double c : cpu) {
@@ -182,12 +194,48 @@ Status RangeTables::Walk(std::string_view encoded, bool merge) {
     slowest = std::max(slowest, c);
   }
   walk_cpu_s_ += sum;
-  critical_walk_cpu_s_ += groups < min_groups_for_threads_ ? sum : slowest;
-  for (size_t i = 0; i < walked; ++i) {
-    if (!done[i].ok()) return done[i];  // the lowest range's: the first group's error
-    if (merge) merged_[i] += slices[i].count;
+  critical_walk_cpu_s_ += threaded ? slowest : sum;
+}
+
+Status RangeTables::PlanBatch(const std::vector<std::string_view>& encoded, uint64_t* new_groups) {
+  *new_groups = 0;
+  const size_t ranges = tables_.size();
+  std::vector<std::vector<GroupTable::EncodedSlice>> per_range(ranges);
+  batch_groups_.assign(ranges, 0);
+  uint64_t groups = 0;
+  std::vector<Slice> slices;
+  for (std::string_view e : encoded) {
+    size_t bad_range = 0;
+    FF_RETURN_IF_ERROR(Cut(e, &slices, &bad_range));
+    for (size_t i = 0; i < ranges; ++i) {
+      const Slice& s = slices[i];
+      if (s.count == 0) continue;
+      per_range[i].push_back(GroupTable::EncodedSlice{e.substr(s.begin, s.end - s.begin), s.count, s.first});
+      batch_groups_[i] += s.count;
+      groups += s.count;
+    }
   }
-  return framing;
+  std::vector<Status> done(ranges);
+  std::vector<uint64_t> added(ranges, 0);
+  OnRanges(ranges, groups, [&](size_t i) { done[i] = tables_[i].PlanBatch(per_range[i], &added[i]); });
+  for (size_t i = 0; i < ranges; ++i) {
+    FF_RETURN_IF_ERROR(done[i]);
+    *new_groups += added[i];
+  }
+  return Status::Ok();
+}
+
+Status RangeTables::ApplyBatch() {
+  const size_t ranges = tables_.size();
+  uint64_t groups = 0;
+  for (uint64_t g : batch_groups_) groups += g;
+  std::vector<Status> done(ranges);
+  OnRanges(ranges, groups, [&](size_t i) { done[i] = tables_[i].ApplyBatch(); });
+  for (size_t i = 0; i < ranges; ++i) {
+    FF_RETURN_IF_ERROR(done[i]);
+    merged_[i] += batch_groups_[i];
+  }
+  return Status::Ok();
 }
 
 void RangeTables::Encode(ByteWriter& w) const {

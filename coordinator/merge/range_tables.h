@@ -71,6 +71,20 @@ class RangeTables {
   Status CheckEncoded(std::string_view encoded) { return Walk(encoded, /*merge=*/false); }
   Status MergeEncoded(std::string_view encoded) { return Walk(encoded, /*merge=*/true); }
 
+  // The batched fold (GroupTable::PlanBatch / ApplyBatch) over the ranges,
+  // in parallel: several later shards' encodings (in shard order) at once,
+  // the same states as MergeEncoded on each in turn. PlanBatch scans each
+  // encoding's framing, cuts it by range and finds every key, changing
+  // nothing; *new_groups: the keys the tables lack. Then ApplyBatch merges
+  // (REQUIRES: PlanBatch succeeded, the encodings' bytes are still live and
+  // nothing changed the tables in between). A failure gives no message
+  // to show (callers fold the shards one at a time again, from a rebuilt
+  // table after ApplyBatch failed, for MergeEncoded's own messages).
+  // REQUIRES: can_batch().
+  bool can_batch() const { return cut_ || wanted_ == 1; }
+  Status PlanBatch(const std::vector<std::string_view>& encoded, uint64_t* new_groups);
+  Status ApplyBatch();
+
   size_t group_count() const;
   size_t range_count() const { return tables_.size(); }
   size_t measure_count() const { return configs_->size(); }
@@ -99,6 +113,11 @@ class RangeTables {
  private:
   using Slice = RangeSlice;
   Status Walk(std::string_view encoded, bool merge);
+  // Runs walk(i) for ranges i < n, on threads of their own (0 on the
+  // calling one) when `groups` is at least min_groups_for_threads_, and
+  // adds their CPU times to the walks' totals.
+  template <class RangeWalk>
+  void OnRanges(size_t n, uint64_t groups, const RangeWalk& walk);
   Status Cut(std::string_view encoded, std::vector<Slice>* slices, size_t* bad_range) {
     return CutByKeys(encoded, configs_->size(), cuts_, slices, bad_range);
   }
@@ -114,6 +133,7 @@ class RangeTables {
   bool cut_ = false;
   std::vector<GroupTable> tables_;
   std::vector<uint64_t> merged_;
+  std::vector<uint64_t> batch_groups_;  // the planned batch's groups per range
   double walk_cpu_s_ = 0;
   double critical_walk_cpu_s_ = 0;
 };

@@ -76,20 +76,6 @@ void Merger::Drain() {
     }
     auto it = waiting_.find(next_);
     if (it == waiting_.end()) break;
-    auto opened = std::make_unique<OpenedPartial>();
-    OpenedPartial& p = *opened;
-    // The body's buffer is kept from one partial to the next (body_buffer_),
-    // so its pages are not faulted in and zeroed again for every partial.
-    p.body.swap(body_buffer_);
-    struct ReturnBody {
-      std::unique_ptr<OpenedPartial>& opened;
-      std::string& keep;
-      ~ReturnBody() {
-        // Kept up to 64 MiB, as the workers' encode buffers: one huge
-        // partial does not pin its memory outside the merge's share.
-        if (opened && opened->body.capacity() <= (size_t{64} << 20)) keep.swap(opened->body);
-      }
-    } return_body{opened, body_buffer_};
     std::string bytes = std::move(it->second);
     waiting_.erase(it);
     waiting_bytes_ -= bytes.size();
@@ -102,65 +88,33 @@ void Merger::Drain() {
       if (runs_->BatchFull() && !LastFoldWaits()) FoldRuns();
       continue;
     }
+    auto p = std::make_unique<OpenedPartial>();
+    // The body's buffer is kept from one partial to the next, so its pages
+    // are not faulted in and zeroed again for every partial.
+    p->body = TakeBodyBuffer();
+    // Read, checked and decompressed while the tables' walk may still run
+    // (overlap): it touches neither these bytes nor p.
     Status s = reloaded ? reload_(next_, &bytes) : Status::Ok();
-    if (s.ok()) s = OpenPartial(bytes, &p, /*checksum_checked=*/!reloaded);
-    if (s.ok() && p.reductions.size() != results_.size())
-      s = Status::Corrupt("partial state has " + std::to_string(p.reductions.size()) + " reductions; the plan has " +
+    if (s.ok()) s = OpenPartial(bytes, p.get(), /*checksum_checked=*/!reloaded);
+    if (s.ok() && p->reductions.size() != results_.size())
+      s = Status::Corrupt("partial state has " + std::to_string(p->reductions.size()) + " reductions; the plan has " +
                           std::to_string(results_.size()));
-    // By the share: a partial whose groups, were they all new, would take
-    // the tables past half of it moves the results to runs first (its
-    // group count is in its encoding; telling new groups from old would
-    // take a lookup each).
-    if (s.ok() && !runs_ && run_threshold_ == kRunsByBudget &&
-        EstimatedTableBytes() + EstimatedTableBytes(p) > std::min(memory_.merge_bytes / 2, kTableCeilingBytes))
-      StartRuns();
-    if (s.ok() && runs_) {  // the fold checks it, and drops it if bad
-      opened.reset();
-      AddToRuns(next_, std::move(bytes), /*checked=*/true);
+    if (s.ok() && Batching(*p)) {
+      batch_bytes_ += p->body.size();
+      batch_.push_back({next_, std::move(p)});
       ++next_;
-      if (runs_->BatchFull() && !LastFoldWaits()) FoldRuns();
+      if (batch_.size() >= kBatchPartials || batch_bytes_ >= BatchBodyLimit()) LaunchBatch();
       continue;
     }
-    // Without a reloader every byte is checked before any is merged, so a
-    // bad partial leaves the result as it was and costs only its own shard.
-    // With one, the merge checks as it goes (one decode of each state, not
-    // two) and a bad partial found midway has the result rebuilt from the
-    // run directory without it (Rebuild): the same bytes, paid only then.
-    // After one such partial the rest are checked first, as without a
-    // reloader: a worker that keeps producing them costs one rebuild, not
-    // one per partial.
-    const bool check_first = !reload_ || !late_failures_.empty();
-    for (size_t r = 0; r < results_.size() && s.ok() && check_first; ++r)
-      s = results_[r].table.CheckEncoded(p.reductions[r].groups);
-    bool partly_merged = false;
-    for (size_t r = 0; r < results_.size() && s.ok(); ++r) {
-      Status m = results_[r].table.MergeEncoded(p.reductions[r].groups);
-      if (!m.ok() && reload_ && m.code() != Status::Code::kLimitExceeded) {
-        s = m;
-        partly_merged = true;
-      } else if (!m.ok() && fatal_.ok()) {
-        fatal_ = m.WithContext("merging shard " + std::to_string(next_));
-      }
-    }
-    if (!s.ok()) {  // the checksum matched, so this is a bug or a forged file
-      late_failures_.push_back({next_, s.message()});
-      failed_[next_] = true;
-      if (partly_merged) {
-        Status rebuilt = Rebuild(next_);
-        if (!rebuilt.ok() && fatal_.ok())
-          fatal_ = rebuilt.WithContext("rebuilding the result without shard " + std::to_string(next_));
-      }
-      ++next_;
-      continue;
-    }
-    Account(next_, p);
-    ++next_;
-    // The test-only threshold is checked after merging (a table may pass
-    // it by one partial's new groups): before, a partial's groups cannot be told
-    // new from old without looking each up, and many shards over the same
-    // keys must stay on the faster tables.
-    for (size_t r = 0; r < results_.size() && !runs_ && run_threshold_ > 0 && run_threshold_ != kRunsByBudget; ++r)
-      if (results_[r].table.group_count() > run_threshold_) StartRuns();
+    LaunchBatch();  // the shards before this one first
+    Settle();
+    const uint32_t shard = next_++;  // counted before the runs' last-fold check
+    MergeOne(shard, std::move(p), std::move(bytes), s, /*may_overlap=*/true);
+  }
+  // Complete: nothing may still run (the output stage reads the tables).
+  if (next_ == shard_count_) {
+    LaunchBatch();
+    Settle();
   }
   if (runs_ && next_ == shard_count_ && runs_->pending()) {
     if (LastFoldWaits()) DeferLastFold();
@@ -245,22 +199,6 @@ void Merger::Account(uint32_t shard, const OpenedPartial& p) {
     if (samples_.size() < kMaxReportedSamples) samples_.push_back({shard, sample});
 }
 
-uint64_t Merger::EstimatedTableBytes() const {
-  uint64_t bytes = 0;
-  for (const ReductionResult& r : results_)
-    bytes += r.table.group_count() * (kTableBytesPerGroup + kTableBytesPerState * r.table.measure_count());
-  return bytes;
-}
-
-uint64_t Merger::EstimatedTableBytes(const OpenedPartial& p) const {
-  uint64_t bytes = 0;
-  for (size_t r = 0; r < results_.size() && r < p.reductions.size(); ++r) {
-    const uint64_t m = results_[r].table.measure_count();
-    bytes += EncodedGroupCursor(p.reductions[r].groups, m).group_count() * (kTableBytesPerGroup + kTableBytesPerState * m);
-  }
-  return bytes;
-}
-
 void Merger::StartRuns() {
   runs_ = std::make_unique<RunResults>(plan_, run_threads_, memory_);
   if (open_) runs_->SetOpener(open_);
@@ -281,24 +219,6 @@ void Merger::FoldRuns() {
   }
   if (!f.fatal.ok() && fatal_.ok()) fatal_ = f.fatal.WithContext("merging shards into the sorted runs");
   for (auto& [shard, p] : f.merged) Account(shard, *p);
-}
-
-Status Merger::Rebuild(uint32_t end) {
-  for (size_t r = 0; r < results_.size(); ++r) results_[r].table.Clear();
-  std::string bytes;
-  for (uint32_t shard = 0; shard < end; ++shard) {
-    if (failed_[shard]) continue;
-    bytes.clear();
-    FF_RETURN_IF_ERROR(reload_(shard, &bytes));
-    OpenedPartial p;
-    FF_RETURN_IF_ERROR(OpenPartial(bytes, &p, /*checksum_checked=*/false));
-    if (p.reductions.size() != results_.size()) return Status::Corrupt("shard " + std::to_string(shard) + " changed");
-    for (size_t r = 0; r < results_.size(); ++r) {
-      Status m = results_[r].table.MergeEncoded(p.reductions[r].groups);
-      if (!m.ok()) return m.WithContext("shard " + std::to_string(shard));
-    }
-  }
-  return Status::Ok();
 }
 
 Result<OutputTable> Merger::Finish(size_t r) {

@@ -97,6 +97,9 @@ void RunEngine::Prepare() {
     if (s.ok() && out->empty()) s = Status::Internal("no saved partial for shard " + std::to_string(shard));
     return s;
   });
+  // A partial's walk over the tables runs beside the next one's reading
+  // and decompression (coordinator/run/merger.h).
+  merger_.SetOverlap(true);
   merger_.SetOpener([this](uint32_t shard) -> Result<std::unique_ptr<StoredPartialBytes>> {
     RunDirectory::StoredSpan span;
     FF_RETURN_IF_ERROR(dir_.LocateStagedOrCommitted(shard, &span));
@@ -204,6 +207,7 @@ Status RunEngine::Run() {
     return dir_.commit_due() ? dir_.Commit() : Status::Ok();
   };
   Status s = RunShards(list_, order, **transport, merger_, lo, &loop_);
+  merger_.WaitForMerges();  // an interrupted run's last walk is counted too
   meter.Finish();
   (*transport)->Shutdown();
   return Commit(s);

@@ -16,47 +16,12 @@
 #include "common/partial/group_table.h"
 #include "coordinator/merge/encoded_group_cursor.h"
 #include "tests/measures/measure_test_util.h"
+#include "tests/partial/group_table_test_util.h"
 
 namespace fanfold {
 namespace {
 
 using testing::TestLcg;
-
-std::string KeyOf(uint64_t g) {
-  std::string key;
-  AppendKeyValue(Value::Number(static_cast<double>(g)), &key);
-  return key;
-}
-
-std::string EncodeOf(const GroupTable& t) {
-  std::string out;
-  ByteWriter w(&out);
-  t.Encode(w);
-  return out;
-}
-
-// `shards` shards' group tables over `keys` keys: early shards hold the
-// low keys, later ones bring new keys, values mix magnitudes so that sums
-// round differently in another order, and text and ties feed the others.
-std::vector<std::string> ShardTables(const std::vector<MeasureConfig>* configs, int shards, uint64_t keys,
-                                     int records) {
-  TestLcg g(77);
-  std::vector<std::string> out;
-  testing::Rows strings;
-  for (int s = 0; s < shards; ++s) {
-    GroupTable t(configs);
-    const uint64_t span = keys * static_cast<uint64_t>(s + 1) / static_cast<uint64_t>(shards);
-    for (int i = 0; i < records; ++i) {
-      MeasureState* const* states = t.FindOrAdd(KeyOf(g.Next() % span));
-      Value args[2];
-      args[0] = testing::MixedValue(g, strings);
-      args[1] = Value::Number(static_cast<double>(g.Next() % 20));  // ordering key, tie-rich
-      for (size_t m = 0; m < configs->size(); ++m) REQUIRE(states[m]->Add(args));
-    }
-    out.push_back(EncodeOf(t));
-  }
-  return out;
-}
 
 // The in-memory fold the coordinator does today.
 std::string InMemory(const std::vector<MeasureConfig>* configs, const std::vector<std::string>& tables) {

@@ -69,22 +69,6 @@ TEST_CASE("merger: arrival order does not change the result") {
   }
 }
 
-// A partial around `body` (uncompressed), with the header of `like` and a
-// checksum that holds: what a buggy worker or a forger could hand over.
-// Layout: common/partial/partial_codec.h (flags at 20, lengths at 104 and 112).
-std::string WrapBody(const std::string& like, const std::string& body) {
-  std::string z(ZSTD_compressBound(body.size()), '\0');
-  z.resize(ZSTD_compress(z.data(), z.size(), body.data(), body.size(), 1));
-  std::string out = like.substr(0, kPartialHeaderSize) + z;
-  const uint64_t raw_len = body.size(), z_len = z.size();
-  std::memcpy(out.data() + 104, &raw_len, 8);
-  std::memcpy(out.data() + 112, &z_len, 8);
-  const uint32_t flags = 0;  // the body is zstd-compressed, whatever `like` stored
-  std::memcpy(out.data() + 20, &flags, 4);
-  SetPartialEncodeTime(0, &out);  // reseals the checksum over the header and the new body
-  return out;
-}
-
 // Intent: a partial whose checksum holds but whose body is malformed (its
 // last group cut short) is reported as a late failure and leaves the result
 // exactly as if that shard had failed: none of its good groups are merged.

@@ -2,11 +2,14 @@
 // comparable string (every cell's number, floats marked), for tests that
 // compare merges made in different ways; CountSumSketchPlan, the merger
 // tests' plan; MadePartial, an encoded partial of given keys and values, and
-// DisjointPartial, one whose keys no other shard has. Test-only; REQUIRES
-// what Merger::Finish requires.
+// DisjointPartial, one whose keys no other shard has; WrapBody, a partial
+// around a forged body. Test-only; REQUIRES what Merger::Finish requires.
 #pragma once
 
 #include <doctest/doctest.h>
+#include <zstd.h>
+
+#include <cstring>
 
 #include <memory>
 #include <string>
@@ -71,6 +74,22 @@ inline std::string DisjointPartial(const Plan& plan, uint32_t shard, int groups)
   return MadePartial(
       plan, shard, groups, [&](int g) { return static_cast<double>(shard * groups + g); },
       [&](int g) { return Value::Number(0.1 * g + shard); });
+}
+
+// A partial around `body` (uncompressed), with the header of `like` and a
+// checksum that holds: what a buggy worker or a forger could hand over.
+// Layout: common/partial/partial_codec.h (flags at 20, lengths at 104 and 112).
+inline std::string WrapBody(const std::string& like, const std::string& body) {
+  std::string z(ZSTD_compressBound(body.size()), '\0');
+  z.resize(ZSTD_compress(z.data(), z.size(), body.data(), body.size(), 1));
+  std::string out = like.substr(0, kPartialHeaderSize) + z;
+  const uint64_t raw_len = body.size(), z_len = z.size();
+  std::memcpy(out.data() + 104, &raw_len, 8);
+  std::memcpy(out.data() + 112, &z_len, 8);
+  const uint32_t flags = 0;  // the body is zstd-compressed, whatever `like` stored
+  std::memcpy(out.data() + 20, &flags, 4);
+  SetPartialEncodeTime(0, &out);  // reseals the checksum over the header and the new body
+  return out;
 }
 
 }  // namespace fanfold
