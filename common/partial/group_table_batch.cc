@@ -126,10 +126,18 @@ Status GroupTable::ApplyBatch() {
       for (size_t j = 0; j < m; ++j) st[j]->PrefetchMerge(r.Str());
     }
   };
+  // The states' pointers (states_ is indexed by group id, so a key's entry
+  // is anywhere in it) are loaded 2 * kAhead keys ahead, their objects
+  // kAhead ahead.
+  const auto prefetch_pointers = [&](size_t d) {
+    __builtin_prefetch(&states_[static_cast<size_t>(batch_keys_[d].id) * m]);
+  };
+  for (size_t d = 0; d < n && d < 2 * kAhead; ++d) prefetch_pointers(d);
   for (size_t d = 0; d < n && d < kAhead; ++d) prefetch_objects(d);
   for (size_t d = 0; d < n && d < kAhead / 2; ++d) hint(d);
   Status failed;
   for (size_t d = 0; d < n && failed.ok(); ++d) {
+    if (d + 2 * kAhead < n) prefetch_pointers(d + 2 * kAhead);
     if (d + kAhead < n) prefetch_objects(d + kAhead);
     if (d + kAhead / 2 < n) hint(d + kAhead / 2);
     const BatchKey& k = batch_keys_[d];
