@@ -261,8 +261,10 @@ class Merger {
   // partials accounted for, or dropped as late failures (the tables
   // rebuilt when partly merged), or a batch folded again one at a time.
   void Settle();
-  // Starts w (on its own thread with overlap and may_overlap), after
-  // settling the one before it.
+  // Starts w, after settling the one before it: on a thread of its own
+  // with overlap and may_overlap when it walks at least
+  // RangeTables::kMinGroupsForThreads groups (a thread costs more than a
+  // small walk: 10,000 tiny shards took twice as long with one each).
   void StartWalk(std::unique_ptr<TableWalk> w, bool may_overlap);
   // Folds one opened partial (open: why it could not be opened) the
   // one-at-a-time way; `bytes` are its stored bytes, or empty to reload.

@@ -108,8 +108,13 @@ void Merger::MergeOne(uint32_t shard, std::unique_ptr<OpenedPartial> p, std::str
 
 void Merger::StartWalk(std::unique_ptr<TableWalk> w, bool may_overlap) {
   Settle();
+  uint64_t groups = 0;
+  for (const BatchEntry& e : w->partials)
+    for (size_t r = 0; r < results_.size(); ++r)
+      groups += EncodedGroupCursor(e.partial->reductions[r].groups, results_[r].table.measure_count()).group_count();
   walking_ = std::move(w);
-  if (overlap_ && may_overlap) walking_->thread = std::jthread([this, w = walking_.get()] { Walk(w); });
+  if (overlap_ && may_overlap && groups >= RangeTables::kMinGroupsForThreads)
+    walking_->thread = std::jthread([this, w = walking_.get()] { Walk(w); });
   else Settle();
 }
 
