@@ -259,20 +259,27 @@ int Run(const BenchOptions& o) {
                  static_cast<unsigned long long>(merged));
     return 3;
   }
+  const Decompressed dz = DecompressSeconds(encoded, merged);
   // The merge's critical path in CPU seconds: all of its CPU time, less the
   // range walks that ran beside the slowest one of each partial — what the
   // wall time approaches when each thread has a core (measured per thread,
-  // so it holds on a busy machine where the wall time does not).
+  // so it holds on a busy machine where the wall time does not). Only
+  // without overlap: with it the walks also run beside the decompression,
+  // and the figure would add what overlaps (JSON null).
   const double critical_cpu_s =
       merger.in_runs() ? merge_cpu_s
                        : merge_cpu_s - merger.tables(0).walk_cpu_s() + merger.tables(0).critical_walk_cpu_s();
+  char critical[64] = "null", critical_ratio[64] = "null";
+  if (!o.overlap) {
+    std::snprintf(critical, sizeof critical, "%.4f", critical_cpu_s);
+    std::snprintf(critical_ratio, sizeof critical_ratio, "%.2f", critical_cpu_s / dz.cpu_s);
+  }
   // Per range (thread) of the in-memory tables: groups merged.
   std::string per_thread = "[";
   if (!merger.in_runs())
     for (size_t i = 0; i < merger.tables(0).range_count(); ++i)
       per_thread += (i ? ", " : "") + std::to_string(merger.tables(0).merged_groups(i));
   per_thread += "]";
-  const Decompressed dz = DecompressSeconds(encoded, merged);
   const double decompress_s = dz.wall_s;
   if (decompress_s < 0) {
     std::fprintf(stderr, "merge_bench: a partial's body is not one zstd frame\n");
@@ -289,8 +296,8 @@ int Run(const BenchOptions& o) {
       "\"merge_all_cpu_s\": %.4f, \"finish_s\": %.4f, "
       "\"per_partial_ms\": {\"median\": %.3f, \"min\": %.3f, \"max\": %.3f}, \"peak_rss_kib\": %ld, "
       "\"sorted_runs\": %s, \"check_first\": %s, \"overlap\": %s, \"threads\": %zu, \"groups_per_thread\": %s, "
-      "\"decompress_s\": %.4f, \"decompress_cpu_s\": %.4f, \"critical_path_cpu_s\": %.4f, "
-      "\"critical_path_over_decompress_cpu\": %.2f, \"merge_over_decompress\": %.2f, \"merge_cpu_over_decompress\": %.2f, "
+      "\"decompress_s\": %.4f, \"decompress_cpu_s\": %.4f, \"critical_path_cpu_s\": %s, "
+      "\"critical_path_over_decompress_cpu\": %s, \"batched_partials\": %llu, \"merge_over_decompress\": %.2f, \"merge_cpu_over_decompress\": %.2f, "
       "\"produce_s_per_partial\": %.5f, \"merge_s_per_partial\": %.5f, \"workers_to_saturate_estimate\": %.1f}\n",
       static_cast<unsigned long long>(o.partials), static_cast<unsigned long long>(merged),
       static_cast<unsigned long long>(o.groups), static_cast<unsigned long long>(o.values), table->rows.size(),
@@ -299,7 +306,8 @@ int Run(const BenchOptions& o) {
       merge_cpu_s * static_cast<double>(o.partials) / static_cast<double>(merged), finish_s,
       1000 * sorted[sorted.size() / 2], 1000 * sorted.front(), 1000 * sorted.back(), ru.ru_maxrss,
       merger.in_runs() ? "true" : "false", o.check_first ? "true" : "false", o.overlap ? "true" : "false", threads, per_thread.c_str(),
-      decompress_s, dz.cpu_s, critical_cpu_s, critical_cpu_s / dz.cpu_s, merge_s / decompress_s, merge_cpu_s / dz.cpu_s, build_s / static_cast<double>(o.templates),
+      decompress_s, dz.cpu_s, critical, critical_ratio,
+      static_cast<unsigned long long>(merger.batched_partials()), merge_s / decompress_s, merge_cpu_s / dz.cpu_s, build_s / static_cast<double>(o.templates),
       merge_s / static_cast<double>(merged),
       // An estimate: workers producing partials at the measured cost of
       // building one (aggregating and encoding its values; reading and

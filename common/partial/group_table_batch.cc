@@ -62,7 +62,7 @@ Status GroupTable::PlanBatch(const std::vector<EncodedSlice>& slices, uint64_t* 
     return Status::Ok();
   };
   for (size_t i = 0; i < slices.size(); ++i) {
-    cursors.push_back(Cursor{ByteReader(slices[i].groups), slices[i].count});
+    cursors.push_back(Cursor{ByteReader(slices[i].groups), slices[i].count, 0, false, {}, {}});
     FF_RETURN_IF_ERROR(advance(i));
   }
   size_t at = 0;  // position in order_ of the first key not below the last key
