@@ -70,20 +70,39 @@ class GroupTable {
   // Each key's states fold exactly as MergeEncodedGroups would fold the
   // slices one after another (shard order), so the result is the same.
   // PlanBatch reads the slices' framing and finds every key, changing
-  // nothing; *new_groups: the keys the table lacks. ApplyBatch then adds
-  // them and merges. A failure of either (bad bytes, a bounded measure past
-  // its limit) names the slice and group; after ApplyBatch fails the table
-  // is partly merged (callers rebuild it). REQUIRES: each slice's framing
-  // was checked (CutByKeys: lengths fit, keys ascend); the slices' bytes
-  // stay live until ApplyBatch returns; nothing else changes the table in
-  // between.
+  // nothing; (*new_by_slice)[i]: the keys the table lacks whose first
+  // slice is i (what folding slice i alone would add after the ones
+  // before it). ApplyBatch then adds them and merges; DropBatch forgets a
+  // plan that will not be applied. A failure of either (bad bytes, a
+  // bounded measure past its limit) names the group (and, in ApplyBatch,
+  // the slice and measure); after ApplyBatch fails the table is partly
+  // merged (callers rebuild it). REQUIRES: each slice's framing was checked
+  // (CutByKeys: lengths fit, keys ascend); the slices' bytes stay live
+  // until ApplyBatch returns; nothing else changes the table in between.
   struct EncodedSlice {
     std::string_view groups;  // `count` groups framed as in Encode, no leading count
     uint64_t count = 0;
     uint64_t first = 0;       // the first group's index in its whole encoding
   };
-  Status PlanBatch(const std::vector<EncodedSlice>& slices, uint64_t* new_groups);
+  Status PlanBatch(const std::vector<EncodedSlice>& slices, std::vector<uint64_t>* new_by_slice);
   Status ApplyBatch();
+  void DropBatch() {
+    batch_keys_.clear();
+    batch_states_.clear();
+  }
+  // Prefetches the first lines of group id's state objects.
+  void PrefetchStates(uint32_t id) const {
+    MeasureState* const* st = &states_[static_cast<size_t>(id) * measure_count()];
+    for (size_t j = 0; j < measure_count(); ++j) {
+      // An object's first three lines: a sketch's store bookkeeping too
+      // (addresses as integers: a small state ends before them).
+      const uintptr_t at = reinterpret_cast<uintptr_t>(st[j]);
+      for (uintptr_t line = 0; line < 192; line += 64) __builtin_prefetch(reinterpret_cast<const void*>(at + line));
+    }
+  }
+  // Groups between a group's lookup (and its states' prefetch) and its
+  // merge, in both walks.
+  static constexpr size_t kMergeAhead = 16;
   void Encode(ByteWriter& w) const;
   // REQUIRES: this table is empty. Fails on corrupt bytes.
   Status Decode(ByteReader& r);

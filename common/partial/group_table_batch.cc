@@ -10,8 +10,8 @@
 // in shard order, one MergeEncoded call per shard and measure, exactly as
 // the one-at-a-time walk would call them, so the states are the same.
 // As in MergeWalk, the states' objects are prefetched kAhead keys before
-// their merge and asked to prefetch what the merge will touch
-// (MeasureState::PrefetchMerge) kAhead / 2 keys before it.
+// their merge (their pointers 2 * kAhead before) and asked to prefetch what
+// the merge will touch (MeasureState::PrefetchMerge) kAhead / 2 keys before.
 #include <cstdint>
 
 #include "common/partial/group_table.h"
@@ -19,16 +19,10 @@
 #include "common/partial/order_inserts.h"
 
 namespace fanfold {
-namespace {
 
-constexpr size_t kAhead = 16;  // keys between prefetch and merge
-
-}  // namespace
-
-Status GroupTable::PlanBatch(const std::vector<EncodedSlice>& slices, uint64_t* new_groups) {
-  batch_keys_.clear();
-  batch_states_.clear();
-  *new_groups = 0;
+Status GroupTable::PlanBatch(const std::vector<EncodedSlice>& slices, std::vector<uint64_t>* new_by_slice) {
+  DropBatch();
+  new_by_slice->assign(slices.size(), 0);
   const size_t m = measure_count();
   if (ordered_ != keys_.size()) {  // groups added since the last walk
     order_ = KeyOrder(keys_);
@@ -84,10 +78,11 @@ Status GroupTable::PlanBatch(const std::vector<EncodedSlice>& slices, uint64_t* 
     k.id = c == 0 ? order_[at] : kNewGroup;
     k.before = at;
     k.first_state = static_cast<uint32_t>(batch_states_.size());
-    if (c != 0) ++*new_groups;
-    // Every slice holding the key, in slice (shard) order.
+    // Every slice holding the key, in slice (shard) order; a new key is
+    // added by the first.
     for (size_t i = 0; i < cursors.size(); ++i) {
       if (!cursors[i].active || cursors[i].key != key) continue;
+      if (c != 0 && k.slices == 0) ++(*new_by_slice)[i];
       batch_states_.push_back(BatchStates{cursors[i].states, static_cast<uint32_t>(i), cursors[i].group});
       ++k.slices;
       FF_RETURN_IF_ERROR(advance(i));
@@ -110,14 +105,8 @@ Status GroupTable::ApplyBatch() {
     }
   }
   const size_t n = batch_keys_.size();
-  const auto prefetch_objects = [&](size_t d) {
-    MeasureState* const* st = &states_[static_cast<size_t>(batch_keys_[d].id) * m];
-    for (size_t j = 0; j < m; ++j) {
-      // An object's first three lines: a sketch's store bookkeeping too.
-      const uintptr_t at = reinterpret_cast<uintptr_t>(st[j]);
-      for (uintptr_t line = 0; line < 192; line += 64) __builtin_prefetch(reinterpret_cast<const void*>(at + line));
-    }
-  };
+  constexpr size_t kAhead = kMergeAhead;
+  const auto prefetch_objects = [&](size_t d) { PrefetchStates(batch_keys_[d].id); };
   const auto hint = [&](size_t d) {
     const BatchKey& k = batch_keys_[d];
     MeasureState* const* st = &states_[static_cast<size_t>(k.id) * m];
@@ -157,8 +146,7 @@ Status GroupTable::ApplyBatch() {
       }
     }
   }
-  batch_keys_.clear();
-  batch_states_.clear();
+  DropBatch();
   return failed;
 }
 

@@ -25,8 +25,8 @@
 namespace fanfold {
 namespace {
 
-constexpr size_t kAhead = 16;         // groups between lookup and merge
-constexpr size_t kRing = kAhead + 1;  // groups read but not yet merged, at most
+constexpr size_t kAhead = GroupTable::kMergeAhead;  // groups between lookup and merge
+constexpr size_t kRing = kAhead + 1;               // groups read but not yet merged, at most
 
 }  // namespace
 
@@ -104,13 +104,7 @@ Status GroupTable::MergeWalk(ByteReader& r, uint64_t n, uint64_t first) {
         return false;
       }
     }
-    MeasureState* const* st = &states_[static_cast<size_t>(id) * m];
-    for (size_t j = 0; j < m; ++j) {
-      // An object's first three lines: a sketch's store bookkeeping too
-      // (addresses as integers: a small state ends before them).
-      const uintptr_t at = reinterpret_cast<uintptr_t>(st[j]);
-      for (uintptr_t line = 0; line < 192; line += 64) __builtin_prefetch(reinterpret_cast<const void*>(at + line));
-    }
+    PrefetchStates(id);
     ++read;
     return true;
   };

@@ -197,30 +197,35 @@ void RangeTables::OnRanges(size_t n, uint64_t groups, const RangeWalk& walk) {
   critical_walk_cpu_s_ += threaded ? slowest : sum;
 }
 
-Status RangeTables::PlanBatch(const std::vector<std::string_view>& encoded, uint64_t* new_groups) {
-  *new_groups = 0;
+Status RangeTables::PlanBatch(const std::vector<std::string_view>& encoded, std::vector<uint64_t>* new_by_input) {
+  new_by_input->assign(encoded.size(), 0);
   const size_t ranges = tables_.size();
   std::vector<std::vector<GroupTable::EncodedSlice>> per_range(ranges);
+  std::vector<std::vector<size_t>> input_of(ranges);  // per range: each slice's encoding
   batch_groups_.assign(ranges, 0);
   uint64_t groups = 0;
   std::vector<Slice> slices;
-  for (std::string_view e : encoded) {
+  for (size_t e = 0; e < encoded.size(); ++e) {
     size_t bad_range = 0;
-    FF_RETURN_IF_ERROR(Cut(e, &slices, &bad_range));
+    FF_RETURN_IF_ERROR(Cut(encoded[e], &slices, &bad_range));
     for (size_t i = 0; i < ranges; ++i) {
       const Slice& s = slices[i];
       if (s.count == 0) continue;
-      per_range[i].push_back(GroupTable::EncodedSlice{e.substr(s.begin, s.end - s.begin), s.count, s.first});
+      per_range[i].push_back(GroupTable::EncodedSlice{encoded[e].substr(s.begin, s.end - s.begin), s.count, s.first});
+      input_of[i].push_back(e);
       batch_groups_[i] += s.count;
       groups += s.count;
     }
   }
   std::vector<Status> done(ranges);
-  std::vector<uint64_t> added(ranges, 0);
+  std::vector<std::vector<uint64_t>> added(ranges);
   OnRanges(ranges, groups, [&](size_t i) { done[i] = tables_[i].PlanBatch(per_range[i], &added[i]); });
   for (size_t i = 0; i < ranges; ++i) {
-    FF_RETURN_IF_ERROR(done[i]);
-    *new_groups += added[i];
+    if (!done[i].ok()) {
+      DropBatch();
+      return done[i];
+    }
+    for (size_t j = 0; j < added[i].size(); ++j) (*new_by_input)[input_of[i][j]] += added[i][j];
   }
   return Status::Ok();
 }
@@ -253,6 +258,7 @@ void RangeTables::Encode(ByteWriter& w) const {
 
 void RangeTables::Clear() {
   for (GroupTable& t : tables_) t = GroupTable(configs_);
+  merged_.assign(tables_.size(), 0);
 }
 
 }  // namespace fanfold

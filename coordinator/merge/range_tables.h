@@ -23,7 +23,8 @@
 // message, as one table's walk: the lowest range's first error, and a framing
 // error only once every group before it was walked. The slices are what an
 // MPI transport could hand to several ranks (docs/streaming-merge.md). Not
-// thread-safe itself; it runs its own threads inside Check/Merge.
+// thread-safe itself; it runs its own threads inside CheckEncoded,
+// MergeEncoded, PlanBatch and ApplyBatch.
 #pragma once
 
 #include <cstdint>
@@ -75,15 +76,20 @@ class RangeTables {
   // in parallel: several later shards' encodings (in shard order) at once,
   // the same states as MergeEncoded on each in turn. PlanBatch scans each
   // encoding's framing, cuts it by range and finds every key, changing
-  // nothing; *new_groups: the keys the tables lack. Then ApplyBatch merges
-  // (REQUIRES: PlanBatch succeeded, the encodings' bytes are still live and
-  // nothing changed the tables in between). A failure gives no message
-  // to show (callers fold the shards one at a time again, from a rebuilt
-  // table after ApplyBatch failed, for MergeEncoded's own messages).
+  // nothing; (*new_by_input)[i]: the groups the tables lack whose first
+  // encoding is i (what MergeEncoded of encoding i would add after the ones
+  // before it). Then ApplyBatch merges (REQUIRES: PlanBatch succeeded, the
+  // encodings' bytes are still live and nothing changed the tables in
+  // between), or DropBatch forgets the plan. A failure gives no message to
+  // show (callers fold the shards one at a time again, from a rebuilt table
+  // after ApplyBatch failed, for MergeEncoded's own messages).
   // REQUIRES: can_batch().
   bool can_batch() const { return cut_ || wanted_ == 1; }
-  Status PlanBatch(const std::vector<std::string_view>& encoded, uint64_t* new_groups);
+  Status PlanBatch(const std::vector<std::string_view>& encoded, std::vector<uint64_t>* new_by_input);
   Status ApplyBatch();
+  void DropBatch() {
+    for (GroupTable& t : tables_) t.DropBatch();
+  }
 
   size_t group_count() const;
   size_t range_count() const { return tables_.size(); }
@@ -107,7 +113,7 @@ class RangeTables {
 
   // The encoding one GroupTable holding every group would write.
   void Encode(ByteWriter& w) const;
-  // Empties every table (the cuts stay).
+  // Empties every table (the cuts stay) and zeroes the merged counts.
   void Clear();
 
  private:

@@ -85,7 +85,7 @@ void Merger::Drain() {
     if (runs_) {  // the batch reads it as a stream at fold time
       AddToRuns(next_, std::move(bytes), !reloaded);
       ++next_;
-      if (runs_->BatchFull() && !LastFoldWaits()) FoldRuns();
+      if (runs_->BatchFull() && !LastFoldWaits(next_)) FoldRuns();
       continue;
     }
     auto p = std::make_unique<OpenedPartial>();
@@ -115,16 +115,17 @@ void Merger::Drain() {
   if (next_ == shard_count_) {
     LaunchBatch();
     Settle();
+    ReleaseBodyBuffers();
   }
   if (runs_ && next_ == shard_count_ && runs_->pending()) {
-    if (LastFoldWaits()) DeferLastFold();
+    if (LastFoldWaits(next_)) DeferLastFold();
     else FoldRuns();
   }
 }
 
-bool Merger::LastFoldWaits() const {
+bool Merger::LastFoldWaits(uint32_t from) const {
   if (!defer_last_fold_ || results_.size() != 1) return false;
-  uint32_t s = next_;  // every shard from here on merged or failed?
+  uint32_t s = from;  // every shard from here on merged or failed?
   while (s < shard_count_ && failed_[s]) ++s;
   return s == shard_count_;
 }
@@ -200,6 +201,7 @@ void Merger::Account(uint32_t shard, const OpenedPartial& p) {
 }
 
 void Merger::StartRuns() {
+  ReleaseBodyBuffers();
   runs_ = std::make_unique<RunResults>(plan_, run_threads_, memory_);
   if (open_) runs_->SetOpener(open_);
   for (size_t r = 0; r < results_.size(); ++r) {

@@ -125,14 +125,24 @@ class Merger {
   // every shard is merged or failed (complete()); until then totals(),
   // late_failures() and malformed_samples() may not count the newest
   // partial: call WaitForMerges() first. The bytes, failures and totals
-  // are the same as without it. Off by default. REQUIRES: called before
-  // the first Add.
-  void SetOverlap(bool overlap) { overlap_ = overlap; }
-  // Waits for a walk still running (overlap) and settles it.
-  void WaitForMerges() { Settle(); }
-  // Partials folded into the tables in batches so far (merger_tables.cc;
-  // for tests and benchmarks).
+  // are the same as without it. Off by default. A walk of fewer than
+  // min_groups groups stays on the calling thread (a thread costs more).
+  // REQUIRES: called before the first Add.
+  void SetOverlap(bool overlap, uint64_t min_groups = RangeTables::kMinGroupsForThreads) {
+    overlap_ = overlap;
+    overlap_min_groups_ = min_groups;
+  }
+  // Folds the partials waiting in a batch (merger_tables.cc) and waits for
+  // every walk (overlap): afterwards totals() and the rest count every
+  // partial Add took in turn, e.g. when a run is interrupted.
+  void WaitForMerges() {
+    LaunchBatch();
+    Settle();
+  }
+  // Partials folded into the tables in batches so far, and batches folded
+  // again one partial at a time (merger_tables.cc; tests and benchmarks).
   uint64_t batched_partials() const { return batched_partials_; }
+  uint64_t refolded_batches() const { return refolded_batches_; }
   // The machine's hardware threads, at most kMaxDefaultThreads (at least 1).
   static constexpr size_t kMaxDefaultThreads = 16;
   static size_t DefaultThreads();
@@ -227,12 +237,16 @@ class Merger {
   // (RangeTables::PlanBatch / ApplyBatch): each group's states are loaded
   // once per batch instead of once per shard, the same bytes. A batch
   // holds at most kBatchPartials partials and BatchBodyLimit() bytes of
-  // their decompressed bodies (the last one to join may pass it). It is used once the tables are cut into their key
-  // ranges (can_batch), with a reloader, and while no late failure
-  // happened; a batch whose new groups would take the tables past their
-  // limit, or that fails, is folded again one partial at a time (the
-  // tables first rebuilt, if it was partly merged), with the one-at-a-time
-  // path's decisions and messages.
+  // their decompressed bodies (the last one to join may pass it). It is
+  // used once the tables are cut into their key ranges (can_batch), with a
+  // reloader, and while no partial failed late and no measure passed its
+  // limit. A batch is merged only where folding its partials one at a time
+  // would keep the tables (for each partial: the tables' estimate with the
+  // groups the ones before it added, plus its own groups all new, within
+  // the limit — MergeOne's rule, with the new groups counted exactly by
+  // PlanBatch); otherwise, or when it fails, it is folded again one partial
+  // at a time (the tables first rebuilt, if it was partly merged), with
+  // that path's decisions (runs) and messages.
   static constexpr size_t kBatchPartials = 8;
   static constexpr uint64_t kBatchBodyBytes = uint64_t{48} << 20;
   // The bodies a batch may hold: kBatchBodyBytes, or an eighth of the
@@ -248,8 +262,9 @@ class Merger {
     std::vector<BatchEntry> partials;  // in shard order; one unless batch
     bool batch = false;
     bool check_first = false;
-    uint64_t allowance = 0;    // batch: estimated bytes its new groups may add
-    bool too_big = false;      // batch: they would add more (nothing merged)
+    uint64_t table_bytes = 0;  // batch: EstimatedTableBytes() when it started
+    uint64_t limit = UINT64_MAX;  // batch: TableLimit(), or none
+    bool too_big = false;      // batch: one at a time would leave the tables (nothing merged)
     Status status;             // why it was dropped (ok: merged)
     bool partly_merged = false;  // ... after some of it was merged
     Status fatal;              // one partial: a measure past its limit
@@ -261,21 +276,30 @@ class Merger {
   // partials accounted for, or dropped as late failures (the tables
   // rebuilt when partly merged), or a batch folded again one at a time.
   void Settle();
-  // Starts w, after settling the one before it: on a thread of its own
-  // with overlap and may_overlap when it walks at least
-  // RangeTables::kMinGroupsForThreads groups (a thread costs more than a
-  // small walk: 10,000 tiny shards took twice as long with one each).
+  // Starts w (REQUIRES: no walk in flight): on a thread of its own with
+  // overlap and may_overlap when it walks at least overlap_min_groups_
+  // groups (a thread costs more than a small walk: 10,000 tiny shards took
+  // twice as long with one each).
   void StartWalk(std::unique_ptr<TableWalk> w, bool may_overlap);
   // Folds one opened partial (open: why it could not be opened) the
-  // one-at-a-time way; `bytes` are its stored bytes, or empty to reload.
+  // one-at-a-time way, after settling the walk in flight; `bytes` are its
+  // stored bytes, or empty to reload. MergeEach: each of a batch's.
   void MergeOne(uint32_t shard, std::unique_ptr<OpenedPartial> p, std::string bytes, const Status& open,
                 bool may_overlap);
+  void MergeEach(std::vector<BatchEntry> partials, bool may_overlap);
+  // Rebuild(end); on failure the merge's fatal error says `what`.
+  void RebuildOrFail(uint32_t end, const std::string& what);
   bool Batching(const OpenedPartial& p) const;  // may p join the batch?
   void LaunchBatch();  // starts folding batch_, if any
   uint64_t TableLimit() const { return std::min(memory_.merge_bytes / 2, kTableCeilingBytes); }
-  // A body buffer for the next partial (kept ones reused), and back.
+  // Reduction r's estimated bytes per group, and p's groups in it.
+  uint64_t GroupBytes(size_t r) const { return kTableBytesPerGroup + kTableBytesPerState * results_[r].table.measure_count(); }
+  uint64_t GroupsOf(const OpenedPartial& p, size_t r) const;
+  // A body buffer for the next partial (kept ones reused), and back; all
+  // let go once the tables are done with (runs, or the merge complete).
   std::string TakeBodyBuffer();
   void KeepBodyBuffer(std::string body);
+  void ReleaseBodyBuffers();
   // Refolds every reduction's table from scratch over the shards below
   // `end` that were merged, read back with the reloader (after a partial
   // found bad midway through its merge). REQUIRES: reload_ set.
@@ -285,9 +309,9 @@ class Merger {
   void StartRuns();  // moves every reduction's table to a run
   void FoldRuns();   // folds the runs' pending batch, accounting for it
   void DeferLastFold();  // leaves the last batch for the output stage (above)
-  // True iff the batch is the last (no shard left but failed ones) and
-  // deferring applies: it then waits even when full.
-  bool LastFoldWaits() const;
+  // True iff the batch is the last (no shard from `from` on but failed
+  // ones) and deferring applies: it then waits even when full.
+  bool LastFoldWaits(uint32_t from) const;
   Status VisitRunRows(size_t r, const RowVisitor& visit);
   // Adds shard's partial to the runs' batch: its stored bytes (`bytes`,
   // checksum already checked iff `checked`; empty = reload them), or,
@@ -330,6 +354,8 @@ class Merger {
   std::vector<BatchEntry> batch_;  // opened partials waiting to be folded together
   uint64_t batch_bytes_ = 0;       // their bodies' bytes
   uint64_t batched_partials_ = 0;
+  uint64_t refolded_batches_ = 0;
+  uint64_t overlap_min_groups_ = RangeTables::kMinGroupsForThreads;
   bool batch_ready_ = false;       // the tables can take batches (as of the last Settle)
   uint64_t settled_table_bytes_ = 0;  // EstimatedTableBytes() as of the last Settle
   std::unique_ptr<TableWalk> walking_;  // the walk in flight (overlap), if any; last, so joined first

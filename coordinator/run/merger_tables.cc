@@ -9,19 +9,20 @@
 
 namespace fanfold {
 
+uint64_t Merger::GroupsOf(const OpenedPartial& p, size_t r) const {
+  return r < p.reductions.size() ? EncodedGroupCursor(p.reductions[r].groups, results_[r].table.measure_count()).group_count()
+                                 : 0;
+}
+
 uint64_t Merger::EstimatedTableBytes() const {
   uint64_t bytes = 0;
-  for (const ReductionResult& r : results_)
-    bytes += r.table.group_count() * (kTableBytesPerGroup + kTableBytesPerState * r.table.measure_count());
+  for (size_t r = 0; r < results_.size(); ++r) bytes += results_[r].table.group_count() * GroupBytes(r);
   return bytes;
 }
 
 uint64_t Merger::EstimatedTableBytes(const OpenedPartial& p) const {
   uint64_t bytes = 0;
-  for (size_t r = 0; r < results_.size() && r < p.reductions.size(); ++r) {
-    const uint64_t m = results_[r].table.measure_count();
-    bytes += EncodedGroupCursor(p.reductions[r].groups, m).group_count() * (kTableBytesPerGroup + kTableBytesPerState * m);
-  }
+  for (size_t r = 0; r < results_.size(); ++r) bytes += GroupsOf(p, r) * GroupBytes(r);
   return bytes;
 }
 
@@ -43,8 +44,13 @@ Status Merger::Rebuild(uint32_t end) {
   return Status::Ok();
 }
 
+void Merger::RebuildOrFail(uint32_t end, const std::string& what) {
+  Status rebuilt = Rebuild(end);
+  if (!rebuilt.ok() && fatal_.ok()) fatal_ = rebuilt.WithContext(what);
+}
+
 bool Merger::Batching(const OpenedPartial& p) const {
-  if (!reload_ || !batch_ready_ || runs_ || !late_failures_.empty()) return false;
+  if (!reload_ || !batch_ready_ || runs_ || !late_failures_.empty() || !fatal_.ok()) return false;
   if (run_threshold_ == 0) return true;  // tables whatever their size
   // By the share, as MergeOne decides: a partial that alone might take the
   // tables past their limit goes the one-at-a-time way (and to the runs).
@@ -59,20 +65,25 @@ void Merger::LaunchBatch() {
   batch_bytes_ = 0;
   // The walk just settled may have moved the results to runs, or found a
   // bad partial: then one at a time.
-  if (runs_ || !late_failures_.empty() || partials.size() == 1) {
-    for (BatchEntry& e : partials) MergeOne(e.shard, std::move(e.partial), std::string(), Status::Ok(), true);
+  if (runs_ || !late_failures_.empty() || !fatal_.ok() || partials.size() == 1) {
+    MergeEach(std::move(partials), /*may_overlap=*/true);
     return;
   }
   auto w = std::make_unique<TableWalk>();
   w->batch = true;
   w->partials = std::move(partials);
-  const uint64_t tables = EstimatedTableBytes();
-  w->allowance = run_threshold_ == 0 ? UINT64_MAX : TableLimit() - std::min(TableLimit(), tables);
+  w->table_bytes = EstimatedTableBytes();
+  if (run_threshold_ != 0) w->limit = TableLimit();
   StartWalk(std::move(w), /*may_overlap=*/true);
+}
+
+void Merger::MergeEach(std::vector<BatchEntry> partials, bool may_overlap) {
+  for (BatchEntry& e : partials) MergeOne(e.shard, std::move(e.partial), std::string(), Status::Ok(), may_overlap);
 }
 
 void Merger::MergeOne(uint32_t shard, std::unique_ptr<OpenedPartial> p, std::string bytes, const Status& open,
                       bool may_overlap) {
+  Settle();  // the tables' size below, and the runs, need the walk before this one ended
   // By the share: a partial whose groups, were they all new, would take
   // the tables past half of it moves the results to runs first (its
   // group count is in its encoding; telling new groups from old would
@@ -83,7 +94,7 @@ void Merger::MergeOne(uint32_t shard, std::unique_ptr<OpenedPartial> p, std::str
   if (open.ok() && runs_) {  // the fold checks it, and drops it if bad
     KeepBodyBuffer(std::move(p->body));
     AddToRuns(shard, std::move(bytes), /*checked=*/true);
-    if (runs_->BatchFull() && !LastFoldWaits()) FoldRuns();
+    if (runs_->BatchFull() && !LastFoldWaits(shard + 1)) FoldRuns();
     return;
   }
   if (!open.ok()) {  // the checksum matched, so this is a bug or a forged file
@@ -107,13 +118,11 @@ void Merger::MergeOne(uint32_t shard, std::unique_ptr<OpenedPartial> p, std::str
 }
 
 void Merger::StartWalk(std::unique_ptr<TableWalk> w, bool may_overlap) {
-  Settle();
   uint64_t groups = 0;
   for (const BatchEntry& e : w->partials)
-    for (size_t r = 0; r < results_.size(); ++r)
-      groups += EncodedGroupCursor(e.partial->reductions[r].groups, results_[r].table.measure_count()).group_count();
+    for (size_t r = 0; r < results_.size(); ++r) groups += GroupsOf(*e.partial, r);
   walking_ = std::move(w);
-  if (overlap_ && may_overlap && groups >= RangeTables::kMinGroupsForThreads)
+  if (overlap_ && may_overlap && groups >= overlap_min_groups_)
     walking_->thread = std::jthread([this, w = walking_.get()] { Walk(w); });
   else Settle();
 }
@@ -138,24 +147,34 @@ void Merger::Walk(TableWalk* w) {
 }
 
 void Merger::WalkBatch(TableWalk* w) {
-  std::vector<std::string_view> encoded(w->partials.size());
-  uint64_t cost = 0;
+  const size_t n = w->partials.size();
+  std::vector<std::string_view> encoded(n);
+  std::vector<uint64_t> added_bytes(n, 0);  // the estimate of each partial's new groups
+  const auto drop = [&] {
+    for (ReductionResult& r : results_) r.table.DropBatch();
+  };
   for (size_t r = 0; r < results_.size(); ++r) {
-    for (size_t i = 0; i < w->partials.size(); ++i) encoded[i] = w->partials[i].partial->reductions[r].groups;
-    uint64_t added = 0;
+    for (size_t i = 0; i < n; ++i) encoded[i] = w->partials[i].partial->reductions[r].groups;
+    std::vector<uint64_t> added;
     w->status = results_[r].table.PlanBatch(encoded, &added);
-    if (!w->status.ok()) return;  // nothing merged yet
-    cost += added * (kTableBytesPerGroup + kTableBytesPerState * results_[r].table.measure_count());
+    if (!w->status.ok()) return drop();  // nothing merged yet
+    for (size_t i = 0; i < n; ++i) added_bytes[i] += added[i] * GroupBytes(r);
   }
-  if (cost > w->allowance) {
-    w->too_big = true;
-    return;
+  // MergeOne's rule for each partial in turn: the tables with what the
+  // partials before it added, plus its own groups all new.
+  uint64_t tables = w->table_bytes;
+  for (size_t i = 0; i < n && w->limit != UINT64_MAX; ++i) {
+    if (tables + EstimatedTableBytes(*w->partials[i].partial) > w->limit) {
+      w->too_big = true;
+      return drop();
+    }
+    tables += added_bytes[i];
   }
   for (size_t r = 0; r < results_.size(); ++r) {
     w->status = results_[r].table.ApplyBatch();
     if (!w->status.ok()) {
       w->partly_merged = true;
-      return;
+      return drop();
     }
   }
 }
@@ -169,12 +188,10 @@ void Merger::Settle() {
   if (w->batch && (w->too_big || !w->status.ok())) {
     // Folded again one at a time: the same result, with that path's
     // decisions (runs by the share) and failures (messages, rebuilds).
-    if (w->partly_merged) {
-      Status rebuilt = Rebuild(w->partials.front().shard);
-      if (!rebuilt.ok() && fatal_.ok())
-        fatal_ = rebuilt.WithContext("rebuilding the result before shard " + std::to_string(w->partials.front().shard));
-    }
-    for (BatchEntry& e : w->partials) MergeOne(e.shard, std::move(e.partial), std::string(), Status::Ok(), false);
+    ++refolded_batches_;
+    const uint32_t first = w->partials.front().shard;
+    if (w->partly_merged) RebuildOrFail(first, "rebuilding the result before shard " + std::to_string(first));
+    MergeEach(std::move(w->partials), /*may_overlap=*/false);
   } else if (w->status.ok()) {
     for (const BatchEntry& e : w->partials) Account(e.shard, *e.partial);
     if (w->batch) batched_partials_ += w->partials.size();
@@ -182,11 +199,7 @@ void Merger::Settle() {
     const uint32_t shard = w->partials[0].shard;
     late_failures_.push_back({shard, w->status.message()});
     failed_[shard] = true;
-    if (w->partly_merged) {
-      Status rebuilt = Rebuild(shard);
-      if (!rebuilt.ok() && fatal_.ok())
-        fatal_ = rebuilt.WithContext("rebuilding the result without shard " + std::to_string(shard));
-    }
+    if (w->partly_merged) RebuildOrFail(shard, "rebuilding the result without shard " + std::to_string(shard));
   }
   for (BatchEntry& e : w->partials)
     if (e.partial) KeepBodyBuffer(std::move(e.partial->body));
@@ -210,14 +223,20 @@ std::string Merger::TakeBodyBuffer() {
 }
 
 void Merger::KeepBodyBuffer(std::string body) {
-  // Kept while they total at most two batches' bodies (one batch merged
-  // while the next is read), and each at most 64 MiB as the workers'
-  // encode buffers: a huge partial does not pin its memory outside the
-  // merge's share.
+  // Kept while they total at most two batches' bodies (one batch walked
+  // while the next is read) plus one body of up to a quarter of the share
+  // (64 MiB at most, as the workers' encode buffers): a huge partial does
+  // not pin its memory outside the merge's share.
   const uint64_t c = body.capacity();
-  if (c == 0 || c > (uint64_t{64} << 20) || body_buffer_bytes_ + c > 2 * BatchBodyLimit() + (uint64_t{64} << 20)) return;
+  const uint64_t one = std::min<uint64_t>(uint64_t{64} << 20, memory_.merge_bytes / 4);
+  if (c == 0 || c > one || body_buffer_bytes_ + c > 2 * BatchBodyLimit() + one) return;
   body_buffer_bytes_ += c;
   body_buffers_.push_back(std::move(body));
+}
+
+void Merger::ReleaseBodyBuffers() {
+  std::vector<std::string>().swap(body_buffers_);
+  body_buffer_bytes_ = 0;
 }
 
 }  // namespace fanfold

@@ -73,7 +73,7 @@ TEST_CASE("merger: batched and overlapped walks give the one-at-a-time bytes") {
           CAPTURE(shuffled);
           Merger m(plan.get(), n, /*waiting_budget=*/uint64_t{1} << 30);
           m.SetThreads(threads);
-          m.SetOverlap(overlap);
+          m.SetOverlap(overlap, /*min_groups=*/0);  // every walk on a thread of its own
           m.SetReloader([&](uint32_t s, std::string* out) {
             *out = from[s];
             return Status::Ok();
@@ -98,40 +98,82 @@ TEST_CASE("merger: batched and overlapped walks give the one-at-a-time bytes") {
   }
 }
 
-// Intent: a batch whose new groups would take the tables past the merge
-// share's limit (every shard's keys new) is folded again one at a time,
-// which moves the results to sorted runs as that path decides: the same
-// rows as the reference, and no batch counted.
-TEST_CASE("merger: a batch past the tables' limit is folded one at a time") {
+// Intent: under a merge share whose limit holds about two and a half
+// shards' groups (the estimate: Merger::kTableBytesPerGroup and
+// kTableBytesPerState), batches decide as folding one at a time does:
+// shards that all bring new keys move the results to sorted runs at the
+// third shard, so the batch is folded again one at a time; shards over the
+// same keys stay in the tables and are batched. Either way the rows of the
+// one-at-a-time merger, and the same choice of tables or runs.
+TEST_CASE("merger: batches keep the one-at-a-time choice of tables or runs") {
+  const auto plan = CountSumSketchPlan();
+  const uint32_t n = 12;
+  const uint64_t per_shard = 2000 * (Merger::kTableBytesPerGroup + 3 * Merger::kTableBytesPerState);
+  const MergeMemory memory{2 * (2 * per_shard + per_shard / 2), nullptr};
+  for (bool disjoint : {true, false}) {
+    std::map<uint32_t, std::string> disk;
+    for (uint32_t s = 0; s < n; ++s)
+      disk[s] = disjoint ? DisjointPartial(*plan, s, 2000)
+                         : MadePartial(
+                               *plan, s, 2000, [](int g) { return static_cast<double>(g); },
+                               [&](int g) { return Value::Number(0.25 * g + s); });
+    Merger ref(plan.get(), n);  // no reloader: one at a time
+    ref.SetThreads(2);
+    ref.SetMemory(memory);
+    for (uint32_t s = 0; s < n; ++s) REQUIRE(ref.Add(s, disk[s]).ok());
+    CHECK(ref.in_runs() == disjoint);
+    const std::string expected = MergerText(ref);
+    for (bool overlap : {false, true}) {
+      CAPTURE(disjoint);
+      CAPTURE(overlap);
+      Merger m(plan.get(), n, /*waiting_budget=*/uint64_t{1} << 30);
+      m.SetThreads(2);
+      m.SetOverlap(overlap, /*min_groups=*/0);
+      m.SetMemory(memory);
+      m.SetReloader([&](uint32_t s, std::string* out) {
+        *out = disk[s];
+        return Status::Ok();
+      });
+      for (uint32_t s = 0; s < n; ++s) REQUIRE(m.Add(s, disk[s]).ok());
+      REQUIRE(m.complete());
+      CHECK(m.in_runs() == disjoint);
+      if (disjoint) {
+        CHECK(m.refolded_batches() >= 1);
+        CHECK(m.batched_partials() == 0);
+      } else {
+        CHECK(m.refolded_batches() == 0);
+        CHECK(m.batched_partials() >= n / 2);
+      }
+      CHECK(m.late_failures().empty());
+      CHECK(m.totals().shards_merged == n);
+      CHECK(MergerText(m) == expected);
+    }
+  }
+}
+
+// Intent: a merge that stops before its last shard (an interrupted run)
+// counts, after WaitForMerges, every partial it took in turn — those
+// waiting in a batch and the walk in flight too.
+TEST_CASE("merger: WaitForMerges folds the waiting batch") {
   const auto plan = CountSumSketchPlan();
   const uint32_t n = 12;
   std::map<uint32_t, std::string> disk;
-  for (uint32_t s = 0; s < n; ++s) disk[s] = DisjointPartial(*plan, s, 2000);
-  Merger ref(plan.get(), n);
-  ref.SetThreads(1);
-  ref.SetRunThreshold(0, 1);  // tables whatever their size
-  for (uint32_t s = 0; s < n; ++s) REQUIRE(ref.Add(s, disk[s]).ok());
-  const std::string expected = MergerText(ref);
+  for (uint32_t s = 0; s < n; ++s) disk[s] = ShiftedPartial(*plan, s);
   for (bool overlap : {false, true}) {
     CAPTURE(overlap);
     Merger m(plan.get(), n, /*waiting_budget=*/uint64_t{1} << 30);
     m.SetThreads(2);
-    m.SetOverlap(overlap);
-    // The limit (half the share) holds the estimate of about two shards'
-    // groups (Merger::kTableBytesPerGroup and kTableBytesPerState).
-    const uint64_t per_shard = 2000 * (Merger::kTableBytesPerGroup + 3 * Merger::kTableBytesPerState);
-    m.SetMemory(MergeMemory{2 * (2 * per_shard + per_shard / 2), nullptr});
+    m.SetOverlap(overlap, /*min_groups=*/0);
     m.SetReloader([&](uint32_t s, std::string* out) {
       *out = disk[s];
       return Status::Ok();
     });
-    for (uint32_t s = 0; s < n; ++s) REQUIRE(m.Add(s, disk[s]).ok());
-    REQUIRE(m.complete());
-    CHECK(m.in_runs());
-    CHECK(m.batched_partials() == 0);
-    CHECK(m.late_failures().empty());
-    CHECK(m.totals().shards_merged == n);
-    CHECK(MergerText(m) == expected);
+    for (uint32_t s = 0; s + 2 < n; ++s) REQUIRE(m.Add(s, disk[s]).ok());  // the last two never come
+    REQUIRE(!m.complete());
+    m.WaitForMerges();
+    CHECK(m.totals().shards_merged == n - 2);
+    CHECK(m.totals().records == 3000u * (n - 2));
+    CHECK(m.batched_partials() >= 1);
   }
 }
 
