@@ -107,7 +107,6 @@ void Merger::Drain() {
       continue;
     }
     LaunchBatch();  // the shards before this one first
-    Settle();
     const uint32_t shard = next_++;  // counted before the runs' last-fold check
     MergeOne(shard, std::move(p), std::move(bytes), s, /*may_overlap=*/true);
   }

@@ -134,7 +134,9 @@ class Merger {
   }
   // Folds the partials waiting in a batch (merger_tables.cc) and waits for
   // every walk (overlap): afterwards totals() and the rest count every
-  // partial Add took in turn, e.g. when a run is interrupted.
+  // partial Add took in turn into the tables, e.g. when a run is
+  // interrupted (once in runs, the runs' pending batch is counted when it
+  // folds, as before).
   void WaitForMerges() {
     LaunchBatch();
     Settle();

@@ -227,6 +227,7 @@ void Merger::KeepBodyBuffer(std::string body) {
   // while the next is read) plus one body of up to a quarter of the share
   // (64 MiB at most, as the workers' encode buffers): a huge partial does
   // not pin its memory outside the merge's share.
+  if (runs_) return;  // no table walk will take it again
   const uint64_t c = body.capacity();
   const uint64_t one = std::min<uint64_t>(uint64_t{64} << 20, memory_.merge_bytes / 4);
   if (c == 0 || c > one || body_buffer_bytes_ + c > 2 * BatchBodyLimit() + one) return;

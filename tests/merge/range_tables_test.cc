@@ -82,6 +82,7 @@ TEST_CASE("range_tables: 1, 2, 3 and 7 ranges encode as one table") {
     for (size_t i = 0; i < t.range_count(); ++i) CHECK(t.merged_groups(i) > 0);
     t.Clear();
     CHECK(t.group_count() == 0);
+    for (size_t i = 0; i < t.range_count(); ++i) CHECK(t.merged_groups(i) == 0);
   }
 }
 
@@ -121,7 +122,8 @@ TEST_CASE("range_tables: a malformed partial fails as one table's check says") {
 // adds after the ones before it (a plain table folding them in turn).
 TEST_CASE("range_tables: batches fold as the partials one at a time") {
   const std::vector<MeasureConfig> configs = testing::AllKindConfigs();
-  const std::vector<std::string> tables = ShardTables(&configs, 12, 3000, 2500);
+  std::vector<std::string> tables = ShardTables(&configs, 12, 3000, 2500);
+  tables.push_back(tables[0]);  // last, a shard of low keys only: ranges it has no group in
   const size_t extra_after = 6;  // a group added with FindOrAdd after this shard
   const std::string extra_key = KeyOf(1000000);
   GroupTable reference(&configs);

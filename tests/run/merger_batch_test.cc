@@ -102,29 +102,35 @@ TEST_CASE("merger: batched and overlapped walks give the one-at-a-time bytes") {
 // shards' groups (the estimate: Merger::kTableBytesPerGroup and
 // kTableBytesPerState), batches decide as folding one at a time does:
 // shards that all bring new keys move the results to sorted runs at the
-// third shard, so the batch is folded again one at a time; shards over the
-// same keys stay in the tables and are batched. Either way the rows of the
-// one-at-a-time merger, and the same choice of tables or runs.
+// third shard, and shards that each bring a tenth new keys at the eighth
+// (where the batch's new groups alone, 0.8 of a shard, would still fit), so
+// their batch is folded again one at a time; shards over the same keys stay
+// in the tables and are batched. Either way the rows of the one-at-a-time
+// merger, and the same choice of tables or runs.
 TEST_CASE("merger: batches keep the one-at-a-time choice of tables or runs") {
   const auto plan = CountSumSketchPlan();
   const uint32_t n = 12;
   const uint64_t per_shard = 2000 * (Merger::kTableBytesPerGroup + 3 * Merger::kTableBytesPerState);
   const MergeMemory memory{2 * (2 * per_shard + per_shard / 2), nullptr};
-  for (bool disjoint : {true, false}) {
+  enum class Keys { kDisjoint, kTenthNew, kShared };
+  for (Keys keys : {Keys::kDisjoint, Keys::kTenthNew, Keys::kShared}) {
+    const bool to_runs = keys != Keys::kShared;
     std::map<uint32_t, std::string> disk;
     for (uint32_t s = 0; s < n; ++s)
-      disk[s] = disjoint ? DisjointPartial(*plan, s, 2000)
-                         : MadePartial(
-                               *plan, s, 2000, [](int g) { return static_cast<double>(g); },
-                               [&](int g) { return Value::Number(0.25 * g + s); });
+      disk[s] = keys == Keys::kDisjoint
+                    ? DisjointPartial(*plan, s, 2000)
+                    : MadePartial(
+                          *plan, s, 2000,
+                          [&](int g) { return static_cast<double>(g + (keys == Keys::kTenthNew ? 200 * s : 0)); },
+                          [&](int g) { return Value::Number(0.25 * g + s); });
     Merger ref(plan.get(), n);  // no reloader: one at a time
     ref.SetThreads(2);
     ref.SetMemory(memory);
     for (uint32_t s = 0; s < n; ++s) REQUIRE(ref.Add(s, disk[s]).ok());
-    CHECK(ref.in_runs() == disjoint);
+    CHECK(ref.in_runs() == to_runs);
     const std::string expected = MergerText(ref);
     for (bool overlap : {false, true}) {
-      CAPTURE(disjoint);
+      CAPTURE(static_cast<int>(keys));
       CAPTURE(overlap);
       Merger m(plan.get(), n, /*waiting_budget=*/uint64_t{1} << 30);
       m.SetThreads(2);
@@ -136,10 +142,10 @@ TEST_CASE("merger: batches keep the one-at-a-time choice of tables or runs") {
       });
       for (uint32_t s = 0; s < n; ++s) REQUIRE(m.Add(s, disk[s]).ok());
       REQUIRE(m.complete());
-      CHECK(m.in_runs() == disjoint);
-      if (disjoint) {
+      CHECK(m.in_runs() == to_runs);
+      if (to_runs) {
         CHECK(m.refolded_batches() >= 1);
-        CHECK(m.batched_partials() == 0);
+        if (keys == Keys::kDisjoint) CHECK(m.batched_partials() == 0);  // the first batch already leaves the tables
       } else {
         CHECK(m.refolded_batches() == 0);
         CHECK(m.batched_partials() >= n / 2);
