@@ -156,11 +156,10 @@ Status RangeTables::Walk(std::string_view encoded, bool merge) {
   // hold nothing before it, and are not walked.
   const size_t walked = std::min(bad_range, tables_.size() - 1) + 1;
   std::vector<Status> done(walked);
-  uint64_t groups = 0;
-  for (size_t i = 0; i < walked; ++i) groups += slices[i].count;
-  OnRanges(walked, groups, [&](size_t i) {
+  std::vector<uint64_t> groups(walked);
+  for (size_t i = 0; i < walked; ++i) groups[i] = slices[i].count;
+  OnRanges(groups, [&](size_t i) {
     const Slice& s = slices[i];
-    if (s.count == 0 && i > 0) return;
     const std::string_view bytes = encoded.substr(s.begin, s.end - s.begin);
     done[i] = merge ? tables_[i].MergeEncodedGroups(bytes, s.count, s.first)
                     : tables_[i].CheckEncodedGroups(bytes, s.count, s.first);
@@ -173,19 +172,28 @@ Status RangeTables::Walk(std::string_view encoded, bool merge) {
 }
 
 template <class RangeWalk>
-void RangeTables::OnRanges(size_t n, uint64_t groups, const RangeWalk& walk) {
+void RangeTables::OnRanges(const std::vector<uint64_t>& groups, const RangeWalk& walk) {
+  const size_t n = groups.size();
   std::vector<double> cpu(n, 0.0);
   const auto timed = [&](size_t i) {
+    if (groups[i] == 0) return;  // nothing to walk
     const double c0 = ThreadCpuSeconds();
     walk(i);
     cpu[i] = ThreadCpuSeconds() - c0;
   };
-  const bool threaded = groups >= min_groups_for_threads_;
+  uint64_t all = 0;
+  size_t busy = 0;
+  for (uint64_t g : groups) {
+    all += g;
+    busy += g > 0 ? 1 : 0;
+  }
+  const bool threaded = all >= min_groups_for_threads_ && busy > 1;
   if (!threaded) {  // starting threads would cost more than they save
     for (size_t i = 0; i < n; ++i) timed(i);
   } else {
     std::vector<std::jthread> running;
-    for (size_t i = 1; i < n; ++i) running.emplace_back([&timed, i] { timed(i); });
+    for (size_t i = 1; i < n; ++i)
+      if (groups[i] > 0) running.emplace_back([&timed, i] { timed(i); });
     timed(0);
   }
   double sum = 0, slowest = 0;
@@ -203,7 +211,6 @@ Status RangeTables::PlanBatch(const std::vector<std::string_view>& encoded, std:
   std::vector<std::vector<GroupTable::EncodedSlice>> per_range(ranges);
   std::vector<std::vector<size_t>> input_of(ranges);  // per range: each slice's encoding
   batch_groups_.assign(ranges, 0);
-  uint64_t groups = 0;
   std::vector<Slice> slices;
   for (size_t e = 0; e < encoded.size(); ++e) {
     size_t bad_range = 0;
@@ -214,12 +221,11 @@ Status RangeTables::PlanBatch(const std::vector<std::string_view>& encoded, std:
       per_range[i].push_back(GroupTable::EncodedSlice{encoded[e].substr(s.begin, s.end - s.begin), s.count, s.first});
       input_of[i].push_back(e);
       batch_groups_[i] += s.count;
-      groups += s.count;
     }
   }
   std::vector<Status> done(ranges);
   std::vector<std::vector<uint64_t>> added(ranges);
-  OnRanges(ranges, groups, [&](size_t i) { done[i] = tables_[i].PlanBatch(per_range[i], &added[i]); });
+  OnRanges(batch_groups_, [&](size_t i) { done[i] = tables_[i].PlanBatch(per_range[i], &added[i]); });
   for (size_t i = 0; i < ranges; ++i) {
     if (!done[i].ok()) {
       DropBatch();
@@ -232,10 +238,8 @@ Status RangeTables::PlanBatch(const std::vector<std::string_view>& encoded, std:
 
 Status RangeTables::ApplyBatch() {
   const size_t ranges = tables_.size();
-  uint64_t groups = 0;
-  for (uint64_t g : batch_groups_) groups += g;
   std::vector<Status> done(ranges);
-  OnRanges(ranges, groups, [&](size_t i) { done[i] = tables_[i].ApplyBatch(); });
+  OnRanges(batch_groups_, [&](size_t i) { done[i] = tables_[i].ApplyBatch(); });
   for (size_t i = 0; i < ranges; ++i) {
     FF_RETURN_IF_ERROR(done[i]);
     merged_[i] += batch_groups_[i];

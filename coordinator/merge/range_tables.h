@@ -119,11 +119,12 @@ class RangeTables {
  private:
   using Slice = RangeSlice;
   Status Walk(std::string_view encoded, bool merge);
-  // Runs walk(i) for ranges i < n, on threads of their own (0 on the
-  // calling one) when `groups` is at least min_groups_for_threads_, and
-  // adds their CPU times to the walks' totals.
+  // Runs walk(i) for each range i with groups[i] > 0 — on threads of their
+  // own (range 0's on the calling one) when they total at least
+  // min_groups_for_threads_ and more than one range has groups — and adds
+  // their CPU times to the walks' totals.
   template <class RangeWalk>
-  void OnRanges(size_t n, uint64_t groups, const RangeWalk& walk);
+  void OnRanges(const std::vector<uint64_t>& groups, const RangeWalk& walk);
   Status Cut(std::string_view encoded, std::vector<Slice>* slices, size_t* bad_range) {
     return CutByKeys(encoded, configs_->size(), cuts_, slices, bad_range);
   }
