@@ -8,9 +8,9 @@
 // --check-first leaves the reloader out, and every partial is checked
 // before it is merged (two decodes). --runs GROUPS[:THREADS] sets the
 // merger's sorted-run threshold (0: tables only; docs/streaming-merge.md).
-// --overlap no walks each partial before Add returns (default yes: the
-// walk runs beside the next partial's copy, check and decompression, as in
-// a run; the critical path figure then still adds the two, an upper bound).
+// --overlap no walks each partial (or batch) before Add returns (default
+// yes: the walk runs beside the next partials' copy, check and
+// decompression, as in a run; the critical-path figure is then null).
 // Encoding is not timed: T templates are
 // encoded once, and each partial is a copy of one with its shard index
 // restamped. --time-limit stops early and extrapolates to all P partials.
@@ -266,11 +266,11 @@ int Run(const BenchOptions& o) {
   // so it holds on a busy machine where the wall time does not). Only
   // without overlap: with it the walks also run beside the decompression,
   // and the figure would add what overlaps (JSON null).
-  const double critical_cpu_s =
-      merger.in_runs() ? merge_cpu_s
-                       : merge_cpu_s - merger.tables(0).walk_cpu_s() + merger.tables(0).critical_walk_cpu_s();
   char critical[64] = "null", critical_ratio[64] = "null";
   if (!o.overlap) {
+    const double critical_cpu_s =
+        merger.in_runs() ? merge_cpu_s
+                         : merge_cpu_s - merger.tables(0).walk_cpu_s() + merger.tables(0).critical_walk_cpu_s();
     std::snprintf(critical, sizeof critical, "%.4f", critical_cpu_s);
     std::snprintf(critical_ratio, sizeof critical_ratio, "%.2f", critical_cpu_s / dz.cpu_s);
   }

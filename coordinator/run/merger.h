@@ -116,9 +116,9 @@ class Merger {
   // SetRunThreshold says otherwise). The bytes do not depend on it.
   // Default: DefaultThreads(). REQUIRES: called before the first Add.
   void SetThreads(size_t threads);
-  // With overlap on, the in-memory tables' walk of a partial runs on a
-  // thread of its own while Add returns, so the next partial is read,
-  // checked and decompressed beside it (on the benchmark's 744 partials
+  // With overlap on, the in-memory tables' walk of a partial (or of a
+  // batch of them) runs on a thread of its own while Add returns, so the
+  // next partials are read, checked and decompressed beside it (on the benchmark's 744 partials
   // the decompression was a serial third of the merge). The walk is
   // settled — its failures recorded, its counts added — before the next
   // partial's walk starts, before anything reads the tables, and once
@@ -261,8 +261,10 @@ class Merger {
   // One walk over the tables (one partial, or a batch): its outcome,
   // filled by Walk (on the walk's thread with overlap), read by Settle.
   struct TableWalk {
-    std::vector<BatchEntry> partials;  // in shard order; one unless batch
-    bool batch = false;
+    std::vector<BatchEntry> partials;  // in shard order
+    // A batch (WalkBatch) iff more than one: LaunchBatch sends a lone
+    // partial the one-at-a-time way.
+    bool batch() const { return partials.size() > 1; }
     bool check_first = false;
     uint64_t table_bytes = 0;  // batch: EstimatedTableBytes() when it started
     uint64_t limit = UINT64_MAX;  // batch: TableLimit(), or none

@@ -70,7 +70,6 @@ void Merger::LaunchBatch() {
     return;
   }
   auto w = std::make_unique<TableWalk>();
-  w->batch = true;
   w->partials = std::move(partials);
   w->table_bytes = EstimatedTableBytes();
   if (run_threshold_ != 0) w->limit = TableLimit();
@@ -128,7 +127,7 @@ void Merger::StartWalk(std::unique_ptr<TableWalk> w, bool may_overlap) {
 }
 
 void Merger::Walk(TableWalk* w) {
-  if (w->batch) return WalkBatch(w);
+  if (w->batch()) return WalkBatch(w);
   const uint32_t shard = w->partials[0].shard;
   const OpenedPartial& p = *w->partials[0].partial;
   Status s;
@@ -185,7 +184,7 @@ void Merger::Settle() {
   if (w->thread.joinable()) w->thread.join();
   else Walk(w.get());
   if (!w->fatal.ok() && fatal_.ok()) fatal_ = w->fatal;
-  if (w->batch && (w->too_big || !w->status.ok())) {
+  if (w->batch() && (w->too_big || !w->status.ok())) {
     // Folded again one at a time: the same result, with that path's
     // decisions (runs by the share) and failures (messages, rebuilds).
     ++refolded_batches_;
@@ -194,7 +193,7 @@ void Merger::Settle() {
     MergeEach(std::move(w->partials), /*may_overlap=*/false);
   } else if (w->status.ok()) {
     for (const BatchEntry& e : w->partials) Account(e.shard, *e.partial);
-    if (w->batch) batched_partials_ += w->partials.size();
+    if (w->batch()) batched_partials_ += w->partials.size();
   } else {  // the checksum matched, so this is a bug or a forged file
     const uint32_t shard = w->partials[0].shard;
     late_failures_.push_back({shard, w->status.message()});

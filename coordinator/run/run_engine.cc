@@ -207,7 +207,7 @@ Status RunEngine::Run() {
     return dir_.commit_due() ? dir_.Commit() : Status::Ok();
   };
   Status s = RunShards(list_, order, **transport, merger_, lo, &loop_);
-  merger_.WaitForMerges();  // an interrupted run's last walk is counted too
+  merger_.WaitForMerges();  // an interrupted run counts its waiting batch and last walk too
   meter.Finish();
   (*transport)->Shutdown();
   return Commit(s);
